@@ -1,0 +1,35 @@
+// Package receiver turns an sdr.Source into events: channel selection, the
+// front end, burst detection and per-burst measurement.
+package receiver
+
+import "time"
+
+// LevelSample is one reading of channel power.
+type LevelSample struct {
+	// Sample is the index, at the input sample rate, of the reading's centre.
+	Sample int64 `json:"sample"`
+	// T is seconds from capture start.
+	T float64 `json:"t_s"`
+	// LevelDB is channel power in dBFS.
+	LevelDB float64 `json:"level_dbfs"`
+}
+
+// Burst is one transmission found in the channel.
+type Burst struct {
+	Index       int       `json:"index"`
+	StartSample int64     `json:"start_sample"`
+	EndSample   int64     `json:"end_sample"`
+	StartS      float64   `json:"start_s"`
+	EndS        float64   `json:"end_s"`
+	Start       time.Time `json:"-"`
+	End         time.Time `json:"-"`
+	OffsetHz    float64   `json:"offset_hz"`
+	FreqHz      float64   `json:"freq_hz,omitempty"`
+	LevelDB     float64   `json:"level_dbfs"`
+	PeakDB      float64   `json:"peak_dbfs"`
+	NoiseDB     float64   `json:"noise_dbfs"`
+	SNRDB       float64   `json:"snr_db"`
+	Clipped     float64   `json:"clipped"`
+	// Level is the level track over the burst (≥ 100 readings a second).
+	Level []LevelSample `json:"-"`
+}
