@@ -49,20 +49,20 @@ const (
 	nC3x      = (nC3 * (nC3 - 1)) / 2
 	nC        = geodOrder + 1
 
-	degree  = math.Pi / 180
-	maxit1  = 20
-	maxit2  = maxit1 + 53 + 10 // 53 = mantissa digits of float64
-	dblEps  = 2.220446049250313e-16
-	realMin = 2.2250738585072014e-308
+	radPerDeg = math.Pi / 180
+	maxit1    = 20
+	maxit2    = maxit1 + 53 + 10 // 53 = mantissa digits of float64
+	dblEps    = 2.220446049250313e-16
+	realMin   = 2.2250738585072014e-308
 )
 
 var (
-	tiny    = math.Sqrt(realMin)
-	tol0    = dblEps
-	tol1    = 200 * tol0
-	tol2    = math.Sqrt(tol0)
-	tolb    = tol0
-	xthresh = 1000 * tol2
+	geodTiny = math.Sqrt(realMin)
+	tol0     = dblEps
+	tol1     = 200 * tol0
+	tol2     = math.Sqrt(tol0)
+	tolb     = tol0
+	xthresh  = 1000 * tol2
 )
 
 // Ellipsoid is an oblate ellipsoid of revolution on which geodesics are solved.
@@ -107,7 +107,7 @@ func NewEllipsoid(aM, f float64) (Ellipsoid, error) {
 	g := &ellipsoid{a: aM, f: f}
 	g.f1 = 1 - f
 	g.e2 = f * (2 - f)
-	g.ep2 = g.e2 / sq(g.f1)
+	g.ep2 = g.e2 / sqx(g.f1)
 	g.n = f / (2 - f)
 	g.b = aM * g.f1
 	// Threshold of sig12 for "really short" lines (see geodesic.c).
@@ -164,7 +164,7 @@ func NormalizeDeg(angleDeg float64) float64 {
 	if r < 0 {
 		r += 360
 	}
-	if r >= 360 { // r was a tiny negative number
+	if r >= 360 { // r was a geodTiny negative number
 		r = 0
 	}
 	return r + 0 // turn −0 into +0
@@ -185,7 +185,7 @@ func (e Ellipsoid) Direct(lat1, lon1, azi1Deg, s12M float64) (lat2, lon2, azi2De
 
 // ---- small helpers (GeographicLib Math) ----
 
-func sq(x float64) float64 { return x * x }
+func sqx(x float64) float64 { return x * x }
 
 // sumx is the error-free sum: u + v = s + t exactly.
 func sumx(u, v float64) (s, t float64) {
@@ -202,7 +202,7 @@ func sumx(u, v float64) (s, t float64) {
 	return s, t
 }
 
-// polyval evaluates the polynomial of degree n with coefficients p (highest first).
+// polyval evaluates the polynomial of radPerDeg n with coefficients p (highest first).
 func polyval(n int, p []float64, x float64) float64 {
 	if n < 0 {
 		return 0
@@ -249,7 +249,7 @@ func angDiff(x, y float64) (d, e float64) {
 	return d, t
 }
 
-// angRound rounds tiny values so that 1/16 − (1/16 − x) is exact, which keeps
+// angRound rounds geodTiny values so that 1/16 − (1/16 − x) is exact, which keeps
 // nearly-equatorial or nearly-meridional cases symmetric.
 func angRound(x float64) float64 {
 	const z = 1.0 / 16
@@ -273,7 +273,7 @@ func remquo90(x float64) (float64, int) {
 }
 
 func sincosQuadrant(r float64, q int, x float64) (sinx, cosx float64) {
-	s, c := math.Sincos(r * degree)
+	s, c := math.Sincos(r * radPerDeg)
 	switch uint(q) & 3 {
 	case 0:
 		sinx, cosx = s, c
@@ -314,7 +314,7 @@ func atan2d(y, x float64) float64 {
 		x = -x
 		q++
 	}
-	ang := math.Atan2(y, x) / degree
+	ang := math.Atan2(y, x) / radPerDeg
 	switch q {
 	case 1:
 		ang = math.Copysign(180, y) - ang
@@ -362,7 +362,7 @@ func (g *ellipsoid) direct(lat1, lon1, azi1, s12 float64) (lat2, lon2, azi2 floa
 	sbet1, cbet1 := sincosd(angRound(lat1))
 	sbet1 *= g.f1
 	sbet1, cbet1 = norm2(sbet1, cbet1)
-	cbet1 = math.Max(tiny, cbet1)
+	cbet1 = math.Max(geodTiny, cbet1)
 
 	// sin(alp1) cos(bet1) = sin(alp0)
 	salp0 := salp1 * cbet1
@@ -377,7 +377,7 @@ func (g *ellipsoid) direct(lat1, lon1, azi1, s12 float64) (lat2, lon2, azi2 floa
 	comg1 := csig1
 	ssig1, csig1 = norm2(ssig1, csig1)
 
-	k2 := sq(calp0) * g.ep2
+	k2 := sqx(calp0) * g.ep2
 	eps := k2 / (2*(1+math.Sqrt(1+k2)) + k2)
 
 	a1m1 := a1m1f(eps)
@@ -404,7 +404,7 @@ func (g *ellipsoid) direct(lat1, lon1, azi1, s12 float64) (lat2, lon2, azi2 floa
 		csig2 := csig1*csig12 - ssig1*ssig12
 		b12 = sinCosSeries(true, ssig2, csig2, c1a[:], nC1)
 		serr := (1+a1m1)*(sig12+(b12-b11)) - s12/g.b
-		sig12 -= serr / math.Sqrt(1+k2*sq(ssig2))
+		sig12 -= serr / math.Sqrt(1+k2*sqx(ssig2))
 		ssig12, csig12 = math.Sincos(sig12)
 	}
 
@@ -413,7 +413,7 @@ func (g *ellipsoid) direct(lat1, lon1, azi1, s12 float64) (lat2, lon2, azi2 floa
 	sbet2 := calp0 * ssig2
 	cbet2 := math.Hypot(salp0, calp0*csig2)
 	if cbet2 == 0 {
-		cbet2, csig2 = tiny, tiny
+		cbet2, csig2 = geodTiny, geodTiny
 	}
 	salp2 := salp0
 	calp2 := calp0 * csig2
@@ -421,7 +421,7 @@ func (g *ellipsoid) direct(lat1, lon1, azi1, s12 float64) (lat2, lon2, azi2 floa
 	comg2 := csig2
 	omg12 := math.Atan2(somg2*comg1-comg2*somg1, comg2*comg1+somg2*somg1)
 	lam12 := omg12 + a3c*(sig12+(sinCosSeries(true, ssig2, csig2, c3a[:], nC3-1)-b31))
-	lon12 := lam12 / degree
+	lon12 := lam12 / radPerDeg
 	lon2 = angNormalize(angNormalize(lon1) + angNormalize(lon12))
 	lat2 = atan2d(sbet2, g.f1*cbet2)
 	azi2 = atan2d(salp2, calp2)
@@ -441,7 +441,7 @@ func (g *ellipsoid) inverse(lat1, lon1, lat2, lon2 float64) (s12, salp1, calp1, 
 	}
 	lon12 *= lonsign
 	lon12s *= lonsign
-	lam12 := lon12 * degree
+	lam12 := lon12 * radPerDeg
 	slam12, clam12 := sincosde(lon12, lon12s)
 	lon12s = (180 - lon12) - lon12s // supplementary longitude difference
 
@@ -467,11 +467,11 @@ func (g *ellipsoid) inverse(lat1, lon1, lat2, lon2 float64) (s12, salp1, calp1, 
 	sbet1, cbet1 := sincosd(lat1)
 	sbet1 *= g.f1
 	sbet1, cbet1 = norm2(sbet1, cbet1)
-	cbet1 = math.Max(tiny, cbet1)
+	cbet1 = math.Max(geodTiny, cbet1)
 	sbet2, cbet2 := sincosd(lat2)
 	sbet2 *= g.f1
 	sbet2, cbet2 = norm2(sbet2, cbet2)
-	cbet2 = math.Max(tiny, cbet2)
+	cbet2 = math.Max(geodTiny, cbet2)
 
 	// Force bet2 = ±bet1 exactly when the difference vanishes.
 	if cbet1 < -sbet1 {
@@ -482,8 +482,8 @@ func (g *ellipsoid) inverse(lat1, lon1, lat2, lon2 float64) (s12, salp1, calp1, 
 		cbet2 = cbet1
 	}
 
-	dn1 := math.Sqrt(1 + g.ep2*sq(sbet1))
-	dn2 := math.Sqrt(1 + g.ep2*sq(sbet2))
+	dn1 := math.Sqrt(1 + g.ep2*sqx(sbet1))
+	dn2 := math.Sqrt(1 + g.ep2*sqx(sbet2))
 
 	var sig12, s12x, m12x float64
 	meridian := lat1 == -90 || slam12 == 0
@@ -496,7 +496,7 @@ func (g *ellipsoid) inverse(lat1, lon1, lat2, lon2 float64) (s12, salp1, calp1, 
 		sig12 = math.Atan2(math.Max(0, csig1*ssig2-ssig1*csig2)+0, csig1*csig2+ssig1*ssig2)
 		s12x, m12x = g.lengths(g.n, sig12, ssig1, csig1, dn1, ssig2, csig2, dn2, true, ca[:])
 		if sig12 < 1 || m12x >= 0 {
-			if sig12 < 3*tiny || (sig12 < tol0 && (s12x < 0 || m12x < 0)) {
+			if sig12 < 3*geodTiny || (sig12 < tol0 && (s12x < 0 || m12x < 0)) {
 				sig12, m12x, s12x = 0, 0, 0
 			}
 			s12x *= g.b
@@ -520,8 +520,8 @@ func (g *ellipsoid) inverse(lat1, lon1, lat2, lon2 float64) (s12, salp1, calp1, 
 			s12x = sig12 * g.b * dnm
 		} else {
 			var ssig1, csig1, ssig2, csig2, eps float64
-			salp1a, calp1a := tiny, 1.0
-			salp1b, calp1b := tiny, -1.0
+			salp1a, calp1a := geodTiny, 1.0
+			salp1b, calp1b := geodTiny, -1.0
 			tripn, tripb := false, false
 			for numit := 0; ; numit++ {
 				var v, dv float64
@@ -613,15 +613,15 @@ func (g *ellipsoid) lengths(eps, sig12, ssig1, csig1, dn1, ssig2, csig2, dn2 flo
 
 // astroid solves k⁴+2k³−(x²+y²−1)k²−2y²k−y² = 0 for the positive root k.
 func astroid(x, y float64) float64 {
-	p := sq(x)
-	q := sq(y)
+	p := sqx(x)
+	q := sqx(y)
 	r := (p + q - 1) / 6
 	if q == 0 && r <= 0 {
 		// y = 0 with |x| <= 1.
 		return 0
 	}
 	s := p * q / 4 // r³ s
-	r2 := sq(r)
+	r2 := sqx(r)
 	r3 := r * r2
 	disc := s * (s + 2*r3) // zero on the evolute p^(1/3)+q^(1/3) = 1
 	u := r
@@ -640,7 +640,7 @@ func astroid(x, y float64) float64 {
 		ang := math.Atan2(math.Sqrt(-disc), -(s + r3))
 		u += 2 * r * math.Cos(ang/3)
 	}
-	v := math.Sqrt(sq(u) + q)
+	v := math.Sqrt(sqx(u) + q)
 	var uv float64
 	if u < 0 {
 		uv = q / (v - u)
@@ -648,7 +648,7 @@ func astroid(x, y float64) float64 {
 		uv = u + v
 	}
 	w := (uv - q) / (2 * v)
-	return uv / (math.Sqrt(uv+sq(w)) + w)
+	return uv / (math.Sqrt(uv+sqx(w)) + w)
 }
 
 // inverseStart returns a starting alp1 for Newton's method (sig12 = −1) or, for
@@ -662,8 +662,8 @@ func (g *ellipsoid) inverseStart(sbet1, cbet1, sbet2, cbet2,
 	shortline := cbet12 >= 0 && sbet12 < 0.5 && cbet2*lam12 < 0.5
 	var somg12, comg12 float64
 	if shortline {
-		sbetm2 := sq(sbet1 + sbet2)
-		sbetm2 /= sbetm2 + sq(cbet1+cbet2)
+		sbetm2 := sqx(sbet1 + sbet2)
+		sbetm2 /= sbetm2 + sqx(cbet1+cbet2)
 		dnm = math.Sqrt(1 + g.ep2*sbetm2)
 		omg12 := lam12 / (g.f1 * dnm)
 		somg12, comg12 = math.Sincos(omg12)
@@ -673,9 +673,9 @@ func (g *ellipsoid) inverseStart(sbet1, cbet1, sbet2, cbet2,
 
 	salp1 = cbet2 * somg12
 	if comg12 >= 0 {
-		calp1 = sbet12 + cbet2*sbet1*sq(somg12)/(1+comg12)
+		calp1 = sbet12 + cbet2*sbet1*sqx(somg12)/(1+comg12)
 	} else {
-		calp1 = sbet12a - cbet2*sbet1*sq(somg12)/(1-comg12)
+		calp1 = sbet12a - cbet2*sbet1*sqx(somg12)/(1-comg12)
 	}
 	ssig12 := math.Hypot(salp1, calp1)
 	csig12 := sbet1*sbet2 + cbet1*cbet2*comg12
@@ -685,17 +685,17 @@ func (g *ellipsoid) inverseStart(sbet1, cbet1, sbet2, cbet2,
 		salp2 = cbet1 * somg12
 		t := 1 - comg12
 		if comg12 >= 0 {
-			t = sq(somg12) / (1 + comg12)
+			t = sqx(somg12) / (1 + comg12)
 		}
 		calp2 = sbet12 - cbet1*sbet2*t
 		salp2, calp2 = norm2(salp2, calp2)
 		sig12 = math.Atan2(ssig12, csig12)
-	} else if math.Abs(g.n) > 0.1 || csig12 >= 0 || ssig12 >= 6*math.Abs(g.n)*math.Pi*sq(cbet1) {
+	} else if math.Abs(g.n) > 0.1 || csig12 >= 0 || ssig12 >= 6*math.Abs(g.n)*math.Pi*sqx(cbet1) {
 		// The zeroth-order spherical approximation is good enough.
 	} else {
 		// Nearly antipodal (f > 0 here): scale to the astroid problem.
 		lam12x := math.Atan2(-slam12, -clam12) // lam12 − π
-		k2 := sq(sbet1) * g.ep2
+		k2 := sqx(sbet1) * g.ep2
 		eps := k2 / (2*(1+math.Sqrt(1+k2)) + k2)
 		lamscale := g.f * cbet1 * g.a3f(eps) * math.Pi
 		betscale := lamscale * cbet1
@@ -704,14 +704,14 @@ func (g *ellipsoid) inverseStart(sbet1, cbet1, sbet2, cbet2,
 		if y > -tol1 && x > -1-xthresh {
 			// Strip near the cut.
 			salp1 = math.Min(1, -x)
-			calp1 = -math.Sqrt(1 - sq(salp1))
+			calp1 = -math.Sqrt(1 - sqx(salp1))
 		} else {
 			k := astroid(x, y)
 			omg12a := lamscale * (-x * k / (1 + k))
 			somg12, comg12 = math.Sincos(omg12a)
 			comg12 = -comg12
 			salp1 = cbet2 * somg12
-			calp1 = sbet12a - cbet2*sbet1*sq(somg12)/(1-comg12)
+			calp1 = sbet12a - cbet2*sbet1*sqx(somg12)/(1-comg12)
 		}
 	}
 	// Sanity check on the starting guess (written to let NaN through).
@@ -729,7 +729,7 @@ func (g *ellipsoid) lambda12(sbet1, cbet1, dn1, sbet2, cbet2, dn2, salp1, calp1,
 	v, dlam12, salp2, calp2, sig12, ssig1, csig1, ssig2, csig2, eps float64) {
 	if sbet1 == 0 && calp1 == 0 {
 		// Break the degeneracy of the equatorial line.
-		calp1 = -tiny
+		calp1 = -geodTiny
 	}
 	salp0 := salp1 * cbet1
 	calp0 := math.Hypot(calp1, salp1*sbet1)
@@ -753,7 +753,7 @@ func (g *ellipsoid) lambda12(sbet1, cbet1, dn1, sbet2, cbet2, dn2, salp1, calp1,
 		} else {
 			d = (sbet1 - sbet2) * (sbet1 + sbet2)
 		}
-		calp2 = math.Sqrt(sq(calp1*cbet1)+d) / cbet2
+		calp2 = math.Sqrt(sqx(calp1*cbet1)+d) / cbet2
 	} else {
 		calp2 = math.Abs(calp1)
 	}
@@ -767,7 +767,7 @@ func (g *ellipsoid) lambda12(sbet1, cbet1, dn1, sbet2, cbet2, dn2, salp1, calp1,
 	somg12 := math.Max(0, comg1*somg2-somg1*comg2) + 0
 	comg12 := comg1*comg2 + somg1*somg2
 	eta := math.Atan2(somg12*clam120-comg12*slam120, comg12*clam120+somg12*slam120)
-	k2 := sq(calp0) * g.ep2
+	k2 := sqx(calp0) * g.ep2
 	eps = k2 / (2*(1+math.Sqrt(1+k2)) + k2)
 	g.c3f(eps, ca)
 	b312 := sinCosSeries(true, ssig2, csig2, ca, nC3-1) - sinCosSeries(true, ssig1, csig1, ca, nC3-1)
@@ -805,7 +805,7 @@ func (g *ellipsoid) c3f(eps float64, c []float64) {
 func a1m1f(eps float64) float64 {
 	coeff := [...]float64{1, 4, 64, 0, 256}
 	m := nA1 / 2
-	t := polyval(m, coeff[:], sq(eps)) / coeff[m+1]
+	t := polyval(m, coeff[:], sqx(eps)) / coeff[m+1]
 	return (t + eps) / (1 - eps)
 }
 
@@ -838,7 +838,7 @@ var c2Coeff = [...]float64{
 
 // evenSeries fills c[1..n] from a coefficient table in eps² (C1, C1', C2).
 func evenSeries(coeff []float64, n int, eps float64, c []float64) {
-	eps2 := sq(eps)
+	eps2 := sqx(eps)
 	d := eps
 	o := 0
 	for l := 1; l <= n; l++ {
@@ -857,7 +857,7 @@ func c2f(eps float64, c []float64)  { evenSeries(c2Coeff[:], nC2, eps, c) }
 func a2m1f(eps float64) float64 {
 	coeff := [...]float64{-11, -28, -192, 0, 256}
 	m := nA2 / 2
-	t := polyval(m, coeff[:], sq(eps)) / coeff[m+1]
+	t := polyval(m, coeff[:], sqx(eps)) / coeff[m+1]
 	return (t - eps) / (1 + eps)
 }
 

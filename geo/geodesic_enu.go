@@ -1,0 +1,29 @@
+package geo
+
+import "math"
+
+// ENU returns the east and north offsets in metres of the point (lat, lon) from the
+// origin (lat0, lon0), all in degrees, on the azimuthal equidistant projection
+// centred at the origin on WGS84: the offset vector has the exact geodesic length
+// and points along the geodesic azimuth at the origin. It is a local tangent-plane
+// frame that stays exact in range and bearing from the origin at any distance.
+// FromENU is its inverse. At a pole origin, north is the direction of the meridian
+// lon0. NaN or |lat| > 90 inputs give NaN.
+func ENU(lat0, lon0, lat, lon float64) (eastM, northM float64) {
+	s12, salp1, calp1, _, _ := WGS84.get().inverse(lat0, lon0, lat, lon)
+	// salp1, calp1 are the sine and cosine of the azimuth at the origin; the
+	// division guards against their last-bit deviation from unit length.
+	r := math.Hypot(salp1, calp1)
+	return s12 * salp1 / r, s12 * calp1 / r
+}
+
+// FromENU returns the point (lat, lon in degrees, lon in [−180, 180]) at east and
+// north offsets eastM, northM (metres) from the origin (lat0, lon0) on the
+// azimuthal equidistant projection used by ENU, i.e. the end of the geodesic of
+// length hypot(east, north) leaving the origin at azimuth atan2(east, north).
+func FromENU(lat0, lon0, eastM, northM float64) (lat, lon float64) {
+	s := math.Hypot(eastM, northM)
+	azi := atan2d(eastM, northM)
+	lat, lon, _ = WGS84.Direct(lat0, lon0, azi, s)
+	return lat, lon
+}
