@@ -1,0 +1,180 @@
+package sdr
+
+import (
+	"context"
+	"encoding/binary"
+	"errors"
+	"fmt"
+	"io"
+	"log/slog"
+	"math"
+	"net"
+	"sync"
+	"time"
+)
+
+// RTLCommand is one command received by the replay server.
+type RTLCommand struct {
+	Code  byte
+	Param uint32
+}
+
+// ServeOptions configures ServeRTLTCP.
+type ServeOptions struct {
+	// TunerType and GainCount fill the greeting (defaults: TunerR820T, 29,
+	// which is what an R820T dongle reports; REFERENCES §2).
+	TunerType, GainCount uint32
+	// Paced streams at the source's sample rate (real time); otherwise as
+	// fast as the client reads.
+	Paced bool
+	// OnCommand, if set, is called (from the connection's command reader
+	// goroutine) for every command a client sends. The replay cannot
+	// retune or resample, so commands change nothing else.
+	OnCommand func(RTLCommand)
+	// Logger receives connection events; nil = slog.Default().
+	Logger *slog.Logger
+}
+
+// ServeRTLTCP serves src over ln with the rtl_tcp protocol, for offline use
+// and tests: one client at a time gets the 12-byte greeting and then the
+// recording as cu8 bytes (raw bytes when src implements CU8Reader,
+// otherwise complex samples converted with x·127.5+127.5, rounded and
+// clamped). Commands are read and passed to opts.OnCommand. When a client
+// disconnects, the next one continues where the stream stopped. At the end
+// of the recording the connection is closed and ServeRTLTCP returns nil (or
+// the source's error, if it failed); it
+// also returns when ctx is cancelled (ctx.Err()) or ln fails. It closes ln
+// on return, but not src.
+func ServeRTLTCP(ctx context.Context, ln net.Listener, src Source, opts ServeOptions) error {
+	if opts.TunerType == 0 && opts.GainCount == 0 {
+		opts.TunerType, opts.GainCount = TunerR820T, 29
+	}
+	log := opts.Logger
+	if log == nil {
+		log = slog.Default()
+	}
+	stop := context.AfterFunc(ctx, func() { ln.Close() })
+	defer stop()
+	defer ln.Close()
+	st := &replayState{src: src, opts: opts}
+	if cr, ok := src.(CU8Reader); ok && src.Info().Format == "cu8" {
+		st.cu8 = cr
+	} else {
+		st.iq = make([]complex64, 8192)
+	}
+	st.buf = make([]byte, 16384)
+	for {
+		conn, err := ln.Accept()
+		if err != nil {
+			if ctx.Err() != nil {
+				return ctx.Err()
+			}
+			return fmt.Errorf("rtl_tcp replay: accept: %w", err)
+		}
+		log.Info("rtl_tcp replay: client connected", "remote", conn.RemoteAddr().String())
+		done, err := st.serve(ctx, conn)
+		conn.Close()
+		if err != nil {
+			log.Info("rtl_tcp replay: client gone", "remote", conn.RemoteAddr().String(), "reason", err.Error())
+		}
+		if done {
+			if err != nil {
+				return fmt.Errorf("rtl_tcp replay: %w", err)
+			}
+			return nil
+		}
+		if ctx.Err() != nil {
+			return ctx.Err()
+		}
+	}
+}
+
+type replayState struct {
+	src   Source
+	opts  ServeOptions
+	cu8   CU8Reader
+	iq    []complex64
+	buf   []byte
+	sent  int64 // samples sent over all connections
+}
+
+// next fills st.buf with cu8 pairs from the source.
+func (st *replayState) next() (int, error) {
+	if st.cu8 != nil {
+		return st.cu8.ReadCU8(st.buf)
+	}
+	n, err := st.src.Read(st.iq[:len(st.buf)/2])
+	for i, v := range st.iq[:n] {
+		st.buf[2*i] = toCU8(real(v))
+		st.buf[2*i+1] = toCU8(imag(v))
+	}
+	return 2 * n, err
+}
+
+func toCU8(x float32) byte {
+	v := math.Round(float64(x)*127.5 + 127.5)
+	if !(v >= 0) { // also NaN
+		return 0
+	}
+	return byte(min(v, 255))
+}
+
+// serve streams to one client; done reports the end of the recording.
+func (st *replayState) serve(ctx context.Context, conn net.Conn) (done bool, err error) {
+	stop := context.AfterFunc(ctx, func() { conn.Close() })
+	defer stop()
+	var g [rtlGreetingBytes]byte
+	copy(g[:4], rtlMagic)
+	binary.BigEndian.PutUint32(g[4:8], st.opts.TunerType)
+	binary.BigEndian.PutUint32(g[8:12], st.opts.GainCount)
+	if _, err := conn.Write(g[:]); err != nil {
+		return false, err
+	}
+	var wg sync.WaitGroup
+	wg.Add(1)
+	go func() { // command reader
+		defer wg.Done()
+		var b [rtlCommandBytes]byte
+		for {
+			if _, err := io.ReadFull(conn, b[:]); err != nil {
+				return
+			}
+			if st.opts.OnCommand != nil {
+				st.opts.OnCommand(RTLCommand{Code: b[0], Param: binary.BigEndian.Uint32(b[1:])})
+			}
+		}
+	}()
+	defer wg.Wait()
+	defer conn.Close() // unblocks the command reader
+	rate := st.src.Info().SampleRate
+	connStart, connSent0 := time.Now(), st.sent
+	for {
+		n, rerr := st.next()
+		if n > 0 {
+			if st.opts.Paced && rate > 0 {
+				due := connStart.Add(time.Duration(float64(st.sent-connSent0) / rate * float64(time.Second)))
+				if d := time.Until(due); d > 0 {
+					t := time.NewTimer(d)
+					select {
+					case <-ctx.Done():
+						t.Stop()
+						return false, ctx.Err()
+					case <-t.C:
+					}
+				}
+			}
+			if _, err := conn.Write(st.buf[:n]); err != nil {
+				// Samples in this block are lost to the departed client.
+				st.sent += int64(n / 2)
+				return false, err
+			}
+			st.sent += int64(n / 2)
+		}
+		if rerr != nil {
+			if errors.Is(rerr, io.EOF) {
+				return true, nil
+			}
+			return true, rerr
+		}
+	}
+}
