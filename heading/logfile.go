@@ -91,6 +91,8 @@ func isHeader(f0, f1 string) bool {
 	return strings.HasPrefix(strings.ToLower(f0), "time") && strings.HasPrefix(strings.ToLower(f1), "heading")
 }
 
+var errNoCaptureStart = errors.New("RFC 3339 time but the capture start time is unknown; give the capture start or write seconds from it")
+
 // parseTime reads seconds from the capture start or an RFC 3339 stamp.
 func parseTime(s string, captureStart time.Time) (float64, error) {
 	if s == "" {
@@ -108,7 +110,7 @@ func parseTime(s string, captureStart time.Time) (float64, error) {
 			return 0, fmt.Errorf("time %q is neither seconds nor RFC 3339: %w", s, err)
 		}
 		if captureStart.IsZero() {
-			return 0, fmt.Errorf("time %q is RFC 3339 but the capture start time is unknown; give the capture start or write seconds from it", s)
+			return 0, fmt.Errorf("time %q: %w", s, errNoCaptureStart)
 		}
 		return t.Sub(captureStart).Seconds(), nil
 	}
