@@ -1,0 +1,455 @@
+package ident
+
+import (
+	"cmp"
+	"errors"
+	"fmt"
+	"math"
+	"slices"
+	"strings"
+	"time"
+)
+
+// Observation is what the receiver reports about one burst, as far as the
+// identification and scheduling stages need it. ident never sees IQ.
+type Observation struct {
+	// Index is the receiver's burst number (informational; not required to
+	// be unique or ordered).
+	Index int
+	// StartS and EndS are seconds from the capture start on the receiver's
+	// clock. EndS must not be before StartS.
+	StartS, EndS float64
+	// Start is the UTC start time of the burst, or the zero time when the
+	// capture start is unknown.
+	Start time.Time
+	// OffsetHz is the carrier offset from the channel centre in Hz (a few Hz
+	// accuracy).
+	OffsetHz float64
+	// ToneHz is the modulating tone pitch in Hz, 0 when the burst has no tone
+	// (keyed carrier) or none was found.
+	ToneHz float64
+	// LevelDB is the burst level in dBFS (informational here).
+	LevelDB float64
+	// Ident is the matched identifier, or "unknown" (or "") when unreadable.
+	Ident string
+	// IdentConfidence is the matcher's confidence in Ident, 0…1.
+	IdentConfidence float64
+	// DoubleCarrier is set by the receiver when it saw two carriers at once
+	// during this burst (an overlap with an unidentified second transmitter).
+	DoubleCarrier bool
+}
+
+// UnknownIdent is the Ident value for a burst whose identifier could not be
+// read. The empty string is treated the same way.
+const UnknownIdent = "unknown"
+
+func fpIdentKnown(s string) bool {
+	s = strings.TrimSpace(s)
+	return s != "" && !strings.EqualFold(s, UnknownIdent)
+}
+
+// ClusterOptions tunes ClusterTransmitters. Zero values select the defaults.
+type ClusterOptions struct {
+	// OffsetTolHz is the carrier-offset distance in Hz at which two bursts
+	// are still linked (default 30 Hz: cheap crystal beacons differ by tens
+	// to hundreds of Hz, while one beacon's offset jitters by a few Hz and
+	// drifts slowly with temperature).
+	OffsetTolHz float64
+	// ToneTolHz is the tone-pitch distance in Hz at which two bursts are
+	// still linked (default 15 Hz).
+	ToneTolHz float64
+	// SpreadFactor widens the tolerances to SpreadFactor times the measured
+	// burst-to-burst jitter inside the clusters when that is larger than the
+	// configured tolerance (default 4; negative disables the widening).
+	SpreadFactor float64
+	// ConfidentMin is the ident confidence (0…1) from which a burst's ID
+	// counts as confident when looking for a cluster that carries two
+	// different IDs (default 0.8).
+	ConfidentMin float64
+}
+
+func (o ClusterOptions) withDefaults() ClusterOptions {
+	if !(o.OffsetTolHz > 0) {
+		o.OffsetTolHz = 30
+	}
+	if !(o.ToneTolHz > 0) {
+		o.ToneTolHz = 15
+	}
+	if o.SpreadFactor == 0 || math.IsNaN(o.SpreadFactor) {
+		o.SpreadFactor = 4
+	}
+	if !(o.ConfidentMin > 0) {
+		o.ConfidentMin = 0.8
+	}
+	return o
+}
+
+// ClusterFlagKind names a problem found while clustering.
+type ClusterFlagKind string
+
+const (
+	// FlagSharedIdent: two or more clusters (transmitters told apart by
+	// their fingerprint) carry the same majority ID — at an event, two
+	// transmitters programmed with the same identifier.
+	FlagSharedIdent ClusterFlagKind = "shared_ident"
+	// FlagMixedIdent: one cluster holds confident bursts with two or more
+	// different IDs — a transmitter re-programmed during the recording, or
+	// fingerprints too close to separate.
+	FlagMixedIdent ClusterFlagKind = "mixed_ident"
+)
+
+// ClusterFlag is one finding of ClusterTransmitters.
+type ClusterFlag struct {
+	Kind    ClusterFlagKind `json:"kind"`
+	Labels  []string        `json:"labels"`
+	Idents  []string        `json:"idents"`
+	Message string          `json:"message"`
+}
+
+// TransmitterCluster summarises the bursts attributed to one transmitter.
+type TransmitterCluster struct {
+	// Label is "T1", "T2", … in order of the cluster's first burst.
+	Label string `json:"label"`
+	// Ident is the confidence-weighted majority ID of the cluster's bursts,
+	// UnknownIdent when none was readable.
+	Ident string `json:"ident"`
+	// IdentShare is Ident's share (0…1) of the cluster's total ident weight.
+	IdentShare float64 `json:"ident_share"`
+	// Members are positions in the input slice, in time order.
+	Members []int `json:"members"`
+	// OffsetHz and ToneHz are the medians over the members; OffsetSpreadHz
+	// and ToneSpreadHz are max−min over the members (Hz).
+	OffsetHz       float64 `json:"offset_hz"`
+	OffsetSpreadHz float64 `json:"offset_spread_hz"`
+	ToneHz         float64 `json:"tone_hz"`
+	ToneSpreadHz   float64 `json:"tone_spread_hz"`
+	// FirstS is the start (s from capture start) of the first member.
+	FirstS float64 `json:"first_s"`
+}
+
+// ClusterResult is the outcome of ClusterTransmitters. The per-burst slices
+// are parallel to the input observations.
+type ClusterResult struct {
+	// Labels holds the transmitter label of each burst.
+	Labels []string `json:"labels"`
+	// Idents holds each burst's attributed ID: its own when readable,
+	// otherwise its cluster's majority ID.
+	Idents []string `json:"idents"`
+	// Notes explains attributions that differ from the burst's own ID ("" when
+	// there is nothing to say).
+	Notes    []string             `json:"notes"`
+	Clusters []TransmitterCluster `json:"clusters"`
+	Flags    []ClusterFlag        `json:"flags"`
+	// OffsetTolHz and ToneTolHz are the tolerances actually used, after any
+	// widening from the measured spread.
+	OffsetTolHz float64 `json:"offset_tol_hz"`
+	ToneTolHz   float64 `json:"tone_tol_hz"`
+}
+
+// ClusterTransmitters groups bursts into transmitters by their fingerprint:
+// carrier offset and tone pitch.
+//
+// Method: single-linkage agglomerative clustering on the normalised distance
+//
+//	d = sqrt((Δoffset/OffsetTolHz)² + (Δtone/ToneTolHz)²)
+//
+// cut at d = 1: two bursts belong to the same transmitter when a chain of
+// bursts links them with every step at d ≤ 1. Single linkage follows slow
+// temperature drift of a beacon's offset from burst to burst. A burst with
+// ToneHz 0 (no tone) is never linked to one with a tone. After a first pass,
+// the burst-to-burst jitter inside the clusters is measured (robustly, from
+// successive differences in time order); when SpreadFactor times that jitter
+// exceeds a tolerance, the tolerance is widened to it and the clustering is
+// repeated once. The tolerances used are returned.
+//
+// Clusters are labelled "T1", "T2", … in order of their first burst's start.
+// Each cluster's ID is the majority of its bursts' readable IDs weighted by
+// IdentConfidence (clamped to 0…1, with a small floor so zero-confidence
+// reads still break ties by count). Bursts whose ID is "unknown" or empty are
+// attributed the cluster's ID, with a note. Flags report IDs shared by
+// several clusters and clusters with several confident IDs.
+//
+// Errors: an empty input, or a non-finite offset, tone or time, or a negative
+// tone, is rejected with an error naming the burst.
+func ClusterTransmitters(obs []Observation, opts ClusterOptions) (ClusterResult, error) {
+	if len(obs) == 0 {
+		return ClusterResult{}, errors.New("cluster transmitters: no bursts")
+	}
+	for i, o := range obs {
+		if err := fpCheckObservation(o); err != nil {
+			return ClusterResult{}, fmt.Errorf("cluster transmitters: burst %d (index %d): %w", i, o.Index, err)
+		}
+	}
+	opts = opts.withDefaults()
+	offTol, toneTol := opts.OffsetTolHz, opts.ToneTolHz
+
+	comp := fpSingleLinkage(obs, offTol, toneTol)
+	if opts.SpreadFactor > 0 {
+		jOff, jTone := fpJitter(obs, comp)
+		widened := false
+		if w := opts.SpreadFactor * jOff; w > offTol {
+			offTol, widened = w, true
+		}
+		if w := opts.SpreadFactor * jTone; w > toneTol {
+			toneTol, widened = w, true
+		}
+		if widened {
+			comp = fpSingleLinkage(obs, offTol, toneTol)
+		}
+	}
+
+	// Group members; order clusters by first start.
+	groups := map[int][]int{}
+	for i, c := range comp {
+		groups[c] = append(groups[c], i)
+	}
+	byTime := func(a, b int) int {
+		if c := cmp.Compare(obs[a].StartS, obs[b].StartS); c != 0 {
+			return c
+		}
+		return cmp.Compare(a, b)
+	}
+	var clusters [][]int
+	for _, m := range groups {
+		slices.SortFunc(m, byTime)
+		clusters = append(clusters, m)
+	}
+	slices.SortFunc(clusters, func(a, b []int) int { return byTime(a[0], b[0]) })
+
+	res := ClusterResult{
+		Labels:      make([]string, len(obs)),
+		Idents:      make([]string, len(obs)),
+		Notes:       make([]string, len(obs)),
+		OffsetTolHz: offTol,
+		ToneTolHz:   toneTol,
+	}
+	for ci, members := range clusters {
+		tc := fpSummarise(obs, members)
+		tc.Label = fmt.Sprintf("T%d", ci+1)
+		res.Clusters = append(res.Clusters, tc)
+		for _, i := range members {
+			res.Labels[i] = tc.Label
+		}
+		// Attribution per burst.
+		for _, i := range members {
+			own := strings.TrimSpace(obs[i].Ident)
+			switch {
+			case !fpIdentKnown(own) && tc.Ident != UnknownIdent:
+				res.Idents[i] = tc.Ident
+				res.Notes[i] = fmt.Sprintf("ID unreadable; attributed %s from fingerprint cluster %s (weight share %.2f)", tc.Ident, tc.Label, tc.IdentShare)
+			case !fpIdentKnown(own):
+				res.Idents[i] = UnknownIdent
+			default:
+				res.Idents[i] = own
+				if own != tc.Ident {
+					res.Notes[i] = fmt.Sprintf("ID %s differs from cluster %s majority %s", own, tc.Label, tc.Ident)
+				}
+			}
+		}
+		// Mixed confident IDs in one cluster.
+		confident := map[string]bool{}
+		for _, i := range members {
+			if fpIdentKnown(obs[i].Ident) && fpClampConf(obs[i].IdentConfidence) >= opts.ConfidentMin {
+				confident[strings.TrimSpace(obs[i].Ident)] = true
+			}
+		}
+		if len(confident) > 1 {
+			ids := fpSortedKeys(confident)
+			res.Flags = append(res.Flags, ClusterFlag{
+				Kind:   FlagMixedIdent,
+				Labels: []string{tc.Label},
+				Idents: ids,
+				Message: fmt.Sprintf("transmitter %s sent confident IDs %s: re-programmed during the recording, or fingerprints too close to separate",
+					tc.Label, strings.Join(ids, ", ")),
+			})
+		}
+	}
+	// Same ID on several clusters.
+	byIdent := map[string][]string{}
+	var identOrder []string
+	for _, tc := range res.Clusters {
+		if tc.Ident == UnknownIdent {
+			continue
+		}
+		if _, ok := byIdent[tc.Ident]; !ok {
+			identOrder = append(identOrder, tc.Ident)
+		}
+		byIdent[tc.Ident] = append(byIdent[tc.Ident], tc.Label)
+	}
+	for _, id := range identOrder {
+		if labels := byIdent[id]; len(labels) > 1 {
+			res.Flags = append(res.Flags, ClusterFlag{
+				Kind:   FlagSharedIdent,
+				Labels: labels,
+				Idents: []string{id},
+				Message: fmt.Sprintf("ID %s is sent by %d transmitters with different fingerprints (%s): two transmitters programmed with the same ID?",
+					id, len(labels), strings.Join(labels, ", ")),
+			})
+		}
+	}
+	return res, nil
+}
+
+func fpCheckObservation(o Observation) error {
+	for _, v := range []struct {
+		name string
+		x    float64
+	}{{"start", o.StartS}, {"end", o.EndS}, {"carrier offset", o.OffsetHz}, {"tone", o.ToneHz}, {"ident confidence", o.IdentConfidence}} {
+		if math.IsNaN(v.x) || math.IsInf(v.x, 0) {
+			return fmt.Errorf("%s is not a finite number", v.name)
+		}
+	}
+	if o.ToneHz < 0 {
+		return fmt.Errorf("tone %.1f Hz is negative", o.ToneHz)
+	}
+	if o.EndS < o.StartS {
+		return fmt.Errorf("ends (%.3f s) before it starts (%.3f s)", o.EndS, o.StartS)
+	}
+	return nil
+}
+
+func fpClampConf(c float64) float64 {
+	if math.IsNaN(c) || c < 0 {
+		return 0
+	}
+	return min(c, 1)
+}
+
+// fpDist is the normalised fingerprint distance; +Inf between a toned and a
+// toneless burst.
+func fpDist(a, b Observation, offTol, toneTol float64) float64 {
+	if (a.ToneHz == 0) != (b.ToneHz == 0) {
+		return math.Inf(1)
+	}
+	do := (a.OffsetHz - b.OffsetHz) / offTol
+	dt := (a.ToneHz - b.ToneHz) / toneTol
+	return math.Hypot(do, dt)
+}
+
+// fpSingleLinkage returns a component id per burst: the connected components
+// of the graph linking bursts at normalised distance ≤ 1, which is exactly a
+// single-linkage dendrogram cut at 1. Bursts are sorted by offset so that only
+// neighbours within OffsetTol are compared.
+func fpSingleLinkage(obs []Observation, offTol, toneTol float64) []int {
+	n := len(obs)
+	parent := make([]int, n)
+	for i := range parent {
+		parent[i] = i
+	}
+	var find func(int) int
+	find = func(i int) int {
+		for parent[i] != i {
+			parent[i] = parent[parent[i]]
+			i = parent[i]
+		}
+		return i
+	}
+	idx := make([]int, n)
+	for i := range idx {
+		idx[i] = i
+	}
+	slices.SortFunc(idx, func(a, b int) int { return cmp.Compare(obs[a].OffsetHz, obs[b].OffsetHz) })
+	for p, i := range idx {
+		for _, j := range idx[p+1:] {
+			if obs[j].OffsetHz-obs[i].OffsetHz > offTol {
+				break
+			}
+			if fpDist(obs[i], obs[j], offTol, toneTol) <= 1 {
+				ri, rj := find(i), find(j)
+				if ri != rj {
+					parent[max(ri, rj)] = min(ri, rj)
+				}
+			}
+		}
+	}
+	out := make([]int, n)
+	for i := range out {
+		out[i] = find(i)
+	}
+	return out
+}
+
+// fpJitter estimates the burst-to-burst jitter (1σ, Hz) of offset and tone
+// pooled over clusters, from successive differences in time order:
+// σ ≈ 1.4826·median|Δ|/√2 (robust against drift steps and outliers).
+func fpJitter(obs []Observation, comp []int) (offHz, toneHz float64) {
+	groups := map[int][]int{}
+	for i, c := range comp {
+		groups[c] = append(groups[c], i)
+	}
+	var dOff, dTone []float64
+	for _, m := range groups {
+		slices.SortFunc(m, func(a, b int) int { return cmp.Compare(obs[a].StartS, obs[b].StartS) })
+		for k := 1; k < len(m); k++ {
+			a, b := obs[m[k-1]], obs[m[k]]
+			dOff = append(dOff, math.Abs(b.OffsetHz-a.OffsetHz))
+			if a.ToneHz > 0 && b.ToneHz > 0 {
+				dTone = append(dTone, math.Abs(b.ToneHz-a.ToneHz))
+			}
+		}
+	}
+	const k = 1.4826 / math.Sqrt2
+	if len(dOff) >= 3 {
+		offHz = k * fpMedian(dOff)
+	}
+	if len(dTone) >= 3 {
+		toneHz = k * fpMedian(dTone)
+	}
+	return offHz, toneHz
+}
+
+func fpSummarise(obs []Observation, members []int) TransmitterCluster {
+	tc := TransmitterCluster{Members: slices.Clone(members), FirstS: obs[members[0]].StartS}
+	off := make([]float64, 0, len(members))
+	tone := make([]float64, 0, len(members))
+	weights := map[string]float64{}
+	total := 0.0
+	for _, i := range members {
+		o := obs[i]
+		off = append(off, o.OffsetHz)
+		tone = append(tone, o.ToneHz)
+		if fpIdentKnown(o.Ident) {
+			w := max(fpClampConf(o.IdentConfidence), 1e-3)
+			weights[strings.TrimSpace(o.Ident)] += w
+			total += w
+		}
+	}
+	tc.OffsetHz = fpMedian(off)
+	tc.ToneHz = fpMedian(tone)
+	tc.OffsetSpreadHz = slices.Max(off) - slices.Min(off)
+	tc.ToneSpreadHz = slices.Max(tone) - slices.Min(tone)
+	tc.Ident = UnknownIdent
+	best := 0.0
+	for _, id := range fpSortedKeys(weights) {
+		if w := weights[id]; w > best {
+			best, tc.Ident = w, id
+		}
+	}
+	if total > 0 {
+		tc.IdentShare = best / total
+	}
+	return tc
+}
+
+func fpSortedKeys[V any](m map[string]V) []string {
+	keys := make([]string, 0, len(m))
+	for k := range m {
+		keys = append(keys, k)
+	}
+	slices.Sort(keys)
+	return keys
+}
+
+// fpMedian returns the median of x (NaN for an empty slice); x is not modified.
+func fpMedian(x []float64) float64 {
+	if len(x) == 0 {
+		return math.NaN()
+	}
+	s := slices.Clone(x)
+	slices.Sort(s)
+	n := len(s)
+	if n%2 == 1 {
+		return s[n/2]
+	}
+	return (s[n/2-1] + s[n/2]) / 2
+}

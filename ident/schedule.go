@@ -1,0 +1,850 @@
+package ident
+
+import (
+	"cmp"
+	"errors"
+	"fmt"
+	"math"
+	"slices"
+	"strings"
+	"time"
+)
+
+// ScheduleOptions tunes BuildSchedule. Zero values select the defaults.
+type ScheduleOptions struct {
+	// NominalPeriodS is the programmed cycle in seconds (e.g. 300 s for five
+	// transmitters with one minute each), used as the drift reference and, when
+	// it agrees with the data, to number the cycles. 0: unknown, the median of
+	// the transmitters' fitted periods is the reference.
+	NominalPeriodS float64
+	// NextCount is how many start times to predict per transmitter after the
+	// end of the recording (default 3; negative: none).
+	NextCount int
+	// CaptureStart is the UTC time of the capture start. Zero: derived from the
+	// first observation with a non-zero Start (Start − StartS); when none has
+	// one, times are reported in seconds only.
+	CaptureStart time.Time
+	// CaptureEndS is where the recording ended, in seconds from the capture
+	// start. 0: the last burst's end. When given, bursts ending within
+	// EdgeGuardS of it are taken as cut off (their on-time is not used).
+	CaptureEndS float64
+	// StartJitterS is the expected 1σ accuracy of a burst start time in seconds
+	// (default 0.03 s). It sets the cycle-matching and outlier tolerances and
+	// is the assumed σ of a period fitted from only two bursts.
+	StartJitterS float64
+	// MergeGapS: two bursts of the same transmitter separated by at most this
+	// gap (s) are one transmission broken up by fading and are merged. 0: half
+	// the transmitter's median burst length; negative: never merge.
+	MergeGapS float64
+	// EdgeGuardS: a burst starting within this many seconds of the capture
+	// start began before the recording; its start is not used for the period
+	// fit (default 0.25 s; negative disables).
+	EdgeGuardS float64
+}
+
+func (o ScheduleOptions) withDefaults() ScheduleOptions {
+	if o.NextCount == 0 {
+		o.NextCount = 3
+	}
+	if !(o.StartJitterS > 0) {
+		o.StartJitterS = 0.03
+	}
+	if o.EdgeGuardS == 0 || math.IsNaN(o.EdgeGuardS) {
+		o.EdgeGuardS = 0.25
+	}
+	if math.IsNaN(o.NominalPeriodS) || math.IsInf(o.NominalPeriodS, 0) || o.NominalPeriodS < 0 {
+		o.NominalPeriodS = 0
+	}
+	if math.IsNaN(o.CaptureEndS) || math.IsInf(o.CaptureEndS, 0) || o.CaptureEndS < 0 {
+		o.CaptureEndS = 0
+	}
+	if math.IsNaN(o.MergeGapS) || math.IsInf(o.MergeGapS, 0) {
+		o.MergeGapS = 0
+	}
+	return o
+}
+
+// SlotTransmitter is one transmitter's place in the slot schedule. Times are
+// seconds from the capture start on the receiver's clock. Quantities that
+// could not be estimated are NaN (and null in JSON), with Reason saying why.
+type SlotTransmitter struct {
+	// ID is the transmitter's label (ident or fingerprint label).
+	ID string
+	// Bursts is the number of bursts attributed (after merging fragments);
+	// FitBursts how many starts entered the period fit; Rejected how many
+	// starts the fit dropped as outliers.
+	Bursts, FitBursts, Rejected int
+	// PeriodS is the least-squares slope of start time against cycle number
+	// (t_k = T0S + k·PeriodS); PeriodSigmaS its standard error. T0S is the
+	// fitted start of the transmitter's first fitted cycle.
+	PeriodS, PeriodSigmaS float64
+	T0S                   float64
+	// CovT0P is the fit covariance [[var T0, cov], [cov, var P]] in s².
+	CovT0P [2][2]float64
+	// ResidualRMSS is the RMS residual of the start times about the fit (s).
+	ResidualRMSS float64
+	// OnS is the mean on-time (s) of the bursts not cut off by the capture
+	// edges, OnSigmaS their standard deviation.
+	OnS, OnSigmaS float64
+	// GapS is the silence (s) from this transmitter's end to the next
+	// transmitter's start in the cycle, near the end of the recording
+	// (negative: they already overlap).
+	GapS float64
+	// PhaseS is the first fitted start's phase in the common cycle relative
+	// to the first start heard (s, 0…CommonPeriodS).
+	PhaseS float64
+	// DriftPPM is (PeriodS − reference)/reference·1e6, reference = the
+	// plan's DriftReferenceS: positive means the slot slides later each cycle
+	// (the transmitter's clock runs slow against the receiver's).
+	// DriftSigmaPPM is PeriodSigmaS/reference·1e6.
+	DriftPPM, DriftSigmaPPM float64
+	// RelativeDriftPPM maps every other fitted transmitter j to
+	// (PeriodS − P_j)/P_j·1e6.
+	RelativeDriftPPM map[string]float64
+	// NextOnS are the predicted next starts after the end of the recording
+	// (s), NextOnSigmaS their 1σ from the fit covariance (uncertainty of the
+	// fitted line, not including the start jitter of the next burst itself),
+	// and NextOn the same as UTC (nil when the capture start is unknown).
+	NextOnS      []float64
+	NextOnSigmaS []float64
+	NextOn       []time.Time
+	// Reason explains missing estimates ("" when all are present).
+	Reason string
+
+	firstHeardS float64
+	ons         int
+}
+
+// HasPeriod reports whether a period was fitted.
+func (t *SlotTransmitter) HasPeriod() bool { return !math.IsNaN(t.PeriodS) }
+
+// Collision is a forecast of two neighbouring slots running into each other at
+// the measured drifts: the moment B's start reaches A's end (A is before B in
+// the cycle).
+type Collision struct {
+	A, B string
+	// AtS is the forecast time (s from capture start), At the same in UTC
+	// (zero when the capture start is unknown).
+	AtS float64
+	At  time.Time
+	// Cycles is (AtS − end of recording)/common period; negative when the
+	// slots already overlapped during the recording (Already).
+	Cycles float64
+	// SigmaS is the 1σ of AtS propagated from the two fits and A's on-time.
+	SigmaS float64
+	// ClosingSPerCycle is how much the gap shrinks per cycle (P_A − P_B, s),
+	// ClosingSigmaS its 1σ. A closing rate within 2σ of zero makes the
+	// forecast unreliable (Significant false).
+	ClosingSPerCycle, ClosingSigmaS float64
+	Significant                     bool
+	Already                         bool
+}
+
+// BurstOverlap is a pair of bursts from different transmitters on the air at
+// the same time during the recording, or one burst in which the receiver saw
+// two carriers (B is then UnknownIdent, IndexB −1).
+type BurstOverlap struct {
+	A, B           string
+	IndexA, IndexB int
+	// StartS and EndS bound the overlap (s from capture start).
+	StartS, EndS float64
+	Start        time.Time
+	// Source is "intervals" or "receiver".
+	Source string
+}
+
+// SlotPlan is the slot schedule of the transmitters sharing a channel.
+type SlotPlan struct {
+	// Order is the cyclic order of transmitters: sorted by the phase of their
+	// first start within the common cycle, rotated so that the first
+	// transmitter heard comes first.
+	Order []string
+	// Transmitters is in Order.
+	Transmitters []SlotTransmitter
+	Collisions   []Collision
+	Overlaps     []BurstOverlap
+	// CommonPeriodS is the cycle used for phases and gaps: the nominal period
+	// when given, else the median fitted period (NaN if none).
+	CommonPeriodS float64
+	// DriftReferenceS is the period drifts are measured against and
+	// DriftReference says what it is ("nominal 300 s" or "median of
+	// transmitters").
+	DriftReferenceS float64
+	DriftReference  string
+	// CaptureStart is the UTC capture start (zero if unknown).
+	CaptureStart time.Time
+	// EndS is the end of the recording used for predictions (s).
+	EndS float64
+	// Notes lists adjustments made (skipped bursts, merged fragments,
+	// rejected starts, nominal period overridden).
+	Notes []string
+}
+
+// Transmitter returns the entry for id, or nil.
+func (p *SlotPlan) Transmitter(id string) *SlotTransmitter {
+	for i := range p.Transmitters {
+		if p.Transmitters[i].ID == id {
+			return &p.Transmitters[i]
+		}
+	}
+	return nil
+}
+
+// schedLabelled is a burst (position in the input) with its transmitter.
+type schedLabelled struct {
+	id  string
+	idx int
+}
+
+// schedBurst is one (possibly merged) burst of a transmitter.
+type schedBurst struct {
+	startS, endS     float64
+	startCut, endCut bool
+	firstIdx         int
+}
+
+// BuildSchedule derives the slot schedule from burst observations.
+//
+// labels gives the transmitter of each burst (e.g. ClusterResult.Labels or
+// ClusterResult.Idents); nil or an empty entry falls back to the burst's
+// Ident, and bursts with neither are skipped (noted).
+//
+// Per transmitter, fragments of one transmission are merged, bursts cut off by
+// the capture start are kept out of the period fit, and the start times are
+// fitted by least squares against cycle number, t_k = t0 + k·P. Cycle numbers
+// are k = round((t − t_first)/P_guess), so missed bursts leave gaps in k
+// rather than breaking the fit. P_guess is the largest period that explains
+// the most consecutive start differences as whole multiples (common to all
+// transmitters when it explains a transmitter's differences, else its own),
+// and longer than the bursts themselves. Starts further than max(6·jitter,
+// 4·robust σ) from the line are dropped one at a time (at most a third).
+//
+// Errors: fewer than 3 usable bursts in total, a labels slice of the wrong
+// length, or a non-finite or reversed burst time. A transmitter with fewer
+// than 2 usable starts gets NaN period and drift with a Reason.
+func BuildSchedule(obs []Observation, labels []string, opts ScheduleOptions) (*SlotPlan, error) {
+	if labels != nil && len(labels) != len(obs) {
+		return nil, fmt.Errorf("build schedule: %d labels for %d bursts", len(labels), len(obs))
+	}
+	opts = opts.withDefaults()
+	plan := &SlotPlan{CaptureStart: opts.CaptureStart}
+
+	// Attribute bursts.
+	var used []schedLabelled
+	skipped := 0
+	for i, o := range obs {
+		if err := schedCheckTimes(o); err != nil {
+			return nil, fmt.Errorf("build schedule: burst %d (index %d): %w", i, o.Index, err)
+		}
+		id := ""
+		if labels != nil {
+			id = strings.TrimSpace(labels[i])
+		}
+		if id == "" && fpIdentKnown(o.Ident) {
+			id = strings.TrimSpace(o.Ident)
+		}
+		if id == "" || strings.EqualFold(id, UnknownIdent) {
+			skipped++
+			continue
+		}
+		used = append(used, schedLabelled{id, i})
+		if plan.CaptureStart.IsZero() && !o.Start.IsZero() {
+			plan.CaptureStart = o.Start.Add(-time.Duration(o.StartS * float64(time.Second)))
+		}
+	}
+	if skipped > 0 {
+		plan.Notes = append(plan.Notes, fmt.Sprintf("%d burst(s) without transmitter label or readable ID skipped", skipped))
+	}
+	if len(used) < 3 {
+		return nil, fmt.Errorf("build schedule: %d usable burst(s); at least 3 are needed (label bursts or cluster them first)", len(used))
+	}
+
+	endS := 0.0
+	for _, u := range used {
+		endS = max(endS, obs[u.idx].EndS)
+	}
+	edgeEnd := false
+	if opts.CaptureEndS > 0 {
+		if opts.CaptureEndS < endS {
+			plan.Notes = append(plan.Notes, fmt.Sprintf("capture end %.3f s is before the last burst end %.3f s; using the latter", opts.CaptureEndS, endS))
+		} else {
+			endS = opts.CaptureEndS
+			edgeEnd = true
+		}
+	}
+	plan.EndS = endS
+
+	// Group per transmitter, in time order, merging fragments.
+	groups := map[string][]int{}
+	var ids []string
+	for _, u := range used {
+		if _, ok := groups[u.id]; !ok {
+			ids = append(ids, u.id)
+		}
+		groups[u.id] = append(groups[u.id], u.idx)
+	}
+	bursts := map[string][]schedBurst{}
+	for _, id := range ids {
+		idx := groups[id]
+		slices.SortStableFunc(idx, func(a, b int) int { return cmp.Compare(obs[a].StartS, obs[b].StartS) })
+		var bs []schedBurst
+		for _, i := range idx {
+			o := obs[i]
+			bs = append(bs, schedBurst{
+				startS:   o.StartS,
+				endS:     o.EndS,
+				startCut: opts.EdgeGuardS > 0 && o.StartS <= opts.EdgeGuardS,
+				endCut:   edgeEnd && opts.EdgeGuardS > 0 && o.EndS >= endS-opts.EdgeGuardS,
+				firstIdx: i,
+			})
+		}
+		gap := opts.MergeGapS
+		if gap == 0 {
+			d := make([]float64, len(bs))
+			for k, b := range bs {
+				d[k] = b.endS - b.startS
+			}
+			gap = 0.5 * fpMedian(d)
+		}
+		merged := bs[:1]
+		for _, b := range bs[1:] {
+			last := &merged[len(merged)-1]
+			if gap > 0 && b.startS-last.endS <= gap {
+				last.endS = max(last.endS, b.endS)
+				last.endCut = last.endCut || b.endCut
+				continue
+			}
+			merged = append(merged, b)
+		}
+		if n := len(bs) - len(merged); n > 0 {
+			plan.Notes = append(plan.Notes, fmt.Sprintf("%s: %d fragment(s) within %.3g s merged into the preceding burst", id, n, gap))
+		}
+		bursts[id] = merged
+	}
+
+	// Common period guess from all transmitters' start differences.
+	maxOn := 0.0
+	var allDiffs []float64
+	for _, id := range ids {
+		var on []float64
+		for _, b := range bursts[id] {
+			if !b.startCut && !b.endCut {
+				on = append(on, b.endS-b.startS)
+			}
+		}
+		if len(on) > 0 {
+			maxOn = max(maxOn, fpMedian(on))
+		}
+		allDiffs = append(allDiffs, schedDiffs(bursts[id])...)
+	}
+	guess, guessScore := schedGuessPeriod(allDiffs, maxOn, opts.StartJitterS)
+	if opts.NominalPeriodS > 0 {
+		nomScore := schedScore(allDiffs, opts.NominalPeriodS, opts.StartJitterS)
+		if len(allDiffs) == 0 || nomScore >= guessScore {
+			guess = opts.NominalPeriodS
+		} else {
+			plan.Notes = append(plan.Notes, fmt.Sprintf("nominal period %.6g s explains %d of %d start differences, %.6g s explains %d: cycles numbered with the latter",
+				opts.NominalPeriodS, nomScore, len(allDiffs), guess, guessScore))
+		}
+	}
+
+	// Per-transmitter fits.
+	txs := make([]SlotTransmitter, len(ids))
+	for n, id := range ids {
+		bs := bursts[id]
+		tx := SlotTransmitter{ID: id, Bursts: len(bs), PeriodS: math.NaN(), PeriodSigmaS: math.NaN(), T0S: math.NaN(),
+			ResidualRMSS: math.NaN(), DriftPPM: math.NaN(), DriftSigmaPPM: math.NaN(), GapS: math.NaN(), PhaseS: math.NaN(),
+			firstHeardS: bs[0].startS}
+		// On-time.
+		var on []float64
+		for _, b := range bs {
+			if !b.startCut && !b.endCut {
+				on = append(on, b.endS-b.startS)
+			}
+		}
+		if len(on) == 0 {
+			for _, b := range bs {
+				on = append(on, b.endS-b.startS)
+			}
+		}
+		tx.OnS, tx.OnSigmaS = schedMeanStd(on)
+		tx.ons = len(on)
+
+		var starts []float64
+		for _, b := range bs {
+			if !b.startCut {
+				starts = append(starts, b.startS)
+			}
+		}
+		pg := guess
+		d := schedDiffs(bs)
+		if len(d) > 0 && (math.IsNaN(pg) || schedScore(d, pg, opts.StartJitterS) < len(d)) {
+			if own, _ := schedGuessPeriod(d, maxOn, opts.StartJitterS); !math.IsNaN(own) {
+				pg = own
+			}
+		}
+		switch {
+		case len(starts) < 2:
+			tx.Reason = fmt.Sprintf("only %d usable burst start(s); a period needs 2", len(starts))
+		case math.IsNaN(pg):
+			tx.Reason = "no consistent period in the start differences"
+		default:
+			f, rej, err := schedFitStarts(starts, pg, opts.StartJitterS)
+			if err != nil {
+				tx.Reason = err.Error()
+				break
+			}
+			tx.PeriodS, tx.T0S, tx.CovT0P = f.p, f.t0, f.cov
+			tx.PeriodSigmaS = math.Sqrt(f.cov[1][1])
+			tx.ResidualRMSS = f.rms
+			tx.FitBursts = f.n
+			tx.Rejected = rej
+			if f.n == 2 {
+				tx.Reason = fmt.Sprintf("period from 2 starts: σ assumes %.3g s start jitter", opts.StartJitterS)
+			}
+			if rej > 0 {
+				plan.Notes = append(plan.Notes, fmt.Sprintf("%s: %d start(s) off the fitted line dropped", id, rej))
+			}
+		}
+		txs[n] = tx
+	}
+
+	// Reference periods.
+	var periods []float64
+	for _, tx := range txs {
+		if tx.HasPeriod() {
+			periods = append(periods, tx.PeriodS)
+		}
+	}
+	switch {
+	case opts.NominalPeriodS > 0:
+		plan.DriftReferenceS = opts.NominalPeriodS
+		plan.DriftReference = fmt.Sprintf("nominal %.6g s", opts.NominalPeriodS)
+		plan.CommonPeriodS = opts.NominalPeriodS
+	case len(periods) > 0:
+		plan.DriftReferenceS = fpMedian(periods)
+		plan.DriftReference = "median of transmitters"
+		plan.CommonPeriodS = plan.DriftReferenceS
+	default:
+		plan.DriftReferenceS = math.NaN()
+		plan.DriftReference = "none (no transmitter has a period)"
+		plan.CommonPeriodS = guess
+	}
+	for i := range txs {
+		tx := &txs[i]
+		if !tx.HasPeriod() {
+			continue
+		}
+		if plan.DriftReferenceS > 0 {
+			tx.DriftPPM = (tx.PeriodS - plan.DriftReferenceS) / plan.DriftReferenceS * 1e6
+			tx.DriftSigmaPPM = tx.PeriodSigmaS / plan.DriftReferenceS * 1e6
+		}
+		tx.RelativeDriftPPM = map[string]float64{}
+		for _, o := range txs {
+			if o.ID != tx.ID && o.HasPeriod() {
+				tx.RelativeDriftPPM[o.ID] = (tx.PeriodS - o.PeriodS) / o.PeriodS * 1e6
+			}
+		}
+	}
+
+	// Order: phase of each transmitter's first (fitted, else heard) start in
+	// the common cycle, relative to the first start heard; then rotate.
+	firstHeard := 0
+	for i, tx := range txs {
+		if tx.firstHeardS < txs[firstHeard].firstHeardS {
+			firstHeard = i
+		}
+	}
+	tRef := txs[firstHeard].firstHeardS
+	pc := plan.CommonPeriodS
+	for i := range txs {
+		s := txs[i].T0S
+		if math.IsNaN(s) {
+			s = schedFirstUncut(bursts[txs[i].ID])
+		}
+		ph := s - tRef
+		if pc > 0 {
+			ph = schedMod(ph, pc)
+		}
+		txs[i].PhaseS = ph
+	}
+	firstID := txs[firstHeard].ID
+	slices.SortStableFunc(txs, func(a, b SlotTransmitter) int {
+		if c := cmp.Compare(a.PhaseS, b.PhaseS); c != 0 {
+			return c
+		}
+		return cmp.Compare(a.ID, b.ID)
+	})
+	rot := slices.IndexFunc(txs, func(t SlotTransmitter) bool { return t.ID == firstID })
+	txs = append(txs[rot:], txs[:rot]...)
+	for _, tx := range txs {
+		plan.Order = append(plan.Order, tx.ID)
+	}
+
+	// Gaps and collisions around the end of the recording.
+	for i := range txs {
+		a := &txs[i]
+		b := &txs[(i+1)%len(txs)]
+		if len(txs) == 1 {
+			a.GapS = schedLinePeriod(a, pc) - a.OnS
+			break
+		}
+		la, lb := schedLineOf(a, bursts[a.ID], pc), schedLineOf(b, bursts[b.ID], pc)
+		if math.IsNaN(la.p) || math.IsNaN(lb.p) {
+			continue
+		}
+		// A's last start at or before the end, B's first start after it.
+		ja := math.Floor((endS - la.t0) / la.p)
+		aS := la.t0 + ja*la.p
+		jb := math.Ceil((aS - lb.t0) / lb.p)
+		bS := lb.t0 + jb*lb.p
+		a.GapS = bS - aS - a.OnS
+		if !a.HasPeriod() || !b.HasPeriod() {
+			continue
+		}
+		if c, ok := schedCollision(a, b, jb-ja, endS, pc); ok {
+			if !plan.CaptureStart.IsZero() {
+				c.At = schedUTC(plan.CaptureStart, c.AtS)
+			}
+			plan.Collisions = append(plan.Collisions, c)
+		}
+	}
+
+	// Predictions.
+	for i := range txs {
+		tx := &txs[i]
+		if !tx.HasPeriod() || opts.NextCount < 0 {
+			continue
+		}
+		k0 := math.Floor((endS-tx.T0S)/tx.PeriodS) + 1
+		for k := k0; k < k0+float64(opts.NextCount); k++ {
+			s := tx.T0S + k*tx.PeriodS
+			v := tx.CovT0P[0][0] + 2*k*tx.CovT0P[0][1] + k*k*tx.CovT0P[1][1]
+			tx.NextOnS = append(tx.NextOnS, s)
+			tx.NextOnSigmaS = append(tx.NextOnSigmaS, math.Sqrt(max(v, 0)))
+			if !plan.CaptureStart.IsZero() {
+				tx.NextOn = append(tx.NextOn, schedUTC(plan.CaptureStart, s))
+			}
+		}
+	}
+	plan.Transmitters = txs
+
+	// Overlaps during the recording.
+	plan.Overlaps = schedOverlaps(obs, used, plan.CaptureStart)
+	return plan, nil
+}
+
+func schedCheckTimes(o Observation) error {
+	if math.IsNaN(o.StartS) || math.IsInf(o.StartS, 0) || math.IsNaN(o.EndS) || math.IsInf(o.EndS, 0) {
+		return errors.New("start or end time is not a finite number")
+	}
+	if o.EndS < o.StartS {
+		return fmt.Errorf("ends (%.3f s) before it starts (%.3f s)", o.EndS, o.StartS)
+	}
+	if math.Abs(o.StartS) > 1e9 || math.Abs(o.EndS) > 1e9 {
+		return fmt.Errorf("time %.3g s from capture start is out of range", o.StartS)
+	}
+	return nil
+}
+
+func schedUTC(t0 time.Time, s float64) time.Time {
+	return t0.Add(time.Duration(math.Round(s * float64(time.Second)))).UTC()
+}
+
+func schedMod(x, p float64) float64 {
+	m := math.Mod(x, p)
+	if m < 0 {
+		m += p
+	}
+	if m >= p {
+		m = 0
+	}
+	return m
+}
+
+func schedMeanStd(x []float64) (mean, std float64) {
+	for _, v := range x {
+		mean += v
+	}
+	mean /= float64(len(x))
+	if len(x) < 2 {
+		return mean, 0
+	}
+	for _, v := range x {
+		std += (v - mean) * (v - mean)
+	}
+	return mean, math.Sqrt(std / float64(len(x)-1))
+}
+
+func schedFirstUncut(bs []schedBurst) float64 {
+	for _, b := range bs {
+		if !b.startCut {
+			return b.startS
+		}
+	}
+	return bs[0].startS
+}
+
+// schedDiffs returns consecutive differences of the uncut starts.
+func schedDiffs(bs []schedBurst) []float64 {
+	var d []float64
+	prev := math.NaN()
+	for _, b := range bs {
+		if b.startCut {
+			continue
+		}
+		if !math.IsNaN(prev) && b.startS > prev {
+			d = append(d, b.startS-prev)
+		}
+		prev = b.startS
+	}
+	return d
+}
+
+// schedTol is the tolerance (s) for a difference of m cycles of period c to
+// count as explained: 1 % of a cycle or 4 start jitters, plus 300 ppm per
+// cycle for clock drift.
+func schedTol(c float64, m, jitterS float64) float64 {
+	return max(0.01*c, 4*jitterS) + m*c*300e-6
+}
+
+// schedScore counts the differences that are whole multiples (≥ 1) of c.
+func schedScore(diffs []float64, c, jitterS float64) int {
+	n := 0
+	for _, d := range diffs {
+		m := math.Round(d / c)
+		if m >= 1 && math.Abs(d-m*c) <= schedTol(c, m, jitterS) {
+			n++
+		}
+	}
+	return n
+}
+
+// schedGuessPeriod picks, among d/k (k = 1…8) for every difference d, the
+// largest period longer than minS that explains the most differences, and
+// refines it as Σd/Σm over the differences it explains. NaN when there are
+// no differences.
+func schedGuessPeriod(diffs []float64, minS, jitterS float64) (float64, int) {
+	best, bestScore := math.NaN(), 0
+	for _, d := range diffs {
+		for k := 1.0; k <= 8; k++ {
+			c := d / k
+			if c <= minS || c <= 0 {
+				continue
+			}
+			s := schedScore(diffs, c, jitterS)
+			if s > bestScore || (s == bestScore && s > 0 && c > best) {
+				best, bestScore = c, s
+			}
+		}
+	}
+	if bestScore == 0 {
+		return math.NaN(), 0
+	}
+	var sd, sm float64
+	for _, d := range diffs {
+		m := math.Round(d / best)
+		if m >= 1 && math.Abs(d-m*best) <= schedTol(best, m, jitterS) {
+			sd += d
+			sm += m
+		}
+	}
+	return sd / sm, bestScore
+}
+
+// schedFit is a straight-line fit t = t0 + k·p over cycle numbers k.
+type schedFit struct {
+	t0, p float64
+	cov   [2][2]float64
+	rms   float64
+	n     int
+}
+
+// schedFitLine fits t = t0 + k·p by ordinary least squares. The covariance
+// uses the residual variance s² = SSR/(n−2) when n ≥ 3, else sigmaS².
+func schedFitLine(k, t []float64, sigmaS float64) (schedFit, error) {
+	n := len(k)
+	if n < 2 || len(t) != n {
+		return schedFit{}, errors.New("fewer than 2 starts")
+	}
+	var kb, tb float64
+	for i := range k {
+		kb += k[i]
+		tb += t[i]
+	}
+	kb /= float64(n)
+	tb /= float64(n)
+	var sxx, sxy float64
+	for i := range k {
+		sxx += (k[i] - kb) * (k[i] - kb)
+		sxy += (k[i] - kb) * (t[i] - tb)
+	}
+	if !(sxx > 0) {
+		return schedFit{}, errors.New("all starts fall in one cycle")
+	}
+	p := sxy / sxx
+	t0 := tb - p*kb
+	var ssr float64
+	for i := range k {
+		r := t[i] - (t0 + p*k[i])
+		ssr += r * r
+	}
+	s2 := sigmaS * sigmaS
+	if n >= 3 {
+		s2 = ssr / float64(n-2)
+	}
+	f := schedFit{t0: t0, p: p, n: n, rms: math.Sqrt(ssr / float64(n))}
+	f.cov[1][1] = s2 / sxx
+	f.cov[0][1] = -kb * s2 / sxx
+	f.cov[1][0] = f.cov[0][1]
+	f.cov[0][0] = s2 * (1/float64(n) + kb*kb/sxx)
+	return f, nil
+}
+
+// schedFitStarts numbers the (sorted) starts by cycle with the period guess,
+// fits the line and drops outliers one at a time. The cycle numbers are
+// shifted so that k = 0 is the first start kept.
+func schedFitStarts(starts []float64, guessS, jitterS float64) (schedFit, int, error) {
+	k := make([]float64, len(starts))
+	t := slices.Clone(starts)
+	for i, s := range starts {
+		k[i] = math.Round((s - starts[0]) / guessS)
+	}
+	f, err := schedFitLine(k, t, jitterS)
+	if err != nil {
+		return f, 0, err
+	}
+	rejected := 0
+	for len(t) > 3 && rejected < len(starts)/3 {
+		res := make([]float64, len(t))
+		worst := 0
+		for i := range t {
+			res[i] = math.Abs(t[i] - (f.t0 + f.p*k[i]))
+			if res[i] > res[worst] {
+				worst = i
+			}
+		}
+		tol := max(6*jitterS, 4*1.4826*fpMedian(res))
+		if res[worst] <= tol {
+			break
+		}
+		k = slices.Delete(k, worst, worst+1)
+		t = slices.Delete(t, worst, worst+1)
+		nf, err := schedFitLine(k, t, jitterS)
+		if err != nil {
+			break
+		}
+		f = nf
+		rejected++
+	}
+	// Re-anchor at the first kept start: t0' = t0 + k0·p.
+	k0 := k[0]
+	if k0 != 0 {
+		c := f.cov
+		f.t0 += k0 * f.p
+		f.cov[0][0] = c[0][0] + 2*k0*c[0][1] + k0*k0*c[1][1]
+		f.cov[0][1] = c[0][1] + k0*c[1][1]
+		f.cov[1][0] = f.cov[0][1]
+	}
+	return f, rejected, nil
+}
+
+type schedLine struct{ t0, p float64 }
+
+func schedLinePeriod(t *SlotTransmitter, pc float64) float64 {
+	if t.HasPeriod() {
+		return t.PeriodS
+	}
+	return pc
+}
+
+// schedLineOf is the transmitter's start line: fitted, else its first start
+// repeated at the common period.
+func schedLineOf(t *SlotTransmitter, bs []schedBurst, pc float64) schedLine {
+	if t.HasPeriod() {
+		return schedLine{t.T0S, t.PeriodS}
+	}
+	if pc > 0 {
+		return schedLine{schedFirstUncut(bs), pc}
+	}
+	return schedLine{math.NaN(), math.NaN()}
+}
+
+// schedCollision forecasts when B's start reaches A's end, B's cycle j+m
+// being in the same slot as A's cycle j (cycle numbers from each fit's T0S).
+// ok is false when the gap is not closing.
+func schedCollision(a, b *SlotTransmitter, m, endS, pc float64) (Collision, bool) {
+	d := a.PeriodS - b.PeriodS // closing per cycle
+	if !(d > 0) {
+		return Collision{}, false
+	}
+	g := b.T0S + m*b.PeriodS - a.T0S - a.OnS // gap at A's cycle 0
+	j := g / d
+	at := a.T0S + j*a.PeriodS + a.OnS
+	// Gradient of at w.r.t. (t0A, PA, t0B, PB, OnA).
+	r := a.PeriodS / d
+	gA := [2]float64{1 - r, j * (1 - r)}
+	gB := [2]float64{r, r * (m + j)}
+	gOn := 1 - r
+	v := 0.0
+	for x := 0; x < 2; x++ {
+		for y := 0; y < 2; y++ {
+			v += gA[x] * a.CovT0P[x][y] * gA[y]
+			v += gB[x] * b.CovT0P[x][y] * gB[y]
+		}
+	}
+	if a.ons > 0 {
+		v += gOn * gOn * a.OnSigmaS * a.OnSigmaS / float64(a.ons)
+	}
+	sigD := math.Sqrt(a.CovT0P[1][1] + b.CovT0P[1][1])
+	c := Collision{
+		A: a.ID, B: b.ID, AtS: at, SigmaS: math.Sqrt(max(v, 0)),
+		ClosingSPerCycle: d, ClosingSigmaS: sigD,
+		Significant: d > 2*sigD,
+	}
+	c.Already = at <= endS
+	if pc > 0 {
+		c.Cycles = (at - endS) / pc
+	}
+	return c, true
+}
+
+func schedOverlaps(obs []Observation, used []schedLabelled, t0 time.Time) []BurstOverlap {
+	s := slices.Clone(used)
+	slices.SortStableFunc(s, func(a, b schedLabelled) int {
+		return cmp.Compare(obs[a.idx].StartS, obs[b.idx].StartS)
+	})
+	var out []BurstOverlap
+	inPair := map[int]bool{}
+	for i, u := range s {
+		a := obs[u.idx]
+		for _, w := range s[i+1:] {
+			b := obs[w.idx]
+			if b.StartS >= a.EndS {
+				break
+			}
+			if w.id == u.id {
+				continue
+			}
+			ov := BurstOverlap{A: u.id, B: w.id, IndexA: a.Index, IndexB: b.Index,
+				StartS: b.StartS, EndS: min(a.EndS, b.EndS), Source: "intervals"}
+			if !t0.IsZero() {
+				ov.Start = schedUTC(t0, ov.StartS)
+			}
+			out = append(out, ov)
+			inPair[u.idx], inPair[w.idx] = true, true
+		}
+	}
+	for _, u := range s {
+		a := obs[u.idx]
+		if a.DoubleCarrier && !inPair[u.idx] {
+			ov := BurstOverlap{A: u.id, B: UnknownIdent, IndexA: a.Index, IndexB: -1,
+				StartS: a.StartS, EndS: a.EndS, Source: "receiver"}
+			if !t0.IsZero() {
+				ov.Start = schedUTC(t0, ov.StartS)
+			}
+			out = append(out, ov)
+		}
+	}
+	return out
+}
