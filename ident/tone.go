@@ -1,0 +1,303 @@
+package ident
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"math/cmplx"
+	"sort"
+
+	"gonum.org/v1/gonum/dsp/fourier"
+)
+
+// ErrNoTone is wrapped by errors when audio holds no tone between
+// MinToneHz and MaxToneHz that stands clearly above the noise.
+var ErrNoTone = errors.New("no Morse tone found")
+
+const (
+	// MinToneHz and MaxToneHz bound the pitch search of FindTone.
+	MinToneHz = 300.0
+	MaxToneHz = 2000.0
+	// toneMinSNRDB is the least peak-to-local-noise ratio (dB, per bin of
+	// the averaged spectrum) that FindTone accepts as a tone.
+	toneMinSNRDB = 8.0
+)
+
+// toneSpectrum is a Welch (Hann window, 50 % overlap) power spectrum plan.
+type toneSpectrum struct {
+	n      int
+	fft    *fourier.FFT
+	win    []float64
+	seg    []float64
+	coef   []complex128
+	psd    []float64
+	binHz  float64
+	nAvgd  int
+	rateHz float64
+}
+
+// newToneSpectrum sizes the FFT so a bin is at most ~6 Hz wide (but no
+// longer than the audio).
+func newToneSpectrum(rateHz float64, nAudio int) *toneSpectrum {
+	n := 256
+	for float64(n) < rateHz/6 && n*2 <= nAudio {
+		n *= 2
+	}
+	s := &toneSpectrum{n: n, fft: fourier.NewFFT(n), win: make([]float64, n),
+		seg: make([]float64, n), coef: make([]complex128, n/2+1), psd: make([]float64, n/2+1),
+		binHz: rateHz / float64(n), rateHz: rateHz}
+	for i := range s.win {
+		s.win[i] = 0.5 - 0.5*math.Cos(2*math.Pi*float64(i)/float64(n))
+	}
+	return s
+}
+
+// average computes the averaged spectrum of audio into s.psd.
+func (s *toneSpectrum) average(audio []float32) {
+	for i := range s.psd {
+		s.psd[i] = 0
+	}
+	s.nAvgd = 0
+	hop := s.n / 2
+	for off := 0; off+s.n <= len(audio); off += hop {
+		for i := 0; i < s.n; i++ {
+			s.seg[i] = float64(audio[off+i]) * s.win[i]
+		}
+		s.fft.Coefficients(s.coef, s.seg)
+		for i, c := range s.coef {
+			s.psd[i] += real(c)*real(c) + imag(c)*imag(c)
+		}
+		s.nAvgd++
+	}
+}
+
+// peak finds the strongest bin in [loHz, hiHz], interpolates its
+// frequency (parabola through the log powers of the peak and its
+// neighbours; Hann window) and compares the peak with the median of the
+// bins within ±250 Hz, leaving out ±4 bins around the peak.
+func (s *toneSpectrum) peak(loHz, hiHz float64) (freqHz, snrDB float64) {
+	lo := int(math.Ceil(loHz / s.binHz))
+	hi := int(math.Floor(hiHz / s.binHz))
+	if lo < 1 {
+		lo = 1
+	}
+	if hi > len(s.psd)-2 {
+		hi = len(s.psd) - 2
+	}
+	if hi < lo || s.nAvgd == 0 {
+		return 0, math.Inf(-1)
+	}
+	k := lo
+	for i := lo; i <= hi; i++ {
+		if s.psd[i] > s.psd[k] {
+			k = i
+		}
+	}
+	a, b, c := math.Log(s.psd[k-1]+1e-300), math.Log(s.psd[k]+1e-300), math.Log(s.psd[k+1]+1e-300)
+	d := 0.0
+	if den := a - 2*b + c; den < 0 {
+		d = 0.5 * (a - c) / den
+	}
+	if d > 0.5 {
+		d = 0.5
+	} else if d < -0.5 {
+		d = -0.5
+	}
+	freqHz = (float64(k) + d) * s.binHz
+	w := int(250 / s.binHz)
+	var near []float64
+	for i := k - w; i <= k+w; i++ {
+		if i < 1 || i >= len(s.psd) || (i >= k-4 && i <= k+4) {
+			continue
+		}
+		near = append(near, s.psd[i])
+	}
+	if len(near) == 0 {
+		return freqHz, math.Inf(-1)
+	}
+	sort.Float64s(near)
+	noise := near[len(near)/2]
+	sig := s.psd[k-1] + s.psd[k] + s.psd[k+1]
+	return freqHz, 10 * math.Log10(sig/(3*noise+1e-300))
+}
+
+// FindTone looks for the strongest pitch between 300 and 2000 Hz in audio
+// sampled at rate Hz, using a Welch-averaged spectrum (Hann window, bins of
+// ≤ 6 Hz) and parabolic interpolation of the peak (about 1 Hz on a steady
+// tone). snrDB compares the peak (3 bins) with the median noise of the
+// nearby bins scaled to 3 bins; a keyed tone counts its key-up time as
+// absent, so snrDB is lower than the key-down SNR. It returns an error
+// wrapping ErrNoTone when the audio is shorter than 0.1 s or no peak
+// stands 8 dB above the noise.
+func FindTone(audio []float32, rate float64) (toneHz, snrDB float64, err error) {
+	if !(rate >= 2*MinToneHz) || math.IsInf(rate, 0) {
+		return 0, 0, fmt.Errorf("find tone: sample rate %g Hz too low", rate)
+	}
+	if float64(len(audio)) < 0.1*rate || len(audio) < 256 {
+		return 0, 0, fmt.Errorf("find tone: %d samples (%.3f s) is too short: %w", len(audio), float64(len(audio))/rate, ErrNoTone)
+	}
+	s := newToneSpectrum(rate, len(audio))
+	s.average(audio)
+	f, snr := s.peak(MinToneHz, math.Min(MaxToneHz, 0.45*rate))
+	if math.IsNaN(snr) || snr < toneMinSNRDB {
+		return f, snr, fmt.Errorf("find tone: best peak %.0f Hz only %.1f dB above noise: %w", f, snr, ErrNoTone)
+	}
+	return f, snr, nil
+}
+
+// toneTrack follows a wandering pitch: it re-estimates the peak in blocks
+// of blockS seconds (50 % overlap) within ±searchHz of the overall tone,
+// keeps blocks whose peak is clear (else holds the last good value),
+// median-smooths over 3 blocks and returns the frequency at each block
+// centre.
+func toneTrack(audio []float32, rate, toneHz, searchHz, blockS float64) (centresS, freqsHz []float64) {
+	n := int(blockS * rate)
+	if n < 256 || len(audio) < 2*n {
+		return []float64{0}, []float64{toneHz}
+	}
+	s := newToneSpectrum(rate, n/2)
+	var fs, pw, snrs []float64
+	for off := 0; off+n <= len(audio); off += n / 2 {
+		s.average(audio[off : off+n])
+		f, snr := s.peak(toneHz-searchHz, toneHz+searchHz)
+		k := int(math.Round(f / s.binHz))
+		p := 0.0
+		if k >= 1 && k+1 < len(s.psd) {
+			p = s.psd[k-1] + s.psd[k] + s.psd[k+1]
+		}
+		fs, pw, snrs = append(fs, f), append(pw, p), append(snrs, snr)
+		centresS = append(centresS, (float64(off)+float64(n)/2)/rate)
+	}
+	// A block counts when its peak is clear and carries a fair share of the
+	// tone (key-up blocks only show noise).
+	sorted := append([]float64(nil), pw...)
+	sort.Float64s(sorted)
+	ref := sorted[len(sorted)*4/5]
+	last := toneHz
+	raw := make([]float64, len(fs))
+	for i := range fs {
+		if snrs[i] >= 10 && pw[i] >= 0.2*ref {
+			last = fs[i]
+		}
+		raw[i] = last
+	}
+	freqsHz = make([]float64, len(raw))
+	for i := range raw {
+		a, b, c := raw[max(i-1, 0)], raw[i], raw[min(i+1, len(raw)-1)]
+		freqsHz[i] = a + b + c - math.Max(a, math.Max(b, c)) - math.Min(a, math.Min(b, c))
+	}
+	return centresS, freqsHz
+}
+
+// toneEnvelope mixes audio down with an oscillator that follows the tone
+// track (linear interpolation between block centres), integrates over
+// boxS seconds (a boxcar, i.e. a sinc filter about 1/boxS wide) and
+// returns |.|² at envRate Hz: the key-down power envelope.
+func toneEnvelope(audio []float32, rate float64, centresS, freqsHz []float64, boxS, envRate float64) []float32 {
+	// Prefix sums of the mixed-down signal.
+	ps := make([]complex128, len(audio)+1)
+	phase := 0.0
+	j := 0
+	var acc complex128
+	for i, x := range audio {
+		t := float64(i) / rate
+		for j+1 < len(centresS) && centresS[j+1] <= t {
+			j++
+		}
+		f := freqsHz[j]
+		if j+1 < len(centresS) && t > centresS[j] {
+			w := (t - centresS[j]) / (centresS[j+1] - centresS[j])
+			f = freqsHz[j]*(1-w) + freqsHz[j+1]*w
+		}
+		phase += 2 * math.Pi * f / rate
+		if phase > math.Pi {
+			phase -= 2 * math.Pi
+		}
+		acc += complex(float64(x), 0) * cmplx.Rect(1, -phase)
+		ps[i+1] = acc
+	}
+	L := int(math.Max(2, boxS*rate))
+	step := rate / envRate
+	nEnv := int(float64(len(audio)) / step)
+	env := make([]float32, nEnv)
+	for k := range env {
+		c := int((float64(k) + 0.5) * step)
+		a, b := c-L/2, c-L/2+L
+		if a < 0 {
+			a = 0
+		}
+		if b > len(audio) {
+			b = len(audio)
+		}
+		if b <= a {
+			continue
+		}
+		v := (ps[b] - ps[a]) / complex(float64(L), 0)
+		env[k] = float32(real(v)*real(v) + imag(v)*imag(v))
+	}
+	return env
+}
+
+// DetectMode decides how a burst's Morse is carried: a clear tone in the
+// FM discriminator audio gives ModeFM, a clear tone in the AM envelope
+// audio gives ModeAM (the clearer wins when both have one), and a power
+// track (linear power at powerRate Hz) that itself switches between two
+// levels at least 6 dB apart, several times, gives ModeCW. Nil or empty
+// inputs are skipped. When nothing fits it returns ModeAuto, meaning
+// "undecided".
+func DetectMode(fmAudio, amAudio []float32, rate float64, power []float32, powerRate float64) Mode {
+	best, bestSNR := ModeAuto, math.Inf(-1)
+	if len(fmAudio) > 0 {
+		if _, snr, err := FindTone(fmAudio, rate); err == nil && snr > bestSNR {
+			best, bestSNR = ModeFM, snr
+		}
+	}
+	if len(amAudio) > 0 {
+		if _, snr, err := FindTone(amAudio, rate); err == nil && snr > bestSNR {
+			best, bestSNR = ModeAM, snr
+		}
+	}
+	if best != ModeAuto {
+		return best
+	}
+	if len(power) > 0 && powerRate > 0 && powerKeyed(power) {
+		return ModeCW
+	}
+	return ModeAuto
+}
+
+// powerKeyed reports whether a linear power track switches between two
+// levels ≥ 6 dB apart at least 4 times.
+func powerKeyed(power []float32) bool {
+	lo, hi := percentile32(power, 0.1), percentile32(power, 0.9)
+	if !(lo > 0) || !(hi > 4*lo) {
+		if !(hi > 0 && lo == 0) {
+			return false
+		}
+	}
+	thr := float32(math.Sqrt(float64(lo)*float64(hi))) // geometric mean
+	if lo == 0 {
+		thr = hi / 4
+	}
+	n := 0
+	on := power[0] > thr
+	for _, p := range power {
+		if (p > thr) != on {
+			on = !on
+			n++
+		}
+	}
+	return n >= 4
+}
+
+// percentile32 returns the q-quantile (0–1) of x (nearest rank).
+func percentile32(x []float32, q float64) float32 {
+	if len(x) == 0 {
+		return 0
+	}
+	c := make([]float32, len(x))
+	copy(c, x)
+	sort.Slice(c, func(i, j int) bool { return c[i] < c[j] })
+	i := int(q * float64(len(c)-1))
+	return c[i]
+}
