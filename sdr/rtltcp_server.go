@@ -90,12 +90,12 @@ func ServeRTLTCP(ctx context.Context, ln net.Listener, src Source, opts ServeOpt
 }
 
 type replayState struct {
-	src   Source
-	opts  ServeOptions
-	cu8   CU8Reader
-	iq    []complex64
-	buf   []byte
-	sent  int64 // samples sent over all connections
+	src  Source
+	opts ServeOptions
+	cu8  CU8Reader
+	iq   []complex64
+	buf  []byte
+	sent int64 // samples sent over all connections
 }
 
 // next fills st.buf with cu8 pairs from the source.

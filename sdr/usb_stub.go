@@ -1,0 +1,16 @@
+//go:build !rtlsdr
+
+package sdr
+
+import "errors"
+
+// errNoUSB is the answer of a build without the rtlsdr tag.
+var errNoUSB = errors.New("built without USB support: rebuild with -tags rtlsdr (needs librtlsdr-dev)")
+
+// USBDevices lists the RTL-SDR devices on USB. This build has no USB
+// support and always returns an error saying how to get it.
+func USBDevices() ([]string, error) { return nil, errNoUSB }
+
+// OpenUSB opens an RTL-SDR on USB. This build has no USB support and always
+// returns an error saying how to get it.
+func OpenUSB(index int, cfg RTLConfig) (Source, error) { return nil, errNoUSB }
