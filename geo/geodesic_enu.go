@@ -21,8 +21,12 @@ func ENU(lat0, lon0, lat, lon float64) (eastM, northM float64) {
 // north offsets eastM, northM (metres) from the origin (lat0, lon0) on the
 // azimuthal equidistant projection used by ENU, i.e. the end of the geodesic of
 // length hypot(east, north) leaving the origin at azimuth atan2(east, north).
+// A zero offset returns the origin itself (longitude reduced to [−180, 180]).
 func FromENU(lat0, lon0, eastM, northM float64) (lat, lon float64) {
 	s := math.Hypot(eastM, northM)
+	if s == 0 && math.Abs(lat0) <= 90 {
+		return lat0, angNormalize(lon0)
+	}
 	azi := atan2d(eastM, northM)
 	lat, lon, _ = WGS84.Direct(lat0, lon0, azi, s)
 	return lat, lon
