@@ -275,7 +275,7 @@ func powerKeyed(power []float32) bool {
 			return false
 		}
 	}
-	thr := float32(math.Sqrt(float64(lo)*float64(hi))) // geometric mean
+	thr := float32(math.Sqrt(float64(lo) * float64(hi))) // geometric mean
 	if lo == 0 {
 		thr = hi / 4
 	}
