@@ -30,6 +30,14 @@ type Burst struct {
 	NoiseDB     float64   `json:"noise_dbfs"`
 	SNRDB       float64   `json:"snr_db"`
 	Clipped     float64   `json:"clipped"`
+	// ChannelRateHz is the sample rate of FMAudio and AMAudio.
+	ChannelRateHz float64 `json:"-"`
 	// Level is the level track over the burst (≥ 100 readings a second).
 	Level []LevelSample `json:"-"`
+	// FMAudio is the FM discriminator output (radians per channel sample)
+	// and AMAudio the envelope |x|, from AudioStartS, when Config.KeepAudio
+	// was set. AudioTruncated says the burst outlasted Config.MaxAudioS.
+	FMAudio, AMAudio []float32 `json:"-"`
+	AudioStartS      float64   `json:"-"`
+	AudioTruncated   bool      `json:"-"`
 }

@@ -1,0 +1,304 @@
+package receiver
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"time"
+
+	"nullseek/dsp"
+	"nullseek/sdr"
+)
+
+// Summary describes a finished scan.
+type Summary struct {
+	Samples        int64   `json:"samples"`
+	DurationS      float64 `json:"duration_s"`
+	Bursts         int     `json:"bursts"`
+	ClippedSamples int64   `json:"clipped_samples"`
+	NoiseDB        float64 `json:"noise_dbfs"`
+	OffsetHz       float64 `json:"offset_hz"`
+	FreqHz         float64 `json:"freq_hz,omitempty"`
+	ChannelRateHz  float64 `json:"channel_rate_hz"`
+	// InBurstAtStart is true when the recording began inside a
+	// transmission: the noise floor could not be seen first, so that
+	// first burst is reported from where the floor was found.
+	InBurstAtStart bool `json:"in_burst_at_start,omitempty"`
+}
+
+// reading is one channel-power reading and what was accumulated with it.
+type reading struct {
+	idx   int64      // reading number
+	p     float64    // mean channel power, linear (full-scale sine = 1)
+	r1    complex128 // lag-1 autocorrelation sum (carrier frequency)
+	clip  int        // clipped raw samples in the reading's input span
+	noise float64    // noise floor, linear, when the reading was taken
+}
+
+// Scanner is the streaming front end and burst detector for one channel.
+// Build it with NewScanner and feed it with Run.
+type Scanner struct {
+	cfg      Config
+	info     sdr.Info
+	offsetHz float64
+
+	ch      *dsp.Channelizer
+	disc    dsp.FMDiscriminator
+	nf      *dsp.NoiseFloor
+	dec     int
+	outRate float64
+	readN   int // channel samples per reading
+	chunkIn int // input samples per reading
+	delayIn float64
+
+	// scratch, reused block after block
+	raw   []byte
+	iq    []complex64
+	chBuf []complex64
+	fm    []float32
+	am    []float32
+	prev  complex64
+
+	// audio pre-trigger rings (channel rate)
+	ringFM, ringAM []float32
+	ringPos        int
+	ringFull       bool
+
+	// detector state
+	recent    []reading // pre-trigger readings, oldest first
+	cur       *burstBuild
+	quietRuns int
+	nBursts   int
+	noiseDB   float64 // the noise floor's latest estimate, dB
+	clipTotal int64
+	sawQuiet  bool
+	summary   Summary
+	emit      func(*Burst) error
+	err       error // first error returned by emit
+}
+
+type burstBuild struct {
+	readings   []reading
+	lastAbove  int // index into readings of the last reading above the off threshold
+	firstAbove int
+	fm, am     []float32
+	audioStart int64 // channel-rate sample index of fm[0]
+	audioFull  bool
+}
+
+// NewScanner prepares the front end for a stream described by info.
+func NewScanner(info sdr.Info, cfg Config) (*Scanner, error) {
+	cfg = cfg.Defaults()
+	if !(info.SampleRate > 0) || math.IsInf(info.SampleRate, 0) {
+		return nil, fmt.Errorf("%s: sample rate %v is not usable", info.Name, info.SampleRate)
+	}
+	off, err := cfg.ChannelOffset(info)
+	if err != nil {
+		return nil, err
+	}
+	ch, err := dsp.NewChannelizer(info.SampleRate, off, cfg.ChannelRateHz, cfg.PassHz, cfg.StopHz)
+	if err != nil {
+		return nil, fmt.Errorf("channel filter: %w", err)
+	}
+	s := &Scanner{cfg: cfg, info: info, offsetHz: off, ch: ch}
+	s.dec = ch.Decimation()
+	s.outRate = ch.OutRate()
+	s.delayIn = ch.DelayIn()
+	s.readN = int(math.Round(s.outRate / cfg.ReadingsPerS))
+	if s.readN < 1 {
+		s.readN = 1
+	}
+	s.chunkIn = s.readN * s.dec
+	s.disc = dsp.FMDiscriminator{Gain: 1}
+	readingsPerS := s.outRate / float64(s.readN)
+	s.nf = dsp.NewNoiseFloor(readingsPerS, cfg.NoiseWindowS)
+	// Blocks of about 50 ms of input, a whole number of readings.
+	per := int(math.Max(1, math.Round(0.05*readingsPerS)))
+	s.iq = make([]complex64, per*s.chunkIn)
+	s.raw = make([]byte, 2*per*s.chunkIn)
+	s.chBuf = make([]complex64, 0, per*s.readN+16)
+	s.fm = make([]float32, 0, per*s.readN+16)
+	s.am = make([]float32, 0, per*s.readN+16)
+	if cfg.KeepAudio {
+		n := int(0.5 * s.outRate)
+		s.ringFM = make([]float32, n)
+		s.ringAM = make([]float32, n)
+	}
+	s.summary.OffsetHz = off
+	if info.CenterHz != 0 {
+		s.summary.FreqHz = info.CenterHz + off
+	}
+	s.summary.ChannelRateHz = s.outRate
+	return s, nil
+}
+
+// OffsetHz is the channel's offset from the capture centre.
+func (s *Scanner) OffsetHz() float64 { return s.offsetHz }
+
+// ChannelRateHz is the channel sample rate after decimation.
+func (s *Scanner) ChannelRateHz() float64 { return s.outRate }
+
+// Run reads src to its end (or until ctx is cancelled), calling emit for
+// every burst as soon as it has ended. progress, when not nil, is called
+// with the number of input samples consumed so far after every block.
+func (s *Scanner) Run(ctx context.Context, src sdr.Source, emit func(*Burst) error, progress func(int64)) (Summary, error) {
+	s.emit = emit
+	cu8, fast := src.(sdr.CU8Reader)
+	fast = fast && s.info.Format == "cu8"
+	var total int64
+	var carry int // samples held in s.iq / s.raw from a short read
+	for {
+		if err := ctx.Err(); err != nil {
+			return s.finish(total, emit, err)
+		}
+		var n int
+		var rerr error
+		if fast {
+			var nb int
+			nb, rerr = cu8.ReadCU8(s.raw[2*carry:])
+			n = carry + nb/2
+		} else {
+			var k int
+			k, rerr = src.Read(s.iq[carry:])
+			n = carry + k
+		}
+		whole := n - n%s.chunkIn
+		if whole > 0 {
+			if fast {
+				s.processCU8(s.raw[:2*whole], total)
+			} else {
+				s.processIQ(s.iq[:whole], total)
+			}
+			if s.err != nil {
+				return s.summary, s.err
+			}
+			total += int64(whole)
+			if progress != nil {
+				progress(total)
+			}
+		}
+		// keep the part of a reading that is not yet whole
+		carry = n - whole
+		if carry > 0 {
+			if fast {
+				copy(s.raw, s.raw[2*whole:2*n])
+			} else {
+				copy(s.iq, s.iq[whole:n])
+			}
+		}
+		if rerr != nil {
+			if errors.Is(rerr, io.EOF) {
+				total += int64(carry) // a partial reading at the very end is dropped
+				return s.finish(total, emit, nil)
+			}
+			return s.finish(total, emit, rerr)
+		}
+	}
+}
+
+func (s *Scanner) processCU8(raw []byte, first int64) {
+	for off := 0; off < len(raw); off += 2 * s.chunkIn {
+		part := raw[off : off+2*s.chunkIn]
+		clip := dsp.CountClippedCU8(part)
+		s.chBuf = s.ch.ProcessCU8(s.chBuf[:0], part)
+		s.reading(first+int64(off/2), clip)
+	}
+}
+
+func (s *Scanner) processIQ(iq []complex64, first int64) {
+	for off := 0; off < len(iq); off += s.chunkIn {
+		part := iq[off : off+s.chunkIn]
+		clip := dsp.CountClipped(part, s.info.ClipLevel)
+		s.chBuf = s.ch.Process(s.chBuf[:0], part)
+		s.reading(first+int64(off), clip)
+	}
+}
+
+// reading turns one reading's channel samples (in s.chBuf) into a reading,
+// demodulates audio, and runs the detector.
+func (s *Scanner) reading(firstIn int64, clip int) {
+	x := s.chBuf
+	var p float64
+	var r1 complex128
+	prev := s.prev
+	for _, v := range x {
+		re, im := float64(real(v)), float64(imag(v))
+		p += re*re + im*im
+		r1 += complex128(v) * complex(float64(real(prev)), -float64(imag(prev)))
+		prev = v
+	}
+	if len(x) > 0 {
+		p /= float64(len(x))
+	}
+	var fm, am []float32
+	if s.cfg.KeepAudio {
+		s.fm = s.disc.Process(s.fm[:0], x)
+		s.am = dsp.AMEnvelope(s.am[:0], x)
+		fm, am = s.fm, s.am
+	}
+	s.prev = prev
+	idx := firstIn / int64(s.chunkIn)
+	s.clipTotal += int64(clip)
+	s.detect(reading{idx: idx, p: p, r1: r1, clip: clip}, fm, am)
+}
+
+// pushRing stores audio in the pre-trigger rings.
+func (s *Scanner) pushRing(fm, am []float32) {
+	if len(s.ringFM) == 0 {
+		return
+	}
+	for i := range fm {
+		s.ringFM[s.ringPos] = fm[i]
+		s.ringAM[s.ringPos] = am[i]
+		s.ringPos++
+		if s.ringPos == len(s.ringFM) {
+			s.ringPos = 0
+			s.ringFull = true
+		}
+	}
+}
+
+// ringAudio returns the ring's content, oldest first.
+func (s *Scanner) ringAudio() (fm, am []float32) {
+	if !s.ringFull {
+		return append([]float32(nil), s.ringFM[:s.ringPos]...), append([]float32(nil), s.ringAM[:s.ringPos]...)
+	}
+	fm = append(append([]float32(nil), s.ringFM[s.ringPos:]...), s.ringFM[:s.ringPos]...)
+	am = append(append([]float32(nil), s.ringAM[s.ringPos:]...), s.ringAM[:s.ringPos]...)
+	return fm, am
+}
+
+// readingTime is the time in seconds from capture start of the centre of
+// reading idx, corrected for the channel filter's delay.
+func (s *Scanner) readingTime(idx float64) float64 {
+	return ((idx+0.5)*float64(s.chunkIn) - s.delayIn) / s.info.SampleRate
+}
+
+// finish flushes an open burst and completes the summary.
+func (s *Scanner) finish(total int64, emit func(*Burst) error, cause error) (Summary, error) {
+	if s.cur != nil {
+		s.closeBurst()
+	}
+	if s.err != nil && cause == nil {
+		cause = s.err
+	}
+	s.summary.Samples = total
+	s.summary.DurationS = float64(total) / s.info.SampleRate
+	s.summary.Bursts = s.nBursts
+	s.summary.NoiseDB = s.noiseDB
+	s.summary.ClippedSamples = s.clipTotal
+	if total == 0 && cause == nil {
+		cause = fmt.Errorf("%s: no complete samples to scan", s.info.Name)
+	}
+	return s.summary, cause
+}
+
+// timeOf converts seconds from capture start to UTC when the start is known.
+func (s *Scanner) timeOf(sec float64) time.Time {
+	if s.info.Start.IsZero() {
+		return time.Time{}
+	}
+	return s.info.Start.Add(time.Duration(math.Round(sec * 1e9)))
+}
