@@ -188,8 +188,10 @@ func (r *Rotator) Close() error {
 	return r.conn.Close()
 }
 
-// roundTrip sends cmd and reads nLines reply lines (an RPRT line ends the
-// reply early). The caller holds r.mu.
+// roundTrip sends cmd and reads its reply: nLines value lines for a get
+// command (an RPRT line instead means an error), or, with nLines 0 for a
+// set command, lines up to and including the RPRT line. The caller holds
+// r.mu.
 func (r *Rotator) roundTrip(cmd string, nLines int) ([]string, error) {
 	if r.broken != nil {
 		return nil, fmt.Errorf("rotator at %s is unusable after an earlier error (%w); dial again", r.addr, r.broken)
@@ -208,7 +210,10 @@ func (r *Rotator) roundTrip(cmd string, nLines int) ([]string, error) {
 		return fail(err)
 	}
 	var lines []string
-	for len(lines) < nLines {
+	for nLines == 0 || len(lines) < nLines {
+		if nLines == 0 && len(lines) > 8 {
+			return fail(fmt.Errorf("no RPRT line after %q; is this rotctld's default protocol?", cmd))
+		}
 		line, err := r.br.ReadString('\n')
 		if err != nil {
 			if err == io.EOF && line != "" {
