@@ -365,13 +365,14 @@ func checkExtensions(exts []Extension, global json.RawMessage) error {
 
 // jsonError turns a decoding error into one line with line:column.
 func jsonError(b []byte, err error) error {
-	var se *json.SyntaxError
-	if errors.As(err, &se) {
-		line, col := lineCol(b, se.Offset)
-		return fmt.Errorf("malformed metadata JSON at line %d column %d (byte %d): %v", line, col, se.Offset, se)
-	}
 	if strings.Contains(err.Error(), "unexpected end of JSON input") {
 		return fmt.Errorf("truncated metadata JSON: input ends after %d bytes", len(b))
+	}
+	var se *json.SyntaxError
+	if errors.As(err, &se) {
+		// Offset counts the bytes read, including the offending one.
+		line, col := lineCol(b, se.Offset-1)
+		return fmt.Errorf("malformed metadata JSON at line %d column %d: %v", line, col, se)
 	}
 	var te *json.UnmarshalTypeError
 	if errors.As(err, &te) {
