@@ -1,0 +1,68 @@
+//go:build linux
+
+package heading
+
+import (
+	"context"
+	"os"
+	"strconv"
+	"syscall"
+	"testing"
+	"time"
+	"unsafe"
+)
+
+// openPTY opens a pseudo-terminal pair through /dev/ptmx (Linux
+// devpts(4)): the master end to write to and the slave's path for the
+// serial reader.
+func openPTY(t *testing.T) (*os.File, string) {
+	t.Helper()
+	m, err := os.OpenFile("/dev/ptmx", os.O_RDWR|syscall.O_NOCTTY, 0)
+	if err != nil {
+		t.Skipf("no pseudo-terminals here: %v", err)
+	}
+	var unlock int32
+	if _, _, e := syscall.Syscall(syscall.SYS_IOCTL, m.Fd(), syscall.TIOCSPTLCK, uintptr(unsafe.Pointer(&unlock))); e != 0 {
+		m.Close()
+		t.Skipf("unlock pty: %v", e)
+	}
+	var n uint32
+	if _, _, e := syscall.Syscall(syscall.SYS_IOCTL, m.Fd(), syscall.TIOCGPTN, uintptr(unsafe.Pointer(&n))); e != 0 {
+		m.Close()
+		t.Skipf("pty number: %v", e)
+	}
+	t.Cleanup(func() { m.Close() })
+	return m, "/dev/pts/" + strconv.Itoa(int(n))
+}
+
+func TestNMEASerialPTY(t *testing.T) {
+	m, slave := openPTY(t)
+	s, err := OpenNMEASerial(slave, 4800)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer s.Close()
+	s.Logger = discardLogger
+	go func() {
+		for _, line := range []string{"$GPHDT,274.07,T*03\r\n", "$GPHDT,274.07,T*13\r\n", "$SDHDG,234.6,,,1.3,E*34\r\n"} {
+			time.Sleep(80 * time.Millisecond)
+			m.Write([]byte(line))
+		}
+	}()
+	ctx, cancel := context.WithTimeout(context.Background(), 800*time.Millisecond)
+	defer cancel()
+	tr, err := s.Record(ctx, time.Now(), True)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// REFERENCES §4 values: HDT 274.07; HDG 234.6 + 1.3 E = 235.9 true.
+	if len(tr.Samples) != 2 || tr.Samples[0].Deg != 274.07 || !near(tr.Samples[1].Deg, 235.9, 1e-9) {
+		t.Fatalf("samples %v", tr.Samples)
+	}
+	if st := s.Stats(); st.BadChecksum != 1 {
+		t.Fatalf("stats %s", st)
+	}
+	if _, err := OpenNMEASerial("/dev/nonexistent-tty", 4800); err == nil {
+		t.Fatal("missing port opened")
+	}
+}
