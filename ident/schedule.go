@@ -503,9 +503,7 @@ func BuildSchedule(obs []Observation, labels []string, opts ScheduleOptions) (*S
 			continue
 		}
 		if c, ok := schedCollision(a, b, jb-ja, endS, pc); ok {
-			if !plan.CaptureStart.IsZero() {
-				c.At = schedUTC(plan.CaptureStart, c.AtS)
-			}
+			c.At, _ = schedUTC(plan.CaptureStart, c.AtS)
 			plan.Collisions = append(plan.Collisions, c)
 		}
 	}
@@ -517,13 +515,15 @@ func BuildSchedule(obs []Observation, labels []string, opts ScheduleOptions) (*S
 			continue
 		}
 		k0 := math.Floor((endS-tx.T0S)/tx.PeriodS) + 1
-		for k := k0; k < k0+float64(opts.NextCount); k++ {
+		for n := range opts.NextCount {
+			k := k0 + float64(n)
 			s := tx.T0S + k*tx.PeriodS
 			v := tx.CovT0P[0][0] + 2*k*tx.CovT0P[0][1] + k*k*tx.CovT0P[1][1]
 			tx.NextOnS = append(tx.NextOnS, s)
 			tx.NextOnSigmaS = append(tx.NextOnSigmaS, math.Sqrt(max(v, 0)))
 			if !plan.CaptureStart.IsZero() {
-				tx.NextOn = append(tx.NextOn, schedUTC(plan.CaptureStart, s))
+				at, _ := schedUTC(plan.CaptureStart, s)
+				tx.NextOn = append(tx.NextOn, at)
 			}
 		}
 	}
@@ -547,8 +547,13 @@ func schedCheckTimes(o Observation) error {
 	return nil
 }
 
-func schedUTC(t0 time.Time, s float64) time.Time {
-	return t0.Add(time.Duration(math.Round(s * float64(time.Second)))).UTC()
+// schedUTC converts seconds from the capture start to UTC; ok is false (and
+// the time zero) when the capture start is unknown or s is beyond ±250 years.
+func schedUTC(t0 time.Time, s float64) (time.Time, bool) {
+	if t0.IsZero() || !(math.Abs(s) < 250*365.25*86400) {
+		return time.Time{}, false
+	}
+	return t0.Add(time.Duration(math.Round(s * float64(time.Second)))).UTC(), true
 }
 
 func schedMod(x, p float64) float64 {
@@ -683,6 +688,9 @@ func schedFitLine(k, t []float64, sigmaS float64) (schedFit, error) {
 		return schedFit{}, errors.New("all starts fall in one cycle")
 	}
 	p := sxy / sxx
+	if !(p > 0) || math.IsInf(p, 0) {
+		return schedFit{}, fmt.Errorf("fitted period %g s is not positive", p)
+	}
 	t0 := tb - p*kb
 	var ssr float64
 	for i := range k {
@@ -764,7 +772,7 @@ func schedLineOf(t *SlotTransmitter, bs []schedBurst, pc float64) schedLine {
 	if t.HasPeriod() {
 		return schedLine{t.T0S, t.PeriodS}
 	}
-	if pc > 0 {
+	if pc > 0 && !math.IsInf(pc, 0) {
 		return schedLine{schedFirstUncut(bs), pc}
 	}
 	return schedLine{math.NaN(), math.NaN()}
@@ -828,9 +836,7 @@ func schedOverlaps(obs []Observation, used []schedLabelled, t0 time.Time) []Burs
 			}
 			ov := BurstOverlap{A: u.id, B: w.id, IndexA: a.Index, IndexB: b.Index,
 				StartS: b.StartS, EndS: min(a.EndS, b.EndS), Source: "intervals"}
-			if !t0.IsZero() {
-				ov.Start = schedUTC(t0, ov.StartS)
-			}
+			ov.Start, _ = schedUTC(t0, ov.StartS)
 			out = append(out, ov)
 			inPair[u.idx], inPair[w.idx] = true, true
 		}
@@ -840,9 +846,7 @@ func schedOverlaps(obs []Observation, used []schedLabelled, t0 time.Time) []Burs
 		if a.DoubleCarrier && !inPair[u.idx] {
 			ov := BurstOverlap{A: u.id, B: UnknownIdent, IndexA: a.Index, IndexB: -1,
 				StartS: a.StartS, EndS: a.EndS, Source: "receiver"}
-			if !t0.IsZero() {
-				ov.Start = schedUTC(t0, ov.StartS)
-			}
+			ov.Start, _ = schedUTC(t0, ov.StartS)
 			out = append(out, ov)
 		}
 	}

@@ -27,10 +27,10 @@ func (x schedNum) MarshalJSON() ([]byte, error) {
 // schedWhen is an RFC 3339 time when the capture start is known, else the
 // seconds from the capture start.
 func schedWhen(t0 time.Time, s float64) any {
-	if t0.IsZero() {
-		return schedNum(s)
+	if at, ok := schedUTC(t0, s); ok {
+		return at.Format(schedTimeLayout)
 	}
-	return schedUTC(t0, s).Format(schedTimeLayout)
+	return schedNum(s)
 }
 
 type schedTxJSON struct {

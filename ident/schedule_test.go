@@ -380,3 +380,35 @@ func slotTQuantile(df int) float64 {
 	}
 	return distuv.StudentsT{Mu: 0, Sigma: 1, Nu: float64(df)}.Quantile(0.9995)
 }
+
+// slotFuzzObservations turns fuzz bytes into observations: 6 bytes a burst
+// (start step, length, offset, tone, ID, confidence), with a few
+// special values (NaN, huge) reachable.
+func slotFuzzObservations(data []byte) []Observation {
+	var obs []Observation
+	t := 0.0
+	special := []float64{math.NaN(), math.Inf(1), -1e300, 1e300, 0, -0.5}
+	for i := 0; i+6 <= len(data) && len(obs) < 300; i += 6 {
+		b := data[i : i+6]
+		step := float64(b[0]) * 3
+		if b[0] == 255 {
+			step = special[int(b[1])%len(special)]
+		}
+		t += step
+		o := Observation{
+			Index:           len(obs),
+			StartS:          t,
+			EndS:            t + float64(b[1]),
+			OffsetHz:        float64(int8(b[2])) * 4,
+			ToneHz:          float64(b[3]) * 8,
+			Ident:           []string{"N0CALL/1", "N0CALL/2", "N0CALL/3", UnknownIdent, ""}[int(b[4])%5],
+			IdentConfidence: float64(b[5]) / 200,
+			DoubleCarrier:   b[5] == 7,
+		}
+		if b[2] == 0x80 {
+			o.OffsetHz = special[int(b[3])%len(special)]
+		}
+		obs = append(obs, o)
+	}
+	return obs
+}
