@@ -171,6 +171,14 @@ func (st *replayState) serve(ctx context.Context, conn net.Conn) (done bool, err
 			st.sent += int64(n / 2)
 		}
 		if rerr != nil {
+			// End of recording: half-close so the client reads EOF while
+			// commands it is still sending are accepted, then give it a
+			// moment to hang up.
+			if cw, ok := conn.(interface{ CloseWrite() error }); ok {
+				cw.CloseWrite()
+				conn.SetReadDeadline(time.Now().Add(2 * time.Second))
+				wg.Wait()
+			}
 			if errors.Is(rerr, io.EOF) {
 				return true, nil
 			}
