@@ -91,6 +91,19 @@ func runTool(t *testing.T, in []string, prog string, args ...string) []string {
 	return lines
 }
 
+// runToolRaw feeds text to a program and returns its whole standard output.
+func runToolRaw(t *testing.T, in string, prog string, args ...string) string {
+	t.Helper()
+	cmd := exec.Command(prog, args...)
+	cmd.Stdin = strings.NewReader(in)
+	var out, stderr bytes.Buffer
+	cmd.Stdout, cmd.Stderr = &out, &stderr
+	if err := cmd.Run(); err != nil {
+		t.Fatalf("%s %v: %v (%s)", prog, args, err, stderr.String())
+	}
+	return out.String()
+}
+
 func parseFloats(t *testing.T, s string) []float64 {
 	t.Helper()
 	var r []float64
