@@ -109,9 +109,9 @@ var reverseTable = func() map[string]string {
 // maxCodeLen is the longest code in the table (the error signal).
 const maxCodeLen = 8
 
-// unknownChar is written by the decoder for an element pattern that is no
+// mcUnknownChar is written by the decoder for an element pattern that is no
 // character; Morse cannot send '*', so it never collides with real text.
-const unknownChar = "*"
+const mcUnknownChar = "*"
 
 // splitMorseText splits text into table keys: single characters
 // (upper-cased), prosigns in angle brackets, and " " for word breaks
@@ -119,6 +119,9 @@ const unknownChar = "*"
 // that has no code.
 func splitMorseText(text string) ([]string, error) {
 	var out []string
+	if !utf8.ValidString(text) {
+		return nil, fmt.Errorf("invalid UTF-8: %w", ErrUnsendable)
+	}
 	s := strings.ToUpper(text)
 	for i := 0; i < len(s); {
 		r, n := utf8.DecodeRuneInString(s[i:])

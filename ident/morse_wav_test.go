@@ -9,9 +9,9 @@ import (
 	"testing"
 )
 
-// readWAV reads a mono PCM WAV (8-bit unsigned or 16-bit signed) into
+// mcReadWAV reads a mono PCM WAV (8-bit unsigned or 16-bit signed) into
 // float32 in [-1, 1). Test helper for the fixtures in testdata/morse.
-func readWAV(path string) ([]float32, float64, error) {
+func mcReadWAV(path string) ([]float32, float64, error) {
 	b, err := os.ReadFile(path)
 	if err != nil {
 		return nil, 0, err
@@ -65,9 +65,9 @@ func readWAV(path string) ([]float32, float64, error) {
 	return nil, 0, fmt.Errorf("%s: no data chunk", path)
 }
 
-// requireTool returns the path of an outside program, or skips the test
+// mcRequireTool returns the path of an outside program, or skips the test
 // (fails it when NULLSEEK_REQUIRE_TOOLS=1).
-func requireTool(t testing.TB, name string) string {
+func mcRequireTool(t testing.TB, name string) string {
 	t.Helper()
 	p, err := exec.LookPath(name)
 	if err != nil {
@@ -90,7 +90,7 @@ func TestDebugDecodeWAV(t *testing.T) {
 	}
 	files, _ := filepath.Glob(p)
 	for _, f := range files {
-		a, rate, err := readWAV(f)
+		a, rate, err := mcReadWAV(f)
 		if err != nil {
 			t.Fatal(err)
 		}

@@ -260,16 +260,16 @@ func DetectMode(fmAudio, amAudio []float32, rate float64, power []float32, power
 	if best != ModeAuto {
 		return best
 	}
-	if len(power) > 0 && powerRate > 0 && powerKeyed(power) {
+	if len(power) > 0 && powerRate > 0 && mcPowerKeyed(power) {
 		return ModeCW
 	}
 	return ModeAuto
 }
 
-// powerKeyed reports whether a linear power track switches between two
+// mcPowerKeyed reports whether a linear power track switches between two
 // levels ≥ 6 dB apart at least 4 times.
-func powerKeyed(power []float32) bool {
-	lo, hi := percentile32(power, 0.1), percentile32(power, 0.9)
+func mcPowerKeyed(power []float32) bool {
+	lo, hi := mcPercentile32(power, 0.1), mcPercentile32(power, 0.9)
 	if !(lo > 0) || !(hi > 4*lo) {
 		if !(hi > 0 && lo == 0) {
 			return false
@@ -290,8 +290,8 @@ func powerKeyed(power []float32) bool {
 	return n >= 4
 }
 
-// percentile32 returns the q-quantile (0–1) of x (nearest rank).
-func percentile32(x []float32, q float64) float32 {
+// mcPercentile32 returns the q-quantile (0–1) of x (nearest rank).
+func mcPercentile32(x []float32, q float64) float32 {
 	if len(x) == 0 {
 		return 0
 	}

@@ -29,3 +29,6 @@ gen clean_w25_f1500  25 0  1500 "QZJXV BWMKD"
 gen clean_w25_f600   25 0  600  "1234567890"
 gen clean_w20_e10_f700 20 10 700 "FHY LUG"
 gen clean_w25_e15_f900 25 15 900 "OIR 6TP"
+# A wandering tone: ebook2cw's in-text |f command moves the pitch by 60 Hz
+# at each word (700 -> 880 Hz over the file).
+gen wander_w20_f700_880 20 0 700 "TEST |f760 TEST |f820 TEST |f880 TEST"

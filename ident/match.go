@@ -1,0 +1,610 @@
+package ident
+
+import (
+	"bufio"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"sort"
+	"strings"
+)
+
+// UnknownID is the Match.ID when no listed identifier is convincing.
+const UnknownID = "unknown"
+
+// DefaultMinConfidence is the confidence below which Match answers
+// UnknownID instead of guessing.
+const DefaultMinConfidence = 0.9
+
+// IDScore is one listed identifier's evidence for a burst.
+type IDScore struct {
+	ID string
+	// TextProb and TemplateProb are the identifier's share (0–1) of the
+	// text and template likelihoods among the listed IDs; TemplateProb is
+	// 0 when the template method did not run.
+	TextProb, TemplateProb float64
+	// TextCost is the weighted edit distance between the decoded text and
+	// the identifier repeated (partial copies at the edges are free).
+	TextCost float64
+	// Copies is how many copies the template method fitted into the burst.
+	Copies int
+}
+
+// Match is the identifier a burst was matched to.
+type Match struct {
+	// ID is the listed identifier, or UnknownID.
+	ID string
+	// Confidence (0–1) is the winner's posterior share against the other
+	// listed IDs (mcSoftmax of log-likelihoods; see Matcher.Match).
+	Confidence float64
+	// Method is "text" or "template" ("" when nothing could be scored).
+	Method   string
+	Scores   []IDScore
+	Warnings []string
+}
+
+// Matcher matches decoded bursts to a list of known identifiers.
+type Matcher struct {
+	ids    []string   // as given, trimmed
+	tokens [][]string // Morse characters of each ID, spaces dropped
+	// MinConfidence is the least confidence reported as a match
+	// (DefaultMinConfidence unless changed).
+	MinConfidence float64
+}
+
+// ErrBadIDList is wrapped by errors about the identifier list.
+var ErrBadIDList = errors.New("bad identifier list")
+
+// NewMatcher checks ids and prepares a matcher. Empty IDs, duplicates
+// (compared case-insensitively, after collapsing spaces) and characters
+// Morse cannot send are errors naming the ID and the character.
+func NewMatcher(ids []string) (*Matcher, error) {
+	if len(ids) == 0 {
+		return nil, fmt.Errorf("no identifiers given: %w", ErrBadIDList)
+	}
+	m := &Matcher{MinConfidence: DefaultMinConfidence}
+	seen := map[string]string{}
+	for i, raw := range ids {
+		id := strings.TrimSpace(raw)
+		if id == "" {
+			return nil, fmt.Errorf("identifier %d is empty: %w", i+1, ErrBadIDList)
+		}
+		keys, err := splitMorseText(id)
+		if err != nil {
+			return nil, fmt.Errorf("identifier %q: %w", id, err)
+		}
+		var toks []string
+		for _, k := range keys {
+			if k != " " {
+				toks = append(toks, reverseTable[morseTable[k]])
+			}
+		}
+		key := strings.Join(toks, "")
+		if prev, ok := seen[key]; ok {
+			return nil, fmt.Errorf("identifier %q duplicates %q (Morse cannot tell them apart): %w", id, prev, ErrBadIDList)
+		}
+		seen[key] = id
+		m.ids = append(m.ids, id)
+		m.tokens = append(m.tokens, toks)
+	}
+	return m, nil
+}
+
+// IDs returns the identifiers in list order.
+func (m *Matcher) IDs() []string { return append([]string(nil), m.ids...) }
+
+// ParseIDList splits a comma-separated list such as "N0CALL/1,N0CALL/2"
+// and checks it as NewMatcher does.
+func ParseIDList(s string) ([]string, error) {
+	var ids []string
+	for _, p := range strings.Split(s, ",") {
+		ids = append(ids, strings.TrimSpace(p))
+	}
+	if len(ids) == 1 && ids[0] == "" {
+		return nil, fmt.Errorf("empty identifier list: %w", ErrBadIDList)
+	}
+	if _, err := NewMatcher(ids); err != nil {
+		return nil, err
+	}
+	return ids, nil
+}
+
+// ReadIDList reads identifiers one per line; blank lines and text after
+// '#' are ignored. Errors name the line.
+func ReadIDList(r io.Reader) ([]string, error) {
+	var ids []string
+	sc := bufio.NewScanner(r)
+	line := 0
+	for sc.Scan() {
+		line++
+		t := sc.Text()
+		if i := strings.IndexByte(t, '#'); i >= 0 {
+			t = t[:i]
+		}
+		t = strings.TrimSpace(t)
+		if t == "" {
+			continue
+		}
+		if _, err := NewMatcher(append(append([]string(nil), ids...), t)); err != nil {
+			return nil, fmt.Errorf("line %d: %w", line, err)
+		}
+		ids = append(ids, t)
+	}
+	if err := sc.Err(); err != nil {
+		return nil, fmt.Errorf("read identifier list: %w", err)
+	}
+	if len(ids) == 0 {
+		return nil, fmt.Errorf("identifier list has no entries: %w", ErrBadIDList)
+	}
+	return ids, nil
+}
+
+// LoadIDFile reads an identifier file (see ReadIDList).
+func LoadIDFile(path string) ([]string, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, fmt.Errorf("identifier file: %w", err)
+	}
+	defer f.Close()
+	ids, err := ReadIDList(f)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", path, err)
+	}
+	return ids, nil
+}
+
+// mcTextLambda converts weighted edit cost to log-likelihood (nats per
+// error): a wrong character is taken to be about e^3 ≈ 20 times less
+// likely than a right one, a deliberately modest figure so a single
+// garbled digit does not give a near-certain answer.
+const mcTextLambda = 3.0
+
+// mcCharCost is the cost of a decoded character that does not fit the
+// identifier: cheaper when the decoder itself was unsure.
+func mcCharCost(c Char) float64 {
+	if c.Text == mcUnknownChar {
+		return 0.5
+	}
+	return 0.4 + 0.6*c.Confidence
+}
+
+// mcCyclicCost is the least weighted edit cost of reading chars as copies of
+// pat repeated, starting and ending anywhere in the pattern (partial copies
+// at the edges are free). Substituted or extra decoded characters cost
+// mcCharCost, missing pattern characters cost 1.
+func mcCyclicCost(chars []Char, pat []string) float64 {
+	P := len(pat)
+	cur := make([]float64, P)
+	next := make([]float64, P)
+	relaxDeletions := func(row []float64) {
+		for pass := 0; pass < 2; pass++ {
+			for j := 0; j < P; j++ {
+				if v := row[j] + 1; v < row[(j+1)%P] {
+					row[(j+1)%P] = v
+				}
+			}
+		}
+	}
+	for _, c := range chars {
+		for j := range next {
+			next[j] = math.Inf(1)
+		}
+		cc := mcCharCost(c)
+		for j := 0; j < P; j++ {
+			sub := cc
+			if c.Text == pat[j] {
+				sub = 0
+			}
+			if v := cur[j] + sub; v < next[(j+1)%P] {
+				next[(j+1)%P] = v
+			}
+			if v := cur[j] + cc; v < next[j] {
+				next[j] = v
+			}
+		}
+		relaxDeletions(next)
+		cur, next = next, cur
+	}
+	best := math.Inf(1)
+	for _, v := range cur {
+		best = math.Min(best, v)
+	}
+	return best
+}
+
+// mcEditDistance is the plain Levenshtein distance between token slices.
+func mcEditDistance(a, b []string) int {
+	prev := make([]int, len(b)+1)
+	cur := make([]int, len(b)+1)
+	for j := range prev {
+		prev[j] = j
+	}
+	for i := 1; i <= len(a); i++ {
+		cur[0] = i
+		for j := 1; j <= len(b); j++ {
+			s := prev[j-1]
+			if a[i-1] != b[j-1] {
+				s++
+			}
+			cur[j] = min(s, prev[j]+1, cur[j-1]+1)
+		}
+		prev, cur = cur, prev
+	}
+	return prev[len(b)]
+}
+
+// mcOccurrence is a stretch of decoded text read as one whole copy of an ID.
+type mcOccurrence struct {
+	id, start, end, dist int
+}
+
+// mcOccurrences finds non-overlapping, nearly exact whole copies of the IDs
+// in the decoded tokens (distance ≤ 15 % of the ID, at least 1), each
+// credited to the one ID that fits it strictly best.
+func (m *Matcher) mcOccurrences(toks []string) []mcOccurrence {
+	var cands []mcOccurrence
+	for s := range toks {
+		for i, pat := range m.tokens {
+			P := len(pat)
+			maxD := max(1, int(0.15*float64(P)))
+			for l := max(1, P-maxD); l <= P+maxD && s+l <= len(toks); l++ {
+				d := mcEditDistance(toks[s:s+l], pat)
+				if d > maxD {
+					continue
+				}
+				// Credit it only if no other ID fits this stretch as well.
+				unique := true
+				for j, other := range m.tokens {
+					if j != i && mcEditDistance(toks[s:s+l], other) <= d {
+						unique = false
+						break
+					}
+				}
+				if unique {
+					cands = append(cands, mcOccurrence{i, s, s + l, d})
+				}
+			}
+		}
+	}
+	sort.SliceStable(cands, func(a, b int) bool {
+		if cands[a].dist != cands[b].dist {
+			return cands[a].dist < cands[b].dist
+		}
+		return cands[a].end-cands[a].start > cands[b].end-cands[b].start
+	})
+	used := make([]bool, len(toks))
+	var out []mcOccurrence
+	for _, c := range cands {
+		free := true
+		for k := c.start; k < c.end; k++ {
+			free = free && !used[k]
+		}
+		if !free {
+			continue
+		}
+		for k := c.start; k < c.end; k++ {
+			used[k] = true
+		}
+		out = append(out, c)
+	}
+	return out
+}
+
+// mcSoftmax turns log-likelihoods into shares.
+func mcSoftmax(ll []float64) []float64 {
+	mx := math.Inf(-1)
+	for _, v := range ll {
+		mx = math.Max(mx, v)
+	}
+	p := make([]float64, len(ll))
+	s := 0.0
+	for i, v := range ll {
+		p[i] = math.Exp(v - mx)
+		s += p[i]
+	}
+	for i := range p {
+		p[i] /= s
+	}
+	return p
+}
+
+// mcBestTwo returns the indices of the largest and second largest values.
+func mcBestTwo(p []float64) (int, int) {
+	a, b := 0, -1
+	for i := 1; i < len(p); i++ {
+		if p[i] > p[a] {
+			a, b = i, a
+		} else if b < 0 || p[i] > p[b] {
+			b = i
+		}
+	}
+	return a, b
+}
+
+// Match decides which listed identifier sent a burst.
+//
+// Text first: the decoded characters are aligned against each ID repeated
+// (weighted edit distance; partial copies at the burst edges are free;
+// unsure characters cost less), costs become log-likelihoods at 3 nats per
+// error and a mcSoftmax over the list gives each ID's share. When the text
+// is too short or garbled for a confident answer, the template method
+// scores each ID's ideal keying against the envelope over speed (±25 %
+// around the decoded speed, within 5–40 WPM) and time offset, adding up
+// repeated copies; its log-likelihood is Σ over the template's key-down
+// time of (x − ½)/σ² (x the envelope scaled to 0 key-up, 1 key-down; σ its
+// noise), divided by the envelope's correlation length. Below
+// MinConfidence the answer is UnknownID with a warning naming the best
+// guess. Two different IDs found whole in one burst give the one with
+// more copies and a warning naming both.
+func (m *Matcher) Match(d Decoded) Match {
+	res := Match{ID: UnknownID}
+	res.Scores = make([]IDScore, len(m.ids))
+	for i, id := range m.ids {
+		res.Scores[i].ID = id
+	}
+	var chars []Char
+	var toks []string
+	for _, c := range d.Chars {
+		chars = append(chars, c)
+		toks = append(toks, c.Text)
+	}
+	minLen := math.MaxInt
+	for _, p := range m.tokens {
+		minLen = min(minLen, len(p))
+	}
+
+	// Two different IDs in one burst?
+	occ := m.mcOccurrences(toks)
+	count := make([]int, len(m.ids))
+	for _, o := range occ {
+		count[o.id]++
+	}
+	var present []int
+	for i, c := range count {
+		if c > 0 {
+			present = append(present, i)
+		}
+	}
+
+	// Text likelihoods.
+	ll := make([]float64, len(m.ids))
+	for i, p := range m.tokens {
+		c := mcCyclicCost(chars, p)
+		res.Scores[i].TextCost = c
+		ll[i] = -mcTextLambda * c
+	}
+	// The "other" hypothesis: an identifier not on the list, which fits all
+	// but 0.75 of a character per copy of the listed ones.
+	pBest := len(m.tokens[0])
+	for i, c := range ll {
+		if c > ll[0] {
+			pBest = len(m.tokens[i])
+		}
+	}
+	nCopies := math.Max(1, float64(len(chars))/float64(pBest))
+	pt := mcSoftmax(append(ll, -mcTextLambda*0.75*nCopies))
+	for i := range m.ids {
+		res.Scores[i].TextProb = pt[i]
+	}
+	pt = pt[:len(m.ids)]
+	if len(present) >= 2 {
+		sort.SliceStable(present, func(a, b int) bool { return count[present[a]] > count[present[b]] })
+		var names []string
+		for _, i := range present {
+			names = append(names, fmt.Sprintf("%s ×%d", m.ids[i], count[i]))
+		}
+		w := present[0]
+		res.ID, res.Method = m.ids[w], "text"
+		res.Confidence = float64(count[w]) / float64(len(occ))
+		res.Warnings = append(res.Warnings, "more than one identifier in one burst: "+strings.Join(names, ", "))
+		return res
+	}
+	bt, _ := mcBestTwo(pt)
+	textOK := len(chars) >= (minLen*3+4)/5 && res.Scores[bt].TextCost <= 0.3*float64(len(chars))
+	if textOK && pt[bt] >= m.MinConfidence {
+		res.ID, res.Confidence, res.Method = m.ids[bt], pt[bt], "text"
+		return res
+	}
+
+	// Template method.
+	pm, copies, fit, warn := m.templateScores(d)
+	if warn != "" {
+		res.Warnings = append(res.Warnings, warn)
+	}
+	if pm == nil {
+		if len(chars) < (minLen*3+4)/5 {
+			res.Warnings = append(res.Warnings, fmt.Sprintf("burst too short to hold an identifier (%d characters decoded, shortest ID has %d)", len(chars), minLen))
+		}
+		res.Warnings = append(res.Warnings, fmt.Sprintf("best text guess %s at %.2f is below %.2f", m.ids[bt], pt[bt], m.MinConfidence))
+		return res
+	}
+	for i := range pm {
+		res.Scores[i].TemplateProb = pm[i]
+		res.Scores[i].Copies = copies[i]
+	}
+	b, _ := mcBestTwo(pm)
+	res.Method = "template"
+	switch {
+	case fit < 0.5:
+		res.Warnings = append(res.Warnings, fmt.Sprintf("no listed identifier fits the keying (best %s explains %.0f %% of it)", m.ids[b], 100*fit))
+	case pm[b] < m.MinConfidence:
+		res.Warnings = append(res.Warnings, fmt.Sprintf("best guess %s at %.2f is below %.2f", m.ids[b], pm[b], m.MinConfidence))
+	default:
+		res.ID, res.Confidence = m.ids[b], pm[b]
+	}
+	return res
+}
+
+// templateScores runs the template method. It returns the posterior share
+// of each ID, the copies fitted, how much of the decoded keying's own
+// score the best template reaches (fit), and a warning; nil shares when
+// the envelope cannot be used.
+func (m *Matcher) templateScores(d Decoded) (post []float64, copies []int, fit float64, warn string) {
+	n := len(d.Envelope)
+	if n < 16 || !(d.EnvRate > 0) {
+		return nil, nil, 0, "no envelope for the template method"
+	}
+	lv := mcLevelsOf(mcSanitize(d.Envelope), d.EnvRate)
+	x := make([]float64, n)
+	S := make([]float64, n+1)
+	for i := range x {
+		x[i] = math.Max(-0.5, math.Min(1.5, lv.soft(i)))
+		S[i+1] = S[i] + x[i] - 0.5
+	}
+	// Noise of x: spread about the decided levels inside decoded runs.
+	var sq float64
+	var cnt int
+	for _, mk := range d.Keying {
+		a := int(mk.StartS*d.EnvRate) + 2
+		b := int((mk.StartS+mk.DurS)*d.EnvRate) - 2
+		ref := 0.0
+		if mk.On {
+			ref = 1
+		}
+		for i := max(a, 0); i < min(b, n); i++ {
+			sq += (x[i] - ref) * (x[i] - ref)
+			cnt++
+		}
+	}
+	sigma2 := 0.05
+	if cnt > 20 {
+		sigma2 = math.Max(sq/float64(cnt), 0.005)
+	}
+	corr := math.Max(1, 0.6*d.DotS*d.EnvRate)
+	// Speed range.
+	lo, hi := 5.0, 40.0
+	if d.WPM > 0 {
+		lo, hi = math.Max(lo, d.WPM/1.25), math.Min(hi, d.WPM*1.25)
+		if hi <= lo {
+			lo, hi = 5, 40
+		}
+	}
+	// Score of the decoded keying itself, for the fit check.
+	decScore := 0.0
+	for _, mk := range d.Keying {
+		if mk.On {
+			a := max(0, min(n, int(math.Round(mk.StartS*d.EnvRate))))
+			b := max(0, min(n, int(math.Round((mk.StartS+mk.DurS)*d.EnvRate))))
+			decScore += S[b] - S[a]
+		}
+	}
+	ll := make([]float64, len(m.ids))
+	copies = make([]int, len(m.ids))
+	best := math.Inf(-1)
+	durU := 0.0
+	for i, p := range m.tokens {
+		marks, err := Encode(strings.Join(p, ""), 1.2, 0) // 1 s per unit
+		if err != nil {
+			return nil, nil, 0, fmt.Sprintf("template for %s: %v", m.ids[i], err)
+		}
+		var on [][2]float64
+		for _, mk := range marks {
+			if mk.On {
+				on = append(on, [2]float64{mk.StartS, mk.StartS + mk.DurS})
+			}
+		}
+		total := marks[len(marks)-1].StartS + marks[len(marks)-1].DurS
+		durU = math.Max(durU, total)
+		bs, bc := math.Inf(-1), 0
+		for u := DotSeconds(hi); u <= DotSeconds(lo)*1.0001; u *= 1.015 {
+			s, c := mcRepeatScore(S, on, total, u*d.EnvRate)
+			if s > bs {
+				bs, bc = s, c
+			}
+		}
+		ll[i] = bs / (sigma2 * corr)
+		copies[i] = bc
+		best = math.Max(best, bs)
+	}
+	if decScore > 0 {
+		fit = best / decScore
+	} else {
+		fit = 0
+	}
+	// The "other" hypothesis: the decoder's own keying, less 5 nats for
+	// each copy it would have to be (its freedom to fit noise).
+	nc := 1
+	for _, c := range copies {
+		nc = max(nc, c)
+	}
+	ll = append(ll, decScore/(sigma2*corr)-5*float64(nc))
+	if d.DotS > 0 && float64(n)/d.EnvRate < 0.6*durU*d.DotS {
+		warn = fmt.Sprintf("burst (%.1f s) too short to hold an identifier (%.1f s at %.0f WPM)", float64(n)/d.EnvRate, durU*d.DotS, d.WPM)
+		return nil, nil, 0, warn
+	}
+	post = mcSoftmax(ll)
+	return post[:len(m.ids)], copies, fit, ""
+}
+
+// mcRepeatScore slides one template (key-down intervals in units, total
+// length in units) at unitSamp samples a unit over the prefix sums S of
+// (x − ½) and greedily adds non-overlapping copies while each adds a
+// positive score. Copies may hang over either end of the burst.
+func mcRepeatScore(S []float64, on [][2]float64, total, unitSamp float64) (float64, int) {
+	n := len(S) - 1
+	L := int(math.Ceil(total * unitSamp))
+	if L < 2 {
+		return math.Inf(-1), 0
+	}
+	ia := make([]int, len(on))
+	ib := make([]int, len(on))
+	for k, iv := range on {
+		ia[k] = int(math.Round(iv[0] * unitSamp))
+		ib[k] = int(math.Round(iv[1] * unitSamp))
+	}
+	clip := func(v int) int { return max(0, min(n, v)) }
+	nOff := n + L
+	sc := make([]float64, nOff)
+	for o := range sc {
+		t := o - L + 1
+		s := 0.0
+		for k := range ia {
+			s += S[clip(t+ib[k])] - S[clip(t+ia[k])]
+		}
+		sc[o] = s
+	}
+	// Greedy non-overlapping peaks.
+	type pk struct {
+		o int
+		s float64
+	}
+	order := make([]pk, len(sc))
+	for o, s := range sc {
+		order[o] = pk{o, s}
+	}
+	sort.Slice(order, func(a, b int) bool { return order[a].s > order[b].s })
+	var chosen []int
+	sum := 0.0
+	for _, p := range order {
+		if p.s <= 0 {
+			break
+		}
+		ok := true
+		for _, c := range chosen {
+			if mcAbs(p.o-c) < L {
+				ok = false
+				break
+			}
+		}
+		if ok {
+			chosen = append(chosen, p.o)
+			sum += p.s
+		}
+		if len(chosen) > n/L+2 {
+			break
+		}
+	}
+	if len(chosen) == 0 {
+		return order[0].s, 0
+	}
+	return sum, len(chosen)
+}
+
+func mcAbs(v int) int {
+	if v < 0 {
+		return -v
+	}
+	return v
+}
