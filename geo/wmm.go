@@ -108,7 +108,7 @@ func WMM(latDeg, lonDeg, heightM float64, t time.Time) (Field, error) {
 }
 
 // Declination returns the magnetic declination in degrees (positive east, in
-// (−180, 180]) from WMM2025; see WMM for arguments and edge behaviour. If warn
+// [−180, 180]) from WMM2025; see WMM for arguments and edge behaviour. If warn
 // wraps ErrOutsideModelSpan, declDeg is still valid (extrapolated); any other
 // error means declDeg is NaN.
 func Declination(latDeg, lonDeg, heightM float64, t time.Time) (declDeg float64, warn error) {
