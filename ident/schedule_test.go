@@ -73,7 +73,9 @@ func slotSimulate(c slotSimCase, rng *rand.Rand) ([]Observation, float64) {
 // transmitter heard in the observations.
 func slotTruthOrder(c slotSimCase, obs []Observation) []string {
 	txs := slices.Clone(c.txs)
-	slices.SortFunc(txs, func(a, b slotSimTx) int { return cmp.Compare(math.Mod(a.phaseS, c.nominalS), math.Mod(b.phaseS, c.nominalS)) })
+	slices.SortFunc(txs, func(a, b slotSimTx) int {
+		return cmp.Compare(math.Mod(a.phaseS, c.nominalS), math.Mod(b.phaseS, c.nominalS))
+	})
 	var order []string
 	for _, tx := range txs {
 		order = append(order, tx.id)

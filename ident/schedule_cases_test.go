@@ -1,0 +1,410 @@
+package ident
+
+import (
+	"bytes"
+	"encoding/json"
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"slices"
+	"strings"
+	"testing"
+	"time"
+)
+
+// TestScheduleOverlaps: pairs of bursts from different transmitters whose
+// intervals intersect (max of starts < min of ends: the usual interval
+// intersection, common practice) are reported, compared with a brute-force
+// all-pairs check on random intervals; a burst flagged by the receiver as
+// carrying two carriers is reported on its own.
+func TestScheduleOverlaps(t *testing.T) {
+	rng := rand.New(rand.NewPCG(4, 4))
+	ids := []string{"N0CALL/1", "N0CALL/2", "N0CALL/3", UnknownIdent}
+	for trial := range 100 {
+		var obs []Observation
+		for i := range 3 + rng.IntN(40) {
+			s := rng.Float64() * 2000
+			obs = append(obs, Observation{Index: 100 + i, StartS: s, EndS: s + rng.Float64()*90, Ident: ids[rng.IntN(len(ids))]})
+		}
+		want := map[[2]int]bool{}
+		for i := range obs {
+			for j := i + 1; j < len(obs); j++ {
+				a, b := obs[i], obs[j]
+				if a.Ident == b.Ident || a.Ident == UnknownIdent || b.Ident == UnknownIdent {
+					continue
+				}
+				if max(a.StartS, b.StartS) < min(a.EndS, b.EndS) {
+					want[[2]int{min(a.Index, b.Index), max(a.Index, b.Index)}] = true
+				}
+			}
+		}
+		// MergeGapS < 0: intervals as given (merging does not touch overlaps anyway).
+		plan, err := BuildSchedule(obs, nil, ScheduleOptions{MergeGapS: -1})
+		if err != nil {
+			if strings.Contains(err.Error(), "at least 3") {
+				continue
+			}
+			t.Fatalf("trial %d: %v", trial, err)
+		}
+		got := map[[2]int]bool{}
+		for _, o := range plan.Overlaps {
+			if o.Source != "intervals" || o.A == o.B || !(o.EndS > o.StartS) {
+				t.Fatalf("trial %d: bad overlap %+v", trial, o)
+			}
+			got[[2]int{min(o.IndexA, o.IndexB), max(o.IndexA, o.IndexB)}] = true
+		}
+		if len(got) != len(want) || len(got) != len(plan.Overlaps) {
+			t.Fatalf("trial %d: %d overlaps (%d distinct), brute force %d", trial, len(plan.Overlaps), len(got), len(want))
+		}
+		for k := range want {
+			if !got[k] {
+				t.Fatalf("trial %d: overlap %v missed", trial, k)
+			}
+		}
+	}
+
+	// Receiver flag: one burst with two carriers, no interval overlap.
+	obs := []Observation{
+		{Index: 1, StartS: 10, EndS: 70, Ident: "N0CALL/1"},
+		{Index: 2, StartS: 75, EndS: 135, Ident: "N0CALL/2", DoubleCarrier: true},
+		{Index: 3, StartS: 310, EndS: 370, Ident: "N0CALL/1"},
+	}
+	plan, err := BuildSchedule(obs, nil, ScheduleOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(plan.Overlaps) != 1 || plan.Overlaps[0].Source != "receiver" || plan.Overlaps[0].A != "N0CALL/2" ||
+		plan.Overlaps[0].IndexA != 2 || plan.Overlaps[0].B != UnknownIdent {
+		t.Fatalf("overlaps %+v", plan.Overlaps)
+	}
+}
+
+func TestScheduleErrors(t *testing.T) {
+	three := []Observation{{StartS: 10, EndS: 70, Ident: "A"}, {StartS: 310, EndS: 370, Ident: "A"}, {StartS: 610, EndS: 670, Ident: "A"}}
+	for _, tc := range []struct {
+		name   string
+		obs    []Observation
+		labels []string
+		want   string
+	}{
+		{"none", nil, nil, "at least 3"},
+		{"two", three[:2], nil, "at least 3"},
+		{"unlabelled", []Observation{{StartS: 1, EndS: 2}, {StartS: 3, EndS: 4}, {StartS: 5, EndS: 6, Ident: UnknownIdent}}, nil, "at least 3"},
+		{"labels_length", three, []string{"A"}, "labels"},
+		{"nan_start", append(slices.Clone(three), Observation{StartS: math.NaN(), EndS: 1, Ident: "A"}), nil, "not a finite"},
+		{"reversed", append(slices.Clone(three), Observation{StartS: 9, EndS: 1, Ident: "A"}), nil, "before it starts"},
+		{"huge", append(slices.Clone(three), Observation{StartS: 1e12, EndS: 1e12, Ident: "A"}), nil, "out of range"},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			_, err := BuildSchedule(tc.obs, tc.labels, ScheduleOptions{})
+			if err == nil || !strings.Contains(err.Error(), tc.want) || !strings.HasPrefix(err.Error(), "build schedule:") {
+				t.Fatalf("error %v, want one mentioning %q", err, tc.want)
+			}
+		})
+	}
+}
+
+// slotTwoTx is a small clean schedule: N0CALL/1 five cycles, N0CALL/2 heard
+// once (no period).
+func slotTwoTx(start time.Time) []Observation {
+	var obs []Observation
+	for k := range 5 {
+		s := 20 + float64(k)*300.006
+		obs = append(obs, Observation{StartS: s, EndS: s + 60, Ident: "N0CALL/1", IdentConfidence: 1})
+	}
+	obs = append(obs, Observation{StartS: 420, EndS: 480, Ident: "N0CALL/2", IdentConfidence: 1})
+	for i := range obs {
+		obs[i].Index = i
+		if !start.IsZero() {
+			obs[i].Start = start.Add(time.Duration(obs[i].StartS * 1e9))
+		}
+	}
+	return obs
+}
+
+// TestScheduleSingleBurstTransmitter: a transmitter heard once has no period
+// (NaN, null in JSON, a reason) but keeps its place in the order.
+func TestScheduleSingleBurstTransmitter(t *testing.T) {
+	plan, err := BuildSchedule(slotTwoTx(time.Time{}), nil, ScheduleOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !slices.Equal(plan.Order, []string{"N0CALL/1", "N0CALL/2"}) {
+		t.Fatalf("order %v", plan.Order)
+	}
+	tx := plan.Transmitter("N0CALL/2")
+	if tx.HasPeriod() || !math.IsNaN(tx.DriftPPM) || !strings.Contains(tx.Reason, "only 1") || len(tx.NextOnS) != 0 {
+		t.Fatalf("single-burst transmitter: %+v", tx)
+	}
+	// Gap from N0CALL/1's end (80 s into the cycle) to N0CALL/2 (120 s).
+	if g := plan.Transmitter("N0CALL/1").GapS; math.Abs(g-40) > 0.1 {
+		t.Errorf("gap %.3f s, want 40 s", g)
+	}
+	if plan.DriftReference != "median of transmitters" || math.Abs(plan.CommonPeriodS-300.006) > 1e-6 {
+		t.Errorf("reference %q %.6f", plan.DriftReference, plan.CommonPeriodS)
+	}
+	b, err := json.Marshal(plan)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var raw struct {
+		Transmitters map[string]map[string]any `json:"transmitters"`
+	}
+	if err := json.Unmarshal(b, &raw); err != nil {
+		t.Fatal(err)
+	}
+	if v, ok := raw.Transmitters["N0CALL/2"]["period_s"]; !ok || v != nil {
+		t.Errorf("period_s of a single-burst transmitter: %v (present %v), want null", v, ok)
+	}
+}
+
+// TestScheduleJSONShape: the CLI's JSON names (order, transmitters.*.period_s,
+// period_sigma_s, on_s, gap_s, drift_ppm, next_on, collisions[].a/b/at/at_s),
+// RFC 3339 times when the capture start is known, seconds otherwise.
+func TestScheduleJSONShape(t *testing.T) {
+	start := time.Date(2025, 5, 17, 9, 0, 0, 0, time.UTC)
+	rng := rand.New(rand.NewPCG(1, 99))
+	c := slotSimCases[2]
+	for _, withStart := range []bool{true, false} {
+		t.Run(fmt.Sprintf("start_known_%v", withStart), func(t *testing.T) {
+			c.start = time.Time{}
+			if withStart {
+				c.start = start
+			}
+			obs, endS := slotSimulate(c, rng)
+			plan, err := BuildSchedule(obs, nil, ScheduleOptions{NominalPeriodS: 300, CaptureEndS: endS})
+			if err != nil {
+				t.Fatal(err)
+			}
+			b, err := json.Marshal(plan)
+			if err != nil {
+				t.Fatal(err)
+			}
+			var doc struct {
+				Order        []string                  `json:"order"`
+				Transmitters map[string]map[string]any `json:"transmitters"`
+				Collisions   []map[string]any          `json:"collisions"`
+				Overlaps     []any                     `json:"overlaps"`
+				DriftRef     string                    `json:"drift_reference"`
+			}
+			if err := json.Unmarshal(b, &doc); err != nil {
+				t.Fatal(err)
+			}
+			if !slices.Equal(doc.Order, plan.Order) || len(doc.Transmitters) != 5 || doc.DriftRef != "nominal 300 s" || doc.Overlaps == nil {
+				t.Fatalf("document %s", b)
+			}
+			for id, tx := range doc.Transmitters {
+				for _, k := range []string{"period_s", "period_sigma_s", "on_s", "gap_s", "drift_ppm"} {
+					if _, ok := tx[k].(float64); !ok {
+						t.Errorf("%s.%s = %v, want a number", id, k, tx[k])
+					}
+				}
+				next, _ := tx["next_on"].([]any)
+				if len(next) != 3 {
+					t.Fatalf("%s.next_on = %v", id, tx["next_on"])
+				}
+				for n, v := range next {
+					want := plan.Transmitter(id).NextOnS[n]
+					slotCheckWhen(t, v, withStart, start, want)
+				}
+			}
+			if len(doc.Collisions) == 0 {
+				t.Fatal("no collisions in the document")
+			}
+			for _, col := range doc.Collisions {
+				a, _ := col["a"].(string)
+				bb, _ := col["b"].(string)
+				atS, ok := col["at_s"].(float64)
+				if a == "" || bb == "" || !ok {
+					t.Fatalf("collision %v", col)
+				}
+				slotCheckWhen(t, col["at"], withStart, start, atS)
+			}
+		})
+	}
+}
+
+func slotCheckWhen(t *testing.T, v any, withStart bool, start time.Time, wantS float64) {
+	t.Helper()
+	if withStart {
+		s, ok := v.(string)
+		if !ok {
+			t.Fatalf("time %v is not a string", v)
+		}
+		at, err := time.Parse(time.RFC3339Nano, s) // RFC 3339
+		if err != nil {
+			t.Fatalf("time %q: %v", s, err)
+		}
+		if d := at.Sub(start).Seconds() - wantS; math.Abs(d) > 1e-3 {
+			t.Errorf("time %s is %.4f s off", s, d)
+		}
+		return
+	}
+	f, ok := v.(float64)
+	if !ok || math.Abs(f-wantS) > 1e-9 {
+		t.Errorf("time %v, want seconds %.3f", v, wantS)
+	}
+}
+
+func TestScheduleWriteTable(t *testing.T) {
+	rng := rand.New(rand.NewPCG(2, 99))
+	c := slotSimCases[2]
+	obs, endS := slotSimulate(c, rng)
+	obs = append(obs, Observation{Index: 999, StartS: 200, EndS: 210, Ident: "N0CALL/9"})
+	plan, err := BuildSchedule(obs, nil, ScheduleOptions{NominalPeriodS: 300, CaptureEndS: endS})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var buf bytes.Buffer
+	if err := plan.WriteTable(&buf); err != nil {
+		t.Fatal(err)
+	}
+	out := buf.String()
+	for _, id := range plan.Order {
+		if !strings.Contains(out, id) {
+			t.Errorf("table lacks %s:\n%s", id, out)
+		}
+	}
+	if strings.Contains(out, "NaN") || !strings.Contains(out, "N0CALL/3 end meets N0CALL/4 start") || !strings.Contains(out, "only 1 usable") {
+		t.Errorf("table:\n%s", out)
+	}
+	t.Logf("\n%s", out)
+}
+
+// TestScheduleRobustness: a burst broken in two by fading is merged, a burst
+// already on the air when the capture started is kept out of the period fit,
+// a spurious start is dropped, and a wrong nominal period does not break the
+// cycle numbering (truth: period 300.012 s).
+func TestScheduleRobustness(t *testing.T) {
+	const p = 300.012
+	base := func() []Observation {
+		var obs []Observation
+		for k := range 8 {
+			s := 30 + float64(k)*p
+			obs = append(obs, Observation{StartS: s, EndS: s + 60, Ident: "N0CALL/1"})
+			obs = append(obs, Observation{StartS: s + 100, EndS: s + 160, Ident: "N0CALL/2"})
+		}
+		return obs
+	}
+	for _, tc := range []struct {
+		name  string
+		edit  func([]Observation) []Observation
+		opts  ScheduleOptions
+		note  string
+		fitN1 int
+	}{
+		{"clean", func(o []Observation) []Observation { return o }, ScheduleOptions{}, "", 8},
+		{"fragment", func(o []Observation) []Observation {
+			// Cycle 3 of N0CALL/1 fades out for 4 s in the middle.
+			o[6].EndS = o[6].StartS + 25
+			return append(o, Observation{StartS: o[6].StartS + 29, EndS: o[6].StartS + 60, Ident: "N0CALL/1"})
+		}, ScheduleOptions{}, "fragment", 8},
+		{"cut_at_capture_start", func(o []Observation) []Observation {
+			// N0CALL/2 was already sending when the recording started.
+			return append(o, Observation{StartS: 0, EndS: 20, Ident: "N0CALL/2"})
+		}, ScheduleOptions{}, "", 8},
+		{"spurious_start", func(o []Observation) []Observation {
+			o[8].StartS += 2.5 // a burst logged 2.5 s late
+			o[8].EndS += 2.5
+			return o
+		}, ScheduleOptions{}, "dropped", 7},
+		{"wrong_nominal", func(o []Observation) []Observation { return o }, ScheduleOptions{NominalPeriodS: 360}, "nominal period", 8},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			obs := tc.edit(base())
+			for i := range obs {
+				obs[i].Index = i
+			}
+			plan, err := BuildSchedule(obs, nil, tc.opts)
+			if err != nil {
+				t.Fatal(err)
+			}
+			tx1, tx2 := plan.Transmitter("N0CALL/1"), plan.Transmitter("N0CALL/2")
+			for _, tx := range []*SlotTransmitter{tx1, tx2} {
+				if math.Abs(tx.PeriodS-p) > 1e-6 {
+					t.Errorf("%s period %.6f s, want %.6f", tx.ID, tx.PeriodS, p)
+				}
+				if math.Abs(tx.OnS-60) > 1e-6 {
+					t.Errorf("%s on %.3f s", tx.ID, tx.OnS)
+				}
+			}
+			if tx1.FitBursts != tc.fitN1 {
+				t.Errorf("N0CALL/1 fitted %d starts, want %d", tx1.FitBursts, tc.fitN1)
+			}
+			if tc.name == "cut_at_capture_start" && (plan.Order[0] != "N0CALL/2" || tx2.Bursts != 9 || tx2.FitBursts != 8) {
+				t.Errorf("order %v, N0CALL/2 bursts %d fitted %d", plan.Order, tx2.Bursts, tx2.FitBursts)
+			}
+			if tc.note != "" && !strings.Contains(strings.Join(plan.Notes, "\n"), tc.note) {
+				t.Errorf("notes %q lack %q", plan.Notes, tc.note)
+			}
+		})
+	}
+}
+
+// TestScheduleFromClusters: bursts labelled by ClusterTransmitters (two with
+// unreadable IDs) give the same schedule as the true labels.
+func TestScheduleFromClusters(t *testing.T) {
+	rng := rand.New(rand.NewPCG(9, 9))
+	txs := []fpSimTx{
+		{id: "N0CALL/1", offsetHz: -120, toneHz: 800, unreadableK: []int{0}},
+		{id: "N0CALL/2", offsetHz: 35, toneHz: 800},
+		{id: "N0CALL/3", offsetHz: 150, toneHz: 1000, unreadableK: []int{2, 3}},
+	}
+	obs, _ := fpSimulate(txs, 6, 3, 2, rng)
+	res, err := ClusterTransmitters(obs, ClusterOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	plan, err := BuildSchedule(obs, res.Idents, ScheduleOptions{NominalPeriodS: 300})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !slices.Equal(plan.Order, []string{"N0CALL/1", "N0CALL/2", "N0CALL/3"}) {
+		t.Fatalf("order %v", plan.Order)
+	}
+	for _, tx := range plan.Transmitters {
+		if tx.Bursts != 6 || math.Abs(tx.PeriodS-300) > 1e-9 {
+			t.Errorf("%s: %d bursts, period %.6f", tx.ID, tx.Bursts, tx.PeriodS)
+		}
+	}
+	// Fingerprint labels work as well.
+	plan, err = BuildSchedule(obs, res.Labels, ScheduleOptions{})
+	if err != nil || !slices.Equal(plan.Order, []string{"T1", "T2", "T3"}) {
+		t.Fatalf("order %v, %v", plan.Order, err)
+	}
+}
+
+func FuzzBuildSchedule(f *testing.F) {
+	f.Add([]byte{10, 60, 1, 100, 0, 200, 100, 60, 2, 100, 1, 200, 100, 60, 1, 100, 0, 200, 100, 60, 2, 100, 1, 200})
+	f.Add([]byte{255, 0, 1, 2, 0, 1, 255, 2, 3, 4, 1, 7, 0, 0, 0, 0, 2, 0})
+	f.Add(bytes.Repeat([]byte{33, 20, 5, 90, 1, 150}, 40))
+	f.Add(bytes.Repeat([]byte{0, 0, 0, 0, 0, 0}, 10))
+	f.Fuzz(func(t *testing.T, data []byte) {
+		obs := slotFuzzObservations(data)
+		var labels []string
+		if len(data) > 0 && data[0]%2 == 1 {
+			labels = make([]string, len(obs))
+			for i := range labels {
+				labels[i] = fmt.Sprintf("T%d", i%3)
+			}
+		}
+		opts := ScheduleOptions{}
+		if len(data) > 1 && data[1]%3 == 0 {
+			opts.NominalPeriodS = float64(data[1]) + 1
+			opts.CaptureStart = time.Date(2025, 1, 1, 0, 0, 0, 0, time.UTC)
+		}
+		plan, err := BuildSchedule(obs, labels, opts)
+		if err != nil {
+			return
+		}
+		if len(plan.Order) != len(plan.Transmitters) {
+			t.Fatalf("order %d, transmitters %d", len(plan.Order), len(plan.Transmitters))
+		}
+		if _, err := json.Marshal(plan); err != nil {
+			t.Fatalf("marshal: %v", err)
+		}
+		if err := plan.WriteTable(&bytes.Buffer{}); err != nil {
+			t.Fatal(err)
+		}
+	})
+}
