@@ -8,7 +8,9 @@ The three sentences quoted in REFERENCES.md section 4 are copied verbatim
 
 Run from the repository root:
     /usr/bin/python3 testdata/heading/make_nmea.py
-It writes testdata/heading/hdg_cases.nmea and testdata/heading/compass_stamped.nmea.
+It writes testdata/heading/hdg_cases.nmea, testdata/heading/compass_stamped.nmea
+and testdata/heading/gpsd_hdt.nmea (input for the optional gpsd 3.22 cross-check:
+gpsfake -1 -p -c 0.1 -P PORT gpsd_hdt.nmea).
 """
 import functools
 import os
@@ -62,3 +64,18 @@ for k in range(12):
     t += 0.5
 with open(os.path.join(HERE, "compass_stamped.nmea"), "w") as f:
     f.write("\n".join(lines) + "\n")
+
+# HDT sentences for the gpsd cross-check (gpsfake magic comment per
+# REFERENCES.md section 4; present-day date because of gpsd's rollover
+# handling). Talkers GP and HC only: gpsd 3.22 drops HEHDT. One sentence has
+# a corrupted checksum; gpsd and the Go parser must both reject it.
+hdt = [sentence("GPHDT,274.07,T"), sentence("HCHDT,0.0,T"), sentence("GPHDT,359.99,T"),
+       sentence("HCHDT,12.5,T"), sentence("GPHDT,180.123,T")]
+bad = sentence("GPHDT,45.0,T")
+bad = bad[:-2] + ("00" if bad[-2:] != "00" else "11")
+hdt.insert(2, bad)
+hdt.append(sentence("GPHDT,90.5,T"))
+with open(os.path.join(HERE, "gpsd_hdt.nmea"), "w") as f:
+    f.write("# Date: 2025-06-01\n")
+    for h in hdt:
+        f.write(h + "\r\n")
