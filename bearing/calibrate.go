@@ -46,28 +46,50 @@ func Measured(name string, relDeg, levelDB []float64, opts MeasureOptions) (Patt
 	if opts.NoiseFloorDB != nil {
 		floor = math.Pow(10, *opts.NoiseFloorDB/10)
 	}
+	// Local linear regression of power on angle at each whole degree, with a
+	// triangular kernel of half-width 1.5°: unlike plain rounding into bins it
+	// does not shift the pattern when the readings sit at a fractional offset.
 	const n = PatternSteps
-	sum := make([]float64, n)
-	cnt := make([]float64, n)
+	const hw = 1.5
+	var sw, swd, swdd, swy, swdy [n]float64
 	for i := range relDeg {
 		if math.IsNaN(relDeg[i]) || math.IsInf(relDeg[i], 0) || math.IsNaN(levelDB[i]) || math.IsInf(levelDB[i], 0) {
 			return Pattern{}, fmt.Errorf("measured pattern: %w: reading %d is not finite", ErrBadInput, i)
 		}
-		// fold equivalent rotations together
-		x := math.Mod(wrap360(relDeg[i]), 360/float64(sym))
+		y := math.Pow(10, levelDB[i]/10)
 		for s := 0; s < sym; s++ {
-			k := int(math.Round(x+float64(s)*360/float64(sym))) % n
-			sum[k] += math.Pow(10, levelDB[i]/10)
-			cnt[k]++
+			x := wrap360(relDeg[i] + float64(s)*360/float64(sym))
+			for k := int(math.Ceil(x - hw)); float64(k) <= x+hw; k++ {
+				d := x - float64(k)
+				w := 1 - math.Abs(d)/hw
+				if w <= 0 {
+					continue
+				}
+				j := ((k % n) + n) % n
+				sw[j] += w
+				swd[j] += w * d
+				swdd[j] += w * d * d
+				swy[j] += w * y
+				swdy[j] += w * d * y
+			}
 		}
 	}
 	pw := make([]float64, n)
 	var have []int
 	for k := range pw {
-		if cnt[k] > 0 {
-			pw[k] = sum[k] / cnt[k]
-			have = append(have, k)
+		if sw[k] == 0 {
+			continue
 		}
+		den := sw[k]*swdd[k] - swd[k]*swd[k]
+		if den > 1e-6*sw[k]*sw[k] {
+			pw[k] = (swy[k]*swdd[k] - swd[k]*swdy[k]) / den
+		} else {
+			pw[k] = swy[k] / sw[k]
+		}
+		if pw[k] <= 0 { // extrapolation below zero power near a deep null
+			pw[k] = swy[k] / sw[k]
+		}
+		have = append(have, k)
 	}
 	if len(have) < 2 {
 		return Pattern{}, fmt.Errorf("measured pattern: %w: readings cover %d degree(s)", ErrTooFewPoints, len(have))
