@@ -190,7 +190,12 @@ func TestRTLTCPFailures(t *testing.T) {
 	}{
 		{"silent", func(c net.Conn) { c.Write(greeting); c.Write(make([]byte, 100)); time.Sleep(2 * time.Second) },
 			"no samples from rtl_tcp at"},
-		{"pulled", func(c net.Conn) { c.Write(greeting); c.Write(make([]byte, 5000)); time.Sleep(100 * time.Millisecond); c.Close() },
+		{"pulled", func(c net.Conn) {
+			c.Write(greeting)
+			c.Write(make([]byte, 5000))
+			time.Sleep(100 * time.Millisecond)
+			c.Close()
+		},
 			"closed the connection after 2500 samples"},
 		{"not rtl_tcp", func(c net.Conn) { c.Write([]byte("HTTP/1.1 400 Bad\r\n")) }, "not an rtl_tcp server"},
 		{"no greeting", func(c net.Conn) { c.Close() }, "before its greeting"},
