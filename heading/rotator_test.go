@@ -360,3 +360,47 @@ func FuzzRotctldReply(f *testing.F) {
 		}
 	})
 }
+
+func TestRotctldPollAndCancel(t *testing.T) {
+	t.Parallel()
+	addr, _ := startRotctld(t)
+	ctx, cancel := context.WithTimeout(context.Background(), 15*time.Second)
+	defer cancel()
+	rot, err := DialRotator(ctx, addr, RotatorOptions{Logger: discardLogger})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer rot.Close()
+
+	// Cancelling a sweep stops the rotator (stop, "S"; REFERENCES §3).
+	c1, cancel1 := context.WithTimeout(ctx, 800*time.Millisecond)
+	defer cancel1()
+	_, err = rot.ContinuousSweep(c1, 0, 30)
+	if !errors.Is(err, context.DeadlineExceeded) {
+		t.Fatalf("cancelled sweep: %v", err)
+	}
+
+	// Poll at 20 Hz for 0.5 s: about 10 readings, stamps increasing, and
+	// the stopped dummy no longer moves (it turns 6°/s when it does).
+	c2, cancel2 := context.WithTimeout(ctx, 500*time.Millisecond)
+	defer cancel2()
+	var ts []time.Time
+	var az []float64
+	if err := rot.Poll(c2, 20, func(t time.Time, a float64) { ts = append(ts, t); az = append(az, a) }); err != nil {
+		t.Fatal(err)
+	}
+	if len(ts) < 8 || len(ts) > 13 {
+		t.Fatalf("%d polls in 0.5 s at 20 Hz", len(ts))
+	}
+	for i := 1; i < len(ts); i++ {
+		if !ts[i].After(ts[i-1]) {
+			t.Fatal("poll stamps not increasing")
+		}
+	}
+	if az[0] < 2 || az[0] > 8 || az[len(az)-1] != az[0] {
+		t.Fatalf("after stop at ~0.8 s of 6°/s the azimuth should rest near 4.8°: %v", az)
+	}
+	if err := rot.Poll(ctx, -1, func(time.Time, float64) {}); err == nil {
+		t.Fatal("negative poll rate accepted")
+	}
+}

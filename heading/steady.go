@@ -21,7 +21,7 @@ type SteadyTurn struct {
 }
 
 // maxSteadySamples bounds the size of a generated track.
-const maxSteadySamples = 50_000_000
+const maxSteadySamples = 10_000_000
 
 // HeadingAt returns the model heading in [0, 360) at capture time tS
 // seconds (defined for all times, before StartS too).
@@ -32,7 +32,8 @@ func (s SteadyTurn) HeadingAt(tS float64) float64 {
 // Track samples the turn at sampleHz from fromS to toS seconds inclusive
 // (the last sample is at toS even when the span is not a whole number of
 // sample periods). It fails for a non-finite parameter, toS <= fromS, a
-// non-positive rate, or more than 50 million samples.
+// non-positive sample rate, a turn of 180° or more between samples (the
+// direction would be ambiguous), or more than 10 million samples.
 func (s SteadyTurn) Track(fromS, toS, sampleHz float64) (*Track, error) {
 	for _, v := range []float64{s.StartDeg, s.RateDegPerS, s.StartS, fromS, toS, sampleHz} {
 		if !finite(v) {

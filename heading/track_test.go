@@ -299,3 +299,18 @@ func TestValidate(t *testing.T) {
 		})
 	}
 }
+
+func BenchmarkTrackAt(b *testing.B) {
+	tr, err := SteadyTurn{StartDeg: 0, RateDegPerS: 30}.Track(0, 3600, 10) // an hour at 10 Hz
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.ResetTimer()
+	var sink float64
+	for i := 0; i < b.N; i++ {
+		d, _ := tr.At(float64(i%3600000) * 0.001)
+		sink += d
+	}
+	b.ReportMetric(float64(b.N)/b.Elapsed().Seconds(), "lookups/s")
+	_ = sink
+}
