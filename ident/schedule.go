@@ -199,8 +199,7 @@ type schedLabelled struct {
 // schedBurst is one (possibly merged) burst of a transmitter.
 type schedBurst struct {
 	startS, endS     float64
-	startCut, endCut bool
-	firstIdx         int
+	startCut, endCut bool // cut off by the capture start / end
 }
 
 // BuildSchedule derives the slot schedule from burst observations.
@@ -226,15 +225,49 @@ func BuildSchedule(obs []Observation, labels []string, opts ScheduleOptions) (*S
 	if labels != nil && len(labels) != len(obs) {
 		return nil, fmt.Errorf("build schedule: %d labels for %d bursts", len(labels), len(obs))
 	}
-	opts = opts.withDefaults()
-	plan := &SlotPlan{CaptureStart: opts.CaptureStart}
+	b := &schedBuilder{obs: obs, opts: opts.withDefaults()}
+	b.plan = &SlotPlan{CaptureStart: b.opts.CaptureStart}
+	if err := b.attribute(labels); err != nil {
+		return nil, fmt.Errorf("build schedule: %w", err)
+	}
+	b.group()
+	b.fit()
+	b.reference()
+	b.order()
+	b.gapsAndCollisions()
+	b.predict()
+	b.plan.Transmitters = b.txs
+	b.plan.Overlaps = schedOverlaps(obs, b.used, b.plan.CaptureStart)
+	return b.plan, nil
+}
 
-	// Attribute bursts.
-	var used []schedLabelled
+// schedBuilder holds the intermediate state of BuildSchedule; its methods
+// are the steps, in order.
+type schedBuilder struct {
+	obs     []Observation
+	opts    ScheduleOptions
+	plan    *SlotPlan
+	used    []schedLabelled
+	edgeEnd bool // plan.EndS is the real capture end
+	ids     []string
+	bursts  map[string][]schedBurst
+	maxOnS  float64 // longest median on-time of any transmitter
+	guessS  float64 // period used to number cycles
+	nominal bool    // the nominal period numbers the cycles
+	txs     []SlotTransmitter
+}
+
+func (b *schedBuilder) note(format string, args ...any) {
+	b.plan.Notes = append(b.plan.Notes, fmt.Sprintf(format, args...))
+}
+
+// attribute checks the bursts, picks each one's transmitter and finds the
+// capture start and end.
+func (b *schedBuilder) attribute(labels []string) error {
 	skipped := 0
-	for i, o := range obs {
+	for i, o := range b.obs {
 		if err := schedCheckTimes(o); err != nil {
-			return nil, fmt.Errorf("build schedule: burst %d (index %d): %w", i, o.Index, err)
+			return fmt.Errorf("burst %d (index %d): %w", i, o.Index, err)
 		}
 		id := ""
 		if labels != nil {
@@ -247,139 +280,142 @@ func BuildSchedule(obs []Observation, labels []string, opts ScheduleOptions) (*S
 			skipped++
 			continue
 		}
-		used = append(used, schedLabelled{id, i})
-		if plan.CaptureStart.IsZero() && !o.Start.IsZero() {
-			plan.CaptureStart = o.Start.Add(-time.Duration(o.StartS * float64(time.Second)))
+		b.used = append(b.used, schedLabelled{id, i})
+		if b.plan.CaptureStart.IsZero() && !o.Start.IsZero() {
+			b.plan.CaptureStart = o.Start.Add(-time.Duration(o.StartS * float64(time.Second)))
 		}
 	}
 	if skipped > 0 {
-		plan.Notes = append(plan.Notes, fmt.Sprintf("%d burst(s) without transmitter label or readable ID skipped", skipped))
+		b.note("%d burst(s) without transmitter label or readable ID skipped", skipped)
 	}
-	if len(used) < 3 {
-		return nil, fmt.Errorf("build schedule: %d usable burst(s); at least 3 are needed (label bursts or cluster them first)", len(used))
+	if len(b.used) < 3 {
+		return fmt.Errorf("%d usable burst(s); at least 3 are needed (label bursts or cluster them first)", len(b.used))
 	}
-
 	endS := 0.0
-	for _, u := range used {
-		endS = max(endS, obs[u.idx].EndS)
+	for _, u := range b.used {
+		endS = max(endS, b.obs[u.idx].EndS)
 	}
-	edgeEnd := false
-	if opts.CaptureEndS > 0 {
-		if opts.CaptureEndS < endS {
-			plan.Notes = append(plan.Notes, fmt.Sprintf("capture end %.3f s is before the last burst end %.3f s; using the latter", opts.CaptureEndS, endS))
+	if c := b.opts.CaptureEndS; c > 0 {
+		if c < endS {
+			b.note("capture end %.3f s is before the last burst end %.3f s; using the latter", c, endS)
 		} else {
-			endS = opts.CaptureEndS
-			edgeEnd = true
+			endS, b.edgeEnd = c, true
 		}
 	}
-	plan.EndS = endS
+	b.plan.EndS = endS
+	return nil
+}
 
-	// Group per transmitter, in time order, merging fragments.
+// group sorts each transmitter's bursts in time, marks those cut by the
+// capture edges and merges fragments of one transmission.
+func (b *schedBuilder) group() {
 	groups := map[string][]int{}
-	var ids []string
-	for _, u := range used {
+	for _, u := range b.used {
 		if _, ok := groups[u.id]; !ok {
-			ids = append(ids, u.id)
+			b.ids = append(b.ids, u.id)
 		}
 		groups[u.id] = append(groups[u.id], u.idx)
 	}
-	bursts := map[string][]schedBurst{}
-	for _, id := range ids {
+	guard, endS := b.opts.EdgeGuardS, b.plan.EndS
+	b.bursts = map[string][]schedBurst{}
+	for _, id := range b.ids {
 		idx := groups[id]
-		slices.SortStableFunc(idx, func(a, b int) int { return cmp.Compare(obs[a].StartS, obs[b].StartS) })
-		var bs []schedBurst
+		slices.SortStableFunc(idx, func(x, y int) int { return cmp.Compare(b.obs[x].StartS, b.obs[y].StartS) })
+		bs := make([]schedBurst, 0, len(idx))
 		for _, i := range idx {
-			o := obs[i]
+			o := b.obs[i]
 			bs = append(bs, schedBurst{
 				startS:   o.StartS,
 				endS:     o.EndS,
-				startCut: opts.EdgeGuardS > 0 && o.StartS <= opts.EdgeGuardS,
-				endCut:   edgeEnd && opts.EdgeGuardS > 0 && o.EndS >= endS-opts.EdgeGuardS,
-				firstIdx: i,
+				startCut: guard > 0 && o.StartS <= guard,
+				endCut:   b.edgeEnd && guard > 0 && o.EndS >= endS-guard,
 			})
 		}
-		gap := opts.MergeGapS
+		gap := b.opts.MergeGapS
 		if gap == 0 {
 			d := make([]float64, len(bs))
-			for k, b := range bs {
-				d[k] = b.endS - b.startS
+			for k, x := range bs {
+				d[k] = x.endS - x.startS
 			}
 			gap = 0.5 * fpMedian(d)
 		}
 		merged := bs[:1]
-		for _, b := range bs[1:] {
+		for _, x := range bs[1:] {
 			last := &merged[len(merged)-1]
-			if gap > 0 && b.startS-last.endS <= gap {
-				last.endS = max(last.endS, b.endS)
-				last.endCut = last.endCut || b.endCut
+			if gap > 0 && x.startS-last.endS <= gap {
+				last.endS = max(last.endS, x.endS)
+				last.endCut = last.endCut || x.endCut
 				continue
 			}
-			merged = append(merged, b)
+			merged = append(merged, x)
 		}
 		if n := len(bs) - len(merged); n > 0 {
-			plan.Notes = append(plan.Notes, fmt.Sprintf("%s: %d fragment(s) within %.3g s merged into the preceding burst", id, n, gap))
+			b.note("%s: %d fragment(s) within %.3g s merged into the preceding burst", id, n, gap)
 		}
-		bursts[id] = merged
+		b.bursts[id] = merged
+		if on := schedOnTimes(merged, false); len(on) > 0 {
+			b.maxOnS = max(b.maxOnS, fpMedian(on))
+		}
 	}
+}
 
-	// Common period guess from all transmitters' start differences.
-	maxOn := 0.0
-	var allDiffs []float64
-	for _, id := range ids {
-		var on []float64
-		for _, b := range bursts[id] {
-			if !b.startCut && !b.endCut {
-				on = append(on, b.endS-b.startS)
-			}
+// schedOnTimes returns the on-times of bursts not cut by the capture edges;
+// when there are none and fallback is set, of all bursts.
+func schedOnTimes(bs []schedBurst, fallback bool) []float64 {
+	var on []float64
+	for _, x := range bs {
+		if !x.startCut && !x.endCut {
+			on = append(on, x.endS-x.startS)
 		}
-		if len(on) > 0 {
-			maxOn = max(maxOn, fpMedian(on))
-		}
-		allDiffs = append(allDiffs, schedDiffs(bursts[id])...)
 	}
-	guess, guessScore := schedGuessPeriod(allDiffs, maxOn, opts.StartJitterS)
-	if opts.NominalPeriodS > 0 {
-		nomScore := schedScore(allDiffs, opts.NominalPeriodS, opts.StartJitterS)
-		if len(allDiffs) == 0 || nomScore >= guessScore {
-			guess = opts.NominalPeriodS
+	if len(on) == 0 && fallback {
+		for _, x := range bs {
+			on = append(on, x.endS-x.startS)
+		}
+	}
+	return on
+}
+
+// fit guesses the common period and fits each transmitter's starts.
+func (b *schedBuilder) fit() {
+	jit := b.opts.StartJitterS
+	var all []float64
+	for _, id := range b.ids {
+		all = append(all, schedDiffs(b.bursts[id])...)
+	}
+	guess, score := schedGuessPeriod(all, b.maxOnS, jit)
+	if nom := b.opts.NominalPeriodS; nom > 0 {
+		nomScore := schedScore(all, nom, jit)
+		if len(all) == 0 || nomScore >= score {
+			guess, b.nominal = nom, true
 		} else {
-			plan.Notes = append(plan.Notes, fmt.Sprintf("nominal period %.6g s explains %d of %d start differences, %.6g s explains %d: cycles numbered with the latter",
-				opts.NominalPeriodS, nomScore, len(allDiffs), guess, guessScore))
+			b.note("nominal period %.6g s explains %d of %d start differences, %.6g s explains %d: cycles numbered with the latter",
+				nom, nomScore, len(all), guess, score)
 		}
 	}
+	b.guessS = guess
 
-	// Per-transmitter fits.
-	txs := make([]SlotTransmitter, len(ids))
-	for n, id := range ids {
-		bs := bursts[id]
-		tx := SlotTransmitter{ID: id, Bursts: len(bs), PeriodS: math.NaN(), PeriodSigmaS: math.NaN(), T0S: math.NaN(),
-			ResidualRMSS: math.NaN(), DriftPPM: math.NaN(), DriftSigmaPPM: math.NaN(), GapS: math.NaN(), PhaseS: math.NaN(),
+	b.txs = make([]SlotTransmitter, len(b.ids))
+	for n, id := range b.ids {
+		bs := b.bursts[id]
+		nan := math.NaN()
+		tx := SlotTransmitter{ID: id, Bursts: len(bs), PeriodS: nan, PeriodSigmaS: nan, T0S: nan,
+			ResidualRMSS: nan, DriftPPM: nan, DriftSigmaPPM: nan, GapS: nan, PhaseS: nan,
 			firstHeardS: bs[0].startS}
-		// On-time.
-		var on []float64
-		for _, b := range bs {
-			if !b.startCut && !b.endCut {
-				on = append(on, b.endS-b.startS)
-			}
-		}
-		if len(on) == 0 {
-			for _, b := range bs {
-				on = append(on, b.endS-b.startS)
-			}
-		}
+		on := schedOnTimes(bs, true)
 		tx.OnS, tx.OnSigmaS = schedMeanStd(on)
 		tx.ons = len(on)
 
 		var starts []float64
-		for _, b := range bs {
-			if !b.startCut {
-				starts = append(starts, b.startS)
+		for _, x := range bs {
+			if !x.startCut {
+				starts = append(starts, x.startS)
 			}
 		}
+		// The common guess unless it fails to explain this transmitter.
 		pg := guess
-		d := schedDiffs(bs)
-		if len(d) > 0 && (math.IsNaN(pg) || schedScore(d, pg, opts.StartJitterS) < len(d)) {
-			if own, _ := schedGuessPeriod(d, maxOn, opts.StartJitterS); !math.IsNaN(own) {
+		if d := schedDiffs(bs); len(d) > 0 && (math.IsNaN(pg) || schedScore(d, pg, jit) < len(d)) {
+			if own, _ := schedGuessPeriod(d, b.maxOnS, jit); !math.IsNaN(own) {
 				pg = own
 			}
 		}
@@ -389,7 +425,7 @@ func BuildSchedule(obs []Observation, labels []string, opts ScheduleOptions) (*S
 		case math.IsNaN(pg):
 			tx.Reason = "no consistent period in the start differences"
 		default:
-			f, rej, err := schedFitStarts(starts, pg, opts.StartJitterS)
+			f, rej, err := schedFitStarts(starts, pg, jit)
 			if err != nil {
 				tx.Reason = err.Error()
 				break
@@ -397,141 +433,148 @@ func BuildSchedule(obs []Observation, labels []string, opts ScheduleOptions) (*S
 			tx.PeriodS, tx.T0S, tx.CovT0P = f.p, f.t0, f.cov
 			tx.PeriodSigmaS = math.Sqrt(f.cov[1][1])
 			tx.ResidualRMSS = f.rms
-			tx.FitBursts = f.n
-			tx.Rejected = rej
+			tx.FitBursts, tx.Rejected = f.n, rej
 			if f.n == 2 {
-				tx.Reason = fmt.Sprintf("period from 2 starts: σ assumes %.3g s start jitter", opts.StartJitterS)
+				tx.Reason = fmt.Sprintf("period from 2 starts: σ assumes %.3g s start jitter", jit)
 			}
 			if rej > 0 {
-				plan.Notes = append(plan.Notes, fmt.Sprintf("%s: %d start(s) off the fitted line dropped", id, rej))
+				b.note("%s: %d start(s) off the fitted line dropped", id, rej)
 			}
 		}
-		txs[n] = tx
+		b.txs[n] = tx
 	}
+}
 
-	// Reference periods.
+// reference sets the common period and drift reference, and the drifts.
+func (b *schedBuilder) reference() {
 	var periods []float64
-	for _, tx := range txs {
+	for _, tx := range b.txs {
 		if tx.HasPeriod() {
 			periods = append(periods, tx.PeriodS)
 		}
 	}
+	p := b.plan
 	switch {
-	case opts.NominalPeriodS > 0:
-		plan.DriftReferenceS = opts.NominalPeriodS
-		plan.DriftReference = fmt.Sprintf("nominal %.6g s", opts.NominalPeriodS)
-		plan.CommonPeriodS = opts.NominalPeriodS
+	case b.opts.NominalPeriodS > 0:
+		p.DriftReferenceS = b.opts.NominalPeriodS
+		p.DriftReference = fmt.Sprintf("nominal %.6g s", b.opts.NominalPeriodS)
+		p.CommonPeriodS = b.opts.NominalPeriodS
+		if !b.nominal && len(periods) > 0 {
+			p.CommonPeriodS = fpMedian(periods) // the nominal does not fit the data
+		}
 	case len(periods) > 0:
-		plan.DriftReferenceS = fpMedian(periods)
-		plan.DriftReference = "median of transmitters"
-		plan.CommonPeriodS = plan.DriftReferenceS
+		p.DriftReferenceS = fpMedian(periods)
+		p.DriftReference = "median of transmitters"
+		p.CommonPeriodS = p.DriftReferenceS
 	default:
-		plan.DriftReferenceS = math.NaN()
-		plan.DriftReference = "none (no transmitter has a period)"
-		plan.CommonPeriodS = guess
+		p.DriftReferenceS = math.NaN()
+		p.DriftReference = "none (no transmitter has a period)"
+		p.CommonPeriodS = b.guessS
 	}
-	for i := range txs {
-		tx := &txs[i]
+	for i := range b.txs {
+		tx := &b.txs[i]
 		if !tx.HasPeriod() {
 			continue
 		}
-		if plan.DriftReferenceS > 0 {
-			tx.DriftPPM = (tx.PeriodS - plan.DriftReferenceS) / plan.DriftReferenceS * 1e6
-			tx.DriftSigmaPPM = tx.PeriodSigmaS / plan.DriftReferenceS * 1e6
+		if p.DriftReferenceS > 0 {
+			tx.DriftPPM = (tx.PeriodS - p.DriftReferenceS) / p.DriftReferenceS * 1e6
+			tx.DriftSigmaPPM = tx.PeriodSigmaS / p.DriftReferenceS * 1e6
 		}
 		tx.RelativeDriftPPM = map[string]float64{}
-		for _, o := range txs {
+		for _, o := range b.txs {
 			if o.ID != tx.ID && o.HasPeriod() {
 				tx.RelativeDriftPPM[o.ID] = (tx.PeriodS - o.PeriodS) / o.PeriodS * 1e6
 			}
 		}
 	}
+}
 
-	// Order: phase of each transmitter's first (fitted, else heard) start in
-	// the common cycle, relative to the first start heard; then rotate.
+// order sorts the transmitters by the phase of their first (fitted, else
+// heard) start in the common cycle, relative to the first start heard, and
+// rotates the ring so that the first transmitter heard comes first.
+func (b *schedBuilder) order() {
+	txs := b.txs
 	firstHeard := 0
 	for i, tx := range txs {
 		if tx.firstHeardS < txs[firstHeard].firstHeardS {
 			firstHeard = i
 		}
 	}
-	tRef := txs[firstHeard].firstHeardS
-	pc := plan.CommonPeriodS
+	tRef, firstID := txs[firstHeard].firstHeardS, txs[firstHeard].ID
+	pc := b.plan.CommonPeriodS
 	for i := range txs {
 		s := txs[i].T0S
 		if math.IsNaN(s) {
-			s = schedFirstUncut(bursts[txs[i].ID])
+			s = schedFirstUncut(b.bursts[txs[i].ID])
 		}
 		ph := s - tRef
-		if pc > 0 {
+		if pc > 0 && !math.IsInf(pc, 0) {
 			ph = schedMod(ph, pc)
 		}
 		txs[i].PhaseS = ph
 	}
-	firstID := txs[firstHeard].ID
-	slices.SortStableFunc(txs, func(a, b SlotTransmitter) int {
-		if c := cmp.Compare(a.PhaseS, b.PhaseS); c != 0 {
+	slices.SortStableFunc(txs, func(x, y SlotTransmitter) int {
+		if c := cmp.Compare(x.PhaseS, y.PhaseS); c != 0 {
 			return c
 		}
-		return cmp.Compare(a.ID, b.ID)
+		return cmp.Compare(x.ID, y.ID)
 	})
 	rot := slices.IndexFunc(txs, func(t SlotTransmitter) bool { return t.ID == firstID })
-	txs = append(txs[rot:], txs[:rot]...)
-	for _, tx := range txs {
-		plan.Order = append(plan.Order, tx.ID)
+	b.txs = append(txs[rot:], txs[:rot]...)
+	for _, tx := range b.txs {
+		b.plan.Order = append(b.plan.Order, tx.ID)
 	}
+}
 
-	// Gaps and collisions around the end of the recording.
+// gapsAndCollisions measures each gap to the next transmitter at the end of
+// the recording and forecasts the closing ones.
+func (b *schedBuilder) gapsAndCollisions() {
+	txs, pc, endS := b.txs, b.plan.CommonPeriodS, b.plan.EndS
+	if len(txs) == 1 {
+		txs[0].GapS = schedLinePeriod(&txs[0], pc) - txs[0].OnS
+		return
+	}
 	for i := range txs {
-		a := &txs[i]
-		b := &txs[(i+1)%len(txs)]
-		if len(txs) == 1 {
-			a.GapS = schedLinePeriod(a, pc) - a.OnS
-			break
-		}
-		la, lb := schedLineOf(a, bursts[a.ID], pc), schedLineOf(b, bursts[b.ID], pc)
-		if math.IsNaN(la.p) || math.IsNaN(lb.p) {
+		x, y := &txs[i], &txs[(i+1)%len(txs)]
+		lx, ly := schedLineOf(x, b.bursts[x.ID], pc), schedLineOf(y, b.bursts[y.ID], pc)
+		if math.IsNaN(lx.p) || math.IsNaN(ly.p) {
 			continue
 		}
-		// A's last start at or before the end, B's first start after it.
-		ja := math.Floor((endS - la.t0) / la.p)
-		aS := la.t0 + ja*la.p
-		jb := math.Ceil((aS - lb.t0) / lb.p)
-		bS := lb.t0 + jb*lb.p
-		a.GapS = bS - aS - a.OnS
-		if !a.HasPeriod() || !b.HasPeriod() {
+		// x's last start at or before the end, y's first start after it.
+		jx := math.Floor((endS - lx.t0) / lx.p)
+		xs := lx.t0 + jx*lx.p
+		jy := math.Ceil((xs - ly.t0) / ly.p)
+		x.GapS = ly.t0 + jy*ly.p - xs - x.OnS
+		if !x.HasPeriod() || !y.HasPeriod() {
 			continue
 		}
-		if c, ok := schedCollision(a, b, jb-ja, endS, pc); ok {
-			c.At, _ = schedUTC(plan.CaptureStart, c.AtS)
-			plan.Collisions = append(plan.Collisions, c)
+		if c, ok := schedCollision(x, y, jy-jx, endS, pc); ok {
+			c.At, _ = schedUTC(b.plan.CaptureStart, c.AtS)
+			b.plan.Collisions = append(b.plan.Collisions, c)
 		}
 	}
+}
 
-	// Predictions.
-	for i := range txs {
-		tx := &txs[i]
-		if !tx.HasPeriod() || opts.NextCount < 0 {
+// predict extrapolates each fitted line past the end of the recording.
+func (b *schedBuilder) predict() {
+	for i := range b.txs {
+		tx := &b.txs[i]
+		if !tx.HasPeriod() || b.opts.NextCount < 0 {
 			continue
 		}
-		k0 := math.Floor((endS-tx.T0S)/tx.PeriodS) + 1
-		for n := range opts.NextCount {
+		k0 := math.Floor((b.plan.EndS-tx.T0S)/tx.PeriodS) + 1
+		for n := range b.opts.NextCount {
 			k := k0 + float64(n)
 			s := tx.T0S + k*tx.PeriodS
 			v := tx.CovT0P[0][0] + 2*k*tx.CovT0P[0][1] + k*k*tx.CovT0P[1][1]
 			tx.NextOnS = append(tx.NextOnS, s)
 			tx.NextOnSigmaS = append(tx.NextOnSigmaS, math.Sqrt(max(v, 0)))
-			if !plan.CaptureStart.IsZero() {
-				at, _ := schedUTC(plan.CaptureStart, s)
+			if !b.plan.CaptureStart.IsZero() {
+				at, _ := schedUTC(b.plan.CaptureStart, s)
 				tx.NextOn = append(tx.NextOn, at)
 			}
 		}
 	}
-	plan.Transmitters = txs
-
-	// Overlaps during the recording.
-	plan.Overlaps = schedOverlaps(obs, used, plan.CaptureStart)
-	return plan, nil
 }
 
 func schedCheckTimes(o Observation) error {
