@@ -64,94 +64,109 @@ func DBFS(p float64) float64 {
 // NoiseFloor tracks the noise floor of a stream of power readings in dB
 // (one Update per reading) while bursts of signal come and go.
 //
-// Method (minimum statistics on block means): the sliding window of
-// windowS seconds is cut into noiseFloorBlocks sub-blocks. Each completed
-// sub-block keeps the mean of its readings in linear power and the standard
-// deviation of those readings. The estimate is the smallest sub-block mean
-// in the window plus a bias correction: the minimum of several noise-only
-// block means sits below the true mean by about 1.03 standard errors of a
-// block mean (the expected minimum of 4 normal variates), so the corrected
-// value is min + 1.03·s/√m, with s the readings' standard deviation in that
-// block and m the readings per block. For exponentially distributed readings
-// (one sample each) s equals the mean and the correction is large; for
-// PowerMeter readings averaged over many samples it is small; either way it
-// is measured, not assumed. The estimate is unaffected by bursts as long as
-// at least about two sub-blocks of the window (2/noiseFloorBlocks of it)
-// are burst-free. Until the first sub-block completes, the running mean of
-// the readings so far is returned.
+// Method (minimum statistics, after R. Martin's noise-power tracking by
+// minimum statistics, here on a moving average): readings are converted to
+// linear power and averaged over a sliding sub-window of m = window/20
+// readings; the estimate is the smallest of those moving averages over the
+// last window readings, plus a bias correction. The minimum of many
+// overlapping noisy averages sits below the mean; the correction adds
+// noiseFloorBiasK (2.0) standard errors, σ/√m, with σ the standard deviation of the readings
+// inside the minimising sub-window (so it adapts to the reading
+// distribution: σ equals the mean for exponentially distributed readings
+// of single samples and shrinks as 1/√n for readings averaged over n
+// samples). The estimate is unaffected by bursts as long as every window
+// holds one burst-free stretch of m readings (a twentieth of the window):
+// bursts may occupy most of the window. Until m readings have arrived the
+// running mean is returned.
 type NoiseFloor struct {
-	per     int // readings per sub-block
-	means   []float64
-	sds     []float64
-	head    int
-	filled  int
-	sum, sq float64
-	cnt     int
-	last    float64
+	m, w       int
+	ring       []float64 // last m readings, linear
+	pos        int
+	seen       int
+	sum, sumSq float64
+	// monotone deque of (index, mean, sd) for the sliding minimum
+	dqIdx      []int
+	dqMean     []float64
+	dqSD       []float64
+	dqHead, dq int
+	sinceFix   int
 }
 
-const noiseFloorBlocks = 10
+// noiseFloorBiasK is the bias correction in standard errors of the
+// sub-window mean; found by simulation of exponential and averaged readings
+// with 0.5–3 s gaps between bursts (see TestNoiseFloorWithBursts).
+const noiseFloorBiasK = 2.0
 
 // NewNoiseFloor returns a tracker for readingsPerS readings per second over
-// a sliding window of windowS seconds (at least noiseFloorBlocks readings;
-// shorter windows are lengthened).
+// a sliding window of windowS seconds (at least 20 readings; shorter
+// windows are lengthened).
 func NewNoiseFloor(readingsPerS float64, windowS float64) *NoiseFloor {
-	n := int(math.Round(readingsPerS * windowS))
-	per := max(n/noiseFloorBlocks, 1)
+	w := max(int(math.Round(readingsPerS*windowS)), 20)
+	m := max(w/20, 1)
 	return &NoiseFloor{
-		per:   per,
-		means: make([]float64, noiseFloorBlocks),
-		sds:   make([]float64, noiseFloorBlocks),
-		last:  -200,
+		m: m, w: w,
+		ring:   make([]float64, m),
+		dqIdx:  make([]int, w+1),
+		dqMean: make([]float64, w+1),
+		dqSD:   make([]float64, w+1),
 	}
 }
 
-// Update adds one reading (dB, e.g. DBFS of a PowerMeter reading) and
-// returns the current noise-floor estimate in dB (−200 if nothing but zero
-// power has been seen).
+// Update adds one reading (dB, e.g. DBFS of a PowerMeter reading; −200 or
+// less counts as zero power) and returns the current noise-floor estimate
+// in dB.
 func (f *NoiseFloor) Update(levelDB float64) float64 {
 	p := 0.0
 	if levelDB > -200 {
 		p = math.Pow(10, levelDB/10)
 	}
-	f.sum += p
-	f.sq += p * p
-	f.cnt++
-	if f.cnt == f.per {
-		m := f.sum / float64(f.cnt)
-		v := 0.0
-		if f.cnt > 1 {
-			v = math.Max(0, (f.sq-f.sum*m)/float64(f.cnt-1))
+	old := f.ring[f.pos]
+	f.ring[f.pos] = p
+	f.pos = (f.pos + 1) % f.m
+	f.sum += p - old
+	f.sumSq += p*p - old*old
+	f.seen++
+	f.sinceFix++
+	if f.sinceFix >= 4*f.w { // wash out rounding of the running sums
+		f.sum, f.sumSq = 0, 0
+		for _, v := range f.ring {
+			f.sum += v
+			f.sumSq += v * v
 		}
-		f.means[f.head] = m
-		f.sds[f.head] = math.Sqrt(v)
-		f.head = (f.head + 1) % len(f.means)
-		f.filled = min(f.filled+1, len(f.means))
-		f.sum, f.sq, f.cnt = 0, 0, 0
-		best := -1
-		for i := 0; i < f.filled; i++ {
-			if best < 0 || f.means[i] < f.means[best] {
-				best = i
-			}
-		}
-		est := f.means[best] + 1.03*f.sds[best]/math.Sqrt(float64(f.per))
-		if f.filled == 1 {
-			est = f.means[best]
-		}
-		f.last = DBFS(est)
-		return f.last
+		f.sinceFix = 0
 	}
-	if f.filled == 0 {
-		return DBFS(f.sum / float64(f.cnt))
+	if f.seen < f.m {
+		return DBFS(f.sum / float64(f.seen))
 	}
-	return f.last
+	mean := math.Max(f.sum/float64(f.m), 0)
+	sd := 0.0
+	if f.m > 1 {
+		sd = math.Sqrt(math.Max(0, (f.sumSq-f.sum*mean)/float64(f.m-1)))
+	}
+	// sliding minimum over the last w means
+	n := len(f.dqIdx)
+	for f.dq > 0 {
+		last := (f.dqHead + f.dq - 1) % n
+		if f.dqMean[last] < mean {
+			break
+		}
+		f.dq--
+	}
+	tail := (f.dqHead + f.dq) % n
+	f.dqIdx[tail], f.dqMean[tail], f.dqSD[tail] = f.seen, mean, sd
+	f.dq++
+	for f.dqIdx[f.dqHead] <= f.seen-f.w {
+		f.dqHead = (f.dqHead + 1) % n
+		f.dq--
+	}
+	h := f.dqHead
+	return DBFS(f.dqMean[h] + noiseFloorBiasK*f.dqSD[h]/math.Sqrt(float64(f.m)))
 }
 
 // Reset forgets all readings.
 func (f *NoiseFloor) Reset() {
-	clear(f.means)
-	clear(f.sds)
-	f.head, f.filled, f.sum, f.sq, f.cnt, f.last = 0, 0, 0, 0, 0, -200
+	clear(f.ring)
+	f.pos, f.seen, f.sum, f.sumSq, f.dqHead, f.dq, f.sinceFix = 0, 0, 0, 0, 0, 0, 0
 }
 
 // median returns the median of v (v is reordered).
