@@ -506,24 +506,28 @@ func (s *solver) gaussNewton(active []int, lat, lon float64) (float64, float64, 
 		de := (hnn*ge - hen*gn) / det
 		dn := (hee*gn - hen*ge) / det
 		step := math.Hypot(de, dn)
-		if step < 1e-5 {
-			nl, no, _ := Direct(lat, lon, math.Atan2(de, dn)*rad, step)
+		az := math.Atan2(de, dn) * rad
+		if step < 1e-4 {
+			// Converged: the last step is below 0.1 mm; take it as is.
+			nl, no, _ := Direct(lat, lon, az, step)
 			return nl, no, nil
 		}
-		az := math.Atan2(de, dn) * rad
 		lam := 1.0
+		improved := false
 		var nl, no float64
-		for h := 0; h < 40; h++ {
+		for h := 0; h < 16; h++ {
 			nl, no, _ = Direct(lat, lon, az, step*lam)
 			if s.cost(active, nl, no) <= cost {
+				improved = true
 				break
 			}
 			lam /= 2
 		}
-		lat, lon = nl, no
-		if step*lam < 1e-5 {
+		if !improved {
+			// No step lowers the cost: we are at the minimum to rounding.
 			return lat, lon, nil
 		}
+		lat, lon = nl, no
 	}
 	return lat, lon, nil
 }

@@ -1,0 +1,149 @@
+package main
+
+import (
+	"bufio"
+	"bytes"
+	"encoding/json"
+	"fmt"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"nullseek/geo"
+)
+
+// runFixCmd runs a fresh `fix` command (args[0] is "fix") and returns its
+// output and error.
+func runFixCmd(t *testing.T, args ...string) (string, error) {
+	t.Helper()
+	args = args[1:]
+	cmd := newFixCmd()
+	cmd.SilenceUsage, cmd.SilenceErrors = true, true
+	var out bytes.Buffer
+	cmd.SetOut(&out)
+	cmd.SetErr(&out)
+	cmd.SetArgs(args)
+	err := cmd.Execute()
+	return out.String(), err
+}
+
+// synthCSV writes exact bearings (geo.Direct/Inverse, checked against
+// GeodSolve in package geo) to two transmitters of known position.
+func synthCSV(t *testing.T, dir string) (path string, truth map[string][2]float64) {
+	t.Helper()
+	truth = map[string][2]float64{"TX/1": {45.10, 6.20}, "TX/2": {45.09, 6.23}}
+	var b strings.Builder
+	b.WriteString("ident,station,lat,lon,bearing_deg,sigma_deg,reference,time\n")
+	stations := []struct {
+		name string
+		lat  float64
+		lon  float64
+	}{{"P", 45.12, 6.18}, {"Q", 45.115, 6.26}, {"R", 45.07, 6.21}}
+	for _, id := range []string{"TX/1", "TX/2"} {
+		tr := truth[id]
+		for _, s := range stations {
+			_, az, _ := geo.Inverse(s.lat, s.lon, tr[0], tr[1])
+			fmt.Fprintf(&b, "%s,%s,%.7f,%.7f,%.6f,2,true,2025-10-01T12:00:00Z\n", id, s.name, s.lat, s.lon, geo.NormalizeDeg(az))
+		}
+	}
+	path = filepath.Join(dir, "b.csv")
+	if err := os.WriteFile(path, []byte(b.String()), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	return path, truth
+}
+
+func TestFixCommandJSONAndFiles(t *testing.T) {
+	dir := t.TempDir()
+	in, truth := synthCSV(t, dir)
+	gj, kml, png := filepath.Join(dir, "f.geojson"), filepath.Join(dir, "f.kml"), filepath.Join(dir, "m.png")
+	out, err := runFixCmd(t, "fix", in, "--json", "--geojson", gj, "--kml", kml, "--map", png,
+		"--grid", "origin=45.13,6.17 cell=500 cols=A-P rows=1-14")
+	if err != nil {
+		t.Fatalf("%v\n%s", err, out)
+	}
+	sc := bufio.NewScanner(strings.NewReader(out))
+	n := 0
+	for sc.Scan() {
+		n++
+		var m map[string]any
+		if err := json.Unmarshal(sc.Bytes(), &m); err != nil {
+			t.Fatalf("line %d not JSON: %v", n, err)
+		}
+		// Stable field names from issue #5.
+		for _, k := range []string{"ident", "lat", "lon", "ellipse", "maidenhead", "grid_cell", "cells", "used", "rejected"} {
+			if _, ok := m[k]; !ok {
+				t.Errorf("missing %q in %s", k, sc.Text())
+			}
+		}
+		el := m["ellipse"].(map[string]any)
+		for _, k := range []string{"semi_major_m", "semi_minor_m", "orientation_deg", "probability"} {
+			if _, ok := el[k]; !ok {
+				t.Errorf("ellipse lacks %q", k)
+			}
+		}
+		id := m["ident"].(string)
+		d, _, _ := geo.Inverse(m["lat"].(float64), m["lon"].(float64), truth[id][0], truth[id][1])
+		if d > 0.05 {
+			t.Errorf("%s: %.3f m from the truth", id, d)
+		}
+		if len(m["maidenhead"].(string)) != 8 || m["grid_cell"] == "" || len(m["cells"].([]any)) == 0 {
+			t.Errorf("%s: locator %v cell %v cells %v", id, m["maidenhead"], m["grid_cell"], m["cells"])
+		}
+	}
+	if n != 2 {
+		t.Errorf("%d JSON lines, want 2", n)
+	}
+	for _, p := range []string{gj, kml, png} {
+		st, err := os.Stat(p)
+		if err != nil || st.Size() < 500 {
+			t.Errorf("%s: %v", p, err)
+		}
+	}
+	leftovers, _ := filepath.Glob(filepath.Join(dir, ".*tmp*"))
+	if len(leftovers) > 0 {
+		t.Errorf("temporary files left: %v", leftovers)
+	}
+	// The human table names locator, cell and cells.
+	out, err = runFixCmd(t, "fix", in)
+	if err != nil || !strings.Contains(out, "locator") || !strings.Contains(out, "grid cell") || !strings.Contains(out, "automatic grid") {
+		t.Errorf("table: %v\n%s", err, out)
+	}
+}
+
+// Bad input: one error line naming row and field, non-zero exit, no files.
+func TestFixCommandBadInput(t *testing.T) {
+	const hdr = "ident,station,lat,lon,bearing_deg,sigma_deg,reference,time\n"
+	good := "T,A,45.1,6.1,40,2,true,\n"
+	cases := []struct{ name, csv, want string }{
+		{"latitude", hdr + good + "T,B,95,6.2,300,2,true,\n", `row 3, field "lat"`},
+		{"bearing text", hdr + good + "T,B,45.1,6.2,NW,2,true,\n", `row 3, field "bearing_deg"`},
+		{"sigma zero", hdr + good + "T,B,45.1,6.2,300,0,true,\n", `row 3, field "sigma_deg"`},
+		{"station twice", hdr + good + "U,A,45.2,6.1,300,2,true,\n", `row 3, field "lat/lon"`},
+		{"missing column", "ident,station,lat,lon,bearing_deg,reference\nT,A,1,2,3,true\n", `row 1, field "sigma_deg"`},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			dir := t.TempDir()
+			in := filepath.Join(dir, "in.csv")
+			os.WriteFile(in, []byte(c.csv), 0o644)
+			gj := filepath.Join(dir, "out.geojson")
+			out, err := runFixCmd(t, "fix", in, "--geojson", gj, "--map", filepath.Join(dir, "m.png"))
+			if err == nil || !strings.Contains(err.Error(), c.want) || strings.Contains(err.Error(), "\n") {
+				t.Fatalf("err %v, want one line with %q (out %q)", err, c.want, out)
+			}
+			if entries, _ := os.ReadDir(dir); len(entries) != 1 {
+				t.Errorf("files written on bad input: %v", entries)
+			}
+		})
+	}
+	// Fewer than two usable bearings: a refusal, exit non-zero.
+	dir := t.TempDir()
+	in := filepath.Join(dir, "one.csv")
+	os.WriteFile(in, []byte(hdr+good), 0o644)
+	out, err := runFixCmd(t, "fix", in, "--json")
+	if err == nil || !strings.Contains(out, "fewer than two usable bearings") {
+		t.Errorf("one bearing: err %v out %q", err, out)
+	}
+}

@@ -1,0 +1,88 @@
+package mapplot
+
+import (
+	"bytes"
+	"encoding/xml"
+	"image/png"
+	"io"
+	"testing"
+
+	"nullseek/geo"
+)
+
+func testFix(t *testing.T) ([]*geo.Fix, *geo.Grid) {
+	t.Helper()
+	lat0, lon0 := -27.5, 153.0
+	var lops []geo.LOP
+	for i, az := range []float64{10, 130, 250} {
+		la, lo, _ := geo.Direct(lat0, lon0, az, 1500+400*float64(i))
+		_, b, _ := geo.Inverse(la, lo, lat0, lon0)
+		lops = append(lops, geo.LOP{Ident: "T1", Station: string(rune('A' + i)), Lat: la, Lon: lo, BearingDeg: b + 1, SigmaDeg: 3})
+	}
+	f, err := geo.SolveFix(lops, geo.FixOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	g, err := geo.ParseGrid("origin=-27.49,152.99 cell=250 cols=A-H rows=1-8")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := f.Place(g, 2); err != nil {
+		t.Fatal(err)
+	}
+	return []*geo.Fix{f}, g
+}
+
+// The PNG decodes, has the requested size and is not blank: it holds many
+// colours, including the ellipse red and the shading orange.
+func TestRenderPNG(t *testing.T) {
+	fixes, g := testFix(t)
+	b, err := Render(fixes, g, "png", Options{SizeCm: 12})
+	if err != nil {
+		t.Fatal(err)
+	}
+	img, err := png.Decode(bytes.NewReader(b))
+	if err != nil {
+		t.Fatal(err)
+	}
+	r := img.Bounds()
+	if r.Dx() < 300 || r.Dy() != r.Dx() {
+		t.Errorf("size %v", r)
+	}
+	colours := map[[3]uint32]bool{}
+	red := 0
+	for y := r.Min.Y; y < r.Max.Y; y += 2 {
+		for x := r.Min.X; x < r.Max.X; x += 2 {
+			cr, cg, cb, _ := img.At(x, y).RGBA()
+			colours[[3]uint32{cr >> 10, cg >> 10, cb >> 10}] = true
+			if cr>>8 > 180 && cg>>8 < 60 && cb>>8 < 60 {
+				red++
+			}
+		}
+	}
+	if len(colours) < 50 || red < 20 {
+		t.Errorf("picture looks empty: %d colours, %d red samples", len(colours), red)
+	}
+}
+
+func TestRenderSVGIsXML(t *testing.T) {
+	fixes, g := testFix(t)
+	b, err := Render(fixes, g, "svg", Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	d := xml.NewDecoder(bytes.NewReader(b))
+	for {
+		if _, err := d.Token(); err == io.EOF {
+			break
+		} else if err != nil {
+			t.Fatalf("SVG not XML: %v", err)
+		}
+	}
+	if _, err := Format("x.jpg"); err == nil {
+		t.Error("jpg accepted")
+	}
+	if _, err := Render(nil, g, "png", Options{}); err == nil {
+		t.Error("empty fix list accepted")
+	}
+}
