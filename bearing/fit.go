@@ -105,8 +105,11 @@ type Estimate struct {
 	Mode Mode
 	// Noise is the error model that was used.
 	Noise NoiseModel
-	// LevelDB is the fitted level at the pattern's 0 dB direction.
+	// LevelDB is the fitted carrier level at the pattern's 0 dB direction
+	// (without the noise), on the LevelDB scale.
 	LevelDB float64
+	// NoiseFloorDB is the noise floor the thermal model used (0 for NoiseDB).
+	NoiseFloorDB float64
 	// FisherSigmaDeg is the 1-sigma from the Fisher information with the
 	// measured residual noise (REFERENCES §6).
 	FisherSigmaDeg float64
@@ -563,6 +566,7 @@ func Fit(points []Point, p Pattern, opts FitOptions) (Estimate, error) {
 		est.LevelDB = c
 	} else {
 		est.LevelDB = floorDB + 10*math.Log10(c)
+		est.NoiseFloorDB = floorDB
 	}
 	period := 360 / float64(p.Symmetry)
 	if p.Symmetry > 1 {
@@ -642,6 +646,20 @@ func Fit(points []Point, p Pattern, opts FitOptions) (Estimate, error) {
 		}
 	}
 	return est, nil
+}
+
+// FittedLevelDB returns the level the fit predicts at headingDeg with
+// pattern p (the pattern the estimate was fitted with): LevelDB + G(θ − φ)
+// for NoiseDB, 10·log10(carrier·p + noise) for NoiseThermal.
+func (e Estimate) FittedLevelDB(p Pattern, headingDeg float64) float64 {
+	if p.Validate() != nil {
+		return math.NaN()
+	}
+	m := newModel(p)
+	if e.Noise == NoiseThermal {
+		return levelAt(m, NoiseThermal, e.BearingDeg, math.Pow(10, (e.LevelDB-e.NoiseFloorDB)/10), e.NoiseFloorDB, headingDeg)
+	}
+	return levelAt(m, NoiseDB, e.BearingDeg, e.LevelDB, 0, headingDeg)
 }
 
 // bootstrap refits resampled standardised residuals and returns the RMS

@@ -330,6 +330,10 @@ func writeAtomic(path string, data []byte) error {
 		os.Remove(tmp)
 		return fmt.Errorf("write %s: %w", path, err)
 	}
+	if err := os.Chmod(tmp, 0o644); err != nil {
+		os.Remove(tmp)
+		return fmt.Errorf("write %s: %w", path, err)
+	}
 	if err := os.Rename(tmp, path); err != nil {
 		os.Remove(tmp)
 		return fmt.Errorf("write %s: %w", path, err)
