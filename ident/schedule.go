@@ -90,8 +90,9 @@ type SlotTransmitter struct {
 	// transmitter's start in the cycle, near the end of the recording
 	// (negative: they already overlap).
 	GapS float64
-	// PhaseS is the first fitted start's phase in the common cycle relative
-	// to the first start heard (s, 0…CommonPeriodS).
+	// PhaseS is the phase (s, 0…CommonPeriodS) of the transmitter's first
+	// fitted start in the common cycle, relative to that of the first
+	// transmitter heard (which has phase 0).
 	PhaseS float64
 	// DriftPPM is (PeriodS − reference)/reference·1e6, reference = the
 	// plan's DriftReferenceS: positive means the slot slides later each cycle
@@ -489,9 +490,10 @@ func (b *schedBuilder) reference() {
 	}
 }
 
-// order sorts the transmitters by the phase of their first (fitted, else
-// heard) start in the common cycle, relative to the first start heard, and
-// rotates the ring so that the first transmitter heard comes first.
+// order sorts the transmitters by the phase of their first start (fitted,
+// else the first one not cut by the capture start) in the common cycle,
+// relative to that of the first transmitter heard, and rotates the ring so
+// that the first transmitter heard comes first.
 func (b *schedBuilder) order() {
 	txs := b.txs
 	firstHeard := 0
@@ -500,14 +502,16 @@ func (b *schedBuilder) order() {
 			firstHeard = i
 		}
 	}
-	tRef, firstID := txs[firstHeard].firstHeardS, txs[firstHeard].ID
+	ref := func(tx *SlotTransmitter) float64 {
+		if tx.HasPeriod() {
+			return tx.T0S
+		}
+		return schedFirstUncut(b.bursts[tx.ID])
+	}
+	tRef, firstID := ref(&txs[firstHeard]), txs[firstHeard].ID
 	pc := b.plan.CommonPeriodS
 	for i := range txs {
-		s := txs[i].T0S
-		if math.IsNaN(s) {
-			s = schedFirstUncut(b.bursts[txs[i].ID])
-		}
-		ph := s - tRef
+		ph := ref(&txs[i]) - tRef
 		if pc > 0 && !math.IsInf(pc, 0) {
 			ph = schedMod(ph, pc)
 		}
@@ -527,32 +531,55 @@ func (b *schedBuilder) order() {
 }
 
 // gapsAndCollisions measures each gap to the next transmitter at the end of
-// the recording and forecasts the closing ones.
+// the recording, and forecasts the closing gaps between neighbouring
+// transmitters that have a period (transmitters without one are skipped).
 func (b *schedBuilder) gapsAndCollisions() {
-	txs, pc, endS := b.txs, b.plan.CommonPeriodS, b.plan.EndS
+	txs, pc := b.txs, b.plan.CommonPeriodS
 	if len(txs) == 1 {
 		txs[0].GapS = schedLinePeriod(&txs[0], pc) - txs[0].OnS
+	} else {
+		for i := range txs {
+			x, y := &txs[i], &txs[(i+1)%len(txs)]
+			if _, gap, ok := b.slotPair(x, y); ok {
+				x.GapS = gap
+			}
+		}
+	}
+	var fitted []*SlotTransmitter
+	for i := range txs {
+		if txs[i].HasPeriod() {
+			fitted = append(fitted, &txs[i])
+		}
+	}
+	if len(fitted) < 2 {
 		return
 	}
-	for i := range txs {
-		x, y := &txs[i], &txs[(i+1)%len(txs)]
-		lx, ly := schedLineOf(x, b.bursts[x.ID], pc), schedLineOf(y, b.bursts[y.ID], pc)
-		if math.IsNaN(lx.p) || math.IsNaN(ly.p) {
+	for i, x := range fitted {
+		y := fitted[(i+1)%len(fitted)]
+		m, _, ok := b.slotPair(x, y)
+		if !ok {
 			continue
 		}
-		// x's last start at or before the end, y's first start after it.
-		jx := math.Floor((endS - lx.t0) / lx.p)
-		xs := lx.t0 + jx*lx.p
-		jy := math.Ceil((xs - ly.t0) / ly.p)
-		x.GapS = ly.t0 + jy*ly.p - xs - x.OnS
-		if !x.HasPeriod() || !y.HasPeriod() {
-			continue
-		}
-		if c, ok := schedCollision(x, y, jy-jx, endS, pc); ok {
+		if c, ok := schedCollision(x, y, m, b.plan.EndS, pc); ok {
 			c.At, _ = schedUTC(b.plan.CaptureStart, c.AtS)
 			b.plan.Collisions = append(b.plan.Collisions, c)
 		}
 	}
+}
+
+// slotPair finds x's last start at or before the end of the recording and
+// y's first start after it; it returns the offset m between their cycle
+// numbers (y's cycle = x's + m) and the gap from x's end to y's start.
+func (b *schedBuilder) slotPair(x, y *SlotTransmitter) (m, gapS float64, ok bool) {
+	pc := b.plan.CommonPeriodS
+	lx, ly := schedLineOf(x, b.bursts[x.ID], pc), schedLineOf(y, b.bursts[y.ID], pc)
+	if math.IsNaN(lx.p) || math.IsNaN(ly.p) {
+		return 0, 0, false
+	}
+	jx := math.Floor((b.plan.EndS - lx.t0) / lx.p)
+	xs := lx.t0 + jx*lx.p
+	jy := math.Ceil((xs - ly.t0) / ly.p)
+	return jy - jx, ly.t0 + jy*ly.p - xs - x.OnS, true
 }
 
 // predict extrapolates each fitted line past the end of the recording.

@@ -176,7 +176,7 @@ func (p *SlotPlan) WriteTable(w io.Writer) error {
 	for _, t := range p.Transmitters {
 		next, nsig := "-", "-"
 		if len(t.NextOnS) > 0 {
-			if len(t.NextOn) > 0 {
+			if len(t.NextOn) > 0 && !t.NextOn[0].IsZero() {
 				next = t.NextOn[0].Format("15:04:05.0")
 			} else {
 				next = fmt.Sprintf("+%.1f", t.NextOnS[0])
