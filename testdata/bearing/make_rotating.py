@@ -25,7 +25,8 @@ Outputs in --out (file stem "rotating_loop"):
     rotating_loop.sigmf-data    ci16_le IQ, 240 kS/s x 14 s = 13.4 MB
                                 (NOT committed: too big for a fixture; the
                                 end-to-end test runs this script into a
-                                temporary directory; it is deterministic)
+                                temporary directory; repeated runs agree
+                                to within 1 LSB, not bit for bit)
     rotating_loop_heading.csv   "seconds,heading_deg" at 10 Hz (committed)
     rotating_loop_truth.json    the parameters and the true bearing (committed)
 
