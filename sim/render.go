@@ -37,6 +37,15 @@ type beaconState struct {
 	levelDB  float64      // level at the station before the antenna
 	ampCache float64
 	ampAt    int64
+	ripK     [3]float64 // multipath ripple: phases of three spatial harmonics
+}
+
+// ripple is the site's multipath ripple at antenna heading h, in units of
+// the station's RippleDB: a fixed sum of a few spatial harmonics, the same
+// on every turn (it is the site, not noise).
+func (bs *beaconState) ripple(hDeg float64) float64 {
+	h := hDeg * math.Pi / 180
+	return (math.Sin(2*h+bs.ripK[0]) + 0.6*math.Sin(3*h+bs.ripK[1]) + 0.4*math.Sin(5*h+bs.ripK[2])) / 2
 }
 
 // rampS is the rise and fall time of the keyed tone or carrier.
@@ -69,6 +78,7 @@ func NewSource(sc Scenario, st Station) (*Source, error) {
 			bearing: TrueBearing(st, b),
 			levelDB: b.LevelDB - 20*math.Log10(d/1000),
 			ampAt:   -1,
+			ripK:    [3]float64{s.rng.Float64() * 2 * math.Pi, s.rng.Float64() * 2 * math.Pi, s.rng.Float64() * 2 * math.Pi},
 		})
 	}
 	return s, nil
@@ -159,7 +169,7 @@ func (bs *beaconState) sample(t float64, s *Source, rate float64) (complex128, b
 	// Antenna gain, refreshed every millisecond.
 	if bs.ampAt < 0 || s.n-bs.ampAt >= int64(rate/1000) {
 		h := s.st.Turn.HeadingAt(t)
-		g := GainDB(s.st.Antenna, h-bs.bearing)
+		g := GainDB(s.st.Antenna, h-bs.bearing) + s.st.RippleDB*bs.ripple(h)
 		bs.ampCache = math.Pow(10, (bs.levelDB+g)/20)
 		bs.ampAt = s.n
 	}

@@ -29,9 +29,9 @@ type Beacon struct {
 	// FirstOnS is the start of the first transmission, seconds from the
 	// capture start; OnS is the on-time, PeriodS the programmed cycle.
 	FirstOnS, OnS, PeriodS float64
-	// DriftPPM is the beacon timer's rate error: its real cycle is
-	// PeriodS·(1 − DriftPPM·1e-6) of receiver time (a fast clock, positive
-	// ppm, comes back early).
+	// DriftPPM is the beacon timer's rate error as its slots drift: its
+	// real cycle is PeriodS·(1 + DriftPPM·1e-6) of receiver time, so a
+	// positive value (a slow clock) brings the beacon back later each cycle.
 	DriftPPM float64
 	Mode     ident.Mode // ModeFM, ModeAM or ModeCW
 }
@@ -48,6 +48,10 @@ type Station struct {
 	// or magnetic; DeclDeg is the declination used to make a magnetic log.
 	HeadingRef heading.Ref
 	DeclDeg    float64
+	// RippleDB is the depth of a site's multipath ripple on the antenna
+	// pattern (a few dB at real sites), which gives the bearings the
+	// small, honest errors a real site has.
+	RippleDB float64
 }
 
 // Scenario is a whole scene.
@@ -83,7 +87,7 @@ func DistanceM(st Station, b Beacon) float64 {
 // Slots returns the on-intervals of beacon b inside [0, durS).
 func (b Beacon) Slots(durS float64) [][2]float64 {
 	var out [][2]float64
-	p := b.PeriodS * (1 - b.DriftPPM*1e-6)
+	p := b.PeriodS * (1 + b.DriftPPM*1e-6)
 	for k := 0; ; k++ {
 		t0 := b.FirstOnS + float64(k)*p
 		if t0 >= durS {
@@ -136,7 +140,7 @@ func Demo() (Scenario, error) {
 	at := func(eM, nM float64) (float64, float64) { return geo.FromENU(lat0, lon0, eM, nM) }
 	sc := Scenario{
 		Name:        "demo",
-		Place:       "Hollowmere Common (invented)",
+		Place:       "Hollowmere Common",
 		Start:       time.Date(2026, 5, 16, 9, 0, 0, 0, time.UTC),
 		CenterHz:    144.500e6,
 		ChannelHz:   144.525e6,
@@ -156,9 +160,9 @@ func Demo() (Scenario, error) {
 		first, drift, levelDB float64
 	}
 	for _, x := range []bc{
-		{"N0CALL/1", 1200, 2300, 700, 140, 1.0, 80, -18},
-		{"N0CALL/2", -1700, 1300, 850, -310, 16.0, -60, -20},
-		{"N0CALL/3", 700, -900, 1000, 420, 31.0, 150, -22},
+		{"N0CALL/1", 1200, 2300, 700, 140, 1.0, 80, 0},
+		{"N0CALL/2", -1700, 1300, 850, -310, 16.0, -60, -2},
+		{"N0CALL/3", 700, -900, 1000, 420, 31.0, 150, -3},
 	} {
 		la, lo := at(x.e, x.n)
 		sc.Beacons = append(sc.Beacons, Beacon{
@@ -184,6 +188,7 @@ func Demo() (Scenario, error) {
 			Name: x.name, Lat: la, Lon: lo, Antenna: x.pat, AntennaName: x.ant,
 			Turn:       heading.SteadyTurn{StartDeg: x.start, RateDegPerS: x.rate},
 			HeadingRef: heading.True,
+			RippleDB:   1.5,
 		})
 	}
 	return sc, nil

@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"log/slog"
 	"os"
+	"runtime/pprof"
 
 	"github.com/spf13/cobra"
 )
@@ -17,6 +18,28 @@ var rootCmd = &cobra.Command{
 	Short:         "Find, identify and locate narrowband transmitters with a low-cost SDR",
 	SilenceUsage:  true,
 	SilenceErrors: true,
+}
+
+var cpuProfile string
+
+func init() {
+	rootCmd.PersistentFlags().StringVar(&cpuProfile, "cpuprofile", "", "write a CPU profile to this file (for developers)")
+	_ = rootCmd.PersistentFlags().MarkHidden("cpuprofile")
+	rootCmd.PersistentPreRunE = func(*cobra.Command, []string) error {
+		if cpuProfile == "" {
+			return nil
+		}
+		f, err := os.Create(cpuProfile)
+		if err != nil {
+			return err
+		}
+		return pprof.StartCPUProfile(f)
+	}
+	rootCmd.PersistentPostRun = func(*cobra.Command, []string) {
+		if cpuProfile != "" {
+			pprof.StopCPUProfile()
+		}
+	}
 }
 
 func main() {

@@ -1,0 +1,302 @@
+package main
+
+import (
+	"context"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"path/filepath"
+	"strings"
+	"time"
+
+	"github.com/spf13/cobra"
+
+	"nullseek/bearing"
+	"nullseek/geo"
+	"nullseek/heading"
+	"nullseek/ident"
+	"nullseek/mapplot"
+	"nullseek/polarplot"
+	"nullseek/receiver"
+	"nullseek/sdr"
+	"nullseek/sim"
+	"nullseek/survey"
+)
+
+func init() {
+	var outDir string
+	var writeIQ bool
+	cmd := &cobra.Command{
+		Use:   "demo",
+		Short: "Run the whole job on a built-in invented scenario (three beacons, three stations)",
+		Long: `demo renders what three receiving stations with turning antennas hear of
+three beacons taking turns on one channel (an invented scene; call N0CALL),
+then does the whole job on it as it would on real recordings: finds the
+bursts, reads the identifiers, works out the slot schedule, fits a bearing
+per transmitter at every station and fixes each transmitter's position,
+comparing every result with the scene's truth. Files go to --out.`,
+		Args: cobra.NoArgs,
+		RunE: func(cmd *cobra.Command, _ []string) error {
+			return runDemo(cmd.Context(), os.Stdout, outDir, writeIQ)
+		},
+	}
+	cmd.Flags().StringVar(&outDir, "out", "nullseek-demo", "directory for the demo's files (bearings CSV, map, GeoJSON, polar plots, heading logs)")
+	cmd.Flags().BoolVar(&writeIQ, "write-iq", false, "also write each station's recording as a SigMF pair (about 35 MB each)")
+	rootCmd.AddCommand(cmd)
+}
+
+func runDemo(ctx context.Context, w io.Writer, outDir string, writeIQ bool) error {
+	sc, err := sim.Demo()
+	if err != nil {
+		return err
+	}
+	if err := os.MkdirAll(outDir, 0o755); err != nil {
+		return fmt.Errorf("--out: %w", err)
+	}
+	var ids []string
+	for _, b := range sc.Beacons {
+		ids = append(ids, b.ID)
+	}
+	fmt.Fprintf(w, "Scenario %q at %s (invented): %d beacons on %.4f MHz, %d stations, %.0f s each, starting %s\n\n",
+		sc.Name, sc.Place, len(sc.Beacons), sc.ChannelHz/1e6, len(sc.Stations), sc.DurationS, sc.Start.Format(time.RFC3339))
+
+	var lops []geo.LOP
+	var csv strings.Builder
+	csv.WriteString("ident,station,lat,lon,bearing_deg,sigma_deg,reference,time\n")
+	var first *survey.Result
+	for si, st := range sc.Stations {
+		src, err := sim.NewSource(sc, st)
+		if err != nil {
+			return err
+		}
+		if writeIQ {
+			if err := writeStationIQ(sc, st, outDir); err != nil {
+				return err
+			}
+		}
+		t0 := time.Now()
+		res, err := survey.Run(ctx, src, survey.Options{
+			Receiver: demoReceiver(sc),
+			IDs:      ids,
+		}, nil)
+		if err != nil {
+			return err
+		}
+		track, err := st.Turn.Track(0, sc.DurationS, 10)
+		if err != nil {
+			return err
+		}
+		if err := writeHeadingLog(filepath.Join(outDir, "headings-"+st.Name+".csv"), track); err != nil {
+			return err
+		}
+		bbs, txs := survey.Bearings(res, track, st.Antenna, bearing.FitOptions{})
+		if si == 0 {
+			first = res
+			fmt.Fprintf(w, "Station %s: bursts found\n", st.Name)
+			if err := res.WriteTable(w); err != nil {
+				return err
+			}
+			fmt.Fprintln(w, res.SummaryLine(time.Since(t0)))
+			fmt.Fprintln(w)
+		}
+		fmt.Fprintf(w, "Station %s (%s, %s antenna turning %+.0f°/s): bearings\n", st.Name,
+			geo.FormatLatLon(st.Lat, st.Lon), st.AntennaName, st.Turn.RateDegPerS)
+		fmt.Fprintf(w, "  %-10s %9s %7s %9s %6s %9s\n", "ident", "bearing", "±1σ", "truth", "error", "bursts")
+		for _, tb := range txs {
+			if tb.Err != nil {
+				fmt.Fprintf(w, "  %-10s no bearing: %v\n", tb.Ident, tb.Err)
+				continue
+			}
+			truth := math.NaN()
+			for _, b := range sc.Beacons {
+				if b.ID == tb.Ident {
+					truth = sim.TrueBearing(st, b)
+				}
+			}
+			c := tb.Combined
+			alt := ""
+			if c.AltBearingDeg != nil {
+				alt = fmt.Sprintf("  (or %.1f°: the loop's two nulls)", *c.AltBearingDeg)
+			}
+			fmt.Fprintf(w, "  %-10s %8.1f° %6.1f° %8.1f° %+5.1f° %6d%s\n", tb.Ident, c.BearingDeg, c.SigmaDeg,
+				truth, angleDiff(c.BearingDeg, truth), c.BurstsUsed, alt)
+			lop := geo.LOP{Ident: tb.Ident, Station: st.Name, Lat: st.Lat, Lon: st.Lon,
+				BearingDeg: c.BearingDeg, SigmaDeg: math.Max(c.SigmaDeg, 0.5), Time: sc.Start}
+			lops = append(lops, lop)
+			fmt.Fprintf(&csv, "%s,%s,%.6f,%.6f,%.2f,%.2f,true,%s\n", lop.Ident, lop.Station, lop.Lat, lop.Lon,
+				lop.BearingDeg, lop.SigmaDeg, sc.Start.Format(time.RFC3339))
+			if len(tb.Bursts) > 0 {
+				bb := bbs[tb.Bursts[0]]
+				name := filepath.Join(outDir, fmt.Sprintf("polar-%s-%s.png", st.Name, fileSafe(tb.Ident)))
+				title := fmt.Sprintf("%s at %s: %.1f° ± %.1f°", tb.Ident, st.Name, bb.Est.BearingDeg, bb.Est.SigmaDeg)
+				if err := polarplot.Write(name, bb.Points, bb.Est, st.Antenna, title); err != nil {
+					return err
+				}
+			}
+		}
+		fmt.Fprintln(w)
+	}
+
+	// Slot schedule from the first station.
+	obs := survey.Observations(first.Records)
+	var labels []string
+	for _, r := range first.Records {
+		labels = append(labels, r.Ident)
+	}
+	plan, err := ident.BuildSchedule(obs, labels, ident.ScheduleOptions{NominalPeriodS: sc.Beacons[0].PeriodS})
+	if err != nil {
+		fmt.Fprintf(w, "Slot schedule: %v\n\n", err)
+	} else {
+		fmt.Fprintf(w, "Slot schedule (from %s):\n", sc.Stations[0].Name)
+		if err := plan.WriteTable(w); err != nil {
+			return err
+		}
+		fmt.Fprintln(w, "  truth: drifts", demoDrifts(sc))
+		fmt.Fprintln(w)
+	}
+
+	// Fixes.
+	if err := writeFileAtomic(filepath.Join(outDir, "bearings.csv"), []byte(csv.String())); err != nil {
+		return err
+	}
+	grid := &geo.Grid{OriginLat: sc.GridOriginLat, OriginLon: sc.GridOriginLon, CellM: sc.GridCellM,
+		Cols: sc.GridCols, Rows: sc.GridRows, FirstRow: 1}
+	if err := grid.Validate(); err != nil {
+		return err
+	}
+	idents, groups := geo.GroupByIdent(lops)
+	var fixes []*geo.Fix
+	fmt.Fprintf(w, "Fixes (95%% ellipses; event grid %s):\n", grid)
+	for _, id := range idents {
+		f, err := geo.SolveFix(groups[id], geo.FixOptions{})
+		if err != nil {
+			fmt.Fprintf(w, "  %-10s no fix: %v\n", id, err)
+			continue
+		}
+		if err := f.Place(grid, 4); err != nil {
+			return err
+		}
+		fixes = append(fixes, f)
+		var truthErr float64
+		for _, b := range sc.Beacons {
+			if b.ID == id {
+				truthErr, _, _ = geo.Inverse(f.Lat, f.Lon, b.Lat, b.Lon)
+			}
+		}
+		cells := ""
+		for i, c := range f.Cells {
+			if i == 3 {
+				break
+			}
+			cells += fmt.Sprintf(" %s %.0f%%", c.Cell, 100*c.Probability)
+		}
+		fmt.Fprintf(w, "  %-10s %s  %s  cell %-4s ellipse %.0f×%.0f m at %.0f°; %.0f m from truth; cells:%s\n",
+			id, geo.FormatLatLon(f.Lat, f.Lon), f.Maidenhead, f.GridCell,
+			f.Ellipse.SemiMajorM, f.Ellipse.SemiMinorM, f.Ellipse.OrientationDeg, truthErr, cells)
+	}
+	if len(fixes) > 0 {
+		gj, err := geo.GeoJSON(fixes, grid)
+		if err != nil {
+			return err
+		}
+		if err := writeFileAtomic(filepath.Join(outDir, "fixes.geojson"), gj); err != nil {
+			return err
+		}
+		png, err := mapplot.Render(fixes, grid, "png", mapplot.Options{Title: "nullseek demo: " + sc.Place})
+		if err != nil {
+			return err
+		}
+		if err := writeFileAtomic(filepath.Join(outDir, "map.png"), png); err != nil {
+			return err
+		}
+	}
+	fmt.Fprintf(w, "\nFiles in %s: bearings.csv (try: nullseek fix %s), map.png, fixes.geojson, polar-*.png, headings-*.csv\n",
+		outDir, filepath.Join(outDir, "bearings.csv"))
+	return nil
+}
+
+func demoReceiver(sc sim.Scenario) (cfg receiver.Config) {
+	cfg.FreqHz = sc.ChannelHz
+	// a turning antenna's nulls and back lobe must not split a burst
+	cfg.MergeGapS = 1.5
+	return cfg
+}
+
+func demoDrifts(sc sim.Scenario) string {
+	var parts []string
+	for _, b := range sc.Beacons {
+		parts = append(parts, fmt.Sprintf("%s %+.0f ppm", b.ID, b.DriftPPM))
+	}
+	return strings.Join(parts, ", ")
+}
+
+func angleDiff(a, b float64) float64 {
+	d := math.Mod(a-b+540, 360) - 180
+	return d
+}
+
+func fileSafe(s string) string {
+	return strings.Map(func(r rune) rune {
+		if r == '/' || r == '\\' || r == ' ' {
+			return '_'
+		}
+		return r
+	}, s)
+}
+
+func writeHeadingLog(path string, tr *heading.Track) error {
+	var b strings.Builder
+	b.WriteString("time_s,heading_deg\n")
+	for _, s := range tr.Samples {
+		fmt.Fprintf(&b, "%.3f,%.2f\n", s.T, s.Deg)
+	}
+	return writeFileAtomic(path, []byte(b.String()))
+}
+
+func writeStationIQ(sc sim.Scenario, st sim.Station, dir string) error {
+	src, err := sim.NewSource(sc, st)
+	if err != nil {
+		return err
+	}
+	w, err := sdr.CreateSigMF(filepath.Join(dir, "station-"+st.Name), src.Info(), "cu8")
+	if err != nil {
+		return err
+	}
+	buf := make([]complex64, 1<<16)
+	for {
+		n, rerr := src.Read(buf)
+		if n > 0 {
+			if err := w.Write(buf[:n]); err != nil {
+				return err
+			}
+		}
+		if rerr != nil {
+			break
+		}
+	}
+	return w.Close()
+}
+
+// writeFileAtomic writes data to path through a temporary file, so a
+// failure never leaves half a file.
+func writeFileAtomic(path string, data []byte) error {
+	tmp, err := os.CreateTemp(filepath.Dir(path), ".nullseek-*")
+	if err != nil {
+		return err
+	}
+	if _, err := tmp.Write(data); err != nil {
+		tmp.Close()
+		os.Remove(tmp.Name())
+		return fmt.Errorf("write %s: %w", path, err)
+	}
+	if err := tmp.Close(); err != nil {
+		os.Remove(tmp.Name())
+		return fmt.Errorf("write %s: %w", path, err)
+	}
+	if err := os.Rename(tmp.Name(), path); err != nil {
+		os.Remove(tmp.Name())
+		return fmt.Errorf("write %s: %w", path, err)
+	}
+	return nil
+}

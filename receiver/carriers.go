@@ -1,0 +1,118 @@
+package receiver
+
+import (
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"sort"
+
+	"nullseek/dsp"
+	"nullseek/sdr"
+)
+
+// CarrierSearch configures FindCarriers; zero values take the defaults.
+type CarrierSearch struct {
+	// BinHz is the spectrum's resolution (default about 250 Hz).
+	BinHz float64
+	// MinSNRDB is the least peak height above the median floor (default 10).
+	MinSNRDB float64
+	// ChannelHz merges peaks closer than this into one carrier, the
+	// strongest (default 12500: a modulated FM carrier shows many peaks).
+	ChannelHz float64
+	// MaxFrames bounds the work: frames are spread evenly over a recording
+	// of known length (default 3000). Streams of unknown length are
+	// searched over their first LiveSeconds (default 20 s).
+	MaxFrames   int
+	LiveSeconds float64
+}
+
+// FindCarriers averages the power spectrum of src (Welch, Hann window) and
+// lists the carriers standing above the floor, strongest first, with
+// offsets relative to the capture centre. It reads src; reopen it to scan.
+func FindCarriers(src sdr.Source, cs CarrierSearch) ([]dsp.Carrier, error) {
+	info := src.Info()
+	if cs.BinHz <= 0 {
+		cs.BinHz = 250
+	}
+	if cs.MinSNRDB <= 0 {
+		cs.MinSNRDB = 10
+	}
+	if cs.ChannelHz <= 0 {
+		cs.ChannelHz = 12500
+	}
+	if cs.MaxFrames <= 0 {
+		cs.MaxFrames = 3000
+	}
+	if cs.LiveSeconds <= 0 {
+		cs.LiveSeconds = 20
+	}
+	nfft := 1
+	for float64(nfft) < info.SampleRate/cs.BinHz {
+		nfft *= 2
+	}
+	nfft = max(nfft, 64)
+	avg, err := dsp.NewSpectrumAverager(nfft)
+	if err != nil {
+		return nil, err
+	}
+	// Read in blocks of stride samples, keep one FFT frame of each.
+	stride := nfft
+	limit := int64(math.MaxInt64)
+	if info.Samples > 0 {
+		stride = max(nfft, int(info.Samples/int64(cs.MaxFrames)))
+	} else {
+		limit = int64(cs.LiveSeconds * info.SampleRate)
+	}
+	buf := make([]complex64, stride)
+	var read int64
+	for read < limit {
+		got, err := readFull(src, buf)
+		if got >= nfft {
+			avg.Add(buf[:nfft])
+		}
+		read += int64(got)
+		if err != nil {
+			if errors.Is(err, io.EOF) {
+				break
+			}
+			return nil, fmt.Errorf("%s: %w", info.Name, err)
+		}
+	}
+	if avg.Frames() == 0 {
+		return nil, fmt.Errorf("%s: too short for a spectrum (%d samples, need %d)", info.Name, read, nfft)
+	}
+	spec := avg.Result(nil)
+	found := dsp.FindCarriers(spec, info.SampleRate, cs.MinSNRDB)
+	sort.Slice(found, func(i, j int) bool { return found[i].LevelDB > found[j].LevelDB })
+	var out []dsp.Carrier
+	for _, c := range found {
+		near := false
+		for _, o := range out {
+			if math.Abs(o.OffsetHz-c.OffsetHz) < cs.ChannelHz {
+				near = true
+				break
+			}
+		}
+		if !near {
+			out = append(out, c)
+		}
+	}
+	return out, nil
+}
+
+// readFull reads until buf is full or the stream ends.
+func readFull(src sdr.Source, buf []complex64) (int, error) {
+	n := 0
+	for n < len(buf) {
+		k, err := src.Read(buf[n:])
+		n += k
+		if err != nil {
+			return n, err
+		}
+		if k == 0 {
+			return n, io.ErrNoProgress
+		}
+	}
+	return n, nil
+}

@@ -1,0 +1,193 @@
+package survey
+
+import (
+	"encoding/json"
+	"fmt"
+	"math"
+	"sort"
+
+	"nullseek/bearing"
+	"nullseek/heading"
+)
+
+// BurstBearing is the bearing fitted to one burst's level track.
+type BurstBearing struct {
+	Index       int
+	Ident       string
+	Transmitter string
+	StartS      float64
+	Est         bearing.Estimate
+	Points      []bearing.Point
+	// Err says why no bearing was fitted (the fit refuses rather than
+	// inventing one); Est is then empty.
+	Err error
+}
+
+// TxBearing is one transmitter's bearing combined over its bursts.
+type TxBearing struct {
+	Ident       string
+	Transmitter string
+	Combined    bearing.Combined
+	// Bursts are the per-burst bearings that went into the combination
+	// (indices into the BurstBearing slice).
+	Bursts []int
+	// NullDepthDB and CoverageDeg are the best of the used bursts.
+	NullDepthDB, CoverageDeg float64
+	Err                      error
+}
+
+// Points joins a burst's level track with the heading track. Readings the
+// heading track does not cover (outside it or in a gap) are left out.
+func Points(r Record, track *heading.Track) []bearing.Point {
+	var pts []bearing.Point
+	for _, l := range r.Level {
+		h, ok := track.At(l.T)
+		if !ok {
+			continue
+		}
+		pts = append(pts, bearing.Point{T: l.T, HeadingDeg: h, LevelDB: l.LevelDB})
+	}
+	return pts
+}
+
+// Bearings fits every burst of res against the heading track with pattern
+// p, then combines the bursts of each transmitter.
+func Bearings(res *Result, track *heading.Track, p bearing.Pattern, opts bearing.FitOptions) ([]BurstBearing, []TxBearing) {
+	var bbs []BurstBearing
+	groups := map[string][]int{}
+	for _, r := range res.Records {
+		bb := BurstBearing{Index: r.Index, Ident: r.Ident, Transmitter: r.Transmitter, StartS: r.StartS}
+		bb.Points = Points(r, track)
+		o := opts
+		nf := r.NoiseDB
+		o.NoiseFloorDB = &nf
+		if len(bb.Points) == 0 {
+			bb.Err = fmt.Errorf("no heading readings during the burst (%.1f–%.1f s): the heading log does not overlap it", r.StartS, r.EndS)
+		} else {
+			bb.Est, bb.Err = bearing.Fit(bb.Points, p, o)
+			if bb.Err == nil && r.Clipped > 0.001 {
+				bb.Est.Warnings = append(bb.Est.Warnings, fmt.Sprintf("receiver clipped on %.1f%% of the burst's samples: levels near the peak are unreliable", 100*r.Clipped))
+			}
+		}
+		bbs = append(bbs, bb)
+		key := txKey(r)
+		if bb.Err == nil {
+			groups[key] = append(groups[key], len(bbs)-1)
+		} else if _, ok := groups[key]; !ok {
+			groups[key] = nil
+		}
+	}
+	keys := make([]string, 0, len(groups))
+	for k := range groups {
+		keys = append(keys, k)
+	}
+	sort.Strings(keys)
+	var txs []TxBearing
+	for _, k := range keys {
+		idx := groups[k]
+		tb := TxBearing{Ident: k}
+		for _, r := range res.Records {
+			if txKey(r) == k {
+				tb.Transmitter = r.Transmitter
+				break
+			}
+		}
+		if len(idx) == 0 {
+			tb.Err = fmt.Errorf("no burst of %s gave a bearing", k)
+			txs = append(txs, tb)
+			continue
+		}
+		ests := make([]bearing.Estimate, len(idx))
+		for i, j := range idx {
+			ests[i] = bbs[j].Est
+		}
+		tb.Combined, tb.Err = bearing.Combine(ests, bearing.CombineOptions{})
+		for _, u := range tb.Combined.Used {
+			tb.Bursts = append(tb.Bursts, idx[u])
+			e := bbs[idx[u]].Est
+			tb.NullDepthDB = math.Max(tb.NullDepthDB, e.NullDepthDB)
+			tb.CoverageDeg = math.Max(tb.CoverageDeg, e.CoverageDeg)
+		}
+		txs = append(txs, tb)
+	}
+	return bbs, txs
+}
+
+// txKey names the transmitter a record belongs to: its identifier, or its
+// fingerprint cluster when the identifier is unknown.
+func txKey(r Record) string {
+	if known(r.Ident) {
+		return r.Ident
+	}
+	if r.Transmitter != "" {
+		return r.Transmitter
+	}
+	return "unknown"
+}
+
+func optDeg(p *float64) *float64 {
+	if p == nil {
+		return nil
+	}
+	v := round(*p, 2)
+	return &v
+}
+
+// MarshalJSON writes a `"type":"burst_bearing"` line.
+func (b BurstBearing) MarshalJSON() ([]byte, error) {
+	m := map[string]any{
+		"type": "burst_bearing", "index": b.Index, "ident": b.Ident,
+		"transmitter": b.Transmitter, "start_s": round(b.StartS, 3), "bursts_used": 0,
+	}
+	if b.Err != nil {
+		m["error"] = b.Err.Error()
+		m["bearing_deg"], m["sigma_deg"], m["alt_bearing_deg"] = nil, nil, nil
+		return json.Marshal(m)
+	}
+	e := b.Est
+	m["bearing_deg"] = round(e.BearingDeg, 2)
+	m["sigma_deg"] = round(e.SigmaDeg, 2)
+	m["alt_bearing_deg"] = optDeg(e.AltBearingDeg)
+	m["null_depth_db"] = round(e.NullDepthDB, 1)
+	m["coverage_deg"] = round(e.CoverageDeg, 1)
+	m["residual_db"] = round(e.ResidualDB, 2)
+	m["fisher_sigma_deg"] = round(e.FisherSigmaDeg, 2)
+	m["bootstrap_sigma_deg"] = round(e.BootstrapSigmaDeg, 2)
+	m["points"] = e.Points
+	m["mode"] = e.Mode.String()
+	m["bursts_used"] = 1
+	if len(e.Warnings) > 0 {
+		m["warnings"] = e.Warnings
+	}
+	return json.Marshal(m)
+}
+
+// MarshalJSON writes a `"type":"bearing"` line.
+func (t TxBearing) MarshalJSON() ([]byte, error) {
+	m := map[string]any{"type": "bearing", "ident": t.Ident, "transmitter": t.Transmitter}
+	if t.Err != nil {
+		m["error"] = t.Err.Error()
+		m["bearing_deg"], m["sigma_deg"], m["alt_bearing_deg"] = nil, nil, nil
+		m["bursts_used"] = 0
+		return json.Marshal(m)
+	}
+	c := t.Combined
+	m["bearing_deg"] = round(c.BearingDeg, 2)
+	m["sigma_deg"] = round(c.SigmaDeg, 2)
+	m["alt_bearing_deg"] = optDeg(c.AltBearingDeg)
+	m["null_depth_db"] = round(t.NullDepthDB, 1)
+	m["coverage_deg"] = round(t.CoverageDeg, 1)
+	m["bursts_used"] = c.BurstsUsed
+	m["p_value"] = round(c.PValue, 4)
+	if len(c.Excluded) > 0 {
+		var ex []map[string]any
+		for _, e := range c.Excluded {
+			ex = append(ex, map[string]any{"bearing_deg": round(e.BearingDeg, 2), "reason": e.Reason})
+		}
+		m["excluded"] = ex
+	}
+	if len(c.Warnings) > 0 {
+		m["warnings"] = c.Warnings
+	}
+	return json.Marshal(m)
+}

@@ -1,0 +1,137 @@
+package survey
+
+import (
+	"encoding/json"
+	"fmt"
+	"io"
+	"math"
+	"strings"
+	"time"
+)
+
+// burstLine is the stable JSON form of a burst (`scan --json`).
+type burstLine struct {
+	Type            string   `json:"type"`
+	Index           int      `json:"index"`
+	StartS          float64  `json:"start_s"`
+	EndS            float64  `json:"end_s"`
+	Start           string   `json:"start,omitempty"`
+	End             string   `json:"end,omitempty"`
+	OffsetHz        float64  `json:"offset_hz"`
+	FreqHz          *float64 `json:"freq_hz,omitempty"`
+	LevelDB         float64  `json:"level_dbfs"`
+	PeakDB          float64  `json:"peak_dbfs"`
+	NoiseDB         float64  `json:"noise_dbfs"`
+	SNRDB           *float64 `json:"snr_db"`
+	Clipped         float64  `json:"clipped"`
+	Mode            string   `json:"mode,omitempty"`
+	Text            string   `json:"text"`
+	Ident           string   `json:"ident"`
+	IdentConfidence float64  `json:"ident_confidence"`
+	IdentMethod     string   `json:"ident_method,omitempty"`
+	ToneHz          float64  `json:"tone_hz"`
+	WPM             float64  `json:"wpm,omitempty"`
+	Transmitter     string   `json:"transmitter"`
+	Warnings        []string `json:"warnings,omitempty"`
+}
+
+func round(v float64, digits int) float64 {
+	p := math.Pow(10, float64(digits))
+	return math.Round(v*p) / p
+}
+
+func rfc3339(t time.Time) string {
+	if t.IsZero() {
+		return ""
+	}
+	return t.UTC().Format("2006-01-02T15:04:05.000Z07:00")
+}
+
+// MarshalJSON writes the record as a `"type":"burst"` line.
+func (r Record) MarshalJSON() ([]byte, error) {
+	l := burstLine{
+		Type: "burst", Index: r.Index,
+		StartS: round(r.StartS, 4), EndS: round(r.EndS, 4),
+		Start: rfc3339(r.Start), End: rfc3339(r.End),
+		OffsetHz: round(r.OffsetHz, 1),
+		LevelDB:  round(r.LevelDB, 2), PeakDB: round(r.PeakDB, 2), NoiseDB: round(r.NoiseDB, 2),
+		Clipped: round(r.Clipped, 6), Mode: r.Mode, Text: r.Text, Ident: r.Ident,
+		IdentConfidence: round(r.IdentConfidence, 3), IdentMethod: r.IdentMethod,
+		ToneHz: round(r.ToneHz, 1), WPM: round(r.WPM, 1), Transmitter: r.Transmitter,
+		Warnings: r.Warnings,
+	}
+	if r.FreqHz != 0 {
+		f := round(r.FreqHz, 1)
+		l.FreqHz = &f
+	}
+	if !math.IsInf(r.SNRDB, 0) && !math.IsNaN(r.SNRDB) {
+		s := round(r.SNRDB, 2)
+		l.SNRDB = &s
+	}
+	return json.Marshal(l)
+}
+
+// WriteTable prints the records as a table for people.
+func (res *Result) WriteTable(w io.Writer) error {
+	tw := &errWriter{w: w}
+	fmt.Fprintf(tw, "%-4s %-12s %7s %10s %8s %6s %5s %-12s %5s %-4s %s\n",
+		"#", "start", "len s", "offset Hz", "dBFS", "SNR", "tone", "ident", "conf", "tx", "text")
+	for _, r := range res.Records {
+		text := r.Text
+		if len(text) > 40 {
+			text = text[:37] + "..."
+		}
+		snr := "  -inf"
+		if !math.IsInf(r.SNRDB, 0) {
+			snr = fmt.Sprintf("%6.1f", r.SNRDB)
+		}
+		clip := ""
+		if r.Clipped > 0.001 {
+			clip = fmt.Sprintf("  [clipped %.1f%%]", 100*r.Clipped)
+		}
+		fmt.Fprintf(tw, "%-4d %-12s %7.2f %10.1f %8.1f %s %5.0f %-12s %5.2f %-4s %s%s\n",
+			r.Index, StartTime(r.Start, r.StartS), r.EndS-r.StartS, r.OffsetHz, r.LevelDB, snr,
+			r.ToneHz, r.Ident, r.IdentConfidence, r.Transmitter, text, clip)
+	}
+	for _, f := range res.Clusters.Flags {
+		fmt.Fprintf(tw, "note: %s\n", f.Message)
+	}
+	return tw.err
+}
+
+// SummaryLine is the one-line summary printed after a scan.
+func (res *Result) SummaryLine(elapsed time.Duration) string {
+	s := res.Summary
+	var b strings.Builder
+	fmt.Fprintf(&b, "%d bursts in %.1f s of %s", s.Bursts, s.DurationS, res.Info.Name)
+	if s.FreqHz != 0 {
+		fmt.Fprintf(&b, " at %.4f MHz", s.FreqHz/1e6)
+	} else {
+		fmt.Fprintf(&b, " at offset %+.0f Hz", s.OffsetHz)
+	}
+	fmt.Fprintf(&b, "; noise floor %.1f dBFS; %d transmitters", s.NoiseDB, len(res.Clusters.Clusters))
+	if s.ClippedSamples > 0 {
+		fmt.Fprintf(&b, "; %d clipped samples", s.ClippedSamples)
+	}
+	if elapsed > 0 && s.DurationS > 0 {
+		fmt.Fprintf(&b, "; %.0f× real time", s.DurationS/elapsed.Seconds())
+	}
+	if s.InBurstAtStart {
+		b.WriteString("; the recording starts inside a transmission (its first burst may be cut)")
+	}
+	return b.String()
+}
+
+type errWriter struct {
+	w   io.Writer
+	err error
+}
+
+func (e *errWriter) Write(p []byte) (int, error) {
+	if e.err != nil {
+		return 0, e.err
+	}
+	n, err := e.w.Write(p)
+	e.err = err
+	return n, err
+}

@@ -1,0 +1,224 @@
+// Package survey runs the whole listening job on one recording: the
+// receiver finds the bursts, ident reads their Morse identifiers and
+// fingerprints and groups them into transmitters. It wires packages
+// together; the algorithms live in receiver and ident.
+package survey
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"sort"
+	"strings"
+	"time"
+
+	"nullseek/ident"
+	"nullseek/receiver"
+	"nullseek/sdr"
+)
+
+// Options configure a survey.
+type Options struct {
+	Receiver receiver.Config
+	// Mode is how the identifiers are keyed (auto by default).
+	Mode ident.Mode
+	// IDs is the event's list of expected identifiers (may be empty).
+	IDs []string
+	// NoIdent skips Morse decoding (levels and timing only).
+	NoIdent bool
+	// Cluster tunes the grouping of bursts into transmitters.
+	Cluster ident.ClusterOptions
+}
+
+// Record is one burst with what identification found. Its JSON form is a
+// `scan --json` burst line; field names are stable.
+type Record struct {
+	receiver.Burst
+	Mode            string   `json:"mode,omitempty"`
+	Text            string   `json:"text"`
+	Ident           string   `json:"ident"`
+	IdentConfidence float64  `json:"ident_confidence"`
+	IdentMethod     string   `json:"ident_method,omitempty"`
+	ToneHz          float64  `json:"tone_hz"`
+	WPM             float64  `json:"wpm,omitempty"`
+	Transmitter     string   `json:"transmitter"`
+	Warnings        []string `json:"warnings,omitempty"`
+}
+
+// Result is a finished survey.
+type Result struct {
+	Info     sdr.Info
+	Summary  receiver.Summary
+	Records  []Record
+	Clusters ident.ClusterResult
+}
+
+// Run surveys src. progress (may be nil) gets the input samples consumed.
+func Run(ctx context.Context, src sdr.Source, opts Options, progress func(int64)) (*Result, error) {
+	info := src.Info()
+	var matcher *ident.Matcher
+	if len(opts.IDs) > 0 {
+		m, err := ident.NewMatcher(opts.IDs)
+		if err != nil {
+			return nil, err
+		}
+		matcher = m
+	}
+	rc := opts.Receiver
+	rc.KeepAudio = !opts.NoIdent
+	if opts.Mode == ident.ModeCW && rc.MergeGapS == 0 {
+		rc.MergeGapS = 2.5 // word gaps of keyed carrier at 5 WPM stay inside one burst
+	}
+	sc, err := receiver.NewScanner(info, rc)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", info.Name, err)
+	}
+	res := &Result{Info: info}
+	emit := func(b *receiver.Burst) error {
+		r := Record{Burst: *b, Ident: ident.UnknownIdent}
+		if !opts.NoIdent {
+			identify(&r, b, opts.Mode, matcher)
+		}
+		// The audio has done its job; keep the record small.
+		r.FMAudio, r.AMAudio = nil, nil
+		res.Records = append(res.Records, r)
+		return nil
+	}
+	sum, err := sc.Run(ctx, src, emit, progress)
+	res.Summary = sum
+	if err != nil {
+		return res, fmt.Errorf("%s: %w", info.Name, err)
+	}
+	if len(res.Records) > 0 && !opts.NoIdent {
+		obs := Observations(res.Records)
+		cr, err := ident.ClusterTransmitters(obs, opts.Cluster)
+		if err != nil {
+			return res, err
+		}
+		res.Clusters = cr
+		for i := range res.Records {
+			res.Records[i].Transmitter = cr.Labels[i]
+			if !known(res.Records[i].Ident) && known(cr.Idents[i]) {
+				res.Records[i].Ident = cr.Idents[i]
+				res.Records[i].IdentMethod = "fingerprint"
+				for _, c := range cr.Clusters {
+					if c.Label == cr.Labels[i] {
+						res.Records[i].IdentConfidence = c.IdentShare
+					}
+				}
+				res.Records[i].Warnings = append(res.Records[i].Warnings,
+					"identifier not readable; attributed to "+cr.Labels[i]+" by carrier offset and tone")
+			}
+		}
+	}
+	return res, nil
+}
+
+func known(id string) bool { return id != "" && !strings.EqualFold(id, ident.UnknownIdent) }
+
+// Observations turns records into ident's per-burst observations.
+func Observations(recs []Record) []ident.Observation {
+	obs := make([]ident.Observation, len(recs))
+	for i, r := range recs {
+		obs[i] = ident.Observation{
+			Index: r.Index, StartS: r.StartS, EndS: r.EndS, Start: r.Start,
+			OffsetHz: r.OffsetHz, ToneHz: r.ToneHz, LevelDB: r.LevelDB,
+			Ident: r.Ident, IdentConfidence: r.IdentConfidence,
+		}
+	}
+	return obs
+}
+
+// identify decodes the burst's Morse and matches it to the expected IDs.
+func identify(r *Record, b *receiver.Burst, mode ident.Mode, m *ident.Matcher) {
+	rate := b.ChannelRateHz
+	power, powerRate := levelPower(b)
+	if mode == ident.ModeAuto {
+		mode = ident.DetectMode(b.FMAudio, b.AMAudio, rate, power, powerRate)
+	}
+	r.Mode = mode.String()
+	var d ident.Decoded
+	var err error
+	opts := ident.DecodeOptions{Mode: mode}
+	switch mode {
+	case ident.ModeCW:
+		d, err = ident.DecodeKeyed(power, powerRate, opts)
+	case ident.ModeAM:
+		d, err = ident.DecodeTone(b.AMAudio, rate, opts)
+	default:
+		d, err = ident.DecodeTone(b.FMAudio, rate, opts)
+	}
+	if err != nil {
+		r.Warnings = append(r.Warnings, "no identifier decoded: "+err.Error())
+		return
+	}
+	r.Text = d.Text
+	r.ToneHz = d.ToneHz
+	r.WPM = d.WPM
+	r.Warnings = append(r.Warnings, d.Warnings...)
+	if m != nil {
+		mt := m.Match(d)
+		r.Ident, r.IdentConfidence, r.IdentMethod = mt.ID, mt.Confidence, mt.Method
+		r.Warnings = append(r.Warnings, mt.Warnings...)
+		return
+	}
+	r.Ident, r.IdentConfidence, r.IdentMethod = repeatedWord(d)
+}
+
+// repeatedWord names a burst without an ID list: the word the beacon sent
+// most often, when it was sent at least twice and read with confidence.
+func repeatedWord(d ident.Decoded) (string, float64, string) {
+	words := strings.Fields(d.Text)
+	count := map[string]int{}
+	for _, w := range words {
+		if len([]rune(w)) >= 3 && !strings.Contains(w, "*") {
+			count[w]++
+		}
+	}
+	best, n := "", 0
+	keys := make([]string, 0, len(count))
+	for k := range count {
+		keys = append(keys, k)
+	}
+	sort.Strings(keys)
+	for _, k := range keys {
+		if count[k] > n {
+			best, n = k, count[k]
+		}
+	}
+	if n < 2 {
+		return ident.UnknownIdent, 0, ""
+	}
+	var conf float64
+	var nc int
+	for _, c := range d.Chars {
+		conf += c.Confidence
+		nc++
+	}
+	if nc > 0 {
+		conf /= float64(nc)
+	}
+	share := float64(n) / float64(len(words))
+	return best, math.Min(1, conf*share), "repeated-text"
+}
+
+// levelPower returns the burst's power track as linear power.
+func levelPower(b *receiver.Burst) ([]float32, float64) {
+	if len(b.Level) < 2 {
+		return nil, 0
+	}
+	p := make([]float32, len(b.Level))
+	for i, l := range b.Level {
+		p[i] = float32(math.Pow(10, l.LevelDB/10))
+	}
+	rate := float64(len(b.Level)-1) / (b.Level[len(b.Level)-1].T - b.Level[0].T)
+	return p, rate
+}
+
+// StartTime formats a burst time for tables: UTC clock time when known.
+func StartTime(t time.Time, s float64) string {
+	if t.IsZero() {
+		return fmt.Sprintf("%9.3f s", s)
+	}
+	return t.UTC().Format("15:04:05.000")
+}
