@@ -144,9 +144,9 @@ func TestKMLParses(t *testing.T) {
 	var doc struct {
 		XMLName    xml.Name
 		Placemarks []struct {
-			Name   string   `xml:"name"`
-			Point  string   `xml:"Point>coordinates"`
-			Ring   string   `xml:"Polygon>outerBoundaryIs>LinearRing>coordinates"`
+			Name  string `xml:"name"`
+			Point string `xml:"Point>coordinates"`
+			Ring  string `xml:"Polygon>outerBoundaryIs>LinearRing>coordinates"`
 		} `xml:"Document>Placemark"`
 	}
 	if err := xml.Unmarshal(data, &doc); err != nil {

@@ -39,7 +39,7 @@ func TestGridCellAt(t *testing.T) {
 	}{
 		{"cell=250 rotation=0 cols=A-L rows=1-9", 600, -300, "C2", true},
 		{"cell=250 rotation=0 cols=A-L rows=1-9 rowdir=up", 600, 300, "C2", true},
-		{"cell=250 rotation=90 cols=A-L rows=1-9", -300, -600, "C2", true},       // up = east, right = south
+		{"cell=250 rotation=90 cols=A-L rows=1-9", -300, -600, "C2", true}, // up = east, right = south
 		{"cell=250 rotation=-30 cols=C-H rows=4-8", 600*math.Cos(-30*deg) - 300*math.Sin(-30*deg), -600*math.Sin(-30*deg) - 300*math.Cos(-30*deg), "E5", true},
 		{"cell=250 rotation=0 cols=A-L rows=1-9", -10, -300, "", false},
 		{"cell=250 rotation=0 cols=A-L rows=1-9", 600, 10, "", false},
