@@ -283,8 +283,9 @@ func (g *Grid) String() string {
 
 // AutoGrid makes a north-up grid with a round cell size (1, 2, 2.5 or 5
 // times a power of ten metres) that covers the given points with a margin
-// of one cell, with at most maxCells columns and rows (default 16 when
-// maxCells < 2). It is used when the user gives no event grid.
+// of one cell, with about maxCells columns and rows (a few more at most;
+// default 16 when maxCells < 2). It is used when the user gives no event
+// grid.
 func AutoGrid(lats, lons []float64, maxCells int) *Grid {
 	if maxCells < 2 {
 		maxCells = 16
