@@ -252,9 +252,9 @@ type schedBuilder struct {
 	edgeEnd bool // plan.EndS is the real capture end
 	ids     []string
 	bursts  map[string][]schedBurst
-	maxOnS  float64 // longest median on-time of any transmitter
-	guessS  float64 // period used to number cycles
-	nominal bool    // the nominal period numbers the cycles
+	onMedS  map[string]float64 // median on-time per transmitter (0 if none)
+	guessS  float64            // period used to number cycles
+	nominal bool               // the nominal period numbers the cycles
 	txs     []SlotTransmitter
 }
 
@@ -319,6 +319,7 @@ func (b *schedBuilder) group() {
 	}
 	guard, endS := b.opts.EdgeGuardS, b.plan.EndS
 	b.bursts = map[string][]schedBurst{}
+	b.onMedS = map[string]float64{}
 	for _, id := range b.ids {
 		idx := groups[id]
 		slices.SortStableFunc(idx, func(x, y int) int { return cmp.Compare(b.obs[x].StartS, b.obs[y].StartS) })
@@ -355,7 +356,7 @@ func (b *schedBuilder) group() {
 		}
 		b.bursts[id] = merged
 		if on := schedOnTimes(merged, false); len(on) > 0 {
-			b.maxOnS = max(b.maxOnS, fpMedian(on))
+			b.onMedS[id] = fpMedian(on)
 		}
 	}
 }
@@ -380,11 +381,14 @@ func schedOnTimes(bs []schedBurst, fallback bool) []float64 {
 // fit guesses the common period and fits each transmitter's starts.
 func (b *schedBuilder) fit() {
 	jit := b.opts.StartJitterS
-	var all []float64
+	// A period is longer than the bursts: the common one than the typical
+	// transmitter's, each transmitter's own than its own.
+	var all, ons []float64
 	for _, id := range b.ids {
 		all = append(all, schedDiffs(b.bursts[id])...)
+		ons = append(ons, b.onMedS[id])
 	}
-	guess, score := schedGuessPeriod(all, b.maxOnS, jit)
+	guess, score := schedGuessPeriod(all, fpMedian(ons), jit)
 	if nom := b.opts.NominalPeriodS; nom > 0 {
 		nomScore := schedScore(all, nom, jit)
 		if len(all) == 0 || nomScore >= score {
@@ -416,7 +420,7 @@ func (b *schedBuilder) fit() {
 		// The common guess unless it fails to explain this transmitter.
 		pg := guess
 		if d := schedDiffs(bs); len(d) > 0 && (math.IsNaN(pg) || schedScore(d, pg, jit) < len(d)) {
-			if own, _ := schedGuessPeriod(d, b.maxOnS, jit); !math.IsNaN(own) {
+			if own, _ := schedGuessPeriod(d, b.onMedS[id], jit); !math.IsNaN(own) {
 				pg = own
 			}
 		}

@@ -308,6 +308,11 @@ func TestScheduleRobustness(t *testing.T) {
 			o[8].EndS += 2.5
 			return o
 		}, ScheduleOptions{}, "dropped", 7},
+		{"stuck_carrier_elsewhere", func(o []Observation) []Observation {
+			// Another transmitter keyed for 400 s once must not stop the
+			// 300 s cycle from being found (period > own on-time only).
+			return append(o, Observation{StartS: 1000, EndS: 1400, Ident: "N0CALL/9"})
+		}, ScheduleOptions{}, "", 8},
 		{"wrong_nominal", func(o []Observation) []Observation { return o }, ScheduleOptions{NominalPeriodS: 360}, "nominal period", 8},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
