@@ -416,6 +416,7 @@ func mcEstimateUnit(marks, spaces []float64, minWPM, maxWPM float64) (u, delta f
 	if !(u > 0.5*best && u < 2*best) {
 		u, delta = best, 0
 	}
+	u = math.Max(uMin, math.Min(uMax, u)) // stay in the speed range
 	delta = math.Max(-0.4*u, math.Min(0.4*u, delta))
 	return u, delta
 }

@@ -71,6 +71,9 @@ func NewMatcher(ids []string) (*Matcher, error) {
 		if id == "" {
 			return nil, fmt.Errorf("identifier %d is empty: %w", i+1, ErrBadIDList)
 		}
+		if strings.ContainsFunc(id, func(r rune) bool { return r < 0x20 || r == 0x7f }) {
+			return nil, fmt.Errorf("identifier %q contains a control character or line break: %w", id, ErrBadIDList)
+		}
 		keys, err := splitMorseText(id)
 		if err != nil {
 			return nil, fmt.Errorf("identifier %q: %w", id, err)
@@ -408,6 +411,24 @@ func (m *Matcher) Match(d Decoded) Match {
 		return res
 	}
 
+	// A clean decode that fits no listed ID is an unlisted ID: the
+	// template method is only for text too garbled to read.
+	meanConf, nUnknown := 0.0, 0
+	for _, c := range chars {
+		meanConf += c.Confidence
+		if c.Text == mcUnknownChar {
+			nUnknown++
+		}
+	}
+	if len(chars) > 0 {
+		meanConf /= float64(len(chars))
+	}
+	if len(chars) >= (minLen*3+4)/5 && meanConf >= 0.6 && float64(nUnknown) < 0.1*float64(len(chars)) {
+		res.Method = "text"
+		res.Warnings = append(res.Warnings, fmt.Sprintf("decoded text %q fits no listed identifier well enough (best %s at %.2f)", d.Text, m.ids[bt], pt[bt]))
+		return res
+	}
+
 	// Template method.
 	pm, copies, fit, warn := m.templateScores(d)
 	if warn != "" {
@@ -427,15 +448,21 @@ func (m *Matcher) Match(d Decoded) Match {
 	b, _ := mcBestTwo(pm)
 	res.Method = "template"
 	switch {
-	case fit < 0.5:
+	case fit < mcMinTemplateFit:
 		res.Warnings = append(res.Warnings, fmt.Sprintf("no listed identifier fits the keying (best %s explains %.0f %% of it)", m.ids[b], 100*fit))
 	case pm[b] < m.MinConfidence:
 		res.Warnings = append(res.Warnings, fmt.Sprintf("best guess %s at %.2f is below %.2f", m.ids[b], pm[b], m.MinConfidence))
 	default:
+		res.Warnings = append(res.Warnings, fmt.Sprintf("template fit %.0f %% of the decoded keying", 100*fit))
 		res.ID, res.Confidence = m.ids[b], pm[b]
 	}
 	return res
 }
+
+// mcMinTemplateFit is the least share of the decoded keying's own score
+// (Σ(x − ½) over its key-down time) that the best template must reach; below
+// it the burst holds something else (an unlisted ID, or noise).
+const mcMinTemplateFit = 0.9
 
 // templateScores runs the template method. It returns the posterior share
 // of each ID, the copies fitted, how much of the decoded keying's own
@@ -523,13 +550,6 @@ func (m *Matcher) templateScores(d Decoded) (post []float64, copies []int, fit f
 	} else {
 		fit = 0
 	}
-	// The "other" hypothesis: the decoder's own keying, less 5 nats for
-	// each copy it would have to be (its freedom to fit noise).
-	nc := 1
-	for _, c := range copies {
-		nc = max(nc, c)
-	}
-	ll = append(ll, decScore/(sigma2*corr)-5*float64(nc))
 	if d.DotS > 0 && float64(n)/d.EnvRate < 0.6*durU*d.DotS {
 		warn = fmt.Sprintf("burst (%.1f s) too short to hold an identifier (%.1f s at %.0f WPM)", float64(n)/d.EnvRate, durU*d.DotS, d.WPM)
 		return nil, nil, 0, warn

@@ -18,9 +18,9 @@ const (
 	// MinToneHz and MaxToneHz bound the pitch search of FindTone.
 	MinToneHz = 300.0
 	MaxToneHz = 2000.0
-	// toneMinSNRDB is the least peak-to-local-noise ratio (dB, per bin of
-	// the averaged spectrum) that FindTone accepts as a tone.
-	toneMinSNRDB = 8.0
+	// toneMinSNRDB is the least peak-to-local-noise ratio (dB, 3 bins of a
+	// long averaged spectrum) that FindTone accepts as a tone.
+	toneMinSNRDB = 5.0
 )
 
 // toneSpectrum is a Welch (Hann window, 50 % overlap) power spectrum plan.
@@ -128,7 +128,7 @@ func (s *toneSpectrum) peak(loHz, hiHz float64) (freqHz, snrDB float64) {
 // nearby bins scaled to 3 bins; a keyed tone counts its key-up time as
 // absent, so snrDB is lower than the key-down SNR. It returns an error
 // wrapping ErrNoTone when the audio is shorter than 0.1 s or no peak
-// stands 8 dB above the noise.
+// stands 5 + 10/√(segments averaged) dB above the noise.
 func FindTone(audio []float32, rate float64) (toneHz, snrDB float64, err error) {
 	if !(rate >= 2*MinToneHz) || math.IsInf(rate, 0) {
 		return 0, 0, fmt.Errorf("find tone: sample rate %g Hz too low", rate)
@@ -139,8 +139,11 @@ func FindTone(audio []float32, rate float64) (toneHz, snrDB float64, err error) 
 	s := newToneSpectrum(rate, len(audio))
 	s.average(audio)
 	f, snr := s.peak(MinToneHz, math.Min(MaxToneHz, 0.45*rate))
-	if math.IsNaN(snr) || snr < toneMinSNRDB {
-		return f, snr, fmt.Errorf("find tone: best peak %.0f Hz only %.1f dB above noise: %w", f, snr, ErrNoTone)
+	// The noise of an averaged spectrum shrinks as 1/√(segments): demand
+	// more of a short recording (15 dB for one segment, 6 dB for 100).
+	need := toneMinSNRDB + 10/math.Sqrt(float64(s.nAvgd))
+	if math.IsNaN(snr) || snr < need {
+		return f, snr, fmt.Errorf("find tone: best peak %.0f Hz only %.1f dB above noise (need %.1f): %w", f, snr, need, ErrNoTone)
 	}
 	return f, snr, nil
 }
