@@ -134,10 +134,10 @@ func TestAccuracyVsCRB(t *testing.T) {
 			in += r.cover95 * float64(r.trials-r.refused)
 			n += float64(r.trials - r.refused)
 		}
-		// 95% interval coverage pooled over SNR (binomial sd ≈ 0.5% at 1600 trials).
-		cov := in / n
-		if cov < 0.92 || cov > 0.98 {
-			t.Errorf("%s: ±1.96σ held the truth in %.1f%% of trials, want 92–98%%", pc.name, 100*cov)
+		// 95% interval coverage pooled over SNR: 92–98% at the default 1600
+		// trials (3 binomial sd ≈ 1.6%); widened to ±3 sd under -short.
+		if lo, hi := coverBand(n); in/n < lo || in/n > hi {
+			t.Errorf("%s: ±1.96σ held the truth in %.1f%% of trials, want %.1f–%.1f%%", pc.name, 100*in/n, 100*lo, 100*hi)
 		}
 	}
 }
@@ -170,26 +170,40 @@ func TestAccuracyDBModel(t *testing.T) {
 		if ratio > 1.3 || ratio < 0.85 || r.refused > 0 {
 			t.Errorf("%s: RMS/CRB %.2f (refused %d)", c.name, ratio, r.refused)
 		}
-		if r.cover95 < 0.92 || r.cover95 > 0.98 {
-			t.Errorf("%s: cover95 %.1f%%", c.name, 100*r.cover95)
+		if lo, hi := coverBand(float64(r.trials)); r.cover95 < lo || r.cover95 > hi {
+			t.Errorf("%s: cover95 %.1f%%, want %.1f–%.1f%%", c.name, 100*r.cover95, 100*lo, 100*hi)
 		}
 	}
 }
 
-// BenchmarkAccuracyVsCRB prints RMS error against the bound across SNR for
-// each pattern (thermal model, M = 100, 720 readings per turn).
+// coverBand is the accepted band for the fraction of 95% intervals holding
+// the truth in n trials: 92–98%, or ±3 binomial standard deviations when
+// that is wider (few trials under -short).
+func coverBand(n float64) (lo, hi float64) {
+	tol := math.Max(0.03, 3*math.Sqrt(0.95*0.05/n))
+	return 0.95 - tol, math.Min(0.95+tol, 1)
+}
+
+// BenchmarkAccuracyVsCRB reports RMS error against the bound across SNR for
+// each pattern (thermal model, M = 32, 180 readings per turn, 200 trials per
+// cell) as metrics: rms_deg, crb_deg, ratio, cover95_pct.
 func BenchmarkAccuracyVsCRB(b *testing.B) {
-	for i := 0; i < b.N; i++ {
-		for _, pc := range accPatterns {
-			p, err := pc.pattern()
-			if err != nil {
-				b.Fatal(err)
-			}
-			for _, snr := range []float64{5, 10, 15, 20, 25, 30} {
-				r := runThermal(p, snr, 200, uint64(snr)+3)
-				b.Logf("%s", fmt.Sprintf("%-7s SNR %2.0f dB  RMS %7.3f°  CRB %7.3f°  ratio %.2f  cover95 %5.1f%%",
-					pc.name, snr, r.rmsDeg, r.crbDeg, r.rmsDeg/r.crbDeg, 100*r.cover95))
-			}
+	for _, pc := range accPatterns {
+		p, err := pc.pattern()
+		if err != nil {
+			b.Fatal(err)
+		}
+		for _, snr := range []float64{5, 10, 15, 20, 25, 30} {
+			b.Run(fmt.Sprintf("%s/snr%02.0f", pc.name, snr), func(b *testing.B) {
+				var r accResult
+				for i := 0; i < b.N; i++ {
+					r = runThermal(p, snr, 200, uint64(snr)+3)
+				}
+				b.ReportMetric(r.rmsDeg, "rms_deg")
+				b.ReportMetric(r.crbDeg, "crb_deg")
+				b.ReportMetric(r.rmsDeg/r.crbDeg, "ratio")
+				b.ReportMetric(100*r.cover95, "cover95_pct")
+			})
 		}
 	}
 }
