@@ -18,7 +18,9 @@ type LagOptions struct {
 // Lag sign convention used by EstimateLag and ShiftLag: lagS > 0 means the
 // level readings are late with respect to the headings — the level stamped
 // T was produced while the antenna pointed at heading(T − lagS). (A heading
-// sensor that reports late gives a negative lag.)
+// sensor that reports late gives a negative lag. heading.Track.LagS has the
+// opposite sign — positive means the compass is late — so a lag found here is
+// removed with track.WithLag(−lagS), or with ShiftLag.)
 //
 // Derivation: with the antenna turning at ω deg/s, heading(T − lag) ≈
 // heading(T) − ω·lag, so the level at T is c + G(θ − heading(T) + ω·lag) and a
