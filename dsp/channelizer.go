@@ -441,7 +441,6 @@ func dotSym(half []float32, w []complex64) complex64 {
 	front := w[:p]
 	back := w[k-p:]
 	back = back[:len(front)]
-	half = half[:len(half)]
 	var ar, ai, br, bi float32
 	i := 0
 	for ; i+1 < p; i += 2 {
