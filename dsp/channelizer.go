@@ -21,6 +21,9 @@ const (
 	// chanMixCost is the mixer's cost in tap pairs per input sample (the
 	// same for every plan; kept for clarity of the cost model).
 	chanMixCost = 1.0
+	// chanMaxDecimation and chanMaxTaps bound the plan (and its memory).
+	chanMaxDecimation = 1 << 16
+	chanMaxTaps       = 1 << 16
 )
 
 // Channelizer is a frequency-translating multi-stage decimator: it moves the
@@ -88,7 +91,8 @@ type ChannelStage struct {
 // (2.4e6 and 48e3 give D = 50). Errors: non-positive or non-finite
 // arguments; outRateTarget > inRate; stopHz ≤ passHz; passHz ≥ outRate/2;
 // stopHz > outRate − passHz (anything between would alias into the
-// passband); |offsetHz| + passHz > inRate/2.
+// passband); |offsetHz| + passHz > inRate/2; D above 65536 or a stage
+// longer than 65536 taps (transition too narrow for the rate).
 func NewChannelizer(inRate, offsetHz, outRateTarget, passHz, stopHz float64) (*Channelizer, error) {
 	for _, v := range []float64{inRate, offsetHz, outRateTarget, passHz, stopHz} {
 		if math.IsNaN(v) || math.IsInf(v, 0) {
@@ -118,7 +122,18 @@ func NewChannelizer(inRate, offsetHz, outRateTarget, passHz, stopHz float64) (*C
 	if math.Abs(offsetHz)+passHz > inRate/2 {
 		return nil, fmt.Errorf("channelizer: channel at %+g Hz with ±%g Hz passband does not fit in ±%g Hz", offsetHz, passHz, inRate/2)
 	}
+	if dec > chanMaxDecimation {
+		return nil, fmt.Errorf("channelizer: decimation %d (input %g Hz to %g Hz) exceeds %d", dec, inRate, outRateTarget, chanMaxDecimation)
+	}
 	plan := planChannel(inRate, dec, passHz, stopHz)
+	if len(plan) == 0 {
+		return nil, fmt.Errorf("channelizer: no filter plan for %g Hz → %g Hz with pass %g Hz, stop %g Hz", inRate, outRate, passHz, stopHz)
+	}
+	for _, s := range plan {
+		if s.Taps > chanMaxTaps {
+			return nil, fmt.Errorf("channelizer: transition %g–%g Hz is too narrow at %g Hz (a %d-tap stage; at most %d): widen it or lower the input rate", s.PassHz, s.StopHz, s.InRateHz, s.Taps, chanMaxTaps)
+		}
+	}
 	c := &Channelizer{inRate: inRate, outRate: outRate, offsetHz: offsetHz, passHz: passHz, stopHz: stopHz, dec: dec}
 	c.build(plan)
 	return c, nil
@@ -199,8 +214,8 @@ func stagesFor(inRate float64, factors []int, passHz, stopHz, outRate float64, c
 				stop = stopHz
 			}
 		}
-		if f == 1 {
-			stop = stopHz
+		if f == 1 { // no rate change: only the band edge matters
+			stop = math.Min(stopHz, rate/2)
 		}
 		if stop <= passHz || stop >= rate/2+passHz {
 			return nil, false

@@ -289,3 +289,32 @@ func TestChannelizerNoAllocs(t *testing.T) {
 		t.Errorf("complex channelizer allocates %.1f times per block", allocs)
 	}
 }
+
+// Bad arguments give an error, never a panic, and a built channelizer
+// processes a block.
+func FuzzNewChannelizer(f *testing.F) {
+	f.Add(2.4e6, 100e3, 48e3, 8e3, 12e3)
+	f.Add(2.048e6, -1e6, 48e3, 8e3, 40e3)
+	f.Add(1e6, 0.0, 1e6, 1e3, 2e3)
+	f.Add(1e9, 0.0, 1.0, 0.1, 0.2)
+	f.Add(-1.0, 0.0, 0.0, 0.0, 0.0)
+	f.Fuzz(func(t *testing.T, inRate, offset, target, pass, stop float64) {
+		ch, err := NewChannelizer(inRate, offset, target, pass, stop)
+		if err != nil {
+			return
+		}
+		if ch.Decimation() < 1 || ch.OutRate() <= 0 || ch.DelayIn() < 0 {
+			t.Fatalf("bad plan: D=%d rate=%g delay=%g", ch.Decimation(), ch.OutRate(), ch.DelayIn())
+		}
+		b := make([]byte, 2*min(ch.Decimation()*8, 100000))
+		for i := range b {
+			b[i] = byte(i * 7)
+		}
+		out := ch.ProcessCU8(nil, b)
+		for _, v := range out {
+			if v != v {
+				t.Fatal("NaN output")
+			}
+		}
+	})
+}
