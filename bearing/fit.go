@@ -116,6 +116,9 @@ type Estimate struct {
 	// BootstrapSigmaDeg is the RMS spread of residual-bootstrap refits,
 	// 0 when the bootstrap was not run.
 	BootstrapSigmaDeg float64
+	// CorrelatedSigmaDeg is the 1-sigma that allows for residuals correlated
+	// with heading (see correlatedSigma); SigmaDeg is never below it.
+	CorrelatedSigmaDeg float64
 	// Warnings lists conditions that make the bearing less trustworthy.
 	Warnings []string
 }
@@ -552,15 +555,17 @@ func Fit(points []Point, p Pattern, opts FitOptions) (Estimate, error) {
 		return Estimate{}, fmt.Errorf("fit bearing: %w: F = %.1f against a constant level (need 30)", ErrNoVariation, fstat)
 	}
 	fisherSigma := math.Sqrt(s2 * a22 / det)
+	hacSigma := correlatedSigma(s, a11, a12, a22, cov >= 359)
 
 	est := Estimate{
-		BearingDeg:     theta,
-		FisherSigmaDeg: fisherSigma,
-		SigmaDeg:       fisherSigma,
-		CoverageDeg:    cov,
-		Points:         len(pts),
-		Mode:           p.Mode,
-		Noise:          o.Noise,
+		BearingDeg:         theta,
+		FisherSigmaDeg:     fisherSigma,
+		SigmaDeg:           math.Max(fisherSigma, hacSigma),
+		CorrelatedSigmaDeg: hacSigma,
+		CoverageDeg:        cov,
+		Points:             len(pts),
+		Mode:               p.Mode,
+		Noise:              o.Noise,
 	}
 	if o.Noise == NoiseDB {
 		est.LevelDB = c
@@ -629,6 +634,9 @@ func Fit(points []Point, p Pattern, opts FitOptions) (Estimate, error) {
 			}
 		}
 	}
+	if hacSigma > 1.5*fisherSigma {
+		est.Warnings = append(est.Warnings, fmt.Sprintf("multipath-like residuals: sigma %.2f° widened to %.2f°", fisherSigma, hacSigma))
+	}
 	if w := trendWarning(pts, m, o.Noise, theta, c, floorDB, s2); w != "" {
 		est.Warnings = append(est.Warnings, w)
 	}
@@ -642,7 +650,7 @@ func Fit(points []Point, p Pattern, opts FitOptions) (Estimate, error) {
 		bs, fs := est.BootstrapSigmaDeg, est.FisherSigmaDeg
 		if bs > 2*fs || fs > 2*bs {
 			est.Warnings = append(est.Warnings, fmt.Sprintf("uncertainty: bootstrap %.2f° and Fisher %.2f° disagree; reporting the larger", bs, fs))
-			est.SigmaDeg = math.Max(bs, fs)
+			est.SigmaDeg = math.Max(est.SigmaDeg, bs)
 		}
 	}
 	return est, nil
@@ -660,6 +668,55 @@ func (e Estimate) FittedLevelDB(p Pattern, headingDeg float64) float64 {
 		return levelAt(m, NoiseThermal, e.BearingDeg, math.Pow(10, (e.LevelDB-e.NoiseFloorDB)/10), e.NoiseFloorDB, headingDeg)
 	}
 	return levelAt(m, NoiseDB, e.BearingDeg, e.LevelDB, 0, headingDeg)
+}
+
+// correlatedSigma is the bearing's 1-sigma from a sandwich (Newey–West,
+// Bartlett weights) estimate of the variance of the efficient score for θ
+// (c profiled out), over bins ordered by heading (circularly when the sweep
+// closes the circle), with a bandwidth of a quarter of the bins. Residuals
+// that repeat with heading — site multipath, a pattern that does not quite
+// fit — are correlated from bin to bin; the Fisher information counts every
+// bin as independent and so understates the error, this does not. For
+// independent residuals it agrees with the Fisher sigma on average
+// (Newey & West, Econometrica 55(3), 1987; the HAC estimator is common
+// practice in regression with serially correlated errors).
+func correlatedSigma(s *solver, a11, a12, a22 float64, circular bool) float64 {
+	n := len(s.resid)
+	if n < 4 || !(a22 > 0) {
+		return 0
+	}
+	ieff := a11 - a12*a12/a22
+	if !(ieff > 0) {
+		return 0
+	}
+	g := make([]float64, n)
+	for k := range g {
+		g[k] = s.w[k] * s.resid[k] * (s.dmu[k] - a12/a22*s.dlin[k])
+	}
+	L := max(1, n/4)
+	var v float64
+	for k := range g {
+		v += g[k] * g[k]
+	}
+	for l := 1; l <= L; l++ {
+		wt := 1 - float64(l)/float64(L+1)
+		var acc float64
+		for k := 0; k < n; k++ {
+			j := k + l
+			if j >= n {
+				if !circular {
+					break
+				}
+				j -= n
+			}
+			acc += g[k] * g[j]
+		}
+		v += 2 * wt * acc
+	}
+	if !(v > 0) {
+		return 0
+	}
+	return math.Sqrt(v) / ieff
 }
 
 // bootstrap refits resampled standardised residuals and returns the RMS

@@ -151,7 +151,7 @@ func Demo() (Scenario, error) {
 		Seed:        7,
 		GridCellM:   500,
 		GridCols:    12,
-		GridRows:    10,
+		GridRows:    14,
 	}
 	sc.GridOriginLat, sc.GridOriginLon = at(-3000, 5000) // north-west corner
 	type bc struct {

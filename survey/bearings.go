@@ -33,8 +33,20 @@ type TxBearing struct {
 	Bursts []int
 	// NullDepthDB and CoverageDeg are the best of the used bursts.
 	NullDepthDB, CoverageDeg float64
-	Err                      error
+	// SigmaDeg is the bearing's 1-sigma: the combination's sigma and the
+	// site error added in quadrature. The site error (multipath, a pattern
+	// that differs at this site) repeats on every turn and every burst, so
+	// the data of one site cannot show it; it is added after combining.
+	SigmaDeg, SiteSigmaDeg float64
+	Err                    error
 }
+
+// DefaultSiteSigmaDeg is the site error assumed for a VHF bearing from a
+// turning antenna when none is given: operational accuracy of a few degrees
+// RMS is what field VHF direction finding achieves (common practice, from
+// memory; ITU-R SM.2060 separates it from the reflection-free system
+// accuracy for this reason).
+const DefaultSiteSigmaDeg = 3.0
 
 // Points joins a burst's level track with the heading track. Readings the
 // heading track does not cover (outside it or in a gap) are left out.
@@ -52,7 +64,8 @@ func Points(r Record, track *heading.Track) []bearing.Point {
 
 // Bearings fits every burst of res against the heading track with pattern
 // p, then combines the bursts of each transmitter.
-func Bearings(res *Result, track *heading.Track, p bearing.Pattern, opts bearing.FitOptions) ([]BurstBearing, []TxBearing) {
+// siteSigmaDeg (≥ 0) is added in quadrature to each combined sigma.
+func Bearings(res *Result, track *heading.Track, p bearing.Pattern, opts bearing.FitOptions, siteSigmaDeg float64) ([]BurstBearing, []TxBearing) {
 	var bbs []BurstBearing
 	groups := map[string][]int{}
 	for _, r := range res.Records {
@@ -102,6 +115,8 @@ func Bearings(res *Result, track *heading.Track, p bearing.Pattern, opts bearing
 			ests[i] = bbs[j].Est
 		}
 		tb.Combined, tb.Err = bearing.Combine(ests, bearing.CombineOptions{})
+		tb.SiteSigmaDeg = siteSigmaDeg
+		tb.SigmaDeg = math.Hypot(tb.Combined.SigmaDeg, siteSigmaDeg)
 		for _, u := range tb.Combined.Used {
 			tb.Bursts = append(tb.Bursts, idx[u])
 			e := bbs[idx[u]].Est
@@ -173,7 +188,9 @@ func (t TxBearing) MarshalJSON() ([]byte, error) {
 	}
 	c := t.Combined
 	m["bearing_deg"] = round(c.BearingDeg, 2)
-	m["sigma_deg"] = round(c.SigmaDeg, 2)
+	m["sigma_deg"] = round(t.SigmaDeg, 2)
+	m["fit_sigma_deg"] = round(c.SigmaDeg, 2)
+	m["site_sigma_deg"] = round(t.SiteSigmaDeg, 2)
 	m["alt_bearing_deg"] = optDeg(c.AltBearingDeg)
 	m["null_depth_db"] = round(t.NullDepthDB, 1)
 	m["coverage_deg"] = round(t.CoverageDeg, 1)
@@ -190,4 +207,36 @@ func (t TxBearing) MarshalJSON() ([]byte, error) {
 		m["warnings"] = c.Warnings
 	}
 	return json.Marshal(m)
+}
+
+// EstimateLag estimates the lag between level and heading from the
+// transmitter with the most readings (bearing.EstimateLag: sweeps must turn
+// both ways). The sign is bearing's: positive means the level readings are
+// late; remove it with track.WithLag(−lagS).
+func EstimateLag(res *Result, track *heading.Track, p bearing.Pattern, opts bearing.FitOptions) (lagS, sigmaS float64, err error) {
+	byTx := map[string][]bearing.Point{}
+	for _, r := range res.Records {
+		byTx[txKey(r)] = append(byTx[txKey(r)], Points(r, track)...)
+	}
+	best := ""
+	for k, pts := range byTx {
+		if best == "" || len(pts) > len(byTx[best]) || (len(pts) == len(byTx[best]) && k < best) {
+			best = k
+		}
+	}
+	if best == "" {
+		return 0, 0, fmt.Errorf("estimate lag: no bursts")
+	}
+	nf := math.Inf(1)
+	for _, r := range res.Records {
+		if txKey(r) == best {
+			nf = math.Min(nf, r.NoiseDB)
+		}
+	}
+	opts.NoiseFloorDB = &nf
+	lag, sig, err := bearing.EstimateLag(byTx[best], p, bearing.LagOptions{Fit: opts})
+	if err != nil {
+		return 0, 0, fmt.Errorf("estimate lag from %s: %w", best, err)
+	}
+	return lag, sig, nil
 }

@@ -26,6 +26,10 @@ type Options struct {
 	IDs []string
 	// NoIdent skips Morse decoding (levels and timing only).
 	NoIdent bool
+	// MinConfidence is the least matcher confidence reported as an
+	// identifier (default 0.7); below it the burst is "unknown" and the
+	// best candidate goes into a warning.
+	MinConfidence float64
 	// Cluster tunes the grouping of bursts into transmitters.
 	Cluster ident.ClusterOptions
 }
@@ -61,6 +65,10 @@ func Run(ctx context.Context, src sdr.Source, opts Options, progress func(int64)
 		m, err := ident.NewMatcher(opts.IDs)
 		if err != nil {
 			return nil, err
+		}
+		m.MinConfidence = opts.MinConfidence
+		if m.MinConfidence <= 0 {
+			m.MinConfidence = 0.7
 		}
 		matcher = m
 	}

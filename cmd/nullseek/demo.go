@@ -58,6 +58,7 @@ func runDemo(ctx context.Context, w io.Writer, outDir string, writeIQ bool) erro
 	for _, b := range sc.Beacons {
 		ids = append(ids, b.ID)
 	}
+	fmt.Fprintf(w, "Bearing sigmas include a %.0f° site error (multipath a single site cannot see).\n", survey.DefaultSiteSigmaDeg)
 	fmt.Fprintf(w, "Scenario %q at %s (invented): %d beacons on %.4f MHz, %d stations, %.0f s each, starting %s\n\n",
 		sc.Name, sc.Place, len(sc.Beacons), sc.ChannelHz/1e6, len(sc.Stations), sc.DurationS, sc.Start.Format(time.RFC3339))
 
@@ -90,7 +91,7 @@ func runDemo(ctx context.Context, w io.Writer, outDir string, writeIQ bool) erro
 		if err := writeHeadingLog(filepath.Join(outDir, "headings-"+st.Name+".csv"), track); err != nil {
 			return err
 		}
-		bbs, txs := survey.Bearings(res, track, st.Antenna, bearing.FitOptions{})
+		bbs, txs := survey.Bearings(res, track, st.Antenna, bearing.FitOptions{}, survey.DefaultSiteSigmaDeg)
 		if si == 0 {
 			first = res
 			fmt.Fprintf(w, "Station %s: bursts found\n", st.Name)
@@ -119,10 +120,10 @@ func runDemo(ctx context.Context, w io.Writer, outDir string, writeIQ bool) erro
 			if c.AltBearingDeg != nil {
 				alt = fmt.Sprintf("  (or %.1f°: the loop's two nulls)", *c.AltBearingDeg)
 			}
-			fmt.Fprintf(w, "  %-10s %8.1f° %6.1f° %8.1f° %+5.1f° %6d%s\n", tb.Ident, c.BearingDeg, c.SigmaDeg,
+			fmt.Fprintf(w, "  %-10s %8.1f° %6.1f° %8.1f° %+5.1f° %6d%s\n", tb.Ident, c.BearingDeg, tb.SigmaDeg,
 				truth, angleDiff(c.BearingDeg, truth), c.BurstsUsed, alt)
 			lop := geo.LOP{Ident: tb.Ident, Station: st.Name, Lat: st.Lat, Lon: st.Lon,
-				BearingDeg: c.BearingDeg, SigmaDeg: math.Max(c.SigmaDeg, 0.5), Time: sc.Start}
+				BearingDeg: c.BearingDeg, SigmaDeg: tb.SigmaDeg, Time: sc.Start}
 			lops = append(lops, lop)
 			fmt.Fprintf(&csv, "%s,%s,%.6f,%.6f,%.2f,%.2f,true,%s\n", lop.Ident, lop.Station, lop.Lat, lop.Lon,
 				lop.BearingDeg, lop.SigmaDeg, sc.Start.Format(time.RFC3339))

@@ -18,12 +18,14 @@ type identFlags struct {
 	mode    string
 	ids     string
 	noIdent bool
+	minConf float64
 }
 
 func (f *identFlags) add(cmd *cobra.Command) {
 	cmd.Flags().StringVar(&f.mode, "mode", "auto", "how the identifier is keyed: auto, fm (tone on FM), am (tone on AM, A2A) or cw (keyed carrier)")
 	cmd.Flags().StringVar(&f.ids, "ids", "", "expected identifiers, comma-separated, or @FILE with one per line")
 	cmd.Flags().BoolVar(&f.noIdent, "no-ident", false, "skip Morse decoding; report levels and timing only")
+	cmd.Flags().Float64Var(&f.minConf, "min-confidence", 0.7, "least confidence (0–1) at which a burst is given a listed identifier; below it: unknown")
 }
 
 func (f *identFlags) options() (ident.Mode, []string, error) {
@@ -76,7 +78,7 @@ func surveyRecording(ctx context.Context, path string, in *inputFlags, idf *iden
 	}
 	defer src.Close()
 	prog, done := progress(src.Info(), "scanning")
-	res, err := survey.Run(ctx, src, survey.Options{Receiver: cfg, Mode: mode, IDs: ids, NoIdent: idf.noIdent}, prog)
+	res, err := survey.Run(ctx, src, survey.Options{Receiver: cfg, Mode: mode, IDs: ids, NoIdent: idf.noIdent, MinConfidence: idf.minConf}, prog)
 	done()
 	return res, err
 }

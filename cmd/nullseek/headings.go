@@ -1,0 +1,196 @@
+package main
+
+import (
+	"fmt"
+	"os"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/spf13/cobra"
+
+	"nullseek/bearing"
+	"nullseek/geo"
+	"nullseek/heading"
+	"nullseek/sdr"
+)
+
+// headingFlags select where the antenna's heading comes from and how the
+// antenna is modelled.
+type headingFlags struct {
+	log, nmea, turn      string
+	ref                  string
+	declination          string
+	station              string
+	mountOffset, lag     float64
+	estimateLag          bool
+	antenna              string
+	beamwidth, frontBack float64
+	nullDepth, bodyDepth float64
+	siteSigma            float64
+}
+
+func (f *headingFlags) add(cmd *cobra.Command) {
+	fl := cmd.Flags()
+	fl.StringVar(&f.log, "headings", "", "heading log CSV: time (seconds from capture start, or RFC 3339), heading degrees")
+	fl.StringVar(&f.nmea, "nmea", "", "file of NMEA 0183 heading sentences (HDT, HDG, HDM), each line optionally led by its time")
+	fl.StringVar(&f.turn, "turn", "", "steady turn START:RATE[:T0]: heading START° at T0 s (default 0), turning RATE °/s (negative: anticlockwise)")
+	fl.StringVar(&f.ref, "heading-ref", "true", "the headings' north: true or magnetic")
+	fl.StringVar(&f.declination, "declination", "", "magnetic declination in degrees east (default: WMM2025 at --station and the recording's time)")
+	fl.StringVar(&f.station, "station", "", "station position LAT,LON in degrees (for WMM declination and for the bearings CSV)")
+	fl.Float64Var(&f.mountOffset, "mount-offset", 0, "antenna boresight minus sensor heading, degrees")
+	fl.Float64Var(&f.lag, "lag", 0, "heading timestamps lag the level by this many seconds")
+	fl.BoolVar(&f.estimateLag, "estimate-lag", false, "estimate the heading/level lag from sweeps that turn both ways, and remove it")
+	fl.StringVar(&f.antenna, "antenna", "yagi", "antenna pattern: loop, yagi, body, or a pattern file from calibrate (.json)")
+	fl.Float64Var(&f.beamwidth, "beamwidth", 60, "Yagi -3 dB beamwidth, degrees")
+	fl.Float64Var(&f.frontBack, "front-back", 18, "Yagi front-to-back ratio, dB")
+	fl.Float64Var(&f.nullDepth, "null-depth", 25, "small-loop null depth, dB")
+	fl.Float64Var(&f.bodyDepth, "body-depth", 12, "body-shield drop, dB")
+	fl.Float64Var(&f.siteSigma, "site-sigma", 3, "site error added in quadrature to each bearing's sigma, degrees (multipath one site cannot see)")
+}
+
+// pattern builds the antenna pattern.
+func (f *headingFlags) pattern() (bearing.Pattern, error) {
+	switch strings.ToLower(f.antenna) {
+	case "loop":
+		return bearing.SmallLoop(f.nullDepth)
+	case "yagi":
+		return bearing.Yagi(f.beamwidth, f.frontBack)
+	case "body":
+		return bearing.BodyShield(f.bodyDepth)
+	}
+	if strings.HasSuffix(strings.ToLower(f.antenna), ".json") {
+		return bearing.LoadPattern(f.antenna)
+	}
+	return bearing.Pattern{}, fmt.Errorf("--antenna %q: want loop, yagi, body or a pattern .json file", f.antenna)
+}
+
+// stationPos parses --station; ok is false when it was not given.
+func (f *headingFlags) stationPos() (lat, lon float64, ok bool, err error) {
+	if f.station == "" {
+		return 0, 0, false, nil
+	}
+	parts := strings.Split(f.station, ",")
+	if len(parts) != 2 {
+		return 0, 0, false, fmt.Errorf("--station %q: want LAT,LON in degrees", f.station)
+	}
+	lat, err1 := strconv.ParseFloat(strings.TrimSpace(parts[0]), 64)
+	lon, err2 := strconv.ParseFloat(strings.TrimSpace(parts[1]), 64)
+	if err1 != nil || err2 != nil || !(lat >= -90 && lat <= 90) || !(lon >= -180 && lon <= 180) {
+		return 0, 0, false, fmt.Errorf("--station %q: want LAT,LON with latitude within ±90 and longitude within ±180", f.station)
+	}
+	return lat, lon, true, nil
+}
+
+// track reads the heading source and returns a true-north track over the
+// recording described by info. notes receives warnings for the user.
+func (f *headingFlags) track(info sdr.Info, notes func(string)) (*heading.Track, error) {
+	ref := heading.True
+	switch strings.ToLower(f.ref) {
+	case "true", "t":
+	case "magnetic", "mag", "m":
+		ref = heading.Magnetic
+	default:
+		return nil, fmt.Errorf("--heading-ref %q: want true or magnetic", f.ref)
+	}
+	given := 0
+	for _, s := range []string{f.log, f.nmea, f.turn} {
+		if s != "" {
+			given++
+		}
+	}
+	if given != 1 {
+		return nil, fmt.Errorf("give exactly one heading source: --headings FILE, --nmea FILE or --turn START:RATE")
+	}
+	var tr *heading.Track
+	var err error
+	switch {
+	case f.log != "":
+		fh, err := os.Open(f.log)
+		if err != nil {
+			return nil, fmt.Errorf("--headings: %w", err)
+		}
+		defer fh.Close()
+		tr, err = heading.ReadLog(fh, info.Start, ref)
+		if err != nil {
+			return nil, fmt.Errorf("--headings %s: %w", f.log, err)
+		}
+	case f.nmea != "":
+		fh, err := os.Open(f.nmea)
+		if err != nil {
+			return nil, fmt.Errorf("--nmea: %w", err)
+		}
+		defer fh.Close()
+		var st heading.NMEAStats
+		tr, st, err = heading.ReadNMEA(fh, heading.NMEAFileOptions{Ref: ref, CaptureStart: info.Start, Name: f.nmea})
+		if err != nil {
+			return nil, fmt.Errorf("--nmea %s: %w", f.nmea, err)
+		}
+		if st.Skipped() > 0 {
+			notes(fmt.Sprintf("--nmea %s: %s", f.nmea, st))
+		}
+	default:
+		var st heading.SteadyTurn
+		parts := strings.Split(f.turn, ":")
+		vals := make([]float64, len(parts))
+		for i, p := range parts {
+			if vals[i], err = strconv.ParseFloat(strings.TrimSpace(p), 64); err != nil {
+				return nil, fmt.Errorf("--turn %q: want START:RATE[:T0] in degrees, °/s and seconds", f.turn)
+			}
+		}
+		if len(vals) < 2 || len(vals) > 3 || vals[1] == 0 {
+			return nil, fmt.Errorf("--turn %q: want START:RATE[:T0] with a non-zero rate", f.turn)
+		}
+		st.StartDeg, st.RateDegPerS, st.Ref = vals[0], vals[1], ref
+		if len(vals) == 3 {
+			st.StartS = vals[2]
+		}
+		dur := 3600.0
+		if info.Samples > 0 {
+			dur = float64(info.Samples) / info.SampleRate
+		}
+		if tr, err = st.Track(0, dur, 20); err != nil {
+			return nil, fmt.Errorf("--turn: %w", err)
+		}
+	}
+	if ref == heading.Magnetic {
+		decl, err := f.declinationAt(info.Start, notes)
+		if err != nil {
+			return nil, err
+		}
+		tr = tr.ToTrue(decl)
+	}
+	tr = tr.WithOffset(f.mountOffset).WithLag(f.lag)
+	return tr, nil
+}
+
+// declinationAt is --declination, or WMM2025 at --station and time t.
+func (f *headingFlags) declinationAt(t time.Time, notes func(string)) (float64, error) {
+	if f.declination != "" {
+		d, err := strconv.ParseFloat(f.declination, 64)
+		if err != nil || d < -180 || d > 180 {
+			return 0, fmt.Errorf("--declination %q: want degrees east (negative west)", f.declination)
+		}
+		return d, nil
+	}
+	lat, lon, ok, err := f.stationPos()
+	if err != nil {
+		return 0, err
+	}
+	if !ok {
+		return 0, fmt.Errorf("magnetic headings need the declination: give --station LAT,LON (WMM2025) or --declination DEG")
+	}
+	if t.IsZero() {
+		t = time.Now().UTC()
+		notes("the recording has no start time: declination computed for today")
+	}
+	d, warn := geo.Declination(lat, lon, 0, t)
+	if warn != nil {
+		if d != d { // NaN: bad input
+			return 0, fmt.Errorf("declination: %w", warn)
+		}
+		notes("declination: " + warn.Error())
+	}
+	notes(fmt.Sprintf("magnetic headings converted to true with WMM2025 declination %+.2f°", d))
+	return d, nil
+}
