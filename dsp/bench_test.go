@@ -9,8 +9,10 @@ import (
 )
 
 // cpuTime returns the process's user+system CPU time. Throughput is
-// reported against CPU time ("MS/s") as well as wall time ("wallMS/s"):
-// on a shared machine wall time includes time spent waiting for a core.
+// reported against wall time ("MS/s") and against CPU time ("cpuMS/s"): on
+// a shared machine wall time includes time spent waiting for a core, so
+// cpuMS/s is the better measure of single-core speed there; on an idle
+// machine the two agree.
 func cpuTime() time.Duration {
 	var ru syscall.Rusage
 	if err := syscall.Getrusage(syscall.RUSAGE_SELF, &ru); err != nil {
@@ -22,8 +24,8 @@ func cpuTime() time.Duration {
 // reportRate reports complex samples per second (millions) of CPU and
 // wall time; start is cpuTime() at the ResetTimer.
 func reportRate(b *testing.B, samples float64, start time.Duration) {
-	b.ReportMetric(samples/1e6/(cpuTime()-start).Seconds(), "MS/s")
-	b.ReportMetric(samples/1e6/b.Elapsed().Seconds(), "wallMS/s")
+	b.ReportMetric(samples/1e6/b.Elapsed().Seconds(), "MS/s")
+	b.ReportMetric(samples/1e6/(cpuTime()-start).Seconds(), "cpuMS/s")
 }
 
 // benchCU8 makes n complex samples of cu8 input: a weak FM carrier at
@@ -45,7 +47,9 @@ func benchCU8(n int) []byte {
 // BenchmarkFrontEndCU8 runs the whole front end on cu8 input at 2.4 MS/s:
 // clip count on the raw bytes, channelizer (+100 kHz, ÷50 to 48 kS/s,
 // pass ±8 kHz, stop 12 kHz), FM discriminator and power meter at 48 kS/s.
-// MS/s is complex input samples per second of CPU time.
+// MS/s is millions of complex input samples per second. For comparison, a
+// GNU Radio 3.10 flowgraph doing the same work runs at about 44 MS/s on the
+// development machine (figure from the task description, not re-measured).
 func BenchmarkFrontEndCU8(b *testing.B) {
 	const block = 16384 // complex samples per call, like a USB transfer
 	const blocks = 32
