@@ -77,9 +77,15 @@ func CountClippedCU8(src []byte) int {
 	i := 0
 	for ; i+8 <= n; i += 8 {
 		v := binary.LittleEndian.Uint64(src[i:])
-		m := zeroBytes(v) | zeroBytes(^v) // bit 7 of each railed byte
-		m |= m >> 8                       // fold Q flag onto I position
-		c += bits.OnesCount64(m & 0x0080008000800080)
+		// Bits 1..7 of each byte of v^(v<<1) are zero exactly when all 8
+		// bits of that byte are equal, i.e. the byte is 0x00 or 0xFF.
+		m := (v ^ (v << 1)) & 0xfefefefefefefefe
+		if (m-0x0101010101010101)&^m&hi1 == 0 {
+			continue // no zero byte in m: nothing railed (exact test)
+		}
+		z := zeroBytes(m) // bit 7 set per railed byte
+		z |= z >> 8       // fold the Q flag onto the I position
+		c += bits.OnesCount64(z & 0x0080008000800080)
 	}
 	for ; i < n; i += 2 {
 		a, b := src[i], src[i+1]

@@ -10,19 +10,18 @@ import "math"
 // reads A²/2 (its mean-square power); white noise of variance σ² reads
 // about 2σ²/N.
 type Goertzel struct {
-	n          int
-	coeff      float64
-	cw, sw     float64
-	s1, s2     float64
-	cnt        int
-	freq, rate float64
+	n      int
+	coeff  float64
+	cw, sw float64
+	s1, s2 float64
+	cnt    int
 }
 
 // NewGoertzel returns a detector for freqHz at sample rate rate (Hz) over
 // blocks of n samples (n < 1 is treated as 1).
 func NewGoertzel(freqHz, rate float64, n int) *Goertzel {
 	w := 2 * math.Pi * freqHz / rate
-	return &Goertzel{n: max(n, 1), coeff: 2 * math.Cos(w), cw: math.Cos(w), sw: math.Sin(w), freq: freqHz, rate: rate}
+	return &Goertzel{n: max(n, 1), coeff: 2 * math.Cos(w), cw: math.Cos(w), sw: math.Sin(w)}
 }
 
 // N returns the block length in samples.
@@ -60,18 +59,14 @@ func (g *Goertzel) Process(dst []float32, src []float32) []float32 {
 // running sum is recomputed from its ring buffer every 65536 samples so
 // rounding cannot accumulate.
 type ToneMeter struct {
-	n        int
-	ring     []complex128
-	pos      int
-	sum      complex128
-	rot      complex128
-	step     complex128
-	since    int
-	normPow  float64
-	filled   int
-	freqHz   float64
-	rateHz   float64
-	phaseCnt int64
+	n       int
+	ring    []complex128
+	pos     int
+	sum     complex128
+	rot     complex128
+	step    complex128
+	since   int
+	normPow float64
 }
 
 // NewToneMeter returns a sliding meter for freqHz at sample rate rate over
@@ -84,14 +79,13 @@ func NewToneMeter(freqHz, rate float64, n int) *ToneMeter {
 		n: n, ring: make([]complex128, n),
 		rot: 1, step: complex(math.Cos(w), math.Sin(w)),
 		normPow: 2 / float64(n*n),
-		freqHz:  freqHz, rateHz: rate,
 	}
 }
 
 // Reset clears the window.
 func (t *ToneMeter) Reset() {
 	clear(t.ring)
-	t.pos, t.sum, t.rot, t.since, t.filled, t.phaseCnt = 0, 0, 1, 0, 0, 0
+	t.pos, t.sum, t.rot, t.since = 0, 0, 1, 0
 }
 
 // Process returns append(dst[:0], ...) with one reading per input sample.
@@ -106,7 +100,6 @@ func (t *ToneMeter) Process(dst []float32, src []float32) []float32 {
 			t.pos = 0
 		}
 		t.rot *= t.step
-		t.phaseCnt++
 		t.since++
 		if t.since >= 1<<16 {
 			t.renorm()
