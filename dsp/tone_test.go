@@ -67,7 +67,7 @@ func TestToneMeterKeying(t *testing.T) {
 	const rate = 8000.0
 	const n = 40 // 5 ms window
 	// 100 ms key down, 100 ms key up, repeated; 0.6 amplitude 700 Hz tone
-	x := realTone(16000, 700, rate, 0.6, 0)
+	x := realTone(80000, 700, rate, 0.6, 0) // past the 65536-sample re-normalisation
 	for i := range x {
 		if (i/800)%2 == 1 {
 			x[i] = 0
