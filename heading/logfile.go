@@ -16,8 +16,8 @@ const maxLineBytes = 4096
 
 // ReadLog reads a heading log in CSV: one "time,heading_deg" row per line.
 //
-//   - An optional header row whose first field starts with "time" and
-//     second with "heading" (case-insensitive) may come first. Blank lines
+//   - An optional header row whose first field starts with "time" or
+//     "second" and second with "heading" (case-insensitive) may come first. Blank lines
 //     and lines starting with '#' are skipped anywhere.
 //   - time is either seconds from the capture start (a decimal number, may
 //     be negative) or an RFC 3339 timestamp (e.g. 2025-06-01T10:00:00.5Z),
@@ -88,7 +88,8 @@ func ReadLog(r io.Reader, captureStart time.Time, ref Ref) (*Track, error) {
 }
 
 func isHeader(f0, f1 string) bool {
-	return strings.HasPrefix(strings.ToLower(f0), "time") && strings.HasPrefix(strings.ToLower(f1), "heading")
+	t := strings.ToLower(f0)
+	return (strings.HasPrefix(t, "time") || strings.HasPrefix(t, "second")) && strings.HasPrefix(strings.ToLower(f1), "heading")
 }
 
 var errNoCaptureStart = errors.New("RFC 3339 time but the capture start time is unknown; give the capture start or write seconds from it")
