@@ -30,6 +30,10 @@ type Burst struct {
 	NoiseDB     float64   `json:"noise_dbfs"`
 	SNRDB       float64   `json:"snr_db"`
 	Clipped     float64   `json:"clipped"`
+	// CutAtStart and CutAtEnd say the recording began or ended during the
+	// burst: its start or end is the recording's, not the transmitter's.
+	CutAtStart bool `json:"cut_at_start,omitempty"`
+	CutAtEnd   bool `json:"cut_at_end,omitempty"`
 	// ChannelRateHz is the sample rate of FMAudio and AMAudio.
 	ChannelRateHz float64 `json:"-"`
 	// Level is the level track over the burst (≥ 100 readings a second).

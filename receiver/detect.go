@@ -3,6 +3,7 @@ package receiver
 import (
 	"math"
 	"math/cmplx"
+	"sort"
 
 	"nullseek/dsp"
 )
@@ -23,10 +24,21 @@ func (s *Scanner) detect(r reading, fm, am []float32) {
 			s.openBurst(r, fm, am)
 			return
 		}
+		if !s.sawQuiet && s.startedInBurst(r, levelDB) {
+			return
+		}
 		s.noiseDB = s.nf.Update(levelDB)
 		r.noise = math.Pow(10, s.noiseDB/10)
-		if !s.sawQuiet && len(s.recent) >= preReadings && levelDB < s.noiseDB+s.cfg.OffDB {
-			s.sawQuiet = true
+		// For the first minute, keep the readings: if the level later drops
+		// well below this floor, they were a transmission the recording
+		// began inside. A burst that opens proves the floor was noise.
+		if !s.sawQuiet {
+			if len(s.startup) < s.maxStartup() {
+				s.startup = append(s.startup, r)
+			} else {
+				s.sawQuiet = true
+				s.startup = nil
+			}
 		}
 		s.recent = append(s.recent, r)
 		if len(s.recent) > preReadings {
@@ -53,11 +65,42 @@ func (s *Scanner) detect(r reading, fm, am []float32) {
 
 func (s *Scanner) readingS() float64 { return float64(s.chunkIn) / s.info.SampleRate }
 
-func (s *Scanner) openBurst(r reading, fm, am []float32) {
-	if !s.sawQuiet {
-		s.summary.InBurstAtStart = true
-		s.sawQuiet = true
+// maxStartup bounds the readings kept while the floor is not yet known to
+// be the noise: a minute of them.
+func (s *Scanner) maxStartup() int { return int(60 / s.readingS()) }
+
+// startedInBurst handles a recording that begins inside a transmission:
+// the floor first learned is the burst's level, so when the level drops
+// well below it the readings so far were a burst cut by the start of the
+// recording. It opens that burst (flagged CutAtStart) from the kept
+// readings, restarts the floor from the new level, and reports true.
+func (s *Scanner) startedInBurst(r reading, levelDB float64) bool {
+	if len(s.startup) < 2 || levelDB >= s.noiseDB-s.cfg.OnDB {
+		return false
 	}
+	s.sawQuiet = true
+	s.summary.InBurstAtStart = true
+	noise := r.p
+	b := &burstBuild{cutAtStart: true}
+	for _, q := range s.startup {
+		q.noise = noise
+		b.readings = append(b.readings, q)
+	}
+	s.startup = nil
+	b.firstAbove, b.lastAbove = 0, len(b.readings)-1
+	r.noise = noise
+	b.readings = append(b.readings, r)
+	s.nf.Reset()
+	s.noiseDB = s.nf.Update(levelDB)
+	s.recent = s.recent[:0]
+	s.quietRuns = 1
+	s.cur = b
+	return true
+}
+
+func (s *Scanner) openBurst(r reading, fm, am []float32) {
+	s.sawQuiet = true
+	s.startup = nil
 	noise := r.noise
 	b := &burstBuild{}
 	for _, q := range s.recent {
@@ -103,6 +146,19 @@ func (s *Scanner) closeBurst() {
 	rd := b.readings
 	first, last := b.firstAbove, b.lastAbove
 	noise := rd[0].noise
+	if b.cutAtStart && last+3 < len(rd) {
+		// The floor was unknown when this burst began; take it from the
+		// quiet readings after its end (the first one or two are edge).
+		var q []float64
+		for _, x := range rd[last+3:] {
+			q = append(q, x.p)
+		}
+		sort.Float64s(q)
+		noise = q[len(q)/2]
+		for i := range rd {
+			rd[i].noise = noise
+		}
+	}
 
 	// Edge levels: the mean of up to three readings fully inside each edge.
 	inner := func(from, step int) float64 {
@@ -136,6 +192,9 @@ func (s *Scanner) closeBurst() {
 		on += fill(i, startLevel)
 	}
 	startIdx := float64(rd[w1].idx) + 1 - on // in readings
+	if b.cutAtStart {
+		startIdx = float64(rd[0].idx)
+	}
 	endLevel := inner(max(last-1, first), -1)
 	e0 := max(first, last-1)
 	e1 := min(len(rd)-1, last+3)
@@ -151,6 +210,9 @@ func (s *Scanner) closeBurst() {
 		return (idx*float64(s.chunkIn) - s.delayIn) / s.info.SampleRate
 	}
 	startS, endS := toS(startIdx), toS(endIdx)
+	if b.cutAtStart {
+		startS = 0
+	}
 	if endS-startS < s.cfg.MinBurstS {
 		return
 	}
@@ -188,6 +250,8 @@ func (s *Scanner) closeBurst() {
 		NoiseDB:       dsp.DBFS(noise),
 		Clipped:       float64(clip) / (float64(last-first+1) * float64(s.chunkIn)),
 		ChannelRateHz: s.outRate,
+		CutAtStart:    b.cutAtStart,
+		CutAtEnd:      s.atEnd,
 	}
 	if mean > noise {
 		bu.SNRDB = 10 * math.Log10((mean-noise)/noise)

@@ -74,6 +74,8 @@ type Scanner struct {
 	noiseDB   float64 // the noise floor's latest estimate, dB
 	clipTotal int64
 	sawQuiet  bool
+	startup   []reading // readings before the floor is known to be noise
+	atEnd     bool      // the stream has ended: an open burst is cut by it
 	summary   Summary
 	emit      func(*Burst) error
 	err       error // first error returned by emit
@@ -83,6 +85,7 @@ type burstBuild struct {
 	readings   []reading
 	lastAbove  int // index into readings of the last reading above the off threshold
 	firstAbove int
+	cutAtStart bool
 	fm, am     []float32
 	audioStart int64 // channel-rate sample index of fm[0]
 	audioFull  bool
@@ -279,6 +282,7 @@ func (s *Scanner) readingTime(idx float64) float64 {
 // finish flushes an open burst and completes the summary.
 func (s *Scanner) finish(total int64, emit func(*Burst) error, cause error) (Summary, error) {
 	if s.cur != nil {
+		s.atEnd = true
 		s.closeBurst()
 	}
 	if s.err != nil && cause == nil {

@@ -24,6 +24,8 @@ type burstLine struct {
 	NoiseDB         float64  `json:"noise_dbfs"`
 	SNRDB           *float64 `json:"snr_db"`
 	Clipped         float64  `json:"clipped"`
+	CutAtStart      bool     `json:"cut_at_start,omitempty"`
+	CutAtEnd        bool     `json:"cut_at_end,omitempty"`
 	Mode            string   `json:"mode,omitempty"`
 	Text            string   `json:"text"`
 	Ident           string   `json:"ident"`
@@ -55,7 +57,7 @@ func (r Record) MarshalJSON() ([]byte, error) {
 		Start: rfc3339(r.Start), End: rfc3339(r.End),
 		OffsetHz: round(r.OffsetHz, 1),
 		LevelDB:  round(r.LevelDB, 2), PeakDB: round(r.PeakDB, 2), NoiseDB: round(r.NoiseDB, 2),
-		Clipped: round(r.Clipped, 6), Mode: r.Mode, Text: r.Text, Ident: r.Ident,
+		Clipped: round(r.Clipped, 6), CutAtStart: r.CutAtStart, CutAtEnd: r.CutAtEnd, Mode: r.Mode, Text: r.Text, Ident: r.Ident,
 		IdentConfidence: round(r.IdentConfidence, 3), IdentMethod: r.IdentMethod,
 		ToneHz: round(r.ToneHz, 1), WPM: round(r.WPM, 1), Transmitter: r.Transmitter,
 		Warnings: r.Warnings,
