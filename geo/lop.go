@@ -21,6 +21,10 @@ type LOP struct {
 	SigmaDeg   float64
 	Time       time.Time
 	Row        int
+	// Ambiguous marks a bearing whose reciprocal (BearingDeg+180°) fits the
+	// measurement equally, such as a small loop's two nulls;
+	// SolveFixAmbiguous picks the direction the other bearings support.
+	Ambiguous bool
 }
 
 // Validate checks that the LOP can be used in a fix: latitude within ±90°,

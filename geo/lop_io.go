@@ -48,7 +48,7 @@ func (e *InputError) Unwrap() error { return e.Err }
 // Column names of the bearing CSV. The first seven are required.
 var (
 	requiredColumns = []string{"ident", "station", "lat", "lon", "bearing_deg", "sigma_deg", "reference"}
-	optionalColumns = []string{"time", "declination_deg"}
+	optionalColumns = []string{"time", "declination_deg", "ambiguous"}
 )
 
 // StationToleranceM is how far apart two rows naming the same station may
@@ -265,6 +265,15 @@ func parseRecord(unit string, row int, get func(string) (string, bool)) (Bearing
 			return fail("declination_deg", "%v is outside -180..180", v)
 		}
 		rec.DeclinationDeg, rec.HasDeclination = v, true
+	}
+	if s, ok := get("ambiguous"); ok && s != "" {
+		switch strings.ToLower(s) {
+		case "true", "yes", "1":
+			rec.Ambiguous = true
+		case "false", "no", "0":
+		default:
+			return fail("ambiguous", "%q: write true when the bearing's reciprocal fits as well (a loop's two nulls), else false", s)
+		}
 	}
 	return rec, nil
 }

@@ -175,7 +175,7 @@ func writeLOPs(path string, hf *headingFlags, start time.Time, txs []survey.TxBe
 		return fmt.Errorf("--bearings-csv needs the station's position: --station LAT,LON")
 	}
 	var b strings.Builder
-	b.WriteString("ident,station,lat,lon,bearing_deg,sigma_deg,reference,time\n")
+	b.WriteString("ident,station,lat,lon,bearing_deg,sigma_deg,reference,time,ambiguous\n")
 	st := fmt.Sprintf("%.5f %.5f", lat, lon)
 	when := ""
 	if !start.IsZero() {
@@ -185,7 +185,7 @@ func writeLOPs(path string, hf *headingFlags, start time.Time, txs []survey.TxBe
 		if t.Err != nil {
 			continue
 		}
-		fmt.Fprintf(&b, "%s,%s,%.6f,%.6f,%.2f,%.2f,true,%s\n", t.Ident, st, lat, lon, t.Combined.BearingDeg, t.SigmaDeg, when)
+		fmt.Fprintf(&b, "%s,%s,%.6f,%.6f,%.2f,%.2f,true,%s,%v\n", t.Ident, st, lat, lon, t.Combined.BearingDeg, t.SigmaDeg, when, t.Combined.AltBearingDeg != nil)
 	}
 	return writeFileAtomic(path, []byte(b.String()))
 }

@@ -64,7 +64,7 @@ func runDemo(ctx context.Context, w io.Writer, outDir string, writeIQ bool) erro
 
 	var lops []geo.LOP
 	var csv strings.Builder
-	csv.WriteString("ident,station,lat,lon,bearing_deg,sigma_deg,reference,time\n")
+	csv.WriteString("ident,station,lat,lon,bearing_deg,sigma_deg,reference,time,ambiguous\n")
 	var first *survey.Result
 	for si, st := range sc.Stations {
 		src, err := sim.NewSource(sc, st)
@@ -123,10 +123,10 @@ func runDemo(ctx context.Context, w io.Writer, outDir string, writeIQ bool) erro
 			fmt.Fprintf(w, "  %-10s %8.1f° %6.1f° %8.1f° %+5.1f° %6d%s\n", tb.Ident, c.BearingDeg, tb.SigmaDeg,
 				truth, angleDiff(c.BearingDeg, truth), c.BurstsUsed, alt)
 			lop := geo.LOP{Ident: tb.Ident, Station: st.Name, Lat: st.Lat, Lon: st.Lon,
-				BearingDeg: c.BearingDeg, SigmaDeg: tb.SigmaDeg, Time: sc.Start}
+				BearingDeg: c.BearingDeg, SigmaDeg: tb.SigmaDeg, Time: sc.Start, Ambiguous: c.AltBearingDeg != nil}
 			lops = append(lops, lop)
-			fmt.Fprintf(&csv, "%s,%s,%.6f,%.6f,%.2f,%.2f,true,%s\n", lop.Ident, lop.Station, lop.Lat, lop.Lon,
-				lop.BearingDeg, lop.SigmaDeg, sc.Start.Format(time.RFC3339))
+			fmt.Fprintf(&csv, "%s,%s,%.6f,%.6f,%.2f,%.2f,true,%s,%v\n", lop.Ident, lop.Station, lop.Lat, lop.Lon,
+				lop.BearingDeg, lop.SigmaDeg, sc.Start.Format(time.RFC3339), lop.Ambiguous)
 			if len(tb.Bursts) > 0 {
 				bb := bbs[tb.Bursts[0]]
 				name := filepath.Join(outDir, fmt.Sprintf("polar-%s-%s.png", st.Name, fileSafe(tb.Ident)))
@@ -170,7 +170,7 @@ func runDemo(ctx context.Context, w io.Writer, outDir string, writeIQ bool) erro
 	var fixes []*geo.Fix
 	fmt.Fprintf(w, "Fixes (95%% ellipses; event grid %s):\n", grid)
 	for _, id := range idents {
-		f, err := geo.SolveFix(groups[id], geo.FixOptions{})
+		f, err := geo.SolveFixAmbiguous(groups[id], geo.FixOptions{})
 		if err != nil {
 			fmt.Fprintf(w, "  %-10s no fix: %v\n", id, err)
 			continue

@@ -90,7 +90,7 @@ func runFix(out io.Writer, input string, o fixFlags, declSet bool) error {
 	var fixes []*geo.Fix
 	var refused []error
 	for _, id := range idents {
-		f, err := geo.SolveFix(groups[id], geo.FixOptions{Probability: o.probability})
+		f, err := geo.SolveFixAmbiguous(groups[id], geo.FixOptions{Probability: o.probability})
 		if err != nil {
 			refused = append(refused, err)
 			continue
