@@ -36,7 +36,7 @@ type fixFlags struct {
 func newFixCmd() *cobra.Command {
 	var o fixFlags
 	cmd := &cobra.Command{
-		Use:   "fix BEARINGS.csv|BEARINGS.json|-",
+		Use:   "fix BEARINGS.csv|BEARINGS.json|- [MORE...]",
 		Short: "Locate transmitters from bearings taken at two or more stations",
 		Long: `Reads bearings (CSV with header ident,station,lat,lon,bearing_deg,sigma_deg,reference[,time][,declination_deg],
 or the same keys as JSON) and prints, per ident, the most likely position, its error ellipse, the
@@ -44,9 +44,9 @@ Maidenhead locator, the event-grid cell and the most probable cells. Magnetic be
 to true with WMM2025 at the station and time unless a declination is given. Without --grid or
 --grid-file an automatic north-up grid covering stations and fixes is used.
 Exit status is 1 for bad input (nothing is written) and also when any transmitter could not be fixed.`,
-		Args: cobra.ExactArgs(1),
+		Args: cobra.MinimumNArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
-			return runFix(cmd.OutOrStdout(), args[0], o, cmd.Flags().Changed("declination"))
+			return runFix(cmd.OutOrStdout(), args, o, cmd.Flags().Changed("declination"))
 		},
 	}
 	f := cmd.Flags()
@@ -62,13 +62,18 @@ Exit status is 1 for bad input (nothing is written) and also when any transmitte
 	return cmd
 }
 
-func runFix(out io.Writer, input string, o fixFlags, declSet bool) error {
+func runFix(out io.Writer, inputs []string, o fixFlags, declSet bool) error {
 	if !(o.probability > 0 && o.probability < 1) {
 		return fmt.Errorf("--probability %v: must be between 0 and 1", o.probability)
 	}
-	recs, err := readBearings(input)
-	if err != nil {
-		return err
+	// Bearings from several files (one per station, say) are fixed together.
+	var recs []geo.BearingRecord
+	for _, input := range inputs {
+		r, err := readBearings(input)
+		if err != nil {
+			return err
+		}
+		recs = append(recs, r...)
 	}
 	grid, err := loadGrid(o.grid, o.gridFile)
 	if err != nil {
