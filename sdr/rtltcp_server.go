@@ -152,7 +152,8 @@ func (st *replayState) serve(ctx context.Context, conn net.Conn) (done bool, err
 		n, rerr := st.next()
 		if n > 0 {
 			if st.opts.Paced && rate > 0 {
-				due := connStart.Add(time.Duration(float64(st.sent-connSent0) / rate * float64(time.Second)))
+				// A receiver hands over a block once its last sample is in.
+				due := connStart.Add(time.Duration(float64(st.sent-connSent0+int64(n/2)) / rate * float64(time.Second)))
 				if d := time.Until(due); d > 0 {
 					t := time.NewTimer(d)
 					select {
