@@ -1,0 +1,218 @@
+package main
+
+import (
+	"encoding/json"
+	"fmt"
+	"io"
+	"math"
+	"strconv"
+	"strings"
+
+	"github.com/spf13/cobra"
+
+	"nullseek/bearing"
+	"nullseek/geo"
+	"nullseek/survey"
+)
+
+// calibrateFlags are calibrate's own flags.
+type calibrateFlags struct {
+	tx           string
+	knownBearing string
+	ident        string
+	out          string
+	asJSON       bool
+}
+
+func init() {
+	var in inputFlags
+	var idf identFlags
+	var hf headingFlags
+	var cf calibrateFlags
+	cmd := &cobra.Command{
+		Use:   "calibrate RECORDING",
+		Short: "Measure the antenna's real pattern and the heading source's north offset on a transmitter at a known position",
+		Long: `calibrate takes a recording (or a live receiver, see --rotator) made while the
+antenna turned through a whole circle with a transmitter at a known place,
+fits the nominal pattern (--antenna) to find how far the heading source's
+north is off, measures the antenna's real pattern from the same sweep and
+saves it (--out pattern.json).
+
+Use the two together in later fits, with the same heading flags as here:
+
+  nullseek bearing REC --antenna pattern.json --mount-offset OFFSET ...
+
+OFFSET is the total printed (it includes any --mount-offset given here):
+the antenna's boresight is the heading source's reading plus OFFSET, and
+the saved pattern is measured relative to that boresight.`,
+		Args: cobra.ExactArgs(1),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			out, errOut := cmd.OutOrStdout(), cmd.ErrOrStderr()
+			notes := func(s string) { fmt.Fprintln(errOut, s) }
+			known, how, err := cf.bearingFrom(&hf)
+			if err != nil {
+				return err
+			}
+			if cf.out == "" {
+				return fmt.Errorf("calibrate needs --out FILE.json for the measured pattern")
+			}
+			nominal, err := hf.pattern()
+			if err != nil {
+				return err
+			}
+			res, err := surveyRecording(cmd.Context(), args[0], &in, &idf, notes)
+			if err != nil {
+				return err
+			}
+			tr, err := hf.track(res.Info, notes)
+			if err != nil {
+				return err
+			}
+			fo := bearing.FitOptions{}
+			if hf.estimateLag {
+				lag, sig, err := survey.EstimateLag(res, tr, nominal, fo)
+				if err != nil {
+					return err
+				}
+				notes(fmt.Sprintf("level lags heading by %.3f ± %.3f s: removed (give --lag %.3f in later fits)", lag, sig, hf.lag+lag))
+				tr = tr.WithLag(-lag)
+			}
+			when := "undated"
+			if !res.Info.Start.IsZero() {
+				when = res.Info.Start.UTC().Format("2006-01-02")
+			}
+			cal, err := survey.Calibrate(res, tr, nominal, known, survey.CalibrationOptions{
+				Ident: cf.ident, Fit: fo, Name: fmt.Sprintf("calibrated %s, nominal %s", when, nominal.Name)})
+			if err != nil {
+				return err
+			}
+			total := wrapDeg180(hf.mountOffset + cal.NorthOffsetDeg)
+			cal.Pattern.Name += fmt.Sprintf(", use with --mount-offset %.2f", total)
+			if err := bearing.SavePattern(cf.out, cal.Pattern); err != nil {
+				return err
+			}
+			if cf.asJSON {
+				return json.NewEncoder(out).Encode(calibrationJSON(cal, total, hf.mountOffset, how, cf.out))
+			}
+			return writeCalibration(out, cal, total, hf.mountOffset, how, cf.out)
+		},
+	}
+	in.add(cmd)
+	idf.add(cmd)
+	hf.add(cmd)
+	_ = cmd.Flags().Set("merge-gap", "1.5") // a turning antenna's nulls must not split a burst
+	fl := cmd.Flags()
+	fl.StringVar(&cf.tx, "tx", "", "the calibration transmitter's position LAT,LON in degrees (needs --station)")
+	fl.StringVar(&cf.knownBearing, "known-bearing", "", "the calibration transmitter's bearing from the station, degrees true (instead of --tx and --station)")
+	fl.StringVar(&cf.ident, "ident", "", "the calibration transmitter's identifier (or fingerprint label) when several were heard")
+	fl.StringVar(&cf.out, "out", "", "write the measured pattern here (JSON; required)")
+	fl.BoolVar(&cf.asJSON, "json", false, "print the result as one JSON object")
+	addLive(cmd, &in, &idf, &hf)
+	rootCmd.AddCommand(cmd)
+}
+
+// bearingFrom returns the calibration bearing in degrees true and a
+// description of where it came from.
+func (cf *calibrateFlags) bearingFrom(hf *headingFlags) (float64, string, error) {
+	switch {
+	case cf.tx != "" && cf.knownBearing != "":
+		return 0, "", fmt.Errorf("give --tx LAT,LON (with --station) or --known-bearing DEG, not both")
+	case cf.knownBearing != "":
+		v, err := strconv.ParseFloat(strings.TrimSpace(cf.knownBearing), 64)
+		if err != nil || math.IsNaN(v) || math.IsInf(v, 0) || v < -360 || v > 360 {
+			return 0, "", fmt.Errorf("--known-bearing %q: want degrees true, e.g. 123.4", cf.knownBearing)
+		}
+		v = math.Mod(v+360, 360)
+		return v, fmt.Sprintf("%.2f° true (given)", v), nil
+	case cf.tx != "":
+		txLat, txLon, err := parseLatLon("--tx", cf.tx)
+		if err != nil {
+			return 0, "", err
+		}
+		lat, lon, ok, err := hf.stationPos()
+		if err != nil {
+			return 0, "", err
+		}
+		if !ok {
+			return 0, "", fmt.Errorf("--tx needs the station's position too: --station LAT,LON")
+		}
+		dist, az, _ := geo.Inverse(lat, lon, txLat, txLon)
+		if math.IsNaN(az) || !(dist >= 1) {
+			return 0, "", fmt.Errorf("--tx %s and --station %s are the same place: no bearing between them", cf.tx, hf.station)
+		}
+		az = math.Mod(az+360, 360)
+		if az >= 360 {
+			az = 0
+		}
+		return az, fmt.Sprintf("%.2f° true, %.0f m from the station (geodesic, WGS84)", az, dist), nil
+	}
+	return 0, "", fmt.Errorf("calibrate needs the transmitter's bearing: --tx LAT,LON with --station LAT,LON, or --known-bearing DEG")
+}
+
+// parseLatLon reads "LAT,LON" in degrees.
+func parseLatLon(flag, s string) (float64, float64, error) {
+	parts := strings.Split(s, ",")
+	if len(parts) == 2 {
+		lat, err1 := strconv.ParseFloat(strings.TrimSpace(parts[0]), 64)
+		lon, err2 := strconv.ParseFloat(strings.TrimSpace(parts[1]), 64)
+		if err1 == nil && err2 == nil && lat >= -90 && lat <= 90 && lon >= -180 && lon <= 180 {
+			return lat, lon, nil
+		}
+	}
+	return 0, 0, fmt.Errorf("%s %q: want LAT,LON in degrees, latitude within ±90 and longitude within ±180", flag, s)
+}
+
+// wrapDeg180 maps degrees to (−180, 180].
+func wrapDeg180(d float64) float64 {
+	d = math.Mod(d, 360)
+	if d > 180 {
+		d -= 360
+	} else if d <= -180 {
+		d += 360
+	}
+	return d
+}
+
+func writeCalibration(w io.Writer, cal *survey.Calibration, total, given float64, how, path string) error {
+	ew := &errW{w: w}
+	s := cal.Shape
+	fmt.Fprintf(ew, "calibration transmitter  %s, known bearing %s\n", cal.Ident, how)
+	fmt.Fprintf(ew, "used                     %d burst(s), %d level readings, sweep coverage %.0f°\n", cal.Bursts, cal.Points, cal.Alignment.CoverageDeg)
+	fmt.Fprintf(ew, "seen at                  %.2f° with the nominal pattern (fit residual %.2f dB)\n", cal.Alignment.BearingDeg, cal.Alignment.ResidualDB)
+	fmt.Fprintf(ew, "north offset             %+.2f° ± %.2f° (1σ) measured", cal.NorthOffsetDeg, cal.SigmaDeg)
+	if given != 0 {
+		fmt.Fprintf(ew, ", on top of --mount-offset %.2f", given)
+	}
+	fmt.Fprintln(ew)
+	if cal.Pattern.Mode == bearing.Peak {
+		fmt.Fprintf(ew, "measured pattern         peak, beamwidth %.1f° (−3 dB), front-to-back %.1f dB, deepest null %.1f dB\n", s.WidthDeg, s.FrontBackDB, s.NullDepthDB)
+	} else {
+		fmt.Fprintf(ew, "measured pattern         null, null depth %.1f dB, null width %.1f° (+3 dB)\n", s.NullDepthDB, s.WidthDeg)
+	}
+	for _, warn := range cal.Alignment.Warnings {
+		fmt.Fprintf(ew, "warning                  %s\n", warn)
+	}
+	fmt.Fprintf(ew, "saved                    %s\n", path)
+	fmt.Fprintf(ew, "use it                   nullseek bearing REC --antenna %s --mount-offset %.2f (and the same heading flags as here)\n", path, total)
+	return ew.err
+}
+
+func calibrationJSON(cal *survey.Calibration, total, given float64, how, path string) map[string]any {
+	r := func(v float64, n int) float64 { p := math.Pow(10, float64(n)); return math.Round(v*p) / p }
+	m := map[string]any{
+		"type": "calibration", "ident": cal.Ident, "known_bearing_deg": r(cal.KnownBearingDeg, 4),
+		"known_bearing_source": how, "seen_bearing_deg": r(cal.Alignment.BearingDeg, 3),
+		"north_offset_deg": r(cal.NorthOffsetDeg, 3), "north_offset_sigma_deg": r(cal.SigmaDeg, 3),
+		"given_mount_offset_deg": given, "mount_offset_deg": r(total, 3),
+		"bursts_used": cal.Bursts, "points_used": cal.Points, "coverage_deg": r(cal.Alignment.CoverageDeg, 1),
+		"mode": cal.Pattern.Mode.String(), "width_deg": r(cal.Shape.WidthDeg, 2),
+		"null_depth_db": r(cal.Shape.NullDepthDB, 2), "pattern_file": path,
+	}
+	if cal.Pattern.Mode == bearing.Peak {
+		m["front_back_db"] = r(cal.Shape.FrontBackDB, 2)
+	}
+	if len(cal.Alignment.Warnings) > 0 {
+		m["warnings"] = cal.Alignment.Warnings
+	}
+	return m
+}
