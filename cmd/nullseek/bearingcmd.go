@@ -93,6 +93,7 @@ rather than invents a bearing when the sweep cannot support one.`,
 	cmd.Flags().BoolVar(&asJSON, "json", false, "one JSON object per burst and per transmitter")
 	cmd.Flags().StringVar(&plot, "plot", "", "write a polar plot per transmitter: PREFIX.png or PREFIX.svg becomes PREFIX-IDENT.png")
 	cmd.Flags().StringVar(&lopCSV, "bearings-csv", "", "write the transmitters' bearings as a CSV that `nullseek fix` reads (needs --station)")
+	addLive(cmd, &in, &idf, &hf) // live receiver and rotator sweep: live.go
 	rootCmd.AddCommand(cmd)
 }
 
