@@ -3,8 +3,10 @@ package survey
 import (
 	"encoding/json"
 	"fmt"
+	"io"
 	"math"
 	"sort"
+	"strings"
 
 	"nullseek/bearing"
 	"nullseek/heading"
@@ -239,4 +241,53 @@ func EstimateLag(res *Result, track *heading.Track, p bearing.Pattern, opts bear
 		return 0, 0, fmt.Errorf("estimate lag from %s: %w", best, err)
 	}
 	return lag, sig, nil
+}
+
+// WriteBearingTable prints per-burst and per-transmitter bearings for people.
+func WriteBearingTable(w io.Writer, bbs []BurstBearing, txs []TxBearing) error {
+	tw := &errWriter{w: w}
+	fmt.Fprintf(tw, "%-5s %-12s %-4s %9s %7s %9s %8s %8s  %s\n", "burst", "ident", "tx", "bearing", "±1σ", "alt", "null dB", "cover", "notes")
+	for _, b := range bbs {
+		if b.Err != nil {
+			fmt.Fprintf(tw, "%-5d %-12s %-4s %9s  %s\n", b.Index, b.Ident, b.Transmitter, "-", b.Err)
+			continue
+		}
+		e := b.Est
+		alt := "-"
+		if e.AltBearingDeg != nil {
+			alt = fmt.Sprintf("%.1f°", *e.AltBearingDeg)
+		}
+		fmt.Fprintf(tw, "%-5d %-12s %-4s %8.1f° %6.2f° %9s %8.1f %7.0f°  %s\n", b.Index, b.Ident, b.Transmitter,
+			e.BearingDeg, e.SigmaDeg, alt, e.NullDepthDB, e.CoverageDeg, strings.Join(e.Warnings, "; "))
+	}
+	fmt.Fprintln(tw)
+	fmt.Fprintf(tw, "%-12s %-4s %9s %7s %9s %7s  %s\n", "ident", "tx", "bearing", "±1σ", "alt", "bursts", "notes")
+	for _, t := range txs {
+		if t.Err != nil {
+			fmt.Fprintf(tw, "%-12s %-4s %9s  %s\n", t.Ident, t.Transmitter, "-", t.Err)
+			continue
+		}
+		c := t.Combined
+		alt := "-"
+		if c.AltBearingDeg != nil {
+			alt = fmt.Sprintf("%.1f°", *c.AltBearingDeg)
+		}
+		var notes []string
+		notes = append(notes, c.Warnings...)
+		for _, x := range c.Excluded {
+			notes = append(notes, fmt.Sprintf("left out %.1f°: %s", x.BearingDeg, x.Reason))
+		}
+		fmt.Fprintf(tw, "%-12s %-4s %8.1f° %6.1f° %9s %7d  %s\n", t.Ident, t.Transmitter, c.BearingDeg, t.SigmaDeg, alt, c.BurstsUsed, strings.Join(notes, "; "))
+	}
+	fmt.Fprintf(tw, "(±1σ of a transmitter includes a %.1f° site error; bearings are from true north)\n", firstSite(txs))
+	return tw.err
+}
+
+func firstSite(txs []TxBearing) float64 {
+	for _, t := range txs {
+		if t.Err == nil {
+			return t.SiteSigmaDeg
+		}
+	}
+	return 0
 }

@@ -3,7 +3,6 @@ package main
 import (
 	"encoding/json"
 	"fmt"
-	"io"
 	"os"
 	"path/filepath"
 	"strings"
@@ -83,7 +82,7 @@ rather than invents a bearing when the sweep cannot support one.`,
 				}
 				return nil
 			}
-			return writeBearingTable(os.Stdout, bbs, txs)
+			return survey.WriteBearingTable(os.Stdout, bbs, txs)
 		},
 	}
 	in.add(cmd)
@@ -95,54 +94,6 @@ rather than invents a bearing when the sweep cannot support one.`,
 	cmd.Flags().StringVar(&lopCSV, "bearings-csv", "", "write the transmitters' bearings as a CSV that `nullseek fix` reads (needs --station)")
 	addLive(cmd, &in, &idf, &hf) // live receiver and rotator sweep: live.go
 	rootCmd.AddCommand(cmd)
-}
-
-func writeBearingTable(w io.Writer, bbs []survey.BurstBearing, txs []survey.TxBearing) error {
-	tw := &errW{w: w}
-	fmt.Fprintf(tw, "%-5s %-12s %-4s %9s %7s %9s %8s %8s  %s\n", "burst", "ident", "tx", "bearing", "±1σ", "alt", "null dB", "cover", "notes")
-	for _, b := range bbs {
-		if b.Err != nil {
-			fmt.Fprintf(tw, "%-5d %-12s %-4s %9s  %s\n", b.Index, b.Ident, b.Transmitter, "-", b.Err)
-			continue
-		}
-		e := b.Est
-		alt := "-"
-		if e.AltBearingDeg != nil {
-			alt = fmt.Sprintf("%.1f°", *e.AltBearingDeg)
-		}
-		fmt.Fprintf(tw, "%-5d %-12s %-4s %8.1f° %6.2f° %9s %8.1f %7.0f°  %s\n", b.Index, b.Ident, b.Transmitter,
-			e.BearingDeg, e.SigmaDeg, alt, e.NullDepthDB, e.CoverageDeg, strings.Join(e.Warnings, "; "))
-	}
-	fmt.Fprintln(tw)
-	fmt.Fprintf(tw, "%-12s %-4s %9s %7s %9s %7s  %s\n", "ident", "tx", "bearing", "±1σ", "alt", "bursts", "notes")
-	for _, t := range txs {
-		if t.Err != nil {
-			fmt.Fprintf(tw, "%-12s %-4s %9s  %s\n", t.Ident, t.Transmitter, "-", t.Err)
-			continue
-		}
-		c := t.Combined
-		alt := "-"
-		if c.AltBearingDeg != nil {
-			alt = fmt.Sprintf("%.1f°", *c.AltBearingDeg)
-		}
-		var notes []string
-		notes = append(notes, c.Warnings...)
-		for _, x := range c.Excluded {
-			notes = append(notes, fmt.Sprintf("left out %.1f°: %s", x.BearingDeg, x.Reason))
-		}
-		fmt.Fprintf(tw, "%-12s %-4s %8.1f° %6.1f° %9s %7d  %s\n", t.Ident, t.Transmitter, c.BearingDeg, t.SigmaDeg, alt, c.BurstsUsed, strings.Join(notes, "; "))
-	}
-	fmt.Fprintf(tw, "(±1σ of a transmitter includes a %.1f° site error; bearings are from true north)\n", firstSite(txs))
-	return tw.err
-}
-
-func firstSite(txs []survey.TxBearing) float64 {
-	for _, t := range txs {
-		if t.Err == nil {
-			return t.SiteSigmaDeg
-		}
-	}
-	return 0
 }
 
 // writeBearingPlots draws one polar plot per transmitter, from its first
@@ -189,18 +140,4 @@ func writeLOPs(path string, hf *headingFlags, start time.Time, txs []survey.TxBe
 		fmt.Fprintf(&b, "%s,%s,%.6f,%.6f,%.2f,%.2f,true,%s,%v\n", t.Ident, st, lat, lon, t.Combined.BearingDeg, t.SigmaDeg, when, t.Combined.AltBearingDeg != nil)
 	}
 	return writeFileAtomic(path, []byte(b.String()))
-}
-
-type errW struct {
-	w   io.Writer
-	err error
-}
-
-func (e *errW) Write(p []byte) (int, error) {
-	if e.err != nil {
-		return 0, e.err
-	}
-	n, err := e.w.Write(p)
-	e.err = err
-	return n, err
 }
