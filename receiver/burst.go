@@ -34,6 +34,11 @@ type Burst struct {
 	// burst: its start or end is the recording's, not the transmitter's.
 	CutAtStart bool `json:"cut_at_start,omitempty"`
 	CutAtEnd   bool `json:"cut_at_end,omitempty"`
+	// DoubleCarrier says the carrier frequency stepped inside the burst by
+	// more than one transmitter's carrier wanders: two on the air at once.
+	// CarrierSpreadHz is the spread of one-second carrier estimates.
+	DoubleCarrier   bool    `json:"double_carrier,omitempty"`
+	CarrierSpreadHz float64 `json:"carrier_spread_hz"`
 	// ChannelRateHz is the sample rate of FMAudio and AMAudio.
 	ChannelRateHz float64 `json:"-"`
 	// Level is the level track over the burst (≥ 100 readings a second).

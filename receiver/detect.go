@@ -235,23 +235,26 @@ func (s *Scanner) closeBurst() {
 		clip += rd[i].clip
 	}
 	mean := psum / float64(hi-lo+1)
+	double, spread := s.carrierStep(rd[lo:hi+1], noise)
 	s.nBursts++
 	bu := &Burst{
-		Index:         s.nBursts,
-		StartSample:   int64(math.Round(startS * s.info.SampleRate)),
-		EndSample:     int64(math.Round(endS * s.info.SampleRate)),
-		StartS:        startS,
-		EndS:          endS,
-		Start:         s.timeOf(startS),
-		End:           s.timeOf(endS),
-		OffsetHz:      s.offsetHz + cmplx.Phase(r1)*s.outRate/(2*math.Pi),
-		LevelDB:       dsp.DBFS(mean),
-		PeakDB:        dsp.DBFS(peak),
-		NoiseDB:       dsp.DBFS(noise),
-		Clipped:       float64(clip) / (float64(last-first+1) * float64(s.chunkIn)),
-		ChannelRateHz: s.outRate,
-		CutAtStart:    b.cutAtStart,
-		CutAtEnd:      s.atEnd,
+		Index:           s.nBursts,
+		StartSample:     int64(math.Round(startS * s.info.SampleRate)),
+		EndSample:       int64(math.Round(endS * s.info.SampleRate)),
+		StartS:          startS,
+		EndS:            endS,
+		Start:           s.timeOf(startS),
+		End:             s.timeOf(endS),
+		OffsetHz:        s.offsetHz + cmplx.Phase(r1)*s.outRate/(2*math.Pi),
+		LevelDB:         dsp.DBFS(mean),
+		PeakDB:          dsp.DBFS(peak),
+		NoiseDB:         dsp.DBFS(noise),
+		Clipped:         float64(clip) / (float64(last-first+1) * float64(s.chunkIn)),
+		ChannelRateHz:   s.outRate,
+		CutAtStart:      b.cutAtStart,
+		DoubleCarrier:   double,
+		CarrierSpreadHz: spread,
+		CutAtEnd:        s.atEnd,
 	}
 	if mean > noise {
 		bu.SNRDB = 10 * math.Log10((mean-noise)/noise)
@@ -285,4 +288,39 @@ func (s *Scanner) closeBurst() {
 	if s.emit != nil && s.err == nil {
 		s.err = s.emit(bu)
 	}
+}
+
+// doubleCarrierHz is the carrier step inside one burst that marks two
+// transmitters on the air at once: far above the few hertz one carrier
+// wanders, and below the tens to hundreds of hertz by which cheap crystals
+// differ (common practice).
+const doubleCarrierHz = 60
+
+// carrierStep measures the carrier frequency over one-second windows of the
+// burst's readings (those at least 10 dB over the noise) and reports
+// whether it jumps by more than doubleCarrierHz, with the spread found: when
+// a second transmitter comes on, FM capture hands the discriminator to the
+// stronger carrier and the frequency steps.
+func (s *Scanner) carrierStep(rd []reading, noise float64) (bool, float64) {
+	per := max(1, int(1/s.readingS()))
+	lo, hi := math.Inf(1), math.Inf(-1)
+	n := 0
+	for i := 0; i+per <= len(rd); i += per {
+		var r1 complex128
+		var p float64
+		for _, x := range rd[i : i+per] {
+			r1 += x.r1
+			p += x.p
+		}
+		if p/float64(per) < 10*noise {
+			continue
+		}
+		f := cmplx.Phase(r1) * s.outRate / (2 * math.Pi)
+		lo, hi = math.Min(lo, f), math.Max(hi, f)
+		n++
+	}
+	if n < 2 {
+		return false, 0
+	}
+	return hi-lo > doubleCarrierHz, hi - lo
 }

@@ -78,3 +78,50 @@ func TestCutBursts(t *testing.T) {
 		t.Errorf("cut burst SNR %.1f dB, floors %.1f and %.1f dBFS", got[0].SNRDB, got[0].NoiseDB, got[1].NoiseDB)
 	}
 }
+
+// twoCarriers overlays a second, stronger carrier from t2 on.
+type twoCarriers struct {
+	toneSource
+	off2, amp2, t2 float64
+}
+
+func (s *twoCarriers) Read(dst []complex64) (int, error) {
+	n0 := s.n
+	k, err := s.toneSource.Read(dst)
+	for i := 0; i < k; i++ {
+		t := float64(n0+int64(i)) / s.rate
+		if t >= s.t2 && t < s.on[0][1]+1 {
+			ph := 2 * math.Pi * s.off2 * t
+			dst[i] += complex(float32(s.amp2*math.Cos(ph)), float32(s.amp2*math.Sin(ph)))
+		}
+	}
+	return k, err
+}
+
+// TestDoubleCarrier: a second transmitter 300 Hz away coming on inside a
+// burst is flagged; a single carrier is not.
+func TestDoubleCarrier(t *testing.T) {
+	base := toneSource{rate: 96000, offsetHz: 5000, amp: 0.1, sigma: 0.002,
+		on: [][2]float64{{0.5, 3.5}}, total: 5 * 96000}
+	one := base
+	one.rng = rand.New(rand.NewSource(2))
+	two := &twoCarriers{toneSource: base, off2: 5300, amp2: 0.3, t2: 2}
+	two.rng = rand.New(rand.NewSource(3))
+	for _, c := range []struct {
+		name string
+		src  sdr.Source
+		want bool
+	}{{"one", &one, false}, {"two", two, true}} {
+		sc, err := NewScanner(c.src.Info(), Config{OffsetHz: 5000})
+		if err != nil {
+			t.Fatal(err)
+		}
+		var got []*Burst
+		if _, err := sc.Run(context.Background(), c.src, func(b *Burst) error { got = append(got, b); return nil }, nil); err != nil {
+			t.Fatal(err)
+		}
+		if len(got) != 1 || got[0].DoubleCarrier != c.want {
+			t.Errorf("%s: %d bursts, double carrier %v (spread %.1f Hz), want %v", c.name, len(got), len(got) > 0 && got[0].DoubleCarrier, got[0].CarrierSpreadHz, c.want)
+		}
+	}
+}

@@ -26,6 +26,7 @@ type burstLine struct {
 	Clipped         float64  `json:"clipped"`
 	CutAtStart      bool     `json:"cut_at_start,omitempty"`
 	CutAtEnd        bool     `json:"cut_at_end,omitempty"`
+	DoubleCarrier   bool     `json:"double_carrier,omitempty"`
 	Mode            string   `json:"mode,omitempty"`
 	Text            string   `json:"text"`
 	Ident           string   `json:"ident"`
@@ -57,7 +58,7 @@ func (r Record) MarshalJSON() ([]byte, error) {
 		Start: rfc3339(r.Start), End: rfc3339(r.End),
 		OffsetHz: round(r.OffsetHz, 1),
 		LevelDB:  round(r.LevelDB, 2), PeakDB: round(r.PeakDB, 2), NoiseDB: round(r.NoiseDB, 2),
-		Clipped: round(r.Clipped, 6), CutAtStart: r.CutAtStart, CutAtEnd: r.CutAtEnd, Mode: r.Mode, Text: r.Text, Ident: r.Ident,
+		Clipped: round(r.Clipped, 6), CutAtStart: r.CutAtStart, CutAtEnd: r.CutAtEnd, DoubleCarrier: r.DoubleCarrier, Mode: r.Mode, Text: r.Text, Ident: r.Ident,
 		IdentConfidence: round(r.IdentConfidence, 3), IdentMethod: r.IdentMethod,
 		ToneHz: round(r.ToneHz, 1), WPM: round(r.WPM, 1), Transmitter: r.Transmitter,
 		Warnings: r.Warnings,

@@ -87,6 +87,9 @@ func Run(ctx context.Context, src sdr.Source, opts Options, progress func(int64)
 		if !opts.NoIdent {
 			identify(&r, b, opts.Mode, matcher)
 		}
+		if b.DoubleCarrier {
+			r.Warnings = append(r.Warnings, fmt.Sprintf("carrier stepped by %.0f Hz inside the burst: two transmitters on the air at once?", b.CarrierSpreadHz))
+		}
 		// The audio has done its job; keep the record small.
 		r.FMAudio, r.AMAudio = nil, nil
 		res.Records = append(res.Records, r)
@@ -132,6 +135,7 @@ func Observations(recs []Record) []ident.Observation {
 			Index: r.Index, StartS: r.StartS, EndS: r.EndS, Start: r.Start,
 			OffsetHz: r.OffsetHz, ToneHz: r.ToneHz, LevelDB: r.LevelDB,
 			Ident: r.Ident, IdentConfidence: r.IdentConfidence,
+			DoubleCarrier: r.DoubleCarrier,
 		}
 	}
 	return obs
