@@ -85,18 +85,31 @@ func FindCarriers(src sdr.Source, cs CarrierSearch) ([]dsp.Carrier, error) {
 	spec := avg.Result(nil)
 	found := dsp.FindCarriers(spec, info.SampleRate, cs.MinSNRDB)
 	sort.Slice(found, func(i, j int) bool { return found[i].LevelDB > found[j].LevelDB })
+	// Merge the peaks of one channel (an FM carrier shows sidebands at the
+	// tone's multiples, often stronger than the carrier itself): the
+	// carrier is the power-weighted centre of its channel's peaks.
 	var out []dsp.Carrier
+	var wsum, fsum []float64
 	for _, c := range found {
-		near := false
-		for _, o := range out {
-			if math.Abs(o.OffsetHz-c.OffsetHz) < cs.ChannelHz {
-				near = true
+		w := math.Pow(10, c.LevelDB/10)
+		k := -1
+		for i, o := range out {
+			if math.Abs(o.OffsetHz-c.OffsetHz) < cs.ChannelHz/2 {
+				k = i
 				break
 			}
 		}
-		if !near {
+		if k < 0 {
 			out = append(out, c)
+			wsum = append(wsum, w)
+			fsum = append(fsum, w*c.OffsetHz)
+			continue
 		}
+		wsum[k] += w
+		fsum[k] += w * c.OffsetHz
+	}
+	for i := range out {
+		out[i].OffsetHz = fsum[i] / wsum[i]
 	}
 	return out, nil
 }
