@@ -1,0 +1,180 @@
+package receiver
+
+import (
+	"context"
+	"io"
+	"math"
+	"math/rand"
+	"runtime"
+	"testing"
+	"time"
+
+	"nullseek/sdr"
+)
+
+// cycleSource is an endless-looking cu8 stream made by replaying a
+// precomputed one-second buffer until totalS seconds have been delivered:
+// Gaussian noise with one FM-like carrier burst per second, so the scanner
+// opens, measures and emits a burst every second for the whole input. It
+// implements sdr.Source and sdr.CU8Reader (the scanner's fast path).
+type cycleSource struct {
+	info  sdr.Info
+	buf   []byte // one second of cu8
+	pos   int    // byte position in buf
+	left  int64  // bytes still to deliver
+	total int64
+}
+
+const memOffsetHz = 20e3
+
+func newCycleSource(rate, totalS float64) *cycleSource {
+	n := int(rate)
+	buf := make([]byte, 2*n)
+	rng := rand.New(rand.NewSource(1))
+	const noiseSigma = 0.02 // per component, full scale 1: about −31 dBFS of noise
+	var ph float64
+	for i := 0; i < n; i++ {
+		t := float64(i) / rate
+		re, im := noiseSigma*rng.NormFloat64(), noiseSigma*rng.NormFloat64()
+		if t >= 0.2 && t < 0.65 { // a 0.45 s burst every second, 0.3 amplitude (about 20 dB SNR in the channel)
+			f := memOffsetHz + 2500*math.Sin(2*math.Pi*800*t)
+			ph += 2 * math.Pi * f / rate
+			re += 0.3 * math.Cos(ph)
+			im += 0.3 * math.Sin(ph)
+		}
+		q := func(v float64) byte { return byte(math.Max(0, math.Min(255, math.Round(127.5+127.5*v)))) }
+		buf[2*i], buf[2*i+1] = q(re), q(im)
+	}
+	total := int64(totalS*rate) * 2
+	return &cycleSource{
+		info: sdr.Info{SampleRate: rate, Format: "cu8", Name: "cyclic test stream", Samples: total / 2, ClipLevel: 1},
+		buf:  buf, left: total, total: total,
+	}
+}
+
+func (s *cycleSource) Info() sdr.Info { return s.info }
+func (s *cycleSource) Close() error   { return nil }
+
+func (s *cycleSource) ReadCU8(dst []byte) (int, error) {
+	if s.left <= 0 {
+		return 0, io.EOF
+	}
+	dst = dst[:len(dst)&^1]
+	if int64(len(dst)) > s.left {
+		dst = dst[:s.left]
+	}
+	k := 0
+	for k < len(dst) {
+		c := copy(dst[k:], s.buf[s.pos:])
+		k += c
+		s.pos = (s.pos + c) % len(s.buf)
+	}
+	s.left -= int64(k)
+	return k, nil
+}
+
+func (s *cycleSource) Read(dst []complex64) (int, error) {
+	raw := make([]byte, 2*len(dst))
+	n, err := s.ReadCU8(raw)
+	for i := 0; i < n/2; i++ {
+		dst[i] = complex(sdr.CU8Value(raw[2*i]), sdr.CU8Value(raw[2*i+1]))
+	}
+	return n / 2, err
+}
+
+// memRun scans totalS seconds and returns the peak HeapInuse seen (sampled
+// after every block the scanner consumes), the largest live heap after a
+// forced GC (taken every ~tenth of the input), and the number of bursts.
+func memRun(t *testing.T, rate, totalS float64) (peak, live uint64, bursts int) {
+	t.Helper()
+	src := newCycleSource(rate, totalS)
+	sc, err := NewScanner(src.Info(), Config{OffsetHz: memOffsetHz, KeepAudio: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	runtime.GC()
+	var ms runtime.MemStats
+	runtime.ReadMemStats(&ms)
+	peak, live = ms.HeapInuse, ms.HeapInuse
+	next := int64(0)
+	step := int64(totalS * rate / 10)
+	progress := func(n int64) {
+		runtime.ReadMemStats(&ms)
+		peak = max(peak, ms.HeapInuse)
+		if n >= next {
+			runtime.GC()
+			runtime.ReadMemStats(&ms)
+			live = max(live, ms.HeapInuse)
+			next += step
+		}
+	}
+	emit := func(b *Burst) error { bursts++; return nil }
+	if _, err := sc.Run(context.Background(), src, emit, progress); err != nil {
+		t.Fatal(err)
+	}
+	return peak, live, bursts
+}
+
+// TestMemoryFlat: project issue "Memory does not grow with input: scanning a
+// 10-minute recording peaks within 10 % of a 1-minute one". The input rate
+// is 240 kS/s (RTL-SDR's lowest useful rate is 225–300 kS/s; librtlsdr
+// rtl-sdr.h, REFERENCES §2) so that 600 s of input is 144 M samples and the
+// test stays a few seconds long on a shared machine; the scanner's buffers
+// are sized per block, not per recording, so the rate does not change what
+// is being checked. The scanner keeps audio (KeepAudio) and a burst starts
+// every second, so every per-burst buffer is exercised 600 times.
+//
+// Slack: 10 % (the requirement) plus 1 MiB absolute, because HeapInuse is
+// sampled between garbage collections and its maximum over 10× more GC
+// cycles can be higher by a span or two of short-lived garbage (per-burst
+// level tracks and audio, ~0.1 MiB each) even when nothing is retained;
+// the live heap after a forced GC has a tighter 256 KiB slack.
+func TestMemoryFlat(t *testing.T) {
+	const rate = 240e3
+	t0 := time.Now()
+	peak1, live1, n1 := memRun(t, rate, 60)
+	t1 := time.Now()
+	peak10, live10, n10 := memRun(t, rate, 600)
+	t2 := time.Now()
+	const mib = 1 << 20
+	t.Logf("60 s: %d bursts, peak HeapInuse %.2f MiB, live %.2f MiB (%.1f s)", n1, float64(peak1)/mib, float64(live1)/mib, t1.Sub(t0).Seconds())
+	t.Logf("600 s: %d bursts, peak HeapInuse %.2f MiB, live %.2f MiB (%.1f s, %.0f MS/s with sampling)", n10, float64(peak10)/mib, float64(live10)/mib, t2.Sub(t1).Seconds(), 600*rate/1e6/t2.Sub(t1).Seconds())
+	// One burst per second of input: the test stream is doing its job.
+	if n1 < 59 || n1 > 61 || n10 < 599 || n10 > 601 {
+		t.Fatalf("bursts %d and %d, want about 60 and 600", n1, n10)
+	}
+	if float64(peak10) > 1.10*float64(peak1)+mib {
+		t.Errorf("10-minute peak heap %.2f MiB exceeds the 1-minute peak %.2f MiB by more than 10 %% + 1 MiB", float64(peak10)/mib, float64(peak1)/mib)
+	}
+	if live10 > live1+256<<10 {
+		t.Errorf("live heap after GC grew from %.2f MiB to %.2f MiB", float64(live1)/mib, float64(live10)/mib)
+	}
+}
+
+// BenchmarkScanCU8 runs the whole Scanner (cu8 fast path: clip count,
+// channelizer to 48 kS/s, power readings, FM and AM audio kept for bursts,
+// burst detector) on 2.4 MS/s input with a 0.45 s burst every second.
+// MS/s is millions of complex input samples per second of wall time.
+func BenchmarkScanCU8(b *testing.B) {
+	const rate = 2.4e6
+	const secondsPerOp = 2
+	base := newCycleSource(rate, secondsPerOp)
+	b.SetBytes(int64(2 * rate * secondsPerOp))
+	b.ReportAllocs()
+	b.ResetTimer()
+	var bursts int
+	for i := 0; i < b.N; i++ {
+		src := &cycleSource{info: base.info, buf: base.buf, left: base.total, total: base.total}
+		sc, err := NewScanner(src.Info(), Config{OffsetHz: memOffsetHz, KeepAudio: true})
+		if err != nil {
+			b.Fatal(err)
+		}
+		if _, err := sc.Run(context.Background(), src, func(*Burst) error { bursts++; return nil }, nil); err != nil {
+			b.Fatal(err)
+		}
+	}
+	b.ReportMetric(float64(b.N)*rate*secondsPerOp/1e6/b.Elapsed().Seconds(), "MS/s")
+	if bursts < b.N {
+		b.Fatalf("%d bursts in %d runs", bursts, b.N)
+	}
+}
