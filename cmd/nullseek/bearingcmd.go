@@ -58,6 +58,9 @@ rather than invents a bearing when the sweep cannot support one.`,
 				tr = tr.WithLag(-lag)
 			}
 			bbs, txs := survey.Bearings(res, tr, pat, fo, hf.siteSigma)
+			if err := noBearing(args[0], bbs, txs); err != nil {
+				return err
+			}
 			if plot != "" {
 				if err := writeBearingPlots(plot, bbs, txs, pat); err != nil {
 					return err
@@ -94,6 +97,30 @@ rather than invents a bearing when the sweep cannot support one.`,
 	cmd.Flags().StringVar(&lopCSV, "bearings-csv", "", "write the transmitters' bearings as a CSV that `nullseek fix` reads (needs --station)")
 	addLive(cmd, &in, &idf, &hf) // live receiver and rotator sweep: live.go
 	rootCmd.AddCommand(cmd)
+}
+
+// noBearing is an error when no transmitter got a bearing (a heading log
+// that misses the recording, a sweep under 90°, ...): the command then has
+// nothing to report and exits non-zero with the bursts' reasons, writing
+// no files.
+func noBearing(path string, bbs []survey.BurstBearing, txs []survey.TxBearing) error {
+	for _, t := range txs {
+		if t.Err == nil {
+			return nil
+		}
+	}
+	var reasons []string
+	seen := map[string]bool{}
+	for _, b := range bbs {
+		if b.Err != nil && !seen[b.Err.Error()] {
+			seen[b.Err.Error()] = true
+			reasons = append(reasons, fmt.Sprintf("burst %d: %v", b.Index, b.Err))
+		}
+	}
+	if len(reasons) > 3 {
+		reasons = append(reasons[:3], fmt.Sprintf("and %d more", len(reasons)-3))
+	}
+	return fmt.Errorf("%s: no bearing from any of its %d bursts: %s", path, len(bbs), strings.Join(reasons, "; "))
 }
 
 // writeBearingPlots draws one polar plot per transmitter, from its first
