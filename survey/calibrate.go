@@ -32,15 +32,17 @@ type Calibration struct {
 	// [0, 360), as given.
 	KnownBearingDeg float64
 	// NorthOffsetDeg is what to add to the track's headings (after any
-	// mount offset the track already carries) so that the nominal pattern's
-	// boresight points where the transmitter was seen: true heading of the
-	// boresight = track heading + NorthOffsetDeg, in (−180, 180].
+	// mount offset the track already carries) to get the heading of the
+	// measured pattern's boresight, the middle of its main lobe (peak) or
+	// null: true boresight = track heading + NorthOffsetDeg, in
+	// (−180, 180] (for an ambiguous pattern, the smallest equivalent).
 	NorthOffsetDeg float64
-	// SigmaDeg is the 1-sigma of NorthOffsetDeg: the alignment fit's sigma
-	// (it carries the mismatch between the nominal and real patterns in
-	// its residuals). Site errors of the calibration spot are not in it.
+	// SigmaDeg is the 1-sigma of NorthOffsetDeg from the level noise: the
+	// sigma of a refit of the sweep with the measured pattern. Errors of
+	// the calibration site (multipath) repeat on every turn and are not in
+	// it; Alignment.SigmaDeg shows how far the nominal pattern was off.
 	SigmaDeg float64
-	// Pattern is the measured pattern, relative to the corrected boresight,
+	// Pattern is the measured pattern, centred on the corrected boresight,
 	// with the nominal pattern's Mode and Symmetry.
 	Pattern bearing.Pattern
 	// Alignment is the fit of the nominal pattern that fixed the offset.
@@ -83,8 +85,10 @@ func Shape(p bearing.Pattern) PatternShape {
 // offset from the bursts of one transmitter at a known bearing
 // (knownBearingDeg, degrees true): the level readings of all its bursts are
 // joined with track (survey.Points), pooled, and handed to
-// bearing.Calibrate with the nominal pattern, which fixes the boresight.
-// The pooled sweep must cover at least 340° of the circle (the whole
+// bearing.Calibrate with the nominal pattern, which fixes the boresight
+// roughly; the boresight is then moved to the middle of the measured
+// pattern's feature, and a refit of the sweep with the measured pattern
+// sets the offset and its sigma. The pooled sweep must cover at least 340° of the circle (the whole
 // pattern is measured). Errors say which transmitter and why.
 func Calibrate(res *Result, track *heading.Track, nominal bearing.Pattern, knownBearingDeg float64, opts CalibrationOptions) (*Calibration, error) {
 	if math.IsNaN(knownBearingDeg) || math.IsInf(knownBearingDeg, 0) {
@@ -137,10 +141,123 @@ func Calibrate(res *Result, track *heading.Track, nominal bearing.Pattern, known
 	if err != nil {
 		return nil, fmt.Errorf("calibrate on %s: %w", key, err)
 	}
+	// The nominal pattern fixed the boresight only roughly: when the real
+	// pattern differs, the alignment leans by a degree or so. Move the
+	// boresight to the middle of the measured pattern's feature (the −3 dB
+	// beam for a peak, the +3 dB null for a null) so that the offset is the
+	// heading source's real error and the pattern is centred on 0°.
+	centre, err := featureCentre(pat)
+	if err != nil {
+		return nil, fmt.Errorf("calibrate on %s: %w", key, err)
+	}
+	pat, err = rotatePattern(pat, centre)
+	if err != nil {
+		return nil, fmt.Errorf("calibrate on %s: %w", key, err)
+	}
+	off += centre
+	// Refit the sweep with the measured pattern: what is left between its
+	// bearing and the known one goes into the offset, and its sigma is the
+	// offset's (noise only; the site's errors are not in one sweep).
+	shifted := make([]bearing.Point, len(pts))
+	for i, q := range pts {
+		q.HeadingDeg = wrap360(q.HeadingDeg + off)
+		shifted[i] = q
+	}
+	check, err := bearing.Fit(shifted, pat, fo)
+	if err != nil {
+		return nil, fmt.Errorf("calibrate on %s: refit with the measured pattern: %w", key, err)
+	}
+	off += wrap180(known - check.BearingDeg)
+	period := 360 / float64(pat.Symmetry)
+	off = math.Mod(off+period/2+4*360, period) - period/2
+	if off <= -180 {
+		off += 360
+	}
 	return &Calibration{
-		Ident: key, KnownBearingDeg: known, NorthOffsetDeg: off, SigmaDeg: align.SigmaDeg,
+		Ident: key, KnownBearingDeg: known, NorthOffsetDeg: off, SigmaDeg: check.SigmaDeg,
 		Pattern: pat, Alignment: align, Bursts: bursts, Points: len(pts), Shape: Shape(pat),
 	}, nil
+}
+
+// featureCentre is the middle of the feature nearest boresight (within
+// half a period), degrees clockwise of boresight: between the −3 dB points
+// of a Peak pattern's main lobe, or the +3 dB points of a Null pattern's
+// null, found on the table linearly interpolated at 0.01°.
+func featureCentre(p bearing.Pattern) (float64, error) {
+	n := len(p.GainDB)
+	g := func(x float64) float64 {
+		x = wrap360(x)
+		i := int(x)
+		f := x - float64(i)
+		return p.GainDB[i%n]*(1-f) + p.GainDB[(i+1)%n]*f
+	}
+	// the extreme nearest boresight, within half a period
+	half := 180 / float64(p.Symmetry)
+	best := 0.0
+	for d := -half; d < half; d += 1 {
+		if (p.Mode == bearing.Peak && g(d) > g(best)) || (p.Mode == bearing.Null && g(d) < g(best)) {
+			best = d
+		}
+	}
+	ref := g(best)
+	cross := func(dir float64) (float64, bool) {
+		for d := 0.01; d < half; d += 0.01 {
+			v := g(best + dir*d)
+			if (p.Mode == bearing.Peak && v <= ref-3) || (p.Mode == bearing.Null && v >= ref+3) {
+				return best + dir*d, true
+			}
+		}
+		return 0, false
+	}
+	hi, ok1 := cross(1)
+	lo, ok2 := cross(-1)
+	if !ok1 || !ok2 {
+		return 0, fmt.Errorf("the measured pattern has no 3 dB %s near boresight", p.Mode)
+	}
+	return (hi + lo) / 2, nil
+}
+
+// rotatePattern returns p turned so that what was at byDeg clockwise of
+// boresight is at boresight: gain'(x) = gain(x + byDeg), interpolated with
+// a periodic Catmull–Rom spline in linear power and renormalised to 0 dB.
+func rotatePattern(p bearing.Pattern, byDeg float64) (bearing.Pattern, error) {
+	n := len(p.GainDB)
+	pw := make([]float64, n)
+	for k, g := range p.GainDB {
+		pw[k] = math.Pow(10, g/10)
+	}
+	out := make([]float64, n)
+	mx := 0.0
+	for k := range out {
+		x := wrap360(float64(k) + byDeg)
+		i := int(x)
+		t := x - float64(i)
+		p0, p1, p2, p3 := pw[(i+n-1)%n], pw[i%n], pw[(i+1)%n], pw[(i+2)%n]
+		v := p1 + 0.5*t*(p2-p0+t*(2*p0-5*p1+4*p2-p3+t*(3*(p1-p2)+p3-p0)))
+		v = math.Max(v, math.Min(p1, p2)*0.5) // no overshoot below zero near a deep null
+		out[k] = v
+		mx = math.Max(mx, v)
+	}
+	q := p
+	q.GainDB = make([]float64, n)
+	for k, v := range out {
+		q.GainDB[k] = math.Max(10*math.Log10(v/mx), bearing.MinGainDB)
+	}
+	if err := q.Validate(); err != nil {
+		return bearing.Pattern{}, fmt.Errorf("rotate pattern: %w", err)
+	}
+	return q, nil
+}
+
+// wrap180 maps degrees to (−180, 180].
+func wrap180(d float64) float64 {
+	d = math.Mod(d, 360)
+	if d > 180 {
+		d -= 360
+	} else if d <= -180 {
+		d += 360
+	}
+	return d
 }
 
 // chooseTransmitter picks the transmitter key named by want, or the only

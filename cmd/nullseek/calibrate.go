@@ -94,7 +94,7 @@ the saved pattern is measured relative to that boresight.`,
 			if cf.asJSON {
 				return json.NewEncoder(out).Encode(calibrationJSON(cal, total, hf.mountOffset, how, cf.out))
 			}
-			return writeCalibration(out, cal, total, hf.mountOffset, how, cf.out)
+			return writeCalibration(out, cal, nominal.Name, total, hf.mountOffset, how, cf.out)
 		},
 	}
 	in.add(cmd)
@@ -173,13 +173,13 @@ func wrapDeg180(d float64) float64 {
 	return d
 }
 
-func writeCalibration(w io.Writer, cal *survey.Calibration, total, given float64, how, path string) error {
-	ew := &errW{w: w}
+func writeCalibration(w io.Writer, cal *survey.Calibration, nominal string, total, given float64, how, path string) error {
+	ew := &strings.Builder{}
 	s := cal.Shape
 	fmt.Fprintf(ew, "calibration transmitter  %s, known bearing %s\n", cal.Ident, how)
 	fmt.Fprintf(ew, "used                     %d burst(s), %d level readings, sweep coverage %.0f°\n", cal.Bursts, cal.Points, cal.Alignment.CoverageDeg)
-	fmt.Fprintf(ew, "seen at                  %.2f° with the nominal pattern (fit residual %.2f dB)\n", cal.Alignment.BearingDeg, cal.Alignment.ResidualDB)
-	fmt.Fprintf(ew, "north offset             %+.2f° ± %.2f° (1σ) measured", cal.NorthOffsetDeg, cal.SigmaDeg)
+	fmt.Fprintf(ew, "seen at                  %.2f° ± %.2f° with the nominal pattern %q (fit residual %.2f dB)\n", cal.Alignment.BearingDeg, cal.Alignment.SigmaDeg, nominal, cal.Alignment.ResidualDB)
+	fmt.Fprintf(ew, "north offset             %+.2f° ± %.2f° (1σ, level noise only) to the middle of the measured main lobe or null", cal.NorthOffsetDeg, cal.SigmaDeg)
 	if given != 0 {
 		fmt.Fprintf(ew, ", on top of --mount-offset %.2f", given)
 	}
@@ -194,14 +194,15 @@ func writeCalibration(w io.Writer, cal *survey.Calibration, total, given float64
 	}
 	fmt.Fprintf(ew, "saved                    %s\n", path)
 	fmt.Fprintf(ew, "use it                   nullseek bearing REC --antenna %s --mount-offset %.2f (and the same heading flags as here)\n", path, total)
-	return ew.err
+	_, err := io.WriteString(w, ew.String())
+	return err
 }
 
 func calibrationJSON(cal *survey.Calibration, total, given float64, how, path string) map[string]any {
 	r := func(v float64, n int) float64 { p := math.Pow(10, float64(n)); return math.Round(v*p) / p }
 	m := map[string]any{
 		"type": "calibration", "ident": cal.Ident, "known_bearing_deg": r(cal.KnownBearingDeg, 4),
-		"known_bearing_source": how, "seen_bearing_deg": r(cal.Alignment.BearingDeg, 3),
+		"known_bearing_source": how, "seen_bearing_deg": r(cal.Alignment.BearingDeg, 3), "seen_sigma_deg": r(cal.Alignment.SigmaDeg, 3),
 		"north_offset_deg": r(cal.NorthOffsetDeg, 3), "north_offset_sigma_deg": r(cal.SigmaDeg, 3),
 		"given_mount_offset_deg": given, "mount_offset_deg": r(total, 3),
 		"bursts_used": cal.Bursts, "points_used": cal.Points, "coverage_deg": r(cal.Alignment.CoverageDeg, 1),
