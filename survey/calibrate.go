@@ -38,9 +38,11 @@ type Calibration struct {
 	// (−180, 180] (for an ambiguous pattern, the smallest equivalent).
 	NorthOffsetDeg float64
 	// SigmaDeg is the 1-sigma of NorthOffsetDeg from the level noise: the
-	// sigma of a refit of the sweep with the measured pattern. Errors of
-	// the calibration site (multipath) repeat on every turn and are not in
-	// it; Alignment.SigmaDeg shows how far the nominal pattern was off.
+	// sigma of a refit of the sweep with the measured pattern and a
+	// split-half estimate of the noise in the pattern's centre, in
+	// quadrature. Errors of the calibration site (multipath) repeat on
+	// every turn and are not in it; Alignment.SigmaDeg shows how far the
+	// nominal pattern was off.
 	SigmaDeg float64
 	// Pattern is the measured pattern, centred on the corrected boresight,
 	// with the nominal pattern's Mode and Symmetry.
@@ -86,8 +88,8 @@ func Shape(p bearing.Pattern) PatternShape {
 // (knownBearingDeg, degrees true): the level readings of all its bursts are
 // joined with track (survey.Points), pooled, and handed to
 // bearing.Calibrate with the nominal pattern, which fixes the boresight
-// roughly; the boresight is then moved to the middle of the measured
-// pattern's feature, and a refit of the sweep with the measured pattern
+// roughly; the boresight is then moved to the measured pattern's axis of
+// symmetry (the middle of its main lobe or null), and a refit of the sweep with the measured pattern
 // sets the offset and its sigma. The pooled sweep must cover at least 340° of the circle (the whole
 // pattern is measured). Errors say which transmitter and why.
 func Calibrate(res *Result, track *heading.Track, nominal bearing.Pattern, knownBearingDeg float64, opts CalibrationOptions) (*Calibration, error) {
@@ -143,13 +145,16 @@ func Calibrate(res *Result, track *heading.Track, nominal bearing.Pattern, known
 	}
 	// The nominal pattern fixed the boresight only roughly: when the real
 	// pattern differs, the alignment leans by a degree or so. Move the
-	// boresight to the middle of the measured pattern's feature (the −3 dB
-	// beam for a peak, the +3 dB null for a null) so that the offset is the
-	// heading source's real error and the pattern is centred on 0°.
-	centre, err := featureCentre(pat)
+	// boresight to the measured pattern's axis of symmetry (the middle of
+	// its main lobe or null) so that the offset is the heading source's
+	// real error and the pattern is centred on its feature.
+	f0 := nominal.FeatureDeg()
+	centre, err := featureCentre(pat, f0)
 	if err != nil {
 		return nil, fmt.Errorf("calibrate on %s: %w", key, err)
 	}
+	centreSigma := splitHalfCentreSigma(pts, known, off, f0, nominal, fo.NoiseFloorDB)
+	centre = wrap180(centre - f0)
 	pat, err = rotatePattern(pat, centre)
 	if err != nil {
 		return nil, fmt.Errorf("calibrate on %s: %w", key, err)
@@ -174,47 +179,81 @@ func Calibrate(res *Result, track *heading.Track, nominal bearing.Pattern, known
 		off += 360
 	}
 	return &Calibration{
-		Ident: key, KnownBearingDeg: known, NorthOffsetDeg: off, SigmaDeg: check.SigmaDeg,
+		Ident: key, KnownBearingDeg: known, NorthOffsetDeg: off, SigmaDeg: math.Hypot(check.SigmaDeg, centreSigma),
 		Pattern: pat, Alignment: align, Bursts: bursts, Points: len(pts), Shape: Shape(pat),
 	}, nil
 }
 
-// featureCentre is the middle of the feature nearest boresight (within
-// half a period), degrees clockwise of boresight: between the −3 dB points
-// of a Peak pattern's main lobe, or the +3 dB points of a Null pattern's
-// null, found on the table linearly interpolated at 0.01°.
-func featureCentre(p bearing.Pattern) (float64, error) {
+// featureCentre is the pattern's axis of mirror symmetry nearest nearDeg
+// (within 45°), degrees clockwise of boresight: the angle c that best
+// matches the gain at c + x with the gain at c − x, in linear power over
+// the whole pattern, at 0.01° resolution. It uses every entry, so it is
+// far steadier on a measured table than the midpoint of the −3 dB
+// crossings. An asymmetric pattern gets the axis that balances it best.
+func featureCentre(p bearing.Pattern, nearDeg float64) (float64, error) {
 	n := len(p.GainDB)
-	g := func(x float64) float64 {
+	pw := make([]float64, n)
+	for k, g := range p.GainDB {
+		pw[k] = math.Pow(10, g/10)
+	}
+	at := func(x float64) float64 {
 		x = wrap360(x)
 		i := int(x)
 		f := x - float64(i)
-		return p.GainDB[i%n]*(1-f) + p.GainDB[(i+1)%n]*f
+		return pw[i%n]*(1-f) + pw[(i+1)%n]*f
 	}
-	// the extreme nearest boresight, within half a period
-	half := 180 / float64(p.Symmetry)
-	best := 0.0
-	for d := -half; d < half; d += 1 {
-		if (p.Mode == bearing.Peak && g(d) > g(best)) || (p.Mode == bearing.Null && g(d) < g(best)) {
-			best = d
+	half := 180 / p.Symmetry
+	cost := func(c float64) float64 {
+		var j float64
+		for k := 1; k < half; k++ {
+			d := at(c+float64(k)) - at(c-float64(k))
+			j += d * d
+		}
+		return j
+	}
+	best, bestJ := nearDeg, math.Inf(1)
+	for c := nearDeg - 45; c <= nearDeg+45; c += 0.25 {
+		if j := cost(c); j < bestJ {
+			best, bestJ = c, j
 		}
 	}
-	ref := g(best)
-	cross := func(dir float64) (float64, bool) {
-		for d := 0.01; d < half; d += 0.01 {
-			v := g(best + dir*d)
-			if (p.Mode == bearing.Peak && v <= ref-3) || (p.Mode == bearing.Null && v >= ref+3) {
-				return best + dir*d, true
+	lo := best
+	for c := lo - 0.25; c <= lo+0.25; c += 0.01 {
+		if j := cost(c); j < bestJ {
+			best, bestJ = c, j
+		}
+	}
+	if math.IsNaN(bestJ) || math.Abs(best-nearDeg) >= 45 {
+		return 0, fmt.Errorf("the measured pattern has no axis of symmetry within 45° of its nominal %s", p.Mode)
+	}
+	return best, nil
+}
+
+// splitHalfCentreSigma estimates the noise of the measured pattern's
+// centre: the patterns of the even and of the odd readings are measured
+// apart and their centres c₁, c₂ compared. Each half has twice the full
+// set's variance, so var(c₁ − c₂) = 4σ² and σ ≈ |c₁ − c₂|/2 (one draw: a
+// rough, order-of-magnitude figure). 0 when a half cannot be measured.
+func splitHalfCentreSigma(pts []bearing.Point, known, off, f0 float64, nominal bearing.Pattern, floorDB *float64) float64 {
+	var c [2]float64
+	for h := 0; h < 2; h++ {
+		var rel, lvl []float64
+		for i := h; i < len(pts); i += 2 {
+			if pts[i].Clipped {
+				continue
 			}
+			rel = append(rel, known-off-pts[i].HeadingDeg)
+			lvl = append(lvl, pts[i].LevelDB)
 		}
-		return 0, false
+		p, err := bearing.Measured("half", rel, lvl, bearing.MeasureOptions{Symmetry: nominal.Symmetry, Mode: nominal.Mode, SmoothDeg: 3, NoiseFloorDB: floorDB})
+		if err != nil {
+			return 0
+		}
+		if c[h], err = featureCentre(p, f0); err != nil {
+			return 0
+		}
 	}
-	hi, ok1 := cross(1)
-	lo, ok2 := cross(-1)
-	if !ok1 || !ok2 {
-		return 0, fmt.Errorf("the measured pattern has no 3 dB %s near boresight", p.Mode)
-	}
-	return (hi + lo) / 2, nil
+	return math.Abs(wrap180(c[0]-c[1])) / 2
 }
 
 // rotatePattern returns p turned so that what was at byDeg clockwise of

@@ -342,7 +342,7 @@ func (f *liveFlags) run(ctx context.Context, cmdName string, t liveTuning, base 
 	}
 	if lc.Track != nil {
 		csv := base + ".csv"
-		if err := writeHeadingLog(csv, lc.Track); err != nil {
+		if err := writeLiveHeadings(csv, lc.Track); err != nil {
 			removeRec()
 			return "", fmt.Errorf("heading log: %w", err)
 		}
@@ -359,6 +359,18 @@ func (f *liveFlags) run(ctx context.Context, cmdName string, t liveTuning, base 
 		notes(fmt.Sprintf("recorded %.1f s", secs))
 	}
 	return meta, nil
+}
+
+// writeLiveHeadings writes the rotator's track as a heading log that
+// heading.ReadLog reads: seconds from the capture start (µs resolution,
+// so close polls keep their order) and degrees.
+func writeLiveHeadings(path string, tr *heading.Track) error {
+	var b strings.Builder
+	b.WriteString("time_s,heading_deg\n")
+	for _, s := range tr.Samples {
+		fmt.Fprintf(&b, "%.6f,%.3f\n", s.T, s.Deg)
+	}
+	return writeFileAtomic(path, []byte(b.String()))
 }
 
 // planString describes the plan for messages.
