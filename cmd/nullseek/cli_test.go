@@ -13,33 +13,51 @@ import (
 	"path/filepath"
 	"slices"
 	"strings"
+	"sync"
 	"testing"
 )
 
-// cliBin is the nullseek binary built once for the whole package by
-// TestMain: running it is the most faithful check of what a user sees
-// (exit status, stdout, stderr).
-var cliBin string
+// cliBin is the nullseek binary, built once for the package on first use
+// (cliBuild): running it is the most faithful check of what a user sees
+// (exit status, stdout, stderr). It is built lazily, not in TestMain's
+// start, because other tests of this package re-run the test binary as a
+// child process, which must not build (or leave) anything.
+var (
+	cliBin, cliDir string
+	cliOnce        sync.Once
+	cliErr         error
+)
 
+func cliBuild(t *testing.T) string {
+	t.Helper()
+	cliOnce.Do(func() {
+		cliDir, cliErr = os.MkdirTemp("", "nullseek-cli-test-")
+		if cliErr != nil {
+			return
+		}
+		goTool, err := exec.LookPath("go")
+		if err != nil {
+			goTool = "/usr/local/go/bin/go"
+		}
+		bin := filepath.Join(cliDir, "nullseek")
+		if out, err := exec.Command(goTool, "build", "-o", bin, ".").CombinedOutput(); err != nil {
+			cliErr = fmt.Errorf("go build ./cmd/nullseek: %v\n%s", err, out)
+			return
+		}
+		cliBin = bin
+	})
+	if cliErr != nil {
+		t.Fatal(cliErr)
+	}
+	return cliBin
+}
+
+// TestMain removes the built binary after the tests.
 func TestMain(m *testing.M) {
-	dir, err := os.MkdirTemp("", "nullseek-cli-test-")
-	if err != nil {
-		fmt.Fprintln(os.Stderr, err)
-		os.Exit(2)
-	}
-	cliBin = filepath.Join(dir, "nullseek")
-	goTool, err := exec.LookPath("go")
-	if err != nil {
-		goTool = "/usr/local/go/bin/go"
-	}
-	build := exec.Command(goTool, "build", "-o", cliBin, ".")
-	if out, err := build.CombinedOutput(); err != nil {
-		fmt.Fprintf(os.Stderr, "go build ./cmd/nullseek: %v\n%s", err, out)
-		os.RemoveAll(dir)
-		os.Exit(2)
-	}
 	code := m.Run()
-	os.RemoveAll(dir)
+	if cliDir != "" {
+		os.RemoveAll(cliDir)
+	}
 	os.Exit(code)
 }
 
@@ -52,7 +70,7 @@ type cliResult struct {
 // cliRun runs the binary in dir with args.
 func cliRun(t *testing.T, dir string, args ...string) cliResult {
 	t.Helper()
-	cmd := exec.Command(cliBin, args...)
+	cmd := exec.Command(cliBuild(t), args...)
 	cmd.Dir = dir
 	var out, errb bytes.Buffer
 	cmd.Stdout, cmd.Stderr = &out, &errb
