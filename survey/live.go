@@ -168,6 +168,9 @@ func CaptureLive(ctx context.Context, src sdr.Source, opts LiveOptions) (*LiveCa
 				mu.Unlock()
 			})
 			if err != nil && !ours(err) && cctx.Err() == nil {
+				if errors.Is(err, heading.ErrRotatorClosed) {
+					err = fmt.Errorf("%w (has rotctld stopped?)", err)
+				}
 				fail(err)
 			}
 		}()
@@ -183,6 +186,9 @@ func CaptureLive(ctx context.Context, src sdr.Source, opts LiveOptions) (*LiveCa
 			}
 			if err != nil {
 				if !ours(err) && cctx.Err() == nil {
+					if errors.Is(err, heading.ErrRotatorClosed) {
+						err = fmt.Errorf("%w (has rotctld stopped?)", err)
+					}
 					fail(err)
 				}
 				return

@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"io/fs"
+	"log/slog"
 	"math"
 	"os"
 	"path/filepath"
@@ -300,7 +301,10 @@ func (f *liveFlags) run(ctx context.Context, cmdName string, t liveTuning, base 
 		ref = heading.Magnetic
 	}
 	if t.plan != nil {
-		rot, err = heading.DialRotator(ctx, f.rotator, heading.RotatorOptions{CaptureStart: info.Start, PollHz: f.pollHz, Ref: ref})
+		// The rotator's own warnings (a failed stop after a lost
+		// connection) would repeat the one error line; keep errors only.
+		quiet := slog.New(slog.NewTextHandler(os.Stderr, &slog.HandlerOptions{Level: slog.LevelError}))
+		rot, err = heading.DialRotator(ctx, f.rotator, heading.RotatorOptions{CaptureStart: info.Start, PollHz: f.pollHz, Ref: ref, Logger: quiet})
 		if err != nil {
 			return "", err
 		}
