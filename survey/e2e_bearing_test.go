@@ -63,6 +63,7 @@ func readRotTruth(t *testing.T, path string) rotTruth {
 // ambiguous: the bearing or its reported alternate must match it.
 func TestE2EBearingRotatingLoop(t *testing.T) {
 	needGNURadio(t)
+	t.Parallel()
 	committed := filepath.Join(testdataDir, "bearing")
 	cases := []struct {
 		name string

@@ -246,13 +246,17 @@ func scoreMorse(t *testing.T, res *Result, truth []truthBurst) morseScore {
 // script (testdata/e2e/make_morse_bursts.py, which calls
 // testdata/morse/make_fm_iq.py for every burst) into a temporary directory:
 // seven free-text bursts (108 characters, so that one error is within
-// 1 %) at each of CNR 12 and 15 dB, and twenty known-ID bursts at CNR 6 dB
+// 1 %) at CNR 12 dB (and 15 dB with NULLSEEK_E2E_FULL=1), and twenty
+// known-ID bursts at CNR 6 dB
 // (whose free-text CER is reported too), each recording with quiet gaps.
 func TestE2EMorseGenerated(t *testing.T) {
 	needGNURadio(t, "ebook2cw", "sox")
-	cerCNRs := []float64{12, 15}
-	if testing.Short() {
-		cerCNRs = []float64{12}
+	t.Parallel() // mostly waiting on Python; overlaps the other end-to-end tests
+	// CNR 12 dB is the requirement's hardest case; 15 dB adds runtime, not
+	// evidence, so it runs only with NULLSEEK_E2E_FULL=1.
+	cerCNRs := []float64{12}
+	if os.Getenv("NULLSEEK_E2E_FULL") == "1" {
+		cerCNRs = append(cerCNRs, 15)
 	}
 	var cs []string
 	for _, c := range cerCNRs {

@@ -75,10 +75,12 @@ def quantise(x):
 def write_set(out, name, cases, cnr, seed, tmp, audio_cache):
     ampl = fmiq.noise_ampl(cnr)
     gap = int(GAP_S * fmiq.RATE)
+    # All the gaps of the set from one noise_source_c run (one flowgraph).
+    seed += 1
+    gaps = quantise(noise_iq(gap * (len(cases) + 1), ampl, seed)).reshape(len(cases) + 1, 2 * gap)
     parts, rows, pos = [], [], 0
-    for wpm, tone, text in cases:
-        seed += 1
-        parts.append(quantise(noise_iq(gap, ampl, seed)))
+    for i, (wpm, tone, text) in enumerate(cases):
+        parts.append(gaps[i])
         pos += gap
         key = (wpm, tone, text)
         if key not in audio_cache:
@@ -89,8 +91,7 @@ def write_set(out, name, cases, cnr, seed, tmp, audio_cache):
         n = len(b) // 2
         rows.append((pos / fmiq.RATE, (pos + n) / fmiq.RATE, wpm, tone, text, seed))
         pos += n
-    seed += 1
-    parts.append(quantise(noise_iq(gap, ampl, seed)))
+    parts.append(gaps[-1])
     np.concatenate(parts).tofile(os.path.join(out, name + ".cu8"))
     with open(os.path.join(out, name + ".tsv"), "w") as f:
         f.write("start_s\tend_s\twpm\ttone_hz\ttext\tseed\n")
