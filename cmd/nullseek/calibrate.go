@@ -34,9 +34,11 @@ func init() {
 		Short: "Measure the antenna's real pattern and the heading source's north offset on a transmitter at a known position",
 		Long: `calibrate takes a recording (or a live receiver, see --rotator) made while the
 antenna turned through a whole circle with a transmitter at a known place,
-fits the nominal pattern (--antenna) to find how far the heading source's
-north is off, measures the antenna's real pattern from the same sweep and
-saves it (--out pattern.json).
+fits the nominal pattern (--antenna) to line the sweep up, measures the
+antenna's real pattern from the same sweep, centres it on its axis of
+symmetry (the middle of its main lobe or null) and saves it (--out
+pattern.json). The offset printed is how far the heading source's north is
+from that axis.
 
 Use the two together in later fits, with the same heading flags as here:
 
@@ -74,8 +76,9 @@ the saved pattern is measured relative to that boresight.`,
 				if err != nil {
 					return err
 				}
-				notes(fmt.Sprintf("level lags heading by %.3f ± %.3f s: removed (give --lag %.3f in later fits)", lag, sig, hf.lag+lag))
-				tr = tr.WithLag(-lag)
+				// lag is what is left on top of --lag; take it off.
+				notes(fmt.Sprintf("level lags heading by %.3f ± %.3f s: removed (give --lag %.3f in later fits)", lag, sig, hf.lag-lag))
+				tr = tr.WithLag(hf.lag - lag)
 			}
 			when := "undated"
 			if !res.Info.Start.IsZero() {
@@ -190,7 +193,9 @@ func writeCalibration(w io.Writer, cal *survey.Calibration, nominal string, tota
 		fmt.Fprintf(ew, "measured pattern         null, null depth %.1f dB, null width %.1f° (+3 dB)\n", s.NullDepthDB, s.WidthDeg)
 	}
 	for _, warn := range cal.Alignment.Warnings {
-		fmt.Fprintf(ew, "warning                  %s\n", warn)
+		// The nominal pattern is only the starting point: its misfit is
+		// what calibration is for.
+		fmt.Fprintf(ew, "nominal-pattern fit      %s\n", warn)
 	}
 	fmt.Fprintf(ew, "saved                    %s\n", path)
 	fmt.Fprintf(ew, "use it                   nullseek bearing REC --antenna %s --mount-offset %.2f (and the same heading flags as here)\n", path, total)
@@ -213,7 +218,7 @@ func calibrationJSON(cal *survey.Calibration, total, given float64, how, path st
 		m["front_back_db"] = r(cal.Shape.FrontBackDB, 2)
 	}
 	if len(cal.Alignment.Warnings) > 0 {
-		m["warnings"] = cal.Alignment.Warnings
+		m["nominal_fit_warnings"] = cal.Alignment.Warnings
 	}
 	return m
 }

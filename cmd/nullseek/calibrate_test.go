@@ -128,6 +128,14 @@ func TestCalibrateRoundTrip(t *testing.T) {
 	if c["ident"] != "N0CALL/1" || c["bursts_used"].(float64) != 1 {
 		t.Errorf("calibrated on %v with %v bursts, want N0CALL/1's one burst", c["ident"], c["bursts_used"])
 	}
+	// The table for people says how to use the result.
+	pat2 := filepath.Join(dir, "pattern2.json")
+	rt := runNullseek(t, "", "calibrate", calRec, "--freq", "145.0125M", "--ids", "N0CALL/1,N0CALL/2",
+		"--ident", "N0CALL/1", "--known-bearing", fmt.Sprint(known), "--turn", sensor(15, 30), "--out", pat2)
+	if want := fmt.Sprintf("--antenna %s --mount-offset %.2f", pat2, off); rt.code != 0 || !strings.Contains(rt.stdout, want) {
+		t.Errorf("calibrate table (exit %d) does not say %q:\n%s%s", rt.code, want, rt.stdout, rt.stderr)
+	}
+	t.Logf("calibrate output:\n%s", rt.stdout)
 	// The measured pattern against the one the scene rendered with.
 	pat, err := bearing.LoadPattern(patPath)
 	if err != nil {
