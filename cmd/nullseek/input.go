@@ -34,8 +34,8 @@ func (f *inputFlags) add(cmd *cobra.Command) {
 	fl.StringVar(&f.freq, "freq", "", "channel frequency, Hz (k/M/G suffixes allowed); needs the centre frequency")
 	fl.StringVar(&f.offset, "offset", "", "channel offset from the capture centre, Hz (k suffix allowed); default: the strongest carrier found")
 	fl.Float64Var(&f.chanRate, "channel-rate", 48000, "target channel sample rate after decimation, S/s")
-	fl.Float64Var(&f.onDB, "on-db", 8, "a burst starts this many dB above the noise floor")
-	fl.Float64Var(&f.offDB, "off-db", 4, "a burst ends below this many dB above the noise floor")
+	fl.Float64Var(&f.onDB, "on-db", 5, "a burst starts this many dB above the noise floor")
+	fl.Float64Var(&f.offDB, "off-db", 2.5, "a burst ends below this many dB above the noise floor")
 	fl.Float64Var(&f.minBurst, "min-burst", 0.1, "shortest burst kept, seconds")
 	fl.Float64Var(&f.mergeGap, "merge-gap", 0.1, "drop-outs shorter than this stay inside one burst, seconds")
 }
