@@ -76,7 +76,7 @@ func FindCarriers(src sdr.Source, cs CarrierSearch) ([]dsp.Carrier, error) {
 			if errors.Is(err, io.EOF) {
 				break
 			}
-			return nil, fmt.Errorf("%s: %w", info.Name, err)
+			return nil, err // the source names itself
 		}
 	}
 	if avg.Frames() == 0 {

@@ -98,7 +98,7 @@ func Run(ctx context.Context, src sdr.Source, opts Options, progress func(int64)
 	sum, err := sc.Run(ctx, src, emit, progress)
 	res.Summary = sum
 	if err != nil {
-		return res, fmt.Errorf("%s: %w", info.Name, err)
+		return res, err // the source's errors name it already
 	}
 	if len(res.Records) > 0 && !opts.NoIdent {
 		obs := Observations(res.Records)

@@ -124,7 +124,7 @@ func (f *headingFlags) track(info sdr.Info, notes func(string)) (*heading.Track,
 		var st heading.NMEAStats
 		tr, st, err = heading.ReadNMEA(fh, heading.NMEAFileOptions{Ref: ref, CaptureStart: info.Start, Name: f.nmea})
 		if err != nil {
-			return nil, fmt.Errorf("--nmea %s: %w", f.nmea, err)
+			return nil, fmt.Errorf("--nmea: %w", err)
 		}
 		if st.Skipped() > 0 {
 			notes(fmt.Sprintf("--nmea %s: %s", f.nmea, st))
