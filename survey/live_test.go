@@ -79,15 +79,39 @@ func rotctld(t *testing.T) string {
 	t.Cleanup(func() { cmd.Process.Kill(); cmd.Wait() })
 	addr := fmt.Sprintf("127.0.0.1:%d", port)
 	for deadline := time.Now().Add(5 * time.Second); ; {
-		if c, err := net.DialTimeout("tcp", addr, 200*time.Millisecond); err == nil {
-			c.Close()
+		if rotctldAnswers(addr) {
 			return addr
 		}
 		if time.Now().After(deadline) {
 			t.Fatalf("rotctld did not start on %s", addr)
 		}
-		time.Sleep(50 * time.Millisecond)
+		time.Sleep(100 * time.Millisecond)
 	}
+}
+
+// rotctldAnswers reports whether rotctld at addr answers get_pos ("p",
+// two value lines): a listening socket alone is not enough, rotctld may
+// still be setting up.
+func rotctldAnswers(addr string) bool {
+	c, err := net.DialTimeout("tcp", addr, 200*time.Millisecond)
+	if err != nil {
+		return false
+	}
+	defer c.Close()
+	c.SetDeadline(time.Now().Add(time.Second))
+	if _, err := io.WriteString(c, "p\n"); err != nil {
+		return false
+	}
+	buf := make([]byte, 64)
+	got := ""
+	for strings.Count(got, "\n") < 2 {
+		n, err := c.Read(buf)
+		if err != nil {
+			return false
+		}
+		got += string(buf[:n])
+	}
+	return true
 }
 
 // TestCaptureLiveSweep records while the dummy rotator turns 0° → 12°:

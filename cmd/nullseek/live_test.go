@@ -127,15 +127,18 @@ func startRotctld(t *testing.T) (addr string, proc *os.Process) {
 	})
 	deadline := time.Now().Add(5 * time.Second)
 	for {
-		c, err := net.DialTimeout("tcp", addr, 200*time.Millisecond)
+		// A listening socket is not enough: wait for an answer to get_pos.
+		ctx, cancel := context.WithTimeout(context.Background(), time.Second)
+		r, err := heading.DialRotator(ctx, addr, heading.RotatorOptions{Timeout: time.Second})
+		cancel()
 		if err == nil {
-			c.Close()
+			r.Close()
 			return addr, cmd.Process
 		}
 		if time.Now().After(deadline) {
-			t.Fatalf("rotctld did not listen on %s: %v", addr, err)
+			t.Fatalf("rotctld did not answer on %s: %v", addr, err)
 		}
-		time.Sleep(50 * time.Millisecond)
+		time.Sleep(100 * time.Millisecond)
 	}
 }
 
