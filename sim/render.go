@@ -169,7 +169,8 @@ func (bs *beaconState) sample(t float64, s *Source, rate float64) (complex128, b
 	// Antenna gain, refreshed every millisecond.
 	if bs.ampAt < 0 || s.n-bs.ampAt >= int64(rate/1000) {
 		h := s.st.Turn.HeadingAt(t)
-		g := GainDB(s.st.Antenna, h-bs.bearing) + s.st.RippleDB*bs.ripple(h)
+		// The transmitter is (bearing − heading) clockwise of boresight.
+		g := GainDB(s.st.Antenna, bs.bearing-h) + s.st.RippleDB*bs.ripple(h)
 		bs.ampCache = math.Pow(10, (bs.levelDB+g)/20)
 		bs.ampAt = s.n
 	}
@@ -198,7 +199,7 @@ func (bs *beaconState) sample(t float64, s *Source, rate float64) (complex128, b
 	return complex(amp*cs, amp*sn), true
 }
 
-// GainDB is the pattern's gain at offAxisDeg from boresight, linearly
+// GainDB is the pattern's gain at offAxisDeg clockwise from boresight, linearly
 // interpolated between its 1° steps.
 func GainDB(p bearing.Pattern, offAxisDeg float64) float64 {
 	x := math.Mod(offAxisDeg, 360)
