@@ -214,7 +214,7 @@ func (t TxBearing) MarshalJSON() ([]byte, error) {
 // EstimateLag estimates the lag between level and heading from the
 // transmitter with the most readings (bearing.EstimateLag: sweeps must turn
 // both ways). The sign is bearing's: positive means the level readings are
-// late; remove it with track.WithLag(−lagS).
+// late; remove it with track.WithLag(track.LagS − lagS).
 func EstimateLag(res *Result, track *heading.Track, p bearing.Pattern, opts bearing.FitOptions) (lagS, sigmaS float64, err error) {
 	byTx := map[string][]bearing.Point{}
 	for _, r := range res.Records {

@@ -55,7 +55,7 @@ rather than invents a bearing when the sweep cannot support one.`,
 					return err
 				}
 				notes(fmt.Sprintf("level lags heading by %.3f ± %.3f s: removed", lag, sig))
-				tr = tr.WithLag(-lag)
+				tr = tr.WithLag(tr.LagS - lag) // on top of any --lag given
 			}
 			bbs, txs := survey.Bearings(res, tr, pat, fo, hf.siteSigma)
 			if err := noBearing(args[0], bbs, txs); err != nil {
