@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"nullseek/internal/angle"
 	"testing"
 )
 
@@ -47,7 +48,7 @@ func runThermal(p Pattern, snrDB float64, trials int, seed uint64) accResult {
 	var in95 int
 	res := accResult{trials: trials}
 	for j := 0; j < trials; j++ {
-		truth := wrap360(float64(j)*360/float64(trials) + 0.37 + 0.618*float64(j%7))
+		truth := angle.Wrap360(float64(j)*360/float64(trials) + 0.37 + 0.618*float64(j%7))
 		start := rng.Float64() * 360
 		h, t := sweep(start, accStep, accN, accRateS)
 		pts := simThermal(rng, p, truth, snrDB, accM, h, t)
@@ -77,7 +78,7 @@ func runDB(p Pattern, sigmaDB float64, trials int, seed uint64) accResult {
 	var in95 int
 	res := accResult{trials: trials}
 	for j := 0; j < trials; j++ {
-		truth := wrap360(float64(j)*360/float64(trials) + 0.37 + 0.618*float64(j%7))
+		truth := angle.Wrap360(float64(j)*360/float64(trials) + 0.37 + 0.618*float64(j%7))
 		h, t := sweep(rng.Float64()*360, 1, 360, accRateS)
 		pts := simDB(rng, p, truth, -40, sigmaDB, h, t)
 		est, err := Fit(pts, p, FitOptions{Bootstrap: -1})

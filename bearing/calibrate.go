@@ -3,6 +3,7 @@ package bearing
 import (
 	"fmt"
 	"math"
+	"nullseek/internal/angle"
 )
 
 // MeasureOptions tunes Measured.
@@ -58,7 +59,7 @@ func Measured(name string, relDeg, levelDB []float64, opts MeasureOptions) (Patt
 		}
 		y := math.Pow(10, levelDB[i]/10)
 		for s := 0; s < sym; s++ {
-			x := wrap360(relDeg[i] + float64(s)*360/float64(sym))
+			x := angle.Wrap360(relDeg[i] + float64(s)*360/float64(sym))
 			for k := int(math.Ceil(x - hw)); float64(k) <= x+hw; k++ {
 				d := x - float64(k)
 				w := 1 - math.Abs(d)/hw
@@ -189,12 +190,12 @@ func Calibrate(points []Point, knownBearingDeg float64, nominal Pattern, opts Ca
 		return Pattern{}, 0, fmt.Errorf("calibrate: aligning with %q: %w", nominal.Name, err)
 	}
 	period := 360 / float64(nominal.Symmetry)
-	off := wrap180(knownBearingDeg - est.BearingDeg)
+	off := angle.Wrap180(knownBearingDeg - est.BearingDeg)
 	off = math.Mod(off+period/2+4*360, period) - period/2
 	if off <= -180 {
 		off += 360
 	}
-	fitTheta := wrap360(knownBearingDeg - off)
+	fitTheta := angle.Wrap360(knownBearingDeg - off)
 	rel := make([]float64, 0, len(points))
 	lvl := make([]float64, 0, len(points))
 	for _, q := range points {

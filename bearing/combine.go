@@ -3,6 +3,7 @@ package bearing
 import (
 	"fmt"
 	"math"
+	"nullseek/internal/angle"
 
 	"gonum.org/v1/gonum/stat/distuv"
 )
@@ -91,7 +92,7 @@ func Combine(ests []Estimate, opts CombineOptions) (Combined, error) {
 		}
 		ref := math.Atan2(sx, sy) * 180 / math.Pi
 		for i, e := range ests {
-			if e.AltBearingDeg != nil && math.Abs(wrap180(*e.AltBearingDeg-ref)) < math.Abs(wrap180(th[i]-ref)) {
+			if e.AltBearingDeg != nil && math.Abs(angle.Wrap180(*e.AltBearingDeg-ref)) < math.Abs(angle.Wrap180(th[i]-ref)) {
 				th[i] = *e.AltBearingDeg
 			}
 		}
@@ -122,7 +123,7 @@ func Combine(ests []Estimate, opts CombineOptions) (Combined, error) {
 			if !used[i] {
 				continue
 			}
-			r := wrap180(scale*(th[i]-mean)) / scale / sg[i]
+			r := angle.Wrap180(scale*(th[i]-mean)) / scale / sg[i]
 			chi2 += r * r
 			if math.Abs(r) > math.Abs(worstR) {
 				worst, worstR = i, r
@@ -139,7 +140,7 @@ func Combine(ests []Estimate, opts CombineOptions) (Combined, error) {
 				Reason: fmt.Sprintf("disagrees with the other %d bursts by %.1f° (%.1f sigma; set chi-square p = %.2g)", n-1, worstR*sg[worst], math.Abs(worstR), pval)})
 			continue
 		}
-		out.BearingDeg = wrap360(mean)
+		out.BearingDeg = angle.Wrap360(mean)
 		out.SigmaDeg = 1 / math.Sqrt(sw)
 		if dof > 0 && chi2 > float64(dof) {
 			out.SigmaDeg *= math.Sqrt(chi2 / float64(dof))
@@ -156,7 +157,7 @@ func Combine(ests []Estimate, opts CombineOptions) (Combined, error) {
 		}
 	}
 	if allAmb {
-		alt := wrap360(out.BearingDeg + 180)
+		alt := angle.Wrap360(out.BearingDeg + 180)
 		out.AltBearingDeg = &alt
 	}
 	return out, nil

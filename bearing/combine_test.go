@@ -4,6 +4,7 @@ import (
 	"errors"
 	"math"
 	"math/rand/v2"
+	"nullseek/internal/angle"
 	"testing"
 )
 
@@ -39,7 +40,7 @@ func TestCombine(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			if math.Abs(wrap180(got.BearingDeg-c.wantDeg)) > 1e-3 {
+			if math.Abs(angle.Wrap180(got.BearingDeg-c.wantDeg)) > 1e-3 {
 				t.Errorf("bearing %.4f, want %.4f", got.BearingDeg, c.wantDeg)
 			}
 			if c.wantSigma > 0 && math.Abs(got.SigmaDeg-c.wantSigma) > 1e-3 {
@@ -78,7 +79,7 @@ func TestCombineChiSquareSize(t *testing.T) {
 		ests := make([]Estimate, 5)
 		for i := range ests {
 			sg := 1 + 3*rng.Float64()
-			ests[i] = Estimate{BearingDeg: wrap360(truth + sg*rng.NormFloat64()), SigmaDeg: sg}
+			ests[i] = Estimate{BearingDeg: angle.Wrap360(truth + sg*rng.NormFloat64()), SigmaDeg: sg}
 		}
 		c, err := Combine(ests, CombineOptions{Alpha: 0.05})
 		if err != nil {
@@ -87,7 +88,7 @@ func TestCombineChiSquareSize(t *testing.T) {
 		if len(c.Excluded) > 0 {
 			excl++
 		}
-		if math.Abs(wrap180(c.BearingDeg-truth)) <= 1.96*c.SigmaDeg {
+		if math.Abs(angle.Wrap180(c.BearingDeg-truth)) <= 1.96*c.SigmaDeg {
 			in95++
 		}
 	}

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"nullseek/internal/angle"
 	"sort"
 
 	"gonum.org/v1/gonum/dsp/fourier"
@@ -191,7 +192,7 @@ func makeBins(pts []Point, binDeg float64, floorDB float64) bins {
 	spw := make([]float64, nb)
 	cnt := make([]float64, nb)
 	for _, p := range pts {
-		h := wrap360(p.HeadingDeg)
+		h := angle.Wrap360(p.HeadingDeg)
 		i := int(h / binDeg)
 		if i >= nb {
 			i = nb - 1
@@ -208,7 +209,7 @@ func makeBins(pts []Point, binDeg float64, floorDB float64) bins {
 		if cnt[i] == 0 {
 			continue
 		}
-		b.hDeg = append(b.hDeg, wrap360(math.Atan2(sx[i], sy[i])*180/math.Pi))
+		b.hDeg = append(b.hDeg, angle.Wrap360(math.Atan2(sx[i], sy[i])*180/math.Pi))
 		b.yDB = append(b.yDB, sdb[i]/cnt[i])
 		b.pw = append(b.pw, spw[i]/cnt[i])
 		b.n = append(b.n, cnt[i])
@@ -221,7 +222,7 @@ func makeBins(pts []Point, binDeg float64, floorDB float64) bins {
 func coverage(pts []Point, maxGap float64) (float64, [][2]float64) {
 	h := make([]float64, len(pts))
 	for i, p := range pts {
-		h[i] = wrap360(p.HeadingDeg)
+		h[i] = angle.Wrap360(p.HeadingDeg)
 	}
 	sort.Float64s(h)
 	var gaps [][2]float64
@@ -244,7 +245,7 @@ func coverage(pts []Point, maxGap float64) (float64, [][2]float64) {
 // inGap reports whether heading x lies strictly inside one of the gaps.
 func inGap(x float64, gaps [][2]float64) bool {
 	for _, g := range gaps {
-		d := wrap360(x - g[0])
+		d := angle.Wrap360(x - g[0])
 		if d > 0 && d < g[1] {
 			return true
 		}
@@ -382,7 +383,7 @@ func (s *solver) gaussNewton(y []float64, theta0 float64) (theta, c, sse float64
 		}
 	}
 	sse = s.eval(y, theta, c, true)
-	return wrap360(theta), c, sse
+	return angle.Wrap360(theta), c, sse
 }
 
 // coarse returns up to three candidate rotations (degrees) from the circular
@@ -394,7 +395,7 @@ func coarse(p Pattern, pts []Point) []float64 {
 	m := make([]float64, n)
 	cnt := make([]float64, n)
 	for _, q := range pts {
-		i := int(wrap360(q.HeadingDeg)) % n
+		i := int(angle.Wrap360(q.HeadingDeg)) % n
 		d[i] += q.LevelDB
 		cnt[i]++
 	}
@@ -462,7 +463,7 @@ func coarse(p Pattern, pts []Point) []float64 {
 		if len(out) == 3 {
 			break
 		}
-		out = append(out, wrap360(c.t))
+		out = append(out, angle.Wrap360(c.t))
 	}
 	if len(out) == 0 {
 		out = append(out, 0)
@@ -575,7 +576,7 @@ func Fit(points []Point, p Pattern, opts FitOptions) (Estimate, error) {
 	}
 	period := 360 / float64(p.Symmetry)
 	if p.Symmetry > 1 {
-		alt := wrap360(theta + period)
+		alt := angle.Wrap360(theta + period)
 		est.AltBearingDeg = &alt
 		if p.Symmetry > 2 {
 			est.Warnings = append(est.Warnings, fmt.Sprintf("pattern has a %d-fold ambiguity: bearings every %.0f° fit equally", p.Symmetry, period))
@@ -602,9 +603,9 @@ func Fit(points []Point, p Pattern, opts FitOptions) (Estimate, error) {
 	halfW := math.Max(p.WidthDeg()/2, 5)
 	near := false
 	for k := 0; k < p.Symmetry; k++ {
-		fh := wrap360(theta - f + float64(k)*period)
+		fh := angle.Wrap360(theta - f + float64(k)*period)
 		for _, h := range b.hDeg {
-			if math.Abs(wrap180(h-fh)) <= halfW {
+			if math.Abs(angle.Wrap180(h-fh)) <= halfW {
 				near = true
 			}
 		}
@@ -625,7 +626,7 @@ func Fit(points []Point, p Pattern, opts FitOptions) (Estimate, error) {
 		est.Warnings = append(est.Warnings, fmt.Sprintf("partial sweep: %.0f° of 360° covered", cov))
 	}
 	if p.Mode == Peak {
-		fh := wrap360(theta - f)
+		fh := angle.Wrap360(theta - f)
 		w := p.WidthDeg() / 2
 		for d := -w; d <= w; d += 0.5 {
 			if inGap(fh+d, gaps) {
@@ -746,7 +747,7 @@ func bootstrap(s *solver, y []float64, theta, c float64, nboot int, seed uint64,
 			ys[k] = mu[k] + e[rng.IntN(n)]/sw[k]
 		}
 		t, _, _ := s.gaussNewton(ys, theta)
-		d := math.Mod(wrap180(t-theta)+period/2+360*4, period) - period/2
+		d := math.Mod(angle.Wrap180(t-theta)+period/2+360*4, period) - period/2
 		acc += d * d
 	}
 	return math.Sqrt(acc / float64(nboot))
@@ -759,7 +760,7 @@ func smoothGrid(pts []Point) []float64 {
 	sum := make([]float64, n)
 	cnt := make([]float64, n)
 	for _, q := range pts {
-		i := int(wrap360(q.HeadingDeg)) % n
+		i := int(angle.Wrap360(q.HeadingDeg)) % n
 		sum[i] += q.LevelDB
 		cnt[i]++
 	}
@@ -797,7 +798,7 @@ func depth(sm []float64, p Pattern, theta float64) float64 {
 	f := p.FeatureDeg()
 	at := math.Inf(1)
 	for k := 0; k < p.Symmetry; k++ {
-		fh := wrap360(theta - f + float64(k)*period)
+		fh := angle.Wrap360(theta - f + float64(k)*period)
 		for d := -2; d <= 2; d++ {
 			v := sm[(int(math.Round(fh))+d+2*PatternSteps)%PatternSteps]
 			if !math.IsNaN(v) {
@@ -930,7 +931,7 @@ func multipathWarning(sm []float64, m *model, p Pattern, theta, c float64, noise
 	f := p.FeatureDeg()
 	for k, i := range di {
 		for s := 0; s < p.Symmetry; s++ {
-			if math.Abs(wrap180(float64(i)-(theta-f+float64(s)*period))) <= 10 {
+			if math.Abs(angle.Wrap180(float64(i)-(theta-f+float64(s)*period))) <= 10 {
 				main = math.Max(main, dp[k])
 			}
 		}
@@ -941,7 +942,7 @@ func multipathWarning(sm []float64, m *model, p Pattern, theta, c float64, noise
 		}
 		explained := false
 		for j, mIdx := range mi {
-			if mp[j] >= 1 && math.Abs(wrap180(float64(i-mIdx))) <= 15 {
+			if mp[j] >= 1 && math.Abs(angle.Wrap180(float64(i-mIdx))) <= 15 {
 				explained = true
 			}
 		}

@@ -4,6 +4,7 @@ import (
 	"errors"
 	"math"
 	"math/rand/v2"
+	"nullseek/internal/angle"
 	"strings"
 	"testing"
 )
@@ -85,7 +86,7 @@ func TestFitWarnings(t *testing.T) {
 	multi := thermalSweep(6, body, 50, 25, 0, 1, 360)
 	for i := range multi {
 		// body null is at heading θ−180 = 230°; put a notch at 320°
-		d := wrap180(multi[i].HeadingDeg - 320)
+		d := angle.Wrap180(multi[i].HeadingDeg - 320)
 		multi[i].LevelDB -= 10 * math.Exp(-d*d/(2*6*6))
 	}
 	cases := []struct {
@@ -143,7 +144,7 @@ func TestFitAmbiguityAndModes(t *testing.T) {
 			if (est.AltBearingDeg != nil) != c.alt {
 				t.Errorf("alt %v, want ambiguous=%v", est.AltBearingDeg, c.alt)
 			}
-			if c.alt && math.Abs(wrap180(*est.AltBearingDeg-est.BearingDeg)) != 180 {
+			if c.alt && math.Abs(angle.Wrap180(*est.AltBearingDeg-est.BearingDeg)) != 180 {
 				t.Errorf("alt %.2f not 180° from %.2f", *est.AltBearingDeg, est.BearingDeg)
 			}
 			if est.Mode != c.p.Mode || est.Noise != NoiseThermal || est.Points != 360 {

@@ -3,6 +3,7 @@ package bearing
 import (
 	"fmt"
 	"math"
+	"nullseek/internal/angle"
 	"sort"
 )
 
@@ -53,7 +54,7 @@ func EstimateLag(points []Point, p Pattern, opts LagOptions) (lagS, sigmaS float
 		if !(dt > 0) {
 			continue
 		}
-		rate := wrap180(pts[b].HeadingDeg-pts[a].HeadingDeg) / dt
+		rate := angle.Wrap180(pts[b].HeadingDeg-pts[a].HeadingDeg) / dt
 		switch {
 		case rate >= minRate:
 			cw = append(cw, pts[i])
@@ -76,7 +77,7 @@ func EstimateLag(points []Point, p Pattern, opts LagOptions) (lagS, sigmaS float
 	}
 	wcw, wccw := rcw/float64(len(cw)), rccw/float64(len(ccw))
 	period := 360 / float64(p.Symmetry)
-	d := math.Mod(wrap180(ecw.BearingDeg-eccw.BearingDeg)+period/2+4*360, period) - period/2
+	d := math.Mod(angle.Wrap180(ecw.BearingDeg-eccw.BearingDeg)+period/2+4*360, period) - period/2
 	den := wcw - wccw
 	lagS = d / den
 	sigmaS = math.Hypot(ecw.SigmaDeg, eccw.SigmaDeg) / den
@@ -104,7 +105,7 @@ func ShiftLag(points []Point, lagS float64) []Point {
 		ts[k] = points[i].T
 		hs[k] = points[i].HeadingDeg
 		if k > 0 {
-			hs[k] = hs[k-1] + wrap180(points[i].HeadingDeg-hs[k-1])
+			hs[k] = hs[k-1] + angle.Wrap180(points[i].HeadingDeg-hs[k-1])
 		}
 	}
 	for i := range out {
@@ -123,7 +124,7 @@ func ShiftLag(points []Point, lagS float64) []Point {
 			}
 			h = hs[j-1] + f*(hs[j]-hs[j-1])
 		}
-		out[i].HeadingDeg = wrap360(h)
+		out[i].HeadingDeg = angle.Wrap360(h)
 	}
 	return out
 }

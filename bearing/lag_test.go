@@ -4,6 +4,7 @@ import (
 	"errors"
 	"math"
 	"math/rand/v2"
+	"nullseek/internal/angle"
 	"path/filepath"
 	"testing"
 )
@@ -31,7 +32,7 @@ func backAndForth(seed uint64, p Pattern, truth, snrDB, rateDegS, lagS float64) 
 	}
 	pts := simThermal(rng, p, truth, snrDB, 32, hTrue, tt)
 	for i := range pts {
-		pts[i].HeadingDeg = wrap360(head(tt[i]))
+		pts[i].HeadingDeg = angle.Wrap360(head(tt[i]))
 	}
 	return pts
 }
@@ -101,13 +102,13 @@ func TestCalibrateRoundTrip(t *testing.T) {
 			h, tt := sweep(0, 0.5, 1440, 30)
 			pts := simThermal(rng, c.truth, c.known, 40, 64, h, tt)
 			for i := range pts {
-				pts[i].HeadingDeg = wrap360(h[i] - c.offset)
+				pts[i].HeadingDeg = angle.Wrap360(h[i] - c.offset)
 			}
 			meas, off, err := Calibrate(pts, c.known, c.nominal, CalibrateOptions{Fit: FitOptions{NoiseFloorDB: &floor, Bootstrap: -1}, Name: "cal " + c.name})
 			if err != nil {
 				t.Fatal(err)
 			}
-			if math.Abs(wrap180(off-c.offset)) > 0.1 {
+			if math.Abs(angle.Wrap180(off-c.offset)) > 0.1 {
 				t.Errorf("north offset %.3f°, want %.1f°", off, c.offset)
 			}
 			for k := range meas.GainDB {
@@ -138,7 +139,7 @@ func TestCalibrateRoundTrip(t *testing.T) {
 			h2, t2 := sweep(33, 1, 360, 30)
 			pts2 := simThermal(rng, c.truth, 77.7, 20, 32, h2, t2)
 			for i := range pts2 {
-				pts2[i].HeadingDeg = wrap360(h2[i] - c.offset + off) // sensor + correction
+				pts2[i].HeadingDeg = angle.Wrap360(h2[i] - c.offset + off) // sensor + correction
 			}
 			est, err := Fit(pts2, loaded, FitOptions{NoiseFloorDB: &floor, Bootstrap: -1})
 			if err != nil {

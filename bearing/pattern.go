@@ -22,6 +22,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"nullseek/internal/angle"
 	"os"
 	"path/filepath"
 )
@@ -199,7 +200,7 @@ func Yagi(beamwidthDeg, frontToBackDB float64) (Pattern, error) {
 	}
 	g := make([]float64, PatternSteps)
 	for k := range g {
-		d := wrap180(float64(k))
+		d := angle.Wrap180(float64(k))
 		c := (1 - math.Cos(d*math.Pi/180)) / 2
 		g[k] = 10 * math.Log10((lobe(d)+b*c*c*c*c+f)/p0)
 	}
@@ -341,29 +342,6 @@ func writeAtomic(path string, data []byte) error {
 	return nil
 }
 
-// wrap180 maps degrees to (−180, 180].
-func wrap180(d float64) float64 {
-	d = math.Mod(d, 360)
-	if d > 180 {
-		d -= 360
-	} else if d <= -180 {
-		d += 360
-	}
-	return d
-}
-
-// wrap360 maps degrees to [0, 360).
-func wrap360(d float64) float64 {
-	d = math.Mod(d, 360)
-	if d < 0 {
-		d += 360
-	}
-	if d >= 360 {
-		d = 0
-	}
-	return d
-}
-
 // model is a pattern prepared for evaluation at any angle: linear power at
 // 1° steps with periodic Catmull–Rom interpolation (C¹, exact for quadratics,
 // which the loop's sin² null is locally).
@@ -382,7 +360,7 @@ func newModel(p Pattern) *model {
 // power returns the linear relative power and its derivative per degree at
 // angle x degrees clockwise of boresight.
 func (m *model) power(x float64) (pw, dpw float64) {
-	x = wrap360(x)
+	x = angle.Wrap360(x)
 	i := int(math.Floor(x))
 	t := x - float64(i)
 	p0 := m.pw[(i+PatternSteps-1)%PatternSteps]

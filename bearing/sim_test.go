@@ -3,6 +3,7 @@ package bearing
 import (
 	"math"
 	"math/rand/v2"
+	"nullseek/internal/angle"
 
 	"gonum.org/v1/gonum/stat/distuv"
 )
@@ -13,7 +14,7 @@ func sweep(startDeg, stepDeg float64, n int, rateDegS float64) (h, t []float64) 
 	h = make([]float64, n)
 	t = make([]float64, n)
 	for i := range h {
-		h[i] = wrap360(startDeg + float64(i)*stepDeg)
+		h[i] = angle.Wrap360(startDeg + float64(i)*stepDeg)
 		t[i] = float64(i) * math.Abs(stepDeg) / rateDegS
 	}
 	return h, t
@@ -54,6 +55,6 @@ func simDB(rng *rand.Rand, p Pattern, thetaDeg, levelDB, sigmaDB float64, h, t [
 // in (−period/2, period/2].
 func circErr(est, truth float64, symmetry int) float64 {
 	period := 360 / float64(symmetry)
-	d := math.Mod(wrap180(est-truth)+period/2+4*360, period) - period/2
+	d := math.Mod(angle.Wrap180(est-truth)+period/2+4*360, period) - period/2
 	return d
 }

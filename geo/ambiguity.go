@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"nullseek/internal/angle"
 )
 
 // maxAmbiguous bounds the orientations SolveFixAmbiguous tries (2^n).
@@ -80,17 +81,9 @@ func SolveFixAmbiguous(lops []LOP, opt FixOptions) (*Fix, error) {
 		f.Warnings = append(f.Warnings, fmt.Sprintf("the 180° ambiguity is not resolved by these bearings: a fix at %s fits as well", fmtLatLon(second.fix.Lat, second.fix.Lon)))
 	}
 	for _, i := range amb {
-		if math.Abs(wrapDeg180(f.Bearings[i].BearingDeg-lops[i].BearingDeg)) > 90 {
+		if math.Abs(angle.Wrap180(f.Bearings[i].BearingDeg-lops[i].BearingDeg)) > 90 {
 			f.Warnings = append(f.Warnings, fmt.Sprintf("%s: ambiguous bearing taken as %.1f° (not %.1f°)", lops[i].Station, f.Bearings[i].BearingDeg, lops[i].BearingDeg))
 		}
 	}
 	return f, nil
-}
-
-func wrapDeg180(d float64) float64 {
-	d = math.Mod(d+180, 360)
-	if d < 0 {
-		d += 360
-	}
-	return d - 180
 }

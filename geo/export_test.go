@@ -3,6 +3,7 @@ package geo
 import (
 	"encoding/json"
 	"encoding/xml"
+	"nullseek/internal/angle"
 	"strconv"
 	"strings"
 	"testing"
@@ -18,7 +19,7 @@ func exportFixture(t *testing.T) ([]*Fix, *Grid) {
 		if i == 3 {
 			b += 40 // rejected as an outlier
 		}
-		lops = append(lops, LOP{Ident: "T<&>1", Station: "S" + strconv.Itoa(i), Lat: la, Lon: lo, BearingDeg: norm360(b + 0.5*float64(i%2)), SigmaDeg: 2})
+		lops = append(lops, LOP{Ident: "T<&>1", Station: "S" + strconv.Itoa(i), Lat: la, Lon: lo, BearingDeg: angle.Wrap360(b + 0.5*float64(i%2)), SigmaDeg: 2})
 	}
 	f, err := SolveFix(lops, FixOptions{})
 	if err != nil {

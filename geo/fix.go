@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"nullseek/internal/angle"
 	"strings"
 
 	"gonum.org/v1/gonum/mat"
@@ -89,7 +90,7 @@ func EllipseFromCov(ee, en, nn, p float64) Ellipse {
 	return Ellipse{
 		SemiMajorM:     k * math.Sqrt(math.Max(vals[1], 0)),
 		SemiMinorM:     k * math.Sqrt(math.Max(vals[0], 0)),
-		OrientationDeg: math.Mod(norm360(math.Atan2(ve, vn)*rad), 180),
+		OrientationDeg: math.Mod(angle.Wrap360(math.Atan2(ve, vn)*rad), 180),
 		Probability:    p,
 	}
 }

@@ -5,6 +5,7 @@ import (
 	"errors"
 	"math"
 	"math/rand/v2"
+	"nullseek/internal/angle"
 	"os"
 	"strconv"
 	"strings"
@@ -43,7 +44,7 @@ func TestFixZeroNoiseGeodSolve(t *testing.T) {
 		}
 		truths[fs[0]] = truth{v[0], v[1]}
 		cases[fs[0]] = append(cases[fs[0]], LOP{Ident: fs[0], Station: strconv.Itoa(len(cases[fs[0]])),
-			Lat: v[2], Lon: v[3], BearingDeg: norm360(v[4]), SigmaDeg: 1.5})
+			Lat: v[2], Lon: v[3], BearingDeg: angle.Wrap360(v[4]), SigmaDeg: 1.5})
 	}
 	if len(order) != 5 {
 		t.Fatalf("fixture has %d cases, want 5", len(order))
@@ -115,7 +116,7 @@ func TestFixCovarianceIsCRB(t *testing.T) {
 	for i, gm := range geom {
 		la, lo, _ := Direct(lat0, lon0, gm.az, gm.dist)
 		_, b, _ := Inverse(la, lo, lat0, lon0)
-		lops = append(lops, LOP{Station: strconv.Itoa(i), Lat: la, Lon: lo, BearingDeg: norm360(b), SigmaDeg: gm.sigmaDeg})
+		lops = append(lops, LOP{Station: strconv.Itoa(i), Lat: la, Lon: lo, BearingDeg: angle.Wrap360(b), SigmaDeg: gm.sigmaDeg})
 		// Direction from the station to the truth at the truth is az+180°;
 		// the normal to the LOP there is perpendicular to it.
 		phi := (gm.az + 180) * deg
@@ -157,7 +158,7 @@ func randomScenario(rng *rand.Rand, n int, noisy bool) (lops []LOP, lat, lon flo
 		if noisy {
 			b += sigma * rng.NormFloat64()
 		}
-		lops = append(lops, LOP{Ident: "T", Station: strconv.Itoa(i), Lat: sl, Lon: so, BearingDeg: norm360(b), SigmaDeg: sigma})
+		lops = append(lops, LOP{Ident: "T", Station: strconv.Itoa(i), Lat: sl, Lon: so, BearingDeg: angle.Wrap360(b), SigmaDeg: sigma})
 	}
 	return lops, lat, lon
 }
@@ -231,7 +232,7 @@ func TestFixZeroNoiseRandom(t *testing.T) {
 
 func lopAt(st string, lat0, lon0, az, dist, bearing float64) LOP {
 	la, lo, _ := Direct(lat0, lon0, az, dist)
-	return LOP{Ident: "R", Station: st, Lat: la, Lon: lo, BearingDeg: norm360(bearing), SigmaDeg: 2}
+	return LOP{Ident: "R", Station: st, Lat: la, Lon: lo, BearingDeg: angle.Wrap360(bearing), SigmaDeg: 2}
 }
 
 // Refusals: each geometry must give its own error, never a point.
@@ -281,7 +282,7 @@ func TestFixOutliers(t *testing.T) {
 			if i == bad {
 				b += off
 			}
-			out = append(out, LOP{Ident: "M", Station: string(rune('A' + i)), Lat: la, Lon: lo, BearingDeg: norm360(b), SigmaDeg: 2})
+			out = append(out, LOP{Ident: "M", Station: string(rune('A' + i)), Lat: la, Lon: lo, BearingDeg: angle.Wrap360(b), SigmaDeg: 2})
 		}
 		return out
 	}

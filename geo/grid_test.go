@@ -3,6 +3,7 @@ package geo
 import (
 	"math"
 	"math/rand/v2"
+	"nullseek/internal/angle"
 	"strings"
 	"testing"
 )
@@ -118,7 +119,7 @@ func TestProbMapGaussian(t *testing.T) {
 	for i, az := range []float64{180, 270} {
 		la, lo, _ := Direct(lat0, lon0, az, d)
 		_, b, _ := Inverse(la, lo, lat0, lon0)
-		lops = append(lops, LOP{Station: string(rune('A' + i)), Lat: la, Lon: lo, BearingDeg: norm360(b), SigmaDeg: sigmaDeg})
+		lops = append(lops, LOP{Station: string(rune('A' + i)), Lat: la, Lon: lo, BearingDeg: angle.Wrap360(b), SigmaDeg: sigmaDeg})
 	}
 	olat, olon := FromENU(lat0, lon0, -4.5*cell, 4.5*cell)
 	g := &Grid{OriginLat: olat, OriginLon: olon, CellM: cell, Cols: 9, Rows: 9, FirstRow: 1}

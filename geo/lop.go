@@ -62,18 +62,6 @@ func wrapPi(a float64) float64 {
 	return a
 }
 
-// norm360 maps degrees to [0, 360).
-func norm360(d float64) float64 {
-	d = math.Mod(d, 360)
-	if d < 0 {
-		d += 360
-	}
-	if d >= 360 {
-		d = 0
-	}
-	return d
-}
-
 const (
 	deg = math.Pi / 180
 	rad = 180 / math.Pi

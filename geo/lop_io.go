@@ -8,6 +8,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"nullseek/internal/angle"
 	"sort"
 	"strconv"
 	"strings"
@@ -231,7 +232,7 @@ func parseRecord(unit string, row int, get func(string) (string, bool)) (Bearing
 	if rec.BearingDeg, err = num("bearing_deg"); err != nil {
 		return rec, err
 	}
-	rec.BearingDeg = norm360(rec.BearingDeg)
+	rec.BearingDeg = angle.Wrap360(rec.BearingDeg)
 	if rec.SigmaDeg, err = num("sigma_deg"); err != nil {
 		return rec, err
 	}
@@ -341,7 +342,7 @@ func ResolveTrue(recs []BearingRecord, overrideDeg *float64, decl DeclinationFun
 					warnSet["declination: "+warn.Error()] = true
 				}
 			}
-			l.BearingDeg = norm360(MagneticToTrue(r.BearingDeg, d))
+			l.BearingDeg = angle.Wrap360(MagneticToTrue(r.BearingDeg, d))
 		}
 		out = append(out, l)
 	}

@@ -3,6 +3,7 @@ package heading
 import (
 	"errors"
 	"fmt"
+	"nullseek/internal/angle"
 	"strconv"
 	"strings"
 )
@@ -164,9 +165,9 @@ func parseNMEA(line string, requireChecksum bool) (Reading, error) {
 		if r.VariationDeg, r.HasVariation, err = nmeaSigned(f[3], f[4]); err != nil {
 			return r, fmt.Errorf("NMEA HDG variation (fields 4-5): %w", err)
 		}
-		r.MagDeg, r.HasMag = wrap360(r.SensorDeg+r.DeviationDeg), true
+		r.MagDeg, r.HasMag = angle.Wrap360(r.SensorDeg+r.DeviationDeg), true
 		if r.HasVariation {
-			r.TrueDeg, r.HasTrue = wrap360(r.MagDeg+r.VariationDeg), true
+			r.TrueDeg, r.HasTrue = angle.Wrap360(r.MagDeg+r.VariationDeg), true
 		}
 	}
 	return r, nil

@@ -9,6 +9,7 @@ import (
 	"log/slog"
 	"math"
 	"net"
+	"nullseek/internal/angle"
 	"os"
 	"strconv"
 	"strings"
@@ -364,7 +365,7 @@ func (s *sweepRec) poll(rec bool) (float64, error) {
 	if rec {
 		ts := t.Sub(s.origin).Seconds()
 		if n := len(s.track.Samples); n == 0 || ts > s.track.Samples[n-1].T {
-			s.track.Samples = append(s.track.Samples, Sample{T: ts, Deg: wrap360(az)})
+			s.track.Samples = append(s.track.Samples, Sample{T: ts, Deg: angle.Wrap360(az)})
 		}
 	}
 	return az, nil

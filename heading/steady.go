@@ -3,6 +3,7 @@ package heading
 import (
 	"fmt"
 	"math"
+	"nullseek/internal/angle"
 )
 
 // SteadyTurn models an antenna turning at a constant rate, for a turntable
@@ -26,7 +27,7 @@ const maxSteadySamples = 10_000_000
 // HeadingAt returns the model heading in [0, 360) at capture time tS
 // seconds (defined for all times, before StartS too).
 func (s SteadyTurn) HeadingAt(tS float64) float64 {
-	return wrap360(s.StartDeg + s.RateDegPerS*(tS-s.StartS))
+	return angle.Wrap360(s.StartDeg + s.RateDegPerS*(tS-s.StartS))
 }
 
 // Track samples the turn at sampleHz from fromS to toS seconds inclusive

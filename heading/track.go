@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"nullseek/internal/angle"
 	"sort"
 )
 
@@ -202,7 +203,7 @@ func (t *Track) rawAt(ts float64) (deg float64, i int, ok bool) {
 		return 0, i, false
 	}
 	f := (ts - a.T) / dt
-	return a.Deg + f*angleDiff(a.Deg, b.Deg), i, true
+	return a.Deg + f*angle.Diff(a.Deg, b.Deg), i, true
 }
 
 // At returns the antenna heading in degrees [0, 360) at capture time tS
@@ -216,7 +217,7 @@ func (t *Track) At(tS float64) (deg float64, ok bool) {
 	if !ok {
 		return 0, false
 	}
-	return wrap360(d + t.MountOffsetDeg), true
+	return angle.Wrap360(d + t.MountOffsetDeg), true
 }
 
 // Span returns the capture times, in seconds, of the first and last sample
@@ -265,7 +266,7 @@ func (t *Track) Coverage(start, end float64) float64 {
 			arcs = append(arcs, [2]float64{0, 360})
 			return
 		}
-		lo = wrap360(lo)
+		lo = angle.Wrap360(lo)
 		hi := lo + delta
 		if hi > 360 {
 			arcs = append(arcs, [2]float64{lo, 360}, [2]float64{0, hi - 360})
@@ -279,7 +280,7 @@ func (t *Track) Coverage(start, end float64) float64 {
 		if b.T <= s || a.T >= e || b.T-a.T > lim {
 			continue
 		}
-		d := angleDiff(a.Deg, b.Deg)
+		d := angle.Diff(a.Deg, b.Deg)
 		f0, f1 := 0.0, 1.0
 		if a.T < s {
 			f0 = (s - a.T) / (b.T - a.T)
@@ -330,8 +331,8 @@ func (t *Track) Sweeps() []Sweep {
 			StartS:   t.Samples[from].T - t.LagS,
 			EndS:     t.Samples[to].T - t.LagS,
 			Dir:      dir,
-			StartDeg: wrap360(t.Samples[from].Deg + t.MountOffsetDeg),
-			EndDeg:   wrap360(t.Samples[to].Deg + t.MountOffsetDeg),
+			StartDeg: angle.Wrap360(t.Samples[from].Deg + t.MountOffsetDeg),
+			EndDeg:   angle.Wrap360(t.Samples[to].Deg + t.MountOffsetDeg),
 			TurnDeg:  u[to] - u[from],
 		})
 	}
@@ -344,7 +345,7 @@ func (t *Track) Sweeps() []Sweep {
 			segStart, ext, loIdx, hiIdx, dir = i, i, i, i, 0
 			continue
 		}
-		u[i] = u[i-1] + angleDiff(t.Samples[i-1].Deg, t.Samples[i].Deg)
+		u[i] = u[i-1] + angle.Diff(t.Samples[i-1].Deg, t.Samples[i].Deg)
 		if dir == 0 {
 			// undecided: follow both extremes; once they are a hysteresis
 			// apart, the later one gives the direction and the earlier one
@@ -393,7 +394,7 @@ func (t *Track) ToTrue(declDeg float64) *Track {
 		return &c
 	}
 	for i := range c.Samples {
-		c.Samples[i].Deg = wrap360(c.Samples[i].Deg + declDeg)
+		c.Samples[i].Deg = angle.Wrap360(c.Samples[i].Deg + declDeg)
 	}
 	c.Ref = True
 	return &c

@@ -2,6 +2,7 @@ package heading
 
 import (
 	"math"
+	"nullseek/internal/angle"
 	"strings"
 	"testing"
 )
@@ -9,7 +10,7 @@ import (
 func near(a, b, tol float64) bool { return math.Abs(a-b) <= tol }
 
 // circNear compares headings on the circle.
-func circNear(a, b, tol float64) bool { return math.Abs(wrap180(a-b)) <= tol }
+func circNear(a, b, tol float64) bool { return math.Abs(angle.Wrap180(a-b)) <= tol }
 
 func TestAtInterpolatesAcrossNorth(t *testing.T) {
 	// Circular interpolation (common practice; REFERENCES §6 "circular

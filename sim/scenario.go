@@ -14,6 +14,7 @@ import (
 	"nullseek/geo"
 	"nullseek/heading"
 	"nullseek/ident"
+	"nullseek/internal/angle"
 )
 
 // Beacon is one transmitter of the scene.
@@ -75,7 +76,7 @@ type Scenario struct {
 // TrueBearing is the geodesic azimuth from station st to beacon b, degrees.
 func TrueBearing(st Station, b Beacon) float64 {
 	_, az, _ := geo.Inverse(st.Lat, st.Lon, b.Lat, b.Lon)
-	return math.Mod(az+360, 360)
+	return angle.Wrap360(az)
 }
 
 // DistanceM is the geodesic distance from station st to beacon b.

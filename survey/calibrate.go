@@ -3,6 +3,7 @@ package survey
 import (
 	"fmt"
 	"math"
+	"nullseek/internal/angle"
 	"sort"
 	"strings"
 
@@ -134,7 +135,7 @@ func Calibrate(res *Result, track *heading.Track, nominal bearing.Pattern, known
 	if name == "" {
 		name = "calibrated"
 	}
-	known := math.Mod(math.Mod(knownBearingDeg, 360)+360, 360)
+	known := angle.Wrap360(knownBearingDeg)
 	align, err := bearing.Fit(pts, nominal, fo)
 	if err != nil {
 		return nil, fmt.Errorf("calibrate on %s (%d bursts, %d readings): %w", key, bursts, len(pts), err)
@@ -154,7 +155,7 @@ func Calibrate(res *Result, track *heading.Track, nominal bearing.Pattern, known
 		return nil, fmt.Errorf("calibrate on %s: %w", key, err)
 	}
 	centreSigma := splitHalfCentreSigma(pts, known, off, f0, nominal, fo.NoiseFloorDB)
-	centre = wrap180(centre - f0)
+	centre = angle.Wrap180(centre - f0)
 	pat, err = rotatePattern(pat, centre)
 	if err != nil {
 		return nil, fmt.Errorf("calibrate on %s: %w", key, err)
@@ -165,14 +166,14 @@ func Calibrate(res *Result, track *heading.Track, nominal bearing.Pattern, known
 	// offset's (noise only; the site's errors are not in one sweep).
 	shifted := make([]bearing.Point, len(pts))
 	for i, q := range pts {
-		q.HeadingDeg = wrap360(q.HeadingDeg + off)
+		q.HeadingDeg = angle.Wrap360(q.HeadingDeg + off)
 		shifted[i] = q
 	}
 	check, err := bearing.Fit(shifted, pat, fo)
 	if err != nil {
 		return nil, fmt.Errorf("calibrate on %s: refit with the measured pattern: %w", key, err)
 	}
-	off += wrap180(known - check.BearingDeg)
+	off += angle.Wrap180(known - check.BearingDeg)
 	period := 360 / float64(pat.Symmetry)
 	off = math.Mod(off+period/2+4*360, period) - period/2
 	if off <= -180 {
@@ -197,7 +198,7 @@ func featureCentre(p bearing.Pattern, nearDeg float64) (float64, error) {
 		pw[k] = math.Pow(10, g/10)
 	}
 	at := func(x float64) float64 {
-		x = wrap360(x)
+		x = angle.Wrap360(x)
 		i := int(x)
 		f := x - float64(i)
 		return pw[i%n]*(1-f) + pw[(i+1)%n]*f
@@ -253,7 +254,7 @@ func splitHalfCentreSigma(pts []bearing.Point, known, off, f0 float64, nominal b
 			return 0
 		}
 	}
-	return math.Abs(wrap180(c[0]-c[1])) / 2
+	return math.Abs(angle.Wrap180(c[0]-c[1])) / 2
 }
 
 // rotatePattern returns p turned so that what was at byDeg clockwise of
@@ -268,7 +269,7 @@ func rotatePattern(p bearing.Pattern, byDeg float64) (bearing.Pattern, error) {
 	out := make([]float64, n)
 	mx := 0.0
 	for k := range out {
-		x := wrap360(float64(k) + byDeg)
+		x := angle.Wrap360(float64(k) + byDeg)
 		i := int(x)
 		t := x - float64(i)
 		p0, p1, p2, p3 := pw[(i+n-1)%n], pw[i%n], pw[(i+1)%n], pw[(i+2)%n]
@@ -286,17 +287,6 @@ func rotatePattern(p bearing.Pattern, byDeg float64) (bearing.Pattern, error) {
 		return bearing.Pattern{}, fmt.Errorf("rotate pattern: %w", err)
 	}
 	return q, nil
-}
-
-// wrap180 maps degrees to (−180, 180].
-func wrap180(d float64) float64 {
-	d = math.Mod(d, 360)
-	if d > 180 {
-		d -= 360
-	} else if d <= -180 {
-		d += 360
-	}
-	return d
 }
 
 // chooseTransmitter picks the transmitter key named by want, or the only

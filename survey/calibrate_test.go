@@ -3,6 +3,7 @@ package survey
 import (
 	"math"
 	"math/rand"
+	"nullseek/internal/angle"
 	"strings"
 	"testing"
 
@@ -73,7 +74,7 @@ func TestRotateAndCentre(t *testing.T) {
 			if err != nil {
 				t.Fatalf("%s by %g: %v", p.Name, by, err)
 			}
-			c = wrap180(c - f0)
+			c = angle.Wrap180(c - f0)
 			want := -by
 			if p.Symmetry == 2 {
 				want = math.Mod(want+90+360, 180) - 90
@@ -114,7 +115,7 @@ func sweepRecord(t *testing.T, real bearing.Pattern, ident string, bearingDeg, s
 
 // gainAt interpolates a pattern's table linearly in dB.
 func gainAt(p bearing.Pattern, x float64) float64 {
-	x = wrap360(x)
+	x = angle.Wrap360(x)
 	i := int(x)
 	f := x - float64(i)
 	return p.GainDB[i%360]*(1-f) + p.GainDB[(i+1)%360]*f
@@ -146,7 +147,7 @@ func TestCalibrateSynthetic(t *testing.T) {
 		if err != nil {
 			t.Fatalf("%s: %v", c.name, err)
 		}
-		t.Logf("%s: offset %+.3f° ± %.3f° (truth %+.2f°), alignment with the nominal pattern %+.3f° off", c.name, cal.NorthOffsetDeg, cal.SigmaDeg, c.off, wrap180(c.bearing-cal.Alignment.BearingDeg-c.off))
+		t.Logf("%s: offset %+.3f° ± %.3f° (truth %+.2f°), alignment with the nominal pattern %+.3f° off", c.name, cal.NorthOffsetDeg, cal.SigmaDeg, c.off, angle.Wrap180(c.bearing-cal.Alignment.BearingDeg-c.off))
 		if d := cal.NorthOffsetDeg - c.off; math.Abs(d) > 0.2 || math.Abs(d) > 5*cal.SigmaDeg+0.05 {
 			t.Errorf("%s: offset %.3f° ± %.3f°, truth %.2f°", c.name, cal.NorthOffsetDeg, cal.SigmaDeg, c.off)
 		}

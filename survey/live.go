@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"nullseek/internal/angle"
 	"sort"
 	"sync"
 	"sync/atomic"
@@ -163,7 +164,7 @@ func CaptureLive(ctx context.Context, src sdr.Source, opts LiveOptions) (*LiveCa
 				ts := t.Sub(info.Start).Seconds()
 				mu.Lock()
 				if n := len(polled); n == 0 || ts > polled[n-1].T {
-					polled = append(polled, heading.Sample{T: ts, Deg: wrap360(az)})
+					polled = append(polled, heading.Sample{T: ts, Deg: angle.Wrap360(az)})
 				}
 				mu.Unlock()
 			})
@@ -273,16 +274,4 @@ func CaptureLive(ctx context.Context, src sdr.Source, opts LiveOptions) (*LiveCa
 		lc.Warnings = append(lc.Warnings, fmt.Sprintf("the capture ended (duration %.1f s) before the sweep did: rotator stopped at %.1f°; bearings use the part swept", elapsed, last.Deg))
 	}
 	return lc, nil
-}
-
-// wrap360 maps degrees to [0, 360).
-func wrap360(d float64) float64 {
-	d = math.Mod(d, 360)
-	if d < 0 {
-		d += 360
-	}
-	if d >= 360 {
-		d = 0
-	}
-	return d
 }

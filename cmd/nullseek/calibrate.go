@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"nullseek/internal/angle"
 	"strconv"
 	"strings"
 
@@ -89,7 +90,7 @@ the saved pattern is measured relative to that boresight.`,
 			if err != nil {
 				return err
 			}
-			total := wrapDeg180(hf.mountOffset + cal.NorthOffsetDeg)
+			total := angle.Wrap180(hf.mountOffset + cal.NorthOffsetDeg)
 			cal.Pattern.Name += fmt.Sprintf(", use with --mount-offset %.2f", total)
 			if err := bearing.SavePattern(cf.out, cal.Pattern); err != nil {
 				return err
@@ -125,7 +126,7 @@ func (cf *calibrateFlags) bearingFrom(hf *headingFlags) (float64, string, error)
 		if err != nil || math.IsNaN(v) || math.IsInf(v, 0) || v < -360 || v > 360 {
 			return 0, "", fmt.Errorf("--known-bearing %q: want degrees true, e.g. 123.4", cf.knownBearing)
 		}
-		v = math.Mod(v+360, 360)
+		v = angle.Wrap360(v)
 		return v, fmt.Sprintf("%.2f° true (given)", v), nil
 	case cf.tx != "":
 		txLat, txLon, err := parseLatLon("--tx", cf.tx)
@@ -143,7 +144,7 @@ func (cf *calibrateFlags) bearingFrom(hf *headingFlags) (float64, string, error)
 		if math.IsNaN(az) || !(dist >= 1) {
 			return 0, "", fmt.Errorf("--tx %s and --station %s are the same place: no bearing between them", cf.tx, hf.station)
 		}
-		az = math.Mod(az+360, 360)
+		az = angle.Wrap360(az)
 		if az >= 360 {
 			az = 0
 		}
@@ -163,17 +164,6 @@ func parseLatLon(flag, s string) (float64, float64, error) {
 		}
 	}
 	return 0, 0, fmt.Errorf("%s %q: want LAT,LON in degrees, latitude within ±90 and longitude within ±180", flag, s)
-}
-
-// wrapDeg180 maps degrees to (−180, 180].
-func wrapDeg180(d float64) float64 {
-	d = math.Mod(d, 360)
-	if d > 180 {
-		d -= 360
-	} else if d <= -180 {
-		d += 360
-	}
-	return d
 }
 
 func writeCalibration(w io.Writer, cal *survey.Calibration, nominal string, total, given float64, how, path string) error {

@@ -3,6 +3,7 @@ package main
 import (
 	"fmt"
 	"math"
+	"nullseek/internal/angle"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -113,7 +114,7 @@ func TestCalibrateRoundTrip(t *testing.T) {
 	known := geodAzimuth(t, sc.lat0, sc.lon0, txLat, txLon)
 	// GeographicLib GeodSolve 2.1.2 (WGS84) is the reference for the
 	// known bearing station → transmitter.
-	if kb := c["known_bearing_deg"].(float64); math.Abs(angleDiff(kb, known)) > 2e-4 {
+	if kb := c["known_bearing_deg"].(float64); math.Abs(angle.Wrap180(kb-known)) > 2e-4 {
 		t.Errorf("known bearing %.5f°, GeodSolve %.5f°", kb, known)
 	}
 	off, sig := c["mount_offset_deg"].(float64), c["north_offset_sigma_deg"].(float64)
@@ -171,14 +172,14 @@ func TestCalibrateRoundTrip(t *testing.T) {
 	// The sigmas are the ones `bearing` reports: fit and the default 3°
 	// site error in quadrature.
 	b, s := fit("--antenna", patPath, "--mount-offset", fmt.Sprint(off))
-	e := angleDiff(b, truth)
+	e := angle.Wrap180(b - truth)
 	t.Logf("calibrated fit: %.2f° ± %.2f°, truth %.2f°, error %+.2f°", b, s, truth, e)
 	if math.Abs(e) > s || math.Abs(e) > 1.5 {
 		t.Errorf("with the calibration: %.2f° ± %.2f°, truth %.2f° (error %+.2f°): want within 1σ and 1.5°", b, s, truth, e)
 	}
 	// Without it the sensor's error shows (the check above can fail).
 	b0, s0 := fit("--antenna", "yagi")
-	e0 := angleDiff(b0, truth)
+	e0 := angle.Wrap180(b0 - truth)
 	t.Logf("uncalibrated fit: %.2f° ± %.2f°, error %+.2f°", b0, s0, e0)
 	if math.Abs(e0) < s0 || e0 > -5 {
 		t.Errorf("without the calibration the error is %+.2f° ± %.2f°, want beyond 1σ and about %+.1f°", e0, s0, -sc.mountErr)

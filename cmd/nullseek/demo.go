@@ -16,6 +16,7 @@ import (
 	"nullseek/geo"
 	"nullseek/heading"
 	"nullseek/ident"
+	"nullseek/internal/angle"
 	"nullseek/mapplot"
 	"nullseek/polarplot"
 	"nullseek/receiver"
@@ -121,7 +122,7 @@ func runDemo(ctx context.Context, w io.Writer, outDir string, writeIQ bool) erro
 				alt = fmt.Sprintf("  (or %.1f°: the loop's two nulls)", *c.AltBearingDeg)
 			}
 			fmt.Fprintf(w, "  %-10s %8.1f° %6.1f° %8.1f° %+5.1f° %6d%s\n", tb.Ident, c.BearingDeg, tb.SigmaDeg,
-				truth, angleDiff(c.BearingDeg, truth), c.BurstsUsed, alt)
+				truth, angle.Wrap180(c.BearingDeg-truth), c.BurstsUsed, alt)
 			lop := geo.LOP{Ident: tb.Ident, Station: st.Name, Lat: st.Lat, Lon: st.Lon,
 				BearingDeg: c.BearingDeg, SigmaDeg: tb.SigmaDeg, Time: sc.Start, Ambiguous: c.AltBearingDeg != nil}
 			lops = append(lops, lop)
@@ -230,11 +231,6 @@ func demoDrifts(sc sim.Scenario) string {
 		parts = append(parts, fmt.Sprintf("%s %+.0f ppm", b.ID, b.DriftPPM))
 	}
 	return strings.Join(parts, ", ")
-}
-
-func angleDiff(a, b float64) float64 {
-	d := math.Mod(a-b+540, 360) - 180
-	return d
 }
 
 func fileSafe(s string) string {

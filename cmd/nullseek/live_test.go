@@ -10,6 +10,7 @@ import (
 	"math"
 	"math/rand"
 	"net"
+	"nullseek/internal/angle"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -396,7 +397,7 @@ func TestLiveBearingRotctldSweep(t *testing.T) {
 		t.Fatalf("no transmitter bearing in output:\n%s\nstderr:\n%s", r.stdout, r.stderr)
 	}
 	b, sig, fit := got["bearing_deg"].(float64), got["sigma_deg"].(float64), got["fit_sigma_deg"].(float64)
-	errDeg := angleDiff(b, truth)
+	errDeg := angle.Wrap180(b - truth)
 	t.Logf("live sweep: bearing %.2f° (truth %.1f°), error %+.2f°, sigma %.2f° (fit %.2f°)", b, truth, errDeg, sig, fit)
 	// The truth is the bearing the test source was built with; the
 	// headings are what the real rotctld reported.
@@ -416,7 +417,7 @@ func TestLiveBearingRotctldSweep(t *testing.T) {
 	}
 	for _, m := range jsonLines(t, off.stdout) {
 		if m["type"] == "bearing" {
-			if ob := m["bearing_deg"].(float64); math.Abs(angleDiff(ob, b)) > 0.005 {
+			if ob := m["bearing_deg"].(float64); math.Abs(angle.Wrap180(ob-b)) > 0.005 {
 				t.Errorf("offline re-run gave %.2f°, live %.2f°", ob, b)
 			}
 		}
