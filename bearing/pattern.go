@@ -19,12 +19,11 @@ package bearing
 
 import (
 	"encoding/json"
-	"errors"
 	"fmt"
 	"math"
 	"nullseek/internal/angle"
+	"nullseek/internal/atomicfile"
 	"os"
-	"path/filepath"
 )
 
 // Mode says which feature of a pattern marks the bearing: a null (small loop,
@@ -302,7 +301,7 @@ func SavePattern(path string, p Pattern) error {
 	if err != nil {
 		return fmt.Errorf("save pattern %s: %w", path, err)
 	}
-	return writeAtomic(path, append(b, '\n'))
+	return atomicfile.Write(path, append(b, '\n'))
 }
 
 // LoadPattern reads a pattern written by SavePattern.
@@ -316,30 +315,6 @@ func LoadPattern(path string) (Pattern, error) {
 		return Pattern{}, fmt.Errorf("load pattern %s: %w", path, err)
 	}
 	return p, nil
-}
-
-func writeAtomic(path string, data []byte) error {
-	dir := filepath.Dir(path)
-	f, err := os.CreateTemp(dir, ".tmp-"+filepath.Base(path)+"-*")
-	if err != nil {
-		return fmt.Errorf("write %s: %w", path, err)
-	}
-	tmp := f.Name()
-	_, werr := f.Write(data)
-	cerr := f.Close()
-	if err := errors.Join(werr, cerr); err != nil {
-		os.Remove(tmp)
-		return fmt.Errorf("write %s: %w", path, err)
-	}
-	if err := os.Chmod(tmp, 0o644); err != nil {
-		os.Remove(tmp)
-		return fmt.Errorf("write %s: %w", path, err)
-	}
-	if err := os.Rename(tmp, path); err != nil {
-		os.Remove(tmp)
-		return fmt.Errorf("write %s: %w", path, err)
-	}
-	return nil
 }
 
 // model is a pattern prepared for evaluation at any angle: linear power at

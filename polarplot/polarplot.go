@@ -5,11 +5,11 @@
 package polarplot
 
 import (
-	"errors"
 	"fmt"
 	"image/color"
+	"io"
 	"math"
-	"os"
+	"nullseek/internal/atomicfile"
 	"path/filepath"
 	"strings"
 
@@ -63,24 +63,11 @@ func WriteOptions(path string, pts []bearing.Point, est bearing.Estimate, p bear
 	if err != nil {
 		return fmt.Errorf("polar plot %s: %w", path, err)
 	}
-	f, err := os.CreateTemp(filepath.Dir(path), ".tmp-"+filepath.Base(path)+"-*")
-	if err != nil {
-		return fmt.Errorf("polar plot %s: %w", path, err)
-	}
-	tmp := f.Name()
-	_, werr := wt.WriteTo(f)
-	cerr := f.Close()
-	if err := errors.Join(werr, cerr); err != nil {
-		os.Remove(tmp)
-		return fmt.Errorf("polar plot %s: %w", path, err)
-	}
-	if err := os.Chmod(tmp, 0o644); err != nil {
-		os.Remove(tmp)
-		return fmt.Errorf("polar plot %s: %w", path, err)
-	}
-	if err := os.Rename(tmp, path); err != nil {
-		os.Remove(tmp)
-		return fmt.Errorf("polar plot %s: %w", path, err)
+	if err := atomicfile.WriteFunc(path, func(w io.Writer) error {
+		_, err := wt.WriteTo(w)
+		return err
+	}); err != nil {
+		return fmt.Errorf("polar plot: %w", err)
 	}
 	return nil
 }

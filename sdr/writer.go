@@ -11,6 +11,7 @@ import (
 	"hash"
 	"io"
 	"io/fs"
+	"nullseek/internal/atomicfile"
 	"os"
 	"path/filepath"
 	"sort"
@@ -197,34 +198,10 @@ func writeMetaFile(path string, m *Meta) error {
 	_ = json.Unmarshal(b, &v)
 	b, _ = json.MarshalIndent(v, "", "    ")
 	b = append(b, '\n')
-	return writeFileAtomic(path, func(w io.Writer) error {
+	return atomicfile.WriteFunc(path, func(w io.Writer) error {
 		_, err := w.Write(b)
 		return err
 	})
-}
-
-// writeFileAtomic writes path through a temporary file in the same
-// directory and renames it into place.
-func writeFileAtomic(path string, fill func(io.Writer) error) error {
-	tmp, err := os.CreateTemp(filepath.Dir(path), filepath.Base(path)+".*.tmp")
-	if err != nil {
-		return fmt.Errorf("write %s: %w", path, err)
-	}
-	err = fill(tmp)
-	if err == nil {
-		err = tmp.Sync()
-	}
-	if cerr := tmp.Close(); err == nil {
-		err = cerr
-	}
-	if err == nil {
-		err = os.Rename(tmp.Name(), path)
-	}
-	if err != nil {
-		os.Remove(tmp.Name())
-		return fmt.Errorf("write %s: %w", path, err)
-	}
-	return nil
 }
 
 // WriteSigMFArchive packs the SigMF pair at basePath into a .sigmf archive
@@ -254,7 +231,7 @@ func WriteSigMFArchive(archivePath, basePath string) error {
 	dir := strings.TrimSuffix(filepath.Base(archivePath), ".sigmf")
 	name := filepath.Base(basePath)
 	now := time.Now().UTC().Truncate(time.Second)
-	return writeFileAtomic(archivePath, func(w io.Writer) error {
+	return atomicfile.WriteFunc(archivePath, func(w io.Writer) error {
 		tw := tar.NewWriter(w)
 		hdr := func(n string, size int64) *tar.Header {
 			return &tar.Header{Typeflag: tar.TypeReg, Name: dir + "/" + n, Size: size, Mode: 0o644, ModTime: now, Format: tar.FormatPAX}

@@ -3,6 +3,7 @@ package main
 import (
 	"encoding/json"
 	"fmt"
+	"nullseek/internal/atomicfile"
 	"os"
 	"path/filepath"
 	"strings"
@@ -166,5 +167,5 @@ func writeLOPs(path string, hf *headingFlags, start time.Time, txs []survey.TxBe
 		}
 		fmt.Fprintf(&b, "%s,%s,%.6f,%.6f,%.2f,%.2f,true,%s,%v\n", t.Ident, st, lat, lon, t.Combined.BearingDeg, t.SigmaDeg, when, t.Combined.AltBearingDeg != nil)
 	}
-	return writeFileAtomic(path, []byte(b.String()))
+	return atomicfile.Write(path, []byte(b.String()))
 }

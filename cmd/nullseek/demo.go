@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"nullseek/internal/atomicfile"
 	"os"
 	"path/filepath"
 	"strings"
@@ -159,7 +160,7 @@ func runDemo(ctx context.Context, w io.Writer, outDir string, writeIQ bool) erro
 	}
 
 	// Fixes.
-	if err := writeFileAtomic(filepath.Join(outDir, "bearings.csv"), []byte(csv.String())); err != nil {
+	if err := atomicfile.Write(filepath.Join(outDir, "bearings.csv"), []byte(csv.String())); err != nil {
 		return err
 	}
 	grid := &geo.Grid{OriginLat: sc.GridOriginLat, OriginLon: sc.GridOriginLon, CellM: sc.GridCellM,
@@ -202,14 +203,14 @@ func runDemo(ctx context.Context, w io.Writer, outDir string, writeIQ bool) erro
 		if err != nil {
 			return err
 		}
-		if err := writeFileAtomic(filepath.Join(outDir, "fixes.geojson"), gj); err != nil {
+		if err := atomicfile.Write(filepath.Join(outDir, "fixes.geojson"), gj); err != nil {
 			return err
 		}
 		png, err := mapplot.Render(fixes, grid, "png", mapplot.Options{Title: "nullseek demo: " + sc.Place})
 		if err != nil {
 			return err
 		}
-		if err := writeFileAtomic(filepath.Join(outDir, "map.png"), png); err != nil {
+		if err := atomicfile.Write(filepath.Join(outDir, "map.png"), png); err != nil {
 			return err
 		}
 	}
@@ -248,7 +249,7 @@ func writeHeadingLog(path string, tr *heading.Track) error {
 	for _, s := range tr.Samples {
 		fmt.Fprintf(&b, "%.3f,%.2f\n", s.T, s.Deg)
 	}
-	return writeFileAtomic(path, []byte(b.String()))
+	return atomicfile.Write(path, []byte(b.String()))
 }
 
 func writeStationIQ(sc sim.Scenario, st sim.Station, dir string) error {
@@ -273,27 +274,4 @@ func writeStationIQ(sc sim.Scenario, st sim.Station, dir string) error {
 		}
 	}
 	return w.Close()
-}
-
-// writeFileAtomic writes data to path through a temporary file, so a
-// failure never leaves half a file.
-func writeFileAtomic(path string, data []byte) error {
-	tmp, err := os.CreateTemp(filepath.Dir(path), ".nullseek-*")
-	if err != nil {
-		return err
-	}
-	if _, err := tmp.Write(data); err != nil {
-		tmp.Close()
-		os.Remove(tmp.Name())
-		return fmt.Errorf("write %s: %w", path, err)
-	}
-	if err := tmp.Close(); err != nil {
-		os.Remove(tmp.Name())
-		return fmt.Errorf("write %s: %w", path, err)
-	}
-	if err := os.Rename(tmp.Name(), path); err != nil {
-		os.Remove(tmp.Name())
-		return fmt.Errorf("write %s: %w", path, err)
-	}
-	return nil
 }

@@ -8,8 +8,8 @@ import (
 	"fmt"
 	"io"
 	"log/slog"
+	"nullseek/internal/atomicfile"
 	"os"
-	"path/filepath"
 	"strings"
 	"time"
 
@@ -242,29 +242,9 @@ func writeOutputs(fixes []*geo.Fix, grid *geo.Grid, o fixFlags) error {
 		}
 	}
 	for _, f := range files {
-		if err := writeAtomic(f.path, f.data); err != nil {
+		if err := atomicfile.Write(f.path, f.data); err != nil {
 			return err
 		}
-	}
-	return nil
-}
-
-func writeAtomic(path string, data []byte) error {
-	tmp, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".tmp*")
-	if err != nil {
-		return fmt.Errorf("write %s: %w", path, err)
-	}
-	_, werr := tmp.Write(data)
-	cerr := tmp.Close()
-	if werr == nil {
-		werr = cerr
-	}
-	if werr == nil {
-		werr = os.Rename(tmp.Name(), path)
-	}
-	if werr != nil {
-		os.Remove(tmp.Name())
-		return fmt.Errorf("write %s: %w", path, werr)
 	}
 	return nil
 }

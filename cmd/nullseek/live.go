@@ -7,6 +7,7 @@ import (
 	"io/fs"
 	"log/slog"
 	"math"
+	"nullseek/internal/atomicfile"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -374,7 +375,7 @@ func writeLiveHeadings(path string, tr *heading.Track) error {
 	for _, s := range tr.Samples {
 		fmt.Fprintf(&b, "%.6f,%.3f\n", s.T, s.Deg)
 	}
-	return writeFileAtomic(path, []byte(b.String()))
+	return atomicfile.Write(path, []byte(b.String()))
 }
 
 // planString describes the plan for messages.
