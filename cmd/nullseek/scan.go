@@ -115,7 +115,14 @@ it sees and scans the strongest.`,
 						return err
 					}
 				}
-				return enc.Encode(map[string]any{"type": "summary", "summary": res.Summary, "transmitters": res.Clusters.Clusters, "flags": res.Clusters.Flags})
+				txs, flags := res.Clusters.Clusters, res.Clusters.Flags
+				if txs == nil {
+					txs = []ident.TransmitterCluster{}
+				}
+				if flags == nil {
+					flags = []ident.ClusterFlag{}
+				}
+				return enc.Encode(map[string]any{"type": "summary", "summary": res.Summary, "transmitters": txs, "flags": flags})
 			}
 			if err := res.WriteTable(os.Stdout); err != nil {
 				return err
