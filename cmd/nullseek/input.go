@@ -10,6 +10,7 @@ import (
 
 	"github.com/schollz/progressbar/v3"
 	"github.com/spf13/cobra"
+	"github.com/spf13/pflag"
 	"golang.org/x/term"
 
 	"nullseek/receiver"
@@ -23,10 +24,12 @@ type inputFlags struct {
 	chanRate                    float64
 	onDB, offDB                 float64
 	minBurst, mergeGap          float64
+	flags                       *pflag.FlagSet
 }
 
 func (f *inputFlags) add(cmd *cobra.Command) {
 	fl := cmd.Flags()
+	f.flags = fl
 	fl.StringVar(&f.rate, "rate", "", "sample rate of a raw recording, S/s (k/M suffixes allowed)")
 	fl.StringVar(&f.format, "format", "", "sample format of a raw recording: cu8, ci8, ci16_le, cf32_le")
 	fl.StringVar(&f.center, "center", "", "centre frequency of a raw recording, Hz (k/M/G suffixes allowed)")
@@ -104,6 +107,9 @@ func (f *inputFlags) config() (cfg receiver.Config, haveChannel bool, err error)
 	cfg.ChannelRateHz = f.chanRate
 	cfg.OnDB, cfg.OffDB = f.onDB, f.offDB
 	cfg.MinBurstS, cfg.MergeGapS = f.minBurst, f.mergeGap
+	if f.flags != nil && !f.flags.Changed("merge-gap") {
+		cfg.MergeGapS = 0 // the default for the keying mode (longer for keyed carrier)
+	}
 	return cfg, f.freq != "" || f.offset != "", nil
 }
 
