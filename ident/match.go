@@ -9,6 +9,7 @@ import (
 	"os"
 	"sort"
 	"strings"
+	"sync"
 )
 
 // UnknownID is the Match.ID when no listed identifier is convincing.
@@ -28,7 +29,8 @@ type IDScore struct {
 	// TextCost is the weighted edit distance between the decoded text and
 	// the identifier repeated (partial copies at the edges are free).
 	TextCost float64
-	// Copies is how many copies the template method fitted into the burst.
+	// Copies is how many copies the template method fitted into the burst
+	// (copies whose key-down carries more than the midpoint level).
 	Copies int
 }
 
@@ -40,7 +42,12 @@ type Match struct {
 	// listed IDs (mcSoftmax of log-likelihoods; see Matcher.Match).
 	Confidence float64
 	// Method is "text" or "template" ("" when nothing could be scored).
-	Method   string
+	Method string
+	// Unlisted (0–1, template method only) is the posterior that the burst
+	// holds no listed ID: noise, or an identifier not on the list.
+	Unlisted float64
+	// WPM is the speed of the best template (template method only).
+	WPM      float64
 	Scores   []IDScore
 	Warnings []string
 }
@@ -52,6 +59,9 @@ type Matcher struct {
 	// MinConfidence is the least confidence reported as a match
 	// (DefaultMinConfidence unless changed).
 	MinConfidence float64
+
+	tplOnce sync.Once
+	tpl     tplPlan // templates, built on first use
 }
 
 // ErrBadIDList is wrapped by errors about the identifier list.
@@ -333,15 +343,18 @@ func mcBestTwo(p []float64) (int, int) {
 // unsure characters cost less), costs become log-likelihoods at 3 nats per
 // error and a mcSoftmax over the list gives each ID's share. When the text
 // is too short or garbled for a confident answer, the template method
-// scores each ID's ideal keying against the envelope over speed (±25 %
-// around the decoded speed, within 5–40 WPM) and time offset, adding up
-// repeated copies; its log-likelihood is Σ over the template's key-down
-// time of (x − ½)/σ² (x the envelope scaled to 0 key-up, 1 key-down; σ its
-// noise), divided by the envelope's correlation length. Below
-// MinConfidence the answer is UnknownID with a warning naming the best
-// guess. Two different IDs found whole in one burst give the one with
-// more copies and a warning naming both.
+// (see MatchEnvelope) scores each ID's ideal keying against d.Envelope on
+// its own: it takes no speed, timing or noise level from the decoded
+// text. Below MinConfidence the answer is UnknownID with a warning naming
+// the best guess. Two different IDs found whole in one burst give the one
+// with more copies and a warning naming both. A clean decode that fits no
+// listed ID is reported as UnknownID without trying the template.
 func (m *Matcher) Match(d Decoded) Match {
+	return m.match(d, d.Envelope, d.EnvRate)
+}
+
+// match is Match with the template method run on env (power at envRate).
+func (m *Matcher) match(d Decoded, env []float32, envRate float64) Match {
 	res := Match{ID: UnknownID}
 	res.Scores = make([]IDScore, len(m.ids))
 	for i, id := range m.ids {
@@ -430,201 +443,19 @@ func (m *Matcher) Match(d Decoded) Match {
 	}
 
 	// Template method.
-	pm, copies, fit, warn := m.templateScores(d)
-	if warn != "" {
-		res.Warnings = append(res.Warnings, warn)
-	}
-	if pm == nil {
+	tm := m.MatchEnvelope(env, envRate)
+	if tm.Method == "" {
+		res.Warnings = append(res.Warnings, tm.Warnings...)
 		if len(chars) < (minLen*3+4)/5 {
 			res.Warnings = append(res.Warnings, fmt.Sprintf("burst too short to hold an identifier (%d characters decoded, shortest ID has %d)", len(chars), minLen))
 		}
 		res.Warnings = append(res.Warnings, fmt.Sprintf("best text guess %s at %.2f is below %.2f", m.ids[bt], pt[bt], m.MinConfidence))
 		return res
 	}
-	for i := range pm {
-		res.Scores[i].TemplateProb = pm[i]
-		res.Scores[i].Copies = copies[i]
+	for i := range tm.Scores {
+		tm.Scores[i].TextProb = res.Scores[i].TextProb
+		tm.Scores[i].TextCost = res.Scores[i].TextCost
 	}
-	b, _ := mcBestTwo(pm)
-	res.Method = "template"
-	switch {
-	case fit < mcMinTemplateFit:
-		res.Warnings = append(res.Warnings, fmt.Sprintf("no listed identifier fits the keying (best %s explains %.0f %% of it)", m.ids[b], 100*fit))
-	case pm[b] < m.MinConfidence:
-		res.Warnings = append(res.Warnings, fmt.Sprintf("best guess %s at %.2f is below %.2f", m.ids[b], pm[b], m.MinConfidence))
-	default:
-		res.Warnings = append(res.Warnings, fmt.Sprintf("template fit %.0f %% of the decoded keying", 100*fit))
-		res.ID, res.Confidence = m.ids[b], pm[b]
-	}
-	return res
-}
-
-// mcMinTemplateFit is the least share of the decoded keying's own score
-// (Σ(x − ½) over its key-down time) that the best template must reach; below
-// it the burst holds something else (an unlisted ID, or noise).
-const mcMinTemplateFit = 0.9
-
-// templateScores runs the template method. It returns the posterior share
-// of each ID, the copies fitted, how much of the decoded keying's own
-// score the best template reaches (fit), and a warning; nil shares when
-// the envelope cannot be used.
-func (m *Matcher) templateScores(d Decoded) (post []float64, copies []int, fit float64, warn string) {
-	n := len(d.Envelope)
-	if n < 16 || !(d.EnvRate > 0) {
-		return nil, nil, 0, "no envelope for the template method"
-	}
-	lv := mcLevelsOf(mcSanitize(d.Envelope), d.EnvRate)
-	x := make([]float64, n)
-	S := make([]float64, n+1)
-	for i := range x {
-		x[i] = math.Max(-0.5, math.Min(1.5, lv.soft(i)))
-		S[i+1] = S[i] + x[i] - 0.5
-	}
-	// Noise of x: spread about the decided levels inside decoded runs.
-	var sq float64
-	var cnt int
-	for _, mk := range d.Keying {
-		a := int(mk.StartS*d.EnvRate) + 2
-		b := int((mk.StartS+mk.DurS)*d.EnvRate) - 2
-		ref := 0.0
-		if mk.On {
-			ref = 1
-		}
-		for i := max(a, 0); i < min(b, n); i++ {
-			sq += (x[i] - ref) * (x[i] - ref)
-			cnt++
-		}
-	}
-	sigma2 := 0.05
-	if cnt > 20 {
-		sigma2 = math.Max(sq/float64(cnt), 0.005)
-	}
-	corr := math.Max(1, 0.6*d.DotS*d.EnvRate)
-	// Speed range.
-	lo, hi := 5.0, 40.0
-	if d.WPM > 0 {
-		lo, hi = math.Max(lo, d.WPM/1.25), math.Min(hi, d.WPM*1.25)
-		if hi <= lo {
-			lo, hi = 5, 40
-		}
-	}
-	// Score of the decoded keying itself, for the fit check.
-	decScore := 0.0
-	for _, mk := range d.Keying {
-		if mk.On {
-			a := max(0, min(n, int(math.Round(mk.StartS*d.EnvRate))))
-			b := max(0, min(n, int(math.Round((mk.StartS+mk.DurS)*d.EnvRate))))
-			decScore += S[b] - S[a]
-		}
-	}
-	ll := make([]float64, len(m.ids))
-	copies = make([]int, len(m.ids))
-	best := math.Inf(-1)
-	durU := 0.0
-	for i, p := range m.tokens {
-		marks, err := Encode(strings.Join(p, ""), 1.2, 0) // 1 s per unit
-		if err != nil {
-			return nil, nil, 0, fmt.Sprintf("template for %s: %v", m.ids[i], err)
-		}
-		var on [][2]float64
-		for _, mk := range marks {
-			if mk.On {
-				on = append(on, [2]float64{mk.StartS, mk.StartS + mk.DurS})
-			}
-		}
-		total := marks[len(marks)-1].StartS + marks[len(marks)-1].DurS
-		durU = math.Max(durU, total)
-		bs, bc := math.Inf(-1), 0
-		for u := DotSeconds(hi); u <= DotSeconds(lo)*1.0001; u *= 1.015 {
-			s, c := mcRepeatScore(S, on, total, u*d.EnvRate)
-			if s > bs {
-				bs, bc = s, c
-			}
-		}
-		ll[i] = bs / (sigma2 * corr)
-		copies[i] = bc
-		best = math.Max(best, bs)
-	}
-	if decScore > 0 {
-		fit = best / decScore
-	} else {
-		fit = 0
-	}
-	if d.DotS > 0 && float64(n)/d.EnvRate < 0.6*durU*d.DotS {
-		warn = fmt.Sprintf("burst (%.1f s) too short to hold an identifier (%.1f s at %.0f WPM)", float64(n)/d.EnvRate, durU*d.DotS, d.WPM)
-		return nil, nil, 0, warn
-	}
-	post = mcSoftmax(ll)
-	return post[:len(m.ids)], copies, fit, ""
-}
-
-// mcRepeatScore slides one template (key-down intervals in units, total
-// length in units) at unitSamp samples a unit over the prefix sums S of
-// (x − ½) and greedily adds non-overlapping copies while each adds a
-// positive score. Copies may hang over either end of the burst.
-func mcRepeatScore(S []float64, on [][2]float64, total, unitSamp float64) (float64, int) {
-	n := len(S) - 1
-	L := int(math.Ceil(total * unitSamp))
-	if L < 2 {
-		return math.Inf(-1), 0
-	}
-	ia := make([]int, len(on))
-	ib := make([]int, len(on))
-	for k, iv := range on {
-		ia[k] = int(math.Round(iv[0] * unitSamp))
-		ib[k] = int(math.Round(iv[1] * unitSamp))
-	}
-	clip := func(v int) int { return max(0, min(n, v)) }
-	nOff := n + L
-	sc := make([]float64, nOff)
-	for o := range sc {
-		t := o - L + 1
-		s := 0.0
-		for k := range ia {
-			s += S[clip(t+ib[k])] - S[clip(t+ia[k])]
-		}
-		sc[o] = s
-	}
-	// Greedy non-overlapping peaks.
-	type pk struct {
-		o int
-		s float64
-	}
-	order := make([]pk, len(sc))
-	for o, s := range sc {
-		order[o] = pk{o, s}
-	}
-	sort.Slice(order, func(a, b int) bool { return order[a].s > order[b].s })
-	var chosen []int
-	sum := 0.0
-	for _, p := range order {
-		if p.s <= 0 {
-			break
-		}
-		ok := true
-		for _, c := range chosen {
-			if mcAbs(p.o-c) < L {
-				ok = false
-				break
-			}
-		}
-		if ok {
-			chosen = append(chosen, p.o)
-			sum += p.s
-		}
-		if len(chosen) > n/L+2 {
-			break
-		}
-	}
-	if len(chosen) == 0 {
-		return order[0].s, 0
-	}
-	return sum, len(chosen)
-}
-
-func mcAbs(v int) int {
-	if v < 0 {
-		return -v
-	}
-	return v
+	tm.Warnings = append(res.Warnings, tm.Warnings...)
+	return tm
 }
