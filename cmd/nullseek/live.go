@@ -43,6 +43,7 @@ type liveFlags struct {
 	ppm      int
 	latency  string
 	pollHz   float64
+	compass  string
 }
 
 func (f *liveFlags) add(cmd *cobra.Command) {
@@ -57,12 +58,13 @@ func (f *liveFlags) add(cmd *cobra.Command) {
 	fl.IntVar(&f.ppm, "ppm", 0, "live: receiver frequency correction, parts per million")
 	fl.StringVar(&f.latency, "iq-latency", "rtl_tcp", "live: seconds the samples take to arrive, taken off the capture start so headings and levels line up; rtl_tcp = one USB transfer (131072 samples at --rate)")
 	fl.Float64Var(&f.pollHz, "poll-hz", heading.DefaultPollHz, "live: rotator position polls per second")
+	fl.StringVar(&f.compass, feedFlag, "", "live: NMEA 0183 compass (HDT, HDG, HDM) giving the headings during the capture: tcp://HOST:PORT, udp://[HOST]:PORT or serial:/dev/ttyXXX[@BAUD] (default 4800 baud); needs --duration")
 }
 
 // given reports whether any live-only flag was set on cmd.
 func (f *liveFlags) given(cmd *cobra.Command) []string {
 	var names []string
-	for _, n := range []string{"rotator", "sweep", "step", "duration", "margin", "record", "gain", "ppm", "iq-latency", "poll-hz"} {
+	for _, n := range []string{"rotator", "sweep", "step", "duration", "margin", "record", "gain", "ppm", "iq-latency", "poll-hz", feedFlag} {
 		if cmd.Flags().Changed(n) {
 			names = append(names, "--"+n)
 		}
@@ -89,7 +91,9 @@ given), --rate (default 250k) and --gain. With --rotator HOST:PORT (Hamlib
 rotctld) and --sweep FROM:TO or --step FROM:STEP:TO:DWELL the antenna is
 turned while the receiver records; the capture ends --margin seconds after
 the sweep (or at --duration) and is fitted as usual. Without --rotator give
---duration and a heading source (--turn for a steady hand turn).
+--duration and a heading source (--turn for a steady hand turn, or
+--nmea-feed ADDR for a compass that sends NMEA 0183 headings, stamped as
+they arrive; --heading-ref picks its HDT or HDM sentences as for --nmea).
 --record FILE keeps FILE.sigmf-meta/.sigmf-data and the heading log FILE.csv.`
 	cmd.RunE = func(c *cobra.Command, args []string) error {
 		if !strings.HasPrefix(strings.ToLower(args[0]), liveScheme) {
@@ -190,6 +194,9 @@ func (f *liveFlags) parse(target string, in *inputFlags, idf *identFlags, hf *he
 	if !(f.pollHz > 0 && f.pollHz <= 100) {
 		return t, fmt.Errorf("--poll-hz %v: want 0 < Hz ≤ 100", f.pollHz)
 	}
+	if f.compass != "" {
+		return t, f.checkCompass(hf)
+	}
 	otherHeading := hf.log != "" || hf.nmea != "" || hf.turn != ""
 	if f.rotator == "" {
 		if f.sweep != "" || f.step != "" {
@@ -199,7 +206,7 @@ func (f *liveFlags) parse(target string, in *inputFlags, idf *identFlags, hf *he
 			return t, fmt.Errorf("a live capture without --rotator needs --duration SECONDS")
 		}
 		if !otherHeading {
-			return t, fmt.Errorf("a live capture without --rotator needs a heading source (--turn START:RATE, --headings or --nmea)")
+			return t, fmt.Errorf("a live capture without --rotator needs a heading source (--turn START:RATE, --headings, --nmea or --nmea-feed ADDR)")
 		}
 		return t, nil
 	}
@@ -289,6 +296,15 @@ func (f *liveFlags) capture(ctx context.Context, cmdName, target string, in *inp
 
 // run connects, records and writes the files; on failure nothing is left.
 func (f *liveFlags) run(ctx context.Context, cmdName string, t liveTuning, base string, hf *headingFlags, notes func(string)) (string, error) {
+	capture := survey.CaptureLive
+	if f.compass != "" {
+		c, err := f.startCompass(ctx, hf, notes)
+		if err != nil {
+			return "", err
+		}
+		defer c.close()
+		capture = c.capture
+	}
 	src, err := sdr.DialRTLTCP(ctx, t.addr, t.cfg)
 	if err != nil {
 		return "", err
@@ -323,7 +339,7 @@ func (f *liveFlags) run(ctx context.Context, cmdName string, t liveTuning, base 
 	} else {
 		notes(fmt.Sprintf("recording %s for %.1f s", info.Name, f.duration))
 	}
-	lc, err := survey.CaptureLive(ctx, &startShifted{Source: src, info: info}, opts)
+	lc, err := capture(ctx, &startShifted{Source: src, info: info}, opts)
 	if err != nil {
 		w.Abort()
 		return "", err

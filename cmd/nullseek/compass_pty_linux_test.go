@@ -1,0 +1,53 @@
+//go:build linux
+
+package main
+
+import (
+	"os"
+	"strconv"
+	"syscall"
+	"testing"
+	"time"
+	"unsafe"
+)
+
+// startPTYCompass is a compass on a serial line: a pseudo-terminal pair
+// (Linux devpts(4), opened through /dev/ptmx) whose master end gets
+// line(now) every period until the test ends. It returns the slave's
+// --nmea-feed address at baud (a pty ignores the rate).
+func startPTYCompass(t *testing.T, period time.Duration, baud int, line func(now time.Time) string) (string, error) {
+	t.Helper()
+	m, err := os.OpenFile("/dev/ptmx", os.O_RDWR|syscall.O_NOCTTY, 0)
+	if err != nil {
+		return "", err
+	}
+	var unlock int32
+	if _, _, e := syscall.Syscall(syscall.SYS_IOCTL, m.Fd(), syscall.TIOCSPTLCK, uintptr(unsafe.Pointer(&unlock))); e != 0 {
+		m.Close()
+		return "", e
+	}
+	var n uint32
+	if _, _, e := syscall.Syscall(syscall.SYS_IOCTL, m.Fd(), syscall.TIOCGPTN, uintptr(unsafe.Pointer(&n))); e != 0 {
+		m.Close()
+		return "", e
+	}
+	done := make(chan struct{})
+	stopped := make(chan struct{})
+	go func() {
+		defer close(stopped)
+		tick := time.NewTicker(period)
+		defer tick.Stop()
+		for {
+			select {
+			case <-done:
+				return
+			case <-tick.C:
+				if _, err := m.WriteString(line(time.Now())); err != nil {
+					return
+				}
+			}
+		}
+	}()
+	t.Cleanup(func() { close(done); <-stopped; m.Close() })
+	return "serial:/dev/pts/" + strconv.Itoa(int(n)) + "@" + strconv.Itoa(baud), nil
+}

@@ -1,0 +1,14 @@
+//go:build !linux
+
+package main
+
+import (
+	"errors"
+	"testing"
+	"time"
+)
+
+// startPTYCompass needs Linux pseudo-terminals.
+func startPTYCompass(t *testing.T, period time.Duration, baud int, line func(now time.Time) string) (string, error) {
+	return "", errors.New("pseudo-terminal compass is only set up on Linux")
+}

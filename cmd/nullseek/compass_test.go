@@ -1,0 +1,504 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"fmt"
+	"io"
+	"log/slog"
+	"math"
+	"math/rand"
+	"net"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"strconv"
+	"strings"
+	"sync"
+	"testing"
+	"time"
+
+	"nullseek/bearing"
+	"nullseek/internal/angle"
+	"nullseek/sdr"
+)
+
+// nmeaSentence frames body as an NMEA 0183 sentence: '$', body, '*', the
+// 8-bit XOR of the body's characters as two hex digits, CR LF
+// (REFERENCES §4).
+func nmeaSentence(body string) string {
+	var c byte
+	for i := 0; i < len(body); i++ {
+		c ^= body[i]
+	}
+	return fmt.Sprintf("$%s*%02X\r\n", body, c)
+}
+
+func TestNMEASentenceChecksum(t *testing.T) {
+	// REFERENCES §4: $GPHDT,274.07,T*03 ([V] with gpsd 3.22) and the HDM
+	// example $APHDM,218.634,M*39 from gpsd's NMEA notes.
+	for _, want := range []string{"$GPHDT,274.07,T*03\r\n", "$APHDM,218.634,M*39\r\n"} {
+		if got := nmeaSentence(want[1:strings.IndexByte(want, '*')]); got != want {
+			t.Errorf("nmeaSentence = %q, want %q", got, want)
+		}
+	}
+}
+
+// turnClock is a hand turn at a steady rate: the heading, clockwise from
+// true north, is startDeg + rateDegS·(t − t0) on the wall clock. The test
+// receiver and the test compass both read it, so they agree on where the
+// antenna points at every instant.
+type turnClock struct {
+	t0                 time.Time
+	startDeg, rateDegS float64
+}
+
+// unwrapped is the heading at tm without wrapping to [0, 360).
+func (c turnClock) unwrapped(tm time.Time) float64 {
+	return c.startDeg + c.rateDegS*tm.Sub(c.t0).Seconds()
+}
+
+// serveCompass is a TCP NMEA compass: each client gets script(ctx, w);
+// the connection closes when script returns.
+func serveCompass(t *testing.T, script func(ctx context.Context, w io.Writer)) string {
+	t.Helper()
+	ln, err := net.Listen("tcp", "127.0.0.1:0")
+	if err != nil {
+		t.Fatal(err)
+	}
+	ctx, cancel := context.WithCancel(context.Background())
+	t.Cleanup(func() { cancel(); ln.Close() })
+	go func() {
+		for {
+			c, err := ln.Accept()
+			if err != nil {
+				return
+			}
+			go func() {
+				defer c.Close()
+				script(ctx, c)
+			}()
+		}
+	}()
+	return "tcp://" + ln.Addr().String()
+}
+
+// sendEvery writes line(now) every period until ctx ends, a write fails or
+// limit (0: none) has passed since the first tick.
+func sendEvery(period, limit time.Duration, line func(now time.Time) string) func(context.Context, io.Writer) {
+	return func(ctx context.Context, w io.Writer) {
+		t0 := time.Now()
+		tick := time.NewTicker(period)
+		defer tick.Stop()
+		for {
+			select {
+			case <-ctx.Done():
+				return
+			case <-tick.C:
+				// The heading of the moment of writing, not of the tick
+				// (which a busy scheduler may deliver late).
+				now := time.Now()
+				if limit > 0 && now.Sub(t0) > limit {
+					return
+				}
+				if _, err := io.WriteString(w, line(now)); err != nil {
+					return
+				}
+			}
+		}
+	}
+}
+
+// newTurnRig serves, over the rtl_tcp protocol (paced, like a real
+// receiver), a Yagi (60°, 18 dB F/B, as --antenna yagi) turned by clock
+// and seeing a carrier at truthDeg; it returns the receiver's address.
+func newTurnRig(t *testing.T, truthDeg float64, clock turnClock) string {
+	t.Helper()
+	hist := &azHistory{}
+	// The turn is linear, so samples every 0.25 s interpolate it exactly.
+	for k := -8; k <= 4*120; k++ {
+		at := clock.t0.Add(time.Duration(k) * 250 * time.Millisecond)
+		hist.add(at, clock.unwrapped(at))
+	}
+	yagi, err := bearing.Yagi(60, 18)
+	if err != nil {
+		t.Fatal(err)
+	}
+	src := &turningSource{
+		rate: liveRate, offsetHz: liveChanHz - liveCenterHz,
+		amp: math.Pow(10, -10.0/20), sigma: math.Sqrt(math.Pow(10, -35.0/10) / 2), onS: 2,
+		truthDeg: truthDeg, pat: yagi, hist: hist, chunk: 16 * 32 * 512 / 2,
+		rng: rand.New(rand.NewSource(5)),
+	}
+	ln, err := net.Listen("tcp", "127.0.0.1:0")
+	if err != nil {
+		t.Fatal(err)
+	}
+	ctx, cancel := context.WithCancel(context.Background())
+	t.Cleanup(cancel)
+	go sdr.ServeRTLTCP(ctx, ln, src, sdr.ServeOptions{Paced: true, Logger: slog.New(slog.NewTextHandler(io.Discard, nil))})
+	return ln.Addr().String()
+}
+
+// wmmDeclAtSouthPolarPlateau is the WMM2025 declination at 80° S 240° E
+// (120° W), 0 km, on date tm, interpolated linearly between the WMM2025
+// report's table 6 rows for 2025.0 (68.78°) and 2027.5 (68.49°)
+// (REFERENCES §8, [V]). The model's coefficients change linearly in time,
+// so the interpolation is good to a few hundredths of a degree.
+func wmmDeclAtSouthPolarPlateau(tm time.Time) (float64, bool) {
+	y0 := time.Date(tm.Year(), 1, 1, 0, 0, 0, 0, time.UTC)
+	y1 := y0.AddDate(1, 0, 0)
+	year := float64(tm.Year()) + float64(tm.Sub(y0))/float64(y1.Sub(y0))
+	if year < 2025 || year >= 2030 {
+		return 0, false
+	}
+	return 68.78 + (68.49-68.78)*(year-2025)/2.5, true
+}
+
+// TestLiveBearingCompass is the hunter's case: a hand-held Yagi turned at
+// 24°/s through more than a full circle, its compass sending headings at
+// 10 Hz over TCP while the receiver (rtl_tcp replay) records 16 s. The
+// bearing must come out within 3σ and 3° of the true bearing the test
+// receiver was built with. Variants: true headings (HDT); magnetic
+// headings (HDM) with a given declination; HDG without variation
+// converted with WMM2025 at --station.
+func TestLiveBearingCompass(t *testing.T) {
+	t.Parallel()
+	const truth, declGiven = 217.0, 12.5
+	wmmDecl, wmmOK := wmmDeclAtSouthPolarPlateau(time.Now().UTC())
+	cases := []struct {
+		name     string
+		sentence func(trueDeg float64) string
+		magOff   float64 // sent heading = true − magOff
+		args     []string
+		skip     bool
+		serial   bool // over a serial line (a pty) instead of TCP
+	}{
+		{"HDT", func(d float64) string { return nmeaSentence(fmt.Sprintf("HCHDT,%.1f,T", d)) }, 0, nil, false, false},
+		{"HDM with --declination", func(d float64) string {
+			return nmeaSentence(fmt.Sprintf("HCHDM,%.1f,M", angle.Wrap360(d-declGiven)))
+		}, declGiven, []string{"--heading-ref", "magnetic", "--declination", strconv.FormatFloat(declGiven, 'f', -1, 64)}, false, false},
+		{"HDG with WMM2025 at --station", func(d float64) string {
+			return nmeaSentence(fmt.Sprintf("HCHDG,%.1f,,,,", angle.Wrap360(d-wmmDecl)))
+		}, wmmDecl, []string{"--heading-ref", "magnetic", "--station", "-80,-120"}, !wmmOK, false},
+		{"HDT over a serial line", func(d float64) string { return nmeaSentence(fmt.Sprintf("HEHDT,%.1f,T", d)) }, 0, nil, false, true},
+	}
+	// The captures run side by side (they mostly wait on the clock), each
+	// with its own receiver, compass and turn.
+	type started struct {
+		cmd       *exec.Cmd
+		out, errb *bytes.Buffer
+		clock     turnClock
+		rec       string
+	}
+	runs := make([]*started, len(cases))
+	skipWhy := make([]string, len(cases))
+	for i, tc := range cases {
+		if tc.skip {
+			skipWhy[i] = "the date is outside WMM2025's span 2025.0–2030.0"
+			continue
+		}
+		clock := turnClock{t0: time.Now(), startDeg: 40, rateDegS: 24}
+		line := func(now time.Time) string { return tc.sentence(angle.Wrap360(clock.unwrapped(now))) }
+		var feed string
+		if tc.serial {
+			var err error
+			if feed, err = startPTYCompass(t, 100*time.Millisecond, 9600, line); err != nil {
+				skipWhy[i] = "no pseudo-terminal for a serial compass: " + err.Error()
+				continue
+			}
+		} else {
+			feed = serveCompass(t, sendEvery(100*time.Millisecond, 0, line))
+		}
+		rtl := newTurnRig(t, truth, clock)
+		rec := filepath.Join(t.TempDir(), "hunt")
+		args := append([]string{"bearing", "rtl_tcp://" + rtl, "--nmea-feed", feed, "--duration", "16",
+			"--center", "145.45M", "--freq", "145.5M", "--rate", "250k", "--gain", "20",
+			"--no-ident", "--antenna", "yagi", "--record", rec, "--json"}, tc.args...)
+		c, o, e := startNullseek(t, "", args...)
+		runs[i] = &started{c, o, e, clock, rec}
+	}
+	for i, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			if skipWhy[i] != "" {
+				t.Skip(skipWhy[i])
+			}
+			sr := runs[i]
+			r := waitNullseek(t, sr.cmd, sr.out, sr.errb)
+			if r.code != 0 {
+				t.Fatalf("exit %d\nstderr:\n%s", r.code, r.stderr)
+			}
+			var got map[string]any
+			for _, m := range jsonLines(t, r.stdout) {
+				if m["type"] == "bearing" {
+					got = m
+				}
+			}
+			if got == nil || got["bearing_deg"] == nil {
+				t.Fatalf("no transmitter bearing in output:\n%s\nstderr:\n%s", r.stdout, r.stderr)
+			}
+			b, sig, fit := got["bearing_deg"].(float64), got["sigma_deg"].(float64), got["fit_sigma_deg"].(float64)
+			errDeg := angle.Wrap180(b - truth)
+			t.Logf("%s: bearing %.2f° (truth %.1f°), error %+.2f°, sigma %.2f° (fit %.2f°)", tc.name, b, truth, errDeg, sig, fit)
+			// The truth is the bearing the test receiver was built with;
+			// the headings are what the test compass sent.
+			if math.Abs(errDeg) > 3*sig || math.Abs(errDeg) > 2 {
+				t.Errorf("bearing %.2f° is %+.2f° from the truth %.1f° (sigma %.2f°): want within 3σ and 2°", b, errDeg, truth, sig)
+			}
+			checkCompassLog(t, sr.rec, sr.clock, tc.magOff)
+			if tc.name == "HDM with --declination" {
+				// The recording and heading log re-run offline to the same answer.
+				off := runNullseek(t, "", append([]string{"bearing", sr.rec + ".sigmf-meta", "--headings", sr.rec + ".csv",
+					"--freq", "145.5M", "--no-ident", "--antenna", "yagi", "--json"}, tc.args...)...)
+				if off.code != 0 {
+					t.Fatalf("offline re-run: exit %d\n%s", off.code, off.stderr)
+				}
+				for _, m := range jsonLines(t, off.stdout) {
+					if m["type"] == "bearing" {
+						if ob := m["bearing_deg"].(float64); math.Abs(angle.Wrap180(ob-b)) > 0.005 {
+							t.Errorf("offline re-run gave %.2f°, live %.2f°", ob, b)
+						}
+					}
+				}
+			}
+		})
+	}
+}
+
+// checkCompassLog reads the heading log written beside the recording and
+// checks each row against the heading the compass sent at that time of
+// the recording's clock (its core:datetime plus the row's seconds).
+func checkCompassLog(t *testing.T, rec string, clock turnClock, magOff float64) {
+	t.Helper()
+	src, err := sdr.Open(rec+".sigmf-meta", sdr.RawParams{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	start := src.Info().Start
+	src.Close()
+	b, err := os.ReadFile(rec + ".csv")
+	if err != nil {
+		t.Fatalf("no heading log beside the recording: %v", err)
+	}
+	rows, worst := 0, 0.0
+	for _, l := range strings.Split(strings.TrimSpace(string(b)), "\n")[1:] {
+		var ts, deg float64
+		if _, err := fmt.Sscanf(l, "%g,%g", &ts, &deg); err != nil {
+			t.Fatalf("heading log row %q: %v", l, err)
+		}
+		sent := angle.Wrap360(clock.unwrapped(start.Add(time.Duration(ts*float64(time.Second)))) - magOff)
+		worst = max(worst, math.Abs(angle.Wrap180(deg-sent)))
+		rows++
+	}
+	t.Logf("heading log: %d rows, largest difference from the heading sent at that time %.2f°", rows, worst)
+	// 10 Hz for 16 s; 0.05° rounding plus a few ms on loopback at 24°/s
+	// (the receiver's start is stamped in ms: another 0.024°).
+	if rows < 140 || worst > 0.6 {
+		t.Errorf("heading log: %d rows (want ~160), worst difference %.2f° (want ≤ 0.6°)", rows, worst)
+	}
+}
+
+// TestLiveCompassFailures: an unreachable, garbled, wrong-north or
+// vanishing compass stops the capture with one clear line, a non-zero
+// exit and no recording left behind.
+func TestLiveCompassFailures(t *testing.T) {
+	t.Parallel()
+	closedPort := func() string {
+		ln, err := net.Listen("tcp", "127.0.0.1:0")
+		if err != nil {
+			t.Fatal(err)
+		}
+		a := ln.Addr().String()
+		ln.Close()
+		return a
+	}
+	hdt := func(time.Time) string { return nmeaSentence("HCHDT,123.4,T") }
+	cases := []struct {
+		name   string
+		feed   func(t *testing.T) string
+		want   []string
+		within time.Duration
+	}{
+		{"unreachable", func(t *testing.T) string { return "tcp://" + closedPort() }, []string{"compass unreachable"}, 3 * time.Second},
+		{"garbled", func(t *testing.T) string {
+			return serveCompass(t, sendEvery(100*time.Millisecond, 0, func(time.Time) string {
+				// A corrupted HDT (checksum 11, not 18) and an RMC.
+				return "$HCHDT,10.0,T*11\r\n" + nmeaSentence("GPRMC,120000,A,5000.0,N,00800.0,E,0.0,0.0,010126,,")
+			}))
+		}, []string{"no valid heading sentence", "bad checksum", "other sentence types"}, 12 * time.Second},
+		{"magnetic compass, true asked", func(t *testing.T) string {
+			return serveCompass(t, sendEvery(100*time.Millisecond, 0, func(time.Time) string { return nmeaSentence("HCHDM,200.0,M") }))
+		}, []string{"only HCHDM", "--heading-ref magnetic"}, 12 * time.Second},
+		{"hangs up", func(t *testing.T) string {
+			return serveCompass(t, sendEvery(100*time.Millisecond, 3*time.Second, hdt))
+		}, []string{"closed the connection"}, 10 * time.Second},
+		{"no such serial port", func(t *testing.T) string { return "serial:" + filepath.Join(t.TempDir(), "ttyNONE") }, []string{"serial", "ttyNONE"}, 3 * time.Second},
+		{"serial line without headings", func(t *testing.T) string {
+			feed, err := startPTYCompass(t, 100*time.Millisecond, 4800, func(time.Time) string {
+				return nmeaSentence("GPGGA,120000.00,5000.000,N,00800.000,E,1,08,1.0,100.0,M,47.0,M,,")
+			})
+			if err != nil {
+				return "" // skipped below
+			}
+			return feed
+		}, []string{"no valid heading sentence", "other sentence types"}, 12 * time.Second},
+	}
+	// All at once: each mostly waits for its compass's silence limit.
+	type result struct {
+		feed, dir, tmp string
+		r              nullseekRun
+		took           time.Duration
+	}
+	res := make([]*result, len(cases))
+	var wg sync.WaitGroup
+	for i, tc := range cases {
+		rs := &result{feed: tc.feed(t), dir: t.TempDir(), tmp: t.TempDir()}
+		res[i] = rs
+		if rs.feed == "" {
+			continue
+		}
+		rig := newLiveRig(t, 40, false)
+		c, o, e := startNullseek(t, rs.tmp, "bearing", "rtl_tcp://"+rig.rtlAddr, "--nmea-feed", rs.feed, "--duration", "20",
+			"--freq", "145.5M", "--center", "145.45M", "--rate", "250k", "--no-ident", "--record", filepath.Join(rs.dir, "cut"))
+		began := time.Now()
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			err := c.Wait()
+			rs.took = time.Since(began)
+			rs.r = nullseekRun{stdout: o.String(), stderr: e.String(), code: -1}
+			if ee, ok := err.(*exec.ExitError); ok {
+				rs.r.code = ee.ExitCode()
+			} else if err == nil {
+				rs.r.code = 0
+			}
+		}()
+	}
+	wg.Wait()
+	for i, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			rs := res[i]
+			if rs.feed == "" {
+				t.Skip("no pseudo-terminal for a serial compass")
+			}
+			t.Logf("after %v: %s", rs.took.Round(time.Millisecond), rs.r.stderr)
+			dev, _, _ := strings.Cut(strings.TrimPrefix(rs.feed, "serial:"), "@")
+			oneLine(t, rs.r, append(tc.want, dev)...)
+			if rs.took > tc.within {
+				t.Errorf("took %v, want the failure within %v", rs.took, tc.within)
+			}
+			if left := filesIn(t, rs.dir); len(left) > 0 {
+				t.Errorf("recording files left behind: %v", left)
+			}
+			if left := filesIn(t, rs.tmp); len(left) > 0 {
+				t.Errorf("temporary files left behind: %v", left)
+			}
+		})
+	}
+}
+
+// TestLiveCompassFlags: misuse is refused with one line before anything
+// is connected (nothing listens at the addresses).
+func TestLiveCompassFlags(t *testing.T) {
+	t.Parallel()
+	dir := t.TempDir()
+	const rx, feed = "rtl_tcp://127.0.0.1:1", "tcp://127.0.0.1:1"
+	base := []string{"bearing", "--record", filepath.Join(dir, "r"), "--freq", "145.5M"}
+	cases := []struct {
+		name string
+		args []string
+		want []string
+	}{
+		{"with rotator", []string{rx, "--nmea-feed", feed, "--duration", "5", "--rotator", "127.0.0.1:1"}, []string{"--nmea-feed and --rotator"}},
+		{"with sweep", []string{rx, "--nmea-feed", feed, "--duration", "5", "--sweep", "0:90"}, []string{"--sweep"}},
+		{"with turn", []string{rx, "--nmea-feed", feed, "--duration", "5", "--turn", "0:30"}, []string{"--nmea-feed gives the headings"}},
+		{"with nmea file", []string{rx, "--nmea-feed", feed, "--duration", "5", "--nmea", "x.nmea"}, []string{"--nmea-feed gives the headings"}},
+		{"no duration", []string{rx, "--nmea-feed", feed}, []string{"--duration"}},
+		{"bad scheme", []string{rx, "--nmea-feed", "ftp://x:1", "--duration", "5"}, []string{"--nmea-feed", "ftp"}},
+		{"bad baud", []string{rx, "--nmea-feed", "serial:/dev/ttyUSB0@fast", "--duration", "5"}, []string{"baud"}},
+		{"magnetic without declination", []string{rx, "--nmea-feed", feed, "--duration", "5", "--heading-ref", "magnetic"}, []string{"--station", "--declination"}},
+		{"bad reference", []string{rx, "--nmea-feed", feed, "--duration", "5", "--heading-ref", "grid"}, []string{"--heading-ref"}},
+		{"on a recording", []string{filepath.Join(dir, "x.sigmf-meta"), "--nmea-feed", feed}, []string{"--nmea-feed", "live receiver"}},
+	}
+	for _, tc := range cases {
+		r := runNullseek(t, "", append(base, tc.args...)...)
+		t.Run(tc.name, func(t *testing.T) { oneLine(t, r, tc.want...) })
+	}
+	if left := filesIn(t, dir); len(left) > 0 {
+		t.Errorf("files left behind: %v", left)
+	}
+}
+
+func TestParseCompassAddr(t *testing.T) {
+	cases := []struct {
+		in      string
+		ok      bool
+		network string
+		target  string
+		baud    int
+	}{
+		{"tcp://127.0.0.1:10110", true, "tcp", "tcp://127.0.0.1:10110", 0},
+		{"TCP://compass.local:2000/", true, "tcp", "tcp://compass.local:2000", 0},
+		{"tcp://[::1]:10110", true, "tcp", "tcp://[::1]:10110", 0},
+		{"udp://:10110", true, "udp", "udp://:10110", 0},
+		{"udp://0.0.0.0:10110", true, "udp", "udp://0.0.0.0:10110", 0},
+		// 4800 baud: NMEA 0183's standard rate (REFERENCES §4, gpsfake -s).
+		{"serial:/dev/ttyUSB0", true, "serial", "/dev/ttyUSB0", 4800},
+		{"serial:/dev/ttyS1@38400", true, "serial", "/dev/ttyS1", 38400},
+		{"serial:///dev/ttyACM0@9600", true, "serial", "/dev/ttyACM0", 9600},
+		{"serial:COM3@4800", true, "serial", "COM3", 4800},
+		{"tcp://:10110", false, "", "", 0},
+		{"tcp://host", false, "", "", 0},
+		{"tcp:host:1", false, "", "", 0},
+		{"tcp://host:0", false, "", "", 0},
+		{"tcp://host:70000", false, "", "", 0},
+		{"udp://host:x", false, "", "", 0},
+		{"serial:", false, "", "", 0},
+		{"serial:@4800", false, "", "", 0},
+		{"serial:/dev/ttyUSB0@0", false, "", "", 0},
+		{"serial:/dev/ttyUSB0@-9600", false, "", "", 0},
+		{"/dev/ttyUSB0", false, "", "", 0},
+		{"127.0.0.1:10110", false, "", "", 0},
+		{"", false, "", "", 0},
+	}
+	for _, c := range cases {
+		a, err := parseCompassAddr(c.in)
+		if (err == nil) != c.ok {
+			t.Errorf("parseCompassAddr(%q) error %v, want ok=%v", c.in, err, c.ok)
+			continue
+		}
+		if err != nil {
+			if !strings.Contains(err.Error(), "--nmea-feed") {
+				t.Errorf("parseCompassAddr(%q) error %q does not name the flag", c.in, err)
+			}
+			continue
+		}
+		if a.network != c.network || a.target != c.target || a.baud != c.baud {
+			t.Errorf("parseCompassAddr(%q) = %+v, want %s %s %d", c.in, a, c.network, c.target, c.baud)
+		}
+	}
+}
+
+func FuzzParseCompassAddr(f *testing.F) {
+	for _, s := range []string{"tcp://127.0.0.1:10110", "udp://:10110", "serial:/dev/ttyUSB0@4800", "serial:///dev/x", "tcp://[::1]:1", "a:b@c", "serial:@", "udp://[:1"} {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, s string) {
+		a, err := parseCompassAddr(s)
+		if err != nil {
+			return
+		}
+		switch a.network {
+		case "tcp", "udp":
+			if _, _, err := net.SplitHostPort(strings.TrimPrefix(a.target, a.network+"://")); err != nil {
+				t.Fatalf("%q gave target %q: %v", s, a.target, err)
+			}
+		case "serial":
+			if a.target == "" || a.baud < 50 {
+				t.Fatalf("%q gave %+v", s, a)
+			}
+		default:
+			t.Fatalf("%q gave network %q", s, a.network)
+		}
+	})
+}
