@@ -353,6 +353,43 @@ func (m *Matcher) Match(d Decoded) Match {
 	return m.match(d, d.Envelope, d.EnvRate)
 }
 
+// wordTemplates returns templates of up to three of the longest distinct
+// words of a decoded text (≥ 3 characters, no unreadable ones) that are
+// not listed IDs.
+func (m *Matcher) wordTemplates(text string) []tplTemplate {
+	listed := map[string]bool{}
+	for _, toks := range m.tokens {
+		var cs []string
+		for _, t := range toks {
+			cs = append(cs, morseTable[t])
+		}
+		listed[strings.Join(cs, " ")] = true
+	}
+	words := strings.Fields(text)
+	sort.SliceStable(words, func(a, b int) bool { return len(words[a]) > len(words[b]) })
+	var out []tplTemplate
+	for _, w := range words {
+		keys, err := splitMorseText(w)
+		if err != nil || len(keys) < 3 {
+			continue
+		}
+		var cs []string
+		for _, k := range keys {
+			cs = append(cs, morseTable[k])
+		}
+		key := strings.Join(cs, " ")
+		if listed[key] {
+			continue
+		}
+		listed[key] = true
+		out = append(out, tplFromCodes(cs))
+		if len(out) == 3 {
+			break
+		}
+	}
+	return out
+}
+
 // match is Match with the template method run on env (power at envRate).
 func (m *Matcher) match(d Decoded, env []float32, envRate float64) Match {
 	res := Match{ID: UnknownID}
@@ -424,8 +461,12 @@ func (m *Matcher) match(d Decoded, env []float32, envRate float64) Match {
 		return res
 	}
 
-	// A clean decode that fits no listed ID is an unlisted ID: the
-	// template method is only for text too garbled to read.
+	// A clean decode that fits no listed ID points to an unlisted ID: its
+	// words join the template method's unlisted candidates, so the keying
+	// decides between them and the listed IDs (a decoder can be confidently
+	// wrong on noise, so the text alone does not settle it). An exact read
+	// of a listed ID that is merely too short for MinConfidence is no such
+	// sign.
 	meanConf, nUnknown := 0.0, 0
 	for _, c := range chars {
 		meanConf += c.Confidence
@@ -436,21 +477,29 @@ func (m *Matcher) match(d Decoded, env []float32, envRate float64) Match {
 	if len(chars) > 0 {
 		meanConf /= float64(len(chars))
 	}
-	if len(chars) >= (minLen*3+4)/5 && meanConf >= 0.6 && float64(nUnknown) < 0.1*float64(len(chars)) {
-		res.Method = "text"
-		res.Warnings = append(res.Warnings, fmt.Sprintf("decoded text %q fits no listed identifier well enough (best %s at %.2f)", d.Text, m.ids[bt], pt[bt]))
-		return res
+	clean := len(chars) >= (minLen*3+4)/5 && meanConf >= 0.6 && float64(nUnknown) < 0.1*float64(len(chars)) && res.Scores[bt].TextCost >= 0.5
+	var extra []tplTemplate
+	if clean {
+		extra = m.wordTemplates(d.Text)
 	}
 
 	// Template method.
-	tm := m.MatchEnvelope(env, envRate)
+	tm, _ := m.matchEnvelope(env, envRate, extra)
 	if tm.Method == "" {
+		if clean {
+			res.Method = "text"
+			res.Warnings = append(res.Warnings, fmt.Sprintf("decoded text %q fits no listed identifier well enough (best %s at %.2f)", d.Text, m.ids[bt], pt[bt]))
+			return res
+		}
 		res.Warnings = append(res.Warnings, tm.Warnings...)
 		if len(chars) < (minLen*3+4)/5 {
 			res.Warnings = append(res.Warnings, fmt.Sprintf("burst too short to hold an identifier (%d characters decoded, shortest ID has %d)", len(chars), minLen))
 		}
 		res.Warnings = append(res.Warnings, fmt.Sprintf("best text guess %s at %.2f is below %.2f", m.ids[bt], pt[bt], m.MinConfidence))
 		return res
+	}
+	if clean {
+		res.Warnings = append(res.Warnings, fmt.Sprintf("decoded text %q fits no listed identifier (best %s at %.2f); keying template decides", d.Text, m.ids[bt], pt[bt]))
 	}
 	for i := range tm.Scores {
 		tm.Scores[i].TextProb = res.Scores[i].TextProb

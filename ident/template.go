@@ -32,7 +32,8 @@ import (
 // an equal share of the prior tplOtherPrior. The posterior is a softmax of
 // the log-likelihoods divided by the temperature tplTemperature. The
 // constants were fitted to a Monte-Carlo of ebook2cw bursts in white
-// noise (see TestTemplateCalibration), so a reported confidence of 0.9
+// noise (TestTemplateFit; the table in TestTemplateVsFreeDecoding checks
+// it on other noise draws), so a reported confidence of 0.9
 // is right about 9 times in 10.
 
 const (
@@ -52,11 +53,15 @@ const (
 	// tplWordGapU is the gap between copies in dot units (a word gap).
 	tplWordGapU = 7.0
 
-	// Calibration (TestTemplateCalibration): temperature, the "none"
-	// log-likelihood and the prior weight of the unlisted family.
-	tplTemperature = 1.0
-	tplNoneLL      = 12.0
-	tplOtherPrior  = 1.0
+	// Calibration: temperature, the "none" log-likelihood and the prior
+	// weight of the unlisted family, fitted (TestTemplateFit with
+	// NULLSEEK_TPL_FIT=1: 252 ebook2cw bursts at +6 … −12 dB and 300
+	// pure-noise bursts; most probable truth, with no wrong ID at ≥ 0.5).
+	// Pure noise gives a best log-likelihood of 18 (median) to 30 (worst
+	// of 300), hence "none" at 28.
+	tplTemperature = 1.5
+	tplNoneLL      = 28.0
+	tplOtherPrior  = 30.0
 )
 
 // tplTemplate is one identifier's ideal keying in dot units.
@@ -437,20 +442,22 @@ func (s *tplSearch) levels(t tplTemplate, cd tplCandidate) (tplLevels, bool) {
 
 // tplResult is the template method's evidence for one burst.
 type tplResult struct {
-	ll      []float64 // log-likelihood ratio of each listed ID vs. all key up
-	otherLL float64   // log of the unlisted family's mean likelihood ratio
-	best    []tplCandidate
-	vll     []float64 // log-likelihood ratio of each unlisted variant
-	post    []float64 // posterior of each listed ID
-	pOther  float64   // posterior of "an unlisted ID"
-	pNone   float64   // posterior of "no listed keying"
-	wpm     float64   // speed of the best ID
-	snrDB   float64   // S²/σ² of the best fit (amplitude domain)
+	ll     []float64 // log-likelihood ratio of each listed ID vs. all key up
+	best   []tplCandidate
+	vll    []float64 // log-likelihood ratio of each unlisted variant
+	xll    []float64 // … of each extra unlisted candidate (decoded words)
+	post   []float64 // posterior of each listed ID
+	pOther float64   // posterior of "an unlisted ID"
+	pNone  float64   // posterior of "no listed keying"
+	wpm    float64   // speed of the best ID
+	snrDB  float64   // S²/σ² of the best fit (amplitude domain)
 }
 
 // run scores every template against the envelope.
-func (p *tplPlan) run(s *tplSearch) (tplResult, bool) {
+func (p *tplPlan) run(s *tplSearch, extra []tplTemplate) (tplResult, bool) {
 	var r tplResult
+	all := append(p.ids[:len(p.ids):len(p.ids)], extra...)
+	K := len(p.ids)
 	// Coarse pass: θ from the mean amplitude (key down about half the time
 	// puts it between the levels).
 	s.setThreshold(tplMean(s.amp))
@@ -459,9 +466,9 @@ func (p *tplPlan) run(s *tplSearch) (tplResult, bool) {
 	for u := uLo; u <= uHi*1.0001; u *= tplCoarseStep {
 		units = append(units, u)
 	}
-	coarse := make([][]tplCandidate, len(p.ids))
+	coarse := make([][]tplCandidate, len(all))
 	gBest, gi := math.Inf(-1), -1
-	for i, t := range p.ids {
+	for i, t := range all {
 		coarse[i] = make([]tplCandidate, len(units))
 		for k, u := range units {
 			coarse[i][k] = s.scan(t, u, max(1, int(u/3)))
@@ -475,14 +482,14 @@ func (p *tplPlan) run(s *tplSearch) (tplResult, bool) {
 	}
 	// Levels from the best coarse fit, then the refined pass at that θ.
 	gc := coarse[gi][tplTopPeaks(coarse[gi], 1)[0]]
-	lv, ok := s.levels(p.ids[gi], gc)
+	lv, ok := s.levels(all[gi], gc)
 	if !ok {
 		return r, false
 	}
 	s.setThreshold(lv.noise + lv.signal/2)
-	r.best = make([]tplCandidate, len(p.ids))
+	best := make([]tplCandidate, len(all))
 	bi := 0
-	for i, t := range p.ids {
+	for i, t := range all {
 		b := tplCandidate{score: math.Inf(-1)}
 		for _, k := range tplTopPeaks(coarse[i], tplRefine) {
 			for f := -3; f <= 3; f++ {
@@ -495,19 +502,24 @@ func (p *tplPlan) run(s *tplSearch) (tplResult, bool) {
 				}
 			}
 		}
-		r.best[i] = b
-		if b.score > r.best[bi].score {
+		best[i] = b
+		if i < K && b.score > best[bi].score {
 			bi = i
 		}
 	}
 	// Final levels from the best refined fit.
+	r.best = best[:K]
 	if lv2, ok := s.levels(p.ids[bi], r.best[bi]); ok {
 		lv = lv2
 	}
 	scale := lv.signal / (lv.sigma2 * lv.corr)
-	r.ll = make([]float64, len(p.ids))
-	for i, b := range r.best {
-		r.ll[i] = scale * math.Max(0, b.score)
+	r.ll = make([]float64, K)
+	for i, b := range best {
+		if i < K {
+			r.ll[i] = scale * math.Max(0, b.score)
+		} else {
+			r.xll = append(r.xll, scale*math.Max(0, b.score))
+		}
 	}
 	r.wpm = 1.2 * s.rate / r.best[bi].unit
 	r.snrDB = 10 * math.Log10(lv.signal*lv.signal/lv.sigma2)
@@ -519,28 +531,31 @@ func (p *tplPlan) run(s *tplSearch) (tplResult, bool) {
 		vll = append(vll, scale*math.Max(0, v))
 	}
 	r.vll = vll
-	r.otherLL = tplLogMeanExp(vll, 1/tplTemperature)
-	r.post, r.pOther, r.pNone = tplPosterior(r.ll, r.otherLL, len(vll) > 0)
+	r.post, r.pOther, r.pNone = tplPosterior(r.ll, vll, r.xll, tplTemperature, tplNoneLL, tplOtherPrior)
 	return r, true
 }
 
-// tplPosterior turns log-likelihoods into posteriors with the calibrated
-// temperature, the unlisted family (prior tplOtherPrior) and "none"
-// (log-likelihood tplNoneLL).
-func tplPosterior(ll []float64, otherLL float64, haveOther bool) (post []float64, pOther, pNone float64) {
-	z := make([]float64, 0, len(ll)+2)
+// tplPosterior turns log-likelihood ratios into posteriors at temperature
+// temp: the listed IDs (ll, prior 1 each), the unlisted family (vll, prior
+// otherPrior shared evenly; xll, prior 1 each) and "none" (log-likelihood
+// noneLL, prior 1).
+func tplPosterior(ll, vll, xll []float64, temp, noneLL, otherPrior float64) (post []float64, pOther, pNone float64) {
+	z := make([]float64, 0, len(ll)+2+len(xll))
 	for _, v := range ll {
-		z = append(z, v/tplTemperature)
+		z = append(z, v/temp)
 	}
-	z = append(z, tplNoneLL/tplTemperature)
-	if haveOther {
-		z = append(z, otherLL/tplTemperature+math.Log(tplOtherPrior))
+	z = append(z, noneLL/temp)
+	if len(vll) > 0 {
+		z = append(z, tplLogMeanExp(vll, 1/temp)/temp+math.Log(otherPrior))
+	}
+	for _, v := range xll {
+		z = append(z, v/temp)
 	}
 	p := mcSoftmax(z)
 	post = p[:len(ll)]
 	pNone = p[len(ll)]
-	if haveOther {
-		pOther = p[len(ll)+1]
+	for _, v := range p[len(ll)+1:] {
+		pOther += v
 	}
 	return post, pOther, pNone
 }
@@ -598,6 +613,15 @@ func (m *Matcher) plan() *tplPlan {
 // Method is "template", or "" (with a warning) when the envelope is too
 // short or flat to score. It never panics on bad input.
 func (m *Matcher) MatchEnvelope(env []float32, envRate float64) Match {
+	res, _ := m.matchEnvelope(env, envRate, nil)
+	return res
+}
+
+// matchEnvelope is MatchEnvelope that also returns the raw evidence (nil
+// ll when nothing could be scored).
+// extra are further unlisted candidates (Match passes the words of a clean
+// decode that fit no listed ID), each searched like a listed ID.
+func (m *Matcher) matchEnvelope(env []float32, envRate float64, extra []tplTemplate) (Match, tplResult) {
 	res := Match{ID: UnknownID}
 	res.Scores = make([]IDScore, len(m.ids))
 	for i, id := range m.ids {
@@ -606,12 +630,12 @@ func (m *Matcher) MatchEnvelope(env []float32, envRate float64) Match {
 	s := newTplSearch(env, envRate)
 	if s == nil {
 		res.Warnings = append(res.Warnings, fmt.Sprintf("no usable envelope for the template method (%d samples at %g/s)", len(env), envRate))
-		return res
+		return res, tplResult{}
 	}
-	r, ok := m.plan().run(s)
+	r, ok := m.plan().run(s, extra)
 	if !ok {
 		res.Warnings = append(res.Warnings, "envelope shows no keying the template method can fit")
-		return res
+		return res, tplResult{}
 	}
 	res.Method = "template"
 	for i := range r.post {
@@ -632,7 +656,7 @@ func (m *Matcher) MatchEnvelope(env []float32, envRate float64) Match {
 	default:
 		res.Warnings = append(res.Warnings, fmt.Sprintf("best template guess %s at %.2f is below %.2f", m.ids[b], r.post[b], m.MinConfidence))
 	}
-	return res
+	return res, r
 }
 
 // MatchTone decodes a keyed-tone burst (as DecodeTone) and names it: by
