@@ -12,6 +12,7 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"sort"
 	"strconv"
 	"strings"
 	"sync"
@@ -109,6 +110,44 @@ func sendEvery(period, limit time.Duration, line func(now time.Time) string) fun
 	}
 }
 
+// sendUDPCompass sends line(now) in a datagram every period to a free
+// local UDP port until the test ends, and returns the udp:// address for
+// the command to listen on. Datagrams sent before it listens are lost, as
+// on a real network.
+func sendUDPCompass(t *testing.T, period time.Duration, line func(now time.Time) string) string {
+	t.Helper()
+	pc, err := net.ListenPacket("udp", "127.0.0.1:0")
+	if err != nil {
+		t.Fatal(err)
+	}
+	addr := pc.LocalAddr().String()
+	pc.Close()
+	out, err := net.ListenPacket("udp", "127.0.0.1:0")
+	if err != nil {
+		t.Fatal(err)
+	}
+	dst, err := net.ResolveUDPAddr("udp", addr)
+	if err != nil {
+		t.Fatal(err)
+	}
+	done, stopped := make(chan struct{}), make(chan struct{})
+	go func() {
+		defer close(stopped)
+		tick := time.NewTicker(period)
+		defer tick.Stop()
+		for {
+			select {
+			case <-done:
+				return
+			case <-tick.C:
+				out.WriteTo([]byte(line(time.Now())), dst) // refused until the command listens
+			}
+		}
+	}()
+	t.Cleanup(func() { close(done); <-stopped; out.Close() })
+	return "udp://" + addr
+}
+
 // newTurnRig serves, over the rtl_tcp protocol (paced, like a real
 // receiver), a Yagi (60°, 18 dB F/B, as --antenna yagi) turned by clock
 // and seeing a carrier at truthDeg; it returns the receiver's address.
@@ -173,15 +212,17 @@ func TestLiveBearingCompass(t *testing.T) {
 		args     []string
 		skip     bool
 		serial   bool // over a serial line (a pty) instead of TCP
+		udp      bool // in UDP datagrams instead of TCP
 	}{
-		{"HDT", func(d float64) string { return nmeaSentence(fmt.Sprintf("HCHDT,%.1f,T", d)) }, 0, nil, false, false},
+		{"HDT", func(d float64) string { return nmeaSentence(fmt.Sprintf("HCHDT,%.1f,T", d)) }, 0, nil, false, false, false},
 		{"HDM with --declination", func(d float64) string {
 			return nmeaSentence(fmt.Sprintf("HCHDM,%.1f,M", angle.Wrap360(d-declGiven)))
-		}, declGiven, []string{"--heading-ref", "magnetic", "--declination", strconv.FormatFloat(declGiven, 'f', -1, 64)}, false, false},
+		}, declGiven, []string{"--heading-ref", "magnetic", "--declination", strconv.FormatFloat(declGiven, 'f', -1, 64)}, false, false, false},
 		{"HDG with WMM2025 at --station", func(d float64) string {
 			return nmeaSentence(fmt.Sprintf("HCHDG,%.1f,,,,", angle.Wrap360(d-wmmDecl)))
-		}, wmmDecl, []string{"--heading-ref", "magnetic", "--station", "-80,-120"}, !wmmOK, false},
-		{"HDT over a serial line", func(d float64) string { return nmeaSentence(fmt.Sprintf("HEHDT,%.1f,T", d)) }, 0, nil, false, true},
+		}, wmmDecl, []string{"--heading-ref", "magnetic", "--station", "-80,-120"}, !wmmOK, false, false},
+		{"HDT over a serial line", func(d float64) string { return nmeaSentence(fmt.Sprintf("HEHDT,%.1f,T", d)) }, 0, nil, false, true, false},
+		{"HDT over UDP", func(d float64) string { return nmeaSentence(fmt.Sprintf("HCHDT,%.1f,T", d)) }, 0, nil, false, false, true},
 	}
 	// The captures run side by side (they mostly wait on the clock), each
 	// with its own receiver, compass and turn.
@@ -207,6 +248,8 @@ func TestLiveBearingCompass(t *testing.T) {
 				skipWhy[i] = "no pseudo-terminal for a serial compass: " + err.Error()
 				continue
 			}
+		} else if tc.udp {
+			feed = sendUDPCompass(t, 100*time.Millisecond, line)
 		} else {
 			feed = serveCompass(t, sendEvery(100*time.Millisecond, 0, line))
 		}
@@ -280,21 +323,33 @@ func checkCompassLog(t *testing.T, rec string, clock turnClock, magOff float64) 
 	if err != nil {
 		t.Fatalf("no heading log beside the recording: %v", err)
 	}
-	rows, worst := 0, 0.0
-	for _, l := range strings.Split(strings.TrimSpace(string(b)), "\n")[1:] {
+	var diffs []float64
+	var first, last float64
+	for i, l := range strings.Split(strings.TrimSpace(string(b)), "\n")[1:] {
 		var ts, deg float64
 		if _, err := fmt.Sscanf(l, "%g,%g", &ts, &deg); err != nil {
 			t.Fatalf("heading log row %q: %v", l, err)
 		}
+		if i == 0 {
+			first = ts
+		}
+		last = ts
 		sent := angle.Wrap360(clock.unwrapped(start.Add(time.Duration(ts*float64(time.Second)))) - magOff)
-		worst = max(worst, math.Abs(angle.Wrap180(deg-sent)))
-		rows++
+		diffs = append(diffs, angle.Wrap180(deg-sent))
 	}
-	t.Logf("heading log: %d rows, largest difference from the heading sent at that time %.2f°", rows, worst)
-	// 10 Hz for 16 s; 0.05° rounding plus a few ms on loopback at 24°/s
-	// (the receiver's start is stamped in ms: another 0.024°).
-	if rows < 140 || worst > 0.6 {
-		t.Errorf("heading log: %d rows (want ~160), worst difference %.2f° (want ≤ 0.6°)", rows, worst)
+	if len(diffs) == 0 {
+		t.Fatal("heading log has no rows")
+	}
+	sorted := append([]float64(nil), diffs...)
+	sort.Float64s(sorted)
+	med, worst := sorted[len(sorted)/2], max(-sorted[0], sorted[len(sorted)-1])
+	t.Logf("heading log: %d rows from %.2f s to %.2f s; recorded minus sent heading: median %+.3f°, largest %.2f°", len(diffs), first, last, med, worst)
+	// 10 Hz over 16 s. The median is the clock offset: 0.05° rounding plus
+	// a few ms on loopback at 24°/s (the receiver's start is stamped in ms:
+	// another 0.024°); a stamp off by the receiver's 0.52 s transfer would
+	// be 12.6°. Single rows may arrive late on a busy machine.
+	if len(diffs) < 140 || math.Abs(med) > 0.3 || worst > 3 {
+		t.Errorf("heading log: %d rows (want ~160), median difference %+.3f° (want within ±0.3°), largest %.2f° (want ≤ 3°)", len(diffs), med, worst)
 	}
 }
 
