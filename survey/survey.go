@@ -149,25 +149,40 @@ func identify(r *Record, b *receiver.Burst, mode ident.Mode, m *ident.Matcher) {
 		mode = ident.DetectMode(b.FMAudio, b.AMAudio, rate, power, powerRate)
 	}
 	r.Mode = mode.String()
+	opts := ident.DecodeOptions{Mode: mode}
+	audio := b.FMAudio
+	if mode == ident.ModeAM {
+		audio = b.AMAudio
+	}
+	if m != nil && mode != ident.ModeCW {
+		// With a list, the template can name a burst whose text is lost.
+		d, mt, err := m.MatchTone(audio, rate, opts)
+		if err != nil {
+			r.Warnings = append(r.Warnings, "no identifier: "+err.Error())
+			return
+		}
+		setDecoded(r, d)
+		r.Ident, r.IdentConfidence, r.IdentMethod = mt.ID, mt.Confidence, mt.Method
+		r.Warnings = append(r.Warnings, mt.Warnings...)
+		return
+	}
 	var d ident.Decoded
 	var err error
-	opts := ident.DecodeOptions{Mode: mode}
-	switch mode {
-	case ident.ModeCW:
+	if mode == ident.ModeCW {
 		d, err = ident.DecodeKeyed(power, powerRate, opts)
-	case ident.ModeAM:
-		d, err = ident.DecodeTone(b.AMAudio, rate, opts)
-	default:
-		d, err = ident.DecodeTone(b.FMAudio, rate, opts)
+	} else {
+		d, err = ident.DecodeTone(audio, rate, opts)
 	}
 	if err != nil {
 		r.Warnings = append(r.Warnings, "no identifier decoded: "+err.Error())
+		if m != nil && len(power) > 0 {
+			// keyed carrier: the template on the power track itself
+			mt := m.MatchEnvelope(power, powerRate)
+			r.Ident, r.IdentConfidence, r.IdentMethod = mt.ID, mt.Confidence, mt.Method
+		}
 		return
 	}
-	r.Text = d.Text
-	r.ToneHz = d.ToneHz
-	r.WPM = d.WPM
-	r.Warnings = append(r.Warnings, d.Warnings...)
+	setDecoded(r, d)
 	if m != nil {
 		mt := m.Match(d)
 		r.Ident, r.IdentConfidence, r.IdentMethod = mt.ID, mt.Confidence, mt.Method
@@ -175,6 +190,14 @@ func identify(r *Record, b *receiver.Burst, mode ident.Mode, m *ident.Matcher) {
 		return
 	}
 	r.Ident, r.IdentConfidence, r.IdentMethod = repeatedWord(d)
+}
+
+// setDecoded copies what the decoder read into the record.
+func setDecoded(r *Record, d ident.Decoded) {
+	r.Text = d.Text
+	r.ToneHz = d.ToneHz
+	r.WPM = d.WPM
+	r.Warnings = append(r.Warnings, d.Warnings...)
 }
 
 // repeatedWord names a burst without an ID list: the word the beacon sent
