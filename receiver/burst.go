@@ -12,6 +12,8 @@ type LevelSample struct {
 	T float64 `json:"t_s"`
 	// LevelDB is channel power in dBFS.
 	LevelDB float64 `json:"level_dbfs"`
+	// Clipped counts the raw samples at the ADC's rails during the reading.
+	Clipped int `json:"clipped,omitempty"`
 }
 
 // Burst is one transmission found in the channel.

@@ -270,6 +270,7 @@ func (s *Scanner) closeBurst() {
 			Sample:  int64(math.Round(t * s.info.SampleRate)),
 			T:       t,
 			LevelDB: dsp.DBFS(rd[i].p),
+			Clipped: rd[i].clip,
 		})
 	}
 	if s.cfg.KeepAudio && len(b.fm) > 0 {

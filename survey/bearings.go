@@ -59,7 +59,9 @@ func Points(r Record, track *heading.Track) []bearing.Point {
 		if !ok {
 			continue
 		}
-		pts = append(pts, bearing.Point{T: l.T, HeadingDeg: h, LevelDB: l.LevelDB})
+		// A reading taken while the ADC was at its rails understates the
+		// level; the fit leaves it out and warns.
+		pts = append(pts, bearing.Point{T: l.T, HeadingDeg: h, LevelDB: l.LevelDB, Clipped: l.Clipped > 0})
 	}
 	return pts
 }
@@ -80,9 +82,6 @@ func Bearings(res *Result, track *heading.Track, p bearing.Pattern, opts bearing
 			bb.Err = fmt.Errorf("no heading readings during the burst (%.1f–%.1f s): the heading log does not overlap it", r.StartS, r.EndS)
 		} else {
 			bb.Est, bb.Err = bearing.Fit(bb.Points, p, o)
-			if bb.Err == nil && r.Clipped > 0.001 {
-				bb.Est.Warnings = append(bb.Est.Warnings, fmt.Sprintf("receiver clipped on %.1f%% of the burst's samples: levels near the peak are unreliable", 100*r.Clipped))
-			}
 		}
 		bbs = append(bbs, bb)
 		key := txKey(r)
