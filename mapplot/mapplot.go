@@ -117,7 +117,10 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 	}
 	span := math.Max(math.Max(maxX-minX, maxY-minY), 0.2) * 1.12
 	cx, cy := (minX+maxX)/2, (minY+maxY)/2
-	x0, x1, y0, y1 := cx-span/2, cx+span/2, cy-span/2, cy+span/2
+	// A band across the top keeps the legend off the grid's column labels;
+	// x grows as much so a kilometre stays as long both ways.
+	band := 0.12 * span
+	x0, x1, y0, y1 := cx-span/2-band/2, cx+span/2+band/2, cy-span/2, cy+span/2+band
 
 	p := plot.New()
 	if opt.Title == "" {
@@ -137,7 +140,7 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 
 	// Likelihood shading, each transmitter scaled to its own peak.
 	n := opt.ShadeCells
-	step := span / float64(n) * 1e3
+	step := (x1 - x0) / float64(n) * 1e3 // the image spans the plot (square: x1−x0 = y1−y0)
 	shade := make([]float64, n*n)
 	for _, f := range fixes {
 		lat0, lon0 := fr.lat0, fr.lon0
