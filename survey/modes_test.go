@@ -26,7 +26,7 @@ func TestKeyingModes(t *testing.T) {
 		CenterHz: 433.9e6, ChannelHz: 433.92e6, SampleRate: 96000, DurationS: 40,
 		NoiseDBFS: -45, DeviationHz: 2500, Seed: 3,
 	}
-	ids := []string{"TEST/7", "QRP/2", "KB9X"}
+	ids := []string{"TEST/7", "QRP/2", "N0CALL/9"}
 	modes := []ident.Mode{ident.ModeFM, ident.ModeAM, ident.ModeCW}
 	for i, id := range ids {
 		sc.Beacons = append(sc.Beacons, sim.Beacon{ID: id, Lat: 46.0 + 0.01*float64(i), Lon: 7.0, ToneHz: 800,

@@ -45,7 +45,7 @@ CER_TEXTS = [(t[1], t[2], t[3]) for t in fmiq.CER_TEXTS] + [
     (20, 900, "G8HN/ 2PYE ,JUV 0SA"),
     (25, 750, "XC6F. ODK5 RNW1 8QB"),
     (22, 850, "HT3Y =ML7 ZEP0 /KG9"),
-    (24, 800, "WJ5D 6VFA ?NC2 .UI"),
+    (24, 800, "QJ5D 6VFA ?NC2 .UI"),
 ]
 
 
