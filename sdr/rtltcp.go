@@ -10,6 +10,7 @@ import (
 	"net"
 	"os"
 	"sync"
+	"sync/atomic"
 	"time"
 )
 
@@ -124,10 +125,15 @@ type RTLTCP struct {
 	lo, hi    int
 	scratch   []byte
 	pos       int64 // samples delivered
-	wmu       sync.Mutex
-	err       error
-	stop      func() bool
-	ctx       context.Context
+	// recvBytes counts IQ bytes received, dropBytes the settling bytes
+	// dropped before sample 0; originNs is the stream-origin estimate (see
+	// StreamOrigin), 0 until the first sample arrives.
+	recvBytes, dropBytes int64
+	originNs             atomic.Int64
+	wmu                  sync.Mutex
+	err                  error
+	stop                 func() bool
+	ctx                  context.Context
 }
 
 // DialRTLTCP connects to an rtl_tcp server at addr (host:port), reads the
@@ -184,6 +190,7 @@ func DialRTLTCP(ctx context.Context, addr string, cfg RTLConfig) (*RTLTCP, error
 	}
 	// Drop settling samples, then wait for the first sample and stamp it.
 	drop := 2 * int64(cfg.SettleSamples)
+	c.dropBytes = drop
 	for drop > 0 || c.hi-c.lo < 2 {
 		if c.hi-c.lo >= 2 && drop > 0 {
 			k := min(drop, int64((c.hi-c.lo)/2*2))
@@ -371,6 +378,9 @@ func (c *RTLTCP) fill() error {
 	c.conn.SetReadDeadline(time.Now().Add(c.timeout))
 	n, err := c.conn.Read(c.buf[c.hi:])
 	c.hi += n
+	if n > 0 {
+		c.noteArrival(time.Now(), n)
+	}
 	if err != nil && n == 0 {
 		if errors.Is(err, io.EOF) && c.eofOK && c.ctx.Err() == nil {
 			return io.EOF
@@ -378,6 +388,36 @@ func (c *RTLTCP) fill() error {
 		return c.wrapReadErr(err, "read")
 	}
 	return nil
+}
+
+// noteArrival refines the stream-origin estimate with n bytes that
+// arrived at time a.
+func (c *RTLTCP) noteArrival(a time.Time, n int) {
+	c.recvBytes += int64(n)
+	got := (c.recvBytes - c.dropBytes) / 2 // samples from sample 0 on, all in by a
+	if got <= 0 || !(c.info.SampleRate > 0) {
+		return
+	}
+	cand := a.UnixNano() - int64(float64(got)/c.info.SampleRate*1e9)
+	if old := c.originNs.Load(); old == 0 || cand < old {
+		c.originNs.Store(cand)
+	}
+}
+
+// StreamOrigin is the best estimate so far of when sample 0 was taken by
+// the receiver: the earliest, over every read, of the read's arrival time
+// less the duration of the samples received up to it. A sample cannot
+// arrive before it is taken, and USB transfers, the network and the
+// scheduler only ever add delay, so the minimum converges on the true
+// origin plus the smallest delay seen — unlike Info().Start, the arrival of
+// the first bytes, which lags by a whole receiver transfer and by whatever
+// delay that first read met. Zero before the first sample.
+func (c *RTLTCP) StreamOrigin() time.Time {
+	ns := c.originNs.Load()
+	if ns == 0 {
+		return time.Time{}
+	}
+	return time.Unix(0, ns).UTC()
 }
 
 // ReadCU8 implements CU8Reader: whole IQ byte pairs, blocking until at

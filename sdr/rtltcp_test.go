@@ -275,3 +275,42 @@ func TestRTLConfigCheck(t *testing.T) {
 		t.Error("5 GHz accepted (protocol carries uint32 Hz)")
 	}
 }
+
+// TestStreamOrigin: against the paced replay server, whose sample n is
+// handed over when it is due (t0 + (n+1)/rate after the block holding it is
+// complete), the origin estimate lands within a few milliseconds of the
+// time the client connected and the first block became due, not a block
+// later as the first-arrival stamp does.
+func TestStreamOrigin(t *testing.T) {
+	const rate = 240000.0
+	in := make([]complex64, int(0.5*rate))
+	src := &sliceSource{data: in, info: Info{SampleRate: rate, Format: "cf32_le", Samples: int64(len(in))}}
+	ln, _ := net.Listen("tcp", "127.0.0.1:0")
+	ctx, cancel := context.WithCancel(context.Background())
+	defer cancel()
+	go ServeRTLTCP(ctx, ln, src, ServeOptions{Paced: true})
+	t0 := time.Now()
+	c, err := DialRTLTCP(ctx, ln.Addr().String(), RTLConfig{SampleRate: rate, EOFOnClose: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer c.Close()
+	buf := make([]complex64, 8192)
+	for {
+		if _, err := c.Read(buf); err != nil {
+			break
+		}
+	}
+	o := c.StreamOrigin()
+	if o.IsZero() {
+		t.Fatal("no origin")
+	}
+	// The server starts its clock when the client connects, shortly after t0.
+	if d := o.Sub(t0); d < -2*time.Millisecond || d > 30*time.Millisecond {
+		t.Errorf("origin %v after the dial began, want 0–30 ms", d)
+	}
+	if !o.Before(c.Info().Start) {
+		t.Errorf("origin %v is not before the first-arrival stamp %v", o, c.Info().Start)
+	}
+	t.Logf("origin %v after dial; first-arrival stamp %v after dial", o.Sub(t0), c.Info().Start.Sub(t0))
+}

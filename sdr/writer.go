@@ -131,6 +131,10 @@ func (w *SigMFWriter) Abort() error {
 	return os.Remove(w.tmp.Name())
 }
 
+// SetStart changes the UTC time of sample 0 written into the metadata at
+// Close (for a live capture whose clock was refined after it began).
+func (w *SigMFWriter) SetStart(t time.Time) { w.info.Start = t }
+
 // Close finishes the dataset, renames it to NAME.sigmf-data and then writes
 // NAME.sigmf-meta. An existing NAME.sigmf-meta is removed before the dataset
 // is replaced, so it never describes the new data.

@@ -117,7 +117,10 @@ type liveTuning struct {
 	addr     string
 	cfg      sdr.RTLConfig
 	latencyS float64
-	plan     *survey.SweepPlan
+	// refineClock: the latency is the default guess, so the capture's
+	// clock is re-based on the stream origin measured over the capture.
+	refineClock bool
+	plan        *survey.SweepPlan
 }
 
 // parse checks every flag before anything is connected, so a typo does
@@ -178,6 +181,7 @@ func (f *liveFlags) parse(target string, in *inputFlags, idf *identFlags, hf *he
 	switch l := strings.ToLower(strings.TrimSpace(f.latency)); l {
 	case "rtl_tcp", "auto":
 		t.latencyS = rtlTCPTransferSamples / rate
+		t.refineClock = true
 	default:
 		v, err := strconv.ParseFloat(l, 64)
 		if err != nil || !(v >= 0 && v < 10) {
@@ -346,6 +350,18 @@ func (f *liveFlags) run(ctx context.Context, cmdName string, t liveTuning, base 
 	}
 	for _, warn := range lc.Warnings {
 		notes(warn)
+	}
+	if o := src.StreamOrigin(); t.refineClock && !o.IsZero() {
+		// The first-arrival stamp less one transfer was a guess; the origin
+		// measured over the whole capture is not (see sdr StreamOrigin).
+		// Headings were stamped against the guess: move them with it.
+		delta := info.Start.Sub(o).Seconds()
+		if lc.Track != nil {
+			for i := range lc.Track.Samples {
+				lc.Track.Samples[i].T += delta
+			}
+		}
+		w.SetStart(o)
 	}
 	if n := w.Saturations(); n > 0 {
 		notes(fmt.Sprintf("%d sample components were at the receiver's rails (clipping): lower --gain", n))
