@@ -56,7 +56,7 @@ func (f *liveFlags) add(cmd *cobra.Command) {
 	fl.StringVar(&f.record, "record", "", "live: keep the capture as FILE.sigmf-meta/.sigmf-data and its heading log FILE.csv, to re-run offline")
 	fl.StringVar(&f.gain, "gain", "auto", "live: tuner gain in dB, or auto")
 	fl.IntVar(&f.ppm, "ppm", 0, "live: receiver frequency correction, parts per million")
-	fl.StringVar(&f.latency, "iq-latency", "rtl_tcp", "live: seconds the samples take to arrive, taken off the capture start so headings and levels line up; rtl_tcp = one USB transfer (131072 samples at --rate)")
+	fl.StringVar(&f.latency, "iq-latency", "rtl_tcp", "live: seconds the samples take to arrive, taken off the capture start so headings and levels line up; rtl_tcp = measured from the stream (earliest arrival less the samples received), or give seconds to fix it")
 	fl.Float64Var(&f.pollHz, "poll-hz", heading.DefaultPollHz, "live: rotator position polls per second")
 	fl.StringVar(&f.compass, feedFlag, "", "live: NMEA 0183 compass (HDT, HDG, HDM) giving the headings during the capture: tcp://HOST:PORT, udp://[HOST]:PORT or serial:/dev/ttyXXX[@BAUD] (default 4800 baud); needs --duration")
 }
