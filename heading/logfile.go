@@ -138,3 +138,18 @@ func parseHeadingDeg(s string) (float64, error) {
 	}
 	return v, nil
 }
+
+// WriteLog writes the track's samples as a heading log ReadLog reads back:
+// a "time_s,heading_deg" header, then seconds from the capture start (µs
+// resolution, so close readings keep their order) and degrees (0.001°).
+// It writes the samples as they are: the track's MountOffsetDeg and LagS
+// are not applied, and its reference (true or magnetic) is the reader's to
+// know.
+func WriteLog(w io.Writer, tr *Track) error {
+	bw := bufio.NewWriter(w)
+	bw.WriteString("time_s,heading_deg\n")
+	for _, s := range tr.Samples {
+		fmt.Fprintf(bw, "%.6f,%.3f\n", s.T, s.Deg)
+	}
+	return bw.Flush()
+}

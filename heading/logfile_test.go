@@ -1,9 +1,12 @@
 package heading
 
 import (
+	"math"
 	"strings"
 	"testing"
 	"time"
+
+	"nullseek/internal/angle"
 )
 
 func TestReadLog(t *testing.T) {
@@ -103,4 +106,30 @@ func FuzzReadLog(f *testing.F) {
 			t.Fatalf("ReadLog accepted an invalid track: %v", err)
 		}
 	})
+}
+
+// TestWriteLogRoundTrip: what WriteLog writes, ReadLog reads back to the
+// written resolution (µs, 0.001°).
+func TestWriteLogRoundTrip(t *testing.T) {
+	tr, err := SteadyTurn{StartDeg: 350, RateDegPerS: 7.3}.Track(0, 20, 10)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var b strings.Builder
+	if err := WriteLog(&b, tr); err != nil {
+		t.Fatal(err)
+	}
+	back, err := ReadLog(strings.NewReader(b.String()), time.Time{}, True)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(back.Samples) != len(tr.Samples) {
+		t.Fatalf("%d samples back, wrote %d", len(back.Samples), len(tr.Samples))
+	}
+	for i, s := range back.Samples {
+		w := tr.Samples[i]
+		if math.Abs(s.T-w.T) > 1e-6 || math.Abs(angle.Diff(w.Deg, s.Deg)) > 1e-3 {
+			t.Fatalf("sample %d: %v, wrote %v", i, s, w)
+		}
+	}
 }

@@ -90,7 +90,7 @@ func runDemo(ctx context.Context, w io.Writer, outDir string, writeIQ bool) erro
 		if err != nil {
 			return err
 		}
-		if err := writeHeadingLog(filepath.Join(outDir, "headings-"+st.Name+".csv"), track); err != nil {
+		if err := atomicfile.WriteFunc(filepath.Join(outDir, "headings-"+st.Name+".csv"), func(w io.Writer) error { return heading.WriteLog(w, track) }); err != nil {
 			return err
 		}
 		bbs, txs := survey.Bearings(res, track, st.Antenna, bearing.FitOptions{}, survey.DefaultSiteSigmaDeg)
@@ -241,15 +241,6 @@ func fileSafe(s string) string {
 		}
 		return r
 	}, s)
-}
-
-func writeHeadingLog(path string, tr *heading.Track) error {
-	var b strings.Builder
-	b.WriteString("time_s,heading_deg\n")
-	for _, s := range tr.Samples {
-		fmt.Fprintf(&b, "%.3f,%.2f\n", s.T, s.Deg)
-	}
-	return atomicfile.Write(path, []byte(b.String()))
 }
 
 func writeStationIQ(sc sim.Scenario, st sim.Station, dir string) error {

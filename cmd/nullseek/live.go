@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"io"
 	"io/fs"
 	"log/slog"
 	"math"
@@ -379,7 +380,7 @@ func (f *liveFlags) run(ctx context.Context, cmdName string, t liveTuning, base 
 	}
 	if lc.Track != nil {
 		csv := base + ".csv"
-		if err := writeLiveHeadings(csv, lc.Track); err != nil {
+		if err := atomicfile.WriteFunc(csv, func(w io.Writer) error { return heading.WriteLog(w, lc.Track) }); err != nil {
 			removeRec()
 			return "", fmt.Errorf("heading log: %w", err)
 		}
@@ -396,18 +397,6 @@ func (f *liveFlags) run(ctx context.Context, cmdName string, t liveTuning, base 
 		notes(fmt.Sprintf("recorded %.1f s", secs))
 	}
 	return meta, nil
-}
-
-// writeLiveHeadings writes the rotator's track as a heading log that
-// heading.ReadLog reads: seconds from the capture start (µs resolution,
-// so close polls keep their order) and degrees.
-func writeLiveHeadings(path string, tr *heading.Track) error {
-	var b strings.Builder
-	b.WriteString("time_s,heading_deg\n")
-	for _, s := range tr.Samples {
-		fmt.Fprintf(&b, "%.6f,%.3f\n", s.T, s.Deg)
-	}
-	return atomicfile.Write(path, []byte(b.String()))
 }
 
 // planString describes the plan for messages.
