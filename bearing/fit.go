@@ -824,17 +824,22 @@ func levelAt(m *model, noise NoiseModel, theta, c, floorDB, h float64) float64 {
 // trendWarning regresses the dB residual on time and warns when the level
 // drifted by more than 1 dB over the sweep at more than 4 standard errors.
 func trendWarning(pts []Point, m *model, noise NoiseModel, theta, c, floorDB, s2 float64) string {
-	var sw, st, sr, stt, str float64
-	t0, t1 := math.Inf(1), math.Inf(-1)
-	for _, q := range pts {
-		r := q.LevelDB - levelAt(m, noise, theta, c, floorDB, q.HeadingDeg)
-		w := 1.0
+	// residual in dB and its weight: in the thermal model the dB variance
+	// is ∝ (N² + 2SpN)/(Sp+N)² (delta method)
+	resid := func(q Point) (r, w float64) {
+		r = q.LevelDB - levelAt(m, noise, theta, c, floorDB, q.HeadingDeg)
+		w = 1
 		if noise == NoiseThermal {
-			// delta-method dB variance ∝ (N² + 2SpN)/(Sp+N)²
 			pw, _ := m.power(theta - q.HeadingDeg)
 			sp := c * pw
 			w = (sp + 1) * (sp + 1) / (1 + 2*sp)
 		}
+		return r, w
+	}
+	var sw, st, sr, stt, str float64
+	t0, t1 := math.Inf(1), math.Inf(-1)
+	for _, q := range pts {
+		r, w := resid(q)
 		sw += w
 		st += w * q.T
 		sr += w * r
@@ -852,13 +857,7 @@ func trendWarning(pts []Point, m *model, noise NoiseModel, theta, c, floorDB, s2
 	var rss float64
 	mt, mr := st/sw, sr/sw
 	for _, q := range pts {
-		r := q.LevelDB - levelAt(m, noise, theta, c, floorDB, q.HeadingDeg)
-		w := 1.0
-		if noise == NoiseThermal {
-			pw, _ := m.power(theta - q.HeadingDeg)
-			sp := c * pw
-			w = (sp + 1) * (sp + 1) / (1 + 2*sp)
-		}
+		r, w := resid(q)
 		e := r - mr - slope*(q.T-mt)
 		rss += w * e * e
 	}
