@@ -38,25 +38,13 @@ rather than invents a bearing when the sweep cannot support one.`,
 			if err != nil {
 				return err
 			}
-			res, err := surveyRecording(cmd.Context(), args[0], &in, &idf, notes)
-			if err != nil {
-				return err
-			}
-			tr, err := hf.track(res.Info, notes)
+			fo := bearing.FitOptions{}
+			res, tr, err := hf.surveyWithTrack(cmd.Context(), args[0], &in, &idf, pat, fo, notes)
 			if err != nil {
 				return err
 			}
 			if len(res.Records) == 0 {
 				return fmt.Errorf("%s: no bursts found, so no bearing", args[0])
-			}
-			fo := bearing.FitOptions{}
-			if hf.estimateLag {
-				lag, sig, err := survey.EstimateLag(res, tr, pat, fo)
-				if err != nil {
-					return err
-				}
-				notes(fmt.Sprintf("level lags heading by %.3f ± %.3f s: removed", lag, sig))
-				tr = tr.WithLag(tr.LagS - lag) // on top of any --lag given
 			}
 			bbs, txs := survey.Bearings(res, tr, pat, fo, hf.siteSigma)
 			if err := noBearing(args[0], bbs, txs); err != nil {

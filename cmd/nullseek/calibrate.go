@@ -63,23 +63,10 @@ the saved pattern is measured relative to that boresight.`,
 			if err != nil {
 				return err
 			}
-			res, err := surveyRecording(cmd.Context(), args[0], &in, &idf, notes)
-			if err != nil {
-				return err
-			}
-			tr, err := hf.track(res.Info, notes)
-			if err != nil {
-				return err
-			}
 			fo := bearing.FitOptions{}
-			if hf.estimateLag {
-				lag, sig, err := survey.EstimateLag(res, tr, nominal, fo)
-				if err != nil {
-					return err
-				}
-				// lag is what is left on top of --lag; take it off.
-				notes(fmt.Sprintf("level lags heading by %.3f ± %.3f s: removed (give --lag %.3f in later fits)", lag, sig, hf.lag-lag))
-				tr = tr.WithLag(hf.lag - lag)
+			res, tr, err := hf.surveyWithTrack(cmd.Context(), args[0], &in, &idf, nominal, fo, notes)
+			if err != nil {
+				return err
 			}
 			when := "undated"
 			if !res.Info.Start.IsZero() {

@@ -1,6 +1,7 @@
 package main
 
 import (
+	"context"
 	"fmt"
 	"os"
 	"strconv"
@@ -13,6 +14,7 @@ import (
 	"nullseek/geo"
 	"nullseek/heading"
 	"nullseek/sdr"
+	"nullseek/survey"
 )
 
 // headingFlags select where the antenna's heading comes from and how the
@@ -193,4 +195,28 @@ func (f *headingFlags) declinationAt(t time.Time, notes func(string)) (float64, 
 	}
 	notes(fmt.Sprintf("magnetic headings converted to true with WMM2025 declination %+.2f°", d))
 	return d, nil
+}
+
+// surveyWithTrack surveys the recording at path and joins it with the
+// heading source: the track on the recording's clock, with the lag
+// estimated and removed when --estimate-lag asks for it.
+func (f *headingFlags) surveyWithTrack(ctx context.Context, path string, in *inputFlags, idf *identFlags, pat bearing.Pattern, fo bearing.FitOptions, notes func(string)) (*survey.Result, *heading.Track, error) {
+	res, err := surveyRecording(ctx, path, in, idf, notes)
+	if err != nil {
+		return nil, nil, err
+	}
+	tr, err := f.track(res.Info, notes)
+	if err != nil {
+		return nil, nil, err
+	}
+	if f.estimateLag {
+		lag, sig, err := survey.EstimateLag(res, tr, pat, fo)
+		if err != nil {
+			return nil, nil, err
+		}
+		// lag is what is left on top of --lag; take it off.
+		notes(fmt.Sprintf("level lags heading by %.3f ± %.3f s: removed (give --lag %.3f in later fits)", lag, sig, tr.LagS-lag))
+		tr = tr.WithLag(tr.LagS - lag)
+	}
+	return res, tr, nil
 }
