@@ -34,19 +34,20 @@ type Options struct {
 	Cluster ident.ClusterOptions
 }
 
-// Record is one burst with what identification found. Its JSON form is a
-// `scan --json` burst line; field names are stable.
+// Record is one burst with what identification found. Its JSON form, a
+// `scan --json` burst line with stable field names, is burstLine (see
+// MarshalJSON).
 type Record struct {
 	receiver.Burst
-	Mode            string   `json:"mode,omitempty"`
-	Text            string   `json:"text"`
-	Ident           string   `json:"ident"`
-	IdentConfidence float64  `json:"ident_confidence"`
-	IdentMethod     string   `json:"ident_method,omitempty"`
-	ToneHz          float64  `json:"tone_hz"`
-	WPM             float64  `json:"wpm,omitempty"`
-	Transmitter     string   `json:"transmitter"`
-	Warnings        []string `json:"warnings,omitempty"`
+	Mode            string
+	Text            string
+	Ident           string
+	IdentConfidence float64
+	IdentMethod     string
+	ToneHz          float64
+	WPM             float64
+	Transmitter     string
+	Warnings        []string
 }
 
 // Result is a finished survey.
