@@ -3,6 +3,7 @@ package main
 import (
 	"context"
 	"fmt"
+	"math"
 	"os"
 	"strconv"
 	"strings"
@@ -201,15 +202,36 @@ func (f *headingFlags) declinationAt(t time.Time, notes func(string)) (float64, 
 // heading source: the track on the recording's clock, with the lag
 // estimated and removed when --estimate-lag asks for it.
 func (f *headingFlags) surveyWithTrack(ctx context.Context, path string, in *inputFlags, idf *identFlags, pat bearing.Pattern, fo bearing.FitOptions, notes func(string)) (*survey.Result, *heading.Track, error) {
+	// Read the heading source before the long scan, so a bad log costs
+	// no time; the recording's metadata gives the clock it needs.
+	src, err := in.open(path)
+	if err != nil {
+		return nil, nil, err
+	}
+	info := src.Info()
+	src.Close()
+	tr, err := f.track(info, notes)
+	if err != nil {
+		return nil, nil, err
+	}
 	res, err := surveyRecording(ctx, path, in, idf, notes)
 	if err != nil {
 		return nil, nil, err
 	}
-	tr, err := f.track(res.Info, notes)
-	if err != nil {
-		return nil, nil, err
-	}
 	if f.estimateLag {
+		// A lag shifts clockwise and anticlockwise sweeps apart; one way
+		// only, it cannot be told from the bearing itself.
+		var dirs [2]float64
+		for _, sw := range tr.Sweeps() {
+			if sw.Dir == heading.CW {
+				dirs[0] += math.Abs(sw.TurnDeg)
+			} else {
+				dirs[1] += math.Abs(sw.TurnDeg)
+			}
+		}
+		if dirs[0] < 90 || dirs[1] < 90 {
+			return nil, nil, fmt.Errorf("--estimate-lag needs sweeps of at least 90° each way; the heading source turned %.0f° clockwise and %.0f° anticlockwise (give --lag instead)", dirs[0], dirs[1])
+		}
 		lag, sig, err := survey.EstimateLag(res, tr, pat, fo)
 		if err != nil {
 			return nil, nil, err
