@@ -128,7 +128,10 @@ func TestSlotLSReferenceReproducible(t *testing.T) {
 	for i, c := range ref.Cases {
 		l := live.Cases[i]
 		if l.Name != c.Name || len(l.StartS) != len(c.StartS) || !slotRelClose(l.Slope, c.Slope, 1e-12) ||
-			!slotRelClose(l.SlopeStderr, c.SlopeStderr, 1e-9) {
+			!slotRelClose(l.SlopeStderr, c.SlopeStderr, 1e-6) {
+			// linregress's stderr comes from sums that cancel: on the 1.5 s
+			// telemetry case two machines' BLAS builds differ by 7e-8
+			// relative, so 1e-6 is the reproducibility we can ask of it.
 			t.Errorf("case %s: committed reference differs from the generator's output (numpy %s, scipy %s)", c.Name, live.Numpy, live.Scipy)
 		}
 	}
