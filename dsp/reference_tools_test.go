@@ -3,26 +3,12 @@ package dsp
 import (
 	"encoding/json"
 	"math"
+	"nullseek/internal/testtool"
 	"os"
 	"os/exec"
 	"path/filepath"
 	"testing"
 )
-
-// needPython returns Debian's python3 if it can import the given modules;
-// otherwise the test is skipped (or fails when NULLSEEK_REQUIRE_TOOLS=1).
-func needPython(t *testing.T, modules string) string {
-	t.Helper()
-	const py = "/usr/bin/python3"
-	if err := exec.Command(py, "-c", "import "+modules).Run(); err != nil {
-		msg := "needs " + py + " with " + modules + " (Debian python3-scipy, gnuradio): " + err.Error()
-		if os.Getenv("NULLSEEK_REQUIRE_TOOLS") == "1" {
-			t.Fatal(msg)
-		}
-		t.Skip(msg)
-	}
-	return py
-}
 
 // The committed fixtures are reproduced by their scripts with the installed
 // reference tools (scipy 1.10, GNU Radio 3.10).
@@ -30,7 +16,7 @@ func TestFixturesReproduce(t *testing.T) {
 	if testing.Short() {
 		t.Skip("runs Python reference tools")
 	}
-	py := needPython(t, "scipy, numpy, gnuradio.analog")
+	py := testtool.Python(t, "scipy, numpy, gnuradio.analog")
 	src, err := filepath.Abs(filepath.Join("..", "testdata", "dsp"))
 	if err != nil {
 		t.Fatal(err)

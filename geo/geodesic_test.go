@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand"
+	"nullseek/internal/testtool"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -13,33 +14,6 @@ import (
 	"strings"
 	"testing"
 )
-
-// needTool returns the path of an outside reference program, or skips the test
-// when it is missing (fails instead when NULLSEEK_REQUIRE_TOOLS=1).
-func needTool(t testing.TB, name string) string {
-	t.Helper()
-	p, err := exec.LookPath(name)
-	if err != nil {
-		if os.Getenv("NULLSEEK_REQUIRE_TOOLS") == "1" {
-			t.Fatalf("%s not found but NULLSEEK_REQUIRE_TOOLS=1: %v", name, err)
-		}
-		t.Skipf("%s not installed; skipping the cross-check against it", name)
-	}
-	return p
-}
-
-// haveTool reports whether an outside program is installed; with
-// NULLSEEK_REQUIRE_TOOLS=1 a missing program fails the test.
-func haveTool(t testing.TB, name string) bool {
-	t.Helper()
-	if _, err := exec.LookPath(name); err != nil {
-		if os.Getenv("NULLSEEK_REQUIRE_TOOLS") == "1" {
-			t.Fatalf("%s not found but NULLSEEK_REQUIRE_TOOLS=1: %v", name, err)
-		}
-		return false
-	}
-	return true
-}
 
 // readRows reads whitespace-separated rows, skipping # comments. Each row is
 // returned both as text fields and parsed numbers.
@@ -148,7 +122,7 @@ func TestInverseGeodSolve(t *testing.T) {
 		}
 		t.Log("expected values from live GeodSolve -i -p 9")
 	} else {
-		haveTool(t, "GeodSolve") // fails under NULLSEEK_REQUIRE_TOOLS=1
+		testtool.Have(t, "GeodSolve") // fails under NULLSEEK_REQUIRE_TOOLS=1
 		t.Log("GeodSolve not installed; using its committed output")
 	}
 	var maxDS, maxDA, maxDAShort float64
@@ -199,7 +173,7 @@ func TestDirectGeodSolve(t *testing.T) {
 			copy(rows[i][4:], v)
 		}
 	} else {
-		haveTool(t, "GeodSolve")
+		testtool.Have(t, "GeodSolve")
 		t.Log("GeodSolve not installed; using its committed output")
 	}
 	var maxDP, maxDA float64
@@ -422,7 +396,7 @@ func TestDirectWorkedExamples(t *testing.T) {
 // "geod +ellps=WGS84 -I -f %.10f -F %.6f" (REFERENCES §7): output az12, az21
 // (back azimuth) and distance. PROJ's geod uses its own copy of geodesic.c.
 func TestGeodPROJ(t *testing.T) {
-	geod := needTool(t, "geod")
+	geod := testtool.Need(t, "geod")
 	_, rows := readRows(t, filepath.Join("..", "testdata", "geo", "geodsolve_inverse.txt"))
 	var in []string
 	var pick [][]float64
@@ -494,7 +468,7 @@ func TestENURoundTrip(t *testing.T) {
 // equidistant projection: "proj +proj=aeqd +lat_0=φ0 +lon_0=λ0 +ellps=WGS84 -f %.6f"
 // (input lon lat, output x y metres), which is the same construction.
 func TestENUProjAeqd(t *testing.T) {
-	proj := needTool(t, "proj")
+	proj := testtool.Need(t, "proj")
 	rng := rand.New(rand.NewSource(11))
 	for i := 0; i < 20; i++ {
 		lat0 := rng.Float64()*160 - 80

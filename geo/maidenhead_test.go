@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand"
+	"nullseek/internal/testtool"
 	"strings"
 	"testing"
 )
@@ -116,7 +117,7 @@ func cellSize(n int) (lonDeg, latDeg float64) {
 // libhamlib-utils), "rotctl -m 1 L <lon> <lat> 8" (case-insensitively), and the
 // centres of the resulting 8- and 6-character locators with "rotctl -m 1 l <loc>".
 func TestMaidenheadHamlib(t *testing.T) {
-	rotctl := needTool(t, "rotctl")
+	rotctl := testtool.Need(t, "rotctl")
 	rng := rand.New(rand.NewSource(5))
 	var cmds []string
 	var pts [][2]float64

@@ -7,6 +7,7 @@ import (
 	"encoding/json"
 	"errors"
 	"net"
+	"nullseek/internal/testtool"
 	"os"
 	"os/exec"
 	"strconv"
@@ -24,8 +25,8 @@ func TestHDTAgainstGpsd(t *testing.T) {
 	if testing.Short() {
 		t.Skip("gpsfake run takes a few seconds")
 	}
-	bin := needTool(t, "gpsfake")
-	needTool(t, "gpsd")
+	bin := testtool.Need(t, "gpsfake")
+	testtool.Need(t, "gpsd")
 	const fixture = "../testdata/heading/gpsd_hdt.nmea"
 	raw, err := os.ReadFile(fixture)
 	if err != nil {

@@ -3,10 +3,9 @@ package heading
 import (
 	"context"
 	"errors"
-	"fmt"
 	"math"
 	"net"
-	"os/exec"
+	"nullseek/internal/testtool"
 	"regexp"
 	"strconv"
 	"strings"
@@ -14,47 +13,9 @@ import (
 	"time"
 )
 
-// startRotctld runs Hamlib's rotctld with the dummy rotator (model 1) on a
-// free localhost port and returns its address and process. The process is
-// killed when the test ends. REFERENCES §3: rotctld -m 1 -T 127.0.0.1 -t
-// PORT; verified against Hamlib 4.5.4 (Debian libhamlib-utils).
-func startRotctld(t *testing.T) (string, *exec.Cmd) {
-	t.Helper()
-	bin := needTool(t, "rotctld")
-	l, err := net.Listen("tcp", "127.0.0.1:0")
-	if err != nil {
-		t.Fatal(err)
-	}
-	port := l.Addr().(*net.TCPAddr).Port
-	l.Close()
-	addr := fmt.Sprintf("127.0.0.1:%d", port)
-	cmd := exec.Command(bin, "-m", "1", "-T", "127.0.0.1", "-t", strconv.Itoa(port))
-	if err := cmd.Start(); err != nil {
-		t.Fatalf("start rotctld: %v", err)
-	}
-	done := make(chan struct{})
-	go func() { cmd.Wait(); close(done) }()
-	t.Cleanup(func() {
-		cmd.Process.Kill()
-		<-done
-	})
-	deadline := time.Now().Add(5 * time.Second)
-	for {
-		c, err := net.DialTimeout("tcp", addr, 200*time.Millisecond)
-		if err == nil {
-			c.Close()
-			return addr, cmd
-		}
-		if time.Now().After(deadline) {
-			t.Fatalf("rotctld did not listen on %s within 5 s: %v", addr, err)
-		}
-		time.Sleep(50 * time.Millisecond)
-	}
-}
-
 func TestRotctldContinuousSweep(t *testing.T) {
 	t.Parallel()
-	addr, _ := startRotctld(t)
+	addr, _ := testtool.Rotctld(t)
 	ctx, cancel := context.WithTimeout(context.Background(), 20*time.Second)
 	defer cancel()
 	rot, err := DialRotator(ctx, addr, RotatorOptions{Logger: discardLogger})
@@ -139,7 +100,7 @@ func movingSpeed(s []Sample, from, to float64) float64 {
 
 func TestRotctldStepSweep(t *testing.T) {
 	t.Parallel()
-	addr, _ := startRotctld(t)
+	addr, _ := testtool.Rotctld(t)
 	ctx, cancel := context.WithTimeout(context.Background(), 20*time.Second)
 	defer cancel()
 	rot, err := DialRotator(ctx, addr, RotatorOptions{Logger: discardLogger})
@@ -179,7 +140,7 @@ func TestRotctldStepSweep(t *testing.T) {
 
 func TestRotctldErrors(t *testing.T) {
 	t.Parallel()
-	addr, _ := startRotctld(t)
+	addr, _ := testtool.Rotctld(t)
 	ctx, cancel := context.WithTimeout(context.Background(), 10*time.Second)
 	defer cancel()
 	rot, err := DialRotator(ctx, addr, RotatorOptions{Logger: discardLogger})
@@ -238,7 +199,7 @@ func TestRotctldErrors(t *testing.T) {
 
 func TestRotctldKilledMidSweep(t *testing.T) {
 	t.Parallel()
-	addr, cmd := startRotctld(t)
+	addr, cmd := testtool.Rotctld(t)
 	ctx, cancel := context.WithTimeout(context.Background(), 15*time.Second)
 	defer cancel()
 	rot, err := DialRotator(ctx, addr, RotatorOptions{Logger: discardLogger})
@@ -256,7 +217,7 @@ func TestRotctldKilledMidSweep(t *testing.T) {
 		res <- result{tr, err}
 	}()
 	time.Sleep(1500 * time.Millisecond) // about 9° into the sweep at 6°/s
-	if err := cmd.Process.Kill(); err != nil {
+	if err := cmd.Kill(); err != nil {
 		t.Fatal(err)
 	}
 	var r result
@@ -363,7 +324,7 @@ func FuzzRotctldReply(f *testing.F) {
 
 func TestRotctldPollAndCancel(t *testing.T) {
 	t.Parallel()
-	addr, _ := startRotctld(t)
+	addr, _ := testtool.Rotctld(t)
 	ctx, cancel := context.WithTimeout(context.Background(), 15*time.Second)
 	defer cancel()
 	rot, err := DialRotator(ctx, addr, RotatorOptions{Logger: discardLogger})

@@ -3,6 +3,7 @@ package ident
 import (
 	"bytes"
 	"fmt"
+	"nullseek/internal/testtool"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -142,8 +143,8 @@ func TestFMFreeDecodeCER(t *testing.T) {
 	dir := filepath.Join(morseDir, "fm")
 	sox, mm := "", ""
 	if _, err := exec.LookPath("multimon-ng"); err == nil || os.Getenv("NULLSEEK_REQUIRE_TOOLS") == "1" {
-		mm = mcRequireTool(t, "multimon-ng")
-		sox = mcRequireTool(t, "sox")
+		mm = testtool.Need(t, "multimon-ng")
+		sox = testtool.Need(t, "sox")
 	} else {
 		t.Log("multimon-ng not installed: peer comparison skipped")
 	}
@@ -224,20 +225,6 @@ func TestFMIQCompanions(t *testing.T) {
 	}
 }
 
-// gnuradioPython returns Debian's Python if it can import GNU Radio.
-func gnuradioPython(t *testing.T) string {
-	py := "/usr/bin/python3"
-	if err := exec.Command(py, "-c", "from gnuradio import gr, analog, blocks, filter").Run(); err != nil {
-		if os.Getenv("NULLSEEK_REQUIRE_TOOLS") == "1" {
-			t.Fatalf("GNU Radio (Debian /usr/bin/python3) required: %v", err)
-		}
-		t.Skip("GNU Radio not importable from /usr/bin/python3; skipping fresh generation")
-	}
-	mcRequireTool(t, "ebook2cw")
-	mcRequireTool(t, "sox")
-	return py
-}
-
 // TestFMFreshNoise regenerates ten ID bursts at CNR 6 dB with another
 // noise seed and repeats the known-ID check, so the committed set is not a
 // lucky draw (all 39 files would take too long on a shared machine).
@@ -245,7 +232,7 @@ func TestFMFreshNoise(t *testing.T) {
 	if testing.Short() {
 		t.Skip("short mode: fresh GNU Radio generation skipped")
 	}
-	py := gnuradioPython(t)
+	py := testtool.GNURadio(t, "ebook2cw", "sox")
 	dir := t.TempDir()
 	cmd := exec.Command(py, "make_fm_iq.py", "--out", dir, "--seed", "2", "--no-iq", "--only", "id", "--id-bursts", "10")
 	cmd.Dir = morseDir

@@ -5,7 +5,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
-	"os"
+	"nullseek/internal/testtool"
 	"os/exec"
 	"slices"
 	"strings"
@@ -209,10 +209,7 @@ func TestClusterTransmittersSpreadEstimate(t *testing.T) {
 // scipy.cluster.hierarchy.linkage(method="single") + fcluster(t=1,
 // criterion="distance") (Debian python3-scipy 1.10.1) on random fingerprints.
 func TestClusterTransmittersAgainstScipy(t *testing.T) {
-	py := "/usr/bin/python3"
-	if _, err := os.Stat(py); err != nil {
-		slotSkipOrFail(t, "python3 with scipy not found at /usr/bin/python3")
-	}
+	py := testtool.Python(t, "scipy.cluster.hierarchy")
 	rng := rand.New(rand.NewPCG(21, 2))
 	type caseIn struct {
 		X [][2]float64 `json:"x"`
@@ -247,7 +244,7 @@ json.dump(out, sys.stdout)
 	cmd.Stdin = strings.NewReader(string(in))
 	out, err := cmd.Output()
 	if err != nil {
-		slotSkipOrFail(t, fmt.Sprintf("scipy single linkage failed (python3-scipy missing?): %v", err))
+		t.Fatalf("scipy single linkage failed: %v", err)
 	}
 	var want [][]int
 	if err := json.Unmarshal(out, &want); err != nil {

@@ -3,6 +3,7 @@ package ident
 import (
 	"errors"
 	"math"
+	"nullseek/internal/testtool"
 	"os/exec"
 	"regexp"
 	"strings"
@@ -67,7 +68,7 @@ func TestMorseTableITU(t *testing.T) {
 // 0.8.4 `-S ISO` prints its code table as HTML), an independent
 // implementation.
 func TestMorseTableEbook2cw(t *testing.T) {
-	bin := mcRequireTool(t, "ebook2cw")
+	bin := testtool.Need(t, "ebook2cw")
 	out, err := exec.Command(bin, "-E", "/dev/null", "-S", "ISO").CombinedOutput()
 	if err != nil {
 		t.Fatalf("ebook2cw -S ISO: %v", err)

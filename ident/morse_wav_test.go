@@ -4,7 +4,6 @@ import (
 	"encoding/binary"
 	"fmt"
 	"os"
-	"os/exec"
 	"path/filepath"
 	"testing"
 )
@@ -63,20 +62,6 @@ func mcReadWAV(path string) ([]float32, float64, error) {
 		p += 8 + n + n%2
 	}
 	return nil, 0, fmt.Errorf("%s: no data chunk", path)
-}
-
-// mcRequireTool returns the path of an outside program, or skips the test
-// (fails it when NULLSEEK_REQUIRE_TOOLS=1).
-func mcRequireTool(t testing.TB, name string) string {
-	t.Helper()
-	p, err := exec.LookPath(name)
-	if err != nil {
-		if os.Getenv("NULLSEEK_REQUIRE_TOOLS") == "1" {
-			t.Fatalf("%s is required (NULLSEEK_REQUIRE_TOOLS=1) but not found: %v", name, err)
-		}
-		t.Skipf("%s not installed; skipping this outside check", name)
-	}
-	return p
 }
 
 const morseDir = "../testdata/morse"

@@ -2,9 +2,9 @@ package ident
 
 import (
 	"encoding/json"
-	"fmt"
 	"math"
 	"math/rand/v2"
+	"nullseek/internal/testtool"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -108,14 +108,11 @@ func TestSchedulePeriodFitAgainstScipy(t *testing.T) {
 // TestSlotLSReferenceReproducible re-runs the generator with Debian's python
 // (scipy 1.10.1) and checks the committed reference matches what it prints.
 func TestSlotLSReferenceReproducible(t *testing.T) {
-	py := "/usr/bin/python3"
+	py := testtool.Python(t, "numpy, scipy.stats")
 	script := filepath.Join("..", "testdata", "slots", "gen_ls_reference.py")
-	if _, err := os.Stat(py); err != nil {
-		slotSkipOrFail(t, "python3 with scipy not found at /usr/bin/python3")
-	}
 	out, err := exec.Command(py, script).Output()
 	if err != nil {
-		slotSkipOrFail(t, fmt.Sprintf("running %s failed (scipy/numpy missing?): %v", script, err))
+		t.Fatalf("running %s failed: %v", script, err)
 	}
 	var live slotLSFile
 	if err := json.Unmarshal(out, &live); err != nil {
@@ -135,14 +132,6 @@ func TestSlotLSReferenceReproducible(t *testing.T) {
 			t.Errorf("case %s: committed reference differs from the generator's output (numpy %s, scipy %s)", c.Name, live.Numpy, live.Scipy)
 		}
 	}
-}
-
-func slotSkipOrFail(t *testing.T, msg string) {
-	t.Helper()
-	if os.Getenv("NULLSEEK_REQUIRE_TOOLS") == "1" {
-		t.Fatal(msg)
-	}
-	t.Skip(msg)
 }
 
 // TestSchedulePeriodFitAgainstGonum: on random start times generated here

@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"math"
 	"math/rand/v2"
+	"nullseek/internal/testtool"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -345,8 +346,8 @@ func TestTemplateVsFreeDecoding(t *testing.T) {
 // 14.4.2 without dither) and checks the committed WAVs are what the
 // documented commands make, byte for byte.
 func TestTemplateFixturesRegenerate(t *testing.T) {
-	mcRequireTool(t, "ebook2cw")
-	mcRequireTool(t, "sox")
+	testtool.Need(t, "ebook2cw")
+	testtool.Need(t, "sox")
 	dir := t.TempDir()
 	cmd := exec.Command("sh", "make_ids.sh", dir)
 	cmd.Dir = morseDir

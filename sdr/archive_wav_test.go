@@ -2,6 +2,7 @@ package sdr
 
 import (
 	"bytes"
+	"nullseek/internal/testtool"
 	"os"
 	"path/filepath"
 	"strings"
@@ -29,7 +30,7 @@ func TestArchiveFromOutsideTools(t *testing.T) {
 	want := readAllPath(t, base+".sigmf-meta")
 
 	t.Run("python tarfile pax, data first", func(t *testing.T) {
-		py := needTool(t, "/usr/bin/python3")
+		py := testtool.Need(t, testtool.DebianPython)
 		arc := filepath.Join(dir, "py.sigmf")
 		// Python 3 tarfile, PAX_FORMAT = POSIX.1-2001 (REFERENCES §1 archive format).
 		run(t, py, "-c", `import sys, tarfile
@@ -41,7 +42,7 @@ with tarfile.open(sys.argv[1], "w", format=tarfile.PAX_FORMAT) as t:
 		}
 	})
 	t.Run("GNU tar posix", func(t *testing.T) {
-		tarBin := needTool(t, "tar", "--version")
+		tarBin := testtool.Need(t, "tar", "--version")
 		arc := filepath.Join(dir, "gnu.sigmf")
 		run(t, tarBin, "--format=posix", "-C", dir, "-cf", arc, "rec.sigmf-meta", "rec.sigmf-data")
 		if got := readAllPath(t, arc); !equalIQ(got, want) {
@@ -49,7 +50,7 @@ with tarfile.open(sys.argv[1], "w", format=tarfile.PAX_FORMAT) as t:
 		}
 	})
 	t.Run("our archive read by GNU tar", func(t *testing.T) {
-		tarBin := needTool(t, "tar", "--version")
+		tarBin := testtool.Need(t, "tar", "--version")
 		arc := filepath.Join(dir, "ours.sigmf")
 		if err := WriteSigMFArchive(arc, base); err != nil {
 			t.Fatal(err)
@@ -73,7 +74,7 @@ with tarfile.open(sys.argv[1], "w", format=tarfile.PAX_FORMAT) as t:
 		}
 	})
 	t.Run("two recordings refused", func(t *testing.T) {
-		tarBin := needTool(t, "tar", "--version")
+		tarBin := testtool.Need(t, "tar", "--version")
 		mb, _ := os.ReadFile(base + ".sigmf-meta")
 		writeFile(t, filepath.Join(dir, "rec2.sigmf-meta"), mb)
 		arc := filepath.Join(dir, "two.sigmf")
@@ -111,7 +112,7 @@ func equalIQ(a, b []complex64) bool {
 // samples equal sox's own decoding (`sox x.wav -t f32`, or the raw bytes for
 // 8-bit, which nullseek reads with the cu8 convention).
 func TestWAVFromSox(t *testing.T) {
-	sox := needTool(t, "sox", "--version")
+	sox := testtool.Need(t, "sox", "--version")
 	dir := t.TempDir()
 	for _, c := range []struct{ name, bits, enc, format string }{
 		{"u8", "8", "unsigned-integer", "cu8"},

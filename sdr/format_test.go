@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"io"
 	"math"
+	"nullseek/internal/testtool"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -77,7 +78,7 @@ func TestDatatypeGrammar(t *testing.T) {
 // Raw reader against numpy's decoding of the same bytes (outside reference:
 // numpy dtype decode, Debian python3-numpy; script testdata/sdr/numpy_decode.py).
 func TestRawAgainstNumpy(t *testing.T) {
-	py := numpyPython(t)
+	py := testtool.Python(t, "numpy")
 	script := filepath.Join(testdataDir(), "numpy_decode.py")
 	for i, dt := range []string{"cu8", "ci8", "ci16_le", "ci16_be", "cu16_le", "ci32_le", "cf32_le", "cf32_be", "cf64_le"} {
 		t.Run(dt, func(t *testing.T) {

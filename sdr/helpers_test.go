@@ -10,28 +10,6 @@ import (
 	"testing"
 )
 
-// needTool returns the path of an outside program, skipping the test when it
-// is missing unless NULLSEEK_REQUIRE_TOOLS=1.
-func needTool(t *testing.T, path string, probe ...string) string {
-	t.Helper()
-	p, err := exec.LookPath(path)
-	if err == nil && len(probe) > 0 {
-		err = exec.Command(p, probe...).Run()
-	}
-	if err != nil {
-		if os.Getenv("NULLSEEK_REQUIRE_TOOLS") == "1" {
-			t.Fatalf("required tool %s unavailable: %v", path, err)
-		}
-		t.Skipf("%s unavailable (%v): skipping this outside check", path, err)
-	}
-	return p
-}
-
-// numpyPython is Debian's python3 with numpy (not the pyenv one on PATH).
-func numpyPython(t *testing.T) string {
-	return needTool(t, "/usr/bin/python3", "-c", "import numpy")
-}
-
 func testdataDir() string {
 	_, file, _, _ := runtime.Caller(0)
 	return filepath.Join(filepath.Dir(file), "..", "testdata", "sdr")

@@ -5,6 +5,7 @@ import (
 	"context"
 	"encoding/json"
 	"math"
+	"nullseek/internal/testtool"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -62,7 +63,7 @@ func readRotTruth(t *testing.T, path string) rotTruth {
 // A loop's null is bidirectional (FCC question pool E9H05), so the truth is
 // ambiguous: the bearing or its reported alternate must match it.
 func TestE2EBearingRotatingLoop(t *testing.T) {
-	needGNURadio(t)
+	testtool.GNURadio(t)
 	t.Parallel()
 	committed := filepath.Join(testdataDir, "bearing")
 	cases := []struct {
@@ -81,7 +82,7 @@ func TestE2EBearingRotatingLoop(t *testing.T) {
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
 			dir := t.TempDir()
-			cmd := exec.Command(debianPython, append([]string{filepath.Join(committed, "make_rotating.py"), "--out", dir}, c.args...)...)
+			cmd := exec.Command(testtool.DebianPython, append([]string{filepath.Join(committed, "make_rotating.py"), "--out", dir}, c.args...)...)
 			if out, err := cmd.CombinedOutput(); err != nil {
 				t.Fatalf("make_rotating.py: %v\n%s", err, out)
 			}

@@ -3,7 +3,6 @@ package survey
 import (
 	"bufio"
 	"os"
-	"os/exec"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -11,34 +10,6 @@ import (
 
 // testdataDir is the repository's testdata folder, from this package.
 var testdataDir = filepath.Join("..", "testdata")
-
-// debianPython is Debian's Python, which has GNU Radio, numpy and scipy
-// (the pyenv python3 on PATH has none of them).
-const debianPython = "/usr/bin/python3"
-
-// needTools skips the test when an outside program it needs is missing,
-// or fails it when NULLSEEK_REQUIRE_TOOLS=1 (CI installs the tools).
-func needTools(t *testing.T, what string, check func() error) {
-	t.Helper()
-	if err := check(); err != nil {
-		if os.Getenv("NULLSEEK_REQUIRE_TOOLS") == "1" {
-			t.Fatalf("%s required (NULLSEEK_REQUIRE_TOOLS=1): %v", what, err)
-		}
-		t.Skipf("%s not available, skipping: %v", what, err)
-	}
-}
-
-// needGNURadio checks that Debian's Python imports GNU Radio, and that
-// the named programs are on PATH.
-func needGNURadio(t *testing.T, progs ...string) {
-	t.Helper()
-	needTools(t, "GNU Radio 3.10 (Debian /usr/bin/python3)", func() error {
-		return exec.Command(debianPython, "-c", "from gnuradio import gr, analog, blocks, filter; import numpy, scipy").Run()
-	})
-	for _, p := range progs {
-		needTools(t, p, func() error { _, err := exec.LookPath(p); return err })
-	}
-}
 
 // readTSV reads a tab-separated file with a header row into maps.
 func readTSV(t *testing.T, path string) []map[string]string {

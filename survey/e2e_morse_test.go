@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand"
+	"nullseek/internal/testtool"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -241,7 +242,7 @@ func scoreMorse(t *testing.T, res *Result, truth []truthBurst) morseScore {
 // known-ID bursts at CNR 6 dB
 // (whose free-text CER is reported too), each recording with quiet gaps.
 func TestE2EMorseGenerated(t *testing.T) {
-	needGNURadio(t, "ebook2cw", "sox")
+	testtool.GNURadio(t, "ebook2cw", "sox")
 	t.Parallel() // mostly waiting on Python; overlaps the other end-to-end tests
 	// CNR 12 dB is the requirement's hardest case; 15 dB adds runtime, not
 	// evidence, so it runs only with NULLSEEK_E2E_FULL=1.
@@ -255,7 +256,7 @@ func TestE2EMorseGenerated(t *testing.T) {
 	}
 	dir := t.TempDir()
 	t0 := time.Now()
-	cmd := exec.Command(debianPython, filepath.Join(testdataDir, "e2e", "make_morse_bursts.py"),
+	cmd := exec.Command(testtool.DebianPython, filepath.Join(testdataDir, "e2e", "make_morse_bursts.py"),
 		"--out", dir, "--seed", "3", "--cer-cnrs", strings.Join(cs, ","), "--id-cnr", "6", "--id-bursts", "20")
 	if out, err := cmd.CombinedOutput(); err != nil {
 		t.Fatalf("make_morse_bursts.py: %v\n%s", err, out)

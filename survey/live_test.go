@@ -3,12 +3,9 @@ package survey
 import (
 	"context"
 	"errors"
-	"fmt"
 	"io"
 	"math"
-	"net"
-	"os"
-	"os/exec"
+	"nullseek/internal/testtool"
 	"strings"
 	"testing"
 	"time"
@@ -53,74 +50,13 @@ func (s *pacedSource) Read(dst []complex64) (int, error) {
 	return int(k), nil
 }
 
-// rotctld starts Hamlib's rotctld with the dummy rotator (model 1, which
-// turns 360°/min on each axis; REFERENCES §3, verified with Hamlib 4.5.4)
-// on a free local port. Skips when it is missing unless
-// NULLSEEK_REQUIRE_TOOLS=1.
-func rotctld(t *testing.T) string {
-	t.Helper()
-	bin, err := exec.LookPath("rotctld")
-	if err != nil {
-		if os.Getenv("NULLSEEK_REQUIRE_TOOLS") == "1" {
-			t.Fatal("rotctld not found and NULLSEEK_REQUIRE_TOOLS=1")
-		}
-		t.Skip("rotctld (Debian libhamlib-utils) not installed; skipping")
-	}
-	ln, err := net.Listen("tcp", "127.0.0.1:0")
-	if err != nil {
-		t.Fatal(err)
-	}
-	port := ln.Addr().(*net.TCPAddr).Port
-	ln.Close()
-	cmd := exec.Command(bin, "-m", "1", "-T", "127.0.0.1", "-t", fmt.Sprint(port))
-	if err := cmd.Start(); err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() { cmd.Process.Kill(); cmd.Wait() })
-	addr := fmt.Sprintf("127.0.0.1:%d", port)
-	for deadline := time.Now().Add(5 * time.Second); ; {
-		if rotctldAnswers(addr) {
-			return addr
-		}
-		if time.Now().After(deadline) {
-			t.Fatalf("rotctld did not start on %s", addr)
-		}
-		time.Sleep(100 * time.Millisecond)
-	}
-}
-
-// rotctldAnswers reports whether rotctld at addr answers get_pos ("p",
-// two value lines): a listening socket alone is not enough, rotctld may
-// still be setting up.
-func rotctldAnswers(addr string) bool {
-	c, err := net.DialTimeout("tcp", addr, 200*time.Millisecond)
-	if err != nil {
-		return false
-	}
-	defer c.Close()
-	c.SetDeadline(time.Now().Add(time.Second))
-	if _, err := io.WriteString(c, "p\n"); err != nil {
-		return false
-	}
-	buf := make([]byte, 64)
-	got := ""
-	for strings.Count(got, "\n") < 2 {
-		n, err := c.Read(buf)
-		if err != nil {
-			return false
-		}
-		got += string(buf[:n])
-	}
-	return true
-}
-
 // TestCaptureLiveSweep records while the dummy rotator turns 0° → 12°:
 // the track is on the capture's clock and turns at the dummy's 6°/s, the
 // capture ends a margin after the sweep, and every sample reaches the sink
 // in order.
 func TestCaptureLiveSweep(t *testing.T) {
 	t.Parallel()
-	addr := rotctld(t)
+	addr, _ := testtool.Rotctld(t)
 	src := newPacedSource(20000, -1, nil)
 	rot, err := heading.DialRotator(context.Background(), addr, heading.RotatorOptions{CaptureStart: src.Info().Start})
 	if err != nil {
@@ -182,7 +118,7 @@ func TestCaptureLiveSweep(t *testing.T) {
 // rotator, keeps the positions so far and warns.
 func TestCaptureLiveDurationCut(t *testing.T) {
 	t.Parallel()
-	addr := rotctld(t)
+	addr, _ := testtool.Rotctld(t)
 	src := newPacedSource(20000, -1, nil)
 	rot, err := heading.DialRotator(context.Background(), addr, heading.RotatorOptions{CaptureStart: src.Info().Start})
 	if err != nil {

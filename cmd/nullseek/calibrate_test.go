@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"nullseek/internal/angle"
+	"nullseek/internal/testtool"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -64,7 +65,7 @@ func calBeacon(id string, lat, lon, firstS, onS, tone float64) sim.Beacon {
 // forward azimuth from point 1 to point 2, degrees in [0, 360).
 func geodAzimuth(t *testing.T, lat1, lon1, lat2, lon2 float64) float64 {
 	t.Helper()
-	bin := needTool(t, "GeodSolve")
+	bin := testtool.Need(t, "GeodSolve")
 	cmd := exec.Command(bin, "-i", "-p", "9")
 	cmd.Stdin = strings.NewReader(fmt.Sprintf("%.10f %.10f %.10f %.10f\n", lat1, lon1, lat2, lon2))
 	out, err := cmd.Output()

@@ -11,6 +11,7 @@ import (
 	"math/rand"
 	"net"
 	"nullseek/internal/angle"
+	"nullseek/internal/testtool"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -88,59 +89,6 @@ func runNullseek(t *testing.T, tmp string, args ...string) nullseekRun {
 	t.Helper()
 	c, o, e := startNullseek(t, tmp, args...)
 	return waitNullseek(t, c, o, e)
-}
-
-// needTool skips (or fails with NULLSEEK_REQUIRE_TOOLS=1) when an outside
-// program is missing.
-func needTool(t *testing.T, name string) string {
-	t.Helper()
-	p, err := exec.LookPath(name)
-	if err != nil {
-		if os.Getenv("NULLSEEK_REQUIRE_TOOLS") == "1" {
-			t.Fatalf("%s not found and NULLSEEK_REQUIRE_TOOLS=1", name)
-		}
-		t.Skipf("%s not installed (Debian libhamlib-utils / geographiclib-tools); skipping", name)
-	}
-	return p
-}
-
-// startRotctld starts Hamlib's rotctld with the dummy rotator (model 1,
-// 360°/min on each axis; REFERENCES §3) on a free local port.
-func startRotctld(t *testing.T) (addr string, proc *os.Process) {
-	t.Helper()
-	bin := needTool(t, "rotctld")
-	ln, err := net.Listen("tcp", "127.0.0.1:0")
-	if err != nil {
-		t.Fatal(err)
-	}
-	port := ln.Addr().(*net.TCPAddr).Port
-	ln.Close()
-	addr = fmt.Sprintf("127.0.0.1:%d", port)
-	cmd := exec.Command(bin, "-m", "1", "-T", "127.0.0.1", "-t", fmt.Sprint(port))
-	if err := cmd.Start(); err != nil {
-		t.Fatal(err)
-	}
-	exited := make(chan struct{})
-	go func() { cmd.Wait(); close(exited) }()
-	t.Cleanup(func() {
-		cmd.Process.Kill()
-		<-exited
-	})
-	deadline := time.Now().Add(5 * time.Second)
-	for {
-		// A listening socket is not enough: wait for an answer to get_pos.
-		ctx, cancel := context.WithTimeout(context.Background(), time.Second)
-		r, err := heading.DialRotator(ctx, addr, heading.RotatorOptions{Timeout: time.Second})
-		cancel()
-		if err == nil {
-			r.Close()
-			return addr, cmd.Process
-		}
-		if time.Now().After(deadline) {
-			t.Fatalf("rotctld did not answer on %s: %v", addr, err)
-		}
-		time.Sleep(100 * time.Millisecond)
-	}
 }
 
 // azHistory records a rotator's polled azimuth and interpolates it.
@@ -277,7 +225,7 @@ func newLiveRig(t *testing.T, truthDeg float64, withRotator bool) *liveRig {
 	ctx, cancel := context.WithCancel(context.Background())
 	t.Cleanup(cancel)
 	if withRotator {
-		rig.rotAddr, rig.rotProc = startRotctld(t)
+		rig.rotAddr, rig.rotProc = testtool.Rotctld(t)
 		// The source learns the antenna's azimuth on its own connection.
 		rot, err := heading.DialRotator(ctx, rig.rotAddr, heading.RotatorOptions{})
 		if err != nil {

@@ -1,0 +1,147 @@
+// Package testtool is the one place where tests find the outside programs
+// they check nullseek against (GNU Radio, scipy, GeographicLib, Hamlib,
+// ebook2cw, multimon-ng, sox, gpsd, Chromium …).
+//
+// A missing program skips the test with a message that names it, unless
+// the environment sets NULLSEEK_REQUIRE_TOOLS=1 — as CI does after
+// installing them — when it fails the test instead. Nothing here is used
+// by production code.
+package testtool
+
+import (
+	"fmt"
+	"io"
+	"net"
+	"os"
+	"os/exec"
+	"strings"
+	"testing"
+	"time"
+)
+
+// DebianPython is Debian's interpreter, the one that imports the Debian
+// packages gnuradio, python3-numpy and python3-scipy (a python3 earlier on
+// PATH may not).
+const DebianPython = "/usr/bin/python3"
+
+// Required reports whether missing tools fail tests (NULLSEEK_REQUIRE_TOOLS=1).
+func Required() bool { return os.Getenv("NULLSEEK_REQUIRE_TOOLS") == "1" }
+
+// Unavailable skips t, or fails it when tools are required, saying what is
+// missing and why.
+func Unavailable(t testing.TB, what string, err error) {
+	t.Helper()
+	if Required() {
+		t.Fatalf("%s is required (NULLSEEK_REQUIRE_TOOLS=1) but unavailable: %v", what, err)
+	}
+	t.Skipf("%s unavailable, skipping this outside check: %v", what, err)
+}
+
+// Need returns the path of the program name (looked up on PATH, or an
+// absolute path). With probe arguments it also runs the program with them
+// and treats a failure as missing (for example a Python that lacks a
+// module).
+func Need(t testing.TB, name string, probe ...string) string {
+	t.Helper()
+	p, err := exec.LookPath(name)
+	if err == nil && len(probe) > 0 {
+		if out, perr := exec.Command(p, probe...).CombinedOutput(); perr != nil {
+			err = fmt.Errorf("%s %s: %v: %s", name, strings.Join(probe, " "), perr, strings.TrimSpace(string(out)))
+		}
+	}
+	if err != nil {
+		Unavailable(t, name, err)
+	}
+	return p
+}
+
+// Have reports whether the program is on PATH without skipping; with tools
+// required a missing one still fails the test.
+func Have(t testing.TB, name string) bool {
+	t.Helper()
+	if _, err := exec.LookPath(name); err != nil {
+		if Required() {
+			t.Fatalf("%s is required (NULLSEEK_REQUIRE_TOOLS=1) but not on PATH: %v", name, err)
+		}
+		return false
+	}
+	return true
+}
+
+// Python returns DebianPython when it can run the given import statement's
+// modules, for example Python(t, "numpy, scipy.signal").
+func Python(t testing.TB, modules string) string {
+	t.Helper()
+	return Need(t, DebianPython, "-c", "import "+modules)
+}
+
+// GNURadio returns DebianPython when it imports GNU Radio 3.10's blocks used
+// by the fixture scripts (gr, analog, blocks, filter, channels) with numpy
+// and scipy, and checks that the named programs are on PATH.
+func GNURadio(t testing.TB, progs ...string) string {
+	t.Helper()
+	py := Need(t, DebianPython, "-c", "from gnuradio import gr, analog, blocks, filter, channels; import numpy, scipy")
+	for _, p := range progs {
+		Need(t, p)
+	}
+	return py
+}
+
+// Rotctld starts Hamlib's rotctld with the dummy rotator (model 1; Hamlib
+// rotctld(1)) on a free loopback port and returns its address once it
+// answers get_pos ("p", two value lines): a listening socket alone is not
+// enough, rotctld may still be setting up. The process is killed when the
+// test ends; kill it earlier through the returned process to test a
+// vanished rotator.
+func Rotctld(t testing.TB) (addr string, proc *os.Process) {
+	t.Helper()
+	bin := Need(t, "rotctld")
+	ln, err := net.Listen("tcp", "127.0.0.1:0")
+	if err != nil {
+		t.Fatal(err)
+	}
+	port := ln.Addr().(*net.TCPAddr).Port
+	ln.Close()
+	cmd := exec.Command(bin, "-m", "1", "-T", "127.0.0.1", "-t", fmt.Sprint(port))
+	if err := cmd.Start(); err != nil {
+		t.Fatal(err)
+	}
+	exited := make(chan struct{})
+	go func() { cmd.Wait(); close(exited) }()
+	t.Cleanup(func() {
+		cmd.Process.Kill()
+		<-exited
+	})
+	addr = fmt.Sprintf("127.0.0.1:%d", port)
+	for deadline := time.Now().Add(5 * time.Second); ; {
+		if answersGetPos(addr) {
+			return addr, cmd.Process
+		}
+		if time.Now().After(deadline) {
+			t.Fatalf("rotctld did not answer get_pos on %s", addr)
+		}
+		time.Sleep(100 * time.Millisecond)
+	}
+}
+
+func answersGetPos(addr string) bool {
+	c, err := net.DialTimeout("tcp", addr, 200*time.Millisecond)
+	if err != nil {
+		return false
+	}
+	defer c.Close()
+	c.SetDeadline(time.Now().Add(time.Second))
+	if _, err := io.WriteString(c, "p\n"); err != nil {
+		return false
+	}
+	buf := make([]byte, 64)
+	got := ""
+	for strings.Count(got, "\n") < 2 {
+		n, err := c.Read(buf)
+		if err != nil {
+			return false
+		}
+		got += string(buf[:n])
+	}
+	return true
+}
