@@ -1,0 +1,221 @@
+package capture
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"net"
+	"strings"
+	"testing"
+	"time"
+
+	"nullseek/heading"
+	"nullseek/internal/angle"
+)
+
+// nmeaLine frames body as an NMEA 0183 sentence: '$', body, '*', the XOR
+// of the body's bytes in two hex digits, CR LF (REFERENCES §4).
+func nmeaLine(body string) string {
+	var c byte
+	for i := 0; i < len(body); i++ {
+		c ^= body[i]
+	}
+	return fmt.Sprintf("$%s*%02X\r\n", body, c)
+}
+
+func TestNMEALineChecksum(t *testing.T) {
+	// REFERENCES §4: $GPHDT,274.07,T*03 (checksum verified against gpsd
+	// 3.22) and $SDHDG,234.6,,,1.3,E*34.
+	for _, want := range []string{"$GPHDT,274.07,T*03\r\n", "$SDHDG,234.6,,,1.3,E*34\r\n"} {
+		if got := nmeaLine(want[1:strings.IndexByte(want, '*')]); got != want {
+			t.Errorf("nmeaLine = %q, want %q", got, want)
+		}
+	}
+}
+
+// serveNMEA accepts one TCP client at a time and runs script on it until
+// script returns (then the connection is closed) or the test ends.
+func serveNMEA(t *testing.T, script func(ctx context.Context, w io.Writer)) string {
+	t.Helper()
+	ln, err := net.Listen("tcp", "127.0.0.1:0")
+	if err != nil {
+		t.Fatal(err)
+	}
+	ctx, cancel := context.WithCancel(context.Background())
+	t.Cleanup(func() { cancel(); ln.Close() })
+	go func() {
+		for {
+			c, err := ln.Accept()
+			if err != nil {
+				return
+			}
+			go func() {
+				defer c.Close()
+				script(ctx, c)
+			}()
+		}
+	}()
+	return "tcp://" + ln.Addr().String()
+}
+
+// every calls fn every period until ctx ends, fn fails or limit passes
+// (limit 0: no limit).
+func every(ctx context.Context, period, limit time.Duration, fn func(now time.Time) error) {
+	t0 := time.Now()
+	tick := time.NewTicker(period)
+	defer tick.Stop()
+	for {
+		select {
+		case <-ctx.Done():
+			return
+		case now := <-tick.C:
+			if limit > 0 && now.Sub(t0) > limit {
+				return
+			}
+			if fn(now) != nil {
+				return
+			}
+		}
+	}
+}
+
+// TestCompassFeedCapture: a compass turning 30°/s through north sends HDT
+// at 20 Hz (with GGA, HDM and one corrupted sentence mixed in) while a
+// paced receiver records 2 s. Every recorded heading must be the one the
+// compass sent at that moment of the capture's clock.
+func TestCompassFeedCapture(t *testing.T) {
+	t.Parallel()
+	var err error
+	t0 := time.Now()
+	const startDeg, rate = 340.0, 30.0
+	trueAt := func(tm time.Time) float64 { return angle.Wrap360(startDeg + rate*tm.Sub(t0).Seconds()) }
+	addr := serveNMEA(t, func(ctx context.Context, w io.Writer) {
+		k := 0
+		every(ctx, 50*time.Millisecond, 0, func(now time.Time) error {
+			k++
+			var s string
+			switch {
+			case k == 7:
+				s = "$HCHDT,123.4,T*00\r\n" // bad checksum
+			case k%5 == 0:
+				s = nmeaLine("GPGGA,120000.00,5000.000,N,00800.000,E,1,08,1.0,100.0,M,47.0,M,,")
+			case k%7 == 0:
+				s = nmeaLine(fmt.Sprintf("HCHDM,%.2f,M", angle.Wrap360(trueAt(now)-3)))
+			default:
+				s = nmeaLine(fmt.Sprintf("HCHDT,%.2f,T", trueAt(now)))
+			}
+			_, err := io.WriteString(w, s)
+			return err
+		})
+	})
+	ctx := context.Background()
+	o := testOptions(20000)
+	o.DurationS, o.compassSilenceS = 2, 1
+	if o.Compass, err = ParseCompassAddr(addr); err != nil {
+		t.Fatal(err)
+	}
+	src := newPacedSource(20000, -1, nil)
+	lc, err := runWith(t, ctx, o, src, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if lc.Info.Samples != 40000 {
+		t.Errorf("captured %d samples, want 40000", lc.Info.Samples)
+	}
+	tr := lc.Track
+	if tr.Ref != heading.True || len(tr.Samples) < 25 {
+		t.Fatalf("track ref %v with %d samples, want true with ~30", tr.Ref, len(tr.Samples))
+	}
+	if first := tr.Samples[0].T; first > 0.2 || first < -0.2 {
+		t.Errorf("first heading at %.3f s, want near the start", first)
+	}
+	worst := 0.0
+	for _, s := range tr.Samples {
+		sent := trueAt(src.info.Start.Add(time.Duration(s.T * float64(time.Second))))
+		worst = max(worst, math.Abs(angle.Wrap180(s.Deg-sent)))
+	}
+	// 0.005° rounding plus the send-to-arrival delay on loopback (a few ms
+	// at 30°/s is ~0.1°).
+	t.Logf("%d headings; largest difference from the heading sent at that time %.3f°", len(tr.Samples), worst)
+	if worst > 0.6 {
+		t.Errorf("recorded headings differ from those sent by up to %.3f°", worst)
+	}
+	if len(lc.Warnings) != 1 || !strings.Contains(lc.Warnings[0], "1 bad checksum") {
+		t.Errorf("warnings %q, want one naming the bad checksum", lc.Warnings)
+	}
+}
+
+// TestCompassFeedFailures: each broken compass ends the capture early with
+// an error saying what it sent.
+func TestCompassFeedFailures(t *testing.T) {
+	t.Parallel()
+	cases := []struct {
+		name   string
+		script func(ctx context.Context, w io.Writer)
+		want   []string
+		is     error
+	}{
+		{"garbage only", func(ctx context.Context, w io.Writer) {
+			every(ctx, 100*time.Millisecond, 0, func(time.Time) error {
+				_, err := io.WriteString(w, "$HCHDT,10.0,T*11\r\n"+nmeaLine("GPRMC,120000,A,5000.0,N,00800.0,E,0.0,0.0,010126,,"))
+				return err
+			})
+		}, []string{"no valid heading", "bad checksum", "other sentence types"}, nil},
+		{"magnetic only", func(ctx context.Context, w io.Writer) {
+			every(ctx, 100*time.Millisecond, 0, func(time.Time) error {
+				_, err := io.WriteString(w, nmeaLine("HCHDM,200.0,M"))
+				return err
+			})
+		}, []string{"no true heading", "HCHDM"}, ErrCompassReference},
+		{"hangs up", func(ctx context.Context, w io.Writer) {
+			every(ctx, 100*time.Millisecond, 800*time.Millisecond, func(time.Time) error {
+				_, err := io.WriteString(w, nmeaLine("HCHDT,10.0,T"))
+				return err
+			})
+		}, []string{"closed the connection"}, nil},
+		{"mute", func(ctx context.Context, w io.Writer) { <-ctx.Done() }, []string{"nothing received in 1 s"}, nil},
+		{"stops sending headings", func(ctx context.Context, w io.Writer) {
+			t0 := time.Now()
+			every(ctx, 100*time.Millisecond, 0, func(now time.Time) error {
+				s := nmeaLine("HCHDT,10.0,T")
+				if now.Sub(t0) > 600*time.Millisecond {
+					s = nmeaLine("GPGGA,120000.00,5000.000,N,00800.000,E,1,08,1.0,100.0,M,47.0,M,,")
+				}
+				_, err := io.WriteString(w, s)
+				return err
+			})
+		}, []string{"no true heading for 1 s after"}, nil},
+	}
+	for _, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			t.Parallel()
+			addr := serveNMEA(t, tc.script)
+			o := testOptions(20000)
+			o.DurationS, o.compassSilenceS = 5, 1
+			var err error
+			if o.Compass, err = ParseCompassAddr(addr); err != nil {
+				t.Fatal(err)
+			}
+			began := time.Now()
+			_, err = runWith(t, context.Background(), o, newPacedSource(20000, -1, nil), nil)
+			took := time.Since(began)
+			t.Logf("after %v: %v", took.Round(time.Millisecond), err)
+			if err == nil {
+				t.Fatal("capture succeeded")
+			}
+			if took > 3*time.Second {
+				t.Errorf("the capture went on for %v; want it stopped within ~1 s", took)
+			}
+			for _, w := range append(tc.want, addr, "stopped") {
+				if !strings.Contains(err.Error(), w) {
+					t.Errorf("error does not mention %q", w)
+				}
+			}
+			if tc.is != nil && !errors.Is(err, tc.is) {
+				t.Errorf("error is not %v", tc.is)
+			}
+		})
+	}
+}
