@@ -133,7 +133,7 @@ type RotatorStop struct {
 
 func (s *RotatorStop) String() string {
 	if s.Err != nil {
-		return fmt.Sprintf("could not stop the rotator at %s (%v): check that it is not turning", s.Addr, s.Err)
+		return fmt.Sprintf("could not tell the rotator to stop (%v): check that it is not turning", s.Err)
 	}
 	return fmt.Sprintf("rotator at %s stopped at %.1f°", s.Addr, s.AzDeg)
 }
@@ -444,6 +444,7 @@ func (s *session) run(ctx context.Context) (res *Result, err error) {
 		res.Info.Start = origin
 		w.SetStart(origin)
 	}
+	tr = upTo(tr, elapsed)
 	if o.Turn != nil {
 		// A steady turn is defined on the recording's clock already.
 		tr, trErr = TurnTrack(*o.Turn, elapsed)
@@ -635,7 +636,7 @@ func (s *session) stopRotator(rot *heading.Rotator) *RotatorStop {
 			defer cancel()
 			r2, derr := heading.DialRotator(ctx, rot.Addr(), heading.RotatorOptions{Logger: discard})
 			if derr != nil {
-				st.Err = fmt.Errorf("%v; a new connection failed too: %v", err, derr)
+				st.Err = derr // the first error only said the connection was unusable
 				return
 			}
 			defer r2.Close()
@@ -691,6 +692,19 @@ func shifted(tr *heading.Track, deltaS float64) *heading.Track {
 	for i, s := range tr.Samples {
 		c.Samples[i] = heading.Sample{T: s.T + deltaS, Deg: s.Deg}
 	}
+	return &c
+}
+
+// upTo returns a copy of tr without the readings after endS but the first
+// (which the last samples interpolate towards): the track ends with the
+// recording's last block. Nil for nil.
+func upTo(tr *heading.Track, endS float64) *heading.Track {
+	if tr == nil {
+		return nil
+	}
+	n := sort.Search(len(tr.Samples), func(i int) bool { return tr.Samples[i].T > endS })
+	c := *tr
+	c.Samples = append([]heading.Sample(nil), tr.Samples[:min(n+1, len(tr.Samples))]...)
 	return &c
 }
 
