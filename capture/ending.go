@@ -66,7 +66,8 @@ type Interrupted struct {
 	Cause error
 	// AfterS is how many seconds of samples were captured.
 	AfterS float64
-	// During is what was cut short: "the capture" or "the analysis".
+	// During is what was cut short: "connecting", "the capture" or "the
+	// analysis".
 	During string
 
 	detail string
@@ -79,6 +80,9 @@ func (e *Interrupted) Error() string {
 		by = "interrupted by " + sig.Error()
 	} else if e.Cause != nil && !errors.Is(e.Cause, context.Canceled) {
 		by = "stopped (" + e.Cause.Error() + ")"
+	}
+	if e.During == "connecting" {
+		return fmt.Sprintf("%s while connecting; %s", by, e.detail)
 	}
 	return fmt.Sprintf("%s %.1f s into %s; %s", by, e.AfterS, e.During, e.detail)
 }

@@ -178,6 +178,16 @@ func Run(ctx context.Context, o Options) (*Result, error) {
 	return s.run(ctx)
 }
 
+// interruptedSetUp turns the error of a set-up that a cancellation cut
+// short (a dial that was waiting) into the *Interrupted it is.
+func (s *session) interruptedSetUp(ctx context.Context, err error) error {
+	var intr *Interrupted
+	if err == nil || ctx.Err() == nil || errors.As(err, &intr) {
+		return err
+	}
+	return &Interrupted{Cause: context.Cause(ctx), During: "connecting", detail: "nothing was recorded" + stopText(s.stop)}
+}
+
 // openReceiver connects the receiver o names; ctx ending closes it.
 func openReceiver(ctx context.Context, o *Options) (sdr.Source, error) {
 	cfg := sdr.RTLConfig{CenterHz: o.tuning(), SampleRate: o.RateHz, PPM: o.PPM, AutoGain: o.Gain.Auto, GainDB: o.Gain.DB}
@@ -247,6 +257,11 @@ type headings struct {
 }
 
 func (s *session) run(ctx context.Context) (res *Result, err error) {
+	defer func() {
+		if res == nil {
+			err = s.interruptedSetUp(ctx, err)
+		}
+	}()
 	o := &s.o
 	s.note = o.Notes
 	if s.note == nil {
@@ -390,6 +405,10 @@ func (s *session) run(ctx context.Context) (res *Result, err error) {
 	}
 	if feed != nil {
 		feed.Stop()
+	}
+	var pe *panicError
+	if errors.As(werr, &pe) {
+		s.note(fmt.Sprintf("panic: %v\n%s", pe.v, pe.stack)) // a bug: keep where it was
 	}
 	interrupted := ctx.Err() != nil
 	var fault *ReceiverFault

@@ -5,6 +5,7 @@ import (
 	"context"
 	"encoding/json"
 	"errors"
+	"fmt"
 	"io"
 	"math"
 	"os"
@@ -353,5 +354,60 @@ func TestRunInterrupted(t *testing.T) {
 	first, last := tr.Samples[0], tr.Samples[len(tr.Samples)-1]
 	if first.T != 0 || math.Abs(last.T-float64(n)/20000) > 1e-6 || math.Abs(last.Deg-st.HeadingAt(last.T)) > 0.001 {
 		t.Errorf("heading log from %.3f s to %.3f s (%.3f°), recording %.3f s", first.T, last.T, last.Deg, float64(n)/20000)
+	}
+}
+
+// TestRunInterruptedConnecting: a signal while the receiver is still being
+// dialled is an interruption too (exit 130), with nothing left behind.
+func TestRunInterruptedConnecting(t *testing.T) {
+	t.Parallel()
+	dir := t.TempDir()
+	o := testOptions(20000)
+	o.DurationS, o.HeadingFile, o.Record = 5, "--headings", filepath.Join(dir, "never")
+	s := &session{o: o, newSink: newSigMF, open: func(ctx context.Context, _ *Options) (sdr.Source, error) {
+		<-ctx.Done()
+		return nil, fmt.Errorf("rtl_tcp: cannot connect to 127.0.0.1:1: %w", ctx.Err())
+	}}
+	ctx, cancel := context.WithCancelCause(context.Background())
+	time.AfterFunc(100*time.Millisecond, func() { cancel(&Signal{Sig: os.Interrupt}) })
+	res, err := s.run(ctx)
+	var intr *Interrupted
+	if res != nil || !errors.As(err, &intr) || intr.ExitCode() != 130 || !strings.Contains(err.Error(), "while connecting; nothing was recorded") {
+		t.Errorf("result %v, error %v: want an interruption while connecting", res, err)
+	}
+	if left, _ := os.ReadDir(dir); len(left) > 0 {
+		t.Errorf("files left: %v", left)
+	}
+}
+
+// panickySink panics on its third status.
+type panickySink struct{ n int }
+
+func (p *panickySink) Show(Status) {
+	if p.n++; p.n == 3 {
+		panic("status sink broke")
+	}
+}
+func (p *panickySink) Clear() {}
+
+// TestRunPanicStopsRotator: a panic in one of the capture's goroutines
+// ends the capture with an error, not a crash, and the rotator (Hamlib
+// rotctld 4.5.4 dummy, mid-sweep to 90°) is still told to stop.
+func TestRunPanicStopsRotator(t *testing.T) {
+	t.Parallel()
+	addr, _ := testtool.Rotctld(t)
+	o := testOptions(20000)
+	o.Rotator, o.Plan, o.Status = addr, &SweepPlan{FromDeg: 0, ToDeg: 90}, &panickySink{}
+	var notes []string
+	o.Notes = func(s string) { notes = append(notes, s) }
+	res, err := runWith(t, context.Background(), o, newPacedSource(20000, -1, nil), nil)
+	if res != nil || err == nil || !strings.Contains(err.Error(), "internal error") || !strings.Contains(err.Error(), "status sink broke") {
+		t.Fatalf("result %v, error %v: want an internal error", res, err)
+	}
+	if last := notes[len(notes)-1]; !strings.Contains(last, "panickySink") {
+		t.Errorf("the panic's stack was not shown: %q", last)
+	}
+	if az := rotatorStill(t, addr, 20); az > 10 {
+		t.Errorf("rotator at %.1f°, want it stopped near where the panic came (0.75 s in)", az)
 	}
 }
