@@ -202,6 +202,10 @@ func (f *liveFlags) live(c *cobra.Command, target string, body func(*cobra.Comma
 	}
 	c.SetContext(ctx)
 	berr := body(c, recording{path: res.Meta, track: res.Track})
+	if berr != nil && !res.Kept {
+		// The body names its recording; a temporary one is gone by now.
+		berr = errors.New(strings.ReplaceAll(berr.Error(), res.Meta, "the live capture"))
+	}
 	if ctx.Err() != nil {
 		return res.InterruptedAnalysis(context.Cause(ctx))
 	}
