@@ -507,3 +507,32 @@ func TestLiveUnreachable(t *testing.T) {
 		t.Errorf("files left behind: %v", left)
 	}
 }
+
+// TestLiveHelp: the live flags' help says --iq-latency's default in words,
+// not as the value "rtl_tcp", and names its value as seconds; the former
+// value is still accepted.
+func TestLiveHelp(t *testing.T) {
+	t.Parallel()
+	r := runNullseek(t, "", "bearing", "--help")
+	if r.code != 0 {
+		t.Fatalf("exit %d\n%s", r.code, r.stderr)
+	}
+	var line string
+	for _, l := range strings.Split(r.stdout, "\n") {
+		if strings.Contains(l, "--iq-latency") {
+			line = l
+		}
+	}
+	if !strings.Contains(line, "--iq-latency seconds") || !strings.Contains(line, "(default: measured from the stream") || strings.Contains(line, `"rtl_tcp"`) {
+		t.Errorf("--iq-latency help: %q", line)
+	}
+	for _, w := range []string{"Ctrl-C", "130 or 143", "status line"} {
+		if !strings.Contains(r.stdout, w) {
+			t.Errorf("bearing --help does not mention %q", w)
+		}
+	}
+	// Nothing listens on port 1: the flags are accepted and the receiver
+	// is what fails.
+	r = runNullseek(t, "", "bearing", "rtl_tcp://127.0.0.1:1", "--iq-latency", "rtl_tcp", "--duration", "1", "--turn", "0:30", "--freq", "145.5M")
+	oneLine(t, r, "rtl_tcp", "127.0.0.1:1")
+}
