@@ -19,6 +19,7 @@ import (
 // implements sdr.Source and sdr.CU8Reader (the scanner's fast path).
 type cycleSource struct {
 	info  sdr.Info
+	lead  []byte // cu8 delivered once before buf (may be empty)
 	buf   []byte // one second of cu8
 	pos   int    // byte position in buf
 	left  int64  // bytes still to deliver
@@ -55,6 +56,33 @@ func newCycleSource(rate, totalS float64) *cycleSource {
 func (s *cycleSource) Info() sdr.Info { return s.info }
 func (s *cycleSource) Close() error   { return nil }
 
+// newCarrierSource is a cycleSource whose carrier never goes off after
+// leadS seconds of noise alone: the same FM-like carrier as
+// newCycleSource's bursts (its 800 Hz modulation and the 20 kHz offset
+// make whole cycles in the one-second loop, so the phase runs on).
+func newCarrierSource(rate, leadS, totalS float64) *cycleSource {
+	n := int(rate)
+	rng := rand.New(rand.NewSource(2))
+	const noiseSigma = 0.02
+	q := func(v float64) byte { return byte(math.Max(0, math.Min(255, math.Round(127.5+127.5*v)))) }
+	lead := make([]byte, 2*int(leadS*rate))
+	for i := range lead {
+		lead[i] = q(noiseSigma * rng.NormFloat64())
+	}
+	buf := make([]byte, 2*n)
+	for i := 0; i < n; i++ {
+		t := float64(i) / rate
+		ph := 2*math.Pi*memOffsetHz*t - 2500/800*math.Cos(2*math.Pi*800*t)
+		buf[2*i] = q(0.3*math.Cos(ph) + noiseSigma*rng.NormFloat64())
+		buf[2*i+1] = q(0.3*math.Sin(ph) + noiseSigma*rng.NormFloat64())
+	}
+	total := int64(totalS*rate) * 2
+	return &cycleSource{
+		info: sdr.Info{SampleRate: rate, Format: "cu8", Name: "carrier test stream", Samples: total / 2, ClipLevel: 1},
+		lead: lead, buf: buf, left: total, total: total,
+	}
+}
+
 func (s *cycleSource) ReadCU8(dst []byte) (int, error) {
 	if s.left <= 0 {
 		return 0, io.EOF
@@ -64,6 +92,9 @@ func (s *cycleSource) ReadCU8(dst []byte) (int, error) {
 		dst = dst[:s.left]
 	}
 	k := 0
+	if done := s.total - s.left; done < int64(len(s.lead)) {
+		k = copy(dst, s.lead[done:])
+	}
 	for k < len(dst) {
 		c := copy(dst[k:], s.buf[s.pos:])
 		k += c
@@ -148,6 +179,69 @@ func TestMemoryFlat(t *testing.T) {
 	}
 	if live10 > live1+256<<10 {
 		t.Errorf("live heap after GC grew from %.2f MiB to %.2f MiB", float64(live1)/mib, float64(live10)/mib)
+	}
+}
+
+// TestMemoryContinuousCarrier: a carrier that stays on is one burst,
+// delivered in pieces with its audio, and the scanner's memory does not
+// grow with it: ten minutes of carrier peak within 20 % of one minute's
+// (the bound the project asks of an hour; BenchmarkSurveyMemory in survey
+// measures the hour, with identification). Input at 240 kS/s, the lowest
+// RTL-SDR rate band (librtlsdr rtl-sdr.h: 225001–300000 S/s). The one-minute
+// burst is under the 60 s keep cap, so it keeps its track and audio; the
+// ten-minute one does not, and its pieces carry everything.
+func TestMemoryContinuousCarrier(t *testing.T) {
+	const rate = 240e3
+	run := func(totalS float64) (peak uint64, bursts []*Burst, pieces int) {
+		src := newCarrierSource(rate, 2, totalS)
+		// NoiseWindowS: this scanner's floor tracker follows a carrier that
+		// outlasts its window; a window longer than the input keeps it on
+		// the noise of the first seconds.
+		sc, err := NewScanner(src.Info(), Config{OffsetHz: memOffsetHz, KeepAudio: true, NoiseWindowS: 700})
+		if err != nil {
+			t.Fatal(err)
+		}
+		runtime.GC()
+		var ms runtime.MemStats
+		runtime.ReadMemStats(&ms)
+		base := ms.HeapInuse
+		blocks := 0
+		h := Handler{
+			Piece: func(p *Piece) error {
+				if len(p.FMAudio) == 0 || len(p.Level) == 0 {
+					t.Errorf("piece %d of burst %d has %d audio samples and %d readings", p.Seq, p.Burst, len(p.FMAudio), len(p.Level))
+				}
+				pieces++
+				return nil
+			},
+			Burst: func(b *Burst) error { bursts = append(bursts, b); return nil },
+			Progress: func(int64) {
+				if blocks++; blocks%4 == 0 {
+					runtime.ReadMemStats(&ms)
+					peak = max(peak, ms.HeapInuse-min(base, ms.HeapInuse))
+				}
+			},
+		}
+		if _, err := sc.Scan(context.Background(), src, h); err != nil {
+			t.Fatal(err)
+		}
+		return peak, bursts, pieces
+	}
+	peak1, b1, p1 := run(60)
+	peak10, b10, p10 := run(600)
+	const mib = 1 << 20
+	t.Logf("60 s: peak %.1f MiB over the start, %d pieces; 600 s: peak %.1f MiB, %d pieces", float64(peak1)/mib, p1, float64(peak10)/mib, p10)
+	if len(b1) != 1 || len(b10) != 1 {
+		t.Fatalf("%d and %d bursts, want one each", len(b1), len(b10))
+	}
+	if b1[0].LevelTruncated || b1[0].AudioTruncated || !b10[0].LevelTruncated || !b10[0].AudioTruncated || b10[0].Level != nil {
+		t.Errorf("kept tracks: 1 min truncated %v/%v, 10 min %v/%v", b1[0].LevelTruncated, b1[0].AudioTruncated, b10[0].LevelTruncated, b10[0].AudioTruncated)
+	}
+	if b10[0].Pieces != p10 || p10 < 49 {
+		t.Errorf("10 min: %d pieces (burst says %d), want about 50", p10, b10[0].Pieces)
+	}
+	if float64(peak10) > 1.2*float64(peak1) {
+		t.Errorf("10-minute carrier peaks at %.1f MiB, more than 1.2 × the 1-minute %.1f MiB", float64(peak10)/mib, float64(peak1)/mib)
 	}
 }
 
