@@ -213,13 +213,13 @@ func TestLiveReceiverCut(t *testing.T) {
 	c, o, e := startNullseek(t, tmp, "bearing", "rtl_tcp://"+rig.rtlAddr, "--rotator", rig.rotAddr, "--sweep", "0:150",
 		"--freq", "145.5M", "--center", "145.45M", "--rate", "250k", "--gain", "20", "--no-ident", "--antenna", "yagi",
 		"--record", rec, "--json")
-	// 0° → 105° covers the main lobe around the truth (60° beamwidth).
-	rig.waitAz(t, 105, 40*time.Second, c, o, e)
+	// 0° → 125° covers the main lobe around the truth (60° beamwidth) and
+	// the 90° the fit asks for, with room for a receiver that lags.
+	rig.waitAz(t, 125, 45*time.Second, c, o, e)
 	cutAt := time.Now()
 	rig.stopServer()
 	r := waitNullseek(t, c, o, e)
 	line := errorLine(t, r)
-	t.Logf("stderr:\n%s", r.stderr)
 	a0, a1 := rotatorAt(t, rig.rotAddr)
 	if r.code != 1 {
 		t.Errorf("exit status %d, want 1", r.code)
@@ -229,7 +229,7 @@ func TestLiveReceiverCut(t *testing.T) {
 			t.Errorf("error line does not mention %q", w)
 		}
 	}
-	if math.Abs(a1-a0) > 0.05 || a1 > 125 {
+	if math.Abs(a1-a0) > 0.05 || a1 > 145 {
 		t.Errorf("rotator not stopped after the receiver fault: %.2f° then %.2f°", a0, a1)
 	}
 	// The first N seconds: the bytes sent until the server closed.
@@ -252,7 +252,7 @@ func TestLiveReceiverCut(t *testing.T) {
 		}
 	}
 	if got == nil || got["bearing_deg"] == nil {
-		t.Fatalf("the kept part was not analysed into a bearing:\n%s", r.stdout)
+		t.Fatalf("the kept part was not analysed into a bearing:\n%s\nstderr:\n%s", r.stdout, r.stderr)
 	}
 	b, sig := got["bearing_deg"].(float64), got["sigma_deg"].(float64)
 	// The truth is the bearing the test receiver was built with; the
