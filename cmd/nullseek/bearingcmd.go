@@ -20,6 +20,7 @@ func init() {
 	var in inputFlags
 	var idf identFlags
 	var hf headingFlags
+	var lf liveFlags
 	var asJSON bool
 	var plot, lopCSV string
 	cmd := &cobra.Command{
@@ -32,22 +33,22 @@ bearing when the pattern is ambiguous (a loop's two nulls), the null depth
 and the sweep coverage, per burst and combined per transmitter. It refuses
 rather than invents a bearing when the sweep cannot support one.`,
 		Args: cobra.ExactArgs(1),
-		RunE: func(cmd *cobra.Command, args []string) error {
+		RunE: lf.run(func(cmd *cobra.Command, rec recording) error {
 			notes := func(s string) { fmt.Fprintln(os.Stderr, s) }
 			pat, err := hf.pattern()
 			if err != nil {
 				return err
 			}
 			fo := bearing.FitOptions{}
-			res, tr, err := hf.surveyWithTrack(cmd.Context(), args[0], &in, &idf, pat, fo, notes)
+			res, tr, err := hf.surveyWithTrack(cmd.Context(), rec, &in, &idf, pat, fo, notes)
 			if err != nil {
 				return err
 			}
 			if len(res.Records) == 0 {
-				return fmt.Errorf("%s: no bursts found, so no bearing", args[0])
+				return fmt.Errorf("%s: no bursts found, so no bearing", rec.path)
 			}
 			bbs, txs := survey.Bearings(res, tr, pat, fo, hf.siteSigma)
-			if err := noBearing(args[0], bbs, txs); err != nil {
+			if err := noBearing(rec.path, bbs, txs); err != nil {
 				return err
 			}
 			if plot != "" {
@@ -75,7 +76,7 @@ rather than invents a bearing when the sweep cannot support one.`,
 				return nil
 			}
 			return survey.WriteBearingTable(os.Stdout, bbs, txs)
-		},
+		}),
 	}
 	in.add(cmd)
 	idf.add(cmd)
@@ -84,7 +85,7 @@ rather than invents a bearing when the sweep cannot support one.`,
 	cmd.Flags().BoolVar(&asJSON, "json", false, "one JSON object per burst and per transmitter")
 	cmd.Flags().StringVar(&plot, "plot", "", "write a polar plot per transmitter: PREFIX.png or PREFIX.svg becomes PREFIX-IDENT.png")
 	cmd.Flags().StringVar(&lopCSV, "bearings-csv", "", "write the transmitters' bearings as a CSV that `nullseek fix` reads (needs --station)")
-	addLive(cmd, &in, &idf, &hf) // live receiver and rotator sweep: live.go
+	lf.add(cmd, &in, &idf, &hf) // live receiver, rotator or compass: live.go
 	rootCmd.AddCommand(cmd)
 }
 
