@@ -492,12 +492,16 @@ func (c *Channelizer) Response(fHz float64) float64 {
 	rate := c.inRate
 	for _, s := range c.stages {
 		w := 2 * math.Pi * fHz / rate
-		mid := float64(len(s.taps)-1) / 2
-		var a float64 // the taps are symmetric: a real amplitude about mid
-		for k, h := range s.taps {
-			a += h * math.Cos(w*(float64(k)-mid))
+		// Σ h[k]·e^{−jwk}, the phasor stepped by one multiply per tap
+		// (rounding error ~1e−13 over a few thousand taps)
+		step := complex(math.Cos(w), -math.Sin(w))
+		ph := complex(1, 0)
+		var a complex128
+		for _, h := range s.taps {
+			a += complex(h, 0) * ph
+			ph *= step
 		}
-		g *= a * a
+		g *= real(a)*real(a) + imag(a)*imag(a)
 		rate /= float64(s.d)
 	}
 	return g
@@ -536,16 +540,20 @@ func (c *Channelizer) NoiseACF(maxLag int) []float64 {
 		resp[i] = c.Response((float64(i)+0.5)*df - c.outRate/2)
 	}
 	out := make([]float64, max(maxLag, 1))
-	for m := range out {
-		if m >= n/2 {
-			break
+	lags := min(len(out), n/2)
+	for i, r := range resp {
+		// Σ over lags of r·cos(2πfm/rate), the phasor stepped per lag
+		f := (float64(i)+0.5)*df - c.outRate/2
+		w := 2 * math.Pi * f / c.outRate
+		step := complex(math.Cos(w), math.Sin(w))
+		ph := complex(1, 0)
+		for m := 0; m < lags; m++ {
+			out[m] += r * real(ph)
+			ph *= step
 		}
-		var s float64
-		for i, r := range resp {
-			f := (float64(i)+0.5)*df - c.outRate/2
-			s += r * math.Cos(2*math.Pi*f*float64(m)/c.outRate)
-		}
-		out[m] = s * df
+	}
+	for m := range out[:lags] {
+		out[m] *= df
 	}
 	return out
 }
