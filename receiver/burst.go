@@ -59,7 +59,8 @@ type Burst struct {
 	// the noise density found beside the signal (dsp.BandNoise) times the
 	// channel filter's noise bandwidth, dBFS. SNRDB is the carrier's power
 	// (LevelDB less the noise) over the noise in SNRBandwidthHz (12.5 kHz),
-	// so it reads the channel's CNR; −99 when no carrier is measurable.
+	// so it reads the channel's CNR; −Inf when no carrier is measurable
+	// (survey's outputs print that as null).
 	NoiseDB float64 `json:"noise_dbfs"`
 	SNRDB   float64 `json:"snr_db"`
 	// Clipped is the share of raw samples at the ADC's rails.

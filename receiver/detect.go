@@ -812,7 +812,7 @@ func (s *Scanner) forceBurst(c segment, index int, keyed bool, unitS float64, ow
 	if mean > noise {
 		bu.SNRDB = 10 * math.Log10((mean-noise)/noise*s.enbw/SNRBandwidthHz)
 	} else {
-		bu.SNRDB = -99
+		bu.SNRDB = math.Inf(-1) // no carrier measurable; outputs print it as null
 	}
 	if s.info.CenterHz != 0 {
 		bu.FreqHz = s.info.CenterHz + bu.OffsetHz
