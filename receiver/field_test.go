@@ -143,7 +143,8 @@ func itoa(n int) string {
 // TestWeakBursts: FM bursts (1–2.5 s, 2–3.5 s apart) at 0 to 5 dB CNR, 20
 // per 1 dB bucket. The bounds: recall ≥ 0.9 at 2–5 dB and ≥ 0.5 at
 // 0–2 dB, edges within 20 ms. A burst counts as found when one detected
-// burst overlaps it by more than half its length; its edge errors are that
+// burst overlaps it by more than half its length; its edge errors and
+// SNR error (against the burst's CNR; rms ≤ 1 dB per bucket) are that
 // burst's. Detections overlapping no burst are false alarms: none allowed
 // (noise alone starts far fewer than one an hour; TestNoiseHour).
 func TestWeakBursts(t *testing.T) {
@@ -153,7 +154,7 @@ func TestWeakBursts(t *testing.T) {
 		tr := readTruth(t, base+".json")
 		got, _ := scanField(t, base+".cu8", tr, Config{})
 		found := 0
-		var errs []float64
+		var errs, snrErr []float64
 		used := make([]bool, len(got))
 		for _, w := range tr.Bursts {
 			for i, g := range got {
@@ -162,6 +163,7 @@ func TestWeakBursts(t *testing.T) {
 					found++
 					used[i] = true
 					errs = append(errs, math.Abs(g.StartS-w.StartS), math.Abs(g.EndS-w.EndS))
+					snrErr = append(snrErr, g.SNRDB-w.CNRDB)
 					if math.Abs(g.StartS-w.StartS) > 0.02 || math.Abs(g.EndS-w.EndS) > 0.02 {
 						t.Logf("burst %.3f–%.3f s at %.2f dB found as %.3f–%.3f s", w.StartS, w.EndS, w.CNRDB, g.StartS, g.EndS)
 					}
@@ -181,8 +183,20 @@ func TestWeakBursts(t *testing.T) {
 		if len(errs) > 0 {
 			worst, med = errs[len(errs)-1], errs[len(errs)/2]
 		}
-		t.Logf("%d–%d dB CNR: recall %.2f (%d/%d), edge error median %.1f ms, worst %.1f ms, %d unmatched detections",
-			b, b+1, recall, found, len(tr.Bursts), med*1e3, worst*1e3, false_)
+		var bias, rms float64
+		for _, e := range snrErr {
+			bias += e
+			rms += e * e
+		}
+		bias /= float64(max(len(snrErr), 1))
+		rms = math.Sqrt(rms / float64(max(len(snrErr), 1)))
+		t.Logf("%d–%d dB CNR: recall %.2f (%d/%d), edge error median %.1f ms, worst %.1f ms, SNR error mean %+.2f dB rms %.2f dB, %d unmatched detections",
+			b, b+1, recall, found, len(tr.Bursts), med*1e3, worst*1e3, bias, rms, false_)
+		// SNR over 1–2.5 s at 0–5 dB: the 1 dB bound for the
+		// continuous carrier, here as an rms over the bucket
+		if rms > 1 {
+			t.Errorf("%d–%d dB: SNR error rms %.2f dB, want ≤ 1", b, b+1, rms)
+		}
 		want := 0.9
 		if b < 2 {
 			want = 0.5
