@@ -26,6 +26,12 @@ type LevelSample struct {
 	LevelDB float64 `json:"level_dbfs"`
 	// Clipped counts the raw samples at the ADC's rails during the reading.
 	Clipped int `json:"clipped,omitempty"`
+	// KeyUp marks, in a keyed transmission (Burst.Keyed), a reading that
+	// is not wholly key-down: in a gap between Morse marks or across a
+	// mark's edge. Its level is the noise, or part of the carrier, not the
+	// carrier: leave it out of anything that fits the carrier's level.
+	// Always false outside keyed transmissions.
+	KeyUp bool `json:"key_up,omitempty"`
 }
 
 // Burst is one transmission found in the channel, handed over when it has
@@ -44,11 +50,21 @@ type Burst struct {
 	End         time.Time `json:"-"`
 	OffsetHz    float64   `json:"offset_hz"`
 	FreqHz      float64   `json:"freq_hz,omitempty"`
-	LevelDB     float64   `json:"level_dbfs"`
-	PeakDB      float64   `json:"peak_dbfs"`
-	NoiseDB     float64   `json:"noise_dbfs"`
-	SNRDB       float64   `json:"snr_db"`
-	Clipped     float64   `json:"clipped"`
+	// LevelDB is the mean channel power over the burst, two readings in
+	// from each edge (key-down readings only when Keyed), and PeakDB its
+	// highest reading, dBFS.
+	LevelDB float64 `json:"level_dbfs"`
+	PeakDB  float64 `json:"peak_dbfs"`
+	// NoiseDB is the noise power the level readings carry over the burst:
+	// the noise density found beside the signal (dsp.BandNoise) times the
+	// channel filter's noise bandwidth, dBFS. SNRDB is the carrier's power
+	// (LevelDB less the noise) over the noise in SNRBandwidthHz (12.5 kHz),
+	// so it reads the channel's CNR; −Inf when no carrier is measurable
+	// (survey's outputs print that as null).
+	NoiseDB float64 `json:"noise_dbfs"`
+	SNRDB   float64 `json:"snr_db"`
+	// Clipped is the share of raw samples at the ADC's rails.
+	Clipped float64 `json:"clipped"`
 	// CutAtStart and CutAtEnd say the recording began or ended during the
 	// burst: its start or end is the recording's, not the transmitter's.
 	CutAtStart bool `json:"cut_at_start,omitempty"`
@@ -58,6 +74,13 @@ type Burst struct {
 	// CarrierSpreadHz is the spread of one-second carrier estimates.
 	DoubleCarrier   bool    `json:"double_carrier,omitempty"`
 	CarrierSpreadHz float64 `json:"carrier_spread_hz"`
+	// Keyed says the transmission is on/off keyed Morse (a keyed carrier,
+	// or a carrier keyed by the marks of an MCW identifier), its marks
+	// joined into one burst; KeyUnitS is the dot length its key-down
+	// intervals fit. Its level, SNR and offset are the key-down readings';
+	// its level track marks the others KeyUp.
+	Keyed    bool    `json:"keyed,omitempty"`
+	KeyUnitS float64 `json:"key_unit_s,omitempty"`
 	// Pieces is how many pieces the transmission was delivered in (0 when
 	// the scan had no piece handler).
 	Pieces int `json:"pieces,omitempty"`
@@ -98,6 +121,9 @@ type Piece struct {
 	Burst int
 	Seq   int
 	Last  bool
+	// Keyed says the burst is a keyed transmission (see Burst.Keyed); its
+	// Level then marks key-up readings.
+	Keyed bool
 	// StartSample and EndSample (input-rate sample indices) and StartS and
 	// EndS (seconds) bound the piece: from the start of its first reading
 	// to the end of its last. StartS can be negative, by less than the
@@ -111,7 +137,8 @@ type Piece struct {
 	// start edge (its StartS) in the first piece and its end edge (EndS)
 	// in the last; the piece's own StartS and EndS otherwise.
 	OnS, OffS float64
-	// NoiseDB is the noise floor the burst is judged against, dBFS.
+	// NoiseDB is the mean noise power the piece's readings carry, dBFS
+	// (as Burst.NoiseDB).
 	NoiseDB float64
 	// Level holds every reading of the piece, above the threshold or not.
 	Level []LevelSample

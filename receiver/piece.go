@@ -91,49 +91,90 @@ func (b *pieceBuf) keepLast(n, readN int) {
 	}
 }
 
-// emitPiece hands the piece buffer to Handler.Piece and, unless it was the
-// last, keeps the overlap for the next piece.
-func (s *Scanner) emitPiece(last bool) {
-	b := &s.b
+func (p *preRoll) cap() int { return len(p.rd) }
+
+// groupStartS is the open group's start edge, seconds.
+func (s *Scanner) groupStartS() float64 {
+	g := &s.g
+	c := &g.cur
+	switch {
+	case g.aggN > 0:
+		c = &g.agg
+	case len(g.segs) > 0:
+		c = &g.segs[0]
+	case !c.startKnown:
+		s.segmentStart(c)
+	}
+	if c.cutStart {
+		return 0
+	}
+	return s.edgeTime(c.startIdx)
+}
+
+// emitPiece hands the piece buffer to Handler.Piece as the open group's
+// next piece and, unless it was the last, keeps the overlap for the next
+// one. onS and offS are the burst's edges for the last piece.
+func (s *Scanner) emitPiece(last bool, edges ...float64) {
+	g := &s.g
 	pc := &s.pc
 	if len(pc.rd) == 0 {
 		return
 	}
-	s.levels = s.levels[:0]
-	for _, r := range pc.rd {
-		s.levels = append(s.levels, s.levelSample(r))
+	first, end := s.edgeTime(float64(pc.rd[0].idx)), s.edgeTime(float64(pc.rd[len(pc.rd)-1].idx+1))
+	onS, offS := first, end
+	if g.pieces == 0 {
+		onS = s.groupStartS()
 	}
-	first, end := pc.rd[0].idx, pc.rd[len(pc.rd)-1].idx+1
+	if last && len(edges) == 2 {
+		onS = max(onS, edges[0])
+		if g.pieces == 0 {
+			onS = edges[0]
+		}
+		offS = edges[1]
+	}
+	s.sendPiece(pc.rd, pc.fm, pc.am, g.index, g.pieces, last, g.keyed, onS, offS)
+	g.pieces++
+	if !last {
+		pc.keepLast(s.overlapN, s.readN)
+	}
+}
+
+// sendPiece builds the Piece for readings rd (with their audio) and hands
+// it over.
+func (s *Scanner) sendPiece(rd []reading, fm, am []float32, burst, seq int, last, keyed bool, onS, offS float64) {
+	s.levels = s.levels[:0]
+	var noise float64
+	for i, r := range rd {
+		l := s.levelSample(r)
+		if keyed {
+			l.KeyUp = !(r.on && (i == 0 || rd[i-1].on) && (i+1 == len(rd) || rd[i+1].on))
+		}
+		s.levels = append(s.levels, l)
+		noise += r.noise
+	}
 	p := &s.piece
 	*p = Piece{
-		Burst:         b.index,
-		Seq:           b.pieces,
+		Burst:         burst,
+		Seq:           seq,
 		Last:          last,
-		StartS:        s.edgeTime(float64(first)),
-		EndS:          s.edgeTime(float64(end)),
-		NoiseDB:       dsp.DBFS(b.noise),
+		Keyed:         keyed,
+		StartS:        s.edgeTime(float64(rd[0].idx)),
+		EndS:          s.edgeTime(float64(rd[len(rd)-1].idx + 1)),
+		NoiseDB:       dsp.DBFS(noise / float64(len(rd))),
 		Level:         s.levels,
 		ChannelRateHz: s.outRate,
+		OnS:           onS,
+		OffS:          offS,
 	}
 	p.StartSample = int64(math.Round(p.StartS * s.info.SampleRate))
 	p.EndSample = int64(math.Round(p.EndS * s.info.SampleRate))
-	p.OnS, p.OffS = p.StartS, p.EndS
-	if b.pieces > 0 {
+	if seq > 0 {
 		p.OverlapS = float64(s.overlapN) * s.readingS()
-	} else {
-		p.OnS = s.startEdge()
 	}
-	if last {
-		p.OffS = b.endS
+	if s.cfg.KeepAudio && len(fm) == len(rd)*s.readN {
+		p.FMAudio, p.AMAudio = fm, am
 	}
-	if s.cfg.KeepAudio && !b.noAudio {
-		p.FMAudio, p.AMAudio = pc.fm, pc.am
-	}
-	b.pieces++
 	if s.err == nil {
 		s.err = s.h.Piece(p)
-	}
-	if !last {
-		pc.keepLast(s.overlapN, s.readN)
 	}
 }

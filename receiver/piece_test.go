@@ -58,9 +58,7 @@ func TestPiecesOfLongBurst(t *testing.T) {
 		return &toneSource{rate: rate, offsetHz: 5300, amp: 0.1, sigma: 0.01,
 			on: [][2]float64{{on0, on1}}, total: int64(total * rate), rng: rand.New(rand.NewSource(7))}
 	}
-	// NoiseWindowS: the floor tracker of this scanner follows a carrier
-	// that outlasts its window; a long window keeps it on the noise here.
-	cfg := Config{OffsetHz: 5000, KeepAudio: true, NoiseWindowS: 120}
+	cfg := Config{OffsetHz: 5000, KeepAudio: true}
 	pieces, bursts := scanPieces(t, mk(), cfg)
 	if len(bursts) != 1 {
 		t.Fatalf("%d bursts, want 1", len(bursts))
@@ -101,7 +99,7 @@ func TestPiecesOfLongBurst(t *testing.T) {
 		if p.Level[0].T < p.StartS || p.Level[len(p.Level)-1].T > p.EndS {
 			t.Errorf("piece %d: readings %.4f–%.4f s outside it", i, p.Level[0].T, p.Level[len(p.Level)-1].T)
 		}
-		if math.Abs(p.NoiseDB-b.NoiseDB) > 1e-9 {
+		if math.Abs(p.NoiseDB-b.NoiseDB) > 0.1 { // the estimate moves a little with time
 			t.Errorf("piece %d noise %.2f dBFS, burst %.2f", i, p.NoiseDB, b.NoiseDB)
 		}
 		// the piece's audio is the burst's, instant for instant

@@ -18,10 +18,13 @@ type Summary struct {
 	DurationS      float64 `json:"duration_s"`
 	Bursts         int     `json:"bursts"`
 	ClippedSamples int64   `json:"clipped_samples"`
-	NoiseDB        float64 `json:"noise_dbfs"`
-	OffsetHz       float64 `json:"offset_hz"`
-	FreqHz         float64 `json:"freq_hz,omitempty"`
-	ChannelRateHz  float64 `json:"channel_rate_hz"`
+	// NoiseDB is the last noise estimate: the noise power a level reading
+	// carries, in NoiseBandwidthHz (the channel filter's noise bandwidth).
+	NoiseDB          float64 `json:"noise_dbfs"`
+	NoiseBandwidthHz float64 `json:"noise_bandwidth_hz"`
+	OffsetHz         float64 `json:"offset_hz"`
+	FreqHz           float64 `json:"freq_hz,omitempty"`
+	ChannelRateHz    float64 `json:"channel_rate_hz"`
 	// InBurstAtStart is true when the recording began inside a
 	// transmission: the noise floor could not be seen first, so that
 	// first burst is reported from where the floor was found.
@@ -34,7 +37,8 @@ type reading struct {
 	p     float64    // mean channel power, linear (full-scale sine = 1)
 	r1    complex128 // lag-1 autocorrelation sum (carrier frequency)
 	clip  int        // clipped raw samples in the reading's input span
-	noise float64    // noise floor, linear, when the reading was taken
+	noise float64    // noise power a reading carries, linear, at its time
+	on    bool       // the detector judged the channel occupied
 }
 
 // Scanner is the streaming front end and burst detector for one channel.
@@ -52,12 +56,23 @@ type Scanner struct {
 
 	ch      *dsp.Channelizer
 	disc    dsp.FMDiscriminator
-	nf      *dsp.NoiseFloor
 	dec     int
 	outRate float64
 	readN   int // channel samples per reading
 	chunkIn int // input samples per reading
 	delayIn float64
+
+	// noise: the density beside the signal, and what a reading carries
+	bn         *dsp.BandNoise
+	enbw       float64 // channel filter noise bandwidth, Hz
+	noiseLag1  float64 // a reading's lag-1 sum of noise alone, per unit of its noise power
+	noiseLin   float64 // noise power of one reading, linear
+	noiseReady bool
+	cf         cfarDesign
+	pw         []float64 // the last len(pw) readings' powers (ring)
+	wsum       []float64 // their sums over each detection window
+	nRead      int64     // readings seen
+	since      int64     // detection windows start at or after this reading
 
 	// scratch, reused block after block
 	raw   []byte
@@ -68,28 +83,27 @@ type Scanner struct {
 	prev  complex64
 
 	// pre-roll: the readings (and their audio) since the last burst, up to
-	// PreRollS, oldest at pre.start()
+	// PreRollS
 	pre preRoll
 
-	// the open burst and its bounded buffers
-	open                    bool
-	b                       burstBuild
-	pc                      pieceBuf
-	keep                    pieceBuf  // the burst's level and audio up to MaxKeepS
-	hist                    []reading // ring of the last len(hist) readings of the burst
-	sortQ                   []float64 // scratch for the cut burst's floor
-	piece                   Piece     // handed to Handler.Piece, reused
-	levels                  []LevelSample
-	pieceN, overlapN, keepN int
+	// the open group and its bounded buffers
+	open        bool
+	g           group
+	quiet       int64     // readings judged off since the last one on
+	mergeN      int64     // readings of quiet that close a segment
+	pc          pieceBuf  // the piece being filled
+	keep        pieceBuf  // the group's level and audio up to MaxKeepS
+	hist        []reading // ring of the last len(hist) readings
+	markScratch []mark
+	piece       Piece // handed to Handler.Piece, reused
+	levels      []LevelSample
+	pieceN      int
+	overlapN    int
+	keepN       int
 
-	// detector state
-	quietRuns int
 	nBursts   int
-	noiseDB   float64 // the noise floor's latest estimate, dB
 	clipTotal int64
-	sawQuiet  bool
-	startup   []reading // readings before the floor is known to be noise
-	atEnd     bool      // the stream has ended: an open burst is cut by it
+	atEnd     bool // the stream has ended: an open burst is cut by it
 	summary   Summary
 	h         Handler
 	err       error // first error returned by a handler
@@ -124,7 +138,26 @@ func NewScanner(info sdr.Info, cfg Config) (*Scanner, error) {
 	s.chunkIn = s.readN * s.dec
 	s.disc = dsp.FMDiscriminator{Gain: 1}
 	readingsPerS := s.outRate / float64(s.readN)
-	s.nf = dsp.NewNoiseFloor(readingsPerS, cfg.NoiseWindowS)
+	// noise: ~47 Hz bins at 48 kS/s; bins where the filter passes at least
+	// half the power
+	nfft := 1
+	for float64(nfft) < s.outRate/50 {
+		nfft *= 2
+	}
+	s.bn, err = dsp.NewBandNoise(s.outRate, nfft, ch.Response, 0.5, cfg.NoiseAverageS)
+	if err != nil {
+		return nil, fmt.Errorf("noise estimate: %w", err)
+	}
+	acf := ch.NoiseACF(64)
+	s.enbw = acf[0]
+	// the filtered noise correlates with itself (real: the filter is
+	// symmetric about the channel centre); the carrier estimate takes that
+	// part of the lag-1 sum off, or weak carriers read towards the centre
+	s.noiseLag1 = float64(s.readN) * acf[1] / acf[0]
+	s.cf = newCFAR(acf, s.readN, readingsPerS, cfg.FalseAlarmsPerHour)
+	maxW := s.cf.scales[len(s.cf.scales)-1]
+	s.pw = make([]float64, maxW+1)
+	s.wsum = make([]float64, len(s.cf.scales))
 	// Blocks of about 50 ms of input, a whole number of readings.
 	per := int(math.Max(1, math.Round(0.05*readingsPerS)))
 	s.iq = make([]complex64, per*s.chunkIn)
@@ -134,12 +167,15 @@ func NewScanner(info sdr.Info, cfg Config) (*Scanner, error) {
 	s.am = make([]float32, 0, per*s.readN+16)
 
 	rs := s.readingS()
-	s.pre = newPreRoll(max(preReadings, int(math.Ceil(PreRollS/rs))), s.readN, cfg.KeepAudio)
+	warmS := float64(warmFrames*2*nfft) / s.outRate // analysed frames, one in two
+	s.pre = newPreRoll(max(8, int(math.Ceil(math.Max(PreRollS, warmS+0.05)/rs))), s.readN, cfg.KeepAudio)
 	s.pieceN = max(2, int(math.Round(cfg.PieceS/rs)))
 	s.overlapN = min(s.pieceN/2, max(1, int(math.Round(cfg.PieceOverlapS/rs))))
 	s.keepN = int(math.Ceil((PreRollS + cfg.MaxKeepS + 0.2) / rs))
-	// the quiet that closes a burst, and the edge readings either side
-	s.hist = make([]reading, int(math.Ceil(cfg.MergeGapS/rs))+16)
+	s.mergeN = max(1, int64(math.Ceil(cfg.MergeGapS/rs-1e-9)))
+	// the history covers a segment's pre-roll and start, or its end and
+	// the quiet that closed it
+	s.hist = make([]reading, s.pre.cap()+int(s.mergeN)+4*maxW+64)
 
 	s.summary.OffsetHz = off
 	if info.CenterHz != 0 {
@@ -261,6 +297,14 @@ func (s *Scanner) reading(firstIn int64, clip int) {
 		fm, am = s.fm, s.am
 	}
 	s.prev = prev
+	s.bn.Add(x)
+	if n0, sd, ok := s.bn.Density(); ok {
+		s.noiseLin = n0 * s.enbw
+		s.cf.setNoiseSD(sd)
+		if !s.noiseReady && s.bn.Frames() >= warmFrames {
+			s.startNoise()
+		}
+	}
 	idx := firstIn / int64(s.chunkIn)
 	s.clipTotal += int64(clip)
 	s.detect(reading{idx: idx, p: p, r1: r1, clip: clip}, fm, am)
@@ -292,7 +336,7 @@ func (s *Scanner) levelSample(r reading) LevelSample {
 func (s *Scanner) finish(total int64, cause error) (Summary, error) {
 	if s.open && s.err == nil {
 		s.atEnd = true
-		s.closeBurst()
+		s.finishGroup()
 	}
 	if s.err != nil && cause == nil {
 		cause = s.err
@@ -300,7 +344,8 @@ func (s *Scanner) finish(total int64, cause error) (Summary, error) {
 	s.summary.Samples = total
 	s.summary.DurationS = float64(total) / s.info.SampleRate
 	s.summary.Bursts = s.nBursts
-	s.summary.NoiseDB = s.noiseDB
+	s.summary.NoiseDB = dsp.DBFS(s.noiseLin)
+	s.summary.NoiseBandwidthHz = s.enbw
 	s.summary.ClippedSamples = s.clipTotal
 	if total == 0 && cause == nil {
 		cause = fmt.Errorf("%s: no complete samples to scan", s.info.Name)
