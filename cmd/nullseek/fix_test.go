@@ -11,6 +11,7 @@ import (
 	"testing"
 
 	"nullseek/geo"
+	"nullseek/internal/angle"
 )
 
 // runFixCmd runs a fresh `fix` command (args[0] is "fix") and returns its
@@ -44,7 +45,7 @@ func synthCSV(t *testing.T, dir string) (path string, truth map[string][2]float6
 		tr := truth[id]
 		for _, s := range stations {
 			_, az, _ := geo.Inverse(s.lat, s.lon, tr[0], tr[1])
-			fmt.Fprintf(&b, "%s,%s,%.7f,%.7f,%.6f,2,true,2025-10-01T12:00:00Z\n", id, s.name, s.lat, s.lon, geo.NormalizeDeg(az))
+			fmt.Fprintf(&b, "%s,%s,%.7f,%.7f,%.6f,2,true,2025-10-01T12:00:00Z\n", id, s.name, s.lat, s.lon, angle.Wrap360(az))
 		}
 	}
 	path = filepath.Join(dir, "b.csv")
