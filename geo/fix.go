@@ -194,7 +194,9 @@ type Fix struct {
 	// 180° (set by SolveFixAmbiguous).
 	Ambiguities []Ambiguity
 
-	// Filled by Place.
+	// Filled by Place: the locator, the grid used (nil without one), the
+	// fix's cell and the most probable cells.
+	Grid       *Grid
 	Maidenhead string
 	GridCell   string
 	Cells      []CellProb
