@@ -274,7 +274,9 @@ type posKey struct {
 // bearing most at odds with the fix of the others (leave-one-out, chi-square
 // 1 dof at OutlierAlpha, the refit of the others linearised at the fix:
 // t = w·r²/(1−h) with h the bearing's leverage) is rejected, repeatedly
-// while at least three stay. When the remaining bearings still disagree
+// while at least three stay (from batchOutliers active bearings on, the
+// others beyond the threshold go in the same pass, a few at a time). When
+// the remaining bearings still disagree
 // beyond the overall chi-square test, the covariance is widened by χ²/dof
 // and a warning added; a widest crossing angle below PoorCrossingDeg is
 // warned about.
@@ -374,6 +376,9 @@ func SolveFix(lops []LOP, opt FixOptions) (*Fix, error) {
 				if tWorst > thr {
 					s.reason[worst] = fmt.Sprintf("outlier: %.1f° (%.1f sigma) off the fix of the other bearings", eDeg, math.Sqrt(tWorst))
 					s.drop(worst)
+					if s.nAct >= batchOutliers {
+						s.dropBatch(lat, lon, thr)
+					}
 					continue
 				}
 			}
@@ -855,6 +860,55 @@ func (s *solver) leaveOneOut(lat, lon float64) (worst int, tWorst, eDeg float64)
 		}
 	}
 	return worst, tWorst, eDeg
+}
+
+// batchOutliers: from this many active bearings on, each outlier pass also
+// rejects the other bearings whose linearised statistic exceeds the
+// threshold (at most 1 % of the active bearings a pass), since one bearing
+// among so many barely moves the fix of the others; one pass per outlier
+// would make the solver quadratic.
+const batchOutliers = 200
+
+// dropBatch rejects, by the linearised statistic at (lat, lon), the
+// bearings beyond thr, worst first, at most 1 % of the active ones.
+func (s *solver) dropBatch(lat, lon, thr float64) {
+	hee, hen, hnn, _, _, _ := s.normal(lat, lon)
+	det := hee*hnn - hen*hen
+	if !(det > 0) {
+		return
+	}
+	cee, cen, cnn := hnn/det, -hen/det, hee/det
+	type out struct {
+		i    int
+		t, e float64
+	}
+	var over []out
+	for i, on := range s.active {
+		if !on {
+			continue
+		}
+		g := &s.groups[s.grp[i]]
+		if g.n < 2 || g.dist < 1e-3 {
+			continue // never empty a station here
+		}
+		je, jn := math.Cos(g.azi2)/g.dist, -math.Sin(g.azi2)/g.dist
+		h := s.w[i] * (je*je*cee + 2*je*jn*cen + jn*jn*cnn)
+		if !(h < 1-1e-9) {
+			continue
+		}
+		r := wrapPi(s.phi[i] - g.azi1)
+		if t := s.w[i] * r * r / (1 - h); t > thr {
+			over = append(over, out{i, t, r / (1 - h)})
+		}
+	}
+	sort.Slice(over, func(a, b int) bool { return over[a].t > over[b].t })
+	for k, o := range over {
+		if k >= s.nAct/100 || s.groups[s.grp[o.i]].n < 2 {
+			break
+		}
+		s.reason[o.i] = fmt.Sprintf("outlier: %.1f° (%.1f sigma) off the fix of the other bearings", o.e*rad, math.Sqrt(o.t))
+		s.drop(o.i)
+	}
 }
 
 // looCandidates is how many bearings leaveOneOut refits without themselves.

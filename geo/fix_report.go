@@ -26,7 +26,19 @@ func (f *Fix) Place(g *Grid, sub int) error {
 	if !ok {
 		f.Warnings = append(f.Warnings, "the fix is outside the event grid")
 	}
-	pm, err := NewProbMap(f.Used(), g, sub)
+	used := 0
+	for i := range f.Bearings {
+		if f.Bearings[i].Used {
+			used++
+		}
+	}
+	pm, err := newProbMap(used, func(yield func(*LOP)) {
+		for i := range f.Bearings {
+			if f.Bearings[i].Used {
+				yield(&f.Bearings[i].LOP)
+			}
+		}
+	}, g, sub)
 	if err != nil {
 		return fmt.Errorf("%s: %w", identName(f.Ident), err)
 	}

@@ -29,6 +29,15 @@ type vmSet struct {
 // (latRef, lonRef), a point in the area of interest; across an event map the
 // remaining difference is far below any bearing sigma.
 func prepareVM(lops []LOP, lat0, lon0, latRef, lonRef float64) vmSet {
+	return prepareVMEach(func(yield func(*LOP)) {
+		for i := range lops {
+			yield(&lops[i])
+		}
+	}, lat0, lon0, latRef, lonRef)
+}
+
+// prepareVMEach is prepareVM over the LOPs that each yields.
+func prepareVMEach(each func(func(*LOP)), lat0, lon0, latRef, lonRef float64) vmSet {
 	v := vmSet{}
 	re, rn := ENU(lat0, lon0, latRef, lonRef)
 	type st struct {
@@ -36,7 +45,7 @@ func prepareVM(lops []LOP, lat0, lon0, latRef, lonRef float64) vmSet {
 		turn float64
 	}
 	index := map[posKey]st{}
-	for _, l := range lops {
+	each(func(l *LOP) {
 		key := posKey{l.Station, l.Lat, l.Lon}
 		g, ok := index[key]
 		if !ok {
@@ -54,7 +63,7 @@ func prepareVM(lops []LOP, lat0, lon0, latRef, lonRef float64) vmSet {
 		kappa := 1 / (sg * sg)
 		v.s[g.k] += kappa * math.Sin(phi)
 		v.c[g.k] += kappa * math.Cos(phi)
-	}
+	})
 	return v
 }
 
@@ -93,7 +102,16 @@ type ProbMap struct {
 // tangent plane at the grid origin (see prepareVM). Cells × sub² may not
 // exceed MaxProbMapSamples. Memory is one number per cell.
 func NewProbMap(lops []LOP, g *Grid, sub int) (*ProbMap, error) {
-	if len(lops) == 0 {
+	return newProbMap(len(lops), func(yield func(*LOP)) {
+		for i := range lops {
+			yield(&lops[i])
+		}
+	}, g, sub)
+}
+
+// newProbMap is NewProbMap over the n LOPs that each yields.
+func newProbMap(n int, each func(func(*LOP)), g *Grid, sub int) (*ProbMap, error) {
+	if n == 0 {
 		return nil, errors.New("probability map: no bearings")
 	}
 	if err := g.Validate(); err != nil {
@@ -110,7 +128,7 @@ func NewProbMap(lops []LOP, g *Grid, sub int) (*ProbMap, error) {
 			g.Cols, g.Rows, sub, sub, n, float64(MaxProbMapSamples))
 	}
 	clat, clon := g.GridToLatLon(float64(g.Cols)/2, float64(g.Rows)/2)
-	vm := prepareVM(lops, g.OriginLat, g.OriginLon, clat, clon)
+	vm := prepareVMEach(each, g.OriginLat, g.OriginLon, clat, clon)
 	ce, cn, re, rn := g.axes()
 	ce, cn, re, rn = ce*g.CellM, cn*g.CellM, re*g.CellM, rn*g.CellM
 	// Per cell: log Σ exp(ll) over its samples, by log-sum-exp about the
