@@ -6,8 +6,10 @@ import (
 	"encoding/xml"
 	"fmt"
 	"math"
+	"nullseek/internal/angle"
 	"nullseek/internal/palette"
 	"strconv"
+	"time"
 )
 
 // EllipsePolygon returns n+1 points (lat, lon) of an ellipse around the fix,
@@ -42,6 +44,95 @@ func (l LOP) Line(lengthM float64, n int) [][2]float64 {
 		pts = append(pts, [2]float64{lat, lon})
 	}
 	return pts
+}
+
+// Limits of what the outputs draw for a fix.
+const (
+	// MaxDrawnPerStation: a station with more bearings than this is drawn as
+	// one line, the weighted mean of its used bearings, plus its rejected
+	// bearings.
+	MaxDrawnPerStation = 5
+	// MaxDrawnRejected bounds the rejected bearings drawn for one fix.
+	MaxDrawnRejected = 20
+)
+
+// DrawnBearing is a line of position as the map, GeoJSON and KML draw it:
+// one bearing (Count 1), or a station's used bearings combined (Count > 1:
+// BearingDeg their weighted circular mean, SigmaDeg the sigma of that mean,
+// 1/√Σσᵢ⁻², ResidualDeg the mean's residual).
+type DrawnBearing struct {
+	BearingUse
+	Count int
+}
+
+// Drawn returns the fix's lines as the outputs draw them (see
+// MaxDrawnPerStation), stations in order of first appearance, and how
+// many rejected bearings were left undrawn. Invalid bearings are left out.
+func (f *Fix) Drawn() (lines []DrawnBearing, undrawn int) {
+	type acc struct {
+		idx  []int
+		used int
+	}
+	byStation := map[posKey]*acc{}
+	var order []posKey
+	for i, b := range f.Bearings {
+		if b.Validate() != nil {
+			continue
+		}
+		k := posKey{b.Station, b.Lat, b.Lon}
+		a := byStation[k]
+		if a == nil {
+			a = &acc{}
+			byStation[k] = a
+			order = append(order, k)
+		}
+		a.idx = append(a.idx, i)
+		if b.Used {
+			a.used++
+		}
+	}
+	rejected := 0
+	for _, k := range order {
+		a := byStation[k]
+		if len(a.idx) <= MaxDrawnPerStation {
+			for _, i := range a.idx {
+				lines = append(lines, DrawnBearing{f.Bearings[i], 1})
+			}
+			continue
+		}
+		var sn, cs, sw float64
+		var first BearingUse
+		var rej []DrawnBearing
+		for _, i := range a.idx {
+			b := f.Bearings[i]
+			if !b.Used {
+				if rejected < MaxDrawnRejected {
+					rej = append(rej, DrawnBearing{b, 1})
+				} else {
+					undrawn++
+				}
+				rejected++
+				continue
+			}
+			if sw == 0 {
+				first = b
+			}
+			w := 1 / sq(b.SigmaDeg)
+			sn += w * math.Sin(b.BearingDeg*deg)
+			cs += w * math.Cos(b.BearingDeg*deg)
+			sw += w
+		}
+		if a.used > 0 {
+			c := first
+			mean := angle.Wrap360(math.Atan2(sn, cs) * rad)
+			c.ResidualDeg = angle.Wrap180(c.ResidualDeg + mean - c.BearingDeg)
+			c.BearingDeg, c.SigmaDeg = mean, 1/math.Sqrt(sw)
+			c.Row, c.Time = 0, time.Time{}
+			lines = append(lines, DrawnBearing{c, a.used})
+		}
+		lines = append(lines, rej...)
+	}
+	return lines, undrawn
 }
 
 // lopLength is how far a LOP is drawn: past the fix by half the range, at
@@ -105,7 +196,9 @@ func positions(pts [][2]float64) [][2]float64 {
 // GeoJSON writes an RFC 7946 FeatureCollection: per fix a Point (kind
 // "fix", with the JSON report fields as properties), the ellipse Polygon
 // (kind "ellipse"), and a LineString per bearing (kind "lop", used or not);
-// each station once as a Point (kind "station"); the grid border as a
+// each station once as a Point (kind "station"); a station with many
+// bearings draws one line for its used ones (see Fix.Drawn; property
+// "bearings" is how many a line stands for); the grid border as a
 // Polygon (kind "grid") when g is not nil. Positions are [lon, lat];
 // polygon rings are closed and counter-clockwise. Each grid (nil ones are
 // skipped) adds its border as a Polygon (kind "grid", with its spec), its
@@ -133,13 +226,12 @@ func GeoJSON(fixes []*Fix, grids ...*Grid) ([]byte, error) {
 		feats = append(feats, gjFeature{"Feature", gjGeometry{"Polygon", [][][2]float64{positions(ring)}},
 			map[string]any{"kind": "ellipse", "ident": f.Ident, "probability": f.Ellipse.Probability,
 				"semi_major_m": rep.Ellipse.SemiMajorM, "semi_minor_m": rep.Ellipse.SemiMinorM, "orientation_deg": rep.Ellipse.OrientationDeg}})
-		for _, bu := range f.Bearings {
-			if bu.Validate() != nil {
-				continue
-			}
+		lines, _ := f.Drawn()
+		for _, d := range lines {
+			bu := d.BearingUse
 			feats = append(feats, gjFeature{"Feature", gjGeometry{"LineString", positions(bu.Line(lopLength(bu), 16))},
 				map[string]any{"kind": "lop", "ident": f.Ident, "station": bu.Station, "bearing_deg": round(bu.BearingDeg, 3),
-					"sigma_deg": bu.SigmaDeg, "used": bu.Used, "reason": bu.Reason}})
+					"sigma_deg": round(bu.SigmaDeg, 4), "used": bu.Used, "reason": bu.Reason, "bearings": d.Count}})
 			if !seen[bu.Station] {
 				seen[bu.Station] = true
 				feats = append(feats, gjFeature{"Feature", gjGeometry{"Point", position(bu.Lat, bu.Lon)},
@@ -254,11 +346,13 @@ func KML(fixes []*Fix, grids ...*Grid) ([]byte, error) {
 		*pm = append(*pm, kmlPlacemark{Name: f.Ident + " ellipse", StyleURL: "#ellipse",
 			Polygon: &kmlPolygon{kmlCoords{kmlCoordString(ccwRing(EllipsePolygon(f, e, 72)))}}})
 		used := "#tx" + strconv.Itoa(fi%len(palette.Transmitters))
-		for _, bu := range f.Bearings {
-			if bu.Validate() != nil {
-				continue
-			}
+		lines, _ := f.Drawn()
+		for _, d := range lines {
+			bu := d.BearingUse
 			style, desc := used, fmt.Sprintf("%.1f deg true, sigma %.1f deg", bu.BearingDeg, bu.SigmaDeg)
+			if d.Count > 1 {
+				desc = fmt.Sprintf("mean of %d bearings: %.2f deg true, sigma of the mean %.2f deg", d.Count, bu.BearingDeg, bu.SigmaDeg)
+			}
 			if !bu.Used {
 				style, desc = "#rejected", desc+"; rejected: "+bu.Reason
 			}

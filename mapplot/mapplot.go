@@ -189,10 +189,9 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 		}
 		colUsed := palette.Transmitter(ci)
 		colWedge := palette.WithAlpha(colUsed, 38)
-		for _, b := range f.Bearings {
-			if b.Validate() != nil {
-				continue
-			}
+		lines, _ := f.Drawn()
+		for _, d := range lines {
+			b := d.BearingUse
 			L := math.Max(1.3*b.DistM, 0.15*span*1e3)
 			if b.Used {
 				wedge := []([2]float64){{b.Lat, b.Lon}}

@@ -213,3 +213,21 @@ func TestFixCommandHeaderOnlyAndBooleans(t *testing.T) {
 		t.Errorf("JSON booleans: %v\n%s", err, out)
 	}
 }
+
+// A map that cannot be written does not take the fixes with it: they are
+// printed, the GeoJSON is written, and the exit status says what failed.
+func TestFixCommandOutputFails(t *testing.T) {
+	dir := t.TempDir()
+	in, _ := synthCSV(t, dir)
+	gj := filepath.Join(dir, "f.geojson")
+	out, err := runFixCmd(t, "fix", in, "--geojson", gj, "--map", filepath.Join(dir, "missing", "m.png"))
+	if err == nil || !strings.Contains(err.Error(), "m.png not written") {
+		t.Errorf("err %v", err)
+	}
+	if !strings.Contains(out, "TX/1") || !strings.Contains(out, "TX/2") {
+		t.Errorf("fixes not printed:\n%s", out)
+	}
+	if _, err := os.Stat(gj); err != nil {
+		t.Errorf("GeoJSON not written: %v", err)
+	}
+}
