@@ -3,6 +3,7 @@ package main
 import (
 	"encoding/json"
 	"fmt"
+	"io"
 	"nullseek/internal/atomicfile"
 	"os"
 	"path/filepath"
@@ -12,6 +13,7 @@ import (
 	"github.com/spf13/cobra"
 
 	"nullseek/bearing"
+	"nullseek/geo"
 	"nullseek/polarplot"
 	"nullseek/survey"
 )
@@ -143,18 +145,14 @@ func writeLOPs(path string, hf *headingFlags, start time.Time, txs []survey.TxBe
 	if !ok {
 		return fmt.Errorf("--bearings-csv needs the station's position: --station LAT,LON")
 	}
-	var b strings.Builder
-	b.WriteString("ident,station,lat,lon,bearing_deg,sigma_deg,reference,time,ambiguous\n")
 	st := fmt.Sprintf("%.5f %.5f", lat, lon)
-	when := ""
-	if !start.IsZero() {
-		when = start.UTC().Format(time.RFC3339)
-	}
+	var recs []geo.BearingRecord
 	for _, t := range txs {
 		if t.Err != nil {
 			continue
 		}
-		fmt.Fprintf(&b, "%s,%s,%.6f,%.6f,%.2f,%.2f,true,%s,%v\n", t.Ident, st, lat, lon, t.Combined.BearingDeg, t.SigmaDeg, when, t.Combined.AltBearingDeg != nil)
+		recs = append(recs, geo.BearingRecord{LOP: geo.LOP{Ident: t.Ident, Station: st, Lat: lat, Lon: lon,
+			BearingDeg: t.Combined.BearingDeg, SigmaDeg: t.SigmaDeg, Time: start, Ambiguous: t.Combined.AltBearingDeg != nil}})
 	}
-	return atomicfile.Write(path, []byte(b.String()))
+	return atomicfile.WriteFunc(path, func(w io.Writer) error { return geo.WriteBearingsCSV(w, recs) })
 }
