@@ -3,6 +3,7 @@ module nullseek
 go 1.26.8
 
 require (
+	github.com/mattn/go-sqlite3 v1.14.53
 	github.com/schollz/progressbar/v3 v3.19.1
 	github.com/spf13/cobra v1.10.2
 	github.com/spf13/pflag v1.0.9
