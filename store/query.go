@@ -219,31 +219,15 @@ const selectBearing = `SELECT g.id, b.capture_id, b.start_sample, g.station_id, 
 
 // Bearings returns the bearings q selects, by time then station name.
 // With both a station and a transmitter named it is one range scan of the
-// index bearings_station_tx_time.
+// index bearings_station_tx_time, with only the transmitter one of
+// bearings_tx_time. A station or transmitter that is not in the database
+// is an error wrapping ErrNotFound.
 func (db *DB) Bearings(q BearingQuery) ([]Bearing, error) {
-	lo, hi := q.bounds()
-	var where []string
-	args := []any{}
-	if q.Station != "" {
-		var id int64
-		if err := db.lookup("stations", "name", q.Station, &id); err != nil {
-			return nil, err
-		}
-		where = append(where, "g.station_id = ?")
-		args = append(args, id)
+	query, args, err := db.bearingsQuery(q)
+	if err != nil {
+		return nil, err
 	}
-	if q.Ident != "" {
-		var id int64
-		if err := db.lookup("transmitters", "ident", q.Ident, &id); err != nil {
-			return nil, err
-		}
-		where = append(where, "g.transmitter_id = ?")
-		args = append(args, id)
-	}
-	where = append(where, "g.time_unix_ns BETWEEN ? AND ?")
-	args = append(args, lo, hi)
-	rows, err := db.sql.Query(selectBearing+" WHERE "+strings.Join(where, " AND ")+
-		" ORDER BY g.time_unix_ns, s.name, g.id", args...)
+	rows, err := db.sql.Query(query, args...)
 	if err != nil {
 		return nil, db.wrap("read bearings", err)
 	}
@@ -276,6 +260,32 @@ func (db *DB) lookup(table, column, v string, id *int64) error {
 		return fmt.Errorf("store: %s: no %s with %s %q: %w", db.path, strings.TrimSuffix(table, "s"), column, v, ErrNotFound)
 	}
 	return db.wrap("look up "+v, err)
+}
+
+// bearingsQuery builds the SQL of Bearings.
+func (db *DB) bearingsQuery(q BearingQuery) (string, []any, error) {
+	lo, hi := q.bounds()
+	var where []string
+	args := []any{}
+	if q.Station != "" {
+		var id int64
+		if err := db.lookup("stations", "name", q.Station, &id); err != nil {
+			return "", nil, err
+		}
+		where = append(where, "g.station_id = ?")
+		args = append(args, id)
+	}
+	if q.Ident != "" {
+		var id int64
+		if err := db.lookup("transmitters", "ident", q.Ident, &id); err != nil {
+			return "", nil, err
+		}
+		where = append(where, "g.transmitter_id = ?")
+		args = append(args, id)
+	}
+	where = append(where, "g.time_unix_ns BETWEEN ? AND ?")
+	args = append(args, lo, hi)
+	return selectBearing + " WHERE " + strings.Join(where, " AND ") + " ORDER BY g.time_unix_ns, s.name, g.id", args, nil
 }
 
 // StationBearings are one station's bearings of one transmitter.

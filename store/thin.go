@@ -26,12 +26,14 @@ const DefaultReadingsPerS = 40.0
 // (10·log10 of the mean of 10^(L/10)), whose Sample and TimeS are the
 // members' means (Sample rounded to the nearest integer), and whose
 // Clipped is the members' sum — so a window with any clipped raw sample
-// stays clipped and the fit leaves it out.
+// stays clipped and the fit leaves it out. A window holding one reading
+// passes it on unchanged.
 //
 // The windows depend only on the capture's sample clock, so thinning the
 // same readings again gives the same rows (the store's natural key is
-// burst and sample). Readings must be in increasing Sample order. When the
-// input is already no denser than perS (W ≤ 1) it is returned unchanged.
+// burst and sample), and thinning a thinned track changes nothing.
+// Readings must be in increasing Sample order. When W ≤ 1 (perS at or
+// above the sample rate) the input is returned as it is.
 // perS ≤ 0 means DefaultReadingsPerS. The result does not alias in except
 // in the unchanged case.
 func ThinLevels(in []LevelReading, sampleRateHz, perS float64) ([]LevelReading, error) {
@@ -67,6 +69,11 @@ func ThinLevels(in []LevelReading, sampleRateHz, perS float64) ([]LevelReading, 
 			sumS += in[j].Sample
 			clipped += in[j].Clipped
 			n++
+		}
+		if n == 1 {
+			out = append(out, in[i]) // exactly as read: re-thinning is a no-op
+			i = j
+			continue
 		}
 		out = append(out, LevelReading{
 			Sample:    (sumS + n/2) / n,
