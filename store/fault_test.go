@@ -99,7 +99,9 @@ func runChild(role string) int {
 			break
 		}
 		say("add %d %d", k, now.UnixNano())
-		time.Sleep(5 * time.Millisecond)
+		if role == "write" { // paced like a receiver; the fsize child only needs to fill the file
+			time.Sleep(5 * time.Millisecond)
+		}
 	}
 	err = w.Close()
 	st := w.Stats()
@@ -200,8 +202,8 @@ func TestKill9(t *testing.T) {
 	testtool.Need(t, "sqlite3", "-version")
 	path := filepath.Join(t.TempDir(), "kill.db")
 	cmd, out := startChild(t, "write", path)
-	// Let it commit a few batches, then kill it between two of them, at a
-	// time not tied to its flush ticker.
+	// Let it commit a few batches, then kill it 0.9 s after one: rows
+	// have waited almost a whole flush interval, the most a kill can lose.
 	deadline := time.Now().Add(20 * time.Second)
 	for {
 		out.mu.Lock()
@@ -216,7 +218,7 @@ func TestKill9(t *testing.T) {
 		}
 		time.Sleep(10 * time.Millisecond)
 	}
-	time.Sleep(430 * time.Millisecond)
+	time.Sleep(900 * time.Millisecond)
 	killed := time.Now()
 	if err := cmd.Process.Signal(syscall.SIGKILL); err != nil {
 		t.Fatal(err)
