@@ -140,6 +140,9 @@ func newSigMFSource(meta *Meta, r io.Reader, closer io.Closer, size int64, name 
 	switch {
 	case g.SampleRate != nil:
 		info.SampleRate = *g.SampleRate
+		if err := checkRate(info.SampleRate); err != nil {
+			return nil, fmt.Errorf("%s: core:sample_rate: %w", name, err)
+		}
 		if raw.SampleRate != 0 && !close9(raw.SampleRate, info.SampleRate) {
 			return nil, fmt.Errorf("%s: --rate %v Hz conflicts with core:sample_rate %v Hz in the metadata", name, raw.SampleRate, info.SampleRate)
 		}
@@ -150,6 +153,16 @@ func newSigMFSource(meta *Meta, r io.Reader, closer io.Closer, size int64, name 
 		info.SampleRate = raw.SampleRate
 	default:
 		return nil, fmt.Errorf("%s: the metadata has no core:sample_rate: give --rate in Hz", name)
+	}
+	for i, c := range meta.Captures {
+		if c.Frequency != nil {
+			if err := checkCenter(*c.Frequency); err != nil {
+				return nil, fmt.Errorf("%s: captures[%d] core:frequency: %w", name, i, err)
+			}
+		}
+	}
+	if err := checkCenter(raw.CenterHz); err != nil {
+		return nil, fmt.Errorf("%s: --center: %w", name, err)
 	}
 	var first Capture
 	if len(meta.Captures) > 0 {
@@ -163,9 +176,45 @@ func newSigMFSource(meta *Meta, r io.Reader, closer io.Closer, size int64, name 
 	} else {
 		info.CenterHz = raw.CenterHz
 	}
+
+	// Header bytes before segments and trailing bytes are not samples:
+	// each, and their sum, must fit in the data (checked one at a time,
+	// so no sum of huge uint64 values can wrap around).
+	var skips []skipPoint
+	if g.TrailingBytes > uint64(size) {
+		return nil, fmt.Errorf("%s: core:trailing_bytes %d exceeds the data size %d", name, g.TrailingBytes, size)
+	}
+	nonSample := int64(g.TrailingBytes)
+	for i, c := range meta.Captures {
+		if c.HeaderBytes == 0 {
+			continue
+		}
+		if c.HeaderBytes > uint64(size-nonSample) {
+			return nil, fmt.Errorf("%s: captures[%d] core:header_bytes %d with the other header and trailing bytes (%d) exceed the data size %d", name, i, c.HeaderBytes, nonSample, size)
+		}
+		nonSample += int64(c.HeaderBytes)
+		if c.SampleStart > math.MaxInt64 {
+			return nil, fmt.Errorf("%s: captures[%d] core:sample_start %d is out of range", name, i, c.SampleStart)
+		}
+		skips = append(skips, skipPoint{at: int64(c.SampleStart), n: int64(c.HeaderBytes)})
+	}
+	total, err := wholeSamples(size-nonSample, f)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", name, err)
+	}
+	// Capture indices point into the data (a segment may start at its end,
+	// empty, but not beyond it).
+	for i, c := range meta.Captures {
+		if c.SampleStart > uint64(total) {
+			return nil, fmt.Errorf("%s: captures[%d] core:sample_start %d is beyond the %d samples of the data", name, i, c.SampleStart, total)
+		}
+	}
+	if err := checkLength(total, info.SampleRate); err != nil {
+		return nil, fmt.Errorf("%s: %w", name, err)
+	}
 	if !first.Datetime.IsZero() {
 		// The datetime belongs to the capture's first sample; shift it back
-		// to sample 0 of the dataset.
+		// to sample 0 of the dataset (at most MaxRecordingS, checked above).
 		off := time.Duration(float64(first.SampleStart) / info.SampleRate * 1e9)
 		info.Start = first.Datetime.Add(-off)
 		if !raw.Start.IsZero() {
@@ -176,32 +225,10 @@ func newSigMFSource(meta *Meta, r io.Reader, closer io.Closer, size int64, name 
 	} else if !raw.Start.IsZero() {
 		info.Start = raw.Start.UTC()
 	}
-
-	// Header bytes before segments and trailing bytes are not samples.
-	var skips []skipPoint
-	nonSample := int64(g.TrailingBytes)
-	for _, c := range meta.Captures {
-		if c.HeaderBytes > 0 {
-			if c.HeaderBytes > math.MaxInt64/2 || c.SampleStart > math.MaxInt64/2 {
-				return nil, fmt.Errorf("%s: core:header_bytes %d is out of range", name, c.HeaderBytes)
-			}
-			skips = append(skips, skipPoint{at: int64(c.SampleStart), n: int64(c.HeaderBytes)})
-			nonSample += int64(c.HeaderBytes)
-		}
-	}
-	if nonSample < 0 || nonSample > size {
-		return nil, fmt.Errorf("%s: header and trailing bytes (%d) exceed the data size %d", name, nonSample, size)
-	}
-	total, err := wholeSamples(size-nonSample, f)
+	s, err := newStreamSource(r, closer, f, info, total, skips)
 	if err != nil {
-		return nil, fmt.Errorf("%s: %w", name, err)
+		return nil, err
 	}
-	for _, k := range skips {
-		if k.at > total {
-			return nil, fmt.Errorf("%s: a capture starts at sample %d but the data holds only %d samples", name, k.at, total)
-		}
-	}
-	s := newStreamSource(r, closer, f, info, total, skips)
 	if g.SHA512 != "" {
 		h := sha512.New()
 		s.r = io.TeeReader(r, h)

@@ -88,22 +88,60 @@ type RTLConfig struct {
 	EOFOnClose bool
 }
 
+// Bounds of RTLConfig fields besides the sample rate (RTLMinRateLow …
+// RTLMaxRateHigh) and the centre frequency (the protocol's uint32).
+const (
+	// MaxPPM bounds the frequency correction: ±1000 ppm. A dongle's
+	// crystal is typically within ±100 ppm (±1–2 ppm with a TCXO); one
+	// that needs more than 0.1 % is faulty (common practice).
+	MaxPPM = 1000
+	// MaxGainDB bounds the manual tuner gain: ±100 dB. Real tuner tables
+	// span about −10…50 dB (rtl-sdr tuner_r82xx.c, tuner_e4k.c); the device
+	// picks the nearest step.
+	MaxGainDB = 100
+	// MaxSettleS bounds SettleSamples to ten seconds of samples at the
+	// configured rate: settling after a retune takes milliseconds.
+	MaxSettleS = 10
+	// MaxNoDataTimeout bounds NoDataTimeout to ten minutes.
+	MaxNoDataTimeout = 10 * time.Minute
+)
+
+// rtlRate returns the rate as the device gets it (the protocol and
+// librtlsdr carry whole Hz) or an error naming the ranges librtlsdr
+// accepts.
+func rtlRate(hz float64) (uint32, error) {
+	if math.IsNaN(hz) || math.IsInf(hz, 0) || hz <= 0 {
+		return 0, fmt.Errorf("sample rate %v Hz is not a positive finite number", hz)
+	}
+	r := math.Round(hz)
+	if !(r >= RTLMinRateLow && r <= RTLMaxRateLow) && !(r >= RTLMinRateHigh && r <= RTLMaxRateHigh) {
+		return 0, fmt.Errorf("sample rate %v S/s is not one an RTL2832 supports (225001–300000 or 900001–3200000 S/s, librtlsdr rtlsdr_set_sample_rate)", hz)
+	}
+	return uint32(r), nil
+}
+
+// check validates every numeric field against its range.
 func (c RTLConfig) check() error {
-	if err := checkRate(c.SampleRate); err != nil {
+	if _, err := rtlRate(c.SampleRate); err != nil {
 		return err
 	}
-	r := c.SampleRate
-	if !(r > 225000 && r <= 300000) && !(r > 900000 && r <= 3200000) {
-		return fmt.Errorf("sample rate %v Hz is not one an RTL2832 supports (225001–300000 or 900001–3200000 Hz)", r)
-	}
-	if c.CenterHz < 0 || c.CenterHz > math.MaxUint32 || math.IsNaN(c.CenterHz) {
-		return fmt.Errorf("centre frequency %v Hz is outside 0–%d Hz", c.CenterHz, uint32(math.MaxUint32))
+	if !(c.CenterHz >= 0 && c.CenterHz <= math.MaxUint32) {
+		return fmt.Errorf("centre frequency %v Hz is outside 0–%d Hz (rtl_tcp carries a uint32)", c.CenterHz, uint32(math.MaxUint32))
 	}
 	if c.DirectSampling < 0 || c.DirectSampling > 2 {
 		return fmt.Errorf("direct sampling mode %d: want 0, 1 or 2", c.DirectSampling)
 	}
-	if math.IsNaN(c.GainDB) || math.Abs(c.GainDB) > 100 {
-		return fmt.Errorf("gain %v dB is out of range", c.GainDB)
+	if !(math.Abs(c.GainDB) <= MaxGainDB) {
+		return fmt.Errorf("gain %v dB is outside ±%d dB", c.GainDB, MaxGainDB)
+	}
+	if c.PPM < -MaxPPM || c.PPM > MaxPPM {
+		return fmt.Errorf("frequency correction %d ppm is outside ±%d ppm (a crystal that far off is faulty)", c.PPM, MaxPPM)
+	}
+	if c.SettleSamples < 0 || float64(c.SettleSamples) > MaxSettleS*c.SampleRate {
+		return fmt.Errorf("settle samples %d is outside 0–%d s of samples", c.SettleSamples, MaxSettleS)
+	}
+	if c.NoDataTimeout < 0 || c.NoDataTimeout > MaxNoDataTimeout {
+		return fmt.Errorf("no-data timeout %v is outside 0–%v", c.NoDataTimeout, MaxNoDataTimeout)
 	}
 	return nil
 }
@@ -162,7 +200,7 @@ func DialRTLTCP(ctx context.Context, addr string, cfg RTLConfig) (*RTLTCP, error
 		buf:     make([]byte, 64<<10),
 		ctx:     ctx,
 		info: Info{
-			SampleRate: cfg.SampleRate,
+			SampleRate: math.Round(cfg.SampleRate),
 			CenterHz:   cfg.CenterHz,
 			Format:     "cu8",
 			Name:       "rtl_tcp " + addr,
@@ -211,7 +249,8 @@ func (c *RTLTCP) configure(cfg RTLConfig) error {
 		code  byte
 		param uint32
 	}
-	cmds := []cmd{{CmdSampleRate, uint32(cfg.SampleRate)}}
+	rate, _ := rtlRate(cfg.SampleRate) // checked by DialRTLTCP
+	cmds := []cmd{{CmdSampleRate, rate}}
 	if cfg.CenterHz > 0 {
 		cmds = append(cmds, cmd{CmdCenterFreq, uint32(math.Round(cfg.CenterHz))})
 	}
@@ -290,10 +329,11 @@ func (c *RTLTCP) SetSampleRate(hz float64) error {
 	if err := cfg.check(); err != nil {
 		return fmt.Errorf("rtl_tcp %s: %w", c.addr, err)
 	}
-	if err := c.Command(CmdSampleRate, uint32(hz)); err != nil {
+	r, _ := rtlRate(hz)
+	if err := c.Command(CmdSampleRate, r); err != nil {
 		return err
 	}
-	c.info.SampleRate = hz
+	c.info.SampleRate = float64(r)
 	return nil
 }
 
@@ -303,6 +343,9 @@ func (c *RTLTCP) SetAutoGain(auto bool) error { return c.Command(CmdGainMode, bo
 // SetGainDB sets the manual tuner gain in dB (sent in tenths of a dB; the
 // device picks the nearest step of its gain table).
 func (c *RTLTCP) SetGainDB(db float64) error {
+	if !(math.Abs(db) <= MaxGainDB) {
+		return fmt.Errorf("rtl_tcp %s: gain %v dB is outside ±%d dB", c.addr, db, MaxGainDB)
+	}
 	return c.Command(CmdGain, uint32(int32(math.Round(db*10))))
 }
 
@@ -316,7 +359,12 @@ func (c *RTLTCP) SetGainIndex(i int) error {
 }
 
 // SetPPM sets the frequency correction in parts per million.
-func (c *RTLTCP) SetPPM(ppm int) error { return c.Command(CmdFreqCorrection, uint32(int32(ppm))) }
+func (c *RTLTCP) SetPPM(ppm int) error {
+	if ppm < -MaxPPM || ppm > MaxPPM {
+		return fmt.Errorf("rtl_tcp %s: frequency correction %d ppm is outside ±%d ppm", c.addr, ppm, MaxPPM)
+	}
+	return c.Command(CmdFreqCorrection, uint32(int32(ppm)))
+}
 
 // SetAGC turns the RTL2832 digital AGC on or off.
 func (c *RTLTCP) SetAGC(on bool) error { return c.Command(CmdAGCMode, boolParam(on)) }
