@@ -79,7 +79,7 @@ func TestSampleRateBound(t *testing.T) {
 	}
 	// The message states the bound and what to do.
 	err := openErr(t, raw, RawParams{SampleRate: 1e11, Format: "cu8"})
-	wantErr(t, "message", err, "1000–1e+08 S/s", "decimate")
+	wantErr(t, "message", err, "1 kS/s–100 MS/s", "decimate")
 }
 
 // A WAV header's rate is a uint32: anything above 100 MS/s (up to 4.29 GS/s)

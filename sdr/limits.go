@@ -57,7 +57,7 @@ func checkRate(hz float64) error {
 		return fmt.Errorf("sample rate %v Hz is not a positive finite number", hz)
 	}
 	if hz < MinSampleRate || hz > MaxSampleRate {
-		return fmt.Errorf("sample rate %v S/s is outside %g–%g S/s (1 kS/s to 100 MS/s: nullseek reads one narrowband channel; decimate wider captures first)", hz, MinSampleRate, MaxSampleRate)
+		return fmt.Errorf("sample rate %v S/s is outside 1 kS/s–100 MS/s: nullseek reads one narrowband channel (decimate wider captures first)", hz)
 	}
 	return nil
 }
