@@ -215,14 +215,15 @@ func DialRTLTCP(ctx context.Context, addr string, cfg RTLConfig) (*RTLTCP, error
 	}
 	var g [rtlGreetingBytes]byte
 	conn.SetReadDeadline(time.Now().Add(timeout))
-	if _, err := io.ReadFull(conn, g[:]); err != nil {
-		return fail(c.wrapReadErr(err, "greeting"))
+	n, err := io.ReadFull(conn, g[:])
+	if err != nil {
+		return fail(c.greetingErr(g[:n], err))
 	}
-	if string(g[:4]) != rtlMagic {
-		return fail(fmt.Errorf("rtl_tcp %s: not an rtl_tcp server (greeting starts %q, want %q)", addr, g[:4], rtlMagic))
+	tuner, gains, err := parseGreeting(g[:])
+	if err != nil {
+		return fail(fmt.Errorf("rtl_tcp %s: %w", addr, err))
 	}
-	c.tuner = binary.BigEndian.Uint32(g[4:8])
-	c.gainCount = binary.BigEndian.Uint32(g[8:12])
+	c.tuner, c.gainCount = tuner, gains
 	if err := c.configure(cfg); err != nil {
 		return fail(err)
 	}
@@ -400,6 +401,62 @@ func (c *RTLTCP) Close() error {
 	return c.conn.Close()
 }
 
+// greetingLayout states the greeting as the protocol defines it, for
+// messages.
+const greetingLayout = `the rtl_tcp protocol (osmocom rtl-sdr src/rtl_tcp.c, dongle_info_t) starts with a 12-byte greeting: "RTL0", then the tuner type and the tuner's gain count as big-endian uint32`
+
+// parseGreeting checks the 12-byte rtl_tcp greeting and returns the tuner
+// type and gain count. The magic must be "RTL0"; any tuner type and gain
+// count are accepted (librtlsdr's rtlsdr_tuner enum may grow).
+func parseGreeting(g []byte) (tuner, gains uint32, err error) {
+	if len(g) != rtlGreetingBytes {
+		return 0, 0, fmt.Errorf("greeting of %d bytes: %s", len(g), greetingLayout)
+	}
+	if string(g[:4]) != rtlMagic {
+		return 0, 0, fmt.Errorf("not an rtl_tcp server: its greeting starts % x (%q), want \"RTL0\"; %s", g[:4], printable(g[:4]), greetingLayout)
+	}
+	return binary.BigEndian.Uint32(g[4:8]), binary.BigEndian.Uint32(g[8:12]), nil
+}
+
+// printable replaces non-printable bytes by '.' for messages.
+func printable(b []byte) string {
+	out := make([]byte, len(b))
+	for i, c := range b {
+		if c < 0x20 || c > 0x7e {
+			c = '.'
+		}
+		out[i] = c
+	}
+	return string(out)
+}
+
+// greetingErr explains a greeting that did not arrive whole: what came
+// (bytes in hex) and what the protocol expects.
+func (c *RTLTCP) greetingErr(got []byte, err error) error {
+	if c.ctx.Err() != nil {
+		return fmt.Errorf("rtl_tcp %s: %w", c.addr, c.ctx.Err())
+	}
+	then := fmt.Sprintf("then nothing for %v", c.timeout)
+	switch {
+	case errors.Is(err, io.EOF) || errors.Is(err, io.ErrUnexpectedEOF):
+		then = "then closed the connection"
+		if len(got) == 0 {
+			return fmt.Errorf("rtl_tcp %s closed the connection before its greeting: is another client connected? (rtl_tcp serves one at a time; %s)", c.addr, greetingLayout)
+		}
+	case errors.Is(err, os.ErrDeadlineExceeded):
+		if len(got) == 0 {
+			return fmt.Errorf("rtl_tcp %s sent no greeting within %v: is it an rtl_tcp server? (%s)", c.addr, c.timeout, greetingLayout)
+		}
+	default:
+		return fmt.Errorf("rtl_tcp %s: reading the greeting: %w", c.addr, err)
+	}
+	if len(got) >= 4 && string(got[:4]) != rtlMagic {
+		_, _, perr := parseGreeting(append(got[:4:4], make([]byte, 8)...))
+		return fmt.Errorf("rtl_tcp %s: %w", c.addr, perr)
+	}
+	return fmt.Errorf("rtl_tcp %s sent a %d-byte greeting (% x), %s: %s", c.addr, len(got), got, then, greetingLayout)
+}
+
 // wrapReadErr turns network errors into one clear line.
 func (c *RTLTCP) wrapReadErr(err error, what string) error {
 	if c.ctx.Err() != nil {
@@ -409,9 +466,6 @@ func (c *RTLTCP) wrapReadErr(err error, what string) error {
 		return fmt.Errorf("no samples from rtl_tcp at %s for %v: is the receiver still connected?", c.addr, c.timeout)
 	}
 	if errors.Is(err, io.EOF) || errors.Is(err, io.ErrUnexpectedEOF) {
-		if what == "greeting" {
-			return fmt.Errorf("rtl_tcp %s closed the connection before its greeting: is another client connected?", c.addr)
-		}
 		return fmt.Errorf("rtl_tcp %s closed the connection after %d samples", c.addr, c.pos)
 	}
 	return fmt.Errorf("rtl_tcp %s: %s: %w", c.addr, what, err)
