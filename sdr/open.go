@@ -12,6 +12,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"time"
 )
@@ -263,7 +264,7 @@ func openArchive(path string, raw RawParams) (Source, error) {
 	if err != nil {
 		return nil, err
 	}
-	s, err := archiveSource(fh, path, raw)
+	s, err := archiveSource(fh, fh, path, raw)
 	if err != nil {
 		fh.Close()
 		return nil, err
@@ -271,7 +272,33 @@ func openArchive(path string, raw RawParams) (Source, error) {
 	return s, nil
 }
 
-func archiveSource(fh *os.File, path string, raw RawParams) (Source, error) {
+// printableName returns s, or s quoted when it holds bytes that are not
+// printable ASCII (a name from an archive may hold a newline), so errors
+// stay one line.
+func printableName(s string) string {
+	for i := 0; i < len(s); i++ {
+		if s[i] < 0x20 || s[i] > 0x7e {
+			return strconv.Quote(s)
+		}
+	}
+	return s
+}
+
+// archiveFile is what archiveSource reads: an *os.File, or a bytes.Reader
+// in tests.
+type archiveFile interface {
+	io.Reader
+	io.ReaderAt
+	io.Seeker
+}
+
+// maxArchiveEntries bounds the tar entries read from a .sigmf archive: one
+// recording's archive holds a directory, a .sigmf-meta and a .sigmf-data
+// (SigMF v1.2.5, Archive), so 256 is generous; an archive of millions of
+// empty entries is refused rather than walked.
+const maxArchiveEntries = 256
+
+func archiveSource(fh archiveFile, closer io.Closer, path string, raw RawParams) (Source, error) {
 	tr := tar.NewReader(fh)
 	type entry struct {
 		name      string
@@ -280,7 +307,10 @@ func archiveSource(fh *os.File, path string, raw RawParams) (Source, error) {
 	var metas []string
 	var metaBytes [][]byte
 	datas := map[string]entry{}
-	for {
+	for n := 0; ; n++ {
+		if n == maxArchiveEntries {
+			return nil, fmt.Errorf("%s: more than %d entries in the archive: a .sigmf archive holds one recording's meta and data", path, maxArchiveEntries)
+		}
 		hdr, err := tr.Next()
 		if err == io.EOF {
 			break
@@ -288,11 +318,15 @@ func archiveSource(fh *os.File, path string, raw RawParams) (Source, error) {
 		if err != nil {
 			return nil, fmt.Errorf("%s: not a readable tar archive: %w", path, err)
 		}
-		name := hdr.Name
+		name := printableName(hdr.Name)
 		switch {
 		case strings.HasSuffix(name, ".sigmf-meta"):
 			if hdr.Typeflag != tar.TypeReg {
 				return nil, fmt.Errorf("%s: %s is not a regular file in the archive", path, name)
+			}
+			if len(metas) == 1 {
+				// Refused at once, not after reading every meta into memory.
+				return nil, fmt.Errorf("%s: the archive holds 2 recordings or more (%s.sigmf-meta, %s, ...): nullseek reads archives of one recording", path, printableName(metas[0]), name)
 			}
 			if hdr.Size > maxMetaBytes {
 				return nil, fmt.Errorf("%s: %s is larger than %d MiB", path, name, maxMetaBytes>>20)
@@ -301,7 +335,7 @@ func archiveSource(fh *os.File, path string, raw RawParams) (Source, error) {
 			if err != nil {
 				return nil, fmt.Errorf("%s: reading %s: %w", path, name, err)
 			}
-			metas = append(metas, strings.TrimSuffix(name, ".sigmf-meta"))
+			metas = append(metas, strings.TrimSuffix(hdr.Name, ".sigmf-meta"))
 			metaBytes = append(metaBytes, b)
 		case strings.HasSuffix(name, ".sigmf-data"):
 			if hdr.Typeflag != tar.TypeReg {
@@ -311,7 +345,7 @@ func archiveSource(fh *os.File, path string, raw RawParams) (Source, error) {
 			if err != nil {
 				return nil, fmt.Errorf("%s: %w", path, err)
 			}
-			datas[strings.TrimSuffix(name, ".sigmf-data")] = entry{name, off, hdr.Size}
+			datas[strings.TrimSuffix(hdr.Name, ".sigmf-data")] = entry{name, off, hdr.Size}
 		}
 	}
 	switch len(metas) {
@@ -319,11 +353,11 @@ func archiveSource(fh *os.File, path string, raw RawParams) (Source, error) {
 		return nil, fmt.Errorf("%s: the archive holds no .sigmf-meta file", path)
 	case 1:
 	default:
-		return nil, fmt.Errorf("%s: the archive holds %d recordings (%s, ...): nullseek reads archives of one recording", path, len(metas), metas[0])
+		return nil, fmt.Errorf("%s: the archive holds %d recordings (%s, ...): nullseek reads archives of one recording", path, len(metas), printableName(metas[0]))
 	}
 	meta, err := ParseMeta(metaBytes[0])
 	if err != nil {
-		return nil, fmt.Errorf("%s: %s.sigmf-meta: %w", path, metas[0], err)
+		return nil, fmt.Errorf("%s: %s: %w", path, printableName(metas[0]+".sigmf-meta"), err)
 	}
 	base := metas[0]
 	if meta.Global.Dataset != "" {
@@ -331,8 +365,11 @@ func archiveSource(fh *os.File, path string, raw RawParams) (Source, error) {
 	}
 	d, ok := datas[base]
 	if !ok {
-		return nil, fmt.Errorf("%s: missing data file %s.sigmf-data in the archive", path, base)
+		return nil, fmt.Errorf("%s: missing data file %s in the archive", path, printableName(base+".sigmf-data"))
 	}
 	name := path + ":" + d.name
-	return newSigMFSource(meta, io.NewSectionReader(fh, d.off, d.size), fh, d.size, name, raw)
+	if d.off < 0 || d.size < 0 {
+		return nil, fmt.Errorf("%s: %s has a negative offset or size in the archive", path, d.name)
+	}
+	return newSigMFSource(meta, io.NewSectionReader(fh, d.off, d.size), closer, d.size, name, raw)
 }

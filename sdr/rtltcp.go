@@ -192,6 +192,12 @@ func DialRTLTCP(ctx context.Context, addr string, cfg RTLConfig) (*RTLTCP, error
 	if err != nil {
 		return nil, fmt.Errorf("rtl_tcp: cannot connect to %s: %w", addr, err)
 	}
+	return startRTLTCP(ctx, conn, addr, cfg, timeout)
+}
+
+// startRTLTCP runs the client side of the protocol on an open connection
+// (a TCP one, or a net.Pipe in tests); cfg has been checked.
+func startRTLTCP(ctx context.Context, conn net.Conn, addr string, cfg RTLConfig, timeout time.Duration) (*RTLTCP, error) {
 	c := &RTLTCP{
 		conn:    conn,
 		addr:    addr,
@@ -238,6 +244,9 @@ func DialRTLTCP(ctx context.Context, addr string, cfg RTLConfig) (*RTLTCP, error
 			continue
 		}
 		if err := c.fill(); err != nil {
+			if err == io.EOF {
+				err = fmt.Errorf("rtl_tcp %s closed the connection after its greeting, before the first sample", c.addr)
+			}
 			return fail(err)
 		}
 	}

@@ -154,7 +154,12 @@ func openWAV(path string, raw RawParams) (Source, error) {
 	if err != nil {
 		return nil, err
 	}
-	s, err := wavSource(fh, path, raw)
+	st, err := fh.Stat()
+	if err != nil {
+		fh.Close()
+		return nil, err
+	}
+	s, err := wavSource(fh, fh, st.Size(), path, raw)
 	if err != nil {
 		fh.Close()
 		return nil, err
@@ -162,12 +167,9 @@ func openWAV(path string, raw RawParams) (Source, error) {
 	return s, nil
 }
 
-func wavSource(fh *os.File, path string, raw RawParams) (Source, error) {
-	st, err := fh.Stat()
-	if err != nil {
-		return nil, err
-	}
-	h, err := parseWAV(fh, st.Size())
+// wavSource streams the WAV file r of size bytes; closer closes it.
+func wavSource(fh io.ReaderAt, closer io.Closer, size int64, path string, raw RawParams) (Source, error) {
+	h, err := parseWAV(fh, size)
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", path, err)
 	}
@@ -200,7 +202,7 @@ func wavSource(fh *os.File, path string, raw RawParams) (Source, error) {
 	if !raw.Start.IsZero() {
 		info.Start = raw.Start.UTC()
 	}
-	s, err := newStreamSource(io.NewSectionReader(fh, h.dataOffset, h.dataBytes), fh, f, info, total, nil)
+	s, err := newStreamSource(io.NewSectionReader(fh, h.dataOffset, h.dataBytes), closer, f, info, total, nil)
 	if err != nil {
 		return nil, err
 	}
