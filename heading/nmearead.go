@@ -367,7 +367,8 @@ const MaxPaceHz = 100
 // bounded memory), bad or missing checksum, untimed, other reference,
 // out of time order (a stamp not after the previous reading: the earlier
 // one is kept), and other sentence types. One summary warning goes to
-// opts.Logger. The file's form follows its readings: when any stamped line
+// opts.Logger when a track is returned (a refusal's error carries the
+// summary instead). The file's form follows its readings: when any stamped line
 // gives a reading, the track is the stamped readings and bare sentences
 // are counted untimed; otherwise bare readings are paced by opts.PaceHz.
 // The file is refused only when no reading is left, with an error that
@@ -489,8 +490,7 @@ func ReadNMEA(r io.Reader, opts NMEAFileOptions) (*Track, NMEAStats, error) {
 		}
 	}
 	st.merge(bare)
-	st.warn(opts.Logger, name)
-	if len(track.Samples) == 0 {
+	if len(track.Samples) == 0 { // the error carries the summary
 		advice := ""
 		switch {
 		case len(bareOK) > 0:
@@ -502,5 +502,6 @@ func ReadNMEA(r io.Reader, opts NMEAFileOptions) (*Track, NMEAStats, error) {
 		}
 		return nil, st, fmt.Errorf("%s: no usable %s heading sentences (%s)%s", name, opts.Ref, st, advice)
 	}
+	st.warn(opts.Logger, name)
 	return track, st, nil
 }
