@@ -3,13 +3,13 @@ package survey
 import (
 	"context"
 	"math"
+	"nullseek/ident/morse"
 	"strings"
 	"testing"
 	"time"
 
 	"nullseek/bearing"
 	"nullseek/heading"
-	"nullseek/ident"
 	"nullseek/internal/angle"
 	"nullseek/receiver"
 	"nullseek/sim"
@@ -30,7 +30,7 @@ func TestClippedSweep(t *testing.T) {
 		CenterHz: 145e6, ChannelHz: 145.02e6, SampleRate: 96000, DurationS: 14, NoiseDBFS: -45,
 		DeviationHz: 2500, Seed: 5}
 	sc.Beacons = []sim.Beacon{{ID: "TEST/1", Lat: 48.001, Lon: 11.0, ToneHz: 800, WPM: 18,
-		LevelDB: -16, FirstOnS: 1, OnS: 12.5, PeriodS: 60, Mode: ident.ModeFM}}
+		LevelDB: -16, FirstOnS: 1, OnS: 12.5, PeriodS: 60, Mode: morse.ModeFM}}
 	st := sim.Station{Name: "near", Lat: 48.0, Lon: 11.0005, Antenna: yagi,
 		Turn: heading.SteadyTurn{StartDeg: 100, RateDegPerS: 30}}
 	src, err := sim.NewSource(sc, st)

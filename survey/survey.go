@@ -8,11 +8,13 @@ import (
 	"context"
 	"fmt"
 	"math"
+	"nullseek/ident/fingerprint"
+	"nullseek/ident/idmatch"
+	"nullseek/ident/morse"
 	"sort"
 	"strings"
 	"time"
 
-	"nullseek/ident"
 	"nullseek/receiver"
 	"nullseek/sdr"
 )
@@ -21,7 +23,7 @@ import (
 type Options struct {
 	Receiver receiver.Config
 	// Mode is how the identifiers are keyed (auto by default).
-	Mode ident.Mode
+	Mode morse.Mode
 	// IDs is the event's list of expected identifiers (may be empty).
 	IDs []string
 	// NoIdent skips Morse decoding (levels and timing only).
@@ -31,7 +33,7 @@ type Options struct {
 	// best candidate goes into a warning.
 	MinConfidence float64
 	// Cluster tunes the grouping of bursts into transmitters.
-	Cluster ident.ClusterOptions
+	Cluster fingerprint.Options
 }
 
 // Record is one burst with what identification found. Its JSON form, a
@@ -55,15 +57,15 @@ type Result struct {
 	Info     sdr.Info
 	Summary  receiver.Summary
 	Records  []Record
-	Clusters ident.ClusterResult
+	Clusters fingerprint.Result
 }
 
 // Run surveys src. progress (may be nil) gets the input samples consumed.
 func Run(ctx context.Context, src sdr.Source, opts Options, progress func(int64)) (*Result, error) {
 	info := src.Info()
-	var matcher *ident.Matcher
+	var matcher *idmatch.Matcher
 	if len(opts.IDs) > 0 {
-		m, err := ident.NewMatcher(opts.IDs)
+		m, err := idmatch.New(opts.IDs)
 		if err != nil {
 			return nil, err
 		}
@@ -75,7 +77,7 @@ func Run(ctx context.Context, src sdr.Source, opts Options, progress func(int64)
 	}
 	rc := opts.Receiver
 	rc.KeepAudio = !opts.NoIdent
-	if opts.Mode == ident.ModeCW && rc.MergeGapS == 0 {
+	if opts.Mode == morse.ModeCW && rc.MergeGapS == 0 {
 		rc.MergeGapS = 2.5 // word gaps of keyed carrier at 5 WPM stay inside one burst
 	}
 	sc, err := receiver.NewScanner(info, rc)
@@ -84,7 +86,7 @@ func Run(ctx context.Context, src sdr.Source, opts Options, progress func(int64)
 	}
 	res := &Result{Info: info}
 	emit := func(b *receiver.Burst) error {
-		r := Record{Burst: *b, Ident: ident.UnknownIdent}
+		r := Record{Burst: *b, Ident: idmatch.Unknown}
 		if !opts.NoIdent {
 			identify(&r, b, opts.Mode, matcher)
 		}
@@ -103,7 +105,7 @@ func Run(ctx context.Context, src sdr.Source, opts Options, progress func(int64)
 	}
 	if len(res.Records) > 0 && !opts.NoIdent {
 		obs := Observations(res.Records)
-		cr, err := ident.ClusterTransmitters(obs, opts.Cluster)
+		cr, err := fingerprint.Cluster(obs, opts.Cluster)
 		if err != nil {
 			return res, err
 		}
@@ -126,13 +128,13 @@ func Run(ctx context.Context, src sdr.Source, opts Options, progress func(int64)
 	return res, nil
 }
 
-func known(id string) bool { return id != "" && !strings.EqualFold(id, ident.UnknownIdent) }
+func known(id string) bool { return id != "" && !strings.EqualFold(id, idmatch.Unknown) }
 
 // Observations turns records into ident's per-burst observations.
-func Observations(recs []Record) []ident.Observation {
-	obs := make([]ident.Observation, len(recs))
+func Observations(recs []Record) []fingerprint.Observation {
+	obs := make([]fingerprint.Observation, len(recs))
 	for i, r := range recs {
-		obs[i] = ident.Observation{
+		obs[i] = fingerprint.Observation{
 			Index: r.Index, StartS: r.StartS, EndS: r.EndS, Start: r.Start,
 			OffsetHz: r.OffsetHz, ToneHz: r.ToneHz, LevelDB: r.LevelDB,
 			Ident: r.Ident, IdentConfidence: r.IdentConfidence,
@@ -143,19 +145,19 @@ func Observations(recs []Record) []ident.Observation {
 }
 
 // identify decodes the burst's Morse and matches it to the expected IDs.
-func identify(r *Record, b *receiver.Burst, mode ident.Mode, m *ident.Matcher) {
+func identify(r *Record, b *receiver.Burst, mode morse.Mode, m *idmatch.Matcher) {
 	rate := b.ChannelRateHz
 	power, powerRate := levelPower(b)
-	if mode == ident.ModeAuto {
-		mode = ident.DetectMode(b.FMAudio, b.AMAudio, rate, power, powerRate)
+	if mode == morse.ModeAuto {
+		mode = morse.DetectMode(b.FMAudio, b.AMAudio, rate, power, powerRate)
 	}
 	r.Mode = mode.String()
-	opts := ident.DecodeOptions{Mode: mode}
+	opts := morse.DecodeOptions{Mode: mode}
 	audio := b.FMAudio
-	if mode == ident.ModeAM {
+	if mode == morse.ModeAM {
 		audio = b.AMAudio
 	}
-	if m != nil && mode != ident.ModeCW {
+	if m != nil && mode != morse.ModeCW {
 		// With a list, the template can name a burst whose text is lost.
 		d, mt, err := m.MatchTone(audio, rate, opts)
 		if err != nil {
@@ -167,12 +169,12 @@ func identify(r *Record, b *receiver.Burst, mode ident.Mode, m *ident.Matcher) {
 		r.Warnings = append(r.Warnings, mt.Warnings...)
 		return
 	}
-	var d ident.Decoded
+	var d morse.Decoded
 	var err error
-	if mode == ident.ModeCW {
-		d, err = ident.DecodeKeyed(power, powerRate, opts)
+	if mode == morse.ModeCW {
+		d, err = morse.DecodeKeyed(power, powerRate, opts)
 	} else {
-		d, err = ident.DecodeTone(audio, rate, opts)
+		d, err = morse.DecodeTone(audio, rate, opts)
 	}
 	if err != nil {
 		r.Warnings = append(r.Warnings, "no identifier decoded: "+err.Error())
@@ -194,7 +196,7 @@ func identify(r *Record, b *receiver.Burst, mode ident.Mode, m *ident.Matcher) {
 }
 
 // setDecoded copies what the decoder read into the record.
-func setDecoded(r *Record, d ident.Decoded) {
+func setDecoded(r *Record, d morse.Decoded) {
 	r.Text = d.Text
 	r.ToneHz = d.ToneHz
 	r.WPM = d.WPM
@@ -203,7 +205,7 @@ func setDecoded(r *Record, d ident.Decoded) {
 
 // repeatedWord names a burst without an ID list: the word the beacon sent
 // most often, when it was sent at least twice and read with confidence.
-func repeatedWord(d ident.Decoded) (string, float64, string) {
+func repeatedWord(d morse.Decoded) (string, float64, string) {
 	words := strings.Fields(d.Text)
 	count := map[string]int{}
 	for _, w := range words {
@@ -223,7 +225,7 @@ func repeatedWord(d ident.Decoded) (string, float64, string) {
 		}
 	}
 	if n < 2 {
-		return ident.UnknownIdent, 0, ""
+		return idmatch.Unknown, 0, ""
 	}
 	var conf float64
 	var nc int

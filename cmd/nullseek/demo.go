@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"nullseek/ident/schedule"
 	"nullseek/internal/atomicfile"
 	"os"
 	"path/filepath"
@@ -16,7 +17,6 @@ import (
 	"nullseek/bearing"
 	"nullseek/geo"
 	"nullseek/heading"
-	"nullseek/ident"
 	"nullseek/internal/angle"
 	"nullseek/mapplot"
 	"nullseek/polarplot"
@@ -147,7 +147,7 @@ func runDemo(ctx context.Context, w io.Writer, outDir string, writeIQ bool) erro
 	for _, r := range first.Records {
 		labels = append(labels, r.Ident)
 	}
-	plan, err := ident.BuildSchedule(obs, labels, ident.ScheduleOptions{NominalPeriodS: sc.Beacons[0].PeriodS})
+	plan, err := schedule.Build(obs, labels, schedule.Options{NominalPeriodS: sc.Beacons[0].PeriodS})
 	if err != nil {
 		fmt.Fprintf(w, "Slot schedule: %v\n\n", err)
 	} else {

@@ -4,12 +4,14 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
+	"nullseek/ident/fingerprint"
+	"nullseek/ident/idmatch"
+	"nullseek/ident/morse"
 	"os"
 	"time"
 
 	"github.com/spf13/cobra"
 
-	"nullseek/ident"
 	"nullseek/survey"
 )
 
@@ -28,8 +30,8 @@ func (f *identFlags) add(cmd *cobra.Command) {
 	cmd.Flags().Float64Var(&f.minConf, "min-confidence", 0.7, "least confidence (0–1) at which a burst is given a listed identifier; below it: unknown")
 }
 
-func (f *identFlags) options() (ident.Mode, []string, error) {
-	mode, err := ident.ParseMode(f.mode)
+func (f *identFlags) options() (morse.Mode, []string, error) {
+	mode, err := morse.ParseMode(f.mode)
 	if err != nil {
 		return mode, nil, err
 	}
@@ -43,11 +45,11 @@ func (f *identFlags) options() (ident.Mode, []string, error) {
 			return mode, nil, fmt.Errorf("--ids: %w", err)
 		}
 		defer fh.Close()
-		ids, err = ident.ReadIDList(fh)
+		ids, err = idmatch.ReadList(fh)
 		if err != nil {
 			return mode, nil, fmt.Errorf("--ids %s: %w", f.ids[1:], err)
 		}
-	} else if ids, err = ident.ParseIDList(f.ids); err != nil {
+	} else if ids, err = idmatch.ParseList(f.ids); err != nil {
 		return mode, nil, fmt.Errorf("--ids: %w", err)
 	}
 	return mode, ids, nil
@@ -117,10 +119,10 @@ it sees and scans the strongest.`,
 				}
 				txs, flags := res.Clusters.Clusters, res.Clusters.Flags
 				if txs == nil {
-					txs = []ident.TransmitterCluster{}
+					txs = []fingerprint.Transmitter{}
 				}
 				if flags == nil {
-					flags = []ident.ClusterFlag{}
+					flags = []fingerprint.Flag{}
 				}
 				return enc.Encode(map[string]any{"type": "summary", "summary": res.Summary, "transmitters": txs, "flags": flags})
 			}

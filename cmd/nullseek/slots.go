@@ -2,11 +2,11 @@ package main
 
 import (
 	"encoding/json"
+	"nullseek/ident/schedule"
 	"os"
 
 	"github.com/spf13/cobra"
 
-	"nullseek/ident"
 	"nullseek/survey"
 )
 
@@ -14,7 +14,7 @@ func init() {
 	var in inputFlags
 	var idf identFlags
 	var asJSON bool
-	var opts ident.ScheduleOptions
+	var opts schedule.Options
 	cmd := &cobra.Command{
 		Use:   "slots RECORDING",
 		Short: "Work out the slot schedule of beacons sharing a channel: order, period, drift, next on, collisions",

@@ -1,4 +1,4 @@
-package ident
+package morse
 
 import (
 	"errors"
@@ -100,7 +100,7 @@ func DecodeTone(audio []float32, rate float64, opts DecodeOptions) (Decoded, err
 	if !(rate >= 2*MinToneHz) || math.IsInf(rate, 0) {
 		return Decoded{}, fmt.Errorf("decode tone: sample rate %g Hz too low", rate)
 	}
-	clean := mcSanitize(audio)
+	clean := sanitize(audio)
 	toneHz := opts.ToneHz
 	var warns []string
 	if !(toneHz > 0) {
@@ -153,7 +153,7 @@ func DecodeKeyed(power []float32, rate float64, opts DecodeOptions) (Decoded, er
 	if !(rate >= 50) || math.IsInf(rate, 0) {
 		return Decoded{}, fmt.Errorf("decode keyed carrier: power rate %g/s too low (need ≥ 100/s)", rate)
 	}
-	p := mcSanitize(power)
+	p := sanitize(power)
 	envRate := rate
 	if rate > 1000 {
 		k := int(rate / 400)
@@ -176,8 +176,8 @@ func DecodeKeyed(power []float32, rate float64, opts DecodeOptions) (Decoded, er
 	return d, nil
 }
 
-// mcSanitize copies x, replacing NaN, ±Inf and absurd values by 0.
-func mcSanitize(x []float32) []float32 {
+// sanitize copies x, replacing NaN, ±Inf and absurd values by 0.
+func sanitize(x []float32) []float32 {
 	out := make([]float32, len(x))
 	for i, v := range x {
 		if !math.IsNaN(float64(v)) && !math.IsInf(float64(v), 0) && math.Abs(float64(v)) < 1e30 {
@@ -187,14 +187,14 @@ func mcSanitize(x []float32) []float32 {
 	return out
 }
 
-// mcKeyLevels holds per-sample key-up and key-down amplitude levels
+// keyLevels holds per-sample key-up and key-down amplitude levels
 // (square roots of envelope power).
-type mcKeyLevels struct {
+type keyLevels struct {
 	amp, lo, hi []float64
 }
 
-// mcIsodata splits amplitudes into two levels (Ridler–Calvard iteration).
-func mcIsodata(a []float64) (lo, hi float64) {
+// isodata splits amplitudes into two levels (Ridler–Calvard iteration).
+func isodata(a []float64) (lo, hi float64) {
 	if len(a) == 0 {
 		return 0, 0
 	}
@@ -222,19 +222,19 @@ func mcIsodata(a []float64) (lo, hi float64) {
 	return lo, hi
 }
 
-// mcLevelsOf computes the keying levels of a power envelope: global
+// levelsOf computes the keying levels of a power envelope: global
 // two-level split, refined in 3 s windows (50 % overlap) where the window
 // itself shows a clear split, interpolated between window centres. This
 // follows slow fading and noise-floor changes.
-func mcLevelsOf(env []float32, envRate float64) mcKeyLevels {
+func levelsOf(env []float32, envRate float64) keyLevels {
 	n := len(env)
-	k := mcKeyLevels{amp: make([]float64, n), lo: make([]float64, n), hi: make([]float64, n)}
+	k := keyLevels{amp: make([]float64, n), lo: make([]float64, n), hi: make([]float64, n)}
 	for i, v := range env {
 		if v > 0 {
 			k.amp[i] = math.Sqrt(float64(v))
 		}
 	}
-	glo, ghi := mcIsodata(k.amp)
+	glo, ghi := isodata(k.amp)
 	w := int(3 * envRate)
 	if n < 2*w || w < 8 {
 		for i := range k.lo {
@@ -244,7 +244,7 @@ func mcLevelsOf(env []float32, envRate float64) mcKeyLevels {
 	}
 	var cs, los, his []float64
 	for off := 0; off+w <= n; off += w / 2 {
-		lo, hi := mcIsodata(k.amp[off : off+w])
+		lo, hi := isodata(k.amp[off : off+w])
 		if hi-lo < 0.5*(ghi-glo) {
 			lo, hi = glo, ghi
 		}
@@ -270,7 +270,7 @@ func mcLevelsOf(env []float32, envRate float64) mcKeyLevels {
 
 // soft returns the keying soft value of sample i: 0 at the key-up level,
 // 1 at the key-down level.
-func (k mcKeyLevels) soft(i int) float64 {
+func (k keyLevels) soft(i int) float64 {
 	d := k.hi[i] - k.lo[i]
 	if d <= 0 {
 		return 0
@@ -278,30 +278,30 @@ func (k mcKeyLevels) soft(i int) float64 {
 	return (k.amp[i] - k.lo[i]) / d
 }
 
-// mcRun is one interval of constant keying in envelope samples.
-type mcRun struct {
+// keyRun is one interval of constant keying in envelope samples.
+type keyRun struct {
 	on   bool
 	a, b int // [a, b)
 }
 
-func (r mcRun) len() int { return r.b - r.a }
+func (r keyRun) len() int { return r.b - r.a }
 
 // slice thresholds the soft keying at 0.5 with ±0.1 hysteresis.
-func (k mcKeyLevels) slice() []mcRun {
-	var rs []mcRun
+func (k keyLevels) slice() []keyRun {
+	var rs []keyRun
 	on := false
 	start := 0
 	for i := range k.amp {
 		s := k.soft(i)
 		if (!on && s > 0.6) || (on && s < 0.4) {
 			if i > start {
-				rs = append(rs, mcRun{on, start, i})
+				rs = append(rs, keyRun{on, start, i})
 			}
 			on, start = !on, i
 		}
 	}
 	if len(k.amp) > start {
-		rs = append(rs, mcRun{on, start, len(k.amp)})
+		rs = append(rs, keyRun{on, start, len(k.amp)})
 	}
 	// Trim key-up at the edges.
 	for len(rs) > 0 && !rs[0].on {
@@ -313,10 +313,10 @@ func (k mcKeyLevels) slice() []mcRun {
 	return rs
 }
 
-// mcDeglitch merges runs shorter than minLen samples into their neighbours,
+// deglitch merges runs shorter than minLen samples into their neighbours,
 // shortest first.
-func mcDeglitch(rs []mcRun, minLen int) []mcRun {
-	rs = append([]mcRun(nil), rs...)
+func deglitch(rs []keyRun, minLen int) []keyRun {
+	rs = append([]keyRun(nil), rs...)
 	for {
 		best := -1
 		for i, r := range rs {
@@ -341,17 +341,17 @@ func mcDeglitch(rs []mcRun, minLen int) []mcRun {
 				rs = rs[:len(rs)-1]
 			}
 		default:
-			m := mcRun{rs[best-1].on, rs[best-1].a, rs[best+1].b}
-			rs = append(rs[:best-1], append([]mcRun{m}, rs[best+2:]...)...)
+			m := keyRun{rs[best-1].on, rs[best-1].a, rs[best+1].b}
+			rs = append(rs[:best-1], append([]keyRun{m}, rs[best+2:]...)...)
 		}
 	}
 }
 
-// mcUnitCost scores a dot length u (seconds) against mark and key-up
+// unitCost scores a dot length u (seconds) against mark and key-up
 // durations: squared log distance of each mark to 1 or 3 units and of each
 // short key-up to 1 or 3 units (longer key-ups are free, so Farnsworth
 // spacing does not bias the estimate).
-func mcUnitCost(u float64, marks, spaces []float64) float64 {
+func unitCost(u float64, marks, spaces []float64) float64 {
 	c := 0.0
 	for _, d := range marks {
 		a, b := math.Log(d/u), math.Log(d/(3*u))
@@ -366,13 +366,13 @@ func mcUnitCost(u float64, marks, spaces []float64) float64 {
 	return c
 }
 
-// mcEstimateUnit finds the dot length (s) and the keying bias δ (s; marks
+// estimateUnit finds the dot length (s) and the keying bias δ (s; marks
 // come out u+δ, gaps u−δ) from run durations, for speeds minWPM–maxWPM.
-func mcEstimateUnit(marks, spaces []float64, minWPM, maxWPM float64) (u, delta float64) {
+func estimateUnit(marks, spaces []float64, minWPM, maxWPM float64) (u, delta float64) {
 	uMin, uMax := DotSeconds(maxWPM), DotSeconds(minWPM)
 	const steps = 160
 	best, bestC := uMin, math.Inf(1)
-	cost := func(u float64) float64 { return mcUnitCost(u, marks, spaces) }
+	cost := func(u float64) float64 { return unitCost(u, marks, spaces) }
 	for i := 0; i <= steps; i++ {
 		v := uMin * math.Pow(uMax/uMin, float64(i)/steps)
 		if c := cost(v); c < bestC {
@@ -421,18 +421,18 @@ func mcEstimateUnit(marks, spaces []float64, minWPM, maxWPM float64) (u, delta f
 	return u, delta
 }
 
-// mcGauss is an unnormalised Gaussian likelihood with a normalising 1/σ.
-func mcGauss(x, mu, sigma float64) float64 {
+// gauss is an unnormalised Gaussian likelihood with a normalising 1/σ.
+func gauss(x, mu, sigma float64) float64 {
 	z := (x - mu) / sigma
 	return math.Exp(-0.5*z*z) / sigma
 }
 
-// mcClassify picks the most likely of the classes (means and sigmas, in
+// classify picks the most likely of the classes (means and sigmas, in
 // units) and returns its index and posterior probability.
-func mcClassify(x float64, means, sigmas []float64) (int, float64) {
+func classify(x float64, means, sigmas []float64) (int, float64) {
 	best, tot, bl := 0, 0.0, 0.0
 	for i := range means {
-		l := mcGauss(x, means[i], sigmas[i])
+		l := gauss(x, means[i], sigmas[i])
 		tot += l
 		if l > bl {
 			best, bl = i, l
@@ -450,11 +450,11 @@ func mcClassify(x float64, means, sigmas []float64) (int, float64) {
 	return best, bl / tot
 }
 
-// mcSplitGaps finds the character-gap length (in units) among key-ups ≥ 2
+// splitGaps finds the character-gap length (in units) among key-ups ≥ 2
 // units, allowing Farnsworth spacing: a two-class split of their logs
 // (Otsu) whose class means differ by ≥ 1.6× is read as character and word
 // gaps; otherwise all are character gaps.
-func mcSplitGaps(long []float64) (charGap, wordGap float64) {
+func splitGaps(long []float64) (charGap, wordGap float64) {
 	if len(long) == 0 {
 		return 3, 7
 	}
@@ -507,7 +507,7 @@ func DecodeEnvelope(env []float32, envRate float64, opts DecodeOptions) (Decoded
 	if !(envRate >= 50) || math.IsInf(envRate, 0) {
 		return Decoded{}, fmt.Errorf("envelope rate %g/s too low (need ≥ 50/s)", envRate)
 	}
-	env = mcSanitize(env)
+	env = sanitize(env)
 	for i, v := range env {
 		if v < 0 {
 			env[i] = 0
@@ -518,7 +518,7 @@ func DecodeEnvelope(env []float32, envRate float64, opts DecodeOptions) (Decoded
 	if float64(len(env))/envRate < 2*minMark {
 		return d, fmt.Errorf("%.3f s of envelope is too short: %w", float64(len(env))/envRate, ErrNoMorse)
 	}
-	lv := mcLevelsOf(env, envRate)
+	lv := levelsOf(env, envRate)
 	// SNR from the two levels: key-down power over key-up power, minus one.
 	var hiP, loP float64
 	for i := range lv.amp {
@@ -532,8 +532,8 @@ func DecodeEnvelope(env []float32, envRate float64, opts DecodeOptions) (Decoded
 	if d.SNRDB < 3 {
 		d.Warnings = append(d.Warnings, fmt.Sprintf("weak keying: %.1f dB", d.SNRDB))
 	}
-	rs := mcDeglitch(lv.slice(), int(math.Max(1, 0.3*minMark*envRate)))
-	durs := func(rs []mcRun) (m, s []float64) {
+	rs := deglitch(lv.slice(), int(math.Max(1, 0.3*minMark*envRate)))
+	durs := func(rs []keyRun) (m, s []float64) {
 		for _, r := range rs {
 			if r.on {
 				m = append(m, float64(r.len())/envRate)
@@ -547,14 +547,14 @@ func DecodeEnvelope(env []float32, envRate float64, opts DecodeOptions) (Decoded
 	if len(marks) == 0 {
 		return d, fmt.Errorf("no key-down found: %w", ErrNoMorse)
 	}
-	u, delta := mcEstimateUnit(marks, spaces, opts.MinWPM, opts.MaxWPM)
+	u, delta := estimateUnit(marks, spaces, opts.MinWPM, opts.MaxWPM)
 	// Second round: glitches are now measured against the dot.
-	rs = mcDeglitch(lv.slice(), int(math.Max(1, 0.35*u*envRate)))
+	rs = deglitch(lv.slice(), int(math.Max(1, 0.35*u*envRate)))
 	marks, spaces = durs(rs)
 	if len(marks) == 0 {
 		return d, fmt.Errorf("only glitches, no key-down: %w", ErrNoMorse)
 	}
-	u, delta = mcEstimateUnit(marks, spaces, opts.MinWPM, opts.MaxWPM)
+	u, delta = estimateUnit(marks, spaces, opts.MinWPM, opts.MaxWPM)
 	d.DotS, d.WPM = u, 1.2/u
 
 	var long []float64
@@ -563,7 +563,7 @@ func DecodeEnvelope(env []float32, envRate float64, opts DecodeOptions) (Decoded
 			long = append(long, (s+delta)/u)
 		}
 	}
-	cg, wg := mcSplitGaps(long)
+	cg, wg := splitGaps(long)
 	d.FarnsworthWPM = d.WPM
 	if cg > 3.6 {
 		// Bloom: tc = 3ta/19 → ta; s = 60c/(ta·c + 37.2).
@@ -584,7 +584,7 @@ func DecodeEnvelope(env []float32, envRate float64, opts DecodeOptions) (Decoded
 		t, ok := reverseTable[string(pattern)]
 		c := conf * snrConf
 		if !ok {
-			t, c = mcUnknownChar, 0
+			t, c = UnknownChar, 0
 		}
 		b.WriteString(t)
 		d.Chars = append(d.Chars, Char{Text: t, Confidence: c, StartS: cStart, EndS: cEnd})
@@ -596,7 +596,7 @@ func DecodeEnvelope(env []float32, envRate float64, opts DecodeOptions) (Decoded
 		t0, dur := float64(r.a)/envRate, float64(r.len())/envRate
 		if r.on {
 			x := (dur - delta) / u
-			k, p := mcClassify(x, []float64{1, 3}, []float64{0.3, 0.6})
+			k, p := classify(x, []float64{1, 3}, []float64{0.3, 0.6})
 			if len(pattern) == 0 {
 				cStart = t0
 			}
@@ -611,7 +611,7 @@ func DecodeEnvelope(env []float32, envRate float64, opts DecodeOptions) (Decoded
 			continue
 		}
 		x := (dur + delta) / u
-		k, p := mcClassify(x, sepMeans, sepSig)
+		k, p := classify(x, sepMeans, sepSig)
 		d.Keying = append(d.Keying, Mark{On: false, StartS: t0, DurS: dur, Units: []int{1, 3, 7}[k]})
 		if k == 0 {
 			conf *= p

@@ -1,4 +1,4 @@
-package ident
+package idmatch
 
 import (
 	"bufio"
@@ -6,21 +6,32 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"nullseek/ident/morse"
 	"os"
 	"sort"
 	"strings"
 	"sync"
 )
 
-// UnknownID is the Match.ID when no listed identifier is convincing.
-const UnknownID = "unknown"
+// Unknown is the identifier of a burst nobody could name: the Result.ID
+// when no listed identifier is convincing, and the ID every later stage
+// (fingerprints, schedule, outputs) writes for such a burst. The empty
+// string is read the same way (see Known).
+const Unknown = "unknown"
 
-// DefaultMinConfidence is the confidence below which Match answers
-// UnknownID instead of guessing.
+// Known reports whether id names someone: not empty (after trimming white
+// space) and not Unknown (compared case-insensitively).
+func Known(id string) bool {
+	id = strings.TrimSpace(id)
+	return id != "" && !strings.EqualFold(id, Unknown)
+}
+
+// DefaultMinConfidence is the confidence below which Result answers
+// Unknown instead of guessing.
 const DefaultMinConfidence = 0.9
 
-// IDScore is one listed identifier's evidence for a burst.
-type IDScore struct {
+// Score is one listed identifier's evidence for a burst.
+type Score struct {
 	ID string
 	// TextProb and TemplateProb are the identifier's share (0–1) of the
 	// text and template likelihoods among the listed IDs; TemplateProb is
@@ -34,12 +45,12 @@ type IDScore struct {
 	Copies int
 }
 
-// Match is the identifier a burst was matched to.
-type Match struct {
-	// ID is the listed identifier, or UnknownID.
+// Result is the identifier a burst was matched to.
+type Result struct {
+	// ID is the listed identifier, or Unknown.
 	ID string
 	// Confidence (0–1) is the winner's posterior share against the other
-	// listed IDs (mcSoftmax of log-likelihoods; see Matcher.Match).
+	// listed IDs (softmax of log-likelihoods; see Matcher.Match).
 	Confidence float64
 	// Method is "text" or "template" ("" when nothing could be scored).
 	Method string
@@ -48,7 +59,7 @@ type Match struct {
 	Unlisted float64
 	// WPM is the speed of the best template (template method only).
 	WPM      float64
-	Scores   []IDScore
+	Scores   []Score
 	Warnings []string
 }
 
@@ -60,43 +71,43 @@ type Matcher struct {
 	// (DefaultMinConfidence unless changed).
 	MinConfidence float64
 
-	tplOnce sync.Once
-	tpl     tplPlan // templates, built on first use
+	planOnce  sync.Once
+	templates templatePlan // templates, built on first use
 }
 
-// ErrBadIDList is wrapped by errors about the identifier list.
-var ErrBadIDList = errors.New("bad identifier list")
+// ErrBadList is wrapped by errors about the identifier list.
+var ErrBadList = errors.New("bad identifier list")
 
-// NewMatcher checks ids and prepares a matcher. Empty IDs, duplicates
+// New checks ids and prepares a matcher. Empty IDs, duplicates
 // (compared case-insensitively, after collapsing spaces) and characters
 // Morse cannot send are errors naming the ID and the character.
-func NewMatcher(ids []string) (*Matcher, error) {
+func New(ids []string) (*Matcher, error) {
 	if len(ids) == 0 {
-		return nil, fmt.Errorf("no identifiers given: %w", ErrBadIDList)
+		return nil, fmt.Errorf("no identifiers given: %w", ErrBadList)
 	}
 	m := &Matcher{MinConfidence: DefaultMinConfidence}
 	seen := map[string]string{}
 	for i, raw := range ids {
 		id := strings.TrimSpace(raw)
 		if id == "" {
-			return nil, fmt.Errorf("identifier %d is empty: %w", i+1, ErrBadIDList)
+			return nil, fmt.Errorf("identifier %d is empty: %w", i+1, ErrBadList)
 		}
 		if strings.ContainsFunc(id, func(r rune) bool { return r < 0x20 || r == 0x7f }) {
-			return nil, fmt.Errorf("identifier %q contains a control character or line break: %w", id, ErrBadIDList)
+			return nil, fmt.Errorf("identifier %q contains a control character or line break: %w", id, ErrBadList)
 		}
-		keys, err := splitMorseText(id)
+		keys, err := morse.Tokens(id)
 		if err != nil {
 			return nil, fmt.Errorf("identifier %q: %w", id, err)
 		}
 		var toks []string
 		for _, k := range keys {
 			if k != " " {
-				toks = append(toks, reverseTable[morseTable[k]])
+				toks = append(toks, k)
 			}
 		}
 		key := strings.Join(toks, "")
 		if prev, ok := seen[key]; ok {
-			return nil, fmt.Errorf("identifier %q duplicates %q (Morse cannot tell them apart): %w", id, prev, ErrBadIDList)
+			return nil, fmt.Errorf("identifier %q duplicates %q (Morse cannot tell them apart): %w", id, prev, ErrBadList)
 		}
 		seen[key] = id
 		m.ids = append(m.ids, id)
@@ -108,25 +119,25 @@ func NewMatcher(ids []string) (*Matcher, error) {
 // IDs returns the identifiers in list order.
 func (m *Matcher) IDs() []string { return append([]string(nil), m.ids...) }
 
-// ParseIDList splits a comma-separated list such as "N0CALL/1,N0CALL/2"
-// and checks it as NewMatcher does.
-func ParseIDList(s string) ([]string, error) {
+// ParseList splits a comma-separated list such as "N0CALL/1,N0CALL/2"
+// and checks it as New does.
+func ParseList(s string) ([]string, error) {
 	var ids []string
 	for _, p := range strings.Split(s, ",") {
 		ids = append(ids, strings.TrimSpace(p))
 	}
 	if len(ids) == 1 && ids[0] == "" {
-		return nil, fmt.Errorf("empty identifier list: %w", ErrBadIDList)
+		return nil, fmt.Errorf("empty identifier list: %w", ErrBadList)
 	}
-	if _, err := NewMatcher(ids); err != nil {
+	if _, err := New(ids); err != nil {
 		return nil, err
 	}
 	return ids, nil
 }
 
-// ReadIDList reads identifiers one per line; blank lines and text after
+// ReadList reads identifiers one per line; blank lines and text after
 // '#' are ignored. Errors name the line.
-func ReadIDList(r io.Reader) ([]string, error) {
+func ReadList(r io.Reader) ([]string, error) {
 	var ids []string
 	sc := bufio.NewScanner(r)
 	line := 0
@@ -140,7 +151,7 @@ func ReadIDList(r io.Reader) ([]string, error) {
 		if t == "" {
 			continue
 		}
-		if _, err := NewMatcher(append(append([]string(nil), ids...), t)); err != nil {
+		if _, err := New(append(append([]string(nil), ids...), t)); err != nil {
 			return nil, fmt.Errorf("line %d: %w", line, err)
 		}
 		ids = append(ids, t)
@@ -149,45 +160,52 @@ func ReadIDList(r io.Reader) ([]string, error) {
 		return nil, fmt.Errorf("read identifier list: %w", err)
 	}
 	if len(ids) == 0 {
-		return nil, fmt.Errorf("identifier list has no entries: %w", ErrBadIDList)
+		return nil, fmt.Errorf("identifier list has no entries: %w", ErrBadList)
 	}
 	return ids, nil
 }
 
-// LoadIDFile reads an identifier file (see ReadIDList).
-func LoadIDFile(path string) ([]string, error) {
+// LoadFile reads an identifier file (see ReadList).
+func LoadFile(path string) ([]string, error) {
 	f, err := os.Open(path)
 	if err != nil {
 		return nil, fmt.Errorf("identifier file: %w", err)
 	}
 	defer f.Close()
-	ids, err := ReadIDList(f)
+	ids, err := ReadList(f)
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", path, err)
 	}
 	return ids, nil
 }
 
-// mcTextLambda converts weighted edit cost to log-likelihood (nats per
+// code returns the dots and dashes of a token the decoder writes ("" for
+// anything else).
+func code(tok string) string {
+	c, _ := morse.Code(tok)
+	return c
+}
+
+// textLambda converts weighted edit cost to log-likelihood (nats per
 // error): a wrong character is taken to be about e^3 ≈ 20 times less
 // likely than a right one, a deliberately modest figure so a single
 // garbled digit does not give a near-certain answer.
-const mcTextLambda = 3.0
+const textLambda = 3.0
 
-// mcCharCost is the cost of a decoded character that does not fit the
+// charCost is the cost of a decoded character that does not fit the
 // identifier: cheaper when the decoder itself was unsure.
-func mcCharCost(c Char) float64 {
-	if c.Text == mcUnknownChar {
+func charCost(c morse.Char) float64 {
+	if c.Text == morse.UnknownChar {
 		return 0.5
 	}
 	return 0.4 + 0.6*c.Confidence
 }
 
-// mcCyclicCost is the least weighted edit cost of reading chars as copies of
+// cyclicCost is the least weighted edit cost of reading chars as copies of
 // pat repeated, starting and ending anywhere in the pattern (partial copies
 // at the edges are free). Substituted or extra decoded characters cost
-// mcCharCost, missing pattern characters cost 1.
-func mcCyclicCost(chars []Char, pat []string) float64 {
+// charCost, missing pattern characters cost 1.
+func cyclicCost(chars []morse.Char, pat []string) float64 {
 	P := len(pat)
 	cur := make([]float64, P)
 	next := make([]float64, P)
@@ -204,7 +222,7 @@ func mcCyclicCost(chars []Char, pat []string) float64 {
 		for j := range next {
 			next[j] = math.Inf(1)
 		}
-		cc := mcCharCost(c)
+		cc := charCost(c)
 		for j := 0; j < P; j++ {
 			sub := cc
 			if c.Text == pat[j] {
@@ -227,8 +245,8 @@ func mcCyclicCost(chars []Char, pat []string) float64 {
 	return best
 }
 
-// mcEditDistance is the plain Levenshtein distance between token slices.
-func mcEditDistance(a, b []string) int {
+// editDistance is the plain Levenshtein distance between token slices.
+func editDistance(a, b []string) int {
 	prev := make([]int, len(b)+1)
 	cur := make([]int, len(b)+1)
 	for j := range prev {
@@ -248,35 +266,35 @@ func mcEditDistance(a, b []string) int {
 	return prev[len(b)]
 }
 
-// mcOccurrence is a stretch of decoded text read as one whole copy of an ID.
-type mcOccurrence struct {
+// occurrence is a stretch of decoded text read as one whole copy of an ID.
+type occurrence struct {
 	id, start, end, dist int
 }
 
-// mcOccurrences finds non-overlapping, nearly exact whole copies of the IDs
+// occurrences finds non-overlapping, nearly exact whole copies of the IDs
 // in the decoded tokens (distance ≤ 15 % of the ID, at least 1), each
 // credited to the one ID that fits it strictly best.
-func (m *Matcher) mcOccurrences(toks []string) []mcOccurrence {
-	var cands []mcOccurrence
+func (m *Matcher) occurrences(toks []string) []occurrence {
+	var cands []occurrence
 	for s := range toks {
 		for i, pat := range m.tokens {
 			P := len(pat)
 			maxD := max(1, int(0.15*float64(P)))
 			for l := max(1, P-maxD); l <= P+maxD && s+l <= len(toks); l++ {
-				d := mcEditDistance(toks[s:s+l], pat)
+				d := editDistance(toks[s:s+l], pat)
 				if d > maxD {
 					continue
 				}
 				// Credit it only if no other ID fits this stretch as well.
 				unique := true
 				for j, other := range m.tokens {
-					if j != i && mcEditDistance(toks[s:s+l], other) <= d {
+					if j != i && editDistance(toks[s:s+l], other) <= d {
 						unique = false
 						break
 					}
 				}
 				if unique {
-					cands = append(cands, mcOccurrence{i, s, s + l, d})
+					cands = append(cands, occurrence{i, s, s + l, d})
 				}
 			}
 		}
@@ -288,7 +306,7 @@ func (m *Matcher) mcOccurrences(toks []string) []mcOccurrence {
 		return cands[a].end-cands[a].start > cands[b].end-cands[b].start
 	})
 	used := make([]bool, len(toks))
-	var out []mcOccurrence
+	var out []occurrence
 	for _, c := range cands {
 		free := true
 		for k := c.start; k < c.end; k++ {
@@ -305,8 +323,8 @@ func (m *Matcher) mcOccurrences(toks []string) []mcOccurrence {
 	return out
 }
 
-// mcSoftmax turns log-likelihoods into shares.
-func mcSoftmax(ll []float64) []float64 {
+// softmax turns log-likelihoods into shares.
+func softmax(ll []float64) []float64 {
 	mx := math.Inf(-1)
 	for _, v := range ll {
 		mx = math.Max(mx, v)
@@ -323,8 +341,8 @@ func mcSoftmax(ll []float64) []float64 {
 	return p
 }
 
-// mcBestTwo returns the indices of the largest and second largest values.
-func mcBestTwo(p []float64) (int, int) {
+// bestTwo returns the indices of the largest and second largest values.
+func bestTwo(p []float64) (int, int) {
 	a, b := 0, -1
 	for i := 1; i < len(p); i++ {
 		if p[i] > p[a] {
@@ -341,48 +359,48 @@ func mcBestTwo(p []float64) (int, int) {
 // Text first: the decoded characters are aligned against each ID repeated
 // (weighted edit distance; partial copies at the burst edges are free;
 // unsure characters cost less), costs become log-likelihoods at 3 nats per
-// error and a mcSoftmax over the list gives each ID's share. When the text
+// error and a softmax over the list gives each ID's share. When the text
 // is too short or garbled for a confident answer, the template method
 // (see MatchEnvelope) scores each ID's ideal keying against d.Envelope on
 // its own: it takes no speed, timing or noise level from the decoded
-// text. Below MinConfidence the answer is UnknownID with a warning naming
+// text. Below MinConfidence the answer is Unknown with a warning naming
 // the best guess. Two different IDs found whole in one burst give the one
 // with more copies and a warning naming both. A clean decode that fits no
-// listed ID is reported as UnknownID without trying the template.
-func (m *Matcher) Match(d Decoded) Match {
+// listed ID is reported as Unknown without trying the template.
+func (m *Matcher) Match(d morse.Decoded) Result {
 	return m.match(d, d.Envelope, d.EnvRate)
 }
 
 // wordTemplates returns templates of up to three of the longest distinct
 // words of a decoded text (≥ 3 characters, no unreadable ones) that are
 // not listed IDs.
-func (m *Matcher) wordTemplates(text string) []tplTemplate {
+func (m *Matcher) wordTemplates(text string) []template {
 	listed := map[string]bool{}
 	for _, toks := range m.tokens {
 		var cs []string
 		for _, t := range toks {
-			cs = append(cs, morseTable[t])
+			cs = append(cs, code(t))
 		}
 		listed[strings.Join(cs, " ")] = true
 	}
 	words := strings.Fields(text)
 	sort.SliceStable(words, func(a, b int) bool { return len(words[a]) > len(words[b]) })
-	var out []tplTemplate
+	var out []template
 	for _, w := range words {
-		keys, err := splitMorseText(w)
+		keys, err := morse.Tokens(w)
 		if err != nil || len(keys) < 3 {
 			continue
 		}
 		var cs []string
 		for _, k := range keys {
-			cs = append(cs, morseTable[k])
+			cs = append(cs, code(k))
 		}
 		key := strings.Join(cs, " ")
 		if listed[key] {
 			continue
 		}
 		listed[key] = true
-		out = append(out, tplFromCodes(cs))
+		out = append(out, templateFromCodes(cs))
 		if len(out) == 3 {
 			break
 		}
@@ -391,13 +409,13 @@ func (m *Matcher) wordTemplates(text string) []tplTemplate {
 }
 
 // match is Match with the template method run on env (power at envRate).
-func (m *Matcher) match(d Decoded, env []float32, envRate float64) Match {
-	res := Match{ID: UnknownID}
-	res.Scores = make([]IDScore, len(m.ids))
+func (m *Matcher) match(d morse.Decoded, env []float32, envRate float64) Result {
+	res := Result{ID: Unknown}
+	res.Scores = make([]Score, len(m.ids))
 	for i, id := range m.ids {
 		res.Scores[i].ID = id
 	}
-	var chars []Char
+	var chars []morse.Char
 	var toks []string
 	for _, c := range d.Chars {
 		chars = append(chars, c)
@@ -409,7 +427,7 @@ func (m *Matcher) match(d Decoded, env []float32, envRate float64) Match {
 	}
 
 	// Two different IDs in one burst?
-	occ := m.mcOccurrences(toks)
+	occ := m.occurrences(toks)
 	count := make([]int, len(m.ids))
 	for _, o := range occ {
 		count[o.id]++
@@ -424,9 +442,9 @@ func (m *Matcher) match(d Decoded, env []float32, envRate float64) Match {
 	// Text likelihoods.
 	ll := make([]float64, len(m.ids))
 	for i, p := range m.tokens {
-		c := mcCyclicCost(chars, p)
+		c := cyclicCost(chars, p)
 		res.Scores[i].TextCost = c
-		ll[i] = -mcTextLambda * c
+		ll[i] = -textLambda * c
 	}
 	// The "other" hypothesis: an identifier not on the list, which fits all
 	// but 0.75 of a character per copy of the listed ones.
@@ -437,7 +455,7 @@ func (m *Matcher) match(d Decoded, env []float32, envRate float64) Match {
 		}
 	}
 	nCopies := math.Max(1, float64(len(chars))/float64(pBest))
-	pt := mcSoftmax(append(ll, -mcTextLambda*0.75*nCopies))
+	pt := softmax(append(ll, -textLambda*0.75*nCopies))
 	for i := range m.ids {
 		res.Scores[i].TextProb = pt[i]
 	}
@@ -454,7 +472,7 @@ func (m *Matcher) match(d Decoded, env []float32, envRate float64) Match {
 		res.Warnings = append(res.Warnings, "more than one identifier in one burst: "+strings.Join(names, ", "))
 		return res
 	}
-	bt, _ := mcBestTwo(pt)
+	bt, _ := bestTwo(pt)
 	textOK := len(chars) >= (minLen*3+4)/5 && res.Scores[bt].TextCost <= 0.3*float64(len(chars))
 	if textOK && pt[bt] >= m.MinConfidence {
 		res.ID, res.Confidence, res.Method = m.ids[bt], pt[bt], "text"
@@ -470,7 +488,7 @@ func (m *Matcher) match(d Decoded, env []float32, envRate float64) Match {
 	meanConf, nUnknown := 0.0, 0
 	for _, c := range chars {
 		meanConf += c.Confidence
-		if c.Text == mcUnknownChar {
+		if c.Text == morse.UnknownChar {
 			nUnknown++
 		}
 	}
@@ -478,7 +496,7 @@ func (m *Matcher) match(d Decoded, env []float32, envRate float64) Match {
 		meanConf /= float64(len(chars))
 	}
 	clean := len(chars) >= (minLen*3+4)/5 && meanConf >= 0.6 && float64(nUnknown) < 0.1*float64(len(chars)) && res.Scores[bt].TextCost >= 0.5
-	var extra []tplTemplate
+	var extra []template
 	if clean {
 		extra = m.wordTemplates(d.Text)
 	}

@@ -1,4 +1,4 @@
-package ident
+package schedule
 
 import (
 	"bytes"
@@ -6,6 +6,9 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"nullseek/ident/fingerprint"
+	"nullseek/ident/idmatch"
+	"nullseek/ident/internal/obstest"
 	"slices"
 	"strings"
 	"testing"
@@ -19,18 +22,18 @@ import (
 // carrying two carriers is reported on its own.
 func TestScheduleOverlaps(t *testing.T) {
 	rng := rand.New(rand.NewPCG(4, 4))
-	ids := []string{"N0CALL/1", "N0CALL/2", "N0CALL/3", UnknownIdent}
+	ids := []string{"N0CALL/1", "N0CALL/2", "N0CALL/3", idmatch.Unknown}
 	for trial := range 100 {
-		var obs []Observation
+		var obs []fingerprint.Observation
 		for i := range 3 + rng.IntN(40) {
 			s := rng.Float64() * 2000
-			obs = append(obs, Observation{Index: 100 + i, StartS: s, EndS: s + rng.Float64()*90, Ident: ids[rng.IntN(len(ids))]})
+			obs = append(obs, fingerprint.Observation{Index: 100 + i, StartS: s, EndS: s + rng.Float64()*90, Ident: ids[rng.IntN(len(ids))]})
 		}
 		want := map[[2]int]bool{}
 		for i := range obs {
 			for j := i + 1; j < len(obs); j++ {
 				a, b := obs[i], obs[j]
-				if a.Ident == b.Ident || a.Ident == UnknownIdent || b.Ident == UnknownIdent {
+				if a.Ident == b.Ident || a.Ident == idmatch.Unknown || b.Ident == idmatch.Unknown {
 					continue
 				}
 				if max(a.StartS, b.StartS) < min(a.EndS, b.EndS) {
@@ -39,7 +42,7 @@ func TestScheduleOverlaps(t *testing.T) {
 			}
 		}
 		// MergeGapS < 0: intervals as given (merging does not touch overlaps anyway).
-		plan, err := BuildSchedule(obs, nil, ScheduleOptions{MergeGapS: -1})
+		plan, err := Build(obs, nil, Options{MergeGapS: -1})
 		if err != nil {
 			if strings.Contains(err.Error(), "at least 3") {
 				continue
@@ -64,39 +67,39 @@ func TestScheduleOverlaps(t *testing.T) {
 	}
 
 	// Receiver flag: one burst with two carriers, no interval overlap.
-	obs := []Observation{
+	obs := []fingerprint.Observation{
 		{Index: 1, StartS: 10, EndS: 70, Ident: "N0CALL/1"},
 		{Index: 2, StartS: 75, EndS: 135, Ident: "N0CALL/2", DoubleCarrier: true},
 		{Index: 3, StartS: 310, EndS: 370, Ident: "N0CALL/1"},
 	}
-	plan, err := BuildSchedule(obs, nil, ScheduleOptions{})
+	plan, err := Build(obs, nil, Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
 	if len(plan.Overlaps) != 1 || plan.Overlaps[0].Source != "receiver" || plan.Overlaps[0].A != "N0CALL/2" ||
-		plan.Overlaps[0].IndexA != 2 || plan.Overlaps[0].B != UnknownIdent {
+		plan.Overlaps[0].IndexA != 2 || plan.Overlaps[0].B != idmatch.Unknown {
 		t.Fatalf("overlaps %+v", plan.Overlaps)
 	}
 }
 
 func TestScheduleErrors(t *testing.T) {
-	three := []Observation{{StartS: 10, EndS: 70, Ident: "A"}, {StartS: 310, EndS: 370, Ident: "A"}, {StartS: 610, EndS: 670, Ident: "A"}}
+	three := []fingerprint.Observation{{StartS: 10, EndS: 70, Ident: "A"}, {StartS: 310, EndS: 370, Ident: "A"}, {StartS: 610, EndS: 670, Ident: "A"}}
 	for _, tc := range []struct {
 		name   string
-		obs    []Observation
+		obs    []fingerprint.Observation
 		labels []string
 		want   string
 	}{
 		{"none", nil, nil, "at least 3"},
 		{"two", three[:2], nil, "at least 3"},
-		{"unlabelled", []Observation{{StartS: 1, EndS: 2}, {StartS: 3, EndS: 4}, {StartS: 5, EndS: 6, Ident: UnknownIdent}}, nil, "at least 3"},
+		{"unlabelled", []fingerprint.Observation{{StartS: 1, EndS: 2}, {StartS: 3, EndS: 4}, {StartS: 5, EndS: 6, Ident: idmatch.Unknown}}, nil, "at least 3"},
 		{"labels_length", three, []string{"A"}, "labels"},
-		{"nan_start", append(slices.Clone(three), Observation{StartS: math.NaN(), EndS: 1, Ident: "A"}), nil, "not a finite"},
-		{"reversed", append(slices.Clone(three), Observation{StartS: 9, EndS: 1, Ident: "A"}), nil, "before it starts"},
-		{"huge", append(slices.Clone(three), Observation{StartS: 1e12, EndS: 1e12, Ident: "A"}), nil, "out of range"},
+		{"nan_start", append(slices.Clone(three), fingerprint.Observation{StartS: math.NaN(), EndS: 1, Ident: "A"}), nil, "not a finite"},
+		{"reversed", append(slices.Clone(three), fingerprint.Observation{StartS: 9, EndS: 1, Ident: "A"}), nil, "before it starts"},
+		{"huge", append(slices.Clone(three), fingerprint.Observation{StartS: 1e12, EndS: 1e12, Ident: "A"}), nil, "out of range"},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
-			_, err := BuildSchedule(tc.obs, tc.labels, ScheduleOptions{})
+			_, err := Build(tc.obs, tc.labels, Options{})
 			if err == nil || !strings.Contains(err.Error(), tc.want) || !strings.HasPrefix(err.Error(), "build schedule:") {
 				t.Fatalf("error %v, want one mentioning %q", err, tc.want)
 			}
@@ -106,13 +109,13 @@ func TestScheduleErrors(t *testing.T) {
 
 // slotTwoTx is a small clean schedule: N0CALL/1 five cycles, N0CALL/2 heard
 // once (no period).
-func slotTwoTx(start time.Time) []Observation {
-	var obs []Observation
+func slotTwoTx(start time.Time) []fingerprint.Observation {
+	var obs []fingerprint.Observation
 	for k := range 5 {
 		s := 20 + float64(k)*300.006
-		obs = append(obs, Observation{StartS: s, EndS: s + 60, Ident: "N0CALL/1", IdentConfidence: 1})
+		obs = append(obs, fingerprint.Observation{StartS: s, EndS: s + 60, Ident: "N0CALL/1", IdentConfidence: 1})
 	}
-	obs = append(obs, Observation{StartS: 420, EndS: 480, Ident: "N0CALL/2", IdentConfidence: 1})
+	obs = append(obs, fingerprint.Observation{StartS: 420, EndS: 480, Ident: "N0CALL/2", IdentConfidence: 1})
 	for i := range obs {
 		obs[i].Index = i
 		if !start.IsZero() {
@@ -125,7 +128,7 @@ func slotTwoTx(start time.Time) []Observation {
 // TestScheduleSingleBurstTransmitter: a transmitter heard once has no period
 // (NaN, null in JSON, a reason) but keeps its place in the order.
 func TestScheduleSingleBurstTransmitter(t *testing.T) {
-	plan, err := BuildSchedule(slotTwoTx(time.Time{}), nil, ScheduleOptions{})
+	plan, err := Build(slotTwoTx(time.Time{}), nil, Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -172,7 +175,7 @@ func TestScheduleJSONShape(t *testing.T) {
 				c.start = start
 			}
 			obs, endS := slotSimulate(c, rng)
-			plan, err := BuildSchedule(obs, nil, ScheduleOptions{NominalPeriodS: 300, CaptureEndS: endS})
+			plan, err := Build(obs, nil, Options{NominalPeriodS: 300, CaptureEndS: endS})
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -250,8 +253,8 @@ func TestScheduleWriteTable(t *testing.T) {
 	rng := rand.New(rand.NewPCG(2, 99))
 	c := slotSimCases[2]
 	obs, endS := slotSimulate(c, rng)
-	obs = append(obs, Observation{Index: 999, StartS: 200, EndS: 210, Ident: "N0CALL/9"})
-	plan, err := BuildSchedule(obs, nil, ScheduleOptions{NominalPeriodS: 300, CaptureEndS: endS})
+	obs = append(obs, fingerprint.Observation{Index: 999, StartS: 200, EndS: 210, Ident: "N0CALL/9"})
+	plan, err := Build(obs, nil, Options{NominalPeriodS: 300, CaptureEndS: endS})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -277,55 +280,55 @@ func TestScheduleWriteTable(t *testing.T) {
 // cycle numbering (truth: period 300.012 s).
 func TestScheduleRobustness(t *testing.T) {
 	const p = 300.012
-	base := func() []Observation {
-		var obs []Observation
+	base := func() []fingerprint.Observation {
+		var obs []fingerprint.Observation
 		for k := range 8 {
 			s := 30 + float64(k)*p
-			obs = append(obs, Observation{StartS: s, EndS: s + 60, Ident: "N0CALL/1"})
-			obs = append(obs, Observation{StartS: s + 100, EndS: s + 160, Ident: "N0CALL/2"})
+			obs = append(obs, fingerprint.Observation{StartS: s, EndS: s + 60, Ident: "N0CALL/1"})
+			obs = append(obs, fingerprint.Observation{StartS: s + 100, EndS: s + 160, Ident: "N0CALL/2"})
 		}
 		return obs
 	}
 	for _, tc := range []struct {
 		name  string
-		edit  func([]Observation) []Observation
-		opts  ScheduleOptions
+		edit  func([]fingerprint.Observation) []fingerprint.Observation
+		opts  Options
 		note  string
 		fitN1 int
 	}{
-		{"clean", func(o []Observation) []Observation { return o }, ScheduleOptions{}, "", 8},
-		{"fragment", func(o []Observation) []Observation {
+		{"clean", func(o []fingerprint.Observation) []fingerprint.Observation { return o }, Options{}, "", 8},
+		{"fragment", func(o []fingerprint.Observation) []fingerprint.Observation {
 			// Cycle 3 of N0CALL/1 fades out for 4 s in the middle.
 			o[6].EndS = o[6].StartS + 25
-			return append(o, Observation{StartS: o[6].StartS + 29, EndS: o[6].StartS + 60, Ident: "N0CALL/1"})
-		}, ScheduleOptions{}, "fragment", 8},
-		{"cut_at_capture_start", func(o []Observation) []Observation {
+			return append(o, fingerprint.Observation{StartS: o[6].StartS + 29, EndS: o[6].StartS + 60, Ident: "N0CALL/1"})
+		}, Options{}, "fragment", 8},
+		{"cut_at_capture_start", func(o []fingerprint.Observation) []fingerprint.Observation {
 			// N0CALL/2 was already sending when the recording started.
-			return append(o, Observation{StartS: 0, EndS: 20, Ident: "N0CALL/2"})
-		}, ScheduleOptions{}, "", 8},
-		{"spurious_start", func(o []Observation) []Observation {
+			return append(o, fingerprint.Observation{StartS: 0, EndS: 20, Ident: "N0CALL/2"})
+		}, Options{}, "", 8},
+		{"spurious_start", func(o []fingerprint.Observation) []fingerprint.Observation {
 			o[8].StartS += 2.5 // a burst logged 2.5 s late
 			o[8].EndS += 2.5
 			return o
-		}, ScheduleOptions{}, "dropped", 7},
-		{"stuck_carrier_elsewhere", func(o []Observation) []Observation {
+		}, Options{}, "dropped", 7},
+		{"stuck_carrier_elsewhere", func(o []fingerprint.Observation) []fingerprint.Observation {
 			// Another transmitter keyed for 400 s once must not stop the
 			// 300 s cycle from being found (period > own on-time only).
-			return append(o, Observation{StartS: 1000, EndS: 1400, Ident: "N0CALL/9"})
-		}, ScheduleOptions{}, "", 8},
-		{"wrong_nominal", func(o []Observation) []Observation { return o }, ScheduleOptions{NominalPeriodS: 360}, "nominal period", 8},
+			return append(o, fingerprint.Observation{StartS: 1000, EndS: 1400, Ident: "N0CALL/9"})
+		}, Options{}, "", 8},
+		{"wrong_nominal", func(o []fingerprint.Observation) []fingerprint.Observation { return o }, Options{NominalPeriodS: 360}, "nominal period", 8},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			obs := tc.edit(base())
 			for i := range obs {
 				obs[i].Index = i
 			}
-			plan, err := BuildSchedule(obs, nil, tc.opts)
+			plan, err := Build(obs, nil, tc.opts)
 			if err != nil {
 				t.Fatal(err)
 			}
 			tx1, tx2 := plan.Transmitter("N0CALL/1"), plan.Transmitter("N0CALL/2")
-			for _, tx := range []*SlotTransmitter{tx1, tx2} {
+			for _, tx := range []*Transmitter{tx1, tx2} {
 				if math.Abs(tx.PeriodS-p) > 1e-6 {
 					t.Errorf("%s period %.6f s, want %.6f", tx.ID, tx.PeriodS, p)
 				}
@@ -346,21 +349,21 @@ func TestScheduleRobustness(t *testing.T) {
 	}
 }
 
-// TestScheduleFromClusters: bursts labelled by ClusterTransmitters (two with
+// TestScheduleFromClusters: bursts labelled by fingerprint.Cluster (two with
 // unreadable IDs) give the same schedule as the true labels.
 func TestScheduleFromClusters(t *testing.T) {
 	rng := rand.New(rand.NewPCG(9, 9))
-	txs := []fpSimTx{
-		{id: "N0CALL/1", offsetHz: -120, toneHz: 800, unreadableK: []int{0}},
-		{id: "N0CALL/2", offsetHz: 35, toneHz: 800},
-		{id: "N0CALL/3", offsetHz: 150, toneHz: 1000, unreadableK: []int{2, 3}},
+	txs := []obstest.SimTx{
+		{ID: "N0CALL/1", OffsetHz: -120, ToneHz: 800, UnreadableK: []int{0}},
+		{ID: "N0CALL/2", OffsetHz: 35, ToneHz: 800},
+		{ID: "N0CALL/3", OffsetHz: 150, ToneHz: 1000, UnreadableK: []int{2, 3}},
 	}
-	obs, _ := fpSimulate(txs, 6, 3, 2, rng)
-	res, err := ClusterTransmitters(obs, ClusterOptions{})
+	obs, _ := obstest.Simulate(txs, 6, 3, 2, rng)
+	res, err := fingerprint.Cluster(obs, fingerprint.Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
-	plan, err := BuildSchedule(obs, res.Idents, ScheduleOptions{NominalPeriodS: 300})
+	plan, err := Build(obs, res.Idents, Options{NominalPeriodS: 300})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -373,7 +376,7 @@ func TestScheduleFromClusters(t *testing.T) {
 		}
 	}
 	// Fingerprint labels work as well.
-	plan, err = BuildSchedule(obs, res.Labels, ScheduleOptions{})
+	plan, err = Build(obs, res.Labels, Options{})
 	if err != nil || !slices.Equal(plan.Order, []string{"T1", "T2", "T3"}) {
 		t.Fatalf("order %v, %v", plan.Order, err)
 	}
@@ -385,7 +388,7 @@ func FuzzBuildSchedule(f *testing.F) {
 	f.Add(bytes.Repeat([]byte{33, 20, 5, 90, 1, 150}, 40))
 	f.Add(bytes.Repeat([]byte{0, 0, 0, 0, 0, 0}, 10))
 	f.Fuzz(func(t *testing.T, data []byte) {
-		obs := slotFuzzObservations(data)
+		obs := obstest.FuzzObservations(data)
 		var labels []string
 		if len(data) > 0 && data[0]%2 == 1 {
 			labels = make([]string, len(obs))
@@ -393,12 +396,12 @@ func FuzzBuildSchedule(f *testing.F) {
 				labels[i] = fmt.Sprintf("T%d", i%3)
 			}
 		}
-		opts := ScheduleOptions{}
+		opts := Options{}
 		if len(data) > 1 && data[1]%3 == 0 {
 			opts.NominalPeriodS = float64(data[1]) + 1
 			opts.CaptureStart = time.Date(2025, 1, 1, 0, 0, 0, 0, time.UTC)
 		}
-		plan, err := BuildSchedule(obs, labels, opts)
+		plan, err := Build(obs, labels, opts)
 		if err != nil {
 			return
 		}
