@@ -3,6 +3,7 @@ package survey
 import (
 	"context"
 	"math"
+	"nullseek/ident"
 	"nullseek/ident/morse"
 	"strings"
 	"testing"
@@ -37,7 +38,7 @@ func TestClippedSweep(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	res, err := Run(context.Background(), src, Options{IDs: []string{"TEST/1"},
+	res, err := Run(context.Background(), src, Options{Ident: ident.Options{IDs: []string{"TEST/1"}},
 		Receiver: receiver.Config{FreqHz: sc.ChannelHz, MergeGapS: 1.5}}, nil)
 	if err != nil {
 		t.Fatal(err)

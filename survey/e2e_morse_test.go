@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand"
+	"nullseek/ident"
 	"nullseek/ident/idmatch"
 	"nullseek/ident/morse"
 	"nullseek/internal/testtool"
@@ -94,8 +95,7 @@ func surveyCU8(t *testing.T, path string, ids []string, rc receiver.Config) *Res
 	defer src.Close()
 	res, err := Run(context.Background(), src, Options{
 		Receiver: rc,
-		Mode:     morse.ModeAuto,
-		IDs:      ids,
+		Ident:    ident.Options{Mode: morse.ModeAuto, IDs: ids},
 	}, nil)
 	if err != nil {
 		t.Fatal(err)

@@ -3,6 +3,7 @@ package survey
 import (
 	"context"
 	"math"
+	"nullseek/ident"
 	"nullseek/ident/idmatch"
 	"nullseek/ident/morse"
 	"nullseek/ident/schedule"
@@ -91,8 +92,7 @@ func TestE2EScheduleSimulated(t *testing.T) {
 	}
 	res, err := Run(context.Background(), src, Options{
 		Receiver: receiver.Config{FreqHz: sc.ChannelHz},
-		Mode:     morse.ModeFM,
-		IDs:      ids,
+		Ident:    ident.Options{Mode: morse.ModeFM, IDs: ids},
 	}, nil)
 	if err != nil {
 		t.Fatal(err)

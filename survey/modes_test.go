@@ -2,6 +2,7 @@ package survey
 
 import (
 	"context"
+	"nullseek/ident"
 	"nullseek/ident/morse"
 	"testing"
 	"time"
@@ -40,7 +41,7 @@ func TestKeyingModes(t *testing.T) {
 	}
 	// Keyed carrier has real silences between elements and words: keep them
 	// inside one burst.
-	res, err := Run(context.Background(), src, Options{IDs: ids, Receiver: receiverConfig(sc.ChannelHz, 1.0)}, nil)
+	res, err := Run(context.Background(), src, Options{Ident: ident.Options{IDs: ids}, Receiver: receiverConfig(sc.ChannelHz, 1.0)}, nil)
 	if err != nil {
 		t.Fatal(err)
 	}

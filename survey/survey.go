@@ -1,18 +1,18 @@
 // Package survey runs the whole listening job on one recording: the
 // receiver finds the bursts, ident reads their Morse identifiers and
-// fingerprints and groups them into transmitters. It wires packages
-// together; the algorithms live in receiver and ident.
+// names the transmitters by identifier and fingerprint. It wires packages
+// together; the algorithms and the identification policy live in receiver
+// and ident.
 package survey
 
 import (
 	"context"
 	"fmt"
 	"math"
+	"nullseek/ident"
 	"nullseek/ident/fingerprint"
 	"nullseek/ident/idmatch"
 	"nullseek/ident/morse"
-	"sort"
-	"strings"
 	"time"
 
 	"nullseek/receiver"
@@ -22,18 +22,11 @@ import (
 // Options configure a survey.
 type Options struct {
 	Receiver receiver.Config
-	// Mode is how the identifiers are keyed (auto by default).
-	Mode morse.Mode
-	// IDs is the event's list of expected identifiers (may be empty).
-	IDs []string
+	// Ident says how transmissions are identified (keying mode, expected
+	// identifiers, minimum confidence, fingerprint tolerances).
+	Ident ident.Options
 	// NoIdent skips Morse decoding (levels and timing only).
 	NoIdent bool
-	// MinConfidence is the least matcher confidence reported as an
-	// identifier (default 0.7); below it the burst is "unknown" and the
-	// best candidate goes into a warning.
-	MinConfidence float64
-	// Cluster tunes the grouping of bursts into transmitters.
-	Cluster fingerprint.Options
 }
 
 // Record is one burst with what identification found. Its JSON form, a
@@ -63,21 +56,13 @@ type Result struct {
 // Run surveys src. progress (may be nil) gets the input samples consumed.
 func Run(ctx context.Context, src sdr.Source, opts Options, progress func(int64)) (*Result, error) {
 	info := src.Info()
-	var matcher *idmatch.Matcher
-	if len(opts.IDs) > 0 {
-		m, err := idmatch.New(opts.IDs)
-		if err != nil {
-			return nil, err
-		}
-		m.MinConfidence = opts.MinConfidence
-		if m.MinConfidence <= 0 {
-			m.MinConfidence = 0.7
-		}
-		matcher = m
+	idf, err := ident.New(opts.Ident)
+	if err != nil {
+		return nil, err
 	}
 	rc := opts.Receiver
 	rc.KeepAudio = !opts.NoIdent
-	if opts.Mode == morse.ModeCW && rc.MergeGapS == 0 {
+	if opts.Ident.Mode == morse.ModeCW && rc.MergeGapS == 0 {
 		rc.MergeGapS = 2.5 // word gaps of keyed carrier at 5 WPM stay inside one burst
 	}
 	sc, err := receiver.NewScanner(info, rc)
@@ -88,7 +73,11 @@ func Run(ctx context.Context, src sdr.Source, opts Options, progress func(int64)
 	emit := func(b *receiver.Burst) error {
 		r := Record{Burst: *b, Ident: idmatch.Unknown}
 		if !opts.NoIdent {
-			identify(&r, b, opts.Mode, matcher)
+			tr := idf.Begin()
+			if err := tr.Add(segmentOf(b)); err != nil {
+				return err
+			}
+			r.setIdent(tr.Finish())
 		}
 		if b.DoubleCarrier {
 			r.Warnings = append(r.Warnings, fmt.Sprintf("carrier stepped by %.0f Hz inside the burst: two transmitters on the air at once?", b.CarrierSpreadHz))
@@ -104,31 +93,46 @@ func Run(ctx context.Context, src sdr.Source, opts Options, progress func(int64)
 		return res, err // the source's errors name it already
 	}
 	if len(res.Records) > 0 && !opts.NoIdent {
-		obs := Observations(res.Records)
-		cr, err := fingerprint.Cluster(obs, opts.Cluster)
+		nm, err := idf.Name(Observations(res.Records))
 		if err != nil {
 			return res, err
 		}
-		res.Clusters = cr
-		for i := range res.Records {
-			res.Records[i].Transmitter = cr.Labels[i]
-			if !known(res.Records[i].Ident) && known(cr.Idents[i]) {
-				res.Records[i].Ident = cr.Idents[i]
-				res.Records[i].IdentMethod = "fingerprint"
-				for _, c := range cr.Clusters {
-					if c.Label == cr.Labels[i] {
-						res.Records[i].IdentConfidence = c.IdentShare
-					}
-				}
-				res.Records[i].Warnings = append(res.Records[i].Warnings,
-					"identifier not readable; attributed to "+cr.Labels[i]+" by carrier offset and tone")
+		res.Clusters = nm.Clusters
+		for i, a := range nm.Bursts {
+			r := &res.Records[i]
+			r.Transmitter = a.Transmitter
+			r.Ident, r.IdentConfidence, r.IdentMethod = a.Ident, a.Confidence, a.Method
+			if a.Note != "" {
+				r.Warnings = append(r.Warnings, a.Note)
 			}
 		}
 	}
 	return res, nil
 }
 
-func known(id string) bool { return id != "" && !strings.EqualFold(id, idmatch.Unknown) }
+func known(id string) bool { return idmatch.Known(id) }
+
+// setIdent copies identification's findings into the record.
+func (r *Record) setIdent(b ident.Burst) {
+	r.Mode = b.Mode.String()
+	r.Text, r.ToneHz, r.WPM = b.Text, b.ToneHz, b.WPM
+	r.Ident, r.IdentConfidence, r.IdentMethod = b.Ident, b.Confidence, b.Method
+	r.Warnings = append(r.Warnings, b.Warnings...)
+}
+
+// segmentOf hands a burst's audio and level track to identification.
+func segmentOf(b *receiver.Burst) ident.Segment {
+	seg := ident.Segment{AudioStartS: b.AudioStartS, AudioRateHz: b.ChannelRateHz, FM: b.FMAudio, AM: b.AMAudio}
+	if len(b.Level) >= 2 {
+		seg.Power = make([]float32, len(b.Level))
+		for i, l := range b.Level {
+			seg.Power[i] = float32(math.Pow(10, l.LevelDB/10))
+		}
+		seg.PowerStartS = b.Level[0].T
+		seg.PowerRateHz = float64(len(b.Level)-1) / (b.Level[len(b.Level)-1].T - b.Level[0].T)
+	}
+	return seg
+}
 
 // Observations turns records into ident's per-burst observations.
 func Observations(recs []Record) []fingerprint.Observation {
@@ -137,120 +141,11 @@ func Observations(recs []Record) []fingerprint.Observation {
 		obs[i] = fingerprint.Observation{
 			Index: r.Index, StartS: r.StartS, EndS: r.EndS, Start: r.Start,
 			OffsetHz: r.OffsetHz, ToneHz: r.ToneHz, LevelDB: r.LevelDB,
-			Ident: r.Ident, IdentConfidence: r.IdentConfidence,
+			Ident: r.Ident, IdentConfidence: r.IdentConfidence, IdentMethod: r.IdentMethod,
 			DoubleCarrier: r.DoubleCarrier,
 		}
 	}
 	return obs
-}
-
-// identify decodes the burst's Morse and matches it to the expected IDs.
-func identify(r *Record, b *receiver.Burst, mode morse.Mode, m *idmatch.Matcher) {
-	rate := b.ChannelRateHz
-	power, powerRate := levelPower(b)
-	if mode == morse.ModeAuto {
-		mode = morse.DetectMode(b.FMAudio, b.AMAudio, rate, power, powerRate)
-	}
-	r.Mode = mode.String()
-	opts := morse.DecodeOptions{Mode: mode}
-	audio := b.FMAudio
-	if mode == morse.ModeAM {
-		audio = b.AMAudio
-	}
-	if m != nil && mode != morse.ModeCW {
-		// With a list, the template can name a burst whose text is lost.
-		d, mt, err := m.MatchTone(audio, rate, opts)
-		if err != nil {
-			r.Warnings = append(r.Warnings, "no identifier: "+err.Error())
-			return
-		}
-		setDecoded(r, d)
-		r.Ident, r.IdentConfidence, r.IdentMethod = mt.ID, mt.Confidence, mt.Method
-		r.Warnings = append(r.Warnings, mt.Warnings...)
-		return
-	}
-	var d morse.Decoded
-	var err error
-	if mode == morse.ModeCW {
-		d, err = morse.DecodeKeyed(power, powerRate, opts)
-	} else {
-		d, err = morse.DecodeTone(audio, rate, opts)
-	}
-	if err != nil {
-		r.Warnings = append(r.Warnings, "no identifier decoded: "+err.Error())
-		if m != nil && len(power) > 0 {
-			// keyed carrier: the template on the power track itself
-			mt := m.MatchEnvelope(power, powerRate)
-			r.Ident, r.IdentConfidence, r.IdentMethod = mt.ID, mt.Confidence, mt.Method
-		}
-		return
-	}
-	setDecoded(r, d)
-	if m != nil {
-		mt := m.Match(d)
-		r.Ident, r.IdentConfidence, r.IdentMethod = mt.ID, mt.Confidence, mt.Method
-		r.Warnings = append(r.Warnings, mt.Warnings...)
-		return
-	}
-	r.Ident, r.IdentConfidence, r.IdentMethod = repeatedWord(d)
-}
-
-// setDecoded copies what the decoder read into the record.
-func setDecoded(r *Record, d morse.Decoded) {
-	r.Text = d.Text
-	r.ToneHz = d.ToneHz
-	r.WPM = d.WPM
-	r.Warnings = append(r.Warnings, d.Warnings...)
-}
-
-// repeatedWord names a burst without an ID list: the word the beacon sent
-// most often, when it was sent at least twice and read with confidence.
-func repeatedWord(d morse.Decoded) (string, float64, string) {
-	words := strings.Fields(d.Text)
-	count := map[string]int{}
-	for _, w := range words {
-		if len([]rune(w)) >= 3 && !strings.Contains(w, "*") {
-			count[w]++
-		}
-	}
-	best, n := "", 0
-	keys := make([]string, 0, len(count))
-	for k := range count {
-		keys = append(keys, k)
-	}
-	sort.Strings(keys)
-	for _, k := range keys {
-		if count[k] > n {
-			best, n = k, count[k]
-		}
-	}
-	if n < 2 {
-		return idmatch.Unknown, 0, ""
-	}
-	var conf float64
-	var nc int
-	for _, c := range d.Chars {
-		conf += c.Confidence
-		nc++
-	}
-	if nc > 0 {
-		conf /= float64(nc)
-	}
-	share := float64(n) / float64(len(words))
-	return best, math.Min(1, conf*share), "repeated-text"
-}
-
-// levelPower returns the burst's power track as linear power.
-func levelPower(b *receiver.Burst) ([]float32, float64) {
-	if len(b.Level) < 2 {
-		return nil, 0
-	}
-	p := make([]float32, len(b.Level))
-	for i, l := range b.Level {
-		p[i] = float32(math.Pow(10, l.LevelDB/10))
-	}
-	rate := float64(len(b.Level)-1) / (b.Level[len(b.Level)-1].T - b.Level[0].T)
-	return p, rate
 }
 
 // StartTime formats a burst time for tables: UTC clock time when known.

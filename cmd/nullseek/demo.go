@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"nullseek/ident"
 	"nullseek/ident/schedule"
 	"nullseek/internal/atomicfile"
 	"os"
@@ -81,7 +82,7 @@ func runDemo(ctx context.Context, w io.Writer, outDir string, writeIQ bool) erro
 		t0 := time.Now()
 		res, err := survey.Run(ctx, src, survey.Options{
 			Receiver: demoReceiver(sc),
-			IDs:      ids,
+			Ident:    ident.Options{IDs: ids},
 		}, nil)
 		if err != nil {
 			return err

@@ -4,6 +4,7 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
+	"nullseek/ident"
 	"nullseek/ident/fingerprint"
 	"nullseek/ident/idmatch"
 	"nullseek/ident/morse"
@@ -27,7 +28,7 @@ func (f *identFlags) add(cmd *cobra.Command) {
 	cmd.Flags().StringVar(&f.mode, "mode", "auto", "how the identifier is keyed: auto, fm (tone on FM), am (tone on AM, A2A) or cw (keyed carrier)")
 	cmd.Flags().StringVar(&f.ids, "ids", "", "expected identifiers, comma-separated, or @FILE with one per line")
 	cmd.Flags().BoolVar(&f.noIdent, "no-ident", false, "skip Morse decoding; report levels and timing only")
-	cmd.Flags().Float64Var(&f.minConf, "min-confidence", 0.7, "least confidence (0–1) at which a burst is given a listed identifier; below it: unknown")
+	cmd.Flags().Float64Var(&f.minConf, "min-confidence", idmatch.DefaultMinConfidence, "least confidence (0–1) at which a burst is given a listed identifier; below it: unknown")
 }
 
 func (f *identFlags) options() (morse.Mode, []string, error) {
@@ -80,7 +81,7 @@ func surveyRecording(ctx context.Context, path string, in *inputFlags, idf *iden
 	}
 	defer src.Close()
 	prog, done := progress(src.Info(), "scanning")
-	res, err := survey.Run(ctx, src, survey.Options{Receiver: cfg, Mode: mode, IDs: ids, NoIdent: idf.noIdent, MinConfidence: idf.minConf}, prog)
+	res, err := survey.Run(ctx, src, survey.Options{Receiver: cfg, Ident: ident.Options{Mode: mode, IDs: ids, MinConfidence: idf.minConf}, NoIdent: idf.noIdent}, prog)
 	done()
 	return res, err
 }

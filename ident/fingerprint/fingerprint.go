@@ -42,6 +42,9 @@ type Observation struct {
 	Ident string
 	// IdentConfidence is the matcher's confidence in Ident, 0…1.
 	IdentConfidence float64
+	// IdentMethod says how Ident was found (informational here; see
+	// ident.Burst.Method).
+	IdentMethod string
 	// DoubleCarrier is set by the receiver when it saw two carriers at once
 	// during this burst (an overlap with an unidentified second transmitter).
 	DoubleCarrier bool

@@ -78,42 +78,106 @@ type Matcher struct {
 // ErrBadList is wrapped by errors about the identifier list.
 var ErrBadList = errors.New("bad identifier list")
 
-// New checks ids and prepares a matcher. Empty IDs, duplicates
-// (compared case-insensitively, after collapsing spaces) and characters
-// Morse cannot send are errors naming the ID and the character.
-func New(ids []string) (*Matcher, error) {
+// MaxIDs is the longest identifier list a Matcher takes: an event's
+// transmitters, a club's beacons or a region's repeaters, with room to
+// spare. Matching costs grow with the list (see BenchmarkMatchListSize).
+const MaxIDs = 1000
+
+// MaxIDLen is the most Morse characters one identifier may have. An
+// identifier is a call with a suffix, such as N0CALL/12; 32 characters
+// take about 20 s at 20 WPM, longer than any beacon's identifier.
+const MaxIDLen = 32
+
+// parsedList is a checked identifier list: the IDs as given (trimmed) and
+// their decoder tokens (spaces dropped).
+type parsedList struct {
+	ids    []string
+	tokens [][]string
+}
+
+// listBuilder checks identifiers one at a time (see parseList).
+type listBuilder struct {
+	parsedList
+	seen map[string]string
+}
+
+// add checks one identifier (the n-th, from 1) against the rules and the
+// ones added before.
+func (lb *listBuilder) add(raw string, n int) error {
+	if len(lb.ids) >= MaxIDs {
+		return fmt.Errorf("more than %d identifiers; split the list by event or band: %w", MaxIDs, ErrBadList)
+	}
+	id := strings.TrimSpace(raw)
+	if id == "" {
+		return fmt.Errorf("identifier %d is empty: %w", n, ErrBadList)
+	}
+	if strings.ContainsFunc(id, func(r rune) bool { return r < 0x20 || r == 0x7f }) {
+		return fmt.Errorf("identifier %q contains a control character or line break: %w", id, ErrBadList)
+	}
+	if len(id) > 8*MaxIDLen { // no need to tokenise a megabyte to refuse it
+		return fmt.Errorf("identifier %.40q… is %d bytes long; at most %d characters are accepted: %w", id, len(id), MaxIDLen, ErrBadList)
+	}
+	keys, err := morse.Tokens(id)
+	if err != nil {
+		return fmt.Errorf("identifier %q: %w", id, err)
+	}
+	var toks []string
+	for _, k := range keys {
+		if k != " " {
+			toks = append(toks, k)
+		}
+	}
+	if len(toks) > MaxIDLen {
+		return fmt.Errorf("identifier %.40q has %d characters; at most %d are accepted: %w", id, len(toks), MaxIDLen, ErrBadList)
+	}
+	key := strings.Join(toks, "")
+	if lb.seen == nil {
+		lb.seen = map[string]string{}
+	}
+	if prev, ok := lb.seen[key]; ok {
+		return fmt.Errorf("identifier %q duplicates %q (Morse cannot tell them apart): %w", id, prev, ErrBadList)
+	}
+	lb.seen[key] = id
+	lb.ids = append(lb.ids, id)
+	lb.tokens = append(lb.tokens, toks)
+	return nil
+}
+
+// parseList checks ids: at least one and at most MaxIDs, none empty, none
+// longer than MaxIDLen characters, no control characters, nothing Morse
+// cannot send, no two that Morse cannot tell apart (compared after mapping
+// to the decoder's tokens, so case and spacing do not matter).
+func parseList(ids []string) (parsedList, error) {
 	if len(ids) == 0 {
-		return nil, fmt.Errorf("no identifiers given: %w", ErrBadList)
+		return parsedList{}, fmt.Errorf("no identifiers given: %w", ErrBadList)
 	}
-	m := &Matcher{MinConfidence: DefaultMinConfidence}
-	seen := map[string]string{}
+	if len(ids) > MaxIDs {
+		return parsedList{}, fmt.Errorf("%d identifiers; at most %d are accepted (split the list by event or band): %w", len(ids), MaxIDs, ErrBadList)
+	}
+	var lb listBuilder
 	for i, raw := range ids {
-		id := strings.TrimSpace(raw)
-		if id == "" {
-			return nil, fmt.Errorf("identifier %d is empty: %w", i+1, ErrBadList)
+		if err := lb.add(raw, i+1); err != nil {
+			return parsedList{}, err
 		}
-		if strings.ContainsFunc(id, func(r rune) bool { return r < 0x20 || r == 0x7f }) {
-			return nil, fmt.Errorf("identifier %q contains a control character or line break: %w", id, ErrBadList)
-		}
-		keys, err := morse.Tokens(id)
-		if err != nil {
-			return nil, fmt.Errorf("identifier %q: %w", id, err)
-		}
-		var toks []string
-		for _, k := range keys {
-			if k != " " {
-				toks = append(toks, k)
-			}
-		}
-		key := strings.Join(toks, "")
-		if prev, ok := seen[key]; ok {
-			return nil, fmt.Errorf("identifier %q duplicates %q (Morse cannot tell them apart): %w", id, prev, ErrBadList)
-		}
-		seen[key] = id
-		m.ids = append(m.ids, id)
-		m.tokens = append(m.tokens, toks)
 	}
-	return m, nil
+	return lb.parsedList, nil
+}
+
+// CheckList checks an identifier list as New does, without building a
+// matcher.
+func CheckList(ids []string) error {
+	_, err := parseList(ids)
+	return err
+}
+
+// New checks ids (see CheckList) and prepares a matcher. Errors name the
+// ID and what is wrong with it.
+func New(ids []string) (*Matcher, error) {
+	p, err := parseList(ids)
+	if err != nil {
+		return nil, err
+	}
+	return &Matcher{ids: p.ids, tokens: p.tokens, MinConfidence: DefaultMinConfidence}, nil
 }
 
 // IDs returns the identifiers in list order.
@@ -129,7 +193,7 @@ func ParseList(s string) ([]string, error) {
 	if len(ids) == 1 && ids[0] == "" {
 		return nil, fmt.Errorf("empty identifier list: %w", ErrBadList)
 	}
-	if _, err := New(ids); err != nil {
+	if err := CheckList(ids); err != nil {
 		return nil, err
 	}
 	return ids, nil
@@ -138,7 +202,7 @@ func ParseList(s string) ([]string, error) {
 // ReadList reads identifiers one per line; blank lines and text after
 // '#' are ignored. Errors name the line.
 func ReadList(r io.Reader) ([]string, error) {
-	var ids []string
+	var lb listBuilder
 	sc := bufio.NewScanner(r)
 	line := 0
 	for sc.Scan() {
@@ -151,18 +215,17 @@ func ReadList(r io.Reader) ([]string, error) {
 		if t == "" {
 			continue
 		}
-		if _, err := New(append(append([]string(nil), ids...), t)); err != nil {
+		if err := lb.add(t, len(lb.ids)+1); err != nil {
 			return nil, fmt.Errorf("line %d: %w", line, err)
 		}
-		ids = append(ids, t)
 	}
 	if err := sc.Err(); err != nil {
 		return nil, fmt.Errorf("read identifier list: %w", err)
 	}
-	if len(ids) == 0 {
+	if len(lb.ids) == 0 {
 		return nil, fmt.Errorf("identifier list has no entries: %w", ErrBadList)
 	}
-	return ids, nil
+	return lb.ids, nil
 }
 
 // LoadFile reads an identifier file (see ReadList).

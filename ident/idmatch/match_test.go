@@ -2,6 +2,7 @@ package idmatch
 
 import (
 	"errors"
+	"fmt"
 	"nullseek/ident/internal/identtest"
 	"nullseek/ident/morse"
 	"nullseek/internal/testtool"
@@ -223,5 +224,40 @@ func TestFMFreshNoise(t *testing.T) {
 	t.Logf("fresh seed: known-ID %d/%d at CNR 6 dB; methods %v", right, total, methods)
 	if total != 10 || float64(right) < 0.95*float64(total) {
 		t.Errorf("%d/%d bursts matched", right, total)
+	}
+}
+
+// TestListBounds: a list of MaxIDs identifiers of MaxIDLen characters is
+// taken; one more identifier, or one more character, is refused with an
+// error naming the limit (and, from a file, the line).
+func TestListBounds(t *testing.T) {
+	ids := make([]string, MaxIDs)
+	for i := range ids {
+		ids[i] = fmt.Sprintf("N0CALL/%d", i)
+	}
+	if _, err := New(ids); err != nil {
+		t.Fatalf("%d identifiers: %v", MaxIDs, err)
+	}
+	_, err := New(append(ids, "N0CALL/X"))
+	if err == nil || !strings.Contains(err.Error(), fmt.Sprint(MaxIDs)) || !errors.Is(err, ErrBadList) {
+		t.Errorf("%d identifiers: %v", MaxIDs+1, err)
+	}
+	_, err = ReadList(strings.NewReader(strings.Join(append(ids, "N0CALL/X"), "\n")))
+	if err == nil || !strings.Contains(err.Error(), fmt.Sprintf("line %d", MaxIDs+1)) {
+		t.Errorf("file of %d identifiers: %v", MaxIDs+1, err)
+	}
+	long := strings.Repeat("N", MaxIDLen)
+	if _, err := New([]string{long}); err != nil {
+		t.Errorf("%d characters: %v", MaxIDLen, err)
+	}
+	for _, bad := range []string{long + "N", strings.Repeat("N", 1<<20)} {
+		_, err := New([]string{bad})
+		if err == nil || !strings.Contains(err.Error(), fmt.Sprint(MaxIDLen)) || len(err.Error()) > 200 {
+			t.Errorf("%d-character identifier: %.200v", len(bad), err)
+		}
+	}
+	// Spaces do not count: "N0CALL 1" is the characters N0CALL1.
+	if _, err := New([]string{strings.Repeat("N ", MaxIDLen)}); err != nil {
+		t.Errorf("%d characters with spaces: %v", MaxIDLen, err)
 	}
 }
