@@ -286,14 +286,19 @@ func ToneEnvelope(audio []float32, rate float64, opts DecodeOptions) (env []floa
 	return toneEnvelope(clean, rate, centres, freqs, envelopeBoxS, EnvelopeRateHz), EnvelopeRateHz, toneHz, nil
 }
 
-// DetectMode decides how a burst's Morse is carried: a clear tone in the
-// FM discriminator audio gives ModeFM, a clear tone in the AM envelope
-// audio gives ModeAM (the clearer wins when both have one), and a power
-// track (linear power at powerRate Hz) that itself switches between two
-// levels at least 6 dB apart, several times, gives ModeCW. Nil or empty
-// inputs are skipped. When nothing fits it returns ModeAuto, meaning
-// "undecided".
+// DetectMode decides how a burst's Morse is carried. A power track
+// (linear power at powerRate readings a second) keyed with Morse timing
+// (see morseKeyed) gives ModeCW, even when the audio also carries a keyed
+// tone: a carrier keyed by the marks of an MCW identifier is read best
+// from the power track, whose key-up holds only the channel noise, not
+// the FM discriminator's. Otherwise a clear tone in the FM discriminator
+// audio gives ModeFM and a clear tone in the AM envelope audio ModeAM (the
+// clearer wins when both have one). Nil or empty inputs are skipped. When
+// nothing fits it returns ModeAuto, meaning "undecided".
 func DetectMode(fmAudio, amAudio []float32, rate float64, power []float32, powerRate float64) Mode {
+	if morseKeyed(power, powerRate) {
+		return ModeCW
+	}
 	best, bestSNR := ModeAuto, math.Inf(-1)
 	if len(fmAudio) > 0 {
 		if _, snr, err := FindTone(fmAudio, rate); err == nil && snr > bestSNR {
@@ -305,37 +310,60 @@ func DetectMode(fmAudio, amAudio []float32, rate float64, power []float32, power
 			best, bestSNR = ModeAM, snr
 		}
 	}
-	if best != ModeAuto {
-		return best
-	}
-	if len(power) > 0 && powerRate > 0 && powerKeyed(power) {
-		return ModeCW
-	}
-	return ModeAuto
+	return best
 }
 
-// powerKeyed reports whether a linear power track switches between two
-// levels ≥ 6 dB apart at least 4 times.
-func powerKeyed(power []float32) bool {
-	lo, hi := percentile32(power, 0.1), percentile32(power, 0.9)
-	if !(lo > 0) || !(hi > 4*lo) {
-		if !(hi > 0 && lo == 0) {
-			return false
+// morseKeyed reports whether a linear power track switches between two
+// levels at least 6 dB apart with Morse timing: after the same two-level
+// slicing and deglitching as DecodeEnvelope, at least 8 key-down marks
+// not far longer than a dash (long steady tones are left aside), of which
+// four in five are within ±40 % of one or three units of a single speed
+// in 5–40 WPM. A carrier that fades or is turned through an antenna's
+// nulls changes level over seconds, not in dots and dashes, and does not
+// pass.
+func morseKeyed(power []float32, rate float64) bool {
+	if !(rate >= 50) || math.IsInf(rate, 0) || float64(len(power)) < rate {
+		return false
+	}
+	env := sanitize(power)
+	for i, v := range env {
+		env[i] = max(v, 0)
+	}
+	lv := levelsOf(env, rate)
+	var deep, all int
+	for i := range lv.hi {
+		all++
+		if lv.hi[i] >= 2*lv.lo[i] && lv.hi[i] > 0 { // amplitude ×2 = power ×4, 6 dB
+			deep++
 		}
 	}
-	thr := float32(math.Sqrt(float64(lo) * float64(hi))) // geometric mean
-	if lo == 0 {
-		thr = hi / 4
+	if deep < all*9/10 {
+		return false
 	}
-	n := 0
-	on := power[0] > thr
-	for _, p := range power {
-		if (p > thr) != on {
-			on = !on
-			n++
+	rs := deglitch(lv.slice(), int(math.Max(1, 0.3*DotSeconds(40)*rate)))
+	var marks, spaces []float64
+	for _, r := range rs {
+		if r.on {
+			marks = append(marks, float64(r.len())/rate)
+		} else {
+			spaces = append(spaces, float64(r.len())/rate)
 		}
 	}
-	return n >= 4
+	if len(marks) < 8 {
+		return false
+	}
+	u, _ := estimateUnit(marks, spaces, 5, 40)
+	n, fit := 0, 0
+	for _, d := range marks {
+		if d > 6*u { // a long tone, not an element
+			continue
+		}
+		n++
+		if math.Min(math.Abs(math.Log(d/u)), math.Abs(math.Log(d/(3*u)))) < math.Log(1.4) {
+			fit++
+		}
+	}
+	return n >= 8 && 5*fit >= 4*n
 }
 
 // percentile32 returns the q-quantile (0–1) of x (nearest rank).

@@ -9,6 +9,7 @@ import (
 	"bytes"
 	"encoding/binary"
 	"fmt"
+	"math"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -191,4 +192,35 @@ func Multimon(t testing.TB, sox, mm, wav string) string {
 		t.Fatalf("multimon-ng %s: %v", wav, err)
 	}
 	return strings.TrimSpace(string(out))
+}
+
+// ReadF32 reads a file of float32 little-endian samples (GNU Radio's
+// file_sink of floats on this platform).
+func ReadF32(t testing.TB, path string) []float32 {
+	t.Helper()
+	b, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	p := make([]float32, len(b)/4)
+	for i := range p {
+		p[i] = math.Float32frombits(binary.LittleEndian.Uint32(b[4*i:]))
+	}
+	return p
+}
+
+// FieldScript is testdata/ident/make_field.py, the GNU Radio generator of
+// the field-condition recordings.
+var FieldScript = filepath.Join(Root, "testdata", "ident", "make_field.py")
+
+// RunField runs make_field.py with python (testtool.GNURadio's answer) and
+// args, into a fresh temporary directory it returns.
+func RunField(t testing.TB, python string, args ...string) string {
+	t.Helper()
+	dir := t.TempDir()
+	cmd := exec.Command(python, append([]string{FieldScript, args[0], "--out", dir}, args[1:]...)...)
+	if out, err := cmd.CombinedOutput(); err != nil {
+		t.Fatalf("make_field.py %s: %v\n%s", strings.Join(args, " "), err, out)
+	}
+	return dir
 }
