@@ -32,11 +32,18 @@ type Decoded struct {
 	// overall speed implied by the character gaps (equal to WPM for
 	// standard spacing).
 	WPM, FarnsworthWPM float64
-	// DotS is the estimated dot length in seconds.
+	// DotS is the estimated dot length in seconds. WPM, FarnsworthWPM and
+	// DotS are those of the stretch with the most key-down marks.
 	DotS float64
-	Mode Mode
+	// Stretches are the parts of the keying between long steady tones and
+	// long pauses, each with its own speed (one stretch when there are
+	// none).
+	Stretches []Stretch
+	Mode      Mode
 	// Keying is the on/off keying found, key-down and key-up intervals
-	// alternating from the first key-down to the last.
+	// alternating from the first key-down to the last. A key-down far
+	// longer than a dash (a long steady tone) has Units 0 and is read as a
+	// word break.
 	Keying []Mark
 	// Envelope is the key-down power envelope (linear, arbitrary scale) at
 	// EnvRate samples a second, time 0 at the input's first sample.
@@ -45,6 +52,27 @@ type Decoded struct {
 	// SNRDB is key-down over key-up power in the envelope, minus one.
 	SNRDB    float64
 	Warnings []string
+}
+
+// Stretch is a part of a transmission's keying with one speed.
+type Stretch struct {
+	// StartS and EndS bound its key-down marks (s, the input's time base).
+	StartS, EndS float64
+	// WPM is its character speed; Marks how many elements it holds.
+	WPM   float64
+	Marks int
+}
+
+// LongTones returns the key-down intervals far longer than a dash (Keying
+// entries with Units 0).
+func (d Decoded) LongTones() []Mark {
+	var out []Mark
+	for _, k := range d.Keying {
+		if k.On && k.Units == 0 {
+			out = append(out, k)
+		}
+	}
+	return out
 }
 
 // DecodeOptions tunes the decoder; the zero value is fine.
@@ -129,10 +157,14 @@ func DecodeTone(audio []float32, rate float64, opts DecodeOptions) (Decoded, err
 	}
 	box := math.Min(0.08, math.Max(0.008, 0.6*d.DotS))
 	env2 := toneEnvelope(clean, rate, centres, freqs, box, opts.EnvRateHz)
-	// Keep the second pass near the speed the first pass found.
+	// Keep the second pass near the speeds the first pass found.
+	lo, hi = d.WPM, d.WPM
+	for _, st := range d.Stretches {
+		lo, hi = math.Min(lo, st.WPM), math.Max(hi, st.WPM)
+	}
 	o2 := opts
-	o2.MinWPM = math.Max(opts.MinWPM, 0.7*d.WPM)
-	o2.MaxWPM = math.Min(opts.MaxWPM, 1.4*d.WPM)
+	o2.MinWPM = math.Max(opts.MinWPM, 0.7*lo)
+	o2.MaxWPM = math.Min(opts.MaxWPM, 1.4*hi)
 	if o2.MaxWPM <= o2.MinWPM {
 		o2.MinWPM, o2.MaxWPM = opts.MinWPM, opts.MaxWPM
 	}
@@ -347,20 +379,35 @@ func deglitch(rs []keyRun, minLen int) []keyRun {
 	}
 }
 
+// Element timing. A key-down longer than longMarkUnits dots is a long
+// steady tone (a direction-finding beacon's carrier between copies of its
+// identifier), not a dash; a key-up longer than pauseUnits dots ends a
+// stretch, whose speed is estimated on its own when it holds at least
+// minStretchElements marks and short gaps. outlierCost caps one duration's cost in the
+// speed search at (ln 2)²: a duration more than twice off both classes
+// (a long tone, a pause, a glitch) counts the same however far off it
+// is, so it cannot drag the estimate.
+const (
+	longMarkUnits      = 6.0
+	pauseUnits         = 30.0
+	minStretchElements = 10
+	outlierCost        = 0.4805 // (ln 2)²
+)
+
 // unitCost scores a dot length u (seconds) against mark and key-up
 // durations: squared log distance of each mark to 1 or 3 units and of each
-// short key-up to 1 or 3 units (longer key-ups are free, so Farnsworth
-// spacing does not bias the estimate).
+// short key-up to 1 or 3 units, capped at outlierCost (longer key-ups are
+// free, so Farnsworth spacing does not bias the estimate).
 func unitCost(u float64, marks, spaces []float64) float64 {
 	c := 0.0
 	for _, d := range marks {
 		a, b := math.Log(d/u), math.Log(d/(3*u))
-		c += math.Min(a*a, b*b)
+		c += min(a*a, b*b, outlierCost)
 	}
 	for _, d := range spaces {
 		if d < 3*u {
 			a, b := math.Log(d/u), math.Log(d/(3*u))
-			c += math.Min(a*a, b*b)
+			c += min(a*a, b*b, outlierCost)
 		}
 	}
 	return c
@@ -394,6 +441,9 @@ func estimateUnit(marks, spaces []float64, minWPM, maxWPM float64) (u, delta flo
 		b2 += s * d
 	}
 	for _, d := range marks {
+		if d > longMarkUnits*best {
+			continue // a long tone
+		}
 		k := 1.0
 		if d > 2*best {
 			k = 3
@@ -419,6 +469,93 @@ func estimateUnit(marks, spaces []float64, minWPM, maxWPM float64) (u, delta flo
 	u = math.Max(uMin, math.Min(uMax, u)) // stay in the speed range
 	delta = math.Max(-0.4*u, math.Min(0.4*u, delta))
 	return u, delta
+}
+
+// timing is the element timing of one stretch: dot u and keying bias
+// delta (s; marks come out u+δ, gaps u−δ), character and word gaps cg
+// and wg (dots), and how many key-ups longer than two dots set the gaps.
+type timing struct {
+	u, delta, cg, wg float64
+	nGaps            int
+}
+
+// stretchTiming completes a unit estimate with the gaps of the stretch.
+func stretchTiming(marks, spaces []float64, u, delta float64) timing {
+	var long []float64
+	for _, s := range spaces {
+		if x := (s + delta) / u; x >= 2 && x < pauseUnits {
+			long = append(long, x)
+		}
+	}
+	cg, wg := splitGaps(long)
+	return timing{u: u, delta: delta, cg: cg, wg: wg, nGaps: len(long)}
+}
+
+// fallbackGaps takes the gaps from g when the stretch has too few of its
+// own to tell character gaps from word gaps, scaled to this stretch's dot.
+func (t *timing) fallbackGaps(g timing) {
+	if t.nGaps < 4 {
+		t.cg, t.wg = g.cg, g.wg
+	}
+}
+
+// countGaps counts the key-ups inside characters or between them (shorter
+// than five dots): the ones that tell the dot.
+func countGaps(spaces []float64, u float64) int {
+	n := 0
+	for _, d := range spaces {
+		if d < 5*u {
+			n++
+		}
+	}
+	return n
+}
+
+// countElements counts the marks that are elements, not long tones.
+func countElements(marks []float64, u float64) int {
+	n := 0
+	for _, d := range marks {
+		if d <= longMarkUnits*u {
+			n++
+		}
+	}
+	return n
+}
+
+// splitStretches cuts the runs (key-down first, key-down last) into
+// stretches at long tones (key-down longer than longMarkUnits dots, a
+// stretch of its own) and at pauses (key-up longer than pauseUnits dots),
+// u being the transmission's overall dot. It returns run ranges [a, b),
+// each starting and ending with key-down.
+func splitStretches(rs []keyRun, rate, u float64) [][2]int {
+	var out [][2]int
+	a := 0
+	cut := func(b int) { // close [a, b) if it holds a key-down
+		for a < b && !rs[a].on {
+			a++
+		}
+		e := b
+		for e > a && !rs[e-1].on {
+			e--
+		}
+		if e > a {
+			out = append(out, [2]int{a, e})
+		}
+		a = b
+	}
+	for i, r := range rs {
+		dur := float64(r.len()) / rate
+		switch {
+		case r.on && dur > longMarkUnits*u:
+			cut(i)
+			a = i
+			cut(i + 1)
+		case !r.on && dur > pauseUnits*u:
+			cut(i)
+		}
+	}
+	cut(len(rs))
+	return out
 }
 
 // gauss is an unnormalised Gaussian likelihood with a normalising 1/σ.
@@ -555,22 +692,51 @@ func DecodeEnvelope(env []float32, envRate float64, opts DecodeOptions) (Decoded
 		return d, fmt.Errorf("only glitches, no key-down: %w", ErrNoMorse)
 	}
 	u, delta = estimateUnit(marks, spaces, opts.MinWPM, opts.MaxWPM)
-	d.DotS, d.WPM = u, 1.2/u
+	global := stretchTiming(marks, spaces, u, delta)
+	snrConf := 1 / (1 + math.Exp(-(d.SNRDB-6)/2))
 
-	var long []float64
-	for _, s := range spaces {
-		if (s+delta)/u >= 2 {
-			long = append(long, (s+delta)/u)
+	// Stretches: each with its own timing when it holds enough elements.
+	type stretchRuns struct {
+		a, b int // runs [a, b)
+		tm   timing
+	}
+	var sts []stretchRuns
+	for _, ab := range splitStretches(rs, envRate, u) {
+		m, sp := durs(rs[ab[0]:ab[1]])
+		tm := global
+		if n := countElements(m, u) + countGaps(sp, u); n >= minStretchElements {
+			su, sd := estimateUnit(m, sp, opts.MinWPM, opts.MaxWPM)
+			tm = stretchTiming(m, sp, su, sd)
+			tm.fallbackGaps(global)
+		}
+		sts = append(sts, stretchRuns{ab[0], ab[1], tm})
+	}
+	best := 0
+	for i, st := range sts {
+		first, last := rs[st.a], rs[st.b-1]
+		m, _ := durs(rs[st.a:st.b])
+		n := countElements(m, st.tm.u)
+		d.Stretches = append(d.Stretches, Stretch{StartS: float64(first.a) / envRate, EndS: float64(last.b) / envRate,
+			WPM: 1.2 / st.tm.u, Marks: n})
+		if n > d.Stretches[best].Marks {
+			best = i
 		}
 	}
-	cg, wg := splitGaps(long)
+	bt := sts[best].tm
+	d.DotS, d.WPM = bt.u, 1.2/bt.u
 	d.FarnsworthWPM = d.WPM
-	if cg > 3.6 {
+	if bt.cg > 3.6 {
 		// Bloom: tc = 3ta/19 → ta; s = 60c/(ta·c + 37.2).
-		ta := 19 * cg * u / 3
+		ta := 19 * bt.cg * bt.u / 3
 		d.FarnsworthWPM = 60 * d.WPM / (ta*d.WPM + 37.2)
 	}
-	snrConf := 1 / (1 + math.Exp(-(d.SNRDB-6)/2))
+	lo, hi := d.WPM, d.WPM
+	for _, st := range d.Stretches {
+		lo, hi = math.Min(lo, st.WPM), math.Max(hi, st.WPM)
+	}
+	if hi > 1.15*lo {
+		d.Warnings = append(d.Warnings, fmt.Sprintf("speed changes inside the transmission: %.1f–%.1f WPM", lo, hi))
+	}
 
 	// Classify and assemble characters.
 	var b strings.Builder
@@ -590,46 +756,59 @@ func DecodeEnvelope(env []float32, envRate float64, opts DecodeOptions) (Decoded
 		d.Chars = append(d.Chars, Char{Text: t, Confidence: c, StartS: cStart, EndS: cEnd})
 		pattern, conf = pattern[:0], 1
 	}
-	sepMeans := []float64{1, cg, wg}
-	sepSig := []float64{0.35, 0.2*cg + 0.3, 0.2*wg + 0.3}
-	for _, r := range rs {
-		t0, dur := float64(r.a)/envRate, float64(r.len())/envRate
-		if r.on {
-			x := (dur - delta) / u
-			k, p := classify(x, []float64{1, 3}, []float64{0.3, 0.6})
-			if len(pattern) == 0 {
-				cStart = t0
+	for _, st := range sts {
+		tm := st.tm
+		sepMeans := []float64{1, tm.cg, tm.wg}
+		sepSig := []float64{0.35, 0.2*tm.cg + 0.3, 0.2*tm.wg + 0.3}
+		for _, r := range rs[st.a:st.b] {
+			t0, dur := float64(r.a)/envRate, float64(r.len())/envRate
+			if r.on {
+				x := (dur - tm.delta) / tm.u
+				if x > longMarkUnits {
+					// A long steady tone: a word break, no character.
+					flush()
+					b.WriteByte(' ')
+					d.Keying = append(d.Keying, Mark{On: true, StartS: t0, DurS: dur, Units: 0})
+					continue
+				}
+				k, p := classify(x, []float64{1, 3}, []float64{0.3, 0.6})
+				if len(pattern) == 0 {
+					cStart = t0
+				}
+				cEnd = t0 + dur
+				if k == 0 {
+					pattern = append(pattern, '.')
+				} else {
+					pattern = append(pattern, '-')
+				}
+				conf *= p
+				d.Keying = append(d.Keying, Mark{On: true, StartS: t0, DurS: dur, Units: 1 + 2*k})
+				continue
 			}
-			cEnd = t0 + dur
+			x := (dur + tm.delta) / tm.u
+			k, p := classify(x, sepMeans, sepSig)
+			d.Keying = append(d.Keying, Mark{On: false, StartS: t0, DurS: dur, Units: []int{1, 3, 7}[k]})
 			if k == 0 {
-				pattern = append(pattern, '.')
-			} else {
-				pattern = append(pattern, '-')
+				conf *= p
+				if len(pattern) >= maxCodeLen+2 { // runaway pattern: cut it
+					flush()
+				}
+				continue
 			}
-			conf *= p
-			d.Keying = append(d.Keying, Mark{On: true, StartS: t0, DurS: dur, Units: 1 + 2*k})
-			continue
-		}
-		x := (dur + delta) / u
-		k, p := classify(x, sepMeans, sepSig)
-		d.Keying = append(d.Keying, Mark{On: false, StartS: t0, DurS: dur, Units: []int{1, 3, 7}[k]})
-		if k == 0 {
-			conf *= p
-			if len(pattern) >= maxCodeLen+2 { // runaway pattern: cut it
-				flush()
+			if len(pattern) > 0 {
+				conf *= p // the closing gap's own certainty
 			}
-			continue
-		}
-		if len(pattern) > 0 {
-			conf *= p // the closing gap's own certainty
+			flush()
+			if k == 2 {
+				b.WriteByte(' ')
+			}
 		}
 		flush()
-		if k == 2 {
-			b.WriteByte(' ')
-		}
+		b.WriteByte(' ')
 	}
 	flush()
-	d.Text = strings.TrimSpace(b.String())
+	d.Text = strings.Join(strings.Fields(b.String()), " ")
+
 	if d.WPM < opts.MinWPM*1.05 || d.WPM > opts.MaxWPM*0.95 {
 		d.Warnings = append(d.Warnings, fmt.Sprintf("speed %.1f WPM at the edge of the search range %g–%g", d.WPM, opts.MinWPM, opts.MaxWPM))
 	}

@@ -41,7 +41,10 @@ Sets (each writes DIR/SET.tsv, a manifest with one row per file or burst):
             pitch), the ID, … (--copies copies), the copies at --wpm or, with
             --speed-change, alternately at --wpm and 0.65·--wpm. Per case
             NAME.wav is make_fm_iq.run_case's demodulated audio (3 kHz,
-            8-bit); with --iq also NAME.cu8 (make_fm_iq's IQ format).
+            8-bit); with --iq also NAME.cu8 (make_fm_iq's IQ format) with
+            --pad-s seconds of GNU Radio noise (carrier off, same noise
+            power) before and after the turn; the manifest's times are those
+            of the WAV (add pad_s for the IQ).
             Manifest: file, cnr_db, id, tone_hz, wpms, copies, copy_s (start
             and end of each copy's key-down, s from the file start, as
             "a-b;a-b;…"), duration_s, fading, seed.
@@ -286,8 +289,18 @@ def set_turns(a, tmp):
             seed += 1
             name = "turn_cnr%g_%d" % (cnr, k)
             fading = (a.fading / RATE, seed + 500) if a.fading > 0 else None
-            iq = os.path.join(a.out, name + ".cu8") if a.iq else None
+            iq = os.path.join(tmp, "turn.cu8") if a.iq else None
             fmiq.run_case(audio, cnr, seed, os.path.join(a.out, name + ".wav"), iq, fading=fading)
+            if iq:
+                # Carrier-off noise of the same power around the turn, so a
+                # receiver sees the noise floor and both edges.
+                seed += 1
+                pad = noise_iq(2 * int(a.pad_s * RATE), fmiq.noise_ampl(cnr), seed)
+                out = os.path.join(a.out, name + ".cu8")
+                write_cu8(pad[:len(pad) // 2], out)
+                with open(out, "ab") as f:
+                    f.write(open(iq, "rb").read())
+                write_cu8(pad[len(pad) // 2:], out, "ab")
             rows.append((name + ".wav", cnr, ident, tone, ",".join(str(w) for w in wpms), a.copies,
                          ";".join("%.4f-%.4f" % s for s in spans), len(audio) / AUDIO_RATE, a.fading, seed))
     with open(os.path.join(a.out, "turns.tsv"), "w") as f:
@@ -438,6 +451,7 @@ def main():
     ap.add_argument("--speed-change", action="store_true", help="turns: alternate copies at 0.65 x speed")
     ap.add_argument("--tone-s", type=float, default=22.0, help="turns: long tone length (s)")
     ap.add_argument("--copies", type=int, default=3, help="turns: copies of the ID")
+    ap.add_argument("--pad-s", type=float, default=2.0, help="turns: noise before and after the IQ (s)")
     ap.add_argument("--fading", type=float, default=0.0, help="turns: Rayleigh fading, max Doppler (Hz); 0 none")
     ap.add_argument("--per-cnr", type=int, default=30, help="mc: bursts per CNR")
     ap.add_argument("--fading-share", type=float, default=0.25, help="mc: share of bursts with fading")
