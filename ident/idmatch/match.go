@@ -33,13 +33,16 @@ const DefaultMinConfidence = 0.9
 // Score is one listed identifier's evidence for a burst.
 type Score struct {
 	ID string
-	// TextProb and TemplateProb are the identifier's share (0–1) of the
-	// text and template likelihoods among the listed IDs; TemplateProb is
-	// 0 when the template method did not run.
+	// TextProb and TemplateProb are the identifier's posterior (0–1) by
+	// the text and the template method; TemplateProb is 0 when the
+	// template method did not run.
 	TextProb, TemplateProb float64
-	// TextCost is the weighted edit distance between the decoded text and
-	// the identifier repeated (partial copies at the edges are free).
-	TextCost float64
+	// TextLLR is the text method's log-likelihood ratio (nats) of the ID
+	// against all-background text, summed over its copies; TextCopies how
+	// many copies its best reading holds (at least half the characters
+	// right).
+	TextLLR    float64
+	TextCopies int
 	// Copies is how many copies the template method fitted into the burst
 	// (copies whose key-down carries more than the midpoint level).
 	Copies int
@@ -65,8 +68,9 @@ type Result struct {
 
 // Matcher matches decoded bursts to a list of known identifiers.
 type Matcher struct {
-	ids    []string   // as given, trimmed
-	tokens [][]string // Morse characters of each ID, spaces dropped
+	ids    []string       // as given, trimmed
+	tokens [][]string     // Morse characters of each ID, spaces dropped
+	keys   map[string]int // tokens joined by " " → index
 	// MinConfidence is the least confidence reported as a match
 	// (DefaultMinConfidence unless changed).
 	MinConfidence float64
@@ -177,7 +181,11 @@ func New(ids []string) (*Matcher, error) {
 	if err != nil {
 		return nil, err
 	}
-	return &Matcher{ids: p.ids, tokens: p.tokens, MinConfidence: DefaultMinConfidence}, nil
+	mt := &Matcher{ids: p.ids, tokens: p.tokens, MinConfidence: DefaultMinConfidence, keys: map[string]int{}}
+	for i, t := range p.tokens {
+		mt.keys[strings.Join(t, " ")] = i
+	}
+	return mt, nil
 }
 
 // IDs returns the identifiers in list order.
@@ -249,143 +257,6 @@ func code(tok string) string {
 	return c
 }
 
-// textLambda converts weighted edit cost to log-likelihood (nats per
-// error): a wrong character is taken to be about e^3 ≈ 20 times less
-// likely than a right one, a deliberately modest figure so a single
-// garbled digit does not give a near-certain answer.
-const textLambda = 3.0
-
-// charCost is the cost of a decoded character that does not fit the
-// identifier: cheaper when the decoder itself was unsure.
-func charCost(c morse.Char) float64 {
-	if c.Text == morse.UnknownChar {
-		return 0.5
-	}
-	return 0.4 + 0.6*c.Confidence
-}
-
-// cyclicCost is the least weighted edit cost of reading chars as copies of
-// pat repeated, starting and ending anywhere in the pattern (partial copies
-// at the edges are free). Substituted or extra decoded characters cost
-// charCost, missing pattern characters cost 1.
-func cyclicCost(chars []morse.Char, pat []string) float64 {
-	P := len(pat)
-	cur := make([]float64, P)
-	next := make([]float64, P)
-	relaxDeletions := func(row []float64) {
-		for pass := 0; pass < 2; pass++ {
-			for j := 0; j < P; j++ {
-				if v := row[j] + 1; v < row[(j+1)%P] {
-					row[(j+1)%P] = v
-				}
-			}
-		}
-	}
-	for _, c := range chars {
-		for j := range next {
-			next[j] = math.Inf(1)
-		}
-		cc := charCost(c)
-		for j := 0; j < P; j++ {
-			sub := cc
-			if c.Text == pat[j] {
-				sub = 0
-			}
-			if v := cur[j] + sub; v < next[(j+1)%P] {
-				next[(j+1)%P] = v
-			}
-			if v := cur[j] + cc; v < next[j] {
-				next[j] = v
-			}
-		}
-		relaxDeletions(next)
-		cur, next = next, cur
-	}
-	best := math.Inf(1)
-	for _, v := range cur {
-		best = math.Min(best, v)
-	}
-	return best
-}
-
-// editDistance is the plain Levenshtein distance between token slices.
-func editDistance(a, b []string) int {
-	prev := make([]int, len(b)+1)
-	cur := make([]int, len(b)+1)
-	for j := range prev {
-		prev[j] = j
-	}
-	for i := 1; i <= len(a); i++ {
-		cur[0] = i
-		for j := 1; j <= len(b); j++ {
-			s := prev[j-1]
-			if a[i-1] != b[j-1] {
-				s++
-			}
-			cur[j] = min(s, prev[j]+1, cur[j-1]+1)
-		}
-		prev, cur = cur, prev
-	}
-	return prev[len(b)]
-}
-
-// occurrence is a stretch of decoded text read as one whole copy of an ID.
-type occurrence struct {
-	id, start, end, dist int
-}
-
-// occurrences finds non-overlapping, nearly exact whole copies of the IDs
-// in the decoded tokens (distance ≤ 15 % of the ID, at least 1), each
-// credited to the one ID that fits it strictly best.
-func (m *Matcher) occurrences(toks []string) []occurrence {
-	var cands []occurrence
-	for s := range toks {
-		for i, pat := range m.tokens {
-			P := len(pat)
-			maxD := max(1, int(0.15*float64(P)))
-			for l := max(1, P-maxD); l <= P+maxD && s+l <= len(toks); l++ {
-				d := editDistance(toks[s:s+l], pat)
-				if d > maxD {
-					continue
-				}
-				// Credit it only if no other ID fits this stretch as well.
-				unique := true
-				for j, other := range m.tokens {
-					if j != i && editDistance(toks[s:s+l], other) <= d {
-						unique = false
-						break
-					}
-				}
-				if unique {
-					cands = append(cands, occurrence{i, s, s + l, d})
-				}
-			}
-		}
-	}
-	sort.SliceStable(cands, func(a, b int) bool {
-		if cands[a].dist != cands[b].dist {
-			return cands[a].dist < cands[b].dist
-		}
-		return cands[a].end-cands[a].start > cands[b].end-cands[b].start
-	})
-	used := make([]bool, len(toks))
-	var out []occurrence
-	for _, c := range cands {
-		free := true
-		for k := c.start; k < c.end; k++ {
-			free = free && !used[k]
-		}
-		if !free {
-			continue
-		}
-		for k := c.start; k < c.end; k++ {
-			used[k] = true
-		}
-		out = append(out, c)
-	}
-	return out
-}
-
 // softmax turns log-likelihoods into shares.
 func softmax(ll []float64) []float64 {
 	mx := math.Inf(-1)
@@ -419,19 +290,37 @@ func bestTwo(p []float64) (int, int) {
 
 // Match decides which listed identifier sent a burst.
 //
-// Text first: the decoded characters are aligned against each ID repeated
-// (weighted edit distance; partial copies at the burst edges are free;
-// unsure characters cost less), costs become log-likelihoods at 3 nats per
-// error and a softmax over the list gives each ID's share. When the text
-// is too short or garbled for a confident answer, the template method
-// (see MatchEnvelope) scores each ID's ideal keying against d.Envelope on
-// its own: it takes no speed, timing or noise level from the decoded
-// text. Below MinConfidence the answer is Unknown with a warning naming
-// the best guess. Two different IDs found whole in one burst give the one
-// with more copies and a warning naming both. A clean decode that fits no
-// listed ID is reported as Unknown without trying the template.
+// Text first: the decoded characters are read as background text with
+// copies of each listed ID among it (see the text method in text.go), so
+// an ID found as a token or near-token inside longer text ("DE N0CALL/2",
+// "TN0CALL/2", a trailing "K") counts, and every copy adds evidence. The
+// posterior weighs the listed IDs against the unlisted family (IDs one
+// character away) and "none". When it is below MinConfidence, the
+// template method (see MatchEnvelope) scores each ID's ideal keying
+// against d.Envelope on its own: it takes no speed, timing or noise level
+// from the decoded text; the words of a clean decode that fits no listed
+// ID join it as unlisted candidates. Below MinConfidence the answer is
+// Unknown with a warning naming the best guess. Two different IDs each
+// owning a whole copy in one burst give the one with more copies and a
+// warning naming both.
 func (m *Matcher) Match(d morse.Decoded) Result {
-	return m.match(d, d.Envelope, d.EnvRate)
+	return m.Identify(Evidence{Decoded: d, Envelope: d.Envelope, EnvRate: d.EnvRate})
+}
+
+// Evidence is what the matcher weighs for one transmission.
+type Evidence struct {
+	// Decoded is the free decoding (its characters, text and long tones;
+	// the zero value when nothing decoded). Its times share the
+	// envelope's time base.
+	Decoded morse.Decoded
+	// Envelope is the key-down power envelope the template method scores
+	// (linear, any scale) at EnvRate samples a second; nil for the text
+	// method alone.
+	Envelope []float32
+	EnvRate  float64
+	// CutStart and CutEnd say the recording began or ended inside the
+	// transmission: a copy of the ID cut there counts what it holds.
+	CutStart, CutEnd bool
 }
 
 // wordTemplates returns templates of up to three of the longest distinct
@@ -473,119 +362,137 @@ func (m *Matcher) wordTemplates(text string) []template {
 
 // match is Match with the template method run on env (power at envRate).
 func (m *Matcher) match(d morse.Decoded, env []float32, envRate float64) Result {
+	return m.Identify(Evidence{Decoded: d, Envelope: env, EnvRate: envRate})
+}
+
+// Identify names a transmission from its evidence, as Match describes.
+func (m *Matcher) Identify(e Evidence) Result {
+	d, env, envRate := e.Decoded, e.Envelope, e.EnvRate
 	res := Result{ID: Unknown}
 	res.Scores = make([]Score, len(m.ids))
+	ev := m.textPosterior(d.Chars, e.CutStart, e.CutEnd)
 	for i, id := range m.ids {
-		res.Scores[i].ID = id
+		res.Scores[i] = Score{ID: id, TextProb: ev.post[i], TextLLR: ev.fits[i].llr, TextCopies: ev.fits[i].copies}
 	}
-	var chars []morse.Char
-	var toks []string
-	for _, c := range d.Chars {
-		chars = append(chars, c)
-		toks = append(toks, c.Text)
-	}
-	minLen := math.MaxInt
-	for _, p := range m.tokens {
-		minLen = min(minLen, len(p))
-	}
+	res.Unlisted = ev.pOther + ev.pNone
 
 	// Two different IDs in one burst?
-	occ := m.occurrences(toks)
-	count := make([]int, len(m.ids))
-	for _, o := range occ {
-		count[o.id]++
-	}
+	owned := m.ownedCopies(d.Chars, ev.fits)
 	var present []int
-	for i, c := range count {
+	total := 0
+	for i, c := range owned {
 		if c > 0 {
 			present = append(present, i)
+			total += c
 		}
 	}
-
-	// Text likelihoods.
-	ll := make([]float64, len(m.ids))
-	for i, p := range m.tokens {
-		c := cyclicCost(chars, p)
-		res.Scores[i].TextCost = c
-		ll[i] = -textLambda * c
-	}
-	// The "other" hypothesis: an identifier not on the list, which fits all
-	// but 0.75 of a character per copy of the listed ones.
-	pBest := len(m.tokens[0])
-	for i, c := range ll {
-		if c > ll[0] {
-			pBest = len(m.tokens[i])
-		}
-	}
-	nCopies := math.Max(1, float64(len(chars))/float64(pBest))
-	pt := softmax(append(ll, -textLambda*0.75*nCopies))
-	for i := range m.ids {
-		res.Scores[i].TextProb = pt[i]
-	}
-	pt = pt[:len(m.ids)]
 	if len(present) >= 2 {
-		sort.SliceStable(present, func(a, b int) bool { return count[present[a]] > count[present[b]] })
+		sort.SliceStable(present, func(a, b int) bool { return owned[present[a]] > owned[present[b]] })
 		var names []string
 		for _, i := range present {
-			names = append(names, fmt.Sprintf("%s ×%d", m.ids[i], count[i]))
+			names = append(names, fmt.Sprintf("%s ×%d", m.ids[i], owned[i]))
 		}
 		w := present[0]
 		res.ID, res.Method = m.ids[w], "text"
-		res.Confidence = float64(count[w]) / float64(len(occ))
+		res.Confidence = float64(owned[w]) / float64(total)
 		res.Warnings = append(res.Warnings, "more than one identifier in one burst: "+strings.Join(names, ", "))
 		return res
 	}
-	bt, _ := bestTwo(pt)
-	textOK := len(chars) >= (minLen*3+4)/5 && res.Scores[bt].TextCost <= 0.3*float64(len(chars))
-	if textOK && pt[bt] >= m.MinConfidence {
-		res.ID, res.Confidence, res.Method = m.ids[bt], pt[bt], "text"
+	bt, _ := bestTwo(ev.post)
+	if ev.post[bt] >= m.MinConfidence {
+		res.ID, res.Confidence, res.Method = m.ids[bt], ev.post[bt], "text"
 		return res
 	}
 
 	// A clean decode that fits no listed ID points to an unlisted ID: its
 	// words join the template method's unlisted candidates, so the keying
 	// decides between them and the listed IDs (a decoder can be confidently
-	// wrong on noise, so the text alone does not settle it). An exact read
-	// of a listed ID that is merely too short for MinConfidence is no such
-	// sign.
-	meanConf, nUnknown := 0.0, 0
-	for _, c := range chars {
-		meanConf += c.Confidence
-		if c.Text == morse.UnknownChar {
-			nUnknown++
-		}
-	}
-	if len(chars) > 0 {
-		meanConf /= float64(len(chars))
-	}
-	clean := len(chars) >= (minLen*3+4)/5 && meanConf >= 0.6 && float64(nUnknown) < 0.1*float64(len(chars)) && res.Scores[bt].TextCost >= 0.5
+	// wrong on noise, so the text alone does not settle it).
+	clean := cleanRead(d.Chars) && ev.pOther+ev.pNone > 0.5
 	var extra []template
 	if clean {
 		extra = m.wordTemplates(d.Text)
 	}
 
 	// Template method.
-	tm, _ := m.matchEnvelope(env, envRate, extra)
+	tm, _ := m.matchEnvelope(env, envRate, extra, d.LongTones())
 	if tm.Method == "" {
 		if clean {
 			res.Method = "text"
-			res.Warnings = append(res.Warnings, fmt.Sprintf("decoded text %q fits no listed identifier well enough (best %s at %.2f)", d.Text, m.ids[bt], pt[bt]))
+			res.Warnings = append(res.Warnings, fmt.Sprintf("decoded text %q fits no listed identifier well enough (best %s at %.2f)", d.Text, m.ids[bt], ev.post[bt]))
 			return res
 		}
 		res.Warnings = append(res.Warnings, tm.Warnings...)
-		if len(chars) < (minLen*3+4)/5 {
-			res.Warnings = append(res.Warnings, fmt.Sprintf("burst too short to hold an identifier (%d characters decoded, shortest ID has %d)", len(chars), minLen))
-		}
-		res.Warnings = append(res.Warnings, fmt.Sprintf("best text guess %s at %.2f is below %.2f", m.ids[bt], pt[bt], m.MinConfidence))
+		res.Warnings = append(res.Warnings, fmt.Sprintf("best text guess %s at %.2f is below %.2f", m.ids[bt], ev.post[bt], m.MinConfidence))
 		return res
 	}
 	if clean {
-		res.Warnings = append(res.Warnings, fmt.Sprintf("decoded text %q fits no listed identifier (best %s at %.2f); keying template decides", d.Text, m.ids[bt], pt[bt]))
+		res.Warnings = append(res.Warnings, fmt.Sprintf("decoded text %q fits no listed identifier (best %s at %.2f); keying template decides", d.Text, m.ids[bt], ev.post[bt]))
 	}
 	for i := range tm.Scores {
 		tm.Scores[i].TextProb = res.Scores[i].TextProb
-		tm.Scores[i].TextCost = res.Scores[i].TextCost
+		tm.Scores[i].TextLLR = res.Scores[i].TextLLR
+		tm.Scores[i].TextCopies = res.Scores[i].TextCopies
 	}
 	tm.Warnings = append(res.Warnings, tm.Warnings...)
 	return tm
+}
+
+// cleanRead reports whether a decode is long enough and read with enough
+// certainty to say what it is not: at least three characters, under 10 %
+// unreadable, mean calibrated reliability at least 0.9.
+func cleanRead(chars []morse.Char) bool {
+	if len(chars) < 3 {
+		return false
+	}
+	sum, unread := 0.0, 0
+	for _, c := range chars {
+		sum += charReliability(c)
+		if c.Text == morse.UnknownChar {
+			unread++
+		}
+	}
+	return sum/float64(len(chars)) >= 0.9 && 10*unread < len(chars)
+}
+
+// ownedCopies counts, per listed ID, the whole copies it owns: copies on
+// its best path read with at most max(1, 15 %) of its characters wrong or
+// lost, that no other ID reads with fewer errors over the same characters.
+func (m *Matcher) ownedCopies(chars []morse.Char, fits []textFit) []int {
+	type cp struct {
+		id, lo, hi, errs int
+	}
+	var cps []cp
+	for i, f := range fits {
+		pat := m.tokens[i]
+		maxErr := max(1, int(0.15*float64(len(pat))))
+		for _, a := range f.aligned {
+			lo, hi, errs := len(chars), -1, 0
+			for j, ci := range a {
+				if ci < 0 || chars[ci].Text != pat[j] {
+					errs++
+				}
+				if ci >= 0 {
+					lo, hi = min(lo, ci), max(hi, ci)
+				}
+			}
+			if errs <= maxErr && hi >= 0 && a[0] >= 0 && a[len(a)-1] >= 0 {
+				cps = append(cps, cp{i, lo, hi, errs})
+			}
+		}
+	}
+	owned := make([]int, len(fits))
+	for _, c := range cps {
+		best := true
+		for _, o := range cps {
+			if o.id != c.id && o.lo <= c.hi && c.lo <= o.hi && o.errs <= c.errs {
+				best = false
+				break
+			}
+		}
+		if best {
+			owned[c.id]++
+		}
+	}
+	return owned
 }

@@ -32,9 +32,11 @@ import (
 // an equal share of the prior otherPrior. The posterior is a softmax of
 // the log-likelihoods divided by the temperature temperature. The
 // constants were fitted to a Monte-Carlo of ebook2cw bursts in white
-// noise (TestTemplateFit; the table in TestTemplateVsFreeDecoding checks
-// it on other noise draws), so a reported confidence of 0.9
-// is right about 9 times in 10.
+// noise; TestTemplateFit checks they still fit that Monte-Carlo, and
+// TestConfidenceCalibration that a reported confidence c is right at
+// least that often on GNU Radio bursts.
+//
+// Long steady tones are left out of the search (see maskTones).
 
 const (
 	// searchRateHz is the envelope rate of the search (samples a second).
@@ -50,9 +52,9 @@ const (
 	wordGapU = 7.0
 
 	// Calibration: temperature, the "none" log-likelihood and the prior
-	// weight of the unlisted family, fitted (TestTemplateFit with
-	// NULLSEEK_TPL_FIT=1: 252 ebook2cw bursts at +6 … −12 dB and 300
-	// pure-noise bursts; most probable truth, with no wrong ID at ≥ 0.5).
+	// weight of the unlisted family, fitted by tplFitCalibration (in the
+	// tests) on 252 ebook2cw bursts at +6 … −12 dB and 300 pure-noise
+	// bursts: the most probable truth, with no wrong ID at ≥ 0.5.
 	// Pure noise gives a best log-likelihood of 18 (median) to 30 (worst
 	// of 300), hence "none" at 28.
 	temperature = 1.5
@@ -147,6 +149,7 @@ type envSearch struct {
 	amp  []float64 // amplitude envelope at rate
 	rate float64
 	n    int
+	off  []bool    // samples left out: long steady tones (see maskTones)
 	pad  int       // zero-score padding on the left of ps
 	ps   []float64 // prefix sums of amp − θ, padded
 	c    []float64 // single-copy scores
@@ -166,7 +169,7 @@ func newEnvSearch(env []float32, envRate float64) *envSearch {
 	if n < 16 {
 		return nil
 	}
-	s := &envSearch{amp: make([]float64, n), rate: envRate / float64(k), n: n}
+	s := &envSearch{amp: make([]float64, n), off: make([]bool, n), rate: envRate / float64(k), n: n}
 	for i := range s.amp {
 		p := 0.0
 		for _, v := range env[i*k : i*k+k] {
@@ -207,14 +210,92 @@ func meanOf(x []float64) float64 {
 	return s / float64(len(x))
 }
 
-// setThreshold fills the prefix sums of amp − θ (0 outside the burst).
+// setThreshold fills the prefix sums of amp − θ (0 outside the burst and
+// on masked samples).
 func (s *envSearch) setThreshold(theta float64) {
 	acc := 0.0
 	for i := range s.ps {
 		s.ps[i] = acc
-		if j := i - s.pad; j >= 0 && j < s.n {
+		if j := i - s.pad; j >= 0 && j < s.n && !s.off[j] {
 			acc += s.amp[j] - theta
 		}
+	}
+}
+
+// meanOn is the mean amplitude of the samples not masked.
+func (s *envSearch) meanOn() float64 {
+	sum, n := 0.0, 0
+	for i, v := range s.amp {
+		if !s.off[i] {
+			sum += v
+			n++
+		}
+	}
+	if n == 0 {
+		return 0
+	}
+	return sum / float64(n)
+}
+
+// Long steady tones. Every template scores positively on a stretch that
+// is all key-down, the more the more key-down it has, so such a stretch
+// would name the ID with the most dashes. maskTones leaves out the long
+// tones the decoder found and those found here on the envelope itself
+// (the decoder may have read nothing): where the mean amplitude over
+// toneWindowS stays above the key-up level plus toneFraction of the
+// key-down level's lift for toneMinS or longer — Morse keying, on about
+// half the time, stays well below it; the window is widened by half its
+// length at each end, where the mean crosses the line while the tone is
+// already on.
+const (
+	toneWindowS  = 1.5
+	toneFraction = 0.88
+	toneMinS     = 3.0
+)
+
+func (s *envSearch) maskTones(tones []morse.Mark) {
+	for _, t := range tones {
+		a := max(0, int(math.Floor(t.StartS*s.rate)))
+		b := min(s.n, int(math.Ceil((t.StartS+t.DurS)*s.rate)))
+		for i := a; i < b; i++ {
+			s.off[i] = true
+		}
+	}
+	w := int(toneWindowS * s.rate)
+	if s.n < 2*w {
+		return
+	}
+	srt := append([]float64(nil), s.amp...)
+	sort.Float64s(srt)
+	lo, hi := srt[s.n/10], srt[s.n*9/10]
+	if !(hi > lo) {
+		return
+	}
+	line := lo + toneFraction*(hi-lo)
+	ps := make([]float64, s.n+1)
+	for i, v := range s.amp {
+		ps[i+1] = ps[i] + v
+	}
+	run := -1
+	mark := func(a, b int) {
+		if float64(b-a) >= toneMinS*s.rate {
+			for i := max(0, a-w/2); i < min(s.n, b+w/2); i++ {
+				s.off[i] = true
+			}
+		}
+	}
+	for c := w / 2; c+w-w/2 <= s.n; c++ {
+		above := (ps[c+w-w/2]-ps[c-w/2])/float64(w) > line
+		switch {
+		case above && run < 0:
+			run = c
+		case !above && run >= 0:
+			mark(run, c)
+			run = -1
+		}
+	}
+	if run >= 0 {
+		mark(run, s.n-(w-w/2))
 	}
 }
 
@@ -314,12 +395,16 @@ func (s *envSearch) placed(t template, cd placement) []int {
 	return out
 }
 
-// variantScore scores template t at unit u with copies from origin ±1
-// sample.
+// variantScore scores template t at unit u with copies from origin ± one
+// dot (at least ±1 sample).
 func (s *envSearch) variantScore(t template, u, origin float64) float64 {
 	L, P := s.prep(t, u)
 	bv := math.Inf(-1)
-	for d := -1.0; d <= 1; d++ {
+	// A listed ID's best fit may sit up to a dot off where its variant
+	// fits (the changed character pulls it), so the variant searches a dot
+	// either side.
+	w := math.Max(1, math.Round(u))
+	for d := -w; d <= w; d++ {
 		tot, one := 0.0, math.Inf(-1)
 		s.st = s.starts(origin+d, P, L, s.st)
 		for _, st := range s.st {
@@ -368,6 +453,11 @@ func (s *envSearch) levels(t template, cd placement) (twoLevels, bool) {
 			}
 		}
 	}
+	for i := range mask {
+		if s.off[i] {
+			mask[i] = 0
+		}
+	}
 	var sum [3]float64
 	var cnt [3]int
 	for i, m := range mask {
@@ -384,6 +474,10 @@ func (s *envSearch) levels(t template, cd placement) (twoLevels, bool) {
 	prev, havePrev := 0.0, false
 	m := 0
 	for i := a; i < b; i++ {
+		if s.off[i] {
+			havePrev = false
+			continue
+		}
 		ref := lv.noise
 		if mask[i] == 2 {
 			ref += lv.signal
@@ -425,7 +519,7 @@ func (p *templatePlan) run(s *envSearch, extra []template) (templateEvidence, bo
 	K := len(p.ids)
 	// Coarse pass: θ from the mean amplitude (key down about half the time
 	// puts it between the levels).
-	s.setThreshold(meanOf(s.amp))
+	s.setThreshold(s.meanOn())
 	uLo, uHi := morse.DotSeconds(maxWPM)*s.rate, morse.DotSeconds(minWPM)*s.rate
 	var units []float64
 	for u := uLo; u <= uHi*1.0001; u *= coarseStep {
@@ -578,7 +672,7 @@ func (m *Matcher) plan() *templatePlan {
 // Method is "template", or "" (with a warning) when the envelope is too
 // short or flat to score. It never panics on bad input.
 func (m *Matcher) MatchEnvelope(env []float32, envRate float64) Result {
-	res, _ := m.matchEnvelope(env, envRate, nil)
+	res, _ := m.matchEnvelope(env, envRate, nil, nil)
 	return res
 }
 
@@ -586,7 +680,7 @@ func (m *Matcher) MatchEnvelope(env []float32, envRate float64) Result {
 // ll when nothing could be scored).
 // extra are further unlisted candidates (Result passes the words of a clean
 // decode that fit no listed ID), each searched like a listed ID.
-func (m *Matcher) matchEnvelope(env []float32, envRate float64, extra []template) (Result, templateEvidence) {
+func (m *Matcher) matchEnvelope(env []float32, envRate float64, extra []template, tones []morse.Mark) (Result, templateEvidence) {
 	res := Result{ID: Unknown}
 	res.Scores = make([]Score, len(m.ids))
 	for i, id := range m.ids {
@@ -597,6 +691,7 @@ func (m *Matcher) matchEnvelope(env []float32, envRate float64, extra []template
 		res.Warnings = append(res.Warnings, fmt.Sprintf("no usable envelope for the template method (%d samples at %g/s)", len(env), envRate))
 		return res, templateEvidence{}
 	}
+	s.maskTones(tones)
 	r, ok := m.plan().run(s, extra)
 	if !ok {
 		res.Warnings = append(res.Warnings, "envelope shows no keying the template method can fit")
@@ -641,5 +736,5 @@ func (m *Matcher) MatchTone(audio []float32, rate float64, opts morse.DecodeOpti
 		d = morse.Decoded{ToneHz: toneHz, Mode: opts.Mode, Envelope: env, EnvRate: envRate,
 			Warnings: []string{"free decoding failed: " + derr.Error()}}
 	}
-	return d, m.match(d, env, envRate), nil
+	return d, m.Identify(Evidence{Decoded: d, Envelope: env, EnvRate: envRate}), nil
 }

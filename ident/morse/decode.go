@@ -19,6 +19,20 @@ type Char struct {
 	// StartS and EndS bound the character's key-down time, seconds from the
 	// start of the input.
 	StartS, EndS float64
+	// SNRDB is the local keying SNR at the character: the power of its
+	// key-down samples over the key-up level there, minus one, in dB
+	// (capped at 60; fading moves it from character to character).
+	SNRDB float64
+	// Level is the mean soft keying value of the character's key-down
+	// samples (0 at the key-up level, 1 at the key-down level of the 3 s
+	// around it) and Dip the lowest tenth of them: a character read in a
+	// fade or through a dropout shows Level and Dip well below 1.
+	Level, Dip float64
+	// Unsure is the share of the character's samples, from its first
+	// key-down to its last, whose soft keying value lies between 0.25 and
+	// 0.75: neither clearly key-down nor clearly key-up (fading, noise
+	// bursts below the FM threshold).
+	Unsure float64
 }
 
 // Decoded is the result of decoding one burst.
@@ -308,6 +322,66 @@ func (k keyLevels) soft(i int) float64 {
 		return 0
 	}
 	return (k.amp[i] - k.lo[i]) / d
+}
+
+// charSNR is the keying SNR (dB, capped at 60) of the key-down samples in
+// runs against the key-up level there: mean key-down power over key-up
+// power, minus one.
+func (k keyLevels) charSNR(runs [][2]int) float64 {
+	var on, off float64
+	n := 0
+	for _, r := range runs {
+		for i := r[0]; i < r[1] && i < len(k.amp); i++ {
+			on += k.amp[i] * k.amp[i]
+			off += k.lo[i] * k.lo[i]
+			n++
+		}
+	}
+	if n == 0 || !(on > off) {
+		return 0
+	}
+	if !(off > 0) {
+		return 60
+	}
+	return math.Min(60, 10*math.Log10(on/off-1))
+}
+
+// charLevel is the mean soft value of the key-down samples in runs and
+// their 10th percentile.
+func (k keyLevels) charLevel(runs [][2]int) (mean, dip float64) {
+	var v []float64
+	for _, r := range runs {
+		for i := r[0]; i < r[1] && i < len(k.amp); i++ {
+			v = append(v, k.soft(i))
+		}
+	}
+	if len(v) == 0 {
+		return 0, 0
+	}
+	for _, x := range v {
+		mean += x
+	}
+	sort.Float64s(v)
+	return mean / float64(len(v)), v[len(v)/10]
+}
+
+// unsure is the share of samples from the first run's start to the last
+// run's end whose soft value lies in [0.25, 0.75].
+func (k keyLevels) unsure(runs [][2]int) float64 {
+	if len(runs) == 0 {
+		return 0
+	}
+	a, b := runs[0][0], min(runs[len(runs)-1][1], len(k.amp))
+	n := 0
+	for i := a; i < b; i++ {
+		if s := k.soft(i); s >= 0.25 && s <= 0.75 {
+			n++
+		}
+	}
+	if b <= a {
+		return 0
+	}
+	return float64(n) / float64(b-a)
 }
 
 // keyRun is one interval of constant keying in envelope samples.
@@ -743,6 +817,7 @@ func DecodeEnvelope(env []float32, envRate float64, opts DecodeOptions) (Decoded
 	var pattern []byte
 	conf := 1.0
 	var cStart, cEnd float64
+	var onSamples [][2]int // key-down runs of the character being read
 	flush := func() {
 		if len(pattern) == 0 {
 			return
@@ -753,8 +828,11 @@ func DecodeEnvelope(env []float32, envRate float64, opts DecodeOptions) (Decoded
 			t, c = UnknownChar, 0
 		}
 		b.WriteString(t)
-		d.Chars = append(d.Chars, Char{Text: t, Confidence: c, StartS: cStart, EndS: cEnd})
+		lvl, dip := lv.charLevel(onSamples)
+		d.Chars = append(d.Chars, Char{Text: t, Confidence: c, StartS: cStart, EndS: cEnd, SNRDB: lv.charSNR(onSamples),
+			Level: lvl, Dip: dip, Unsure: lv.unsure(onSamples)})
 		pattern, conf = pattern[:0], 1
+		onSamples = onSamples[:0]
 	}
 	for _, st := range sts {
 		tm := st.tm
@@ -782,6 +860,7 @@ func DecodeEnvelope(env []float32, envRate float64, opts DecodeOptions) (Decoded
 					pattern = append(pattern, '-')
 				}
 				conf *= p
+				onSamples = append(onSamples, [2]int{r.a, r.b})
 				d.Keying = append(d.Keying, Mark{On: true, StartS: t0, DurS: dur, Units: 1 + 2*k})
 				continue
 			}
