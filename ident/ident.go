@@ -21,6 +21,8 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"sort"
+	"strings"
 
 	"nullseek/ident/fingerprint"
 	"nullseek/ident/idmatch"
@@ -108,7 +110,12 @@ func (id *Identifier) Options() Options { return id.opts }
 
 // Segment is one piece of a transmission as the receiver hands it over:
 // demodulated audio and the channel power track over the same stretch of
-// time. Either part may be empty.
+// time. Either part may be empty. Segments of one transmission come in
+// time order and may overlap (the receiver repeats the end of one piece at
+// the start of the next, so an identifier straddling the boundary is
+// whole in one of them); identification reads each and keeps, of the
+// overlap, what each read nearer its middle. The slices are read during
+// Add and not kept.
 type Segment struct {
 	// AudioStartS is the time of FM[0] and AM[0]; AudioRateHz their sample
 	// rate.
@@ -120,6 +127,13 @@ type Segment struct {
 	// power (any scale).
 	PowerStartS, PowerRateHz float64
 	Power                    []float32
+	// OverlapS is informational: how much of the segment repeats the one
+	// before (the overlap is worked out from the times).
+	OverlapS float64
+	// Keyed says the receiver found on/off keying with Morse timing on the
+	// carrier (a keyed carrier, or one keyed by an MCW identifier's marks):
+	// in automatic mode the power track is decoded.
+	Keyed bool
 }
 
 // Burst is what identification found in one transmission.
@@ -137,111 +151,344 @@ type Burst struct {
 	// against the list), "repeated-text" (the word sent most often, without
 	// a list), "fingerprint" (attributed later by Name), or "".
 	Method string
+	// Copies is how many copies of Ident the text held (0 when not read
+	// from text).
+	Copies int
 	// ToneHz is the tone pitch (0 for a keyed carrier or none found); WPM
-	// the speed read.
+	// the speed read (that of the segment with the most characters).
 	ToneHz, WPM float64
-	Warnings    []string
+	// Words are the decoded words of three characters or more read with
+	// no unreadable character, for naming transmitters without a list.
+	Words    []string
+	Warnings []string
+}
+
+// MaxEnvelopeS is how much of a transmission's key-down envelope the
+// template method keeps (from its start): an identifier repeats every few
+// seconds, so ten minutes hold plenty of copies, and memory stays bounded
+// for a transmission of any length. Decoded characters are kept for the
+// whole transmission.
+const MaxEnvelopeS = 600.0
+
+// segRead is what one segment gave, waiting for the next segment to say
+// where their overlap is split.
+type segRead struct {
+	startS, endS float64 // the segment's time span
+	startOwn     float64 // from where it is kept (the previous overlap's middle)
+	mode         morse.Mode
+	chars        []morse.Char // absolute times
+	tones        []morse.Mark // long tones, absolute times
+	env          []float32    // template envelope
+	envStartS    float64      // time of env[0]
+	envRate      float64      // its rate
+	toneHz, wpm  float64
+	warnings     []string
 }
 
 // Transmission gathers the segments of one transmission.
 type Transmission struct {
-	id    *Identifier
-	fm    []float32
-	am    []float32
-	power []float32
-	rate  float64
-	pRate float64
-	err   error
+	id      *Identifier
+	pending *segRead
+	// kept, after splitting overlaps
+	chars     []morse.Char
+	tones     []morse.Mark
+	env       []float32
+	envStartS float64
+	envRate   float64
+	modes     map[morse.Mode]float64 // seconds of each mode
+	tonesHz   []float64
+	toneW     []float64
+	wpm       float64
+	wpmChars  int
+	warnings  []string
+	seen      map[string]bool
+	segments  int
 }
 
 // Begin starts a transmission.
-func (id *Identifier) Begin() *Transmission { return &Transmission{id: id} }
+func (id *Identifier) Begin() *Transmission {
+	return &Transmission{id: id, modes: map[morse.Mode]float64{}, seen: map[string]bool{}}
+}
 
-// Add hands over the next segment. Segments must share one audio rate and
-// one power rate.
+// Add reads the next segment: it decides the keying mode (Options.Mode,
+// or morse.DetectMode on this segment, the power track when the receiver
+// found keying), decodes it, and keeps the characters, long tones and the
+// template envelope, the part the previous segment also covered split at
+// the overlap's middle. Errors: segments out of time order.
 func (t *Transmission) Add(seg Segment) error {
-	if len(seg.FM)+len(seg.AM) > 0 {
-		if t.rate != 0 && seg.AudioRateHz != t.rate {
-			return fmt.Errorf("identify: audio rate changed from %g to %g Hz inside one transmission", t.rate, seg.AudioRateHz)
-		}
-		t.rate = seg.AudioRateHz
-		t.fm = append(t.fm, seg.FM...)
-		t.am = append(t.am, seg.AM...)
+	r, err := t.read(seg)
+	if err != nil {
+		return err
 	}
-	if len(seg.Power) > 0 {
-		if t.pRate != 0 && seg.PowerRateHz != t.pRate {
-			return fmt.Errorf("identify: power rate changed from %g to %g per second inside one transmission", t.pRate, seg.PowerRateHz)
-		}
-		t.pRate = seg.PowerRateHz
-		t.power = append(t.power, seg.Power...)
+	if r == nil {
+		return nil
 	}
+	if p := t.pending; p != nil {
+		if r.startS < p.startS {
+			return fmt.Errorf("identify: segment at %.3f s comes before the one at %.3f s", r.startS, p.startS)
+		}
+		cut := p.endS
+		if r.startS < p.endS {
+			cut = (r.startS + p.endS) / 2
+		}
+		t.keep(p, cut)
+		r.startOwn = cut
+	}
+	t.pending = r
 	return nil
 }
 
-// Finish decodes the transmission and names it.
-//
-// Policy: the mode is Options.Mode, or the one morse.DetectMode finds.
-// A keyed tone (FM or AM) with a list goes through Matcher.MatchTone (the
-// text when it is clear, else the keying template on the tone envelope);
-// without a list it is decoded freely and named by the word it repeats
-// (RepeatedWord). A keyed carrier is decoded from the power track and
-// matched by its text, or, when nothing decodes, by the template on the
-// power track itself.
-func (t *Transmission) Finish() Burst {
-	b := Burst{Ident: idmatch.Unknown}
-	m := t.id.matcher
-	mode := t.id.opts.Mode
+// read decodes one segment (nil when it holds nothing to read).
+func (t *Transmission) read(seg Segment) (*segRead, error) {
+	o := t.id.opts
+	hasAudio := len(seg.FM)+len(seg.AM) > 0 && seg.AudioRateHz > 0
+	hasPower := len(seg.Power) > 1 && seg.PowerRateHz > 0
+	if !hasAudio && !hasPower {
+		return nil, nil
+	}
+	mode := o.Mode
 	if mode == morse.ModeAuto {
-		mode = morse.DetectMode(t.fm, t.am, t.rate, t.power, t.pRate)
-	}
-	b.Mode = mode
-	opts := morse.DecodeOptions{Mode: mode}
-	audio := t.fm
-	if mode == morse.ModeAM {
-		audio = t.am
-	}
-	if m != nil && mode != morse.ModeCW {
-		d, mt, err := m.MatchTone(audio, t.rate, opts)
-		if err != nil {
-			b.Warnings = append(b.Warnings, "no identifier: "+err.Error())
-			return b
+		if seg.Keyed && hasPower {
+			mode = morse.ModeCW
+		} else {
+			mode = morse.DetectMode(seg.FM, seg.AM, seg.AudioRateHz, seg.Power, seg.PowerRateHz)
 		}
-		b.setDecoded(d)
-		b.Ident, b.Confidence, b.Method = mt.ID, mt.Confidence, mt.Method
-		b.Warnings = append(b.Warnings, mt.Warnings...)
-		return b
 	}
+	r := &segRead{mode: mode, startOwn: math.Inf(-1)}
+	if hasAudio {
+		n := max(len(seg.FM), len(seg.AM))
+		r.startS, r.endS = seg.AudioStartS, seg.AudioStartS+float64(n)/seg.AudioRateHz
+	} else {
+		r.startS, r.endS = seg.PowerStartS, seg.PowerStartS+float64(len(seg.Power))/seg.PowerRateHz
+	}
+	opts := morse.DecodeOptions{Mode: mode}
 	var d morse.Decoded
 	var err error
-	if mode == morse.ModeCW {
-		d, err = morse.DecodeKeyed(t.power, t.pRate, opts)
-	} else {
-		d, err = morse.DecodeTone(audio, t.rate, opts)
+	var t0 float64
+	switch {
+	case mode == morse.ModeCW && hasPower:
+		t0 = seg.PowerStartS
+		d, err = morse.DecodeKeyed(seg.Power, seg.PowerRateHz, opts)
+		r.env, r.envStartS, r.envRate = append([]float32(nil), seg.Power...), seg.PowerStartS, seg.PowerRateHz
+		if hasAudio { // the tone of a carrier-keyed MCW identifier, for its fingerprint
+			if f, _, ferr := morse.FindTone(seg.FM, seg.AudioRateHz); ferr == nil {
+				r.toneHz = f
+			}
+		}
+	case hasAudio && mode != morse.ModeCW:
+		audio := seg.FM
+		if mode == morse.ModeAM {
+			audio = seg.AM
+		}
+		t0 = seg.AudioStartS
+		d, err = morse.DecodeTone(audio, seg.AudioRateHz, opts)
+		if t.id.matcher != nil {
+			if env, er, _, eerr := morse.ToneEnvelope(audio, seg.AudioRateHz, opts); eerr == nil {
+				r.env, r.envStartS, r.envRate = env, seg.AudioStartS, er
+			}
+		}
+		if err == nil {
+			r.toneHz = d.ToneHz
+		}
+	default:
+		return r, nil
 	}
 	if err != nil {
-		b.Warnings = append(b.Warnings, "no identifier decoded: "+err.Error())
-		if m != nil && len(t.power) > 0 {
-			// keyed carrier: the template on the power track itself
-			mt := m.MatchEnvelope(t.power, t.pRate)
-			b.Ident, b.Confidence, b.Method = mt.ID, mt.Confidence, mt.Method
+		r.warnings = append(r.warnings, "no identifier decoded: "+err.Error())
+		return r, nil
+	}
+	for _, c := range d.Chars {
+		c.StartS += t0
+		c.EndS += t0
+		r.chars = append(r.chars, c)
+	}
+	for _, m := range d.LongTones() {
+		m.StartS += t0
+		r.tones = append(r.tones, m)
+	}
+	r.wpm = d.WPM
+	r.warnings = append(r.warnings, d.Warnings...)
+	return r, nil
+}
+
+// keep adds what segment r read between r.startOwn and cut: characters
+// and long tones by their middle, the envelope sample by sample.
+func (t *Transmission) keep(r *segRead, cut float64) {
+	t.segments++
+	lo := r.startOwn
+	in := func(a, b float64) bool { m := (a + b) / 2; return m >= lo && m < cut }
+	n := 0
+	for _, c := range r.chars {
+		if in(c.StartS, c.EndS) {
+			if n == 0 && len(t.chars) > 0 && !c.WordBefore {
+				// the first character kept after a split: a word break
+				// when the segments' characters are far apart
+				c.WordBefore = c.StartS-t.chars[len(t.chars)-1].EndS > 7*1.2/math.Max(r.wpm, 1)
+			}
+			t.chars = append(t.chars, c)
+			n++
 		}
+	}
+	for _, m := range r.tones {
+		if in(m.StartS, m.StartS+m.DurS) {
+			t.tones = append(t.tones, m)
+		}
+	}
+	own := math.Min(cut, r.endS) - math.Max(lo, r.startS)
+	if own > 0 {
+		t.modes[r.mode] += own
+		if r.toneHz > 0 {
+			t.tonesHz = append(t.tonesHz, r.toneHz)
+			t.toneW = append(t.toneW, own)
+		}
+	}
+	if n > t.wpmChars {
+		t.wpm, t.wpmChars = r.wpm, n
+	}
+	for _, w := range r.warnings {
+		if !t.seen[w] {
+			t.seen[w] = true
+			t.warnings = append(t.warnings, w)
+		}
+	}
+	// The template envelope: only of one rate (the first segment's), and
+	// at most MaxEnvelopeS of it.
+	if len(r.env) == 0 || (t.envRate != 0 && r.envRate != t.envRate) {
+		return
+	}
+	if t.envRate == 0 {
+		t.envRate, t.envStartS = r.envRate, math.Max(lo, r.envStartS)
+	}
+	maxN := int(MaxEnvelopeS * t.envRate)
+	for i, v := range r.env {
+		ts := r.envStartS + float64(i)/r.envRate
+		if ts < lo || ts >= cut {
+			continue
+		}
+		// Samples land at their own time; a gap between segments is
+		// filled with zeros (no key-down).
+		k := int(math.Round((ts - t.envStartS) * t.envRate))
+		if k < len(t.env) || k >= maxN {
+			continue
+		}
+		for len(t.env) < k {
+			t.env = append(t.env, 0)
+		}
+		t.env = append(t.env, v)
+	}
+}
+
+// Finish names the transmission from everything its segments gave.
+// cutStart and cutEnd say the recording began or ended inside it (a copy
+// of the identifier cut there counts what it holds).
+//
+// Policy: the mode is the one that covered the most time; with a list the
+// matcher weighs the characters of every segment (each copy of the ID
+// adding evidence, the ID found inside longer text) and, when that is not
+// enough, the keying template on the kept envelope (idmatch.Matcher.
+// Identify); without a list the transmission is named by the word it
+// repeats (idmatch.Repeated).
+func (t *Transmission) Finish(cutStart, cutEnd bool) Burst {
+	if t.pending != nil {
+		t.keep(t.pending, math.Inf(1))
+		t.pending = nil
+	}
+	b := Burst{Ident: idmatch.Unknown, Mode: morse.ModeAuto, WPM: t.wpm, Warnings: t.warnings}
+	best := 0.0
+	for _, m := range []morse.Mode{morse.ModeFM, morse.ModeAM, morse.ModeCW, morse.ModeAuto} {
+		if v := t.modes[m]; v > best {
+			b.Mode, best = m, v
+		}
+	}
+	b.ToneHz = weightedMedian(t.tonesHz, t.toneW)
+	var sb strings.Builder
+	for i, c := range t.chars {
+		if i > 0 && c.WordBefore {
+			sb.WriteByte(' ')
+		}
+		sb.WriteString(c.Text)
+	}
+	b.Text = sb.String()
+	b.Words = words(t.chars)
+	if t.segments == 0 {
+		b.Warnings = append(b.Warnings, "no audio or level track to identify from")
 		return b
 	}
-	b.setDecoded(d)
-	if m != nil {
-		mt := m.Match(d)
+	if m := t.id.matcher; m != nil {
+		d := morse.Decoded{Chars: t.chars, Text: b.Text}
+		// The evidence's time base is the envelope's.
+		off := t.envStartS
+		for i := range d.Chars {
+			d.Chars[i].StartS -= off
+			d.Chars[i].EndS -= off
+		}
+		for _, tn := range t.tones {
+			tn.StartS -= off
+			d.Keying = append(d.Keying, tn)
+		}
+		mt := m.Identify(idmatch.Evidence{Decoded: d, Envelope: t.env, EnvRate: t.envRate, CutStart: cutStart, CutEnd: cutEnd})
+		for i := range d.Chars {
+			d.Chars[i].StartS += off
+			d.Chars[i].EndS += off
+		}
 		b.Ident, b.Confidence, b.Method = mt.ID, mt.Confidence, mt.Method
+		for _, sc := range mt.Scores {
+			if sc.ID == mt.ID && mt.Method == "text" {
+				b.Copies = sc.TextCopies
+			}
+		}
 		b.Warnings = append(b.Warnings, mt.Warnings...)
 		return b
 	}
-	b.Ident, b.Confidence, b.Method = RepeatedWord(d)
+	if w, conf, n := idmatch.Repeated(t.chars); n >= 2 {
+		b.Ident, b.Confidence, b.Method, b.Copies = w, conf, "repeated-text", n
+	}
 	return b
 }
 
-// setDecoded copies what the decoder read.
-func (b *Burst) setDecoded(d morse.Decoded) {
-	b.Text = d.Text
-	b.ToneHz = d.ToneHz
-	b.WPM = d.WPM
-	b.Warnings = append(b.Warnings, d.Warnings...)
+// words splits characters into words at word breaks and keeps those of
+// three or more characters with none unreadable.
+func words(chars []morse.Char) []string {
+	var out []string
+	var cur strings.Builder
+	bad, n := false, 0
+	flush := func() {
+		if n >= 3 && !bad {
+			out = append(out, cur.String())
+		}
+		cur.Reset()
+		bad, n = false, 0
+	}
+	for i, c := range chars {
+		if i > 0 && c.WordBefore {
+			flush()
+		}
+		cur.WriteString(c.Text)
+		n++
+		bad = bad || c.Text == morse.UnknownChar
+	}
+	flush()
+	return out
+}
+
+// weightedMedian is the value at half the total weight (0 when empty).
+func weightedMedian(x, w []float64) float64 {
+	if len(x) == 0 {
+		return 0
+	}
+	idx := make([]int, len(x))
+	tot := 0.0
+	for i := range idx {
+		idx[i] = i
+		tot += w[i]
+	}
+	sort.Slice(idx, func(a, b int) bool { return x[idx[a]] < x[idx[b]] })
+	acc := 0.0
+	for _, i := range idx {
+		acc += w[i]
+		if acc >= tot/2 {
+			return x[i]
+		}
+	}
+	return x[idx[len(idx)-1]]
 }

@@ -1,52 +1,9 @@
 package ident
 
 import (
-	"math"
-	"sort"
-	"strings"
-
 	"nullseek/ident/fingerprint"
 	"nullseek/ident/idmatch"
-	"nullseek/ident/morse"
 )
-
-// RepeatedWord names a transmission without a list: the word sent most
-// often, when it was sent at least twice (words of three or more
-// characters, none unreadable). The confidence is the mean character
-// confidence times the word's share of the words; the method is
-// "repeated-text". Otherwise it returns idmatch.Unknown, 0, "".
-func RepeatedWord(d morse.Decoded) (ident string, confidence float64, method string) {
-	words := strings.Fields(d.Text)
-	count := map[string]int{}
-	for _, w := range words {
-		if len([]rune(w)) >= 3 && !strings.Contains(w, morse.UnknownChar) {
-			count[w]++
-		}
-	}
-	best, n := "", 0
-	keys := make([]string, 0, len(count))
-	for k := range count {
-		keys = append(keys, k)
-	}
-	sort.Strings(keys)
-	for _, k := range keys {
-		if count[k] > n {
-			best, n = k, count[k]
-		}
-	}
-	if n < 2 {
-		return idmatch.Unknown, 0, ""
-	}
-	var conf float64
-	for _, c := range d.Chars {
-		conf += c.Confidence
-	}
-	if len(d.Chars) > 0 {
-		conf /= float64(len(d.Chars))
-	}
-	share := float64(n) / float64(len(words))
-	return best, math.Min(1, conf*share), "repeated-text"
-}
 
 // Attribution is what naming decided for one burst.
 type Attribution struct {

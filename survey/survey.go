@@ -70,14 +70,24 @@ func Run(ctx context.Context, src sdr.Source, opts Options, progress func(int64)
 		return nil, fmt.Errorf("%s: %w", info.Name, err)
 	}
 	res := &Result{Info: info}
-	emit := func(b *receiver.Burst) error {
-		r := Record{Burst: *b, Ident: idmatch.Unknown}
-		if !opts.NoIdent {
-			tr := idf.Begin()
-			if err := tr.Add(segmentOf(b)); err != nil {
-				return err
+	// Identification reads each piece of a transmission as it comes (a
+	// transmission of any length is read with bounded memory) and names it
+	// when its closing burst arrives.
+	var tr *ident.Transmission
+	h := receiver.Handler{Progress: progress}
+	if !opts.NoIdent {
+		h.Piece = func(p *receiver.Piece) error {
+			if tr == nil {
+				tr = idf.Begin()
 			}
-			r.setIdent(tr.Finish())
+			return tr.Add(segmentOf(p))
+		}
+	}
+	h.Burst = func(b *receiver.Burst) error {
+		r := Record{Burst: *b, Ident: idmatch.Unknown}
+		if tr != nil {
+			r.setIdent(tr.Finish(b.CutAtStart, b.CutAtEnd))
+			tr = nil
 		}
 		if b.DoubleCarrier {
 			r.Warnings = append(r.Warnings, fmt.Sprintf("carrier stepped by %.0f Hz inside the burst: two transmitters on the air at once?", b.CarrierSpreadHz))
@@ -87,7 +97,7 @@ func Run(ctx context.Context, src sdr.Source, opts Options, progress func(int64)
 		res.Records = append(res.Records, r)
 		return nil
 	}
-	sum, err := sc.Run(ctx, src, emit, progress)
+	sum, err := sc.Scan(ctx, src, h)
 	res.Summary = sum
 	if err != nil {
 		return res, err // the source's errors name it already
@@ -120,16 +130,24 @@ func (r *Record) setIdent(b ident.Burst) {
 	r.Warnings = append(r.Warnings, b.Warnings...)
 }
 
-// segmentOf hands a burst's audio and level track to identification.
-func segmentOf(b *receiver.Burst) ident.Segment {
-	seg := ident.Segment{AudioStartS: b.AudioStartS, AudioRateHz: b.ChannelRateHz, FM: b.FMAudio, AM: b.AMAudio}
-	if len(b.Level) >= 2 {
-		seg.Power = make([]float32, len(b.Level))
-		for i, l := range b.Level {
+// segmentOf hands the transmission's part of a piece to identification:
+// audio from 0.1 s before its start edge to 0.1 s after its end edge, the
+// level track from edge to edge (as linear power).
+func segmentOf(p *receiver.Piece) ident.Segment {
+	seg := ident.Segment{OverlapS: p.OverlapS, Keyed: p.Keyed}
+	if len(p.FMAudio) > 0 && p.ChannelRateHz > 0 {
+		t0 := p.OnS - 0.1
+		a0 := max(0, min(int(math.Floor((t0-p.StartS)*p.ChannelRateHz)), len(p.FMAudio)))
+		seg.FM, seg.AM, _ = p.Between(t0, p.OffS+0.1)
+		seg.AudioStartS, seg.AudioRateHz = p.StartS+float64(a0)/p.ChannelRateHz, p.ChannelRateHz
+	}
+	if _, _, level := p.Between(p.OnS, p.OffS); len(level) >= 2 {
+		seg.Power = make([]float32, len(level))
+		for i, l := range level {
 			seg.Power[i] = float32(math.Pow(10, l.LevelDB/10))
 		}
-		seg.PowerStartS = b.Level[0].T
-		seg.PowerRateHz = float64(len(b.Level)-1) / (b.Level[len(b.Level)-1].T - b.Level[0].T)
+		seg.PowerStartS = level[0].T
+		seg.PowerRateHz = float64(len(level)-1) / (level[len(level)-1].T - level[0].T)
 	}
 	return seg
 }

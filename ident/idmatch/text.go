@@ -462,3 +462,58 @@ func (m *Matcher) isListedVariant(i, j int, v string) bool {
 	_, ok := m.keys[strings.Join(key, " ")]
 	return ok
 }
+
+// Repeated names a transmission without a list: the word (three or more
+// characters between word breaks, none unreadable) read most often, when
+// it was read at least twice. Its confidence is the chance that at least
+// one of its copies was read right, 1 − Π(1 − Π r) over the copies and
+// their characters' reliabilities (charReliability): copies that agree
+// are seldom all misread the same way. Ties go to the word read first.
+// It returns "", 0, 0 when no word repeats.
+func Repeated(chars []morse.Char) (word string, confidence float64, copies int) {
+	type w struct {
+		n     int
+		miss  float64 // Π(1 − P(copy right))
+		first int
+	}
+	seen := map[string]*w{}
+	var order []string
+	start := 0
+	end := func(i int) {
+		cs := chars[start:i]
+		start = i
+		if len(cs) < 3 {
+			return
+		}
+		var b strings.Builder
+		p := 1.0
+		for _, c := range cs {
+			if c.Text == morse.UnknownChar {
+				return
+			}
+			b.WriteString(c.Text)
+			p *= charReliability(c)
+		}
+		k := b.String()
+		e := seen[k]
+		if e == nil {
+			e = &w{miss: 1, first: len(order)}
+			seen[k] = e
+			order = append(order, k)
+		}
+		e.n++
+		e.miss *= 1 - p
+	}
+	for i, c := range chars {
+		if i > 0 && c.WordBefore {
+			end(i)
+		}
+	}
+	end(len(chars))
+	for _, k := range order {
+		if e := seen[k]; e.n >= 2 && (copies == 0 || e.n > copies) {
+			word, copies, confidence = k, e.n, 1-e.miss
+		}
+	}
+	return word, confidence, copies
+}

@@ -33,6 +33,9 @@ type Char struct {
 	// 0.75: neither clearly key-down nor clearly key-up (fading, noise
 	// bursts below the FM threshold).
 	Unsure float64
+	// WordBefore says a word break (a word gap, a long tone or a pause)
+	// comes between this character and the one before it.
+	WordBefore bool
 }
 
 // Decoded is the result of decoding one burst.
@@ -818,6 +821,7 @@ func DecodeEnvelope(env []float32, envRate float64, opts DecodeOptions) (Decoded
 	conf := 1.0
 	var cStart, cEnd float64
 	var onSamples [][2]int // key-down runs of the character being read
+	wordBreak := false     // a word break since the last character
 	flush := func() {
 		if len(pattern) == 0 {
 			return
@@ -830,7 +834,8 @@ func DecodeEnvelope(env []float32, envRate float64, opts DecodeOptions) (Decoded
 		b.WriteString(t)
 		lvl, dip := lv.charLevel(onSamples)
 		d.Chars = append(d.Chars, Char{Text: t, Confidence: c, StartS: cStart, EndS: cEnd, SNRDB: lv.charSNR(onSamples),
-			Level: lvl, Dip: dip, Unsure: lv.unsure(onSamples)})
+			Level: lvl, Dip: dip, Unsure: lv.unsure(onSamples), WordBefore: wordBreak && len(d.Chars) > 0})
+		wordBreak = false
 		pattern, conf = pattern[:0], 1
 		onSamples = onSamples[:0]
 	}
@@ -846,6 +851,7 @@ func DecodeEnvelope(env []float32, envRate float64, opts DecodeOptions) (Decoded
 					// A long steady tone: a word break, no character.
 					flush()
 					b.WriteByte(' ')
+					wordBreak = true
 					d.Keying = append(d.Keying, Mark{On: true, StartS: t0, DurS: dur, Units: 0})
 					continue
 				}
@@ -880,10 +886,12 @@ func DecodeEnvelope(env []float32, envRate float64, opts DecodeOptions) (Decoded
 			flush()
 			if k == 2 {
 				b.WriteByte(' ')
+				wordBreak = true
 			}
 		}
 		flush()
 		b.WriteByte(' ')
+		wordBreak = true
 	}
 	flush()
 	d.Text = strings.Join(strings.Fields(b.String()), " ")
