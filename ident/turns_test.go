@@ -30,7 +30,8 @@ func feed(t *testing.T, id *Identifier, audio []float32, rate, pieceS, overlapS 
 			break
 		}
 	}
-	return tr.Finish(false, false)
+	b, _ := tr.Finish(false, false)
+	return b
 }
 
 // TestLongTurnsCombined: one-minute turns of a hunt beacon (the ID, a long

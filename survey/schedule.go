@@ -18,5 +18,8 @@ func Schedule(res *Result, opts schedule.Options) (*schedule.Plan, error) {
 	if opts.CaptureEndS == 0 {
 		opts.CaptureEndS = res.Summary.DurationS
 	}
+	if opts.ListedIDs == nil {
+		opts.ListedIDs = res.ListedIDs
+	}
 	return schedule.Build(obs, labels, opts)
 }

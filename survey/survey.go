@@ -42,15 +42,32 @@ type Record struct {
 	ToneHz          float64
 	WPM             float64
 	Transmitter     string
-	Warnings        []string
+	// Part and Parts number the parts of a burst split by fingerprint (two
+	// transmitters on the air together): part Part of Parts (0 and 0 for a
+	// burst read whole). SplitStart and SplitEnd say the edge is where it
+	// was split, not the transmitter's own.
+	Part, Parts          int
+	SplitStart, SplitEnd bool
+	Warnings             []string
+	// Words are the decoded words with the chance each was read right,
+	// for naming transmitters without a list (not in the JSON line).
+	Words []idmatch.Word
+	// AlsoHeard are further listed IDs read whole in the burst: two
+	// transmitters on the air together that their fingerprints could not
+	// tell apart. Such a burst names neither's edges.
+	AlsoHeard []string
 }
 
 // Result is a finished survey.
 type Result struct {
-	Info     sdr.Info
-	Summary  receiver.Summary
-	Records  []Record
-	Clusters fingerprint.Result
+	// ListedIDs are the expected identifiers the survey was given; Heard
+	// and NotHeard split them into those named on a burst and those never
+	// heard (in list order).
+	ListedIDs, Heard, NotHeard []string
+	Info                       sdr.Info
+	Summary                    receiver.Summary
+	Records                    []Record
+	Clusters                   fingerprint.Result
 }
 
 // Run surveys src. progress (may be nil) gets the input samples consumed.
@@ -69,7 +86,7 @@ func Run(ctx context.Context, src sdr.Source, opts Options, progress func(int64)
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", info.Name, err)
 	}
-	res := &Result{Info: info}
+	res := &Result{Info: info, ListedIDs: idf.Options().IDs}
 	// Identification reads each piece of a transmission as it comes (a
 	// transmission of any length is read with bounded memory) and names it
 	// when its closing burst arrives.
@@ -85,15 +102,26 @@ func Run(ctx context.Context, src sdr.Source, opts Options, progress func(int64)
 	}
 	h.Burst = func(b *receiver.Burst) error {
 		r := Record{Burst: *b, Ident: idmatch.Unknown}
+		// The audio has done its job; keep the record small.
+		r.FMAudio, r.AMAudio = nil, nil
+		var parts []ident.Part
 		if tr != nil {
-			r.setIdent(tr.Finish(b.CutAtStart, b.CutAtEnd))
+			var whole ident.Burst
+			whole, parts = tr.Finish(b.CutAtStart, b.CutAtEnd)
+			r.setIdent(whole)
 			tr = nil
+		}
+		if len(parts) > 1 {
+			// Two transmitters on the air together, told apart by their
+			// fingerprints: one record each.
+			for i, p := range parts {
+				res.Records = append(res.Records, partRecord(r, p, i, len(parts), sc.OffsetHz()))
+			}
+			return nil
 		}
 		if b.DoubleCarrier {
 			r.Warnings = append(r.Warnings, fmt.Sprintf("carrier stepped by %.0f Hz inside the burst: two transmitters on the air at once?", b.CarrierSpreadHz))
 		}
-		// The audio has done its job; keep the record small.
-		r.FMAudio, r.AMAudio = nil, nil
 		res.Records = append(res.Records, r)
 		return nil
 	}
@@ -103,11 +131,16 @@ func Run(ctx context.Context, src sdr.Source, opts Options, progress func(int64)
 		return res, err // the source's errors name it already
 	}
 	if len(res.Records) > 0 && !opts.NoIdent {
-		nm, err := idf.Name(Observations(res.Records))
+		words := make([][]idmatch.Word, len(res.Records))
+		for i, r := range res.Records {
+			words[i] = r.Words
+		}
+		nm, err := idf.Name(Observations(res.Records), words)
 		if err != nil {
 			return res, err
 		}
 		res.Clusters = nm.Clusters
+		res.Heard, res.NotHeard = nm.Heard, nm.NotHeard
 		for i, a := range nm.Bursts {
 			r := &res.Records[i]
 			r.Transmitter = a.Transmitter
@@ -122,11 +155,46 @@ func Run(ctx context.Context, src sdr.Source, opts Options, progress func(int64)
 
 func known(id string) bool { return idmatch.Known(id) }
 
+// partRecord is the record of part i of n of a burst split by fingerprint:
+// the burst's record with the part's times, carrier offset (channelHz is
+// the channel's offset from the capture centre) and identification; an
+// edge where the burst was split is marked (SplitStart, SplitEnd), and
+// only the first part keeps the cut by the recording's start, the last
+// the cut by its end.
+func partRecord(r Record, p ident.Part, i, n int, channelHz float64) Record {
+	q := r
+	q.Warnings = nil
+	q.Part, q.Parts = i+1, n
+	q.StartS, q.EndS = math.Max(p.StartS, r.StartS), math.Min(p.EndS, r.EndS)
+	if !r.Start.IsZero() {
+		q.Start = r.Start.Add(time.Duration((q.StartS - r.StartS) * float64(time.Second)))
+		q.End = r.Start.Add(time.Duration((q.EndS - r.StartS) * float64(time.Second)))
+	}
+	if !math.IsNaN(p.OffsetHz) {
+		q.OffsetHz = channelHz + p.OffsetHz
+	}
+	q.SplitStart, q.SplitEnd = p.SplitStart, p.SplitEnd
+	q.CutAtStart = r.CutAtStart && i == 0
+	q.CutAtEnd = r.CutAtEnd && i == n-1
+	q.DoubleCarrier = false
+	var lv []receiver.LevelSample
+	for _, l := range r.Level {
+		if l.T >= q.StartS && l.T <= q.EndS {
+			lv = append(lv, l)
+		}
+	}
+	q.Level = lv
+	q.setIdent(p.Burst)
+	return q
+}
+
 // setIdent copies identification's findings into the record.
 func (r *Record) setIdent(b ident.Burst) {
 	r.Mode = b.Mode.String()
 	r.Text, r.ToneHz, r.WPM = b.Text, b.ToneHz, b.WPM
 	r.Ident, r.IdentConfidence, r.IdentMethod = b.Ident, b.Confidence, b.Method
+	r.Words = b.Words
+	r.AlsoHeard = b.AlsoHeard
 	r.Warnings = append(r.Warnings, b.Warnings...)
 }
 
@@ -160,7 +228,14 @@ func Observations(recs []Record) []fingerprint.Observation {
 			Index: r.Index, StartS: r.StartS, EndS: r.EndS, Start: r.Start,
 			OffsetHz: r.OffsetHz, ToneHz: r.ToneHz, LevelDB: r.LevelDB,
 			Ident: r.Ident, IdentConfidence: r.IdentConfidence, IdentMethod: r.IdentMethod,
+			CutStart: r.CutAtStart || r.SplitStart, CutEnd: r.CutAtEnd || r.SplitEnd,
 			DoubleCarrier: r.DoubleCarrier,
+		}
+		if len(r.AlsoHeard) > 0 {
+			// Two transmitters in one burst: its edges are not one
+			// transmitter's, and it makes no transmitter of its own.
+			obs[i].DoubleCarrier, obs[i].CutStart, obs[i].CutEnd = true, true, true
+			obs[i].OtherIdent = r.AlsoHeard[0]
 		}
 	}
 	return obs

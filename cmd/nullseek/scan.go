@@ -4,15 +4,15 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
-	"nullseek/ident"
-	"nullseek/ident/fingerprint"
-	"nullseek/ident/idmatch"
-	"nullseek/ident/morse"
 	"os"
 	"time"
 
 	"github.com/spf13/cobra"
 
+	"nullseek/ident"
+	"nullseek/ident/fingerprint"
+	"nullseek/ident/idmatch"
+	"nullseek/ident/morse"
 	"nullseek/survey"
 )
 
@@ -125,7 +125,15 @@ it sees and scans the strongest.`,
 				if flags == nil {
 					flags = []fingerprint.Flag{}
 				}
-				return enc.Encode(map[string]any{"type": "summary", "summary": res.Summary, "transmitters": txs, "flags": flags})
+				heard, notHeard := res.Heard, res.NotHeard
+				if heard == nil {
+					heard = []string{}
+				}
+				if notHeard == nil {
+					notHeard = []string{}
+				}
+				return enc.Encode(map[string]any{"type": "summary", "summary": res.Summary, "transmitters": txs, "flags": flags,
+					"heard": heard, "not_heard": notHeard})
 			}
 			if err := res.WriteTable(os.Stdout); err != nil {
 				return err

@@ -48,6 +48,14 @@ type Observation struct {
 	// DoubleCarrier is set by the receiver when it saw two carriers at once
 	// during this burst (an overlap with an unidentified second transmitter).
 	DoubleCarrier bool
+	// CutStart and CutEnd say the burst's start or end is not the
+	// transmitter's: the recording began or ended inside it, or it is where
+	// a burst holding two transmitters was split.
+	CutStart, CutEnd bool
+	// OtherIdent is a second identifier read whole in the burst (two
+	// transmitters on the air together that the fingerprint could not
+	// split; DoubleCarrier is then set too).
+	OtherIdent string
 }
 
 // Options tunes Cluster. Zero values select the defaults.
@@ -68,7 +76,17 @@ type Options struct {
 	// counts as confident when looking for a cluster that carries two
 	// different IDs (default 0.8).
 	ConfidentMin float64
+	// EdgeFactor widens the offset and tone tolerances for attaching an
+	// edge burst (cut by the recording, split from an overlap, or carrying
+	// two carriers), whose fingerprint is measured on less or on a mix
+	// (default 3); LevelTolDB is the level distance (dB) counted as one
+	// tolerance for it (default 10: one transmitter's level, heard on one
+	// antenna, changes little from turn to turn).
+	EdgeFactor, LevelTolDB float64
 }
+
+// Resolved returns o with its zero fields replaced by the defaults.
+func (o Options) Resolved() Options { return o.withDefaults() }
 
 func (o Options) withDefaults() Options {
 	if !(o.OffsetTolHz > 0) {
@@ -83,8 +101,69 @@ func (o Options) withDefaults() Options {
 	if !(o.ConfidentMin > 0) {
 		o.ConfidentMin = 0.8
 	}
+	if !(o.EdgeFactor > 0) {
+		o.EdgeFactor = 3
+	}
+	if !(o.LevelTolDB > 0) {
+		o.LevelTolDB = 10
+	}
 	return o
 }
+
+// edgeBurst reports whether a burst's fingerprint or edges are not wholly
+// its transmitter's: cut by the recording, split from an overlap, or
+// carrying two carriers at once.
+func edgeBurst(o Observation) bool { return o.CutStart || o.CutEnd || o.DoubleCarrier }
+
+// attachEdges places the edge bursts (comp −2): with the cluster whose
+// member is nearest by offset, tone (tolerances widened EdgeFactor times)
+// and level (LevelTolDB), within one widened tolerance; else with the
+// cluster whose members read the same identifier confidently; else, when
+// it reads an identifier of its own, as a cluster of its own (a
+// transmitter heard only cut); else nowhere (−1). A burst with two
+// carriers never makes a cluster of its own.
+func attachEdges(obs []Observation, comp []int, offTol, toneTol float64, opts Options) {
+	for i, o := range obs {
+		if comp[i] != -2 {
+			continue
+		}
+		best, bestD := -1, math.Inf(1)
+		for j, c := range comp {
+			if c < 0 || edgeBurst(obs[j]) {
+				continue
+			}
+			m := obs[j]
+			if (o.ToneHz == 0) != (m.ToneHz == 0) {
+				continue
+			}
+			d := math.Sqrt(sq((o.OffsetHz-m.OffsetHz)/(opts.EdgeFactor*offTol)) + sq((o.ToneHz-m.ToneHz)/(opts.EdgeFactor*toneTol)) +
+				sq((o.LevelDB-m.LevelDB)/opts.LevelTolDB))
+			if d < bestD {
+				best, bestD = c, d
+			}
+		}
+		switch {
+		case best >= 0 && bestD <= 1:
+			comp[i] = best
+		case idmatch.Known(o.Ident):
+			comp[i] = -1
+			for j, c := range comp {
+				if c >= 0 && j != i && strings.EqualFold(strings.TrimSpace(obs[j].Ident), strings.TrimSpace(o.Ident)) &&
+					clampConf(obs[j].IdentConfidence) >= opts.ConfidentMin {
+					comp[i] = c
+					break
+				}
+			}
+			if comp[i] < 0 && !o.DoubleCarrier {
+				comp[i] = i
+			}
+		default:
+			comp[i] = -1
+		}
+	}
+}
+
+func sq(x float64) float64 { return x * x }
 
 // FlagKind names a problem found while clustering.
 type FlagKind string
@@ -142,6 +221,9 @@ type Result struct {
 	Notes    []string      `json:"notes"`
 	Clusters []Transmitter `json:"clusters"`
 	Flags    []Flag        `json:"flags"`
+	// Unattributed counts the edge bursts (see Cluster) left without a
+	// transmitter (Label "").
+	Unattributed int `json:"unattributed"`
 	// OffsetTolHz and ToneTolHz are the tolerances actually used, after any
 	// widening from the measured spread.
 	OffsetTolHz float64 `json:"offset_tol_hz"`
@@ -171,6 +253,15 @@ type Result struct {
 // attributed the cluster's ID, with a note. Flags report IDs shared by
 // several clusters and clusters with several confident IDs.
 //
+// Edge bursts — cut by the start or end of the recording, split from a
+// burst that held two transmitters (CutStart, CutEnd), or carrying two
+// carriers (DoubleCarrier) — measure their fingerprint on less, or on a
+// mix, and would otherwise make transmitters of their own: they neither
+// form nor link clusters, and are attached afterwards (see attachEdges) to
+// the transmitter they fit by offset, tone and level, or by the
+// identifier they read; an edge burst that fits none and reads none is
+// left unattributed (Label "", counted in Unattributed).
+//
 // Errors: an empty input, or a non-finite offset, tone or time, or a negative
 // tone, is rejected with an error naming the burst.
 func Cluster(obs []Observation, opts Options) (Result, error) {
@@ -185,9 +276,26 @@ func Cluster(obs []Observation, opts Options) (Result, error) {
 	opts = opts.withDefaults()
 	offTol, toneTol := opts.OffsetTolHz, opts.ToneTolHz
 
-	comp := singleLinkage(obs, offTol, toneTol)
+	// Whole bursts make the clusters; bursts cut by the recording or split
+	// from an overlap, and bursts carrying two carriers, join them after.
+	var core []int
+	for i, o := range obs {
+		if !edgeBurst(o) {
+			core = append(core, i)
+		}
+	}
+	if len(core) == 0 {
+		for i := range obs {
+			core = append(core, i)
+		}
+	}
+	sub := make([]Observation, len(core))
+	for k, i := range core {
+		sub[k] = obs[i]
+	}
+	subComp := singleLinkage(sub, offTol, toneTol)
 	if opts.SpreadFactor > 0 {
-		jOff, jTone := jitter(obs, comp)
+		jOff, jTone := jitter(sub, subComp)
 		widened := false
 		if w := opts.SpreadFactor * jOff; w > offTol {
 			offTol, widened = w, true
@@ -196,14 +304,24 @@ func Cluster(obs []Observation, opts Options) (Result, error) {
 			toneTol, widened = w, true
 		}
 		if widened {
-			comp = singleLinkage(obs, offTol, toneTol)
+			subComp = singleLinkage(sub, offTol, toneTol)
 		}
 	}
+	comp := make([]int, len(obs))
+	for i := range comp {
+		comp[i] = -2 // not yet placed
+	}
+	for k, i := range core {
+		comp[i] = core[subComp[k]]
+	}
+	attachEdges(obs, comp, offTol, toneTol, opts)
 
 	// Group members; order clusters by first start.
 	groups := map[int][]int{}
 	for i, c := range comp {
-		groups[c] = append(groups[c], i)
+		if c >= 0 {
+			groups[c] = append(groups[c], i)
+		}
 	}
 	byTime := func(a, b int) int {
 		if c := cmp.Compare(obs[a].StartS, obs[b].StartS); c != 0 {
@@ -224,6 +342,16 @@ func Cluster(obs []Observation, opts Options) (Result, error) {
 		Notes:       make([]string, len(obs)),
 		OffsetTolHz: offTol,
 		ToneTolHz:   toneTol,
+	}
+	for i, c := range comp {
+		if c < 0 { // an edge burst that fits no transmitter
+			res.Idents[i] = idmatch.Unknown
+			if idmatch.Known(obs[i].Ident) {
+				res.Idents[i] = strings.TrimSpace(obs[i].Ident)
+			}
+			res.Notes[i] = "cut by the recording or split from an overlap, and its fingerprint fits no transmitter: left unattributed"
+			res.Unattributed++
+		}
 	}
 	for ci, members := range clusters {
 		tc := summarise(obs, members)

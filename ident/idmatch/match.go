@@ -61,7 +61,10 @@ type Result struct {
 	// holds no listed ID: noise, or an identifier not on the list.
 	Unlisted float64
 	// WPM is the speed of the best template (template method only).
-	WPM      float64
+	WPM float64
+	// Others are further listed IDs that own whole copies in the same
+	// burst (two transmitters on the air together), most copies first.
+	Others   []string
 	Scores   []Score
 	Warnings []string
 }
@@ -393,6 +396,9 @@ func (m *Matcher) Identify(e Evidence) Result {
 			names = append(names, fmt.Sprintf("%s ×%d", m.ids[i], owned[i]))
 		}
 		w := present[0]
+		for _, i := range present[1:] {
+			res.Others = append(res.Others, m.ids[i])
+		}
 		res.ID, res.Method = m.ids[w], "text"
 		res.Confidence = float64(owned[w]) / float64(total)
 		res.Warnings = append(res.Warnings, "more than one identifier in one burst: "+strings.Join(names, ", "))

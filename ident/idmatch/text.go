@@ -471,13 +471,51 @@ func (m *Matcher) isListedVariant(i, j int, v string) bool {
 // are seldom all misread the same way. Ties go to the word read first.
 // It returns "", 0, 0 when no word repeats.
 func Repeated(chars []morse.Char) (word string, confidence float64, copies int) {
-	type w struct {
-		n     int
-		miss  float64 // Π(1 − P(copy right))
-		first int
+	return RepeatedWord(Words(chars), 2)
+}
+
+// RepeatedWord is the word of ws read most often, when it was read at
+// least minCopies times, with the chance that at least one of its copies
+// was read right, 1 − Π(1 − Confidence) (ties: the word read first); "",
+// 0, 0 otherwise. Repeated uses it on one transmission; naming without a
+// list uses it on the words of all the bursts of one fingerprint.
+func RepeatedWord(ws []Word, minCopies int) (word string, confidence float64, copies int) {
+	type agg struct {
+		n    int
+		miss float64
 	}
-	seen := map[string]*w{}
+	seen := map[string]*agg{}
 	var order []string
+	for _, w := range ws {
+		e := seen[w.Text]
+		if e == nil {
+			e = &agg{miss: 1}
+			seen[w.Text] = e
+			order = append(order, w.Text)
+		}
+		e.n++
+		e.miss *= 1 - w.Confidence
+	}
+	for _, k := range order {
+		if e := seen[k]; e.n >= minCopies && e.n > copies {
+			word, copies, confidence = k, e.n, 1-e.miss
+		}
+	}
+	return word, confidence, copies
+}
+
+// Word is a decoded word with the chance it was read right.
+type Word struct {
+	Text string
+	// Confidence is the product of its characters' reliabilities
+	// (charReliability).
+	Confidence float64
+}
+
+// Words splits decoded characters into words at word breaks and returns
+// those of three or more characters with none unreadable.
+func Words(chars []morse.Char) []Word {
+	var out []Word
 	start := 0
 	end := func(i int) {
 		cs := chars[start:i]
@@ -494,15 +532,7 @@ func Repeated(chars []morse.Char) (word string, confidence float64, copies int) 
 			b.WriteString(c.Text)
 			p *= charReliability(c)
 		}
-		k := b.String()
-		e := seen[k]
-		if e == nil {
-			e = &w{miss: 1, first: len(order)}
-			seen[k] = e
-			order = append(order, k)
-		}
-		e.n++
-		e.miss *= 1 - p
+		out = append(out, Word{b.String(), p})
 	}
 	for i, c := range chars {
 		if i > 0 && c.WordBefore {
@@ -510,10 +540,5 @@ func Repeated(chars []morse.Char) (word string, confidence float64, copies int) 
 		}
 	}
 	end(len(chars))
-	for _, k := range order {
-		if e := seen[k]; e.n >= 2 && (copies == 0 || e.n > copies) {
-			word, copies, confidence = k, e.n, 1-e.miss
-		}
-	}
-	return word, confidence, copies
+	return out
 }

@@ -27,8 +27,12 @@ type Options struct {
 	// the transmitters' fitted periods is the reference.
 	NominalPeriodS float64
 	// NextCount is how many start times to predict per transmitter after the
-	// end of the recording (default 3; negative: none).
+	// end of the recording (0: none; at most MaxNextCount; DefaultOptions
+	// has 3).
 	NextCount int
+	// ListedIDs are the event's expected identifiers, if any: the plan
+	// says which of them were heard (have bursts) and which never were.
+	ListedIDs []string
 	// CaptureStart is the UTC time of the capture start. Zero: derived from the
 	// first observation with a non-zero Start (Start − StartS); when none has
 	// one, times are reported in seconds only.
@@ -51,10 +55,48 @@ type Options struct {
 	EdgeGuardS float64
 }
 
-func (o Options) withDefaults() Options {
-	if o.NextCount == 0 {
-		o.NextCount = 3
+// MaxNextCount bounds Options.NextCount: a thousand cycles ahead is
+// further than any clock holds its drift.
+const MaxNextCount = 1000
+
+// MaxPeriodS bounds Options.NominalPeriodS: a day (beacons sharing a
+// channel cycle in minutes).
+const MaxPeriodS = 86400.0
+
+// DefaultOptions returns the defaults the command line starts from: three
+// predicted starts, 30 ms start jitter, 0.25 s edge guard.
+func DefaultOptions() Options {
+	return Options{NextCount: 3, StartJitterS: 0.03, EdgeGuardS: 0.25}
+}
+
+// ErrBadOptions is wrapped by Options.Validate's errors.
+var ErrBadOptions = errors.New("bad schedule options")
+
+// Validate checks every field against its documented range, naming the
+// flag (or field) that sets it.
+func (o Options) Validate() error {
+	bad := func(format string, a ...any) error {
+		return fmt.Errorf(format+": %w", append(a, ErrBadOptions)...)
 	}
+	finite := func(x float64) bool { return !math.IsNaN(x) && !math.IsInf(x, 0) }
+	switch {
+	case !finite(o.NominalPeriodS) || o.NominalPeriodS < 0 || o.NominalPeriodS > MaxPeriodS:
+		return bad("--period %v s: give the programmed cycle, more than 0 and at most %g s (a day), or leave it out", o.NominalPeriodS, MaxPeriodS)
+	case o.NextCount < 0 || o.NextCount > MaxNextCount:
+		return bad("--next %d: predict 0 to %d start times per transmitter", o.NextCount, MaxNextCount)
+	case !finite(o.CaptureEndS) || o.CaptureEndS < 0 || o.CaptureEndS > 10*365.25*86400:
+		return bad("capture end %v s is not a time in the recording", o.CaptureEndS)
+	case !finite(o.StartJitterS) || o.StartJitterS < 0 || o.StartJitterS > 10:
+		return bad("start jitter %v s: 0 (default) to 10 s", o.StartJitterS)
+	case !finite(o.MergeGapS) || o.MergeGapS > 3600:
+		return bad("merge gap %v s: at most an hour (negative: never merge)", o.MergeGapS)
+	case !finite(o.EdgeGuardS) || o.EdgeGuardS > 60:
+		return bad("edge guard %v s: at most 60 s (negative: off)", o.EdgeGuardS)
+	}
+	return nil
+}
+
+func (o Options) withDefaults() Options {
 	if !(o.StartJitterS > 0) {
 		o.StartJitterS = 0.03
 	}
@@ -159,7 +201,12 @@ type Overlap struct {
 	// StartS and EndS bound the overlap (s from capture start).
 	StartS, EndS float64
 	Start        time.Time
-	// Source is "intervals" or "receiver".
+	// Source is "intervals" (their bursts' intervals intersect), "receiver"
+	// (it saw two carriers in one burst), "two identifiers" (both read
+	// whole in one burst their fingerprints could not split) or
+	// "fingerprint split" (one burst
+	// whose carrier offset or tone stepped was split between them: they
+	// met at StartS = EndS, the split).
 	Source string
 }
 
@@ -185,6 +232,17 @@ type Plan struct {
 	CaptureStart time.Time
 	// EndS is the end of the recording used for predictions (s).
 	EndS float64
+	// NominalPeriodS is the programmed cycle given (0: none) and
+	// NominalFits whether the start times bear it out; when they do not,
+	// drifts are measured against the median of the transmitters instead
+	// (a drift against a cycle the beacons do not keep means nothing) and
+	// NominalMisfit says what the starts show.
+	NominalPeriodS float64
+	NominalFits    bool
+	NominalMisfit  string
+	// Heard and NotHeard split Options.ListedIDs into those that have
+	// bursts and those that never came up, in list order.
+	Heard, NotHeard []string
 	// Notes lists adjustments made (skipped bursts, merged fragments,
 	// rejected starts, nominal period overridden).
 	Notes []string
@@ -235,6 +293,9 @@ func Build(obs []fingerprint.Observation, labels []string, opts Options) (*Plan,
 	if labels != nil && len(labels) != len(obs) {
 		return nil, fmt.Errorf("build schedule: %d labels for %d bursts", len(labels), len(obs))
 	}
+	if err := opts.Validate(); err != nil {
+		return nil, err
+	}
 	b := &builder{obs: obs, opts: opts.withDefaults()}
 	b.plan = &Plan{CaptureStart: b.opts.CaptureStart}
 	if err := b.attribute(labels); err != nil {
@@ -246,6 +307,7 @@ func Build(obs []fingerprint.Observation, labels []string, opts Options) (*Plan,
 	b.order()
 	b.gapsAndCollisions()
 	b.predict()
+	b.listed()
 	b.plan.Transmitters = b.txs
 	b.plan.Overlaps = findOverlaps(obs, b.used, b.plan.CaptureStart)
 	return b.plan, nil
@@ -338,8 +400,8 @@ func (b *builder) group() {
 			bs = append(bs, txBurst{
 				startS:   o.StartS,
 				endS:     o.EndS,
-				startCut: guard > 0 && o.StartS <= guard,
-				endCut:   b.edgeEnd && guard > 0 && o.EndS >= endS-guard,
+				startCut: o.CutStart || (guard > 0 && o.StartS <= guard),
+				endCut:   o.CutEnd || (b.edgeEnd && guard > 0 && o.EndS >= endS-guard),
 			})
 		}
 		gap := b.opts.MergeGapS
@@ -403,8 +465,9 @@ func (b *builder) fit() {
 		if len(all) == 0 || nomScore >= score {
 			guess, b.nominal = nom, true
 		} else {
-			b.note("nominal period %.6g s explains %d of %d start differences, %.6g s explains %d: cycles numbered with the latter",
+			b.plan.NominalMisfit = fmt.Sprintf("the nominal period %.6g s does not fit this recording: it explains %d of %d start differences, a cycle of %.6g s explains %d",
 				nom, nomScore, len(all), guess, score)
+			b.note("%s; cycles numbered with the latter, drifts against the transmitters' median", b.plan.NominalMisfit)
 		}
 	}
 	b.guessS = guess
@@ -468,17 +531,28 @@ func (b *builder) reference() {
 		}
 	}
 	p := b.plan
+	p.NominalPeriodS = b.opts.NominalPeriodS
+	if nom := b.opts.NominalPeriodS; nom > 0 && b.nominal && len(periods) > 0 {
+		// The cycles fit, but the periods must too: more than 1 % off (10^4
+		// ppm, far beyond any crystal) is another cycle, not a drift.
+		if m := stats.Median(periods); math.Abs(m-nom) > 0.01*nom {
+			b.nominal = false
+			p.NominalMisfit = fmt.Sprintf("the nominal period %.6g s does not fit this recording: the transmitters repeat every %.6g s (median)", nom, m)
+			b.note("%s; drifts against that median", p.NominalMisfit)
+		}
+	}
+	p.NominalFits = b.opts.NominalPeriodS > 0 && b.nominal
 	switch {
-	case b.opts.NominalPeriodS > 0:
+	case p.NominalFits:
 		p.DriftReferenceS = b.opts.NominalPeriodS
 		p.DriftReference = fmt.Sprintf("nominal %.6g s", b.opts.NominalPeriodS)
 		p.CommonPeriodS = b.opts.NominalPeriodS
-		if !b.nominal && len(periods) > 0 {
-			p.CommonPeriodS = stats.Median(periods) // the nominal does not fit the data
-		}
 	case len(periods) > 0:
 		p.DriftReferenceS = stats.Median(periods)
 		p.DriftReference = "median of transmitters"
+		if b.opts.NominalPeriodS > 0 {
+			p.DriftReference = fmt.Sprintf("median of transmitters (the nominal %.6g s does not fit)", b.opts.NominalPeriodS)
+		}
 		p.CommonPeriodS = p.DriftReferenceS
 	default:
 		p.DriftReferenceS = math.NaN()
@@ -599,20 +673,71 @@ func (b *builder) slotPair(x, y *Transmitter) (m, gapS float64, ok bool) {
 func (b *builder) predict() {
 	for i := range b.txs {
 		tx := &b.txs[i]
-		if !tx.HasPeriod() || b.opts.NextCount < 0 {
+		if b.opts.NextCount <= 0 {
 			continue
 		}
-		k0 := math.Floor((b.plan.EndS-tx.T0S)/tx.PeriodS) + 1
+		t0, p := tx.T0S, tx.PeriodS
+		fromNominal := false
+		if !tx.HasPeriod() {
+			// One usable start: with a programmed cycle that fits the
+			// recording, predict along it (the drift is not measured: σ
+			// grows by predictDriftPPM a cycle, plus the start jitter).
+			first, ok := uncutStart(b.bursts[tx.ID])
+			if !b.plan.NominalFits || !ok {
+				continue
+			}
+			t0, p, fromNominal = first, b.plan.NominalPeriodS, true
+		}
+		k0 := math.Floor((b.plan.EndS-t0)/p) + 1
 		for n := range b.opts.NextCount {
 			k := k0 + float64(n)
-			s := tx.T0S + k*tx.PeriodS
-			v := tx.CovT0P[0][0] + 2*k*tx.CovT0P[0][1] + k*k*tx.CovT0P[1][1]
+			s := t0 + k*p
+			var v float64
+			if fromNominal {
+				d := k * p * predictDriftPPM * 1e-6
+				v = b.opts.StartJitterS*b.opts.StartJitterS + d*d
+			} else {
+				v = tx.CovT0P[0][0] + 2*k*tx.CovT0P[0][1] + k*k*tx.CovT0P[1][1]
+			}
 			tx.NextOnS = append(tx.NextOnS, s)
 			tx.NextOnSigmaS = append(tx.NextOnSigmaS, math.Sqrt(max(v, 0)))
 			if !b.plan.CaptureStart.IsZero() {
 				at, _ := toUTC(b.plan.CaptureStart, s)
 				tx.NextOn = append(tx.NextOn, at)
 			}
+		}
+		if fromNominal {
+			tx.Reason = strings.TrimPrefix(tx.Reason+"; next on from the nominal period (drift not measured)", "; ")
+		}
+	}
+}
+
+// uncutStart is the first start not cut by the recording or a split.
+func uncutStart(bs []txBurst) (float64, bool) {
+	for _, x := range bs {
+		if !x.startCut {
+			return x.startS, true
+		}
+	}
+	return 0, false
+}
+
+// predictDriftPPM is the clock drift assumed for a transmitter whose
+// drift could not be measured (one usable start): 300 ppm, the cycle
+// matching's own allowance (cycleTol).
+const predictDriftPPM = 300.0
+
+// listed fills Heard and NotHeard from Options.ListedIDs.
+func (b *builder) listed() {
+	have := map[string]bool{}
+	for _, u := range b.used {
+		have[strings.ToUpper(u.id)] = true
+	}
+	for _, id := range b.opts.ListedIDs {
+		if have[strings.ToUpper(strings.TrimSpace(id))] {
+			b.plan.Heard = append(b.plan.Heard, id)
+		} else {
+			b.plan.NotHeard = append(b.plan.NotHeard, id)
 		}
 	}
 }
@@ -911,7 +1036,7 @@ func findOverlaps(obs []fingerprint.Observation, used []labelled, t0 time.Time) 
 		a := obs[u.idx]
 		for _, w := range s[i+1:] {
 			b := obs[w.idx]
-			if b.StartS >= a.EndS {
+			if b.StartS > a.EndS || (b.StartS == a.EndS && !(a.CutEnd && b.CutStart && a.Index == b.Index)) {
 				break
 			}
 			if w.id == u.id {
@@ -919,6 +1044,10 @@ func findOverlaps(obs []fingerprint.Observation, used []labelled, t0 time.Time) 
 			}
 			ov := Overlap{A: u.id, B: w.id, IndexA: a.Index, IndexB: b.Index,
 				StartS: b.StartS, EndS: min(a.EndS, b.EndS), Source: "intervals"}
+			if a.Index == b.Index && a.CutEnd && b.CutStart {
+				// One burst split by fingerprint: they met at the split.
+				ov.Source = "fingerprint split"
+			}
 			ov.Start, _ = toUTC(t0, ov.StartS)
 			out = append(out, ov)
 			inPair[u.idx], inPair[w.idx] = true, true
@@ -929,6 +1058,9 @@ func findOverlaps(obs []fingerprint.Observation, used []labelled, t0 time.Time) 
 		if a.DoubleCarrier && !inPair[u.idx] {
 			ov := Overlap{A: u.id, B: idmatch.Unknown, IndexA: a.Index, IndexB: -1,
 				StartS: a.StartS, EndS: a.EndS, Source: "receiver"}
+			if idmatch.Known(a.OtherIdent) {
+				ov.B, ov.Source = strings.TrimSpace(a.OtherIdent), "two identifiers"
+			}
 			ov.Start, _ = toUTC(t0, ov.StartS)
 			out = append(out, ov)
 		}

@@ -175,7 +175,9 @@ func TestScheduleJSONShape(t *testing.T) {
 				c.start = start
 			}
 			obs, endS := slotSimulate(c, rng)
-			plan, err := Build(obs, nil, Options{NominalPeriodS: 300, CaptureEndS: endS})
+			opts := DefaultOptions()
+			opts.NominalPeriodS, opts.CaptureEndS = 300, endS
+			plan, err := Build(obs, nil, opts)
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -254,7 +256,9 @@ func TestScheduleWriteTable(t *testing.T) {
 	c := slotSimCases[2]
 	obs, endS := slotSimulate(c, rng)
 	obs = append(obs, fingerprint.Observation{Index: 999, StartS: 200, EndS: 210, Ident: "N0CALL/9"})
-	plan, err := Build(obs, nil, Options{NominalPeriodS: 300, CaptureEndS: endS})
+	opts := DefaultOptions()
+	opts.NominalPeriodS, opts.CaptureEndS = 300, endS
+	plan, err := Build(obs, nil, opts)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -396,7 +400,7 @@ func FuzzBuildSchedule(f *testing.F) {
 				labels[i] = fmt.Sprintf("T%d", i%3)
 			}
 		}
-		opts := Options{}
+		opts := DefaultOptions()
 		if len(data) > 1 && data[1]%3 == 0 {
 			opts.NominalPeriodS = float64(data[1]) + 1
 			opts.CaptureStart = time.Date(2025, 1, 1, 0, 0, 0, 0, time.UTC)

@@ -88,6 +88,11 @@ type planJSON struct {
 	DriftReferenceS jsonNum           `json:"drift_reference_s"`
 	CaptureStart    *string           `json:"capture_start"`
 	EndS            jsonNum           `json:"end_s"`
+	NominalPeriodS  jsonNum           `json:"nominal_period_s,omitempty"`
+	NominalFits     *bool             `json:"nominal_fits,omitempty"`
+	NominalMisfit   string            `json:"nominal_misfit,omitempty"`
+	Heard           []string          `json:"heard"`
+	NotHeard        []string          `json:"not_heard"`
 	Notes           []string          `json:"notes,omitempty"`
 }
 
@@ -112,7 +117,14 @@ func (p *Plan) MarshalJSON() ([]byte, error) {
 		DriftReference:  p.DriftReference,
 		DriftReferenceS: jsonNum(p.DriftReferenceS),
 		EndS:            jsonNum(p.EndS),
+		NominalMisfit:   p.NominalMisfit,
+		Heard:           append([]string{}, p.Heard...),
+		NotHeard:        append([]string{}, p.NotHeard...),
 		Notes:           p.Notes,
+	}
+	if p.NominalPeriodS > 0 {
+		fits := p.NominalFits
+		out.NominalPeriodS, out.NominalFits = jsonNum(p.NominalPeriodS), &fits
 	}
 	if out.Order == nil {
 		out.Order = []string{}
@@ -166,6 +178,9 @@ func (p *Plan) MarshalJSON() ([]byte, error) {
 func (p *Plan) WriteTable(w io.Writer) error {
 	ew := &errWriter{w: w}
 	fmt.Fprintf(ew, "cycle order: %s\n", strings.Join(p.Order, " > "))
+	if p.NominalMisfit != "" {
+		fmt.Fprintf(ew, "MISFIT: %s\n", p.NominalMisfit)
+	}
 	fmt.Fprintf(ew, "common cycle: %s s   drift against: %s\n", fmtNum(p.CommonPeriodS, "%.3f"), p.DriftReference)
 	if !p.CaptureStart.IsZero() {
 		fmt.Fprintf(ew, "capture start: %s   end: +%.1f s\n", p.CaptureStart.UTC().Format(timeLayout), p.EndS)
@@ -192,6 +207,31 @@ func (p *Plan) WriteTable(w io.Writer) error {
 		if t.Reason != "" {
 			fmt.Fprintf(ew, "  %s: %s\n", t.ID, t.Reason)
 		}
+	}
+	more := false
+	for _, t := range p.Transmitters {
+		more = more || len(t.NextOnS) > 1
+	}
+	if more {
+		fmt.Fprintln(ew, "\nnext on (± 1σ):")
+		for _, t := range p.Transmitters {
+			if len(t.NextOnS) == 0 {
+				continue
+			}
+			var at []string
+			for i, s := range t.NextOnS {
+				when := fmt.Sprintf("+%.1f s", s)
+				if i < len(t.NextOn) && !t.NextOn[i].IsZero() {
+					when = t.NextOn[i].Format("15:04:05.0")
+				}
+				at = append(at, fmt.Sprintf("%s ± %.2f", when, t.NextOnSigmaS[i]))
+			}
+			fmt.Fprintf(ew, "  %s: %s\n", t.ID, strings.Join(at, ", "))
+		}
+	}
+	if len(p.Heard)+len(p.NotHeard) > 0 {
+		fmt.Fprintf(ew, "\nlisted and heard: %s\n", listOrNone(p.Heard))
+		fmt.Fprintf(ew, "listed, never heard: %s\n", listOrNone(p.NotHeard))
 	}
 	if len(p.Collisions) > 0 {
 		fmt.Fprintln(ew, "\nslots running into each other:")
@@ -225,6 +265,13 @@ func (p *Plan) WriteTable(w io.Writer) error {
 		}
 	}
 	return ew.err
+}
+
+func listOrNone(s []string) string {
+	if len(s) == 0 {
+		return "none"
+	}
+	return strings.Join(s, ", ")
 }
 
 func fmtNum(x float64, f string) string {

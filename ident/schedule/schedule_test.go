@@ -180,7 +180,8 @@ func TestScheduleSyntheticTruth(t *testing.T) {
 			for seed := 1; seed <= seeds; seed++ {
 				rng := rand.New(rand.NewPCG(uint64(seed), 99))
 				obs, endS := slotSimulate(c, rng)
-				opts := Options{CaptureEndS: endS, StartJitterS: c.jitterS}
+				opts := DefaultOptions()
+				opts.CaptureEndS, opts.StartJitterS = endS, c.jitterS
 				if c.giveNominal {
 					opts.NominalPeriodS = c.nominalS
 				}

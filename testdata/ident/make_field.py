@@ -413,12 +413,11 @@ def set_beacons(a, tmp):
         p = period * (1 + b["ppm"] * 1e-6)
         ident, tone = b["id"], b["tone_hz"]
         audio, _ = turn_audio(ident, [b["wpm"]], tone, b["tone_s"], b.get("copies", 2), tmp)
-        turn_n = len(audio) * (RATE // AUDIO_RATE)
+        one = fm_turn(audio, b["offset_hz"])  # one turn at this offset, |x| = 1
+        turn_n = len(one)
         # Every turn overlapping the recording.
         k = int(np.floor((t0 - b["first_s"] - turn_n / RATE) / p))
         amp = 10 ** ((b["cnr_db"] - sc["noise_cnr_ref_db"]) / 20)
-        seed += 1
-        one = fm_turn(audio, b["offset_hz"], seed)  # one turn at this offset, |x| = 1
         while True:
             s = b["first_s"] + k * p - t0
             k += 1
@@ -446,7 +445,7 @@ def set_beacons(a, tmp):
         json.dump(sc, f, indent=1)
 
 
-def fm_turn(audio, offset_hz, seed):
+def fm_turn(audio, offset_hz):
     """One turn FM-modulated (make_fm_iq's modulator) onto the carrier at
     OFFSET_HZ + offset_hz, no noise, |x| = 1 (GNU Radio)."""
     tb = gr.top_block()
