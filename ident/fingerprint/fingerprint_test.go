@@ -250,3 +250,53 @@ func FuzzClusterTransmitters(f *testing.F) {
 		}
 	})
 }
+
+// TestClusterEdgeBursts: bursts cut by the recording, split from an
+// overlap or carrying two carriers do not make transmitters of their own:
+// one whose offset (measured on less, 50 Hz off) and level fit joins its
+// transmitter; one that fits nothing but reads an ID joins the
+// transmitter reading it, or makes its own when none does; a double burst
+// that fits nothing is left unattributed.
+func TestClusterEdgeBursts(t *testing.T) {
+	var obs []fingerprint.Observation
+	add := func(o fingerprint.Observation) int {
+		o.Index, o.EndS = len(obs), o.StartS+10
+		obs = append(obs, o)
+		return len(obs) - 1
+	}
+	for k := 0; k < 4; k++ {
+		add(fingerprint.Observation{StartS: float64(100 * k), OffsetHz: -1500, ToneHz: 800, LevelDB: -10, Ident: "N0CALL/1", IdentConfidence: 0.99})
+		add(fingerprint.Observation{StartS: float64(100*k + 30), OffsetHz: 500, ToneHz: 700, LevelDB: -13, Ident: "N0CALL/2", IdentConfidence: 0.99})
+	}
+	cut := add(fingerprint.Observation{StartS: 0, OffsetHz: -1450, ToneHz: 805, LevelDB: -11, Ident: idmatch.Unknown, CutStart: true})
+	byID := add(fingerprint.Observation{StartS: 400, OffsetHz: 900, ToneHz: 760, LevelDB: -30, Ident: "N0CALL/2", IdentConfidence: 0.95, CutEnd: true})
+	own := add(fingerprint.Observation{StartS: 420, OffsetHz: 2500, ToneHz: 950, LevelDB: -5, Ident: "N0CALL/7", IdentConfidence: 0.95, CutEnd: true})
+	lost := add(fingerprint.Observation{StartS: 440, OffsetHz: 2500, ToneHz: 950, LevelDB: -5, Ident: idmatch.Unknown, DoubleCarrier: true, CutStart: true, CutEnd: true})
+	res, err := fingerprint.Cluster(obs, fingerprint.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if res.Labels[cut] != res.Labels[0] || res.Idents[cut] != "N0CALL/1" {
+		t.Errorf("cut burst: %s/%s, want %s/N0CALL/1", res.Labels[cut], res.Idents[cut], res.Labels[0])
+	}
+	if res.Labels[byID] != res.Labels[1] {
+		t.Errorf("cut burst reading N0CALL/2: %s, want %s", res.Labels[byID], res.Labels[1])
+	}
+	if res.Labels[own] == "" || res.Labels[own] == res.Labels[0] || res.Labels[own] == res.Labels[1] {
+		t.Errorf("cut burst reading an ID no one else reads: %q", res.Labels[own])
+	}
+	if res.Labels[lost] != res.Labels[own] && res.Labels[lost] != "" {
+		t.Errorf("double burst: %q", res.Labels[lost])
+	}
+	if len(res.Clusters) != 3 {
+		t.Errorf("%d transmitters, want 3 (two whole, one heard only cut)", len(res.Clusters))
+	}
+	// Without the burst reading N0CALL/7, the double burst fits no one.
+	res, err = fingerprint.Cluster(append(obs[:own:own], obs[lost]), fingerprint.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if l := res.Labels[len(res.Labels)-1]; l != "" || res.Unattributed != 1 {
+		t.Errorf("lone double burst: label %q, %d unattributed; want none, 1", l, res.Unattributed)
+	}
+}

@@ -3,6 +3,7 @@ package schedule
 import (
 	"bytes"
 	"encoding/json"
+	"errors"
 	"fmt"
 	"math"
 	"math/rand/v2"
@@ -419,4 +420,222 @@ func FuzzBuildSchedule(f *testing.F) {
 			t.Fatal(err)
 		}
 	})
+}
+
+// TestScheduleBounds: every option outside its documented range is refused
+// in one line naming the flag or field; the edges pass.
+func TestScheduleBounds(t *testing.T) {
+	obs := slotTwoTx(time.Time{})
+	ok := DefaultOptions()
+	for _, o := range []Options{ok, {}, {NominalPeriodS: MaxPeriodS}, {NextCount: MaxNextCount}, {NextCount: 0}} {
+		if err := o.Validate(); err != nil {
+			t.Errorf("%+v: %v", o, err)
+		}
+	}
+	for _, tc := range []struct {
+		name string
+		o    Options
+		want string
+	}{
+		{"period NaN", Options{NominalPeriodS: math.NaN()}, "--period"},
+		{"period negative", Options{NominalPeriodS: -45}, "--period"},
+		{"period over a day", Options{NominalPeriodS: MaxPeriodS + 1}, "--period"},
+		{"period Inf", Options{NominalPeriodS: math.Inf(1)}, "--period"},
+		{"next negative", Options{NextCount: -1}, "--next"},
+		{"next too many", Options{NextCount: MaxNextCount + 1}, "--next"},
+		{"capture end NaN", Options{CaptureEndS: math.NaN()}, "capture end"},
+		{"jitter huge", Options{StartJitterS: 100}, "start jitter"},
+		{"merge gap NaN", Options{MergeGapS: math.NaN()}, "merge gap"},
+		{"edge guard Inf", Options{EdgeGuardS: math.Inf(1)}, "edge guard"},
+	} {
+		err := tc.o.Validate()
+		if err == nil || !strings.HasPrefix(err.Error(), tc.want) || strings.Contains(err.Error(), "\n") || !errors.Is(err, ErrBadOptions) {
+			t.Errorf("%s: %v, want one line starting %q", tc.name, err, tc.want)
+		}
+		if _, err := Build(obs, nil, tc.o); err == nil {
+			t.Errorf("%s: Build accepted what Validate refuses", tc.name)
+		}
+	}
+}
+
+// beaconsAt makes observations of transmitters with the given first
+// starts, one period P, on-time onS and n cycles each (t_k = first + k·P,
+// straight-line truth).
+func beaconsAt(firsts map[string]float64, p, onS float64, n int) []fingerprint.Observation {
+	var obs []fingerprint.Observation
+	ids := make([]string, 0, len(firsts))
+	for id := range firsts {
+		ids = append(ids, id)
+	}
+	slices.Sort(ids)
+	for k := 0; k < n; k++ {
+		for _, id := range ids {
+			s := firsts[id] + float64(k)*p
+			obs = append(obs, fingerprint.Observation{Index: len(obs), StartS: s, EndS: s + onS, Ident: id, IdentConfidence: 1})
+		}
+	}
+	return obs
+}
+
+// TestScheduleNextInTable: --next N changes the table as well as the JSON,
+// and 0 predicts nothing; each prediction is t0 + k·P (straight-line
+// algebra on the fitted line).
+func TestScheduleNextInTable(t *testing.T) {
+	obs := beaconsAt(map[string]float64{"N0CALL/1": 2, "N0CALL/2": 22}, 60, 10, 4)
+	for _, n := range []int{0, 1, 5} {
+		o := DefaultOptions()
+		o.NextCount = n
+		plan, err := Build(obs, nil, o)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var b bytes.Buffer
+		if err := plan.WriteTable(&b); err != nil {
+			t.Fatal(err)
+		}
+		tx := plan.Transmitter("N0CALL/1")
+		if len(tx.NextOnS) != n {
+			t.Fatalf("--next %d: %d predictions", n, len(tx.NextOnS))
+		}
+		for k, s := range tx.NextOnS {
+			want := 2 + float64(4+k)*60 // the first start after the end (4 cycles seen)
+			if math.Abs(s-want) > 1e-6 {
+				t.Errorf("--next %d: prediction %d at %.6f s, want %.6f", n, k, s, want)
+			}
+			if n > 1 && !strings.Contains(b.String(), fmt.Sprintf("+%.1f s", s)) {
+				t.Errorf("--next %d: the table lacks the prediction +%.1f s:\n%s", n, s, b.String())
+			}
+		}
+		js, _ := json.Marshal(plan)
+		var back map[string]any
+		if err := json.Unmarshal(js, &back); err != nil {
+			t.Fatal(err)
+		}
+		if got := back["transmitters"].(map[string]any)["N0CALL/1"].(map[string]any)["next_on_s"].([]any); len(got) != n {
+			t.Errorf("--next %d: JSON has %d predictions", n, len(got))
+		}
+	}
+}
+
+// TestScheduleOneBurstWithPeriod: with a programmed cycle and one burst
+// per transmitter, next-on times are given along the cycle (first + k·P,
+// σ growing by 300 ppm a cycle), with a reason saying the drift is not
+// measured; without the cycle there are none.
+func TestScheduleOneBurstWithPeriod(t *testing.T) {
+	obs := beaconsAt(map[string]float64{"N0CALL/1": 1, "N0CALL/2": 61, "N0CALL/3": 121}, 300, 55, 1)
+	o := DefaultOptions()
+	o.NominalPeriodS = 300
+	plan, err := Build(obs, nil, o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, tx := range plan.Transmitters {
+		first := obs[slices.IndexFunc(obs, func(x fingerprint.Observation) bool { return x.Ident == tx.ID })].StartS
+		if len(tx.NextOnS) != 3 || !strings.Contains(tx.Reason, "nominal period") {
+			t.Fatalf("%s: %d predictions, reason %q", tx.ID, len(tx.NextOnS), tx.Reason)
+		}
+		for k, s := range tx.NextOnS {
+			if want := first + float64(k+1)*300; math.Abs(s-want) > 1e-9 {
+				t.Errorf("%s: next %d at %.3f s, want %.3f", tx.ID, k, s, want)
+			}
+			if d := float64(k+1) * 300 * 300e-6; math.Abs(tx.NextOnSigmaS[k]-math.Hypot(0.03, d)) > 1e-9 {
+				t.Errorf("%s: σ %.4f s", tx.ID, tx.NextOnSigmaS[k])
+			}
+		}
+	}
+	plan, err = Build(obs, nil, DefaultOptions())
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, tx := range plan.Transmitters {
+		if len(tx.NextOnS) != 0 {
+			t.Errorf("%s: %d predictions without a period", tx.ID, len(tx.NextOnS))
+		}
+	}
+}
+
+// TestScheduleNominalMisfit: a programmed cycle the starts do not keep
+// (300 s given, 60 s kept: the demo's --period 300 gave −849988 ppm) is
+// reported as a misfit, and the drifts are measured against the median of
+// the transmitters instead (their clocks agree here: 0 ppm).
+func TestScheduleNominalMisfit(t *testing.T) {
+	obs := beaconsAt(map[string]float64{"N0CALL/1": 2, "N0CALL/2": 22, "N0CALL/3": 42}, 60, 10, 5)
+	for _, nom := range []float64{300, 61.5} {
+		o := DefaultOptions()
+		o.NominalPeriodS = nom
+		plan, err := Build(obs, nil, o)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var b bytes.Buffer
+		_ = plan.WriteTable(&b)
+		js, _ := json.Marshal(plan)
+		if plan.NominalFits || !strings.Contains(plan.NominalMisfit, "does not fit") || !strings.Contains(b.String(), "MISFIT") ||
+			!strings.Contains(string(js), `"nominal_fits":false`) {
+			t.Errorf("nominal %g s: fits %v, misfit %q\n%s", nom, plan.NominalFits, plan.NominalMisfit, b.String())
+		}
+		for _, tx := range plan.Transmitters {
+			if math.Abs(tx.DriftPPM) > 1 {
+				t.Errorf("nominal %g s: %s drift %+.1f ppm, want ≈ 0 against the median", nom, tx.ID, tx.DriftPPM)
+			}
+		}
+	}
+	o := DefaultOptions()
+	o.NominalPeriodS = 60
+	plan, err := Build(obs, nil, o)
+	if err != nil || !plan.NominalFits || plan.NominalMisfit != "" {
+		t.Errorf("nominal 60 s: fits %v, misfit %q, %v", plan.NominalFits, plan.NominalMisfit, err)
+	}
+}
+
+// TestScheduleCutBursts: a burst cut by the end of the recording (or at a
+// split) is not counted in the on-time (and so not in the gap), and one
+// cut by its start does not enter the period fit.
+func TestScheduleCutBursts(t *testing.T) {
+	obs := beaconsAt(map[string]float64{"N0CALL/1": 2, "N0CALL/2": 22}, 60, 10, 4)
+	// The last N0CALL/1 burst cut short by the recording's end (3 s of 10),
+	// the first N0CALL/2 burst cut by a split: it starts 4 s late.
+	for i := range obs {
+		if obs[i].Ident == "N0CALL/1" && obs[i].StartS > 180 {
+			obs[i].EndS, obs[i].CutEnd = obs[i].StartS+3, true
+		}
+		if obs[i].Ident == "N0CALL/2" && obs[i].StartS < 30 {
+			obs[i].StartS, obs[i].CutStart = obs[i].StartS+4, true
+		}
+	}
+	plan, err := Build(obs, nil, DefaultOptions())
+	if err != nil {
+		t.Fatal(err)
+	}
+	a, b := plan.Transmitter("N0CALL/1"), plan.Transmitter("N0CALL/2")
+	if math.Abs(a.OnS-10) > 1e-9 || math.Abs(b.OnS-10) > 1e-9 {
+		t.Errorf("on-times %.3f and %.3f s, want 10 (cut bursts left out)", a.OnS, b.OnS)
+	}
+	if b.FitBursts != 3 || math.Abs(b.PeriodS-60) > 1e-9 {
+		t.Errorf("N0CALL/2: %d starts fitted, period %.6f s; want 3 and 60", b.FitBursts, b.PeriodS)
+	}
+	if math.Abs(a.GapS-10) > 1e-6 {
+		t.Errorf("gap N0CALL/1 → N0CALL/2 %.3f s, want 10 (20 s apart, 10 s on)", a.GapS)
+	}
+}
+
+// TestScheduleListedHeard: listed IDs are split into heard and never
+// heard, in list order, in the plan, its table and its JSON.
+func TestScheduleListedHeard(t *testing.T) {
+	obs := beaconsAt(map[string]float64{"N0CALL/1": 2, "N0CALL/3": 22}, 60, 10, 3)
+	o := DefaultOptions()
+	o.ListedIDs = []string{"N0CALL/1", "N0CALL/2", "N0CALL/3", "N0CALL/4"}
+	plan, err := Build(obs, nil, o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !slices.Equal(plan.Heard, []string{"N0CALL/1", "N0CALL/3"}) || !slices.Equal(plan.NotHeard, []string{"N0CALL/2", "N0CALL/4"}) {
+		t.Errorf("heard %v, not heard %v", plan.Heard, plan.NotHeard)
+	}
+	var b bytes.Buffer
+	_ = plan.WriteTable(&b)
+	js, _ := json.Marshal(plan)
+	if !strings.Contains(b.String(), "never heard: N0CALL/2, N0CALL/4") || !strings.Contains(string(js), `"not_heard":["N0CALL/2","N0CALL/4"]`) {
+		t.Errorf("table or JSON lacks the never-heard IDs:\n%s\n%s", b.String(), js)
+	}
 }
