@@ -5,9 +5,9 @@ import (
 	"io"
 	"math"
 	"math/rand"
+	"nullseek/ident/morse"
 
 	"nullseek/bearing"
-	"nullseek/ident"
 	"nullseek/sdr"
 )
 
@@ -182,9 +182,9 @@ func (bs *beaconState) sample(t float64, s *Source, rate float64) (complex128, b
 	tone := math.Sin(bs.tonePh)
 	f := bs.freqHz
 	switch bs.b.Mode {
-	case ident.ModeAM:
+	case morse.ModeAM:
 		amp *= (1 + 0.8*key*tone) / 1.8
-	case ident.ModeCW:
+	case morse.ModeCW:
 		amp *= key
 	default:
 		f += s.sc.DeviationHz * key * tone

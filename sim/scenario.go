@@ -8,12 +8,12 @@ package sim
 import (
 	"fmt"
 	"math"
+	"nullseek/ident/morse"
 	"time"
 
 	"nullseek/bearing"
 	"nullseek/geo"
 	"nullseek/heading"
-	"nullseek/ident"
 	"nullseek/internal/angle"
 )
 
@@ -34,7 +34,7 @@ type Beacon struct {
 	// real cycle is PeriodS·(1 + DriftPPM·1e-6) of receiver time, so a
 	// positive value (a slow clock) brings the beacon back later each cycle.
 	DriftPPM float64
-	Mode     ident.Mode // ModeFM, ModeAM or ModeCW
+	Mode     morse.Mode // ModeFM, ModeAM or ModeCW
 }
 
 // Station is a receiving site with a turning antenna.
@@ -102,7 +102,7 @@ func (b Beacon) Slots(durS float64) [][2]float64 {
 // keying returns the ID's ideal keying repeated to fill onS seconds, as
 // key-down intervals relative to the slot start.
 func (b Beacon) keying(onS float64) ([][2]float64, error) {
-	marks, err := ident.Encode(b.ID, b.WPM, 0)
+	marks, err := morse.Encode(b.ID, b.WPM, 0)
 	if err != nil {
 		return nil, fmt.Errorf("beacon %s: %w", b.ID, err)
 	}
@@ -111,7 +111,7 @@ func (b Beacon) keying(onS float64) ([][2]float64, error) {
 	}
 	last := marks[len(marks)-1]
 	idLen := last.StartS + last.DurS
-	word := 7 * ident.DotSeconds(b.WPM)
+	word := 7 * morse.DotSeconds(b.WPM)
 	lead := 0.5 // a short plain carrier before the first character
 	var on [][2]float64
 	for start := lead; start+idLen <= onS-0.2; start += idLen + word {
@@ -169,7 +169,7 @@ func Demo() (Scenario, error) {
 		sc.Beacons = append(sc.Beacons, Beacon{
 			ID: x.id, Lat: la, Lon: lo, ToneHz: x.tone, WPM: 18, CarrierHz: x.carrier,
 			LevelDB: x.levelDB, FirstOnS: x.first, OnS: 12, PeriodS: 45, DriftPPM: x.drift,
-			Mode: ident.ModeFM,
+			Mode: morse.ModeFM,
 		})
 	}
 	type stc struct {

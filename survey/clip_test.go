@@ -3,13 +3,14 @@ package survey
 import (
 	"context"
 	"math"
+	"nullseek/ident"
+	"nullseek/ident/morse"
 	"strings"
 	"testing"
 	"time"
 
 	"nullseek/bearing"
 	"nullseek/heading"
-	"nullseek/ident"
 	"nullseek/internal/angle"
 	"nullseek/receiver"
 	"nullseek/sim"
@@ -30,14 +31,14 @@ func TestClippedSweep(t *testing.T) {
 		CenterHz: 145e6, ChannelHz: 145.02e6, SampleRate: 96000, DurationS: 14, NoiseDBFS: -45,
 		DeviationHz: 2500, Seed: 5}
 	sc.Beacons = []sim.Beacon{{ID: "TEST/1", Lat: 48.001, Lon: 11.0, ToneHz: 800, WPM: 18,
-		LevelDB: -16, FirstOnS: 1, OnS: 12.5, PeriodS: 60, Mode: ident.ModeFM}}
+		LevelDB: -16, FirstOnS: 1, OnS: 12.5, PeriodS: 60, Mode: morse.ModeFM}}
 	st := sim.Station{Name: "near", Lat: 48.0, Lon: 11.0005, Antenna: yagi,
 		Turn: heading.SteadyTurn{StartDeg: 100, RateDegPerS: 30}}
 	src, err := sim.NewSource(sc, st)
 	if err != nil {
 		t.Fatal(err)
 	}
-	res, err := Run(context.Background(), src, Options{IDs: []string{"TEST/1"},
+	res, err := Run(context.Background(), src, Options{Ident: ident.Options{IDs: []string{"TEST/1"}},
 		Receiver: receiver.Config{FreqHz: sc.ChannelHz, MergeGapS: 1.5}}, nil)
 	if err != nil {
 		t.Fatal(err)

@@ -5,6 +5,9 @@ import (
 	"fmt"
 	"math"
 	"math/rand"
+	"nullseek/ident"
+	"nullseek/ident/idmatch"
+	"nullseek/ident/morse"
 	"nullseek/internal/testtool"
 	"os"
 	"os/exec"
@@ -15,7 +18,6 @@ import (
 	"testing"
 	"time"
 
-	"nullseek/ident"
 	"nullseek/receiver"
 	"nullseek/sdr"
 )
@@ -93,8 +95,7 @@ func surveyCU8(t *testing.T, path string, ids []string, rc receiver.Config) *Res
 	defer src.Close()
 	res, err := Run(context.Background(), src, Options{
 		Receiver: rc,
-		Mode:     ident.ModeAuto,
-		IDs:      ids,
+		Ident:    ident.Options{Mode: morse.ModeAuto, IDs: ids},
 	}, nil)
 	if err != nil {
 		t.Fatal(err)
@@ -220,7 +221,7 @@ func scoreMorse(t *testing.T, res *Result, truth []truthBurst) morseScore {
 		if r.Ident == want {
 			sc.idRight++
 		}
-		if d > 0 || (r.Ident != want && r.Ident != ident.UnknownIdent) {
+		if d > 0 || (r.Ident != want && r.Ident != idmatch.Unknown) {
 			t.Logf("burst %.2f s: read %q for %q (%d errors), ident %s (%.2f %s)", tb.startS, r.Text, tb.text, d, r.Ident, r.IdentConfidence, r.IdentMethod)
 		}
 	}

@@ -3,6 +3,10 @@ package survey
 import (
 	"context"
 	"math"
+	"nullseek/ident"
+	"nullseek/ident/idmatch"
+	"nullseek/ident/morse"
+	"nullseek/ident/schedule"
 	"slices"
 	"testing"
 	"time"
@@ -10,7 +14,6 @@ import (
 	"nullseek/bearing"
 	"nullseek/geo"
 	"nullseek/heading"
-	"nullseek/ident"
 	"nullseek/receiver"
 	"nullseek/sim"
 )
@@ -22,7 +25,7 @@ import (
 //
 //   - beacon k starts at F_k + n·P_k, P_k = 60 s·(1 + drift_k·1e-6), n = 0,1,…
 //     (sim.Beacon's documented timing; a positive drift comes later each
-//     cycle, the same sign as ident.SlotTransmitter.DriftPPM);
+//     cycle, the same sign as schedule.Transmitter.DriftPPM);
 //   - the only closing pair is A = N0CALL/2 (+120 ppm) followed 0.3 s later
 //     by B = N0CALL/3 (−60 ppm): A's end F_A + OnS + n·P_A meets B's start
 //     F_B + n·P_B at n* = (F_B − F_A − OnS)/(P_A − P_B), time
@@ -72,7 +75,7 @@ func TestE2EScheduleSimulated(t *testing.T) {
 		sc.Beacons = append(sc.Beacons, sim.Beacon{
 			ID: x.id, Lat: la, Lon: lo, ToneHz: x.toneHz, WPM: 20, CarrierHz: x.carrierHz,
 			LevelDB: -12, FirstOnS: x.firstS, OnS: onS, PeriodS: periodS, DriftPPM: x.driftPPM,
-			Mode: ident.ModeFM,
+			Mode: morse.ModeFM,
 		})
 	}
 	sla, slo := at(0, 0)
@@ -89,19 +92,18 @@ func TestE2EScheduleSimulated(t *testing.T) {
 	}
 	res, err := Run(context.Background(), src, Options{
 		Receiver: receiver.Config{FreqHz: sc.ChannelHz},
-		Mode:     ident.ModeFM,
-		IDs:      ids,
+		Ident:    ident.Options{Mode: morse.ModeFM, IDs: ids},
 	}, nil)
 	if err != nil {
 		t.Fatal(err)
 	}
-	plan, err := Schedule(res, ident.ScheduleOptions{NominalPeriodS: periodS})
+	plan, err := Schedule(res, schedule.Options{NominalPeriodS: periodS})
 	if err != nil {
 		t.Fatal(err)
 	}
 	t.Logf("rendered and surveyed %.0f s in %.1f s: %d bursts", sc.DurationS, time.Since(t0).Seconds(), len(res.Records))
 	for _, r := range res.Records {
-		if r.Ident == ident.UnknownIdent {
+		if r.Ident == idmatch.Unknown {
 			t.Logf("burst %d at %.2f s: unknown (text %q)", r.Index, r.StartS, r.Text)
 		}
 	}
@@ -110,7 +112,7 @@ func TestE2EScheduleSimulated(t *testing.T) {
 		t.Errorf("%d bursts, want %d (%d beacons × %d cycles)", len(res.Records), cycles*len(truth), len(truth), cycles)
 	}
 	// Order: the cyclic order of first starts, rotated so the first heard
-	// comes first (ident.SlotPlan.Order's definition).
+	// comes first (schedule.Plan.Order's definition).
 	if !slices.Equal(plan.Order, ids) {
 		t.Errorf("order %v, want %v", plan.Order, ids)
 	}

@@ -9,6 +9,7 @@ import (
 	"testing"
 
 	"nullseek/ident"
+	"nullseek/ident/morse"
 	"nullseek/receiver"
 	"nullseek/sdr"
 )
@@ -20,7 +21,7 @@ import (
 // noise at about 20 dB CNR in 12.5 kHz, after leadS seconds of noise
 // alone. One cycle is made once and replayed (the noise repeats every
 // cycle; that does not matter to a memory measurement). The keying is
-// ident.Encode's (ITU-R M.1677-1 §2 timing); this source is a load for the
+// morse.Encode's (ITU-R M.1677-1 §2 timing); this source is a load for the
 // scanner, not a reference for what identification should read.
 type beaconSource struct {
 	info       sdr.Info
@@ -38,7 +39,7 @@ const (
 func newBeaconSource(t testing.TB, leadS, totalS float64) *beaconSource {
 	t.Helper()
 	const cycleS = 12.0
-	marks, err := ident.Encode(beaconID, 20, 0)
+	marks, err := morse.Encode(beaconID, 20, 0)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -138,7 +139,7 @@ func surveyMemory(t testing.TB, totalS float64) (peak, goal uint64, res *Result)
 	}
 	opts := Options{
 		Receiver: receiver.Config{OffsetHz: beaconOffsetHz},
-		IDs:      []string{beaconID, "N0CALL/1"},
+		Ident:    ident.Options{IDs: []string{beaconID, "N0CALL/1"}},
 	}
 	res, err := Run(context.Background(), src, opts, progress)
 	if err != nil {

@@ -2,12 +2,13 @@ package survey
 
 import (
 	"context"
+	"nullseek/ident"
+	"nullseek/ident/morse"
 	"testing"
 	"time"
 
 	"nullseek/bearing"
 	"nullseek/heading"
-	"nullseek/ident"
 	"nullseek/receiver"
 	"nullseek/sim"
 )
@@ -15,7 +16,7 @@ import (
 // TestKeyingModes: the same identifier keyed as a tone on FM (MCW), as a
 // tone on AM (A2A, the mode of many 2 m direction-finding events, REFERENCES
 // §9) and as a keyed carrier (A1A) is detected and read in auto mode. The
-// keying comes from ident.Encode, checked against ITU-R M.1677-1 timing.
+// keying comes from morse.Encode, checked against ITU-R M.1677-1 timing.
 func TestKeyingModes(t *testing.T) {
 	flat, err := bearing.BodyShield(1) // nearly omnidirectional receiving antenna
 	if err != nil {
@@ -27,7 +28,7 @@ func TestKeyingModes(t *testing.T) {
 		NoiseDBFS: -45, DeviationHz: 2500, Seed: 3,
 	}
 	ids := []string{"TEST/7", "QRP/2", "N0CALL/9"}
-	modes := []ident.Mode{ident.ModeFM, ident.ModeAM, ident.ModeCW}
+	modes := []morse.Mode{morse.ModeFM, morse.ModeAM, morse.ModeCW}
 	for i, id := range ids {
 		sc.Beacons = append(sc.Beacons, sim.Beacon{ID: id, Lat: 46.0 + 0.01*float64(i), Lon: 7.0, ToneHz: 800,
 			WPM: 16, CarrierHz: float64(100 * i), LevelDB: -15, FirstOnS: 1 + 13*float64(i), OnS: 11,
@@ -40,7 +41,7 @@ func TestKeyingModes(t *testing.T) {
 	}
 	// Keyed carrier has real silences between elements and words: keep them
 	// inside one burst.
-	res, err := Run(context.Background(), src, Options{IDs: ids, Receiver: receiverConfig(sc.ChannelHz, 1.0)}, nil)
+	res, err := Run(context.Background(), src, Options{Ident: ident.Options{IDs: ids}, Receiver: receiverConfig(sc.ChannelHz, 1.0)}, nil)
 	if err != nil {
 		t.Fatal(err)
 	}

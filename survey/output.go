@@ -26,6 +26,10 @@ type burstLine struct {
 	Clipped         float64  `json:"clipped"`
 	CutAtStart      bool     `json:"cut_at_start,omitempty"`
 	CutAtEnd        bool     `json:"cut_at_end,omitempty"`
+	Part            int      `json:"part,omitempty"`
+	Parts           int      `json:"parts,omitempty"`
+	SplitStart      bool     `json:"split_start,omitempty"`
+	SplitEnd        bool     `json:"split_end,omitempty"`
 	DoubleCarrier   bool     `json:"double_carrier,omitempty"`
 	Mode            string   `json:"mode,omitempty"`
 	Text            string   `json:"text"`
@@ -58,7 +62,8 @@ func (r Record) MarshalJSON() ([]byte, error) {
 		Start: rfc3339(r.Start), End: rfc3339(r.End),
 		OffsetHz: round(r.OffsetHz, 1),
 		LevelDB:  round(r.LevelDB, 2), PeakDB: round(r.PeakDB, 2), NoiseDB: round(r.NoiseDB, 2),
-		Clipped: round(r.Clipped, 6), CutAtStart: r.CutAtStart, CutAtEnd: r.CutAtEnd, DoubleCarrier: r.DoubleCarrier, Mode: r.Mode, Text: r.Text, Ident: r.Ident,
+		Clipped: round(r.Clipped, 6), CutAtStart: r.CutAtStart, CutAtEnd: r.CutAtEnd,
+		Part: r.Part, Parts: r.Parts, SplitStart: r.SplitStart, SplitEnd: r.SplitEnd, DoubleCarrier: r.DoubleCarrier, Mode: r.Mode, Text: r.Text, Ident: r.Ident,
 		IdentConfidence: round(r.IdentConfidence, 3), IdentMethod: r.IdentMethod,
 		ToneHz: round(r.ToneHz, 1), WPM: round(r.WPM, 1), Transmitter: r.Transmitter,
 		Warnings: r.Warnings,
@@ -99,6 +104,10 @@ func (res *Result) WriteTable(w io.Writer) error {
 	for _, f := range res.Clusters.Flags {
 		fmt.Fprintf(tw, "note: %s\n", f.Message)
 	}
+	if len(res.ListedIDs) > 0 {
+		fmt.Fprintf(tw, "listed and heard: %s\n", listOrNone(res.Heard))
+		fmt.Fprintf(tw, "listed, never heard: %s\n", listOrNone(res.NotHeard))
+	}
 	return tw.err
 }
 
@@ -137,4 +146,11 @@ func (e *errWriter) Write(p []byte) (int, error) {
 	n, err := e.w.Write(p)
 	e.err = err
 	return n, err
+}
+
+func listOrNone(s []string) string {
+	if len(s) == 0 {
+		return "none"
+	}
+	return strings.Join(s, ", ")
 }

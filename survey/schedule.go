@@ -1,12 +1,12 @@
 package survey
 
 import (
-	"nullseek/ident"
+	"nullseek/ident/schedule"
 )
 
 // Schedule builds the slot plan of the surveyed recording: transmitters are
 // named by identifier, or by fingerprint cluster when unreadable.
-func Schedule(res *Result, opts ident.ScheduleOptions) (*ident.SlotPlan, error) {
+func Schedule(res *Result, opts schedule.Options) (*schedule.Plan, error) {
 	obs := Observations(res.Records)
 	labels := make([]string, len(res.Records))
 	for i, r := range res.Records {
@@ -18,5 +18,8 @@ func Schedule(res *Result, opts ident.ScheduleOptions) (*ident.SlotPlan, error) 
 	if opts.CaptureEndS == 0 {
 		opts.CaptureEndS = res.Summary.DurationS
 	}
-	return ident.BuildSchedule(obs, labels, opts)
+	if opts.ListedIDs == nil {
+		opts.ListedIDs = res.ListedIDs
+	}
+	return schedule.Build(obs, labels, opts)
 }

@@ -1,18 +1,20 @@
 // Package survey runs the whole listening job on one recording: the
 // receiver finds the bursts, ident reads their Morse identifiers and
-// fingerprints and groups them into transmitters. It wires packages
-// together; the algorithms live in receiver and ident.
+// names the transmitters by identifier and fingerprint. It wires packages
+// together; the algorithms and the identification policy live in receiver
+// and ident.
 package survey
 
 import (
 	"context"
 	"fmt"
 	"math"
-	"sort"
-	"strings"
+	"nullseek/ident"
+	"nullseek/ident/fingerprint"
+	"nullseek/ident/idmatch"
+	"nullseek/ident/morse"
 	"time"
 
-	"nullseek/ident"
 	"nullseek/receiver"
 	"nullseek/sdr"
 )
@@ -20,18 +22,11 @@ import (
 // Options configure a survey.
 type Options struct {
 	Receiver receiver.Config
-	// Mode is how the identifiers are keyed (auto by default).
-	Mode ident.Mode
-	// IDs is the event's list of expected identifiers (may be empty).
-	IDs []string
+	// Ident says how transmissions are identified (keying mode, expected
+	// identifiers, minimum confidence, fingerprint tolerances).
+	Ident ident.Options
 	// NoIdent skips Morse decoding (levels and timing only).
 	NoIdent bool
-	// MinConfidence is the least matcher confidence reported as an
-	// identifier (default 0.7); below it the burst is "unknown" and the
-	// best candidate goes into a warning.
-	MinConfidence float64
-	// Cluster tunes the grouping of bursts into transmitters.
-	Cluster ident.ClusterOptions
 }
 
 // Record is one burst with what identification found. Its JSON form, a
@@ -47,74 +42,86 @@ type Record struct {
 	ToneHz          float64
 	WPM             float64
 	Transmitter     string
-	Warnings        []string
+	// Part and Parts number the parts of a burst split by fingerprint (two
+	// transmitters on the air together): part Part of Parts (0 and 0 for a
+	// burst read whole). SplitStart and SplitEnd say the edge is where it
+	// was split, not the transmitter's own.
+	Part, Parts          int
+	SplitStart, SplitEnd bool
+	Warnings             []string
+	// Words are the decoded words with the chance each was read right,
+	// for naming transmitters without a list (not in the JSON line).
+	Words []idmatch.Word
+	// AlsoHeard are further listed IDs read whole in the burst: two
+	// transmitters on the air together that their fingerprints could not
+	// tell apart. Such a burst names neither's edges.
+	AlsoHeard []string
 }
 
 // Result is a finished survey.
 type Result struct {
-	Info     sdr.Info
-	Summary  receiver.Summary
-	Records  []Record
-	Clusters ident.ClusterResult
+	// ListedIDs are the expected identifiers the survey was given; Heard
+	// and NotHeard split them into those named on a burst and those never
+	// heard (in list order).
+	ListedIDs, Heard, NotHeard []string
+	Info                       sdr.Info
+	Summary                    receiver.Summary
+	Records                    []Record
+	Clusters                   fingerprint.Result
 }
 
 // Run surveys src. progress (may be nil) gets the input samples consumed.
 func Run(ctx context.Context, src sdr.Source, opts Options, progress func(int64)) (*Result, error) {
 	info := src.Info()
-	var matcher *ident.Matcher
-	if len(opts.IDs) > 0 {
-		m, err := ident.NewMatcher(opts.IDs)
-		if err != nil {
-			return nil, err
-		}
-		m.MinConfidence = opts.MinConfidence
-		if m.MinConfidence <= 0 {
-			m.MinConfidence = 0.7
-		}
-		matcher = m
+	idf, err := ident.New(opts.Ident)
+	if err != nil {
+		return nil, err
 	}
 	rc := opts.Receiver
 	rc.KeepAudio = !opts.NoIdent
-	if opts.Mode == ident.ModeCW && rc.MergeGapS == 0 {
+	if opts.Ident.Mode == morse.ModeCW && rc.MergeGapS == 0 {
 		rc.MergeGapS = 2.5 // word gaps of keyed carrier at 5 WPM stay inside one burst
 	}
 	sc, err := receiver.NewScanner(info, rc)
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", info.Name, err)
 	}
-	res := &Result{Info: info}
-	// Identification reads each piece of a transmission as it comes and
-	// keeps the most confident reading (a transmission of any length is
-	// read with bounded memory).
-	var best *Record
+	res := &Result{Info: info, ListedIDs: idf.Options().IDs}
+	// Identification reads each piece of a transmission as it comes (a
+	// transmission of any length is read with bounded memory) and names it
+	// when its closing burst arrives.
+	var tr *ident.Transmission
 	h := receiver.Handler{Progress: progress}
 	if !opts.NoIdent {
 		h.Piece = func(p *receiver.Piece) error {
-			c := Record{Ident: ident.UnknownIdent}
-			// the transmission's part of the piece: audio with 0.1 s either
-			// side, the level track from edge to edge
-			fm, am, _ := p.Between(p.OnS-0.1, p.OffS+0.1)
-			_, _, level := p.Between(p.OnS, p.OffS)
-			identify(&c, fm, am, p.ChannelRateHz, level, opts.Mode, matcher)
-			if best == nil || betterReading(c, *best) {
-				best = &c
+			if tr == nil {
+				tr = idf.Begin()
 			}
-			return nil
+			return tr.Add(segmentOf(p))
 		}
 	}
 	h.Burst = func(b *receiver.Burst) error {
-		r := Record{Burst: *b, Ident: ident.UnknownIdent}
-		if best != nil {
-			r.Mode, r.Text, r.ToneHz, r.WPM = best.Mode, best.Text, best.ToneHz, best.WPM
-			r.Ident, r.IdentConfidence, r.IdentMethod = best.Ident, best.IdentConfidence, best.IdentMethod
-			r.Warnings = best.Warnings
-			best = nil
+		r := Record{Burst: *b, Ident: idmatch.Unknown}
+		// The audio has done its job; keep the record small.
+		r.FMAudio, r.AMAudio = nil, nil
+		var parts []ident.Part
+		if tr != nil {
+			var whole ident.Burst
+			whole, parts = tr.Finish(b.CutAtStart, b.CutAtEnd)
+			r.setIdent(whole)
+			tr = nil
+		}
+		if len(parts) > 1 {
+			// Two transmitters on the air together, told apart by their
+			// fingerprints: one record each.
+			for i, p := range parts {
+				res.Records = append(res.Records, partRecord(r, p, i, len(parts), sc.OffsetHz()))
+			}
+			return nil
 		}
 		if b.DoubleCarrier {
 			r.Warnings = append(r.Warnings, fmt.Sprintf("carrier stepped by %.0f Hz inside the burst: two transmitters on the air at once?", b.CarrierSpreadHz))
 		}
-		// The audio has done its job; keep the record small.
-		r.FMAudio, r.AMAudio = nil, nil
 		res.Records = append(res.Records, r)
 		return nil
 	}
@@ -124,162 +131,114 @@ func Run(ctx context.Context, src sdr.Source, opts Options, progress func(int64)
 		return res, err // the source's errors name it already
 	}
 	if len(res.Records) > 0 && !opts.NoIdent {
-		obs := Observations(res.Records)
-		cr, err := ident.ClusterTransmitters(obs, opts.Cluster)
+		words := make([][]idmatch.Word, len(res.Records))
+		for i, r := range res.Records {
+			words[i] = r.Words
+		}
+		nm, err := idf.Name(Observations(res.Records), words)
 		if err != nil {
 			return res, err
 		}
-		res.Clusters = cr
-		for i := range res.Records {
-			res.Records[i].Transmitter = cr.Labels[i]
-			if !known(res.Records[i].Ident) && known(cr.Idents[i]) {
-				res.Records[i].Ident = cr.Idents[i]
-				res.Records[i].IdentMethod = "fingerprint"
-				for _, c := range cr.Clusters {
-					if c.Label == cr.Labels[i] {
-						res.Records[i].IdentConfidence = c.IdentShare
-					}
-				}
-				res.Records[i].Warnings = append(res.Records[i].Warnings,
-					"identifier not readable; attributed to "+cr.Labels[i]+" by carrier offset and tone")
+		res.Clusters = nm.Clusters
+		res.Heard, res.NotHeard = nm.Heard, nm.NotHeard
+		for i, a := range nm.Bursts {
+			r := &res.Records[i]
+			r.Transmitter = a.Transmitter
+			r.Ident, r.IdentConfidence, r.IdentMethod = a.Ident, a.Confidence, a.Method
+			if a.Note != "" {
+				r.Warnings = append(r.Warnings, a.Note)
 			}
 		}
 	}
 	return res, nil
 }
 
-func known(id string) bool { return id != "" && !strings.EqualFold(id, ident.UnknownIdent) }
+func known(id string) bool { return idmatch.Known(id) }
+
+// partRecord is the record of part i of n of a burst split by fingerprint:
+// the burst's record with the part's times, carrier offset (channelHz is
+// the channel's offset from the capture centre) and identification; an
+// edge where the burst was split is marked (SplitStart, SplitEnd), and
+// only the first part keeps the cut by the recording's start, the last
+// the cut by its end.
+func partRecord(r Record, p ident.Part, i, n int, channelHz float64) Record {
+	q := r
+	q.Warnings = nil
+	q.Part, q.Parts = i+1, n
+	q.StartS, q.EndS = math.Max(p.StartS, r.StartS), math.Min(p.EndS, r.EndS)
+	if !r.Start.IsZero() {
+		q.Start = r.Start.Add(time.Duration((q.StartS - r.StartS) * float64(time.Second)))
+		q.End = r.Start.Add(time.Duration((q.EndS - r.StartS) * float64(time.Second)))
+	}
+	if !math.IsNaN(p.OffsetHz) {
+		q.OffsetHz = channelHz + p.OffsetHz
+	}
+	q.SplitStart, q.SplitEnd = p.SplitStart, p.SplitEnd
+	q.CutAtStart = r.CutAtStart && i == 0
+	q.CutAtEnd = r.CutAtEnd && i == n-1
+	q.DoubleCarrier = false
+	var lv []receiver.LevelSample
+	for _, l := range r.Level {
+		if l.T >= q.StartS && l.T <= q.EndS {
+			lv = append(lv, l)
+		}
+	}
+	q.Level = lv
+	q.setIdent(p.Burst)
+	return q
+}
+
+// setIdent copies identification's findings into the record.
+func (r *Record) setIdent(b ident.Burst) {
+	r.Mode = b.Mode.String()
+	r.Text, r.ToneHz, r.WPM = b.Text, b.ToneHz, b.WPM
+	r.Ident, r.IdentConfidence, r.IdentMethod = b.Ident, b.Confidence, b.Method
+	r.Words = b.Words
+	r.AlsoHeard = b.AlsoHeard
+	r.Warnings = append(r.Warnings, b.Warnings...)
+}
+
+// segmentOf hands the transmission's part of a piece to identification:
+// audio from 0.1 s before its start edge to 0.1 s after its end edge, the
+// level track from edge to edge (as linear power).
+func segmentOf(p *receiver.Piece) ident.Segment {
+	seg := ident.Segment{OverlapS: p.OverlapS, Keyed: p.Keyed}
+	if len(p.FMAudio) > 0 && p.ChannelRateHz > 0 {
+		t0 := p.OnS - 0.1
+		a0 := max(0, min(int(math.Floor((t0-p.StartS)*p.ChannelRateHz)), len(p.FMAudio)))
+		seg.FM, seg.AM, _ = p.Between(t0, p.OffS+0.1)
+		seg.AudioStartS, seg.AudioRateHz = p.StartS+float64(a0)/p.ChannelRateHz, p.ChannelRateHz
+	}
+	if _, _, level := p.Between(p.OnS, p.OffS); len(level) >= 2 {
+		seg.Power = make([]float32, len(level))
+		for i, l := range level {
+			seg.Power[i] = float32(math.Pow(10, l.LevelDB/10))
+		}
+		seg.PowerStartS = level[0].T
+		seg.PowerRateHz = float64(len(level)-1) / (level[len(level)-1].T - level[0].T)
+	}
+	return seg
+}
 
 // Observations turns records into ident's per-burst observations.
-func Observations(recs []Record) []ident.Observation {
-	obs := make([]ident.Observation, len(recs))
+func Observations(recs []Record) []fingerprint.Observation {
+	obs := make([]fingerprint.Observation, len(recs))
 	for i, r := range recs {
-		obs[i] = ident.Observation{
+		obs[i] = fingerprint.Observation{
 			Index: r.Index, StartS: r.StartS, EndS: r.EndS, Start: r.Start,
 			OffsetHz: r.OffsetHz, ToneHz: r.ToneHz, LevelDB: r.LevelDB,
-			Ident: r.Ident, IdentConfidence: r.IdentConfidence,
+			Ident: r.Ident, IdentConfidence: r.IdentConfidence, IdentMethod: r.IdentMethod,
+			CutStart: r.CutAtStart || r.SplitStart, CutEnd: r.CutAtEnd || r.SplitEnd,
 			DoubleCarrier: r.DoubleCarrier,
+		}
+		if len(r.AlsoHeard) > 0 {
+			// Two transmitters in one burst: its edges are not one
+			// transmitter's, and it makes no transmitter of its own.
+			obs[i].DoubleCarrier, obs[i].CutStart, obs[i].CutEnd = true, true, true
+			obs[i].OtherIdent = r.AlsoHeard[0]
 		}
 	}
 	return obs
-}
-
-// betterReading says whether identification c of one piece beats the
-// best so far: more confident, or as confident with more text read.
-func betterReading(c, best Record) bool {
-	if c.IdentConfidence != best.IdentConfidence {
-		return c.IdentConfidence > best.IdentConfidence
-	}
-	return len(c.Text) > len(best.Text)
-}
-
-// identify decodes the Morse of a stretch of one transmission (FM and AM
-// audio at rate, its level track) and matches it to the expected IDs.
-func identify(r *Record, fmAudio, amAudio []float32, rate float64, level []receiver.LevelSample, mode ident.Mode, m *ident.Matcher) {
-	power, powerRate := levelPower(level)
-	if mode == ident.ModeAuto {
-		mode = ident.DetectMode(fmAudio, amAudio, rate, power, powerRate)
-	}
-	r.Mode = mode.String()
-	opts := ident.DecodeOptions{Mode: mode}
-	audio := fmAudio
-	if mode == ident.ModeAM {
-		audio = amAudio
-	}
-	if m != nil && mode != ident.ModeCW {
-		// With a list, the template can name a burst whose text is lost.
-		d, mt, err := m.MatchTone(audio, rate, opts)
-		if err != nil {
-			r.Warnings = append(r.Warnings, "no identifier: "+err.Error())
-			return
-		}
-		setDecoded(r, d)
-		r.Ident, r.IdentConfidence, r.IdentMethod = mt.ID, mt.Confidence, mt.Method
-		r.Warnings = append(r.Warnings, mt.Warnings...)
-		return
-	}
-	var d ident.Decoded
-	var err error
-	if mode == ident.ModeCW {
-		d, err = ident.DecodeKeyed(power, powerRate, opts)
-	} else {
-		d, err = ident.DecodeTone(audio, rate, opts)
-	}
-	if err != nil {
-		r.Warnings = append(r.Warnings, "no identifier decoded: "+err.Error())
-		if m != nil && len(power) > 0 {
-			// keyed carrier: the template on the power track itself
-			mt := m.MatchEnvelope(power, powerRate)
-			r.Ident, r.IdentConfidence, r.IdentMethod = mt.ID, mt.Confidence, mt.Method
-		}
-		return
-	}
-	setDecoded(r, d)
-	if m != nil {
-		mt := m.Match(d)
-		r.Ident, r.IdentConfidence, r.IdentMethod = mt.ID, mt.Confidence, mt.Method
-		r.Warnings = append(r.Warnings, mt.Warnings...)
-		return
-	}
-	r.Ident, r.IdentConfidence, r.IdentMethod = repeatedWord(d)
-}
-
-// setDecoded copies what the decoder read into the record.
-func setDecoded(r *Record, d ident.Decoded) {
-	r.Text = d.Text
-	r.ToneHz = d.ToneHz
-	r.WPM = d.WPM
-	r.Warnings = append(r.Warnings, d.Warnings...)
-}
-
-// repeatedWord names a burst without an ID list: the word the beacon sent
-// most often, when it was sent at least twice and read with confidence.
-func repeatedWord(d ident.Decoded) (string, float64, string) {
-	words := strings.Fields(d.Text)
-	count := map[string]int{}
-	for _, w := range words {
-		if len([]rune(w)) >= 3 && !strings.Contains(w, "*") {
-			count[w]++
-		}
-	}
-	best, n := "", 0
-	keys := make([]string, 0, len(count))
-	for k := range count {
-		keys = append(keys, k)
-	}
-	sort.Strings(keys)
-	for _, k := range keys {
-		if count[k] > n {
-			best, n = k, count[k]
-		}
-	}
-	if n < 2 {
-		return ident.UnknownIdent, 0, ""
-	}
-	var conf float64
-	var nc int
-	for _, c := range d.Chars {
-		conf += c.Confidence
-		nc++
-	}
-	if nc > 0 {
-		conf /= float64(nc)
-	}
-	share := float64(n) / float64(len(words))
-	return best, math.Min(1, conf*share), "repeated-text"
-}
-
-// levelPower returns a level track as linear power and its rate.
-func levelPower(level []receiver.LevelSample) ([]float32, float64) {
-	if len(level) < 2 {
-		return nil, 0
-	}
-	p := make([]float32, len(level))
-	for i, l := range level {
-		p[i] = float32(math.Pow(10, l.LevelDB/10))
-	}
-	rate := float64(len(level)-1) / (level[len(level)-1].T - level[0].T)
-	return p, rate
 }
 
 // StartTime formats a burst time for tables: UTC clock time when known.

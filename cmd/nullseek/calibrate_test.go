@@ -3,6 +3,7 @@ package main
 import (
 	"fmt"
 	"math"
+	"nullseek/ident/morse"
 	"nullseek/internal/angle"
 	"nullseek/internal/testtool"
 	"os"
@@ -16,7 +17,6 @@ import (
 	"nullseek/bearing"
 	"nullseek/geo"
 	"nullseek/heading"
-	"nullseek/ident"
 	"nullseek/sim"
 	"nullseek/survey"
 )
@@ -58,7 +58,7 @@ func (c calScene) render(t *testing.T, dir, name string, turn heading.SteadyTurn
 
 func calBeacon(id string, lat, lon, firstS, onS, tone float64) sim.Beacon {
 	return sim.Beacon{ID: id, Lat: lat, Lon: lon, ToneHz: tone, WPM: 18, CarrierHz: 60, LevelDB: -3,
-		FirstOnS: firstS, OnS: onS, PeriodS: 1000, Mode: ident.ModeFM}
+		FirstOnS: firstS, OnS: onS, PeriodS: 1000, Mode: morse.ModeFM}
 }
 
 // geodAzimuth runs GeographicLib's GeodSolve -i (2.1.2 here) for the

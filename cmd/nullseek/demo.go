@@ -5,6 +5,8 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"nullseek/ident"
+	"nullseek/ident/schedule"
 	"nullseek/internal/atomicfile"
 	"os"
 	"path/filepath"
@@ -16,7 +18,6 @@ import (
 	"nullseek/bearing"
 	"nullseek/geo"
 	"nullseek/heading"
-	"nullseek/ident"
 	"nullseek/internal/angle"
 	"nullseek/locate"
 	"nullseek/polarplot"
@@ -79,7 +80,7 @@ func runDemo(ctx context.Context, w io.Writer, outDir string, writeIQ bool) erro
 		t0 := time.Now()
 		res, err := survey.Run(ctx, src, survey.Options{
 			Receiver: demoReceiver(sc),
-			IDs:      ids,
+			Ident:    ident.Options{IDs: ids},
 		}, nil)
 		if err != nil {
 			return err
@@ -143,7 +144,7 @@ func runDemo(ctx context.Context, w io.Writer, outDir string, writeIQ bool) erro
 	for _, r := range first.Records {
 		labels = append(labels, r.Ident)
 	}
-	plan, err := ident.BuildSchedule(obs, labels, ident.ScheduleOptions{NominalPeriodS: sc.Beacons[0].PeriodS})
+	plan, err := schedule.Build(obs, labels, schedule.Options{NominalPeriodS: sc.Beacons[0].PeriodS})
 	if err != nil {
 		fmt.Fprintf(w, "Slot schedule: %v\n\n", err)
 	} else {

@@ -10,6 +10,9 @@ import (
 	"github.com/spf13/cobra"
 
 	"nullseek/ident"
+	"nullseek/ident/fingerprint"
+	"nullseek/ident/idmatch"
+	"nullseek/ident/morse"
 	"nullseek/survey"
 )
 
@@ -25,11 +28,11 @@ func (f *identFlags) add(cmd *cobra.Command) {
 	cmd.Flags().StringVar(&f.mode, "mode", "auto", "how the identifier is keyed: auto, fm (tone on FM), am (tone on AM, A2A) or cw (keyed carrier)")
 	cmd.Flags().StringVar(&f.ids, "ids", "", "expected identifiers, comma-separated, or @FILE with one per line")
 	cmd.Flags().BoolVar(&f.noIdent, "no-ident", false, "skip Morse decoding; report levels and timing only")
-	cmd.Flags().Float64Var(&f.minConf, "min-confidence", 0.7, "least confidence (0–1) at which a burst is given a listed identifier; below it: unknown")
+	cmd.Flags().Float64Var(&f.minConf, "min-confidence", idmatch.DefaultMinConfidence, "least confidence (0–1) at which a burst is given a listed identifier; below it: unknown")
 }
 
-func (f *identFlags) options() (ident.Mode, []string, error) {
-	mode, err := ident.ParseMode(f.mode)
+func (f *identFlags) options() (morse.Mode, []string, error) {
+	mode, err := morse.ParseMode(f.mode)
 	if err != nil {
 		return mode, nil, err
 	}
@@ -43,11 +46,11 @@ func (f *identFlags) options() (ident.Mode, []string, error) {
 			return mode, nil, fmt.Errorf("--ids: %w", err)
 		}
 		defer fh.Close()
-		ids, err = ident.ReadIDList(fh)
+		ids, err = idmatch.ReadList(fh)
 		if err != nil {
 			return mode, nil, fmt.Errorf("--ids %s: %w", f.ids[1:], err)
 		}
-	} else if ids, err = ident.ParseIDList(f.ids); err != nil {
+	} else if ids, err = idmatch.ParseList(f.ids); err != nil {
 		return mode, nil, fmt.Errorf("--ids: %w", err)
 	}
 	return mode, ids, nil
@@ -78,7 +81,7 @@ func surveyRecording(ctx context.Context, path string, in *inputFlags, idf *iden
 	}
 	defer src.Close()
 	prog, done := progress(src.Info(), "scanning")
-	res, err := survey.Run(ctx, src, survey.Options{Receiver: cfg, Mode: mode, IDs: ids, NoIdent: idf.noIdent, MinConfidence: idf.minConf}, prog)
+	res, err := survey.Run(ctx, src, survey.Options{Receiver: cfg, Ident: ident.Options{Mode: mode, IDs: ids, MinConfidence: idf.minConf}, NoIdent: idf.noIdent}, prog)
 	done()
 	return res, err
 }
@@ -117,12 +120,20 @@ it sees and scans the strongest.`,
 				}
 				txs, flags := res.Clusters.Clusters, res.Clusters.Flags
 				if txs == nil {
-					txs = []ident.TransmitterCluster{}
+					txs = []fingerprint.Transmitter{}
 				}
 				if flags == nil {
-					flags = []ident.ClusterFlag{}
+					flags = []fingerprint.Flag{}
 				}
-				return enc.Encode(map[string]any{"type": "summary", "summary": res.Summary, "transmitters": txs, "flags": flags})
+				heard, notHeard := res.Heard, res.NotHeard
+				if heard == nil {
+					heard = []string{}
+				}
+				if notHeard == nil {
+					notHeard = []string{}
+				}
+				return enc.Encode(map[string]any{"type": "summary", "summary": res.Summary, "transmitters": txs, "flags": flags,
+					"heard": heard, "not_heard": notHeard})
 			}
 			if err := res.WriteTable(os.Stdout); err != nil {
 				return err

@@ -2,11 +2,12 @@ package main
 
 import (
 	"encoding/json"
+	"fmt"
 	"os"
 
 	"github.com/spf13/cobra"
 
-	"nullseek/ident"
+	"nullseek/ident/schedule"
 	"nullseek/survey"
 )
 
@@ -14,7 +15,7 @@ func init() {
 	var in inputFlags
 	var idf identFlags
 	var asJSON bool
-	var opts ident.ScheduleOptions
+	opts := schedule.DefaultOptions()
 	cmd := &cobra.Command{
 		Use:   "slots RECORDING",
 		Short: "Work out the slot schedule of beacons sharing a channel: order, period, drift, next on, collisions",
@@ -25,6 +26,9 @@ start times, and when two neighbouring slots will first overlap at the
 measured drifts. Overlaps already in the recording are reported too.`,
 		Args: cobra.ExactArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
+			if err := opts.Validate(); err != nil {
+				return err
+			}
 			res, err := surveyRecording(cmd.Context(), args[0], &in, &idf, func(s string) {
 				cmd.PrintErrln(s)
 			})
@@ -44,7 +48,7 @@ measured drifts. Overlaps already in the recording are reported too.`,
 	in.add(cmd)
 	idf.add(cmd)
 	cmd.Flags().BoolVar(&asJSON, "json", false, "print the plan as one JSON object")
-	cmd.Flags().Float64Var(&opts.NominalPeriodS, "period", 0, "the programmed cycle in seconds, when known (drift is measured against it; default: the median of the transmitters)")
-	cmd.Flags().IntVar(&opts.NextCount, "next", 3, "how many next start times to predict per transmitter")
+	cmd.Flags().Float64Var(&opts.NominalPeriodS, "period", opts.NominalPeriodS, "the programmed cycle in seconds, when known (drift is measured against it; default: the median of the transmitters)")
+	cmd.Flags().IntVar(&opts.NextCount, "next", opts.NextCount, fmt.Sprintf("how many next start times to predict per transmitter (0–%d)", schedule.MaxNextCount))
 	rootCmd.AddCommand(cmd)
 }

@@ -110,7 +110,14 @@ def check_noise_source():
         sys.exit("noise_source_c power %.4f, expected 0.25: CNR scaling would be wrong" % p)
 
 
-def run_case(audio, cnr_db, seed, wav_out, iq_out=None):
+def run_case(audio, cnr_db, seed, wav_out, iq_out=None, fading=None):
+    """FM-modulate audio (8 kHz), add noise at cnr_db, demodulate to wav_out.
+
+    fading, when given, is (fDTs, seed): GNU Radio's channels.fading_model
+    (8 sinusoids, Rayleigh, no line of sight) on the modulated carrier
+    before the noise; CNR is then the mean carrier power over the noise.
+    Without it the chain is exactly the one documented above.
+    """
     tb = gr.top_block()
     src = blocks.vector_source_f(audio.tolist(), False)
     up = filter.rational_resampler_fff(interpolation=RATE // AUDIO_RATE, decimation=1)
@@ -128,7 +135,12 @@ def run_case(audio, cnr_db, seed, wav_out, iq_out=None):
     sink = blocks.wavfile_sink(wav_out, 1, OUT_RATE, blocks.FORMAT_WAV, blocks.FORMAT_PCM_U8, False)
     tb.connect(src, up, fm, (mix_up, 0))
     tb.connect(lo_up, (mix_up, 1))
-    tb.connect(mix_up, (add, 0))
+    if fading is None:
+        tb.connect(mix_up, (add, 0))
+    else:
+        from gnuradio import channels
+        fade = channels.fading_model(8, float(fading[0]), False, 4.0, int(fading[1]))
+        tb.connect(mix_up, fade, (add, 0))
     tb.connect(noise, (add, 1))
     # The sig/noise sources are endless: stop with the modulated stream.
     n_out = len(audio) * (RATE // AUDIO_RATE)

@@ -1,25 +1,38 @@
-package ident
+// Package schedule works out the slot schedule of transmitters sharing a
+// channel from their burst times: each transmitter's period (least squares
+// against cycle number, with its standard error), clock drift, on-time, gap
+// to the next, the cyclic order, predicted next starts and forecast
+// collisions of neighbouring slots. Times are seconds from the capture start
+// on the receiver's clock unless a field says UTC.
+package schedule
 
 import (
 	"cmp"
 	"errors"
 	"fmt"
 	"math"
+	"nullseek/ident/fingerprint"
+	"nullseek/ident/idmatch"
+	"nullseek/ident/internal/stats"
 	"slices"
 	"strings"
 	"time"
 )
 
-// ScheduleOptions tunes BuildSchedule. Zero values select the defaults.
-type ScheduleOptions struct {
+// Options tunes Build. Zero values select the defaults.
+type Options struct {
 	// NominalPeriodS is the programmed cycle in seconds (e.g. 300 s for five
 	// transmitters with one minute each), used as the drift reference and, when
 	// it agrees with the data, to number the cycles. 0: unknown, the median of
 	// the transmitters' fitted periods is the reference.
 	NominalPeriodS float64
 	// NextCount is how many start times to predict per transmitter after the
-	// end of the recording (default 3; negative: none).
+	// end of the recording (0: none; at most MaxNextCount; DefaultOptions
+	// has 3).
 	NextCount int
+	// ListedIDs are the event's expected identifiers, if any: the plan
+	// says which of them were heard (have bursts) and which never were.
+	ListedIDs []string
 	// CaptureStart is the UTC time of the capture start. Zero: derived from the
 	// first observation with a non-zero Start (Start − StartS); when none has
 	// one, times are reported in seconds only.
@@ -42,10 +55,48 @@ type ScheduleOptions struct {
 	EdgeGuardS float64
 }
 
-func (o ScheduleOptions) withDefaults() ScheduleOptions {
-	if o.NextCount == 0 {
-		o.NextCount = 3
+// MaxNextCount bounds Options.NextCount: a thousand cycles ahead is
+// further than any clock holds its drift.
+const MaxNextCount = 1000
+
+// MaxPeriodS bounds Options.NominalPeriodS: a day (beacons sharing a
+// channel cycle in minutes).
+const MaxPeriodS = 86400.0
+
+// DefaultOptions returns the defaults the command line starts from: three
+// predicted starts, 30 ms start jitter, 0.25 s edge guard.
+func DefaultOptions() Options {
+	return Options{NextCount: 3, StartJitterS: 0.03, EdgeGuardS: 0.25}
+}
+
+// ErrBadOptions is wrapped by Options.Validate's errors.
+var ErrBadOptions = errors.New("bad schedule options")
+
+// Validate checks every field against its documented range, naming the
+// flag (or field) that sets it.
+func (o Options) Validate() error {
+	bad := func(format string, a ...any) error {
+		return fmt.Errorf(format+": %w", append(a, ErrBadOptions)...)
 	}
+	finite := func(x float64) bool { return !math.IsNaN(x) && !math.IsInf(x, 0) }
+	switch {
+	case !finite(o.NominalPeriodS) || o.NominalPeriodS < 0 || o.NominalPeriodS > MaxPeriodS:
+		return bad("--period %v s: give the programmed cycle, more than 0 and at most %g s (a day), or leave it out", o.NominalPeriodS, MaxPeriodS)
+	case o.NextCount < 0 || o.NextCount > MaxNextCount:
+		return bad("--next %d: predict 0 to %d start times per transmitter", o.NextCount, MaxNextCount)
+	case !finite(o.CaptureEndS) || o.CaptureEndS < 0 || o.CaptureEndS > 10*365.25*86400:
+		return bad("capture end %v s is not a time in the recording", o.CaptureEndS)
+	case !finite(o.StartJitterS) || o.StartJitterS < 0 || o.StartJitterS > 10:
+		return bad("start jitter %v s: 0 (default) to 10 s", o.StartJitterS)
+	case !finite(o.MergeGapS) || o.MergeGapS > 3600:
+		return bad("merge gap %v s: at most an hour (negative: never merge)", o.MergeGapS)
+	case !finite(o.EdgeGuardS) || o.EdgeGuardS > 60:
+		return bad("edge guard %v s: at most 60 s (negative: off)", o.EdgeGuardS)
+	}
+	return nil
+}
+
+func (o Options) withDefaults() Options {
 	if !(o.StartJitterS > 0) {
 		o.StartJitterS = 0.03
 	}
@@ -64,10 +115,10 @@ func (o ScheduleOptions) withDefaults() ScheduleOptions {
 	return o
 }
 
-// SlotTransmitter is one transmitter's place in the slot schedule. Times are
+// Transmitter is one transmitter's place in the slot schedule. Times are
 // seconds from the capture start on the receiver's clock. Quantities that
 // could not be estimated are NaN (and null in JSON), with Reason saying why.
-type SlotTransmitter struct {
+type Transmitter struct {
 	// ID is the transmitter's label (ident or fingerprint label).
 	ID string
 	// Bursts is the number of bursts attributed (after merging fragments);
@@ -117,7 +168,7 @@ type SlotTransmitter struct {
 }
 
 // HasPeriod reports whether a period was fitted.
-func (t *SlotTransmitter) HasPeriod() bool { return !math.IsNaN(t.PeriodS) }
+func (t *Transmitter) HasPeriod() bool { return !math.IsNaN(t.PeriodS) }
 
 // Collision is a forecast of two neighbouring slots running into each other at
 // the measured drifts: the moment B's start reaches A's end (A is before B in
@@ -141,29 +192,34 @@ type Collision struct {
 	Already                         bool
 }
 
-// BurstOverlap is a pair of bursts from different transmitters on the air at
+// Overlap is a pair of bursts from different transmitters on the air at
 // the same time during the recording, or one burst in which the receiver saw
-// two carriers (B is then UnknownIdent, IndexB −1).
-type BurstOverlap struct {
+// two carriers (B is then idmatch.Unknown, IndexB −1).
+type Overlap struct {
 	A, B           string
 	IndexA, IndexB int
 	// StartS and EndS bound the overlap (s from capture start).
 	StartS, EndS float64
 	Start        time.Time
-	// Source is "intervals" or "receiver".
+	// Source is "intervals" (their bursts' intervals intersect), "receiver"
+	// (it saw two carriers in one burst), "two identifiers" (both read
+	// whole in one burst their fingerprints could not split) or
+	// "fingerprint split" (one burst
+	// whose carrier offset or tone stepped was split between them: they
+	// met at StartS = EndS, the split).
 	Source string
 }
 
-// SlotPlan is the slot schedule of the transmitters sharing a channel.
-type SlotPlan struct {
+// Plan is the slot schedule of the transmitters sharing a channel.
+type Plan struct {
 	// Order is the cyclic order of transmitters: sorted by the phase of their
 	// first start within the common cycle, rotated so that the first
 	// transmitter heard comes first.
 	Order []string
 	// Transmitters is in Order.
-	Transmitters []SlotTransmitter
+	Transmitters []Transmitter
 	Collisions   []Collision
-	Overlaps     []BurstOverlap
+	Overlaps     []Overlap
 	// CommonPeriodS is the cycle used for phases and gaps: the nominal period
 	// when given, else the median fitted period (NaN if none).
 	CommonPeriodS float64
@@ -176,13 +232,24 @@ type SlotPlan struct {
 	CaptureStart time.Time
 	// EndS is the end of the recording used for predictions (s).
 	EndS float64
+	// NominalPeriodS is the programmed cycle given (0: none) and
+	// NominalFits whether the start times bear it out; when they do not,
+	// drifts are measured against the median of the transmitters instead
+	// (a drift against a cycle the beacons do not keep means nothing) and
+	// NominalMisfit says what the starts show.
+	NominalPeriodS float64
+	NominalFits    bool
+	NominalMisfit  string
+	// Heard and NotHeard split Options.ListedIDs into those that have
+	// bursts and those that never came up, in list order.
+	Heard, NotHeard []string
 	// Notes lists adjustments made (skipped bursts, merged fragments,
 	// rejected starts, nominal period overridden).
 	Notes []string
 }
 
 // Transmitter returns the entry for id, or nil.
-func (p *SlotPlan) Transmitter(id string) *SlotTransmitter {
+func (p *Plan) Transmitter(id string) *Transmitter {
 	for i := range p.Transmitters {
 		if p.Transmitters[i].ID == id {
 			return &p.Transmitters[i]
@@ -191,19 +258,19 @@ func (p *SlotPlan) Transmitter(id string) *SlotTransmitter {
 	return nil
 }
 
-// schedLabelled is a burst (position in the input) with its transmitter.
-type schedLabelled struct {
+// labelled is a burst (position in the input) with its transmitter.
+type labelled struct {
 	id  string
 	idx int
 }
 
-// schedBurst is one (possibly merged) burst of a transmitter.
-type schedBurst struct {
+// txBurst is one (possibly merged) burst of a transmitter.
+type txBurst struct {
 	startS, endS     float64
 	startCut, endCut bool // cut off by the capture start / end
 }
 
-// BuildSchedule derives the slot schedule from burst observations.
+// Build derives the slot schedule from burst observations.
 //
 // labels gives the transmitter of each burst (e.g. ClusterResult.Labels or
 // ClusterResult.Idents); nil or an empty entry falls back to the burst's
@@ -222,12 +289,15 @@ type schedBurst struct {
 // Errors: fewer than 3 usable bursts in total, a labels slice of the wrong
 // length, or a non-finite or reversed burst time. A transmitter with fewer
 // than 2 usable starts gets NaN period and drift with a Reason.
-func BuildSchedule(obs []Observation, labels []string, opts ScheduleOptions) (*SlotPlan, error) {
+func Build(obs []fingerprint.Observation, labels []string, opts Options) (*Plan, error) {
 	if labels != nil && len(labels) != len(obs) {
 		return nil, fmt.Errorf("build schedule: %d labels for %d bursts", len(labels), len(obs))
 	}
-	b := &schedBuilder{obs: obs, opts: opts.withDefaults()}
-	b.plan = &SlotPlan{CaptureStart: b.opts.CaptureStart}
+	if err := opts.Validate(); err != nil {
+		return nil, err
+	}
+	b := &builder{obs: obs, opts: opts.withDefaults()}
+	b.plan = &Plan{CaptureStart: b.opts.CaptureStart}
 	if err := b.attribute(labels); err != nil {
 		return nil, fmt.Errorf("build schedule: %w", err)
 	}
@@ -237,51 +307,52 @@ func BuildSchedule(obs []Observation, labels []string, opts ScheduleOptions) (*S
 	b.order()
 	b.gapsAndCollisions()
 	b.predict()
+	b.listed()
 	b.plan.Transmitters = b.txs
-	b.plan.Overlaps = schedOverlaps(obs, b.used, b.plan.CaptureStart)
+	b.plan.Overlaps = findOverlaps(obs, b.used, b.plan.CaptureStart)
 	return b.plan, nil
 }
 
-// schedBuilder holds the intermediate state of BuildSchedule; its methods
+// builder holds the intermediate state of Build; its methods
 // are the steps, in order.
-type schedBuilder struct {
-	obs     []Observation
-	opts    ScheduleOptions
-	plan    *SlotPlan
-	used    []schedLabelled
+type builder struct {
+	obs     []fingerprint.Observation
+	opts    Options
+	plan    *Plan
+	used    []labelled
 	edgeEnd bool // plan.EndS is the real capture end
 	ids     []string
-	bursts  map[string][]schedBurst
+	bursts  map[string][]txBurst
 	onMedS  map[string]float64 // median on-time per transmitter (0 if none)
 	guessS  float64            // period used to number cycles
 	nominal bool               // the nominal period numbers the cycles
-	txs     []SlotTransmitter
+	txs     []Transmitter
 }
 
-func (b *schedBuilder) note(format string, args ...any) {
+func (b *builder) note(format string, args ...any) {
 	b.plan.Notes = append(b.plan.Notes, fmt.Sprintf(format, args...))
 }
 
 // attribute checks the bursts, picks each one's transmitter and finds the
 // capture start and end.
-func (b *schedBuilder) attribute(labels []string) error {
+func (b *builder) attribute(labels []string) error {
 	skipped := 0
 	for i, o := range b.obs {
-		if err := schedCheckTimes(o); err != nil {
+		if err := checkTimes(o); err != nil {
 			return fmt.Errorf("burst %d (index %d): %w", i, o.Index, err)
 		}
 		id := ""
 		if labels != nil {
 			id = strings.TrimSpace(labels[i])
 		}
-		if id == "" && fpIdentKnown(o.Ident) {
+		if id == "" && idmatch.Known(o.Ident) {
 			id = strings.TrimSpace(o.Ident)
 		}
-		if id == "" || strings.EqualFold(id, UnknownIdent) {
+		if id == "" || strings.EqualFold(id, idmatch.Unknown) {
 			skipped++
 			continue
 		}
-		b.used = append(b.used, schedLabelled{id, i})
+		b.used = append(b.used, labelled{id, i})
 		if b.plan.CaptureStart.IsZero() && !o.Start.IsZero() {
 			b.plan.CaptureStart = o.Start.Add(-time.Duration(o.StartS * float64(time.Second)))
 		}
@@ -309,7 +380,7 @@ func (b *schedBuilder) attribute(labels []string) error {
 
 // group sorts each transmitter's bursts in time, marks those cut by the
 // capture edges and merges fragments of one transmission.
-func (b *schedBuilder) group() {
+func (b *builder) group() {
 	groups := map[string][]int{}
 	for _, u := range b.used {
 		if _, ok := groups[u.id]; !ok {
@@ -318,19 +389,19 @@ func (b *schedBuilder) group() {
 		groups[u.id] = append(groups[u.id], u.idx)
 	}
 	guard, endS := b.opts.EdgeGuardS, b.plan.EndS
-	b.bursts = map[string][]schedBurst{}
+	b.bursts = map[string][]txBurst{}
 	b.onMedS = map[string]float64{}
 	for _, id := range b.ids {
 		idx := groups[id]
 		slices.SortStableFunc(idx, func(x, y int) int { return cmp.Compare(b.obs[x].StartS, b.obs[y].StartS) })
-		bs := make([]schedBurst, 0, len(idx))
+		bs := make([]txBurst, 0, len(idx))
 		for _, i := range idx {
 			o := b.obs[i]
-			bs = append(bs, schedBurst{
+			bs = append(bs, txBurst{
 				startS:   o.StartS,
 				endS:     o.EndS,
-				startCut: guard > 0 && o.StartS <= guard,
-				endCut:   b.edgeEnd && guard > 0 && o.EndS >= endS-guard,
+				startCut: o.CutStart || (guard > 0 && o.StartS <= guard),
+				endCut:   o.CutEnd || (b.edgeEnd && guard > 0 && o.EndS >= endS-guard),
 			})
 		}
 		gap := b.opts.MergeGapS
@@ -339,7 +410,7 @@ func (b *schedBuilder) group() {
 			for k, x := range bs {
 				d[k] = x.endS - x.startS
 			}
-			gap = 0.5 * fpMedian(d)
+			gap = 0.5 * stats.Median(d)
 		}
 		merged := bs[:1]
 		for _, x := range bs[1:] {
@@ -355,15 +426,15 @@ func (b *schedBuilder) group() {
 			b.note("%s: %d fragment(s) within %.3g s merged into the preceding burst", id, n, gap)
 		}
 		b.bursts[id] = merged
-		if on := schedOnTimes(merged, false); len(on) > 0 {
-			b.onMedS[id] = fpMedian(on)
+		if on := onTimes(merged, false); len(on) > 0 {
+			b.onMedS[id] = stats.Median(on)
 		}
 	}
 }
 
-// schedOnTimes returns the on-times of bursts not cut by the capture edges;
+// onTimes returns the on-times of bursts not cut by the capture edges;
 // when there are none and fallback is set, of all bursts.
-func schedOnTimes(bs []schedBurst, fallback bool) []float64 {
+func onTimes(bs []txBurst, fallback bool) []float64 {
 	var on []float64
 	for _, x := range bs {
 		if !x.startCut && !x.endCut {
@@ -379,36 +450,37 @@ func schedOnTimes(bs []schedBurst, fallback bool) []float64 {
 }
 
 // fit guesses the common period and fits each transmitter's starts.
-func (b *schedBuilder) fit() {
+func (b *builder) fit() {
 	jit := b.opts.StartJitterS
 	// A period is longer than the bursts: the common one than the typical
 	// transmitter's, each transmitter's own than its own.
 	var all, ons []float64
 	for _, id := range b.ids {
-		all = append(all, schedDiffs(b.bursts[id])...)
+		all = append(all, startDiffs(b.bursts[id])...)
 		ons = append(ons, b.onMedS[id])
 	}
-	guess, score := schedGuessPeriod(all, fpMedian(ons), jit)
+	guess, score := guessPeriod(all, stats.Median(ons), jit)
 	if nom := b.opts.NominalPeriodS; nom > 0 {
-		nomScore := schedScore(all, nom, jit)
+		nomScore := cycleScore(all, nom, jit)
 		if len(all) == 0 || nomScore >= score {
 			guess, b.nominal = nom, true
 		} else {
-			b.note("nominal period %.6g s explains %d of %d start differences, %.6g s explains %d: cycles numbered with the latter",
+			b.plan.NominalMisfit = fmt.Sprintf("the nominal period %.6g s does not fit this recording: it explains %d of %d start differences, a cycle of %.6g s explains %d",
 				nom, nomScore, len(all), guess, score)
+			b.note("%s; cycles numbered with the latter, drifts against the transmitters' median", b.plan.NominalMisfit)
 		}
 	}
 	b.guessS = guess
 
-	b.txs = make([]SlotTransmitter, len(b.ids))
+	b.txs = make([]Transmitter, len(b.ids))
 	for n, id := range b.ids {
 		bs := b.bursts[id]
 		nan := math.NaN()
-		tx := SlotTransmitter{ID: id, Bursts: len(bs), PeriodS: nan, PeriodSigmaS: nan, T0S: nan,
+		tx := Transmitter{ID: id, Bursts: len(bs), PeriodS: nan, PeriodSigmaS: nan, T0S: nan,
 			ResidualRMSS: nan, DriftPPM: nan, DriftSigmaPPM: nan, GapS: nan, PhaseS: nan,
 			firstHeardS: bs[0].startS}
-		on := schedOnTimes(bs, true)
-		tx.OnS, tx.OnSigmaS = schedMeanStd(on)
+		on := onTimes(bs, true)
+		tx.OnS, tx.OnSigmaS = meanStd(on)
 		tx.ons = len(on)
 
 		var starts []float64
@@ -419,8 +491,8 @@ func (b *schedBuilder) fit() {
 		}
 		// The common guess unless it fails to explain this transmitter.
 		pg := guess
-		if d := schedDiffs(bs); len(d) > 0 && (math.IsNaN(pg) || schedScore(d, pg, jit) < len(d)) {
-			if own, _ := schedGuessPeriod(d, b.onMedS[id], jit); !math.IsNaN(own) {
+		if d := startDiffs(bs); len(d) > 0 && (math.IsNaN(pg) || cycleScore(d, pg, jit) < len(d)) {
+			if own, _ := guessPeriod(d, b.onMedS[id], jit); !math.IsNaN(own) {
 				pg = own
 			}
 		}
@@ -430,7 +502,7 @@ func (b *schedBuilder) fit() {
 		case math.IsNaN(pg):
 			tx.Reason = "no consistent period in the start differences"
 		default:
-			f, rej, err := schedFitStarts(starts, pg, jit)
+			f, rej, err := fitStarts(starts, pg, jit)
 			if err != nil {
 				tx.Reason = err.Error()
 				break
@@ -451,7 +523,7 @@ func (b *schedBuilder) fit() {
 }
 
 // reference sets the common period and drift reference, and the drifts.
-func (b *schedBuilder) reference() {
+func (b *builder) reference() {
 	var periods []float64
 	for _, tx := range b.txs {
 		if tx.HasPeriod() {
@@ -459,17 +531,28 @@ func (b *schedBuilder) reference() {
 		}
 	}
 	p := b.plan
+	p.NominalPeriodS = b.opts.NominalPeriodS
+	if nom := b.opts.NominalPeriodS; nom > 0 && b.nominal && len(periods) > 0 {
+		// The cycles fit, but the periods must too: more than 1 % off (10^4
+		// ppm, far beyond any crystal) is another cycle, not a drift.
+		if m := stats.Median(periods); math.Abs(m-nom) > 0.01*nom {
+			b.nominal = false
+			p.NominalMisfit = fmt.Sprintf("the nominal period %.6g s does not fit this recording: the transmitters repeat every %.6g s (median)", nom, m)
+			b.note("%s; drifts against that median", p.NominalMisfit)
+		}
+	}
+	p.NominalFits = b.opts.NominalPeriodS > 0 && b.nominal
 	switch {
-	case b.opts.NominalPeriodS > 0:
+	case p.NominalFits:
 		p.DriftReferenceS = b.opts.NominalPeriodS
 		p.DriftReference = fmt.Sprintf("nominal %.6g s", b.opts.NominalPeriodS)
 		p.CommonPeriodS = b.opts.NominalPeriodS
-		if !b.nominal && len(periods) > 0 {
-			p.CommonPeriodS = fpMedian(periods) // the nominal does not fit the data
-		}
 	case len(periods) > 0:
-		p.DriftReferenceS = fpMedian(periods)
+		p.DriftReferenceS = stats.Median(periods)
 		p.DriftReference = "median of transmitters"
+		if b.opts.NominalPeriodS > 0 {
+			p.DriftReference = fmt.Sprintf("median of transmitters (the nominal %.6g s does not fit)", b.opts.NominalPeriodS)
+		}
 		p.CommonPeriodS = p.DriftReferenceS
 	default:
 		p.DriftReferenceS = math.NaN()
@@ -498,7 +581,7 @@ func (b *schedBuilder) reference() {
 // else the first one not cut by the capture start) in the common cycle,
 // relative to that of the first transmitter heard, and rotates the ring so
 // that the first transmitter heard comes first.
-func (b *schedBuilder) order() {
+func (b *builder) order() {
 	txs := b.txs
 	firstHeard := 0
 	for i, tx := range txs {
@@ -506,28 +589,28 @@ func (b *schedBuilder) order() {
 			firstHeard = i
 		}
 	}
-	ref := func(tx *SlotTransmitter) float64 {
+	ref := func(tx *Transmitter) float64 {
 		if tx.HasPeriod() {
 			return tx.T0S
 		}
-		return schedFirstUncut(b.bursts[tx.ID])
+		return firstUncut(b.bursts[tx.ID])
 	}
 	tRef, firstID := ref(&txs[firstHeard]), txs[firstHeard].ID
 	pc := b.plan.CommonPeriodS
 	for i := range txs {
 		ph := ref(&txs[i]) - tRef
 		if pc > 0 && !math.IsInf(pc, 0) {
-			ph = schedMod(ph, pc)
+			ph = modPos(ph, pc)
 		}
 		txs[i].PhaseS = ph
 	}
-	slices.SortStableFunc(txs, func(x, y SlotTransmitter) int {
+	slices.SortStableFunc(txs, func(x, y Transmitter) int {
 		if c := cmp.Compare(x.PhaseS, y.PhaseS); c != 0 {
 			return c
 		}
 		return cmp.Compare(x.ID, y.ID)
 	})
-	rot := slices.IndexFunc(txs, func(t SlotTransmitter) bool { return t.ID == firstID })
+	rot := slices.IndexFunc(txs, func(t Transmitter) bool { return t.ID == firstID })
 	b.txs = append(txs[rot:], txs[:rot]...)
 	for _, tx := range b.txs {
 		b.plan.Order = append(b.plan.Order, tx.ID)
@@ -537,10 +620,10 @@ func (b *schedBuilder) order() {
 // gapsAndCollisions measures each gap to the next transmitter at the end of
 // the recording, and forecasts the closing gaps between neighbouring
 // transmitters that have a period (transmitters without one are skipped).
-func (b *schedBuilder) gapsAndCollisions() {
+func (b *builder) gapsAndCollisions() {
 	txs, pc := b.txs, b.plan.CommonPeriodS
 	if len(txs) == 1 {
-		txs[0].GapS = schedLinePeriod(&txs[0], pc) - txs[0].OnS
+		txs[0].GapS = linePeriod(&txs[0], pc) - txs[0].OnS
 	} else {
 		for i := range txs {
 			x, y := &txs[i], &txs[(i+1)%len(txs)]
@@ -549,7 +632,7 @@ func (b *schedBuilder) gapsAndCollisions() {
 			}
 		}
 	}
-	var fitted []*SlotTransmitter
+	var fitted []*Transmitter
 	for i := range txs {
 		if txs[i].HasPeriod() {
 			fitted = append(fitted, &txs[i])
@@ -564,8 +647,8 @@ func (b *schedBuilder) gapsAndCollisions() {
 		if !ok {
 			continue
 		}
-		if c, ok := schedCollision(x, y, m, b.plan.EndS, pc); ok {
-			c.At, _ = schedUTC(b.plan.CaptureStart, c.AtS)
+		if c, ok := forecastCollision(x, y, m, b.plan.EndS, pc); ok {
+			c.At, _ = toUTC(b.plan.CaptureStart, c.AtS)
 			b.plan.Collisions = append(b.plan.Collisions, c)
 		}
 	}
@@ -574,9 +657,9 @@ func (b *schedBuilder) gapsAndCollisions() {
 // slotPair finds x's last start at or before the end of the recording and
 // y's first start after it; it returns the offset m between their cycle
 // numbers (y's cycle = x's + m) and the gap from x's end to y's start.
-func (b *schedBuilder) slotPair(x, y *SlotTransmitter) (m, gapS float64, ok bool) {
+func (b *builder) slotPair(x, y *Transmitter) (m, gapS float64, ok bool) {
 	pc := b.plan.CommonPeriodS
-	lx, ly := schedLineOf(x, b.bursts[x.ID], pc), schedLineOf(y, b.bursts[y.ID], pc)
+	lx, ly := lineOf(x, b.bursts[x.ID], pc), lineOf(y, b.bursts[y.ID], pc)
 	if math.IsNaN(lx.p) || math.IsNaN(ly.p) {
 		return 0, 0, false
 	}
@@ -587,28 +670,79 @@ func (b *schedBuilder) slotPair(x, y *SlotTransmitter) (m, gapS float64, ok bool
 }
 
 // predict extrapolates each fitted line past the end of the recording.
-func (b *schedBuilder) predict() {
+func (b *builder) predict() {
 	for i := range b.txs {
 		tx := &b.txs[i]
-		if !tx.HasPeriod() || b.opts.NextCount < 0 {
+		if b.opts.NextCount <= 0 {
 			continue
 		}
-		k0 := math.Floor((b.plan.EndS-tx.T0S)/tx.PeriodS) + 1
+		t0, p := tx.T0S, tx.PeriodS
+		fromNominal := false
+		if !tx.HasPeriod() {
+			// One usable start: with a programmed cycle that fits the
+			// recording, predict along it (the drift is not measured: σ
+			// grows by predictDriftPPM a cycle, plus the start jitter).
+			first, ok := uncutStart(b.bursts[tx.ID])
+			if !b.plan.NominalFits || !ok {
+				continue
+			}
+			t0, p, fromNominal = first, b.plan.NominalPeriodS, true
+		}
+		k0 := math.Floor((b.plan.EndS-t0)/p) + 1
 		for n := range b.opts.NextCount {
 			k := k0 + float64(n)
-			s := tx.T0S + k*tx.PeriodS
-			v := tx.CovT0P[0][0] + 2*k*tx.CovT0P[0][1] + k*k*tx.CovT0P[1][1]
+			s := t0 + k*p
+			var v float64
+			if fromNominal {
+				d := k * p * predictDriftPPM * 1e-6
+				v = b.opts.StartJitterS*b.opts.StartJitterS + d*d
+			} else {
+				v = tx.CovT0P[0][0] + 2*k*tx.CovT0P[0][1] + k*k*tx.CovT0P[1][1]
+			}
 			tx.NextOnS = append(tx.NextOnS, s)
 			tx.NextOnSigmaS = append(tx.NextOnSigmaS, math.Sqrt(max(v, 0)))
 			if !b.plan.CaptureStart.IsZero() {
-				at, _ := schedUTC(b.plan.CaptureStart, s)
+				at, _ := toUTC(b.plan.CaptureStart, s)
 				tx.NextOn = append(tx.NextOn, at)
 			}
+		}
+		if fromNominal {
+			tx.Reason = strings.TrimPrefix(tx.Reason+"; next on from the nominal period (drift not measured)", "; ")
 		}
 	}
 }
 
-func schedCheckTimes(o Observation) error {
+// uncutStart is the first start not cut by the recording or a split.
+func uncutStart(bs []txBurst) (float64, bool) {
+	for _, x := range bs {
+		if !x.startCut {
+			return x.startS, true
+		}
+	}
+	return 0, false
+}
+
+// predictDriftPPM is the clock drift assumed for a transmitter whose
+// drift could not be measured (one usable start): 300 ppm, the cycle
+// matching's own allowance (cycleTol).
+const predictDriftPPM = 300.0
+
+// listed fills Heard and NotHeard from Options.ListedIDs.
+func (b *builder) listed() {
+	have := map[string]bool{}
+	for _, u := range b.used {
+		have[strings.ToUpper(u.id)] = true
+	}
+	for _, id := range b.opts.ListedIDs {
+		if have[strings.ToUpper(strings.TrimSpace(id))] {
+			b.plan.Heard = append(b.plan.Heard, id)
+		} else {
+			b.plan.NotHeard = append(b.plan.NotHeard, id)
+		}
+	}
+}
+
+func checkTimes(o fingerprint.Observation) error {
 	if math.IsNaN(o.StartS) || math.IsInf(o.StartS, 0) || math.IsNaN(o.EndS) || math.IsInf(o.EndS, 0) {
 		return errors.New("start or end time is not a finite number")
 	}
@@ -621,16 +755,16 @@ func schedCheckTimes(o Observation) error {
 	return nil
 }
 
-// schedUTC converts seconds from the capture start to UTC; ok is false (and
+// toUTC converts seconds from the capture start to UTC; ok is false (and
 // the time zero) when the capture start is unknown or s is beyond ±250 years.
-func schedUTC(t0 time.Time, s float64) (time.Time, bool) {
+func toUTC(t0 time.Time, s float64) (time.Time, bool) {
 	if t0.IsZero() || !(math.Abs(s) < 250*365.25*86400) {
 		return time.Time{}, false
 	}
 	return t0.Add(time.Duration(math.Round(s * float64(time.Second)))).UTC(), true
 }
 
-func schedMod(x, p float64) float64 {
+func modPos(x, p float64) float64 {
 	m := math.Mod(x, p)
 	if m < 0 {
 		m += p
@@ -641,7 +775,7 @@ func schedMod(x, p float64) float64 {
 	return m
 }
 
-func schedMeanStd(x []float64) (mean, std float64) {
+func meanStd(x []float64) (mean, std float64) {
 	for _, v := range x {
 		mean += v
 	}
@@ -655,7 +789,7 @@ func schedMeanStd(x []float64) (mean, std float64) {
 	return mean, math.Sqrt(std / float64(len(x)-1))
 }
 
-func schedFirstUncut(bs []schedBurst) float64 {
+func firstUncut(bs []txBurst) float64 {
 	for _, b := range bs {
 		if !b.startCut {
 			return b.startS
@@ -664,8 +798,8 @@ func schedFirstUncut(bs []schedBurst) float64 {
 	return bs[0].startS
 }
 
-// schedDiffs returns consecutive differences of the uncut starts.
-func schedDiffs(bs []schedBurst) []float64 {
+// startDiffs returns consecutive differences of the uncut starts.
+func startDiffs(bs []txBurst) []float64 {
 	var d []float64
 	prev := math.NaN()
 	for _, b := range bs {
@@ -680,30 +814,30 @@ func schedDiffs(bs []schedBurst) []float64 {
 	return d
 }
 
-// schedTol is the tolerance (s) for a difference of m cycles of period c to
+// cycleTol is the tolerance (s) for a difference of m cycles of period c to
 // count as explained: 1 % of a cycle or 4 start jitters, plus 300 ppm per
 // cycle for clock drift.
-func schedTol(c float64, m, jitterS float64) float64 {
+func cycleTol(c float64, m, jitterS float64) float64 {
 	return max(0.01*c, 4*jitterS) + m*c*300e-6
 }
 
-// schedScore counts the differences that are whole multiples (≥ 1) of c.
-func schedScore(diffs []float64, c, jitterS float64) int {
+// cycleScore counts the differences that are whole multiples (≥ 1) of c.
+func cycleScore(diffs []float64, c, jitterS float64) int {
 	n := 0
 	for _, d := range diffs {
 		m := math.Round(d / c)
-		if m >= 1 && math.Abs(d-m*c) <= schedTol(c, m, jitterS) {
+		if m >= 1 && math.Abs(d-m*c) <= cycleTol(c, m, jitterS) {
 			n++
 		}
 	}
 	return n
 }
 
-// schedGuessPeriod picks, among d/k (k = 1…8) for every difference d, the
+// guessPeriod picks, among d/k (k = 1…8) for every difference d, the
 // largest period longer than minS that explains the most differences, and
 // refines it as Σd/Σm over the differences it explains. NaN when there are
 // no differences.
-func schedGuessPeriod(diffs []float64, minS, jitterS float64) (float64, int) {
+func guessPeriod(diffs []float64, minS, jitterS float64) (float64, int) {
 	best, bestScore := math.NaN(), 0
 	for _, d := range diffs {
 		for k := 1.0; k <= 8; k++ {
@@ -711,7 +845,7 @@ func schedGuessPeriod(diffs []float64, minS, jitterS float64) (float64, int) {
 			if c <= minS || c <= 0 {
 				continue
 			}
-			s := schedScore(diffs, c, jitterS)
+			s := cycleScore(diffs, c, jitterS)
 			if s > bestScore || (s == bestScore && s > 0 && c > best) {
 				best, bestScore = c, s
 			}
@@ -723,7 +857,7 @@ func schedGuessPeriod(diffs []float64, minS, jitterS float64) (float64, int) {
 	var sd, sm float64
 	for _, d := range diffs {
 		m := math.Round(d / best)
-		if m >= 1 && math.Abs(d-m*best) <= schedTol(best, m, jitterS) {
+		if m >= 1 && math.Abs(d-m*best) <= cycleTol(best, m, jitterS) {
 			sd += d
 			sm += m
 		}
@@ -731,20 +865,20 @@ func schedGuessPeriod(diffs []float64, minS, jitterS float64) (float64, int) {
 	return sd / sm, bestScore
 }
 
-// schedFit is a straight-line fit t = t0 + k·p over cycle numbers k.
-type schedFit struct {
+// lineFit is a straight-line fit t = t0 + k·p over cycle numbers k.
+type lineFit struct {
 	t0, p float64
 	cov   [2][2]float64
 	rms   float64
 	n     int
 }
 
-// schedFitLine fits t = t0 + k·p by ordinary least squares. The covariance
+// fitLine fits t = t0 + k·p by ordinary least squares. The covariance
 // uses the residual variance s² = SSR/(n−2) when n ≥ 3, else sigmaS².
-func schedFitLine(k, t []float64, sigmaS float64) (schedFit, error) {
+func fitLine(k, t []float64, sigmaS float64) (lineFit, error) {
 	n := len(k)
 	if n < 2 || len(t) != n {
-		return schedFit{}, errors.New("fewer than 2 starts")
+		return lineFit{}, errors.New("fewer than 2 starts")
 	}
 	var kb, tb float64
 	for i := range k {
@@ -759,11 +893,11 @@ func schedFitLine(k, t []float64, sigmaS float64) (schedFit, error) {
 		sxy += (k[i] - kb) * (t[i] - tb)
 	}
 	if !(sxx > 0) {
-		return schedFit{}, errors.New("all starts fall in one cycle")
+		return lineFit{}, errors.New("all starts fall in one cycle")
 	}
 	p := sxy / sxx
 	if !(p > 0) || math.IsInf(p, 0) {
-		return schedFit{}, fmt.Errorf("fitted period %g s is not positive", p)
+		return lineFit{}, fmt.Errorf("fitted period %g s is not positive", p)
 	}
 	t0 := tb - p*kb
 	var ssr float64
@@ -775,7 +909,7 @@ func schedFitLine(k, t []float64, sigmaS float64) (schedFit, error) {
 	if n >= 3 {
 		s2 = ssr / float64(n-2)
 	}
-	f := schedFit{t0: t0, p: p, n: n, rms: math.Sqrt(ssr / float64(n))}
+	f := lineFit{t0: t0, p: p, n: n, rms: math.Sqrt(ssr / float64(n))}
 	f.cov[1][1] = s2 / sxx
 	f.cov[0][1] = -kb * s2 / sxx
 	f.cov[1][0] = f.cov[0][1]
@@ -783,16 +917,16 @@ func schedFitLine(k, t []float64, sigmaS float64) (schedFit, error) {
 	return f, nil
 }
 
-// schedFitStarts numbers the (sorted) starts by cycle with the period guess,
+// fitStarts numbers the (sorted) starts by cycle with the period guess,
 // fits the line and drops outliers one at a time. The cycle numbers are
 // shifted so that k = 0 is the first start kept.
-func schedFitStarts(starts []float64, guessS, jitterS float64) (schedFit, int, error) {
+func fitStarts(starts []float64, guessS, jitterS float64) (lineFit, int, error) {
 	k := make([]float64, len(starts))
 	t := slices.Clone(starts)
 	for i, s := range starts {
 		k[i] = math.Round((s - starts[0]) / guessS)
 	}
-	f, err := schedFitLine(k, t, jitterS)
+	f, err := fitLine(k, t, jitterS)
 	if err != nil {
 		return f, 0, err
 	}
@@ -806,13 +940,13 @@ func schedFitStarts(starts []float64, guessS, jitterS float64) (schedFit, int, e
 				worst = i
 			}
 		}
-		tol := max(6*jitterS, 4*1.4826*fpMedian(res))
+		tol := max(6*jitterS, 4*1.4826*stats.Median(res))
 		if res[worst] <= tol {
 			break
 		}
 		k = slices.Delete(k, worst, worst+1)
 		t = slices.Delete(t, worst, worst+1)
-		nf, err := schedFitLine(k, t, jitterS)
+		nf, err := fitLine(k, t, jitterS)
 		if err != nil {
 			break
 		}
@@ -831,31 +965,31 @@ func schedFitStarts(starts []float64, guessS, jitterS float64) (schedFit, int, e
 	return f, rejected, nil
 }
 
-type schedLine struct{ t0, p float64 }
+type startLine struct{ t0, p float64 }
 
-func schedLinePeriod(t *SlotTransmitter, pc float64) float64 {
+func linePeriod(t *Transmitter, pc float64) float64 {
 	if t.HasPeriod() {
 		return t.PeriodS
 	}
 	return pc
 }
 
-// schedLineOf is the transmitter's start line: fitted, else its first start
+// lineOf is the transmitter's start line: fitted, else its first start
 // repeated at the common period.
-func schedLineOf(t *SlotTransmitter, bs []schedBurst, pc float64) schedLine {
+func lineOf(t *Transmitter, bs []txBurst, pc float64) startLine {
 	if t.HasPeriod() {
-		return schedLine{t.T0S, t.PeriodS}
+		return startLine{t.T0S, t.PeriodS}
 	}
 	if pc > 0 && !math.IsInf(pc, 0) {
-		return schedLine{schedFirstUncut(bs), pc}
+		return startLine{firstUncut(bs), pc}
 	}
-	return schedLine{math.NaN(), math.NaN()}
+	return startLine{math.NaN(), math.NaN()}
 }
 
-// schedCollision forecasts when B's start reaches A's end, B's cycle j+m
+// forecastCollision forecasts when B's start reaches A's end, B's cycle j+m
 // being in the same slot as A's cycle j (cycle numbers from each fit's T0S).
 // ok is false when the gap is not closing.
-func schedCollision(a, b *SlotTransmitter, m, endS, pc float64) (Collision, bool) {
+func forecastCollision(a, b *Transmitter, m, endS, pc float64) (Collision, bool) {
 	d := a.PeriodS - b.PeriodS // closing per cycle
 	if !(d > 0) {
 		return Collision{}, false
@@ -891,26 +1025,30 @@ func schedCollision(a, b *SlotTransmitter, m, endS, pc float64) (Collision, bool
 	return c, true
 }
 
-func schedOverlaps(obs []Observation, used []schedLabelled, t0 time.Time) []BurstOverlap {
+func findOverlaps(obs []fingerprint.Observation, used []labelled, t0 time.Time) []Overlap {
 	s := slices.Clone(used)
-	slices.SortStableFunc(s, func(a, b schedLabelled) int {
+	slices.SortStableFunc(s, func(a, b labelled) int {
 		return cmp.Compare(obs[a.idx].StartS, obs[b.idx].StartS)
 	})
-	var out []BurstOverlap
+	var out []Overlap
 	inPair := map[int]bool{}
 	for i, u := range s {
 		a := obs[u.idx]
 		for _, w := range s[i+1:] {
 			b := obs[w.idx]
-			if b.StartS >= a.EndS {
+			if b.StartS > a.EndS || (b.StartS == a.EndS && !(a.CutEnd && b.CutStart && a.Index == b.Index)) {
 				break
 			}
 			if w.id == u.id {
 				continue
 			}
-			ov := BurstOverlap{A: u.id, B: w.id, IndexA: a.Index, IndexB: b.Index,
+			ov := Overlap{A: u.id, B: w.id, IndexA: a.Index, IndexB: b.Index,
 				StartS: b.StartS, EndS: min(a.EndS, b.EndS), Source: "intervals"}
-			ov.Start, _ = schedUTC(t0, ov.StartS)
+			if a.Index == b.Index && a.CutEnd && b.CutStart {
+				// One burst split by fingerprint: they met at the split.
+				ov.Source = "fingerprint split"
+			}
+			ov.Start, _ = toUTC(t0, ov.StartS)
 			out = append(out, ov)
 			inPair[u.idx], inPair[w.idx] = true, true
 		}
@@ -918,9 +1056,12 @@ func schedOverlaps(obs []Observation, used []schedLabelled, t0 time.Time) []Burs
 	for _, u := range s {
 		a := obs[u.idx]
 		if a.DoubleCarrier && !inPair[u.idx] {
-			ov := BurstOverlap{A: u.id, B: UnknownIdent, IndexA: a.Index, IndexB: -1,
+			ov := Overlap{A: u.id, B: idmatch.Unknown, IndexA: a.Index, IndexB: -1,
 				StartS: a.StartS, EndS: a.EndS, Source: "receiver"}
-			ov.Start, _ = schedUTC(t0, ov.StartS)
+			if idmatch.Known(a.OtherIdent) {
+				ov.B, ov.Source = strings.TrimSpace(a.OtherIdent), "two identifiers"
+			}
+			ov.Start, _ = toUTC(t0, ov.StartS)
 			out = append(out, ov)
 		}
 	}

@@ -1,4 +1,4 @@
-package ident
+package morse
 
 import (
 	"errors"

@@ -1,8 +1,15 @@
-// Package ident works out who is transmitting: Morse decoding of a burst's
-// audio or power track, matching against the expected identifiers,
-// transmitter fingerprints and the slot schedule. It never reads IQ: the
+// Package morse reads and writes Morse code: the ITU-R M.1677-1 code table
+// and timing (Encode), and the decoders that turn a burst's demodulated
+// audio (a keyed tone on FM or AM) or its channel power track (a keyed
+// carrier) into characters with confidences (DecodeTone, DecodeKeyed,
+// DecodeEnvelope), with the pitch finder and envelope they share
+// (FindTone, ToneEnvelope) and the choice between them (DetectMode).
+//
+// Conventions: times are seconds from the first sample of the input;
+// speeds are words per minute by the PARIS standard (dot = 1.2/WPM s);
+// envelopes are linear power (any scale, ≥ 0). It never reads IQ: the
 // receiver hands it demodulated audio and power tracks.
-package ident
+package morse
 
 import (
 	"errors"
@@ -109,9 +116,9 @@ var reverseTable = func() map[string]string {
 // maxCodeLen is the longest code in the table (the error signal).
 const maxCodeLen = 8
 
-// mcUnknownChar is written by the decoder for an element pattern that is no
+// UnknownChar is written by the decoder for an element pattern that is no
 // character; Morse cannot send '*', so it never collides with real text.
-const mcUnknownChar = "*"
+const UnknownChar = "*"
 
 // splitMorseText splits text into table keys: single characters
 // (upper-cased), prosigns in angle brackets, and " " for word breaks
@@ -164,19 +171,38 @@ func splitMorseText(text string) ([]string, error) {
 // it: upper case, single spaces, shared codes written one way ("+" becomes
 // "<AR>", "<BT>" becomes "=", "(" becomes "<KN>").
 func CanonicalText(text string) (string, error) {
-	keys, err := splitMorseText(text)
+	toks, err := Tokens(text)
 	if err != nil {
 		return "", err
 	}
-	var b strings.Builder
-	for _, k := range keys {
+	return strings.Join(toks, ""), nil
+}
+
+// Tokens splits text into the tokens the decoder writes (its Char.Text
+// values): one per character, shared codes written one way as in
+// CanonicalText, and " " for each word break. Errors name the first
+// character Morse cannot send (wrapping ErrUnsendable).
+func Tokens(text string) ([]string, error) {
+	keys, err := splitMorseText(text)
+	if err != nil {
+		return nil, err
+	}
+	out := make([]string, len(keys))
+	for i, k := range keys {
 		if k == " " {
-			b.WriteByte(' ')
+			out[i] = " "
 			continue
 		}
-		b.WriteString(reverseTable[morseTable[k]])
+		out[i] = reverseTable[morseTable[k]]
 	}
-	return b.String(), nil
+	return out, nil
+}
+
+// Code returns the dots and dashes (".-") of a token as Tokens or the
+// decoder writes it, and false for anything else (UnknownChar, " ").
+func Code(token string) (string, bool) {
+	c, ok := morseTable[token]
+	return c, ok
 }
 
 // DotSeconds is the dot length for a speed in words per minute by the

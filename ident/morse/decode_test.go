@@ -1,54 +1,15 @@
-package ident
+package morse
 
 import (
-	"bufio"
 	"errors"
 	"math"
 	"math/rand/v2"
-	"os"
+	"nullseek/ident/internal/identtest"
 	"path/filepath"
 	"regexp"
-	"strconv"
 	"strings"
 	"testing"
 )
-
-// tsvRows reads a tab-separated fixture manifest with a header line.
-func tsvRows(t testing.TB, path string) []map[string]string {
-	t.Helper()
-	f, err := os.Open(path)
-	if err != nil {
-		t.Fatalf("fixture manifest: %v", err)
-	}
-	defer f.Close()
-	sc := bufio.NewScanner(f)
-	var head []string
-	var rows []map[string]string
-	for sc.Scan() {
-		cols := strings.Split(sc.Text(), "\t")
-		if head == nil {
-			head = cols
-			continue
-		}
-		r := map[string]string{}
-		for i, h := range head {
-			if i < len(cols) {
-				r[h] = cols[i]
-			}
-		}
-		rows = append(rows, r)
-	}
-	return rows
-}
-
-func atof(t testing.TB, s string) float64 {
-	t.Helper()
-	v, err := strconv.ParseFloat(s, 64)
-	if err != nil {
-		t.Fatalf("manifest number %q: %v", s, err)
-	}
-	return v
-}
 
 var ebookCmd = regexp.MustCompile(`\|[a-zA-Z]\d+\s*`)
 
@@ -56,14 +17,14 @@ var ebookCmd = regexp.MustCompile(`\|[a-zA-Z]\d+\s*`)
 // testdata/morse/make_clean.sh) exactly, and reads back the speed, the
 // Farnsworth speed and the pitch ebook2cw was given.
 func TestDecodeCleanEbook2cw(t *testing.T) {
-	rows := tsvRows(t, filepath.Join(morseDir, "clean.tsv"))
+	rows := identtest.TSVRows(t, filepath.Join(identtest.MorseDir, "clean.tsv"))
 	if len(rows) < 10 {
 		t.Fatalf("only %d clean fixtures", len(rows))
 	}
 	for _, r := range rows {
 		r := r
 		t.Run(r["file"], func(t *testing.T) {
-			a, rate, err := mcReadWAV(filepath.Join(morseDir, r["file"]))
+			a, rate, err := identtest.ReadWAV(filepath.Join(identtest.MorseDir, r["file"]))
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -75,7 +36,7 @@ func TestDecodeCleanEbook2cw(t *testing.T) {
 			if d.Text != want {
 				t.Errorf("decoded %q, ebook2cw sent %q", d.Text, want)
 			}
-			wpm, eff, freq := atof(t, r["wpm"]), atof(t, r["effwpm"]), atof(t, r["freq_hz"])
+			wpm, eff, freq := identtest.Atof(t, r["wpm"]), identtest.Atof(t, r["effwpm"]), identtest.Atof(t, r["freq_hz"])
 			if math.Abs(d.WPM-wpm) > 0.03*wpm {
 				t.Errorf("speed %.2f WPM, ebook2cw -w %g", d.WPM, wpm)
 			}
@@ -105,7 +66,7 @@ func TestDecodeCleanEbook2cw(t *testing.T) {
 // steps (|f commands). With tracking the text is exact; with the
 // oscillator held at one pitch it is not, which shows the tracking works.
 func TestDecodeWanderingTone(t *testing.T) {
-	a, rate, err := mcReadWAV(filepath.Join(morseDir, "wander_w20_f700_880.wav"))
+	a, rate, err := identtest.ReadWAV(filepath.Join(identtest.MorseDir, "wander_w20_f700_880.wav"))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -145,7 +106,7 @@ func powerFromAudio(a []float32, rate, outRate float64, floor float32) []float32
 // floor 20 dB down).
 func TestDecodeKeyed(t *testing.T) {
 	for _, f := range []string{"clean_w20_f1000.wav", "clean_w25_f600.wav", "clean_w10_f600.wav"} {
-		a, rate, err := mcReadWAV(filepath.Join(morseDir, f))
+		a, rate, err := identtest.ReadWAV(filepath.Join(identtest.MorseDir, f))
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -172,7 +133,7 @@ func TestDecodeKeyed(t *testing.T) {
 }
 
 func TestDetectMode(t *testing.T) {
-	fm, rate, err := mcReadWAV(filepath.Join(morseDir, "fm", "cer_cnr12_a.wav"))
+	fm, rate, err := identtest.ReadWAV(filepath.Join(identtest.MorseDir, "fm", "cer_cnr12_a.wav"))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -187,7 +148,7 @@ func TestDetectMode(t *testing.T) {
 	}
 	power := powerFromAudio(fm, rate, 200, 0.01) // FM: keyed tone, not keyed power
 	_ = power
-	clean, crate, _ := mcReadWAV(filepath.Join(morseDir, "clean_w20_f1000.wav"))
+	clean, crate, _ := identtest.ReadWAV(filepath.Join(identtest.MorseDir, "clean_w20_f1000.wav"))
 	keyed := powerFromAudio(clean, crate, 200, 0.001)
 	for _, tc := range []struct {
 		name   string
@@ -277,7 +238,7 @@ func FuzzDecodeEnvelope(f *testing.F) {
 			return
 		}
 		for _, c := range d.Chars {
-			if c.Text != mcUnknownChar {
+			if c.Text != UnknownChar {
 				if _, ok := morseTable[c.Text]; !ok {
 					t.Fatalf("decoded %q is not in the table", c.Text)
 				}

@@ -1,4 +1,4 @@
-package ident
+package morse
 
 import (
 	"errors"
@@ -7,7 +7,7 @@ import (
 	"math/cmplx"
 	"sort"
 
-	"gonum.org/v1/gonum/dsp/fourier"
+	"nullseek/dsp"
 )
 
 // ErrNoTone is wrapped by errors when audio holds no tone between
@@ -23,17 +23,18 @@ const (
 	toneMinSNRDB = 5.0
 )
 
-// toneSpectrum is a Welch (Hann window, 50 % overlap) power spectrum plan.
+// toneSpectrum is the one-sided power spectrum of real audio from dsp's
+// Welch averager (Hann window, 50 % overlap, linear power averaging; see
+// dsp.SpectrumAverager), kept as linear power per bin from 0 Hz to half
+// the sample rate.
 type toneSpectrum struct {
-	n      int
-	fft    *fourier.FFT
-	win    []float64
-	seg    []float64
-	coef   []complex128
-	psd    []float64
-	binHz  float64
-	nAvgd  int
-	rateHz float64
+	n     int
+	avg   *dsp.SpectrumAverager
+	buf   []complex64
+	db    []float64
+	psd   []float64
+	binHz float64
+	nAvgd int
 }
 
 // newToneSpectrum sizes the FFT so a bin is at most ~6 Hz wide (but no
@@ -43,31 +44,35 @@ func newToneSpectrum(rateHz float64, nAudio int) *toneSpectrum {
 	for float64(n) < rateHz/6 && n*2 <= nAudio {
 		n *= 2
 	}
-	s := &toneSpectrum{n: n, fft: fourier.NewFFT(n), win: make([]float64, n),
-		seg: make([]float64, n), coef: make([]complex128, n/2+1), psd: make([]float64, n/2+1),
-		binHz: rateHz / float64(n), rateHz: rateHz}
-	for i := range s.win {
-		s.win[i] = 0.5 - 0.5*math.Cos(2*math.Pi*float64(i)/float64(n))
+	avg, err := dsp.NewSpectrumAverager(n)
+	if err != nil { // n ≥ 256 by construction
+		panic(err)
 	}
-	return s
+	return &toneSpectrum{n: n, avg: avg, buf: make([]complex64, n), psd: make([]float64, n/2+1),
+		binHz: rateHz / float64(n)}
 }
 
-// average computes the averaged spectrum of audio into s.psd.
+// average computes the averaged spectrum of audio into s.psd (the real
+// audio enters the complex averager with zero imaginary part, so bin k and
+// −k carry the same power; the positive half is kept).
 func (s *toneSpectrum) average(audio []float32) {
-	for i := range s.psd {
-		s.psd[i] = 0
+	s.avg.Reset()
+	for len(audio) > 0 {
+		m := min(len(audio), len(s.buf))
+		for i, v := range audio[:m] {
+			s.buf[i] = complex(v, 0)
+		}
+		s.avg.Add(s.buf[:m])
+		audio = audio[m:]
 	}
-	s.nAvgd = 0
-	hop := s.n / 2
-	for off := 0; off+s.n <= len(audio); off += hop {
-		for i := 0; i < s.n; i++ {
-			s.seg[i] = float64(audio[off+i]) * s.win[i]
+	s.nAvgd = s.avg.Frames()
+	s.db = s.avg.Result(s.db)
+	half := s.n / 2
+	for k := range s.psd {
+		s.psd[k] = 0
+		if s.nAvgd > 0 {
+			s.psd[k] = math.Pow(10, s.db[(half+k)%s.n]/10)
 		}
-		s.fft.Coefficients(s.coef, s.seg)
-		for i, c := range s.coef {
-			s.psd[i] += real(c)*real(c) + imag(c)*imag(c)
-		}
-		s.nAvgd++
 	}
 }
 
@@ -241,14 +246,59 @@ func toneEnvelope(audio []float32, rate float64, centresS, freqsHz []float64, bo
 	return env
 }
 
-// DetectMode decides how a burst's Morse is carried: a clear tone in the
-// FM discriminator audio gives ModeFM, a clear tone in the AM envelope
-// audio gives ModeAM (the clearer wins when both have one), and a power
-// track (linear power at powerRate Hz) that itself switches between two
-// levels at least 6 dB apart, several times, gives ModeCW. Nil or empty
-// inputs are skipped. When nothing fits it returns ModeAuto, meaning
-// "undecided".
+const (
+	// EnvelopeRateHz is the rate of ToneEnvelope's output (samples a second).
+	EnvelopeRateHz = 100.0
+	// envelopeBoxS is the boxcar ToneEnvelope integrates the mixed-down
+	// tone over (s): a pre-detection bandwidth of ~33 Hz, matched to a dot
+	// at 40 WPM and not too wide for slower ones.
+	envelopeBoxS = 0.03
+)
+
+// ToneEnvelope returns the key-down power envelope of a keyed tone for the
+// template matcher (idmatch), whether or not its Morse can be
+// read: linear power (arbitrary scale) at EnvelopeRateHz samples a
+// second, time 0 at the first audio sample. The pitch is opts.ToneHz when
+// set, else the strongest spectral peak between MinToneHz and MaxToneHz
+// even when FindTone finds it too weak to trust (the template decides
+// whether there is keying); it is tracked as in DecodeTone unless
+// opts.FixedTone. The tone is mixed to 0 Hz and integrated over 30 ms.
+// Errors: a sample rate below 2·MinToneHz, or audio too short (< 0.1 s)
+// to find a pitch in.
+func ToneEnvelope(audio []float32, rate float64, opts DecodeOptions) (env []float32, envRateHz, toneHz float64, err error) {
+	opts = opts.withDefaults()
+	if !(rate >= 2*MinToneHz) || math.IsInf(rate, 0) {
+		return nil, 0, 0, fmt.Errorf("tone envelope: sample rate %g Hz too low", rate)
+	}
+	clean := sanitize(audio)
+	toneHz = opts.ToneHz
+	if !(toneHz > 0) {
+		f, _, ferr := FindTone(clean, rate)
+		if ferr != nil && !(errors.Is(ferr, ErrNoTone) && f > 0) {
+			return nil, 0, 0, fmt.Errorf("tone envelope: %w", ferr)
+		}
+		toneHz = f
+	}
+	centres, freqs := []float64{0}, []float64{toneHz}
+	if !opts.FixedTone {
+		centres, freqs = toneTrack(clean, rate, toneHz, opts.TrackHz, 0.4)
+	}
+	return toneEnvelope(clean, rate, centres, freqs, envelopeBoxS, EnvelopeRateHz), EnvelopeRateHz, toneHz, nil
+}
+
+// DetectMode decides how a burst's Morse is carried. A power track
+// (linear power at powerRate readings a second) keyed with Morse timing
+// (see morseKeyed) gives ModeCW, even when the audio also carries a keyed
+// tone: a carrier keyed by the marks of an MCW identifier is read best
+// from the power track, whose key-up holds only the channel noise, not
+// the FM discriminator's. Otherwise a clear tone in the FM discriminator
+// audio gives ModeFM and a clear tone in the AM envelope audio ModeAM (the
+// clearer wins when both have one). Nil or empty inputs are skipped. When
+// nothing fits it returns ModeAuto, meaning "undecided".
 func DetectMode(fmAudio, amAudio []float32, rate float64, power []float32, powerRate float64) Mode {
+	if morseKeyed(power, powerRate) {
+		return ModeCW
+	}
 	best, bestSNR := ModeAuto, math.Inf(-1)
 	if len(fmAudio) > 0 {
 		if _, snr, err := FindTone(fmAudio, rate); err == nil && snr > bestSNR {
@@ -260,41 +310,64 @@ func DetectMode(fmAudio, amAudio []float32, rate float64, power []float32, power
 			best, bestSNR = ModeAM, snr
 		}
 	}
-	if best != ModeAuto {
-		return best
-	}
-	if len(power) > 0 && powerRate > 0 && mcPowerKeyed(power) {
-		return ModeCW
-	}
-	return ModeAuto
+	return best
 }
 
-// mcPowerKeyed reports whether a linear power track switches between two
-// levels ≥ 6 dB apart at least 4 times.
-func mcPowerKeyed(power []float32) bool {
-	lo, hi := mcPercentile32(power, 0.1), mcPercentile32(power, 0.9)
-	if !(lo > 0) || !(hi > 4*lo) {
-		if !(hi > 0 && lo == 0) {
-			return false
+// morseKeyed reports whether a linear power track switches between two
+// levels at least 6 dB apart with Morse timing: after the same two-level
+// slicing and deglitching as DecodeEnvelope, at least 8 key-down marks
+// not far longer than a dash (long steady tones are left aside), of which
+// four in five are within ±40 % of one or three units of a single speed
+// in 5–40 WPM. A carrier that fades or is turned through an antenna's
+// nulls changes level over seconds, not in dots and dashes, and does not
+// pass.
+func morseKeyed(power []float32, rate float64) bool {
+	if !(rate >= 50) || math.IsInf(rate, 0) || float64(len(power)) < rate {
+		return false
+	}
+	env := sanitize(power)
+	for i, v := range env {
+		env[i] = max(v, 0)
+	}
+	lv := levelsOf(env, rate)
+	var deep, all int
+	for i := range lv.hi {
+		all++
+		if lv.hi[i] >= 2*lv.lo[i] && lv.hi[i] > 0 { // amplitude ×2 = power ×4, 6 dB
+			deep++
 		}
 	}
-	thr := float32(math.Sqrt(float64(lo) * float64(hi))) // geometric mean
-	if lo == 0 {
-		thr = hi / 4
+	if deep < all*9/10 {
+		return false
 	}
-	n := 0
-	on := power[0] > thr
-	for _, p := range power {
-		if (p > thr) != on {
-			on = !on
-			n++
+	rs := deglitch(lv.slice(), int(math.Max(1, 0.3*DotSeconds(40)*rate)))
+	var marks, spaces []float64
+	for _, r := range rs {
+		if r.on {
+			marks = append(marks, float64(r.len())/rate)
+		} else {
+			spaces = append(spaces, float64(r.len())/rate)
 		}
 	}
-	return n >= 4
+	if len(marks) < 8 {
+		return false
+	}
+	u, _ := estimateUnit(marks, spaces, 5, 40)
+	n, fit := 0, 0
+	for _, d := range marks {
+		if d > 6*u { // a long tone, not an element
+			continue
+		}
+		n++
+		if math.Min(math.Abs(math.Log(d/u)), math.Abs(math.Log(d/(3*u)))) < math.Log(1.4) {
+			fit++
+		}
+	}
+	return n >= 8 && 5*fit >= 4*n
 }
 
-// mcPercentile32 returns the q-quantile (0–1) of x (nearest rank).
-func mcPercentile32(x []float32, q float64) float32 {
+// percentile32 returns the q-quantile (0–1) of x (nearest rank).
+func percentile32(x []float32, q float64) float32 {
 	if len(x) == 0 {
 		return 0
 	}

@@ -1,4 +1,4 @@
-package ident
+package morse
 
 import (
 	"errors"
@@ -19,6 +19,23 @@ type Char struct {
 	// StartS and EndS bound the character's key-down time, seconds from the
 	// start of the input.
 	StartS, EndS float64
+	// SNRDB is the local keying SNR at the character: the power of its
+	// key-down samples over the key-up level there, minus one, in dB
+	// (capped at 60; fading moves it from character to character).
+	SNRDB float64
+	// Level is the mean soft keying value of the character's key-down
+	// samples (0 at the key-up level, 1 at the key-down level of the 3 s
+	// around it) and Dip the lowest tenth of them: a character read in a
+	// fade or through a dropout shows Level and Dip well below 1.
+	Level, Dip float64
+	// Unsure is the share of the character's samples, from its first
+	// key-down to its last, whose soft keying value lies between 0.25 and
+	// 0.75: neither clearly key-down nor clearly key-up (fading, noise
+	// bursts below the FM threshold).
+	Unsure float64
+	// WordBefore says a word break (a word gap, a long tone or a pause)
+	// comes between this character and the one before it.
+	WordBefore bool
 }
 
 // Decoded is the result of decoding one burst.
@@ -32,11 +49,18 @@ type Decoded struct {
 	// overall speed implied by the character gaps (equal to WPM for
 	// standard spacing).
 	WPM, FarnsworthWPM float64
-	// DotS is the estimated dot length in seconds.
+	// DotS is the estimated dot length in seconds. WPM, FarnsworthWPM and
+	// DotS are those of the stretch with the most key-down marks.
 	DotS float64
-	Mode Mode
+	// Stretches are the parts of the keying between long steady tones and
+	// long pauses, each with its own speed (one stretch when there are
+	// none).
+	Stretches []Stretch
+	Mode      Mode
 	// Keying is the on/off keying found, key-down and key-up intervals
-	// alternating from the first key-down to the last.
+	// alternating from the first key-down to the last. A key-down far
+	// longer than a dash (a long steady tone) has Units 0 and is read as a
+	// word break.
 	Keying []Mark
 	// Envelope is the key-down power envelope (linear, arbitrary scale) at
 	// EnvRate samples a second, time 0 at the input's first sample.
@@ -45,6 +69,27 @@ type Decoded struct {
 	// SNRDB is key-down over key-up power in the envelope, minus one.
 	SNRDB    float64
 	Warnings []string
+}
+
+// Stretch is a part of a transmission's keying with one speed.
+type Stretch struct {
+	// StartS and EndS bound its key-down marks (s, the input's time base).
+	StartS, EndS float64
+	// WPM is its character speed; Marks how many elements it holds.
+	WPM   float64
+	Marks int
+}
+
+// LongTones returns the key-down intervals far longer than a dash (Keying
+// entries with Units 0).
+func (d Decoded) LongTones() []Mark {
+	var out []Mark
+	for _, k := range d.Keying {
+		if k.On && k.Units == 0 {
+			out = append(out, k)
+		}
+	}
+	return out
 }
 
 // DecodeOptions tunes the decoder; the zero value is fine.
@@ -100,7 +145,7 @@ func DecodeTone(audio []float32, rate float64, opts DecodeOptions) (Decoded, err
 	if !(rate >= 2*MinToneHz) || math.IsInf(rate, 0) {
 		return Decoded{}, fmt.Errorf("decode tone: sample rate %g Hz too low", rate)
 	}
-	clean := mcSanitize(audio)
+	clean := sanitize(audio)
 	toneHz := opts.ToneHz
 	var warns []string
 	if !(toneHz > 0) {
@@ -129,10 +174,14 @@ func DecodeTone(audio []float32, rate float64, opts DecodeOptions) (Decoded, err
 	}
 	box := math.Min(0.08, math.Max(0.008, 0.6*d.DotS))
 	env2 := toneEnvelope(clean, rate, centres, freqs, box, opts.EnvRateHz)
-	// Keep the second pass near the speed the first pass found.
+	// Keep the second pass near the speeds the first pass found.
+	lo, hi = d.WPM, d.WPM
+	for _, st := range d.Stretches {
+		lo, hi = math.Min(lo, st.WPM), math.Max(hi, st.WPM)
+	}
 	o2 := opts
-	o2.MinWPM = math.Max(opts.MinWPM, 0.7*d.WPM)
-	o2.MaxWPM = math.Min(opts.MaxWPM, 1.4*d.WPM)
+	o2.MinWPM = math.Max(opts.MinWPM, 0.7*lo)
+	o2.MaxWPM = math.Min(opts.MaxWPM, 1.4*hi)
 	if o2.MaxWPM <= o2.MinWPM {
 		o2.MinWPM, o2.MaxWPM = opts.MinWPM, opts.MaxWPM
 	}
@@ -153,7 +202,7 @@ func DecodeKeyed(power []float32, rate float64, opts DecodeOptions) (Decoded, er
 	if !(rate >= 50) || math.IsInf(rate, 0) {
 		return Decoded{}, fmt.Errorf("decode keyed carrier: power rate %g/s too low (need ≥ 100/s)", rate)
 	}
-	p := mcSanitize(power)
+	p := sanitize(power)
 	envRate := rate
 	if rate > 1000 {
 		k := int(rate / 400)
@@ -176,8 +225,8 @@ func DecodeKeyed(power []float32, rate float64, opts DecodeOptions) (Decoded, er
 	return d, nil
 }
 
-// mcSanitize copies x, replacing NaN, ±Inf and absurd values by 0.
-func mcSanitize(x []float32) []float32 {
+// sanitize copies x, replacing NaN, ±Inf and absurd values by 0.
+func sanitize(x []float32) []float32 {
 	out := make([]float32, len(x))
 	for i, v := range x {
 		if !math.IsNaN(float64(v)) && !math.IsInf(float64(v), 0) && math.Abs(float64(v)) < 1e30 {
@@ -187,14 +236,14 @@ func mcSanitize(x []float32) []float32 {
 	return out
 }
 
-// mcKeyLevels holds per-sample key-up and key-down amplitude levels
+// keyLevels holds per-sample key-up and key-down amplitude levels
 // (square roots of envelope power).
-type mcKeyLevels struct {
+type keyLevels struct {
 	amp, lo, hi []float64
 }
 
-// mcIsodata splits amplitudes into two levels (Ridler–Calvard iteration).
-func mcIsodata(a []float64) (lo, hi float64) {
+// isodata splits amplitudes into two levels (Ridler–Calvard iteration).
+func isodata(a []float64) (lo, hi float64) {
 	if len(a) == 0 {
 		return 0, 0
 	}
@@ -222,19 +271,19 @@ func mcIsodata(a []float64) (lo, hi float64) {
 	return lo, hi
 }
 
-// mcLevelsOf computes the keying levels of a power envelope: global
+// levelsOf computes the keying levels of a power envelope: global
 // two-level split, refined in 3 s windows (50 % overlap) where the window
 // itself shows a clear split, interpolated between window centres. This
 // follows slow fading and noise-floor changes.
-func mcLevelsOf(env []float32, envRate float64) mcKeyLevels {
+func levelsOf(env []float32, envRate float64) keyLevels {
 	n := len(env)
-	k := mcKeyLevels{amp: make([]float64, n), lo: make([]float64, n), hi: make([]float64, n)}
+	k := keyLevels{amp: make([]float64, n), lo: make([]float64, n), hi: make([]float64, n)}
 	for i, v := range env {
 		if v > 0 {
 			k.amp[i] = math.Sqrt(float64(v))
 		}
 	}
-	glo, ghi := mcIsodata(k.amp)
+	glo, ghi := isodata(k.amp)
 	w := int(3 * envRate)
 	if n < 2*w || w < 8 {
 		for i := range k.lo {
@@ -244,7 +293,7 @@ func mcLevelsOf(env []float32, envRate float64) mcKeyLevels {
 	}
 	var cs, los, his []float64
 	for off := 0; off+w <= n; off += w / 2 {
-		lo, hi := mcIsodata(k.amp[off : off+w])
+		lo, hi := isodata(k.amp[off : off+w])
 		if hi-lo < 0.5*(ghi-glo) {
 			lo, hi = glo, ghi
 		}
@@ -270,7 +319,7 @@ func mcLevelsOf(env []float32, envRate float64) mcKeyLevels {
 
 // soft returns the keying soft value of sample i: 0 at the key-up level,
 // 1 at the key-down level.
-func (k mcKeyLevels) soft(i int) float64 {
+func (k keyLevels) soft(i int) float64 {
 	d := k.hi[i] - k.lo[i]
 	if d <= 0 {
 		return 0
@@ -278,30 +327,90 @@ func (k mcKeyLevels) soft(i int) float64 {
 	return (k.amp[i] - k.lo[i]) / d
 }
 
-// mcRun is one interval of constant keying in envelope samples.
-type mcRun struct {
+// charSNR is the keying SNR (dB, capped at 60) of the key-down samples in
+// runs against the key-up level there: mean key-down power over key-up
+// power, minus one.
+func (k keyLevels) charSNR(runs [][2]int) float64 {
+	var on, off float64
+	n := 0
+	for _, r := range runs {
+		for i := r[0]; i < r[1] && i < len(k.amp); i++ {
+			on += k.amp[i] * k.amp[i]
+			off += k.lo[i] * k.lo[i]
+			n++
+		}
+	}
+	if n == 0 || !(on > off) {
+		return 0
+	}
+	if !(off > 0) {
+		return 60
+	}
+	return math.Min(60, 10*math.Log10(on/off-1))
+}
+
+// charLevel is the mean soft value of the key-down samples in runs and
+// their 10th percentile.
+func (k keyLevels) charLevel(runs [][2]int) (mean, dip float64) {
+	var v []float64
+	for _, r := range runs {
+		for i := r[0]; i < r[1] && i < len(k.amp); i++ {
+			v = append(v, k.soft(i))
+		}
+	}
+	if len(v) == 0 {
+		return 0, 0
+	}
+	for _, x := range v {
+		mean += x
+	}
+	sort.Float64s(v)
+	return mean / float64(len(v)), v[len(v)/10]
+}
+
+// unsure is the share of samples from the first run's start to the last
+// run's end whose soft value lies in [0.25, 0.75].
+func (k keyLevels) unsure(runs [][2]int) float64 {
+	if len(runs) == 0 {
+		return 0
+	}
+	a, b := runs[0][0], min(runs[len(runs)-1][1], len(k.amp))
+	n := 0
+	for i := a; i < b; i++ {
+		if s := k.soft(i); s >= 0.25 && s <= 0.75 {
+			n++
+		}
+	}
+	if b <= a {
+		return 0
+	}
+	return float64(n) / float64(b-a)
+}
+
+// keyRun is one interval of constant keying in envelope samples.
+type keyRun struct {
 	on   bool
 	a, b int // [a, b)
 }
 
-func (r mcRun) len() int { return r.b - r.a }
+func (r keyRun) len() int { return r.b - r.a }
 
 // slice thresholds the soft keying at 0.5 with ±0.1 hysteresis.
-func (k mcKeyLevels) slice() []mcRun {
-	var rs []mcRun
+func (k keyLevels) slice() []keyRun {
+	var rs []keyRun
 	on := false
 	start := 0
 	for i := range k.amp {
 		s := k.soft(i)
 		if (!on && s > 0.6) || (on && s < 0.4) {
 			if i > start {
-				rs = append(rs, mcRun{on, start, i})
+				rs = append(rs, keyRun{on, start, i})
 			}
 			on, start = !on, i
 		}
 	}
 	if len(k.amp) > start {
-		rs = append(rs, mcRun{on, start, len(k.amp)})
+		rs = append(rs, keyRun{on, start, len(k.amp)})
 	}
 	// Trim key-up at the edges.
 	for len(rs) > 0 && !rs[0].on {
@@ -313,10 +422,10 @@ func (k mcKeyLevels) slice() []mcRun {
 	return rs
 }
 
-// mcDeglitch merges runs shorter than minLen samples into their neighbours,
+// deglitch merges runs shorter than minLen samples into their neighbours,
 // shortest first.
-func mcDeglitch(rs []mcRun, minLen int) []mcRun {
-	rs = append([]mcRun(nil), rs...)
+func deglitch(rs []keyRun, minLen int) []keyRun {
+	rs = append([]keyRun(nil), rs...)
 	for {
 		best := -1
 		for i, r := range rs {
@@ -341,38 +450,53 @@ func mcDeglitch(rs []mcRun, minLen int) []mcRun {
 				rs = rs[:len(rs)-1]
 			}
 		default:
-			m := mcRun{rs[best-1].on, rs[best-1].a, rs[best+1].b}
-			rs = append(rs[:best-1], append([]mcRun{m}, rs[best+2:]...)...)
+			m := keyRun{rs[best-1].on, rs[best-1].a, rs[best+1].b}
+			rs = append(rs[:best-1], append([]keyRun{m}, rs[best+2:]...)...)
 		}
 	}
 }
 
-// mcUnitCost scores a dot length u (seconds) against mark and key-up
+// Element timing. A key-down longer than longMarkUnits dots is a long
+// steady tone (a direction-finding beacon's carrier between copies of its
+// identifier), not a dash; a key-up longer than pauseUnits dots ends a
+// stretch, whose speed is estimated on its own when it holds at least
+// minStretchElements marks and short gaps. outlierCost caps one duration's cost in the
+// speed search at (ln 2)²: a duration more than twice off both classes
+// (a long tone, a pause, a glitch) counts the same however far off it
+// is, so it cannot drag the estimate.
+const (
+	longMarkUnits      = 6.0
+	pauseUnits         = 30.0
+	minStretchElements = 10
+	outlierCost        = 0.4805 // (ln 2)²
+)
+
+// unitCost scores a dot length u (seconds) against mark and key-up
 // durations: squared log distance of each mark to 1 or 3 units and of each
-// short key-up to 1 or 3 units (longer key-ups are free, so Farnsworth
-// spacing does not bias the estimate).
-func mcUnitCost(u float64, marks, spaces []float64) float64 {
+// short key-up to 1 or 3 units, capped at outlierCost (longer key-ups are
+// free, so Farnsworth spacing does not bias the estimate).
+func unitCost(u float64, marks, spaces []float64) float64 {
 	c := 0.0
 	for _, d := range marks {
 		a, b := math.Log(d/u), math.Log(d/(3*u))
-		c += math.Min(a*a, b*b)
+		c += min(a*a, b*b, outlierCost)
 	}
 	for _, d := range spaces {
 		if d < 3*u {
 			a, b := math.Log(d/u), math.Log(d/(3*u))
-			c += math.Min(a*a, b*b)
+			c += min(a*a, b*b, outlierCost)
 		}
 	}
 	return c
 }
 
-// mcEstimateUnit finds the dot length (s) and the keying bias δ (s; marks
+// estimateUnit finds the dot length (s) and the keying bias δ (s; marks
 // come out u+δ, gaps u−δ) from run durations, for speeds minWPM–maxWPM.
-func mcEstimateUnit(marks, spaces []float64, minWPM, maxWPM float64) (u, delta float64) {
+func estimateUnit(marks, spaces []float64, minWPM, maxWPM float64) (u, delta float64) {
 	uMin, uMax := DotSeconds(maxWPM), DotSeconds(minWPM)
 	const steps = 160
 	best, bestC := uMin, math.Inf(1)
-	cost := func(u float64) float64 { return mcUnitCost(u, marks, spaces) }
+	cost := func(u float64) float64 { return unitCost(u, marks, spaces) }
 	for i := 0; i <= steps; i++ {
 		v := uMin * math.Pow(uMax/uMin, float64(i)/steps)
 		if c := cost(v); c < bestC {
@@ -394,6 +518,9 @@ func mcEstimateUnit(marks, spaces []float64, minWPM, maxWPM float64) (u, delta f
 		b2 += s * d
 	}
 	for _, d := range marks {
+		if d > longMarkUnits*best {
+			continue // a long tone
+		}
 		k := 1.0
 		if d > 2*best {
 			k = 3
@@ -421,18 +548,105 @@ func mcEstimateUnit(marks, spaces []float64, minWPM, maxWPM float64) (u, delta f
 	return u, delta
 }
 
-// mcGauss is an unnormalised Gaussian likelihood with a normalising 1/σ.
-func mcGauss(x, mu, sigma float64) float64 {
+// timing is the element timing of one stretch: dot u and keying bias
+// delta (s; marks come out u+δ, gaps u−δ), character and word gaps cg
+// and wg (dots), and how many key-ups longer than two dots set the gaps.
+type timing struct {
+	u, delta, cg, wg float64
+	nGaps            int
+}
+
+// stretchTiming completes a unit estimate with the gaps of the stretch.
+func stretchTiming(marks, spaces []float64, u, delta float64) timing {
+	var long []float64
+	for _, s := range spaces {
+		if x := (s + delta) / u; x >= 2 && x < pauseUnits {
+			long = append(long, x)
+		}
+	}
+	cg, wg := splitGaps(long)
+	return timing{u: u, delta: delta, cg: cg, wg: wg, nGaps: len(long)}
+}
+
+// fallbackGaps takes the gaps from g when the stretch has too few of its
+// own to tell character gaps from word gaps, scaled to this stretch's dot.
+func (t *timing) fallbackGaps(g timing) {
+	if t.nGaps < 4 {
+		t.cg, t.wg = g.cg, g.wg
+	}
+}
+
+// countGaps counts the key-ups inside characters or between them (shorter
+// than five dots): the ones that tell the dot.
+func countGaps(spaces []float64, u float64) int {
+	n := 0
+	for _, d := range spaces {
+		if d < 5*u {
+			n++
+		}
+	}
+	return n
+}
+
+// countElements counts the marks that are elements, not long tones.
+func countElements(marks []float64, u float64) int {
+	n := 0
+	for _, d := range marks {
+		if d <= longMarkUnits*u {
+			n++
+		}
+	}
+	return n
+}
+
+// splitStretches cuts the runs (key-down first, key-down last) into
+// stretches at long tones (key-down longer than longMarkUnits dots, a
+// stretch of its own) and at pauses (key-up longer than pauseUnits dots),
+// u being the transmission's overall dot. It returns run ranges [a, b),
+// each starting and ending with key-down.
+func splitStretches(rs []keyRun, rate, u float64) [][2]int {
+	var out [][2]int
+	a := 0
+	cut := func(b int) { // close [a, b) if it holds a key-down
+		for a < b && !rs[a].on {
+			a++
+		}
+		e := b
+		for e > a && !rs[e-1].on {
+			e--
+		}
+		if e > a {
+			out = append(out, [2]int{a, e})
+		}
+		a = b
+	}
+	for i, r := range rs {
+		dur := float64(r.len()) / rate
+		switch {
+		case r.on && dur > longMarkUnits*u:
+			cut(i)
+			a = i
+			cut(i + 1)
+		case !r.on && dur > pauseUnits*u:
+			cut(i)
+		}
+	}
+	cut(len(rs))
+	return out
+}
+
+// gauss is an unnormalised Gaussian likelihood with a normalising 1/σ.
+func gauss(x, mu, sigma float64) float64 {
 	z := (x - mu) / sigma
 	return math.Exp(-0.5*z*z) / sigma
 }
 
-// mcClassify picks the most likely of the classes (means and sigmas, in
+// classify picks the most likely of the classes (means and sigmas, in
 // units) and returns its index and posterior probability.
-func mcClassify(x float64, means, sigmas []float64) (int, float64) {
+func classify(x float64, means, sigmas []float64) (int, float64) {
 	best, tot, bl := 0, 0.0, 0.0
 	for i := range means {
-		l := mcGauss(x, means[i], sigmas[i])
+		l := gauss(x, means[i], sigmas[i])
 		tot += l
 		if l > bl {
 			best, bl = i, l
@@ -450,11 +664,11 @@ func mcClassify(x float64, means, sigmas []float64) (int, float64) {
 	return best, bl / tot
 }
 
-// mcSplitGaps finds the character-gap length (in units) among key-ups ≥ 2
+// splitGaps finds the character-gap length (in units) among key-ups ≥ 2
 // units, allowing Farnsworth spacing: a two-class split of their logs
 // (Otsu) whose class means differ by ≥ 1.6× is read as character and word
 // gaps; otherwise all are character gaps.
-func mcSplitGaps(long []float64) (charGap, wordGap float64) {
+func splitGaps(long []float64) (charGap, wordGap float64) {
 	if len(long) == 0 {
 		return 3, 7
 	}
@@ -507,7 +721,7 @@ func DecodeEnvelope(env []float32, envRate float64, opts DecodeOptions) (Decoded
 	if !(envRate >= 50) || math.IsInf(envRate, 0) {
 		return Decoded{}, fmt.Errorf("envelope rate %g/s too low (need ≥ 50/s)", envRate)
 	}
-	env = mcSanitize(env)
+	env = sanitize(env)
 	for i, v := range env {
 		if v < 0 {
 			env[i] = 0
@@ -518,7 +732,7 @@ func DecodeEnvelope(env []float32, envRate float64, opts DecodeOptions) (Decoded
 	if float64(len(env))/envRate < 2*minMark {
 		return d, fmt.Errorf("%.3f s of envelope is too short: %w", float64(len(env))/envRate, ErrNoMorse)
 	}
-	lv := mcLevelsOf(env, envRate)
+	lv := levelsOf(env, envRate)
 	// SNR from the two levels: key-down power over key-up power, minus one.
 	var hiP, loP float64
 	for i := range lv.amp {
@@ -532,8 +746,8 @@ func DecodeEnvelope(env []float32, envRate float64, opts DecodeOptions) (Decoded
 	if d.SNRDB < 3 {
 		d.Warnings = append(d.Warnings, fmt.Sprintf("weak keying: %.1f dB", d.SNRDB))
 	}
-	rs := mcDeglitch(lv.slice(), int(math.Max(1, 0.3*minMark*envRate)))
-	durs := func(rs []mcRun) (m, s []float64) {
+	rs := deglitch(lv.slice(), int(math.Max(1, 0.3*minMark*envRate)))
+	durs := func(rs []keyRun) (m, s []float64) {
 		for _, r := range rs {
 			if r.on {
 				m = append(m, float64(r.len())/envRate)
@@ -547,36 +761,67 @@ func DecodeEnvelope(env []float32, envRate float64, opts DecodeOptions) (Decoded
 	if len(marks) == 0 {
 		return d, fmt.Errorf("no key-down found: %w", ErrNoMorse)
 	}
-	u, delta := mcEstimateUnit(marks, spaces, opts.MinWPM, opts.MaxWPM)
+	u, delta := estimateUnit(marks, spaces, opts.MinWPM, opts.MaxWPM)
 	// Second round: glitches are now measured against the dot.
-	rs = mcDeglitch(lv.slice(), int(math.Max(1, 0.35*u*envRate)))
+	rs = deglitch(lv.slice(), int(math.Max(1, 0.35*u*envRate)))
 	marks, spaces = durs(rs)
 	if len(marks) == 0 {
 		return d, fmt.Errorf("only glitches, no key-down: %w", ErrNoMorse)
 	}
-	u, delta = mcEstimateUnit(marks, spaces, opts.MinWPM, opts.MaxWPM)
-	d.DotS, d.WPM = u, 1.2/u
+	u, delta = estimateUnit(marks, spaces, opts.MinWPM, opts.MaxWPM)
+	global := stretchTiming(marks, spaces, u, delta)
+	snrConf := 1 / (1 + math.Exp(-(d.SNRDB-6)/2))
 
-	var long []float64
-	for _, s := range spaces {
-		if (s+delta)/u >= 2 {
-			long = append(long, (s+delta)/u)
+	// Stretches: each with its own timing when it holds enough elements.
+	type stretchRuns struct {
+		a, b int // runs [a, b)
+		tm   timing
+	}
+	var sts []stretchRuns
+	for _, ab := range splitStretches(rs, envRate, u) {
+		m, sp := durs(rs[ab[0]:ab[1]])
+		tm := global
+		if n := countElements(m, u) + countGaps(sp, u); n >= minStretchElements {
+			su, sd := estimateUnit(m, sp, opts.MinWPM, opts.MaxWPM)
+			tm = stretchTiming(m, sp, su, sd)
+			tm.fallbackGaps(global)
+		}
+		sts = append(sts, stretchRuns{ab[0], ab[1], tm})
+	}
+	best := 0
+	for i, st := range sts {
+		first, last := rs[st.a], rs[st.b-1]
+		m, _ := durs(rs[st.a:st.b])
+		n := countElements(m, st.tm.u)
+		d.Stretches = append(d.Stretches, Stretch{StartS: float64(first.a) / envRate, EndS: float64(last.b) / envRate,
+			WPM: 1.2 / st.tm.u, Marks: n})
+		if n > d.Stretches[best].Marks {
+			best = i
 		}
 	}
-	cg, wg := mcSplitGaps(long)
+	bt := sts[best].tm
+	d.DotS, d.WPM = bt.u, 1.2/bt.u
 	d.FarnsworthWPM = d.WPM
-	if cg > 3.6 {
+	if bt.cg > 3.6 {
 		// Bloom: tc = 3ta/19 → ta; s = 60c/(ta·c + 37.2).
-		ta := 19 * cg * u / 3
+		ta := 19 * bt.cg * bt.u / 3
 		d.FarnsworthWPM = 60 * d.WPM / (ta*d.WPM + 37.2)
 	}
-	snrConf := 1 / (1 + math.Exp(-(d.SNRDB-6)/2))
+	lo, hi := d.WPM, d.WPM
+	for _, st := range d.Stretches {
+		lo, hi = math.Min(lo, st.WPM), math.Max(hi, st.WPM)
+	}
+	if hi > 1.15*lo {
+		d.Warnings = append(d.Warnings, fmt.Sprintf("speed changes inside the transmission: %.1f–%.1f WPM", lo, hi))
+	}
 
 	// Classify and assemble characters.
 	var b strings.Builder
 	var pattern []byte
 	conf := 1.0
 	var cStart, cEnd float64
+	var onSamples [][2]int // key-down runs of the character being read
+	wordBreak := false     // a word break since the last character
 	flush := func() {
 		if len(pattern) == 0 {
 			return
@@ -584,52 +829,73 @@ func DecodeEnvelope(env []float32, envRate float64, opts DecodeOptions) (Decoded
 		t, ok := reverseTable[string(pattern)]
 		c := conf * snrConf
 		if !ok {
-			t, c = mcUnknownChar, 0
+			t, c = UnknownChar, 0
 		}
 		b.WriteString(t)
-		d.Chars = append(d.Chars, Char{Text: t, Confidence: c, StartS: cStart, EndS: cEnd})
+		lvl, dip := lv.charLevel(onSamples)
+		d.Chars = append(d.Chars, Char{Text: t, Confidence: c, StartS: cStart, EndS: cEnd, SNRDB: lv.charSNR(onSamples),
+			Level: lvl, Dip: dip, Unsure: lv.unsure(onSamples), WordBefore: wordBreak && len(d.Chars) > 0})
+		wordBreak = false
 		pattern, conf = pattern[:0], 1
+		onSamples = onSamples[:0]
 	}
-	sepMeans := []float64{1, cg, wg}
-	sepSig := []float64{0.35, 0.2*cg + 0.3, 0.2*wg + 0.3}
-	for _, r := range rs {
-		t0, dur := float64(r.a)/envRate, float64(r.len())/envRate
-		if r.on {
-			x := (dur - delta) / u
-			k, p := mcClassify(x, []float64{1, 3}, []float64{0.3, 0.6})
-			if len(pattern) == 0 {
-				cStart = t0
+	for _, st := range sts {
+		tm := st.tm
+		sepMeans := []float64{1, tm.cg, tm.wg}
+		sepSig := []float64{0.35, 0.2*tm.cg + 0.3, 0.2*tm.wg + 0.3}
+		for _, r := range rs[st.a:st.b] {
+			t0, dur := float64(r.a)/envRate, float64(r.len())/envRate
+			if r.on {
+				x := (dur - tm.delta) / tm.u
+				if x > longMarkUnits {
+					// A long steady tone: a word break, no character.
+					flush()
+					b.WriteByte(' ')
+					wordBreak = true
+					d.Keying = append(d.Keying, Mark{On: true, StartS: t0, DurS: dur, Units: 0})
+					continue
+				}
+				k, p := classify(x, []float64{1, 3}, []float64{0.3, 0.6})
+				if len(pattern) == 0 {
+					cStart = t0
+				}
+				cEnd = t0 + dur
+				if k == 0 {
+					pattern = append(pattern, '.')
+				} else {
+					pattern = append(pattern, '-')
+				}
+				conf *= p
+				onSamples = append(onSamples, [2]int{r.a, r.b})
+				d.Keying = append(d.Keying, Mark{On: true, StartS: t0, DurS: dur, Units: 1 + 2*k})
+				continue
 			}
-			cEnd = t0 + dur
+			x := (dur + tm.delta) / tm.u
+			k, p := classify(x, sepMeans, sepSig)
+			d.Keying = append(d.Keying, Mark{On: false, StartS: t0, DurS: dur, Units: []int{1, 3, 7}[k]})
 			if k == 0 {
-				pattern = append(pattern, '.')
-			} else {
-				pattern = append(pattern, '-')
+				conf *= p
+				if len(pattern) >= maxCodeLen+2 { // runaway pattern: cut it
+					flush()
+				}
+				continue
 			}
-			conf *= p
-			d.Keying = append(d.Keying, Mark{On: true, StartS: t0, DurS: dur, Units: 1 + 2*k})
-			continue
-		}
-		x := (dur + delta) / u
-		k, p := mcClassify(x, sepMeans, sepSig)
-		d.Keying = append(d.Keying, Mark{On: false, StartS: t0, DurS: dur, Units: []int{1, 3, 7}[k]})
-		if k == 0 {
-			conf *= p
-			if len(pattern) >= maxCodeLen+2 { // runaway pattern: cut it
-				flush()
+			if len(pattern) > 0 {
+				conf *= p // the closing gap's own certainty
 			}
-			continue
-		}
-		if len(pattern) > 0 {
-			conf *= p // the closing gap's own certainty
+			flush()
+			if k == 2 {
+				b.WriteByte(' ')
+				wordBreak = true
+			}
 		}
 		flush()
-		if k == 2 {
-			b.WriteByte(' ')
-		}
+		b.WriteByte(' ')
+		wordBreak = true
 	}
 	flush()
-	d.Text = strings.TrimSpace(b.String())
+	d.Text = strings.Join(strings.Fields(b.String()), " ")
+
 	if d.WPM < opts.MinWPM*1.05 || d.WPM > opts.MaxWPM*0.95 {
 		d.Warnings = append(d.Warnings, fmt.Sprintf("speed %.1f WPM at the edge of the search range %g–%g", d.WPM, opts.MinWPM, opts.MaxWPM))
 	}

@@ -1,9 +1,10 @@
-package ident
+package schedule
 
 import (
 	"encoding/json"
 	"math"
 	"math/rand/v2"
+	"nullseek/ident/fingerprint"
 	"nullseek/internal/testtool"
 	"os"
 	"os/exec"
@@ -55,20 +56,20 @@ func slotRelClose(got, want, rel float64) bool {
 }
 
 // TestSchedulePeriodFitAgainstScipy: the period, its standard error, the
-// intercept and its standard error from BuildSchedule (cycle numbers assigned
+// intercept and its standard error from Build (cycle numbers assigned
 // by the schedule itself, including missed cycles) match
 // scipy.stats.linregress 1.10.1 and numpy.polyfit(cov=True) 1.24.2 on the
 // same synthetic start times (testdata/slots/ls_reference.json).
 func TestSchedulePeriodFitAgainstScipy(t *testing.T) {
-	ref := slotLoadLSRef(t, filepath.Join("..", "testdata", "slots", "ls_reference.json"))
+	ref := slotLoadLSRef(t, filepath.Join("..", "..", "testdata", "slots", "ls_reference.json"))
 	for _, c := range ref.Cases {
 		t.Run(c.Name, func(t *testing.T) {
 			onS := c.Slope / 5
-			var obs []Observation
+			var obs []fingerprint.Observation
 			for i, s := range c.StartS {
-				obs = append(obs, Observation{Index: i, StartS: s, EndS: s + onS, Ident: "X", IdentConfidence: 1})
+				obs = append(obs, fingerprint.Observation{Index: i, StartS: s, EndS: s + onS, Ident: "X", IdentConfidence: 1})
 			}
-			plan, err := BuildSchedule(obs, nil, ScheduleOptions{})
+			plan, err := Build(obs, nil, Options{})
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -109,7 +110,7 @@ func TestSchedulePeriodFitAgainstScipy(t *testing.T) {
 // (scipy 1.10.1) and checks the committed reference matches what it prints.
 func TestSlotLSReferenceReproducible(t *testing.T) {
 	py := testtool.Python(t, "numpy, scipy.stats")
-	script := filepath.Join("..", "testdata", "slots", "gen_ls_reference.py")
+	script := filepath.Join("..", "..", "testdata", "slots", "gen_ls_reference.py")
 	out, err := exec.Command(py, script).Output()
 	if err != nil {
 		t.Fatalf("running %s failed: %v", script, err)
@@ -118,7 +119,7 @@ func TestSlotLSReferenceReproducible(t *testing.T) {
 	if err := json.Unmarshal(out, &live); err != nil {
 		t.Fatalf("parse generator output: %v", err)
 	}
-	ref := slotLoadLSRef(t, filepath.Join("..", "testdata", "slots", "ls_reference.json"))
+	ref := slotLoadLSRef(t, filepath.Join("..", "..", "testdata", "slots", "ls_reference.json"))
 	if len(live.Cases) != len(ref.Cases) {
 		t.Fatalf("generator gives %d cases, committed %d", len(live.Cases), len(ref.Cases))
 	}
@@ -145,7 +146,7 @@ func TestSchedulePeriodFitAgainstGonum(t *testing.T) {
 		n := 4 + rng.IntN(40)
 		t0 := 1 + rng.Float64()*period
 		var k, ts []float64
-		var obs []Observation
+		var obs []fingerprint.Observation
 		for c := 0; c < n; c++ {
 			if c > 0 && c < n-1 && rng.Float64() < 0.2 {
 				continue // missed burst
@@ -153,12 +154,12 @@ func TestSchedulePeriodFitAgainstGonum(t *testing.T) {
 			s := t0 + float64(c)*period + rng.NormFloat64()*jitter
 			k = append(k, float64(c))
 			ts = append(ts, s)
-			obs = append(obs, Observation{Index: c, StartS: s, EndS: s + period*0.2, Ident: "X", IdentConfidence: 1})
+			obs = append(obs, fingerprint.Observation{Index: c, StartS: s, EndS: s + period*0.2, Ident: "X", IdentConfidence: 1})
 		}
 		if len(obs) < 3 {
 			continue
 		}
-		plan, err := BuildSchedule(obs, nil, ScheduleOptions{StartJitterS: max(jitter, 1e-6)})
+		plan, err := Build(obs, nil, Options{StartJitterS: max(jitter, 1e-6)})
 		if err != nil {
 			t.Fatalf("trial %d: %v", trial, err)
 		}

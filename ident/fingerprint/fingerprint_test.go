@@ -1,10 +1,13 @@
-package ident
+package fingerprint_test
 
 import (
 	"encoding/json"
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"nullseek/ident/fingerprint"
+	"nullseek/ident/idmatch"
+	"nullseek/ident/internal/obstest"
 	"nullseek/internal/testtool"
 	"os/exec"
 	"slices"
@@ -12,75 +15,20 @@ import (
 	"testing"
 )
 
-// fpSimTx is a synthetic beacon: carrier offset (crystal tolerance), offset
-// drift per cycle (temperature), tone pitch (0: keyed carrier) and ID.
-type fpSimTx struct {
-	id          string
-	offsetHz    float64
-	driftHzCyc  float64
-	toneHz      float64
-	unreadableK []int // cycles whose ID could not be read
-}
-
-// fpSimulate renders cycles×transmitters bursts (300 s cycle, 60 s slots)
-// with Gaussian offset and tone jitter; truth[i] is the transmitter index of
-// obs[i].
-func fpSimulate(txs []fpSimTx, cycles int, jitterHz, toneJitterHz float64, rng *rand.Rand) (obs []Observation, truth []int) {
-	for k := 0; k < cycles; k++ {
-		for n, tx := range txs {
-			o := Observation{
-				Index:           len(obs),
-				StartS:          float64(k)*300 + float64(n)*60 + 1,
-				OffsetHz:        tx.offsetHz + float64(k)*tx.driftHzCyc + rng.NormFloat64()*jitterHz,
-				Ident:           tx.id,
-				IdentConfidence: 0.7 + 0.3*rng.Float64(),
-			}
-			o.EndS = o.StartS + 59
-			if tx.toneHz > 0 {
-				o.ToneHz = tx.toneHz + rng.NormFloat64()*toneJitterHz
-			}
-			if slices.Contains(tx.unreadableK, k) {
-				o.Ident, o.IdentConfidence = UnknownIdent, 0
-			}
-			obs = append(obs, o)
-			truth = append(truth, n)
-		}
-	}
-	return obs, truth
-}
-
-// fpSamePartition reports whether two labelings group the items the same way.
-func fpSamePartition[A, B comparable](a []A, b []B) bool {
-	if len(a) != len(b) {
-		return false
-	}
-	ab, ba := map[A]B{}, map[B]A{}
-	for i := range a {
-		if v, ok := ab[a[i]]; ok && v != b[i] {
-			return false
-		}
-		if v, ok := ba[b[i]]; ok && v != a[i] {
-			return false
-		}
-		ab[a[i]], ba[b[i]] = b[i], a[i]
-	}
-	return true
-}
-
 // TestClusterTransmittersSynthetic: beacons whose offsets differ by tens to
 // hundreds of Hz (common practice: cheap crystals, tens of ppm at 144 MHz),
 // with a few Hz of measurement jitter and slow drift, are separated; two with
 // nearly the same offset are told apart by tone; unreadable IDs are
 // attributed from the cluster.
 func TestClusterTransmittersSynthetic(t *testing.T) {
-	txs := []fpSimTx{
-		{id: "N0CALL/1", offsetHz: -180, driftHzCyc: 0.4, toneHz: 800, unreadableK: []int{3}},
-		{id: "N0CALL/2", offsetHz: 40, driftHzCyc: -0.6, toneHz: 800},
-		{id: "N0CALL/3", offsetHz: 48, toneHz: 1020, unreadableK: []int{0, 5}},
+	txs := []obstest.SimTx{
+		{ID: "N0CALL/1", OffsetHz: -180, DriftHzCyc: 0.4, ToneHz: 800, UnreadableK: []int{3}},
+		{ID: "N0CALL/2", OffsetHz: 40, DriftHzCyc: -0.6, ToneHz: 800},
+		{ID: "N0CALL/3", OffsetHz: 48, ToneHz: 1020, UnreadableK: []int{0, 5}},
 		// Keyed carrier warming up: 4 Hz a cycle, 44 Hz over the recording —
 		// more than OffsetTolHz, followed by single linkage's chaining.
-		{id: "N0CALL/4", offsetHz: 260, driftHzCyc: 4.0, toneHz: 0},
-		{id: "N0CALL/5", offsetHz: 120, toneHz: 650},
+		{ID: "N0CALL/4", OffsetHz: 260, DriftHzCyc: 4.0, ToneHz: 0},
+		{ID: "N0CALL/5", OffsetHz: 120, ToneHz: 650},
 	}
 	seeds := 40
 	if testing.Short() {
@@ -88,12 +36,12 @@ func TestClusterTransmittersSynthetic(t *testing.T) {
 	}
 	for seed := 1; seed <= seeds; seed++ {
 		rng := rand.New(rand.NewPCG(uint64(seed), 3))
-		obs, truth := fpSimulate(txs, 12, 3, 2, rng)
-		res, err := ClusterTransmitters(obs, ClusterOptions{})
+		obs, truth := obstest.Simulate(txs, 12, 3, 2, rng)
+		res, err := fingerprint.Cluster(obs, fingerprint.Options{})
 		if err != nil {
 			t.Fatal(err)
 		}
-		if !fpSamePartition(res.Labels, truth) {
+		if !obstest.SamePartition(res.Labels, truth) {
 			t.Fatalf("seed %d: partition %v differs from truth %v", seed, res.Labels, truth)
 		}
 		if len(res.Clusters) != len(txs) {
@@ -101,22 +49,22 @@ func TestClusterTransmittersSynthetic(t *testing.T) {
 		}
 		for n, c := range res.Clusters {
 			// Labels in order of first appearance: truth index order here.
-			if c.Label != fmt.Sprintf("T%d", n+1) || c.Ident != txs[n].id {
-				t.Errorf("seed %d: cluster %d is %s/%s, want T%d/%s", seed, n, c.Label, c.Ident, n+1, txs[n].id)
+			if c.Label != fmt.Sprintf("T%d", n+1) || c.Ident != txs[n].ID {
+				t.Errorf("seed %d: cluster %d is %s/%s, want T%d/%s", seed, n, c.Label, c.Ident, n+1, txs[n].ID)
 			}
-			if math.Abs(c.OffsetHz-(txs[n].offsetHz+5.5*txs[n].driftHzCyc)) > 5+2*math.Abs(txs[n].driftHzCyc) {
+			if math.Abs(c.OffsetHz-(txs[n].OffsetHz+5.5*txs[n].DriftHzCyc)) > 5+2*math.Abs(txs[n].DriftHzCyc) {
 				t.Errorf("seed %d: %s offset %.1f Hz", seed, c.Label, c.OffsetHz)
 			}
 		}
 		for i, o := range obs {
-			want := txs[truth[i]].id
+			want := txs[truth[i]].ID
 			if res.Idents[i] != want {
 				t.Errorf("seed %d burst %d: attributed %q, want %q", seed, i, res.Idents[i], want)
 			}
-			if o.Ident == UnknownIdent && !strings.Contains(res.Notes[i], "attributed "+want) {
+			if o.Ident == idmatch.Unknown && !strings.Contains(res.Notes[i], "attributed "+want) {
 				t.Errorf("seed %d burst %d: note %q", seed, i, res.Notes[i])
 			}
-			if o.Ident != UnknownIdent && res.Notes[i] != "" {
+			if o.Ident != idmatch.Unknown && res.Notes[i] != "" {
 				t.Errorf("seed %d burst %d: unexpected note %q", seed, i, res.Notes[i])
 			}
 		}
@@ -130,32 +78,32 @@ func TestClusterTransmittersFlags(t *testing.T) {
 	rng := rand.New(rand.NewPCG(5, 5))
 	t.Run("shared_ident", func(t *testing.T) {
 		// Two transmitters with different crystals both programmed N0CALL/1.
-		obs, _ := fpSimulate([]fpSimTx{
-			{id: "N0CALL/1", offsetHz: -90, toneHz: 800},
-			{id: "N0CALL/2", offsetHz: 60, toneHz: 800},
-			{id: "N0CALL/1", offsetHz: 210, toneHz: 800},
+		obs, _ := obstest.Simulate([]obstest.SimTx{
+			{ID: "N0CALL/1", OffsetHz: -90, ToneHz: 800},
+			{ID: "N0CALL/2", OffsetHz: 60, ToneHz: 800},
+			{ID: "N0CALL/1", OffsetHz: 210, ToneHz: 800},
 		}, 5, 3, 2, rng)
-		res, err := ClusterTransmitters(obs, ClusterOptions{})
+		res, err := fingerprint.Cluster(obs, fingerprint.Options{})
 		if err != nil {
 			t.Fatal(err)
 		}
-		if len(res.Flags) != 1 || res.Flags[0].Kind != FlagSharedIdent ||
+		if len(res.Flags) != 1 || res.Flags[0].Kind != fingerprint.FlagSharedIdent ||
 			!slices.Equal(res.Flags[0].Labels, []string{"T1", "T3"}) || !slices.Equal(res.Flags[0].Idents, []string{"N0CALL/1"}) {
 			t.Fatalf("flags %+v", res.Flags)
 		}
 	})
 	t.Run("mixed_ident", func(t *testing.T) {
 		// One fingerprint sending N0CALL/2 for three cycles, then N0CALL/4.
-		obs, _ := fpSimulate([]fpSimTx{{id: "N0CALL/2", offsetHz: 10, toneHz: 900}}, 6, 3, 2, rng)
+		obs, _ := obstest.Simulate([]obstest.SimTx{{ID: "N0CALL/2", OffsetHz: 10, ToneHz: 900}}, 6, 3, 2, rng)
 		for i := 3; i < 6; i++ {
 			obs[i].Ident, obs[i].IdentConfidence = "N0CALL/4", 0.95
 		}
 		obs[0].IdentConfidence = 0.95
-		res, err := ClusterTransmitters(obs, ClusterOptions{})
+		res, err := fingerprint.Cluster(obs, fingerprint.Options{})
 		if err != nil {
 			t.Fatal(err)
 		}
-		if len(res.Clusters) != 1 || len(res.Flags) != 1 || res.Flags[0].Kind != FlagMixedIdent ||
+		if len(res.Clusters) != 1 || len(res.Flags) != 1 || res.Flags[0].Kind != fingerprint.FlagMixedIdent ||
 			!slices.Equal(res.Flags[0].Idents, []string{"N0CALL/2", "N0CALL/4"}) {
 			t.Fatalf("clusters %d, flags %+v", len(res.Clusters), res.Flags)
 		}
@@ -166,9 +114,9 @@ func TestClusterTransmittersFlags(t *testing.T) {
 		}
 	})
 	t.Run("low_confidence_minority_not_flagged", func(t *testing.T) {
-		obs, _ := fpSimulate([]fpSimTx{{id: "N0CALL/2", offsetHz: 10, toneHz: 900}}, 6, 3, 2, rng)
+		obs, _ := obstest.Simulate([]obstest.SimTx{{ID: "N0CALL/2", OffsetHz: 10, ToneHz: 900}}, 6, 3, 2, rng)
 		obs[2].Ident, obs[2].IdentConfidence = "N0CALL/3", 0.3 // misread
-		res, err := ClusterTransmitters(obs, ClusterOptions{})
+		res, err := fingerprint.Cluster(obs, fingerprint.Options{})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -184,12 +132,12 @@ func TestClusterTransmittersFlags(t *testing.T) {
 // practice: 1.4826·MAD of successive differences / √2).
 func TestClusterTransmittersSpreadEstimate(t *testing.T) {
 	rng := rand.New(rand.NewPCG(8, 8))
-	obs, truth := fpSimulate([]fpSimTx{
-		{id: "N0CALL/1", offsetHz: -300, toneHz: 800},
-		{id: "N0CALL/2", offsetHz: 0, toneHz: 800},
-		{id: "N0CALL/3", offsetHz: 300, toneHz: 800},
+	obs, truth := obstest.Simulate([]obstest.SimTx{
+		{ID: "N0CALL/1", OffsetHz: -300, ToneHz: 800},
+		{ID: "N0CALL/2", OffsetHz: 0, ToneHz: 800},
+		{ID: "N0CALL/3", OffsetHz: 300, ToneHz: 800},
 	}, 60, 12, 2, rng)
-	res, err := ClusterTransmitters(obs, ClusterOptions{})
+	res, err := fingerprint.Cluster(obs, fingerprint.Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -199,7 +147,7 @@ func TestClusterTransmittersSpreadEstimate(t *testing.T) {
 	if res.ToneTolHz != 15 {
 		t.Errorf("tone tolerance %.1f Hz widened although the jitter is 2 Hz", res.ToneTolHz)
 	}
-	if !fpSamePartition(res.Labels, truth) {
+	if !obstest.SamePartition(res.Labels, truth) {
 		t.Errorf("partition differs from truth")
 	}
 }
@@ -215,14 +163,14 @@ func TestClusterTransmittersAgainstScipy(t *testing.T) {
 		X [][2]float64 `json:"x"`
 	}
 	var cases []caseIn
-	var inputs [][]Observation
+	var inputs [][]fingerprint.Observation
 	for range 30 {
 		n := 5 + rng.IntN(60)
-		var obs []Observation
+		var obs []fingerprint.Observation
 		var c caseIn
 		tones := []float64{600, 640, 800, 1000}
 		for i := range n {
-			o := Observation{Index: i, StartS: float64(i), EndS: float64(i) + 1,
+			o := fingerprint.Observation{Index: i, StartS: float64(i), EndS: float64(i) + 1,
 				OffsetHz: rng.Float64()*600 - 300, ToneHz: tones[rng.IntN(len(tones))] + rng.NormFloat64()*5}
 			obs = append(obs, o)
 			c.X = append(c.X, [2]float64{o.OffsetHz / 30, o.ToneHz / 15})
@@ -251,31 +199,31 @@ json.dump(out, sys.stdout)
 		t.Fatalf("parse scipy output: %v", err)
 	}
 	for i, obs := range inputs {
-		res, err := ClusterTransmitters(obs, ClusterOptions{OffsetTolHz: 30, ToneTolHz: 15, SpreadFactor: -1})
+		res, err := fingerprint.Cluster(obs, fingerprint.Options{OffsetTolHz: 30, ToneTolHz: 15, SpreadFactor: -1})
 		if err != nil {
 			t.Fatal(err)
 		}
-		if !fpSamePartition(res.Labels, want[i]) {
+		if !obstest.SamePartition(res.Labels, want[i]) {
 			t.Errorf("case %d: partition %v, scipy %v", i, res.Labels, want[i])
 		}
 	}
 }
 
 func TestClusterTransmittersErrors(t *testing.T) {
-	good := Observation{StartS: 1, EndS: 2, OffsetHz: 10, ToneHz: 800}
+	good := fingerprint.Observation{StartS: 1, EndS: 2, OffsetHz: 10, ToneHz: 800}
 	for _, tc := range []struct {
 		name string
-		obs  []Observation
+		obs  []fingerprint.Observation
 		want string
 	}{
 		{"empty", nil, "no bursts"},
-		{"nan_offset", []Observation{good, {StartS: 3, EndS: 4, OffsetHz: math.NaN()}}, "carrier offset"},
-		{"inf_tone", []Observation{good, {StartS: 3, EndS: 4, ToneHz: math.Inf(1)}}, "tone"},
-		{"negative_tone", []Observation{{StartS: 3, EndS: 4, ToneHz: -5}}, "negative"},
-		{"reversed", []Observation{{StartS: 5, EndS: 4}}, "before it starts"},
+		{"nan_offset", []fingerprint.Observation{good, {StartS: 3, EndS: 4, OffsetHz: math.NaN()}}, "carrier offset"},
+		{"inf_tone", []fingerprint.Observation{good, {StartS: 3, EndS: 4, ToneHz: math.Inf(1)}}, "tone"},
+		{"negative_tone", []fingerprint.Observation{{StartS: 3, EndS: 4, ToneHz: -5}}, "negative"},
+		{"reversed", []fingerprint.Observation{{StartS: 5, EndS: 4}}, "before it starts"},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
-			_, err := ClusterTransmitters(tc.obs, ClusterOptions{})
+			_, err := fingerprint.Cluster(tc.obs, fingerprint.Options{})
 			if err == nil || !strings.Contains(err.Error(), tc.want) {
 				t.Fatalf("error %v, want one mentioning %q", err, tc.want)
 			}
@@ -287,8 +235,8 @@ func FuzzClusterTransmitters(f *testing.F) {
 	f.Add([]byte{1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12})
 	f.Add(make([]byte, 64))
 	f.Fuzz(func(t *testing.T, data []byte) {
-		obs := slotFuzzObservations(data)
-		res, err := ClusterTransmitters(obs, ClusterOptions{})
+		obs := obstest.FuzzObservations(data)
+		res, err := fingerprint.Cluster(obs, fingerprint.Options{})
 		if err != nil {
 			return
 		}
@@ -301,4 +249,54 @@ func FuzzClusterTransmitters(f *testing.F) {
 			}
 		}
 	})
+}
+
+// TestClusterEdgeBursts: bursts cut by the recording, split from an
+// overlap or carrying two carriers do not make transmitters of their own:
+// one whose offset (measured on less, 50 Hz off) and level fit joins its
+// transmitter; one that fits nothing but reads an ID joins the
+// transmitter reading it, or makes its own when none does; a double burst
+// that fits nothing is left unattributed.
+func TestClusterEdgeBursts(t *testing.T) {
+	var obs []fingerprint.Observation
+	add := func(o fingerprint.Observation) int {
+		o.Index, o.EndS = len(obs), o.StartS+10
+		obs = append(obs, o)
+		return len(obs) - 1
+	}
+	for k := 0; k < 4; k++ {
+		add(fingerprint.Observation{StartS: float64(100 * k), OffsetHz: -1500, ToneHz: 800, LevelDB: -10, Ident: "N0CALL/1", IdentConfidence: 0.99})
+		add(fingerprint.Observation{StartS: float64(100*k + 30), OffsetHz: 500, ToneHz: 700, LevelDB: -13, Ident: "N0CALL/2", IdentConfidence: 0.99})
+	}
+	cut := add(fingerprint.Observation{StartS: 0, OffsetHz: -1450, ToneHz: 805, LevelDB: -11, Ident: idmatch.Unknown, CutStart: true})
+	byID := add(fingerprint.Observation{StartS: 400, OffsetHz: 900, ToneHz: 760, LevelDB: -30, Ident: "N0CALL/2", IdentConfidence: 0.95, CutEnd: true})
+	own := add(fingerprint.Observation{StartS: 420, OffsetHz: 2500, ToneHz: 950, LevelDB: -5, Ident: "N0CALL/7", IdentConfidence: 0.95, CutEnd: true})
+	lost := add(fingerprint.Observation{StartS: 440, OffsetHz: 2500, ToneHz: 950, LevelDB: -5, Ident: idmatch.Unknown, DoubleCarrier: true, CutStart: true, CutEnd: true})
+	res, err := fingerprint.Cluster(obs, fingerprint.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if res.Labels[cut] != res.Labels[0] || res.Idents[cut] != "N0CALL/1" {
+		t.Errorf("cut burst: %s/%s, want %s/N0CALL/1", res.Labels[cut], res.Idents[cut], res.Labels[0])
+	}
+	if res.Labels[byID] != res.Labels[1] {
+		t.Errorf("cut burst reading N0CALL/2: %s, want %s", res.Labels[byID], res.Labels[1])
+	}
+	if res.Labels[own] == "" || res.Labels[own] == res.Labels[0] || res.Labels[own] == res.Labels[1] {
+		t.Errorf("cut burst reading an ID no one else reads: %q", res.Labels[own])
+	}
+	if res.Labels[lost] != res.Labels[own] && res.Labels[lost] != "" {
+		t.Errorf("double burst: %q", res.Labels[lost])
+	}
+	if len(res.Clusters) != 3 {
+		t.Errorf("%d transmitters, want 3 (two whole, one heard only cut)", len(res.Clusters))
+	}
+	// Without the burst reading N0CALL/7, the double burst fits no one.
+	res, err = fingerprint.Cluster(append(obs[:own:own], obs[lost]), fingerprint.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if l := res.Labels[len(res.Labels)-1]; l != "" || res.Unattributed != 1 {
+		t.Errorf("lone double burst: label %q, %d unattributed; want none, 1", l, res.Unattributed)
+	}
 }

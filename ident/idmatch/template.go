@@ -1,9 +1,9 @@
-package ident
+package idmatch
 
 import (
-	"errors"
 	"fmt"
 	"math"
+	"nullseek/ident/morse"
 	"sort"
 	"strings"
 )
@@ -27,55 +27,53 @@ import (
 //
 // Decision. Besides the listed IDs there are two more hypotheses: "none"
 // (noise or something that is not keyed) at a fixed log-likelihood
-// tplNoneLL, and "unlisted", all identifiers one character away from a
+// noneLL, and "unlisted", all identifiers one character away from a
 // listed one (the usual way a beacon not on the list differs), each with
-// an equal share of the prior tplOtherPrior. The posterior is a softmax of
-// the log-likelihoods divided by the temperature tplTemperature. The
+// an equal share of the prior otherPrior. The posterior is a softmax of
+// the log-likelihoods divided by the temperature temperature. The
 // constants were fitted to a Monte-Carlo of ebook2cw bursts in white
-// noise (TestTemplateFit; the table in TestTemplateVsFreeDecoding checks
-// it on other noise draws), so a reported confidence of 0.9
-// is right about 9 times in 10.
+// noise; TestTemplateFit checks they still fit that Monte-Carlo, and
+// TestConfidenceCalibration that a reported confidence c is right at
+// least that often on GNU Radio bursts.
+//
+// Long steady tones are left out of the search (see maskTones).
 
 const (
-	// tplRateHz is the envelope rate of the search (samples a second).
-	tplRateHz = 100.0
-	// tplBoxS is the boxcar that ToneEnvelope integrates the mixed-down
-	// tone over (s): a pre-detection bandwidth of ~33 Hz, matched to a dot
-	// at 40 WPM and not too wide for slower ones.
-	tplBoxS = 0.03
-	// tplMinWPM and tplMaxWPM bound the speed search.
-	tplMinWPM, tplMaxWPM = 5.0, 40.0
-	// tplCoarseStep and tplFineStep are the speed grid steps (ratios).
-	tplCoarseStep = 1.03
-	tplFineStep   = 1.005
-	// tplRefine is how many coarse speeds per ID are refined.
-	tplRefine = 3
-	// tplWordGapU is the gap between copies in dot units (a word gap).
-	tplWordGapU = 7.0
+	// searchRateHz is the envelope rate of the search (samples a second).
+	searchRateHz = 100.0
+	// minWPM and maxWPM bound the speed search.
+	minWPM, maxWPM = 5.0, 40.0
+	// coarseStep and fineStep are the speed grid steps (ratios).
+	coarseStep = 1.03
+	fineStep   = 1.005
+	// refinePeaks is how many coarse speeds per ID are refined.
+	refinePeaks = 3
+	// wordGapU is the gap between copies in dot units (a word gap).
+	wordGapU = 7.0
 
 	// Calibration: temperature, the "none" log-likelihood and the prior
-	// weight of the unlisted family, fitted (TestTemplateFit with
-	// NULLSEEK_TPL_FIT=1: 252 ebook2cw bursts at +6 … −12 dB and 300
-	// pure-noise bursts; most probable truth, with no wrong ID at ≥ 0.5).
+	// weight of the unlisted family, fitted by tplFitCalibration (in the
+	// tests) on 252 ebook2cw bursts at +6 … −12 dB and 300 pure-noise
+	// bursts: the most probable truth, with no wrong ID at ≥ 0.5.
 	// Pure noise gives a best log-likelihood of 18 (median) to 30 (worst
 	// of 300), hence "none" at 28.
-	tplTemperature = 1.5
-	tplNoneLL      = 28.0
-	tplOtherPrior  = 30.0
+	temperature = 1.5
+	noneLL      = 28.0
+	otherPrior  = 30.0
 )
 
-// tplTemplate is one identifier's ideal keying in dot units.
-type tplTemplate struct {
+// template is one identifier's ideal keying in dot units.
+type template struct {
 	on      [][2]float64 // key-down intervals from the copy's start
 	lenU    float64      // first key-down to last key-up
 	periodU float64      // lenU + word gap
 }
 
-// tplFromCodes builds a template from Morse codes such as ".-", one a
+// templateFromCodes builds a template from Morse codes such as ".-", one a
 // character, with ITU-R M.1677-1 timing (dash 3, gaps 1, 3; word gap 7
 // between copies).
-func tplFromCodes(codes []string) tplTemplate {
-	var t tplTemplate
+func templateFromCodes(codes []string) template {
+	var t template
 	pos := 0.0
 	for ci, c := range codes {
 		if ci > 0 {
@@ -94,94 +92,64 @@ func tplFromCodes(codes []string) tplTemplate {
 		}
 	}
 	t.lenU = pos
-	t.periodU = pos + tplWordGapU
+	t.periodU = pos + wordGapU
 	return t
 }
 
-// tplAlphabet is what an unlisted identifier's differing character is
+// variantAlphabet is what an unlisted identifier's differing character is
 // drawn from.
-const tplAlphabet = "ABCDEFGHIJKLMNOPQRSTUVWXYZ0123456789/"
+const variantAlphabet = "ABCDEFGHIJKLMNOPQRSTUVWXYZ0123456789/"
 
-// tplPlan holds the templates of a matcher's IDs and of the unlisted
+// templatePlan holds the templates of a matcher's IDs and of the unlisted
 // family (every ID with one character replaced, minus the listed ones).
-type tplPlan struct {
-	ids      []tplTemplate
-	variants []tplTemplate
+type templatePlan struct {
+	ids      []template
+	variants []template
 }
 
-func newTplPlan(tokens [][]string) tplPlan {
-	var p tplPlan
+func newTemplatePlan(tokens [][]string) templatePlan {
+	var p templatePlan
 	listed := map[string]bool{}
 	codes := make([][]string, len(tokens))
 	for i, toks := range tokens {
 		for _, t := range toks {
-			codes[i] = append(codes[i], morseTable[t])
+			codes[i] = append(codes[i], code(t))
 		}
 		listed[strings.Join(codes[i], " ")] = true
-		p.ids = append(p.ids, tplFromCodes(codes[i]))
+		p.ids = append(p.ids, templateFromCodes(codes[i]))
 	}
 	seen := map[string]bool{}
 	for _, cs := range codes {
 		for pos := range cs {
-			for _, r := range tplAlphabet {
+			for _, r := range variantAlphabet {
 				alt := append([]string(nil), cs...)
-				alt[pos] = morseTable[string(r)]
+				alt[pos] = code(string(r))
 				key := strings.Join(alt, " ")
 				if listed[key] || seen[key] {
 					continue
 				}
 				seen[key] = true
-				p.variants = append(p.variants, tplFromCodes(alt))
+				p.variants = append(p.variants, templateFromCodes(alt))
 			}
 		}
 	}
 	return p
 }
 
-// ToneEnvelope returns the key-down power envelope of a keyed tone for the
-// template method (Matcher.MatchEnvelope), whether or not its Morse can be
-// read: linear power (arbitrary scale) at envRateHz ≈ 100 samples a
-// second, time 0 at the first audio sample. The pitch is opts.ToneHz when
-// set, else the strongest spectral peak between MinToneHz and MaxToneHz
-// even when FindTone finds it too weak to trust (the template decides
-// whether there is keying); it is tracked as in DecodeTone unless
-// opts.FixedTone. The tone is mixed to 0 Hz and integrated over 30 ms.
-// Errors: a sample rate below 2·MinToneHz, or audio too short (< 0.1 s)
-// to find a pitch in.
-func ToneEnvelope(audio []float32, rate float64, opts DecodeOptions) (env []float32, envRateHz, toneHz float64, err error) {
-	opts = opts.withDefaults()
-	if !(rate >= 2*MinToneHz) || math.IsInf(rate, 0) {
-		return nil, 0, 0, fmt.Errorf("tone envelope: sample rate %g Hz too low", rate)
-	}
-	clean := mcSanitize(audio)
-	toneHz = opts.ToneHz
-	if !(toneHz > 0) {
-		f, _, ferr := FindTone(clean, rate)
-		if ferr != nil && !(errors.Is(ferr, ErrNoTone) && f > 0) {
-			return nil, 0, 0, fmt.Errorf("tone envelope: %w", ferr)
-		}
-		toneHz = f
-	}
-	centres, freqs := []float64{0}, []float64{toneHz}
-	if !opts.FixedTone {
-		centres, freqs = toneTrack(clean, rate, toneHz, opts.TrackHz, 0.4)
-	}
-	return toneEnvelope(clean, rate, centres, freqs, tplBoxS, tplRateHz), tplRateHz, toneHz, nil
-}
-
-// tplCandidate is one scored placement of a template.
-type tplCandidate struct {
+// placement is one scored placement of a template.
+type placement struct {
 	score  float64 // Σ over copies of max(0, copy score)
 	unit   float64 // samples per dot
 	origin float64 // start (samples) of one copy; others at ± k·period
 	copies int     // copies with a positive score
 }
 
-// tplSearch holds one burst's working envelope and scratch.
-type tplSearch struct {
+// envSearch holds one burst's working envelope and scratch.
+type envSearch struct {
 	amp  []float64 // amplitude envelope at rate
 	rate float64
 	n    int
+	off  []bool    // samples left out: long steady tones (see maskTones)
 	pad  int       // zero-score padding on the left of ps
 	ps   []float64 // prefix sums of amp − θ, padded
 	c    []float64 // single-copy scores
@@ -190,18 +158,18 @@ type tplSearch struct {
 	st   []int
 }
 
-// newTplSearch averages the power envelope down to about tplRateHz and
+// newEnvSearch averages the power envelope down to about searchRateHz and
 // takes its square root. It returns nil when there is too little.
-func newTplSearch(env []float32, envRate float64) *tplSearch {
+func newEnvSearch(env []float32, envRate float64) *envSearch {
 	if !(envRate >= 20) || math.IsInf(envRate, 0) || len(env) == 0 {
 		return nil
 	}
-	k := max(1, int(math.Round(envRate/tplRateHz)))
+	k := max(1, int(math.Round(envRate/searchRateHz)))
 	n := len(env) / k
 	if n < 16 {
 		return nil
 	}
-	s := &tplSearch{amp: make([]float64, n), rate: envRate / float64(k), n: n}
+	s := &envSearch{amp: make([]float64, n), off: make([]bool, n), rate: envRate / float64(k), n: n}
 	for i := range s.amp {
 		p := 0.0
 		for _, v := range env[i*k : i*k+k] {
@@ -212,9 +180,9 @@ func newTplSearch(env []float32, envRate float64) *tplSearch {
 		s.amp[i] = math.Sqrt(p / float64(k))
 	}
 	// Scale-free: divide by the median amplitude.
-	med := tplMedian(s.amp)
+	med := medianOf(s.amp)
 	if !(med > 0) {
-		med = tplMean(s.amp)
+		med = meanOf(s.amp)
 	}
 	if !(med > 0) {
 		return nil
@@ -223,18 +191,18 @@ func newTplSearch(env []float32, envRate float64) *tplSearch {
 		s.amp[i] /= med
 	}
 	// Room for a copy at the slowest speed hanging over either end.
-	s.pad = int(math.Ceil(200*DotSeconds(tplMinWPM)*s.rate)) + 2
+	s.pad = int(math.Ceil(200*morse.DotSeconds(minWPM)*s.rate)) + 2
 	s.ps = make([]float64, n+2*s.pad+1)
 	return s
 }
 
-func tplMedian(x []float64) float64 {
+func medianOf(x []float64) float64 {
 	c := append([]float64(nil), x...)
 	sort.Float64s(c)
 	return c[len(c)/2]
 }
 
-func tplMean(x []float64) float64 {
+func meanOf(x []float64) float64 {
 	s := 0.0
 	for _, v := range x {
 		s += v
@@ -242,20 +210,98 @@ func tplMean(x []float64) float64 {
 	return s / float64(len(x))
 }
 
-// setThreshold fills the prefix sums of amp − θ (0 outside the burst).
-func (s *tplSearch) setThreshold(theta float64) {
+// setThreshold fills the prefix sums of amp − θ (0 outside the burst and
+// on masked samples).
+func (s *envSearch) setThreshold(theta float64) {
 	acc := 0.0
 	for i := range s.ps {
 		s.ps[i] = acc
-		if j := i - s.pad; j >= 0 && j < s.n {
+		if j := i - s.pad; j >= 0 && j < s.n && !s.off[j] {
 			acc += s.amp[j] - theta
 		}
 	}
 }
 
+// meanOn is the mean amplitude of the samples not masked.
+func (s *envSearch) meanOn() float64 {
+	sum, n := 0.0, 0
+	for i, v := range s.amp {
+		if !s.off[i] {
+			sum += v
+			n++
+		}
+	}
+	if n == 0 {
+		return 0
+	}
+	return sum / float64(n)
+}
+
+// Long steady tones. Every template scores positively on a stretch that
+// is all key-down, the more the more key-down it has, so such a stretch
+// would name the ID with the most dashes. maskTones leaves out the long
+// tones the decoder found and those found here on the envelope itself
+// (the decoder may have read nothing): where the mean amplitude over
+// toneWindowS stays above the key-up level plus toneFraction of the
+// key-down level's lift for toneMinS or longer — Morse keying, on about
+// half the time, stays well below it; the window is widened by half its
+// length at each end, where the mean crosses the line while the tone is
+// already on.
+const (
+	toneWindowS  = 1.5
+	toneFraction = 0.88
+	toneMinS     = 3.0
+)
+
+func (s *envSearch) maskTones(tones []morse.Mark) {
+	for _, t := range tones {
+		a := max(0, int(math.Floor(t.StartS*s.rate)))
+		b := min(s.n, int(math.Ceil((t.StartS+t.DurS)*s.rate)))
+		for i := a; i < b; i++ {
+			s.off[i] = true
+		}
+	}
+	w := int(toneWindowS * s.rate)
+	if s.n < 2*w {
+		return
+	}
+	srt := append([]float64(nil), s.amp...)
+	sort.Float64s(srt)
+	lo, hi := srt[s.n/10], srt[s.n*9/10]
+	if !(hi > lo) {
+		return
+	}
+	line := lo + toneFraction*(hi-lo)
+	ps := make([]float64, s.n+1)
+	for i, v := range s.amp {
+		ps[i+1] = ps[i] + v
+	}
+	run := -1
+	mark := func(a, b int) {
+		if float64(b-a) >= toneMinS*s.rate {
+			for i := max(0, a-w/2); i < min(s.n, b+w/2); i++ {
+				s.off[i] = true
+			}
+		}
+	}
+	for c := w / 2; c+w-w/2 <= s.n; c++ {
+		above := (ps[c+w-w/2]-ps[c-w/2])/float64(w) > line
+		switch {
+		case above && run < 0:
+			run = c
+		case !above && run >= 0:
+			mark(run, c)
+			run = -1
+		}
+	}
+	if run >= 0 {
+		mark(run, s.n-(w-w/2))
+	}
+}
+
 // prep sets ia, ib to the template's key-down sample offsets at unit u
 // samples a dot; it returns the copy length and period in samples.
-func (s *tplSearch) prep(t tplTemplate, u float64) (L int, P float64) {
+func (s *envSearch) prep(t template, u float64) (L int, P float64) {
 	s.ia, s.ib = s.ia[:0], s.ib[:0]
 	for _, iv := range t.on {
 		a := int(math.Round(iv[0] * u))
@@ -269,7 +315,7 @@ func (s *tplSearch) prep(t tplTemplate, u float64) (L int, P float64) {
 // copy starting at sample st (parts outside the burst count 0). st must
 // lie in [−L, n) for the copy length L prep returned (the padding of ps
 // covers copies hanging over either end).
-func (s *tplSearch) copyScore(st int) float64 {
+func (s *envSearch) copyScore(st int) float64 {
 	ps := s.ps[st+s.pad:]
 	ib := s.ib[:len(s.ia)]
 	sum := 0.0
@@ -281,7 +327,7 @@ func (s *tplSearch) copyScore(st int) float64 {
 
 // scan finds the best placement of template t at unit u (samples a dot),
 // trying copy origins every step samples.
-func (s *tplSearch) scan(t tplTemplate, u float64, step int) tplCandidate {
+func (s *envSearch) scan(t template, u float64, step int) placement {
 	L, P := s.prep(t, u)
 	first := -L + 1
 	cnt := (s.n-first+step-1)/step + 1
@@ -292,7 +338,7 @@ func (s *tplSearch) scan(t tplTemplate, u float64, step int) tplCandidate {
 	for i := range c {
 		c[i] = s.copyScore(first + i*step)
 	}
-	best := tplCandidate{score: math.Inf(-1), unit: u}
+	best := placement{score: math.Inf(-1), unit: u}
 	span := int(math.Ceil(P / float64(step)))
 	for i0 := 0; i0 < span && i0 < cnt; i0++ {
 		o := float64(first + i0*step)
@@ -313,7 +359,7 @@ func (s *tplSearch) scan(t tplTemplate, u float64, step int) tplCandidate {
 			tot = bestOne
 		}
 		if tot > best.score {
-			best = tplCandidate{score: tot, unit: u, origin: o, copies: nc}
+			best = placement{score: tot, unit: u, origin: o, copies: nc}
 		}
 	}
 	return best
@@ -322,7 +368,7 @@ func (s *tplSearch) scan(t tplTemplate, u float64, step int) tplCandidate {
 // starts lists the copy starts of a placement at unit u (samples a dot)
 // and period P (samples): round(origin + j·P) for every copy that
 // overlaps the burst, with the rounding scan uses.
-func (s *tplSearch) starts(origin, P float64, L int, out []int) []int {
+func (s *envSearch) starts(origin, P float64, L int, out []int) []int {
 	out = out[:0]
 	j0 := int(math.Floor((float64(-L) - origin) / P))
 	for j := j0; ; j++ {
@@ -338,7 +384,7 @@ func (s *tplSearch) starts(origin, P float64, L int, out []int) []int {
 }
 
 // placed reports the copy starts of a candidate with a positive score.
-func (s *tplSearch) placed(t tplTemplate, cd tplCandidate) []int {
+func (s *envSearch) placed(t template, cd placement) []int {
 	L, P := s.prep(t, cd.unit)
 	var out []int
 	for _, st := range s.starts(cd.origin, P, L, nil) {
@@ -349,12 +395,16 @@ func (s *tplSearch) placed(t tplTemplate, cd tplCandidate) []int {
 	return out
 }
 
-// variantScore scores template t at unit u with copies from origin ±1
-// sample.
-func (s *tplSearch) variantScore(t tplTemplate, u, origin float64) float64 {
+// variantScore scores template t at unit u with copies from origin ± one
+// dot (at least ±1 sample).
+func (s *envSearch) variantScore(t template, u, origin float64) float64 {
 	L, P := s.prep(t, u)
 	bv := math.Inf(-1)
-	for d := -1.0; d <= 1; d++ {
+	// A listed ID's best fit may sit up to a dot off where its variant
+	// fits (the changed character pulls it), so the variant searches a dot
+	// either side.
+	w := math.Max(1, math.Round(u))
+	for d := -w; d <= w; d++ {
 		tot, one := 0.0, math.Inf(-1)
 		s.st = s.starts(origin+d, P, L, s.st)
 		for _, st := range s.st {
@@ -372,18 +422,18 @@ func (s *tplSearch) variantScore(t tplTemplate, u, origin float64) float64 {
 	return bv
 }
 
-// tplLevels are the two-level model's parameters fitted to a placement.
-type tplLevels struct {
+// twoLevels are the two-level model's parameters fitted to a placement.
+type twoLevels struct {
 	noise, signal, sigma2, corr float64
 }
 
 // levels fits N, S, σ² and the noise correlation length to the envelope
 // under a placed template (the span from the first copy's start to the
 // last copy's end).
-func (s *tplSearch) levels(t tplTemplate, cd tplCandidate) (tplLevels, bool) {
+func (s *envSearch) levels(t template, cd placement) (twoLevels, bool) {
 	starts := s.placed(t, cd)
 	if len(starts) == 0 {
-		return tplLevels{}, false
+		return twoLevels{}, false
 	}
 	L, _ := s.prep(t, cd.unit)
 	mask := make([]int8, s.n) // 0 outside, 1 key up, 2 key down
@@ -403,6 +453,11 @@ func (s *tplSearch) levels(t tplTemplate, cd tplCandidate) (tplLevels, bool) {
 			}
 		}
 	}
+	for i := range mask {
+		if s.off[i] {
+			mask[i] = 0
+		}
+	}
 	var sum [3]float64
 	var cnt [3]int
 	for i, m := range mask {
@@ -410,15 +465,19 @@ func (s *tplSearch) levels(t tplTemplate, cd tplCandidate) (tplLevels, bool) {
 		cnt[m]++
 	}
 	if cnt[1] < 4 || cnt[2] < 4 {
-		return tplLevels{}, false
+		return twoLevels{}, false
 	}
-	lv := tplLevels{noise: sum[1] / float64(cnt[1])}
+	lv := twoLevels{noise: sum[1] / float64(cnt[1])}
 	lv.signal = sum[2]/float64(cnt[2]) - lv.noise
 	// Residual variance and lag-1 correlation inside the span.
 	var sq, lag float64
 	prev, havePrev := 0.0, false
 	m := 0
 	for i := a; i < b; i++ {
+		if s.off[i] {
+			havePrev = false
+			continue
+		}
 		ref := lv.noise
 		if mask[i] == 2 {
 			ref += lv.signal
@@ -432,7 +491,7 @@ func (s *tplSearch) levels(t tplTemplate, cd tplCandidate) (tplLevels, bool) {
 		m++
 	}
 	if m < 8 || !(sq > 0) {
-		return tplLevels{}, false
+		return twoLevels{}, false
 	}
 	lv.sigma2 = sq / float64(m)
 	rho := math.Max(0, math.Min(0.95, lag/sq))
@@ -440,10 +499,10 @@ func (s *tplSearch) levels(t tplTemplate, cd tplCandidate) (tplLevels, bool) {
 	return lv, lv.signal > 0
 }
 
-// tplResult is the template method's evidence for one burst.
-type tplResult struct {
+// templateEvidence is the template method's evidence for one burst.
+type templateEvidence struct {
 	ll     []float64 // log-likelihood ratio of each listed ID vs. all key up
-	best   []tplCandidate
+	best   []placement
 	vll    []float64 // log-likelihood ratio of each unlisted variant
 	xll    []float64 // … of each extra unlisted candidate (decoded words)
 	post   []float64 // posterior of each listed ID
@@ -454,22 +513,22 @@ type tplResult struct {
 }
 
 // run scores every template against the envelope.
-func (p *tplPlan) run(s *tplSearch, extra []tplTemplate) (tplResult, bool) {
-	var r tplResult
+func (p *templatePlan) run(s *envSearch, extra []template) (templateEvidence, bool) {
+	var r templateEvidence
 	all := append(p.ids[:len(p.ids):len(p.ids)], extra...)
 	K := len(p.ids)
 	// Coarse pass: θ from the mean amplitude (key down about half the time
 	// puts it between the levels).
-	s.setThreshold(tplMean(s.amp))
-	uLo, uHi := DotSeconds(tplMaxWPM)*s.rate, DotSeconds(tplMinWPM)*s.rate
+	s.setThreshold(s.meanOn())
+	uLo, uHi := morse.DotSeconds(maxWPM)*s.rate, morse.DotSeconds(minWPM)*s.rate
 	var units []float64
-	for u := uLo; u <= uHi*1.0001; u *= tplCoarseStep {
+	for u := uLo; u <= uHi*1.0001; u *= coarseStep {
 		units = append(units, u)
 	}
-	coarse := make([][]tplCandidate, len(all))
+	coarse := make([][]placement, len(all))
 	gBest, gi := math.Inf(-1), -1
 	for i, t := range all {
-		coarse[i] = make([]tplCandidate, len(units))
+		coarse[i] = make([]placement, len(units))
 		for k, u := range units {
 			coarse[i][k] = s.scan(t, u, max(1, int(u/3)))
 			if coarse[i][k].score > gBest {
@@ -481,19 +540,19 @@ func (p *tplPlan) run(s *tplSearch, extra []tplTemplate) (tplResult, bool) {
 		return r, false
 	}
 	// Levels from the best coarse fit, then the refined pass at that θ.
-	gc := coarse[gi][tplTopPeaks(coarse[gi], 1)[0]]
+	gc := coarse[gi][topPeaks(coarse[gi], 1)[0]]
 	lv, ok := s.levels(all[gi], gc)
 	if !ok {
 		return r, false
 	}
 	s.setThreshold(lv.noise + lv.signal/2)
-	best := make([]tplCandidate, len(all))
+	best := make([]placement, len(all))
 	bi := 0
 	for i, t := range all {
-		b := tplCandidate{score: math.Inf(-1)}
-		for _, k := range tplTopPeaks(coarse[i], tplRefine) {
+		b := placement{score: math.Inf(-1)}
+		for _, k := range topPeaks(coarse[i], refinePeaks) {
 			for f := -3; f <= 3; f++ {
-				u := units[k] * math.Pow(tplFineStep, float64(f))
+				u := units[k] * math.Pow(fineStep, float64(f))
 				if u < uLo*0.999 || u > uHi*1.001 {
 					continue
 				}
@@ -531,27 +590,27 @@ func (p *tplPlan) run(s *tplSearch, extra []tplTemplate) (tplResult, bool) {
 		vll = append(vll, scale*math.Max(0, v))
 	}
 	r.vll = vll
-	r.post, r.pOther, r.pNone = tplPosterior(r.ll, vll, r.xll, tplTemperature, tplNoneLL, tplOtherPrior)
+	r.post, r.pOther, r.pNone = templatePosterior(r.ll, vll, r.xll, temperature, noneLL, otherPrior)
 	return r, true
 }
 
-// tplPosterior turns log-likelihood ratios into posteriors at temperature
+// templatePosterior turns log-likelihood ratios into posteriors at temperature
 // temp: the listed IDs (ll, prior 1 each), the unlisted family (vll, prior
 // otherPrior shared evenly; xll, prior 1 each) and "none" (log-likelihood
 // noneLL, prior 1).
-func tplPosterior(ll, vll, xll []float64, temp, noneLL, otherPrior float64) (post []float64, pOther, pNone float64) {
+func templatePosterior(ll, vll, xll []float64, temp, noneLL, otherPrior float64) (post []float64, pOther, pNone float64) {
 	z := make([]float64, 0, len(ll)+2+len(xll))
 	for _, v := range ll {
 		z = append(z, v/temp)
 	}
 	z = append(z, noneLL/temp)
 	if len(vll) > 0 {
-		z = append(z, tplLogMeanExp(vll, 1/temp)/temp+math.Log(otherPrior))
+		z = append(z, logMeanExp(vll, 1/temp)/temp+math.Log(otherPrior))
 	}
 	for _, v := range xll {
 		z = append(z, v/temp)
 	}
-	p := mcSoftmax(z)
+	p := softmax(z)
 	post = p[:len(ll)]
 	pNone = p[len(ll)]
 	for _, v := range p[len(ll)+1:] {
@@ -560,8 +619,8 @@ func tplPosterior(ll, vll, xll []float64, temp, noneLL, otherPrior float64) (pos
 	return post, pOther, pNone
 }
 
-// tplLogMeanExp returns log(mean(exp(k·x))) / k, computed stably.
-func tplLogMeanExp(x []float64, k float64) float64 {
+// logMeanExp returns log(mean(exp(k·x))) / k, computed stably.
+func logMeanExp(x []float64, k float64) float64 {
 	if len(x) == 0 {
 		return math.Inf(-1)
 	}
@@ -576,9 +635,9 @@ func tplLogMeanExp(x []float64, k float64) float64 {
 	return (mx + math.Log(s/float64(len(x)))) / k
 }
 
-// tplTopPeaks returns the indices of up to n local maxima of the scores,
+// topPeaks returns the indices of up to n local maxima of the scores,
 // best first.
-func tplTopPeaks(c []tplCandidate, n int) []int {
+func topPeaks(c []placement, n int) []int {
 	var idx []int
 	for i := range c {
 		l := i == 0 || c[i].score >= c[i-1].score
@@ -595,9 +654,9 @@ func tplTopPeaks(c []tplCandidate, n int) []int {
 }
 
 // plan returns the matcher's templates, building them on first use.
-func (m *Matcher) plan() *tplPlan {
-	m.tplOnce.Do(func() { m.tpl = newTplPlan(m.tokens) })
-	return &m.tpl
+func (m *Matcher) plan() *templatePlan {
+	m.planOnce.Do(func() { m.templates = newTemplatePlan(m.tokens) })
+	return &m.templates
 }
 
 // MatchEnvelope names the burst whose key-down power envelope (linear,
@@ -609,33 +668,34 @@ func (m *Matcher) plan() *tplPlan {
 // result's Confidence is the winner's calibrated posterior against the
 // other listed IDs, "an unlisted ID one character away" and "no listed
 // keying"; Unlisted is the posterior of the last two together. Below
-// MinConfidence the ID is UnknownID with a warning naming the best guess.
+// MinConfidence the ID is Unknown with a warning naming the best guess.
 // Method is "template", or "" (with a warning) when the envelope is too
 // short or flat to score. It never panics on bad input.
-func (m *Matcher) MatchEnvelope(env []float32, envRate float64) Match {
-	res, _ := m.matchEnvelope(env, envRate, nil)
+func (m *Matcher) MatchEnvelope(env []float32, envRate float64) Result {
+	res, _ := m.matchEnvelope(env, envRate, nil, nil)
 	return res
 }
 
 // matchEnvelope is MatchEnvelope that also returns the raw evidence (nil
 // ll when nothing could be scored).
-// extra are further unlisted candidates (Match passes the words of a clean
+// extra are further unlisted candidates (Result passes the words of a clean
 // decode that fit no listed ID), each searched like a listed ID.
-func (m *Matcher) matchEnvelope(env []float32, envRate float64, extra []tplTemplate) (Match, tplResult) {
-	res := Match{ID: UnknownID}
-	res.Scores = make([]IDScore, len(m.ids))
+func (m *Matcher) matchEnvelope(env []float32, envRate float64, extra []template, tones []morse.Mark) (Result, templateEvidence) {
+	res := Result{ID: Unknown}
+	res.Scores = make([]Score, len(m.ids))
 	for i, id := range m.ids {
 		res.Scores[i].ID = id
 	}
-	s := newTplSearch(env, envRate)
+	s := newEnvSearch(env, envRate)
 	if s == nil {
 		res.Warnings = append(res.Warnings, fmt.Sprintf("no usable envelope for the template method (%d samples at %g/s)", len(env), envRate))
-		return res, tplResult{}
+		return res, templateEvidence{}
 	}
+	s.maskTones(tones)
 	r, ok := m.plan().run(s, extra)
 	if !ok {
 		res.Warnings = append(res.Warnings, "envelope shows no keying the template method can fit")
-		return res, tplResult{}
+		return res, templateEvidence{}
 	}
 	res.Method = "template"
 	for i := range r.post {
@@ -643,7 +703,7 @@ func (m *Matcher) matchEnvelope(env []float32, envRate float64, extra []tplTempl
 		res.Scores[i].Copies = r.best[i].copies
 	}
 	res.Unlisted = r.pOther + r.pNone
-	b, _ := mcBestTwo(r.post)
+	b, _ := bestTwo(r.post)
 	res.WPM = r.wpm
 	switch {
 	case r.post[b] >= m.MinConfidence:
@@ -659,22 +719,22 @@ func (m *Matcher) matchEnvelope(env []float32, envRate float64, extra []tplTempl
 	return res, r
 }
 
-// MatchTone decodes a keyed-tone burst (as DecodeTone) and names it: by
+// MatchTone decodes a keyed-tone burst (as morse.DecodeTone) and names it: by
 // the decoded text when that is clear, else by the template method on the
-// burst's own tone envelope (ToneEnvelope), which works well below the
+// burst's own tone envelope (morse.ToneEnvelope), which works well below the
 // level where free decoding fails. When free decoding fails (for instance
-// with ErrNoMorse) the Decoded holds only the envelope and a warning, and
-// the Match comes from the template method. The error is non-nil only
+// with ErrNoMorse) the morse.Decoded holds only the envelope and a warning, and
+// the Result comes from the template method. The error is non-nil only
 // when the audio cannot be used at all (sample rate too low, too short).
-func (m *Matcher) MatchTone(audio []float32, rate float64, opts DecodeOptions) (Decoded, Match, error) {
-	env, envRate, toneHz, err := ToneEnvelope(audio, rate, opts)
+func (m *Matcher) MatchTone(audio []float32, rate float64, opts morse.DecodeOptions) (morse.Decoded, Result, error) {
+	env, envRate, toneHz, err := morse.ToneEnvelope(audio, rate, opts)
 	if err != nil {
-		return Decoded{}, Match{ID: UnknownID}, fmt.Errorf("match tone: %w", err)
+		return morse.Decoded{}, Result{ID: Unknown}, fmt.Errorf("match tone: %w", err)
 	}
-	d, derr := DecodeTone(audio, rate, opts)
+	d, derr := morse.DecodeTone(audio, rate, opts)
 	if derr != nil {
-		d = Decoded{ToneHz: toneHz, Mode: opts.Mode, Envelope: env, EnvRate: envRate,
+		d = morse.Decoded{ToneHz: toneHz, Mode: opts.Mode, Envelope: env, EnvRate: envRate,
 			Warnings: []string{"free decoding failed: " + derr.Error()}}
 	}
-	return d, m.match(d, env, envRate), nil
+	return d, m.Identify(Evidence{Decoded: d, Envelope: env, EnvRate: envRate}), nil
 }

@@ -1,10 +1,18 @@
-package ident
+// Package fingerprint tells transmitters apart by what they sound like
+// rather than what they send: each burst's carrier offset and tone pitch
+// (its fingerprint) link it to the other bursts of the same transmitter
+// (Cluster), so a burst whose identifier could not be read is still
+// attributed, and two transmitters programmed with the same identifier are
+// flagged. Frequencies are in Hz, times in seconds from the capture start.
+package fingerprint
 
 import (
 	"cmp"
 	"errors"
 	"fmt"
 	"math"
+	"nullseek/ident/idmatch"
+	"nullseek/ident/internal/stats"
 	"slices"
 	"strings"
 	"time"
@@ -34,22 +42,24 @@ type Observation struct {
 	Ident string
 	// IdentConfidence is the matcher's confidence in Ident, 0…1.
 	IdentConfidence float64
+	// IdentMethod says how Ident was found (informational here; see
+	// ident.Burst.Method).
+	IdentMethod string
 	// DoubleCarrier is set by the receiver when it saw two carriers at once
 	// during this burst (an overlap with an unidentified second transmitter).
 	DoubleCarrier bool
+	// CutStart and CutEnd say the burst's start or end is not the
+	// transmitter's: the recording began or ended inside it, or it is where
+	// a burst holding two transmitters was split.
+	CutStart, CutEnd bool
+	// OtherIdent is a second identifier read whole in the burst (two
+	// transmitters on the air together that the fingerprint could not
+	// split; DoubleCarrier is then set too).
+	OtherIdent string
 }
 
-// UnknownIdent is the Ident value for a burst whose identifier could not be
-// read. The empty string is treated the same way.
-const UnknownIdent = "unknown"
-
-func fpIdentKnown(s string) bool {
-	s = strings.TrimSpace(s)
-	return s != "" && !strings.EqualFold(s, UnknownIdent)
-}
-
-// ClusterOptions tunes ClusterTransmitters. Zero values select the defaults.
-type ClusterOptions struct {
+// Options tunes Cluster. Zero values select the defaults.
+type Options struct {
 	// OffsetTolHz is the carrier-offset distance in Hz at which two bursts
 	// are still linked (default 30 Hz: cheap crystal beacons differ by tens
 	// to hundreds of Hz, while one beacon's offset jitters by a few Hz and
@@ -66,9 +76,19 @@ type ClusterOptions struct {
 	// counts as confident when looking for a cluster that carries two
 	// different IDs (default 0.8).
 	ConfidentMin float64
+	// EdgeFactor widens the offset and tone tolerances for attaching an
+	// edge burst (cut by the recording, split from an overlap, or carrying
+	// two carriers), whose fingerprint is measured on less or on a mix
+	// (default 3); LevelTolDB is the level distance (dB) counted as one
+	// tolerance for it (default 10: one transmitter's level, heard on one
+	// antenna, changes little from turn to turn).
+	EdgeFactor, LevelTolDB float64
 }
 
-func (o ClusterOptions) withDefaults() ClusterOptions {
+// Resolved returns o with its zero fields replaced by the defaults.
+func (o Options) Resolved() Options { return o.withDefaults() }
+
+func (o Options) withDefaults() Options {
 	if !(o.OffsetTolHz > 0) {
 		o.OffsetTolHz = 30
 	}
@@ -81,37 +101,98 @@ func (o ClusterOptions) withDefaults() ClusterOptions {
 	if !(o.ConfidentMin > 0) {
 		o.ConfidentMin = 0.8
 	}
+	if !(o.EdgeFactor > 0) {
+		o.EdgeFactor = 3
+	}
+	if !(o.LevelTolDB > 0) {
+		o.LevelTolDB = 10
+	}
 	return o
 }
 
-// ClusterFlagKind names a problem found while clustering.
-type ClusterFlagKind string
+// edgeBurst reports whether a burst's fingerprint or edges are not wholly
+// its transmitter's: cut by the recording, split from an overlap, or
+// carrying two carriers at once.
+func edgeBurst(o Observation) bool { return o.CutStart || o.CutEnd || o.DoubleCarrier }
+
+// attachEdges places the edge bursts (comp −2): with the cluster whose
+// member is nearest by offset, tone (tolerances widened EdgeFactor times)
+// and level (LevelTolDB), within one widened tolerance; else with the
+// cluster whose members read the same identifier confidently; else, when
+// it reads an identifier of its own, as a cluster of its own (a
+// transmitter heard only cut); else nowhere (−1). A burst with two
+// carriers never makes a cluster of its own.
+func attachEdges(obs []Observation, comp []int, offTol, toneTol float64, opts Options) {
+	for i, o := range obs {
+		if comp[i] != -2 {
+			continue
+		}
+		best, bestD := -1, math.Inf(1)
+		for j, c := range comp {
+			if c < 0 || edgeBurst(obs[j]) {
+				continue
+			}
+			m := obs[j]
+			if (o.ToneHz == 0) != (m.ToneHz == 0) {
+				continue
+			}
+			d := math.Sqrt(sq((o.OffsetHz-m.OffsetHz)/(opts.EdgeFactor*offTol)) + sq((o.ToneHz-m.ToneHz)/(opts.EdgeFactor*toneTol)) +
+				sq((o.LevelDB-m.LevelDB)/opts.LevelTolDB))
+			if d < bestD {
+				best, bestD = c, d
+			}
+		}
+		switch {
+		case best >= 0 && bestD <= 1:
+			comp[i] = best
+		case idmatch.Known(o.Ident):
+			comp[i] = -1
+			for j, c := range comp {
+				if c >= 0 && j != i && strings.EqualFold(strings.TrimSpace(obs[j].Ident), strings.TrimSpace(o.Ident)) &&
+					clampConf(obs[j].IdentConfidence) >= opts.ConfidentMin {
+					comp[i] = c
+					break
+				}
+			}
+			if comp[i] < 0 && !o.DoubleCarrier {
+				comp[i] = i
+			}
+		default:
+			comp[i] = -1
+		}
+	}
+}
+
+func sq(x float64) float64 { return x * x }
+
+// FlagKind names a problem found while clustering.
+type FlagKind string
 
 const (
 	// FlagSharedIdent: two or more clusters (transmitters told apart by
 	// their fingerprint) carry the same majority ID — at an event, two
 	// transmitters programmed with the same identifier.
-	FlagSharedIdent ClusterFlagKind = "shared_ident"
+	FlagSharedIdent FlagKind = "shared_ident"
 	// FlagMixedIdent: one cluster holds confident bursts with two or more
 	// different IDs — a transmitter re-programmed during the recording, or
 	// fingerprints too close to separate.
-	FlagMixedIdent ClusterFlagKind = "mixed_ident"
+	FlagMixedIdent FlagKind = "mixed_ident"
 )
 
-// ClusterFlag is one finding of ClusterTransmitters.
-type ClusterFlag struct {
-	Kind    ClusterFlagKind `json:"kind"`
-	Labels  []string        `json:"labels"`
-	Idents  []string        `json:"idents"`
-	Message string          `json:"message"`
+// Flag is one finding of Cluster.
+type Flag struct {
+	Kind    FlagKind `json:"kind"`
+	Labels  []string `json:"labels"`
+	Idents  []string `json:"idents"`
+	Message string   `json:"message"`
 }
 
-// TransmitterCluster summarises the bursts attributed to one transmitter.
-type TransmitterCluster struct {
+// Transmitter summarises the bursts attributed to one transmitter.
+type Transmitter struct {
 	// Label is "T1", "T2", … in order of the cluster's first burst.
 	Label string `json:"label"`
 	// Ident is the confidence-weighted majority ID of the cluster's bursts,
-	// UnknownIdent when none was readable.
+	// idmatch.Unknown when none was readable.
 	Ident string `json:"ident"`
 	// IdentShare is Ident's share (0…1) of the cluster's total ident weight.
 	IdentShare float64 `json:"ident_share"`
@@ -127,9 +208,9 @@ type TransmitterCluster struct {
 	FirstS float64 `json:"first_s"`
 }
 
-// ClusterResult is the outcome of ClusterTransmitters. The per-burst slices
+// Result is the outcome of Cluster. The per-burst slices
 // are parallel to the input observations.
-type ClusterResult struct {
+type Result struct {
 	// Labels holds the transmitter label of each burst.
 	Labels []string `json:"labels"`
 	// Idents holds each burst's attributed ID: its own when readable,
@@ -137,16 +218,19 @@ type ClusterResult struct {
 	Idents []string `json:"idents"`
 	// Notes explains attributions that differ from the burst's own ID ("" when
 	// there is nothing to say).
-	Notes    []string             `json:"notes"`
-	Clusters []TransmitterCluster `json:"clusters"`
-	Flags    []ClusterFlag        `json:"flags"`
+	Notes    []string      `json:"notes"`
+	Clusters []Transmitter `json:"clusters"`
+	Flags    []Flag        `json:"flags"`
+	// Unattributed counts the edge bursts (see Cluster) left without a
+	// transmitter (Label "").
+	Unattributed int `json:"unattributed"`
 	// OffsetTolHz and ToneTolHz are the tolerances actually used, after any
 	// widening from the measured spread.
 	OffsetTolHz float64 `json:"offset_tol_hz"`
 	ToneTolHz   float64 `json:"tone_tol_hz"`
 }
 
-// ClusterTransmitters groups bursts into transmitters by their fingerprint:
+// Cluster groups bursts into transmitters by their fingerprint:
 // carrier offset and tone pitch.
 //
 // Method: single-linkage agglomerative clustering on the normalised distance
@@ -169,23 +253,49 @@ type ClusterResult struct {
 // attributed the cluster's ID, with a note. Flags report IDs shared by
 // several clusters and clusters with several confident IDs.
 //
+// Edge bursts — cut by the start or end of the recording, split from a
+// burst that held two transmitters (CutStart, CutEnd), or carrying two
+// carriers (DoubleCarrier) — measure their fingerprint on less, or on a
+// mix, and would otherwise make transmitters of their own: they neither
+// form nor link clusters, and are attached afterwards (see attachEdges) to
+// the transmitter they fit by offset, tone and level, or by the
+// identifier they read; an edge burst that fits none and reads none is
+// left unattributed (Label "", counted in Unattributed).
+//
 // Errors: an empty input, or a non-finite offset, tone or time, or a negative
 // tone, is rejected with an error naming the burst.
-func ClusterTransmitters(obs []Observation, opts ClusterOptions) (ClusterResult, error) {
+func Cluster(obs []Observation, opts Options) (Result, error) {
 	if len(obs) == 0 {
-		return ClusterResult{}, errors.New("cluster transmitters: no bursts")
+		return Result{}, errors.New("cluster transmitters: no bursts")
 	}
 	for i, o := range obs {
-		if err := fpCheckObservation(o); err != nil {
-			return ClusterResult{}, fmt.Errorf("cluster transmitters: burst %d (index %d): %w", i, o.Index, err)
+		if err := checkObservation(o); err != nil {
+			return Result{}, fmt.Errorf("cluster transmitters: burst %d (index %d): %w", i, o.Index, err)
 		}
 	}
 	opts = opts.withDefaults()
 	offTol, toneTol := opts.OffsetTolHz, opts.ToneTolHz
 
-	comp := fpSingleLinkage(obs, offTol, toneTol)
+	// Whole bursts make the clusters; bursts cut by the recording or split
+	// from an overlap, and bursts carrying two carriers, join them after.
+	var core []int
+	for i, o := range obs {
+		if !edgeBurst(o) {
+			core = append(core, i)
+		}
+	}
+	if len(core) == 0 {
+		for i := range obs {
+			core = append(core, i)
+		}
+	}
+	sub := make([]Observation, len(core))
+	for k, i := range core {
+		sub[k] = obs[i]
+	}
+	subComp := singleLinkage(sub, offTol, toneTol)
 	if opts.SpreadFactor > 0 {
-		jOff, jTone := fpJitter(obs, comp)
+		jOff, jTone := jitter(sub, subComp)
 		widened := false
 		if w := opts.SpreadFactor * jOff; w > offTol {
 			offTol, widened = w, true
@@ -194,14 +304,24 @@ func ClusterTransmitters(obs []Observation, opts ClusterOptions) (ClusterResult,
 			toneTol, widened = w, true
 		}
 		if widened {
-			comp = fpSingleLinkage(obs, offTol, toneTol)
+			subComp = singleLinkage(sub, offTol, toneTol)
 		}
 	}
+	comp := make([]int, len(obs))
+	for i := range comp {
+		comp[i] = -2 // not yet placed
+	}
+	for k, i := range core {
+		comp[i] = core[subComp[k]]
+	}
+	attachEdges(obs, comp, offTol, toneTol, opts)
 
 	// Group members; order clusters by first start.
 	groups := map[int][]int{}
 	for i, c := range comp {
-		groups[c] = append(groups[c], i)
+		if c >= 0 {
+			groups[c] = append(groups[c], i)
+		}
 	}
 	byTime := func(a, b int) int {
 		if c := cmp.Compare(obs[a].StartS, obs[b].StartS); c != 0 {
@@ -216,15 +336,25 @@ func ClusterTransmitters(obs []Observation, opts ClusterOptions) (ClusterResult,
 	}
 	slices.SortFunc(clusters, func(a, b []int) int { return byTime(a[0], b[0]) })
 
-	res := ClusterResult{
+	res := Result{
 		Labels:      make([]string, len(obs)),
 		Idents:      make([]string, len(obs)),
 		Notes:       make([]string, len(obs)),
 		OffsetTolHz: offTol,
 		ToneTolHz:   toneTol,
 	}
+	for i, c := range comp {
+		if c < 0 { // an edge burst that fits no transmitter
+			res.Idents[i] = idmatch.Unknown
+			if idmatch.Known(obs[i].Ident) {
+				res.Idents[i] = strings.TrimSpace(obs[i].Ident)
+			}
+			res.Notes[i] = "cut by the recording or split from an overlap, and its fingerprint fits no transmitter: left unattributed"
+			res.Unattributed++
+		}
+	}
 	for ci, members := range clusters {
-		tc := fpSummarise(obs, members)
+		tc := summarise(obs, members)
 		tc.Label = fmt.Sprintf("T%d", ci+1)
 		res.Clusters = append(res.Clusters, tc)
 		for _, i := range members {
@@ -234,11 +364,11 @@ func ClusterTransmitters(obs []Observation, opts ClusterOptions) (ClusterResult,
 		for _, i := range members {
 			own := strings.TrimSpace(obs[i].Ident)
 			switch {
-			case !fpIdentKnown(own) && tc.Ident != UnknownIdent:
+			case !idmatch.Known(own) && tc.Ident != idmatch.Unknown:
 				res.Idents[i] = tc.Ident
 				res.Notes[i] = fmt.Sprintf("ID unreadable; attributed %s from fingerprint cluster %s (weight share %.2f)", tc.Ident, tc.Label, tc.IdentShare)
-			case !fpIdentKnown(own):
-				res.Idents[i] = UnknownIdent
+			case !idmatch.Known(own):
+				res.Idents[i] = idmatch.Unknown
 			default:
 				res.Idents[i] = own
 				if own != tc.Ident {
@@ -249,13 +379,13 @@ func ClusterTransmitters(obs []Observation, opts ClusterOptions) (ClusterResult,
 		// Mixed confident IDs in one cluster.
 		confident := map[string]bool{}
 		for _, i := range members {
-			if fpIdentKnown(obs[i].Ident) && fpClampConf(obs[i].IdentConfidence) >= opts.ConfidentMin {
+			if idmatch.Known(obs[i].Ident) && clampConf(obs[i].IdentConfidence) >= opts.ConfidentMin {
 				confident[strings.TrimSpace(obs[i].Ident)] = true
 			}
 		}
 		if len(confident) > 1 {
-			ids := fpSortedKeys(confident)
-			res.Flags = append(res.Flags, ClusterFlag{
+			ids := sortedKeys(confident)
+			res.Flags = append(res.Flags, Flag{
 				Kind:   FlagMixedIdent,
 				Labels: []string{tc.Label},
 				Idents: ids,
@@ -268,7 +398,7 @@ func ClusterTransmitters(obs []Observation, opts ClusterOptions) (ClusterResult,
 	byIdent := map[string][]string{}
 	var identOrder []string
 	for _, tc := range res.Clusters {
-		if tc.Ident == UnknownIdent {
+		if tc.Ident == idmatch.Unknown {
 			continue
 		}
 		if _, ok := byIdent[tc.Ident]; !ok {
@@ -278,7 +408,7 @@ func ClusterTransmitters(obs []Observation, opts ClusterOptions) (ClusterResult,
 	}
 	for _, id := range identOrder {
 		if labels := byIdent[id]; len(labels) > 1 {
-			res.Flags = append(res.Flags, ClusterFlag{
+			res.Flags = append(res.Flags, Flag{
 				Kind:   FlagSharedIdent,
 				Labels: labels,
 				Idents: []string{id},
@@ -290,7 +420,7 @@ func ClusterTransmitters(obs []Observation, opts ClusterOptions) (ClusterResult,
 	return res, nil
 }
 
-func fpCheckObservation(o Observation) error {
+func checkObservation(o Observation) error {
 	for _, v := range []struct {
 		name string
 		x    float64
@@ -308,16 +438,16 @@ func fpCheckObservation(o Observation) error {
 	return nil
 }
 
-func fpClampConf(c float64) float64 {
+func clampConf(c float64) float64 {
 	if math.IsNaN(c) || c < 0 {
 		return 0
 	}
 	return min(c, 1)
 }
 
-// fpDist is the normalised fingerprint distance; +Inf between a toned and a
+// distance is the normalised fingerprint distance; +Inf between a toned and a
 // toneless burst.
-func fpDist(a, b Observation, offTol, toneTol float64) float64 {
+func distance(a, b Observation, offTol, toneTol float64) float64 {
 	if (a.ToneHz == 0) != (b.ToneHz == 0) {
 		return math.Inf(1)
 	}
@@ -326,11 +456,11 @@ func fpDist(a, b Observation, offTol, toneTol float64) float64 {
 	return math.Hypot(do, dt)
 }
 
-// fpSingleLinkage returns a component id per burst: the connected components
+// singleLinkage returns a component id per burst: the connected components
 // of the graph linking bursts at normalised distance ≤ 1, which is exactly a
 // single-linkage dendrogram cut at 1. Bursts are sorted by offset so that only
 // neighbours within OffsetTol are compared.
-func fpSingleLinkage(obs []Observation, offTol, toneTol float64) []int {
+func singleLinkage(obs []Observation, offTol, toneTol float64) []int {
 	n := len(obs)
 	parent := make([]int, n)
 	for i := range parent {
@@ -354,7 +484,7 @@ func fpSingleLinkage(obs []Observation, offTol, toneTol float64) []int {
 			if obs[j].OffsetHz-obs[i].OffsetHz > offTol {
 				break
 			}
-			if fpDist(obs[i], obs[j], offTol, toneTol) <= 1 {
+			if distance(obs[i], obs[j], offTol, toneTol) <= 1 {
 				ri, rj := find(i), find(j)
 				if ri != rj {
 					parent[max(ri, rj)] = min(ri, rj)
@@ -369,10 +499,10 @@ func fpSingleLinkage(obs []Observation, offTol, toneTol float64) []int {
 	return out
 }
 
-// fpJitter estimates the burst-to-burst jitter (1σ, Hz) of offset and tone
+// jitter estimates the burst-to-burst jitter (1σ, Hz) of offset and tone
 // pooled over clusters, from successive differences in time order:
 // σ ≈ 1.4826·median|Δ|/√2 (robust against drift steps and outliers).
-func fpJitter(obs []Observation, comp []int) (offHz, toneHz float64) {
+func jitter(obs []Observation, comp []int) (offHz, toneHz float64) {
 	groups := map[int][]int{}
 	for i, c := range comp {
 		groups[c] = append(groups[c], i)
@@ -390,16 +520,16 @@ func fpJitter(obs []Observation, comp []int) (offHz, toneHz float64) {
 	}
 	const k = 1.4826 / math.Sqrt2
 	if len(dOff) >= 3 {
-		offHz = k * fpMedian(dOff)
+		offHz = k * stats.Median(dOff)
 	}
 	if len(dTone) >= 3 {
-		toneHz = k * fpMedian(dTone)
+		toneHz = k * stats.Median(dTone)
 	}
 	return offHz, toneHz
 }
 
-func fpSummarise(obs []Observation, members []int) TransmitterCluster {
-	tc := TransmitterCluster{Members: slices.Clone(members), FirstS: obs[members[0]].StartS}
+func summarise(obs []Observation, members []int) Transmitter {
+	tc := Transmitter{Members: slices.Clone(members), FirstS: obs[members[0]].StartS}
 	off := make([]float64, 0, len(members))
 	tone := make([]float64, 0, len(members))
 	weights := map[string]float64{}
@@ -408,19 +538,19 @@ func fpSummarise(obs []Observation, members []int) TransmitterCluster {
 		o := obs[i]
 		off = append(off, o.OffsetHz)
 		tone = append(tone, o.ToneHz)
-		if fpIdentKnown(o.Ident) {
-			w := max(fpClampConf(o.IdentConfidence), 1e-3)
+		if idmatch.Known(o.Ident) {
+			w := max(clampConf(o.IdentConfidence), 1e-3)
 			weights[strings.TrimSpace(o.Ident)] += w
 			total += w
 		}
 	}
-	tc.OffsetHz = fpMedian(off)
-	tc.ToneHz = fpMedian(tone)
+	tc.OffsetHz = stats.Median(off)
+	tc.ToneHz = stats.Median(tone)
 	tc.OffsetSpreadHz = slices.Max(off) - slices.Min(off)
 	tc.ToneSpreadHz = slices.Max(tone) - slices.Min(tone)
-	tc.Ident = UnknownIdent
+	tc.Ident = idmatch.Unknown
 	best := 0.0
-	for _, id := range fpSortedKeys(weights) {
+	for _, id := range sortedKeys(weights) {
 		if w := weights[id]; w > best {
 			best, tc.Ident = w, id
 		}
@@ -431,25 +561,11 @@ func fpSummarise(obs []Observation, members []int) TransmitterCluster {
 	return tc
 }
 
-func fpSortedKeys[V any](m map[string]V) []string {
+func sortedKeys[V any](m map[string]V) []string {
 	keys := make([]string, 0, len(m))
 	for k := range m {
 		keys = append(keys, k)
 	}
 	slices.Sort(keys)
 	return keys
-}
-
-// fpMedian returns the median of x (NaN for an empty slice); x is not modified.
-func fpMedian(x []float64) float64 {
-	if len(x) == 0 {
-		return math.NaN()
-	}
-	s := slices.Clone(x)
-	slices.Sort(s)
-	n := len(s)
-	if n%2 == 1 {
-		return s[n/2]
-	}
-	return (s[n/2-1] + s[n/2]) / 2
 }

@@ -1,9 +1,11 @@
-package ident
+package schedule
 
 import (
 	"cmp"
 	"math"
 	"math/rand/v2"
+	"nullseek/ident/fingerprint"
+	"nullseek/ident/internal/stats"
 	"slices"
 	"testing"
 	"time"
@@ -39,8 +41,8 @@ func (tx slotSimTx) periodS(nominalS float64) float64 { return nominalS * (1 + t
 
 // slotSimulate renders the schedule as observations with Gaussian start and
 // end jitter; it returns them and the recording's end (s).
-func slotSimulate(c slotSimCase, rng *rand.Rand) ([]Observation, float64) {
-	var obs []Observation
+func slotSimulate(c slotSimCase, rng *rand.Rand) ([]fingerprint.Observation, float64) {
+	var obs []fingerprint.Observation
 	endS := 0.0
 	for _, tx := range c.txs {
 		p := tx.periodS(c.nominalS)
@@ -50,7 +52,7 @@ func slotSimulate(c slotSimCase, rng *rand.Rand) ([]Observation, float64) {
 			if slices.Contains(c.missed[tx.id], k) {
 				continue
 			}
-			o := Observation{
+			o := fingerprint.Observation{
 				StartS:          s + rng.NormFloat64()*c.jitterS,
 				EndS:            s + tx.onS + rng.NormFloat64()*c.jitterS,
 				Ident:           tx.id,
@@ -59,7 +61,7 @@ func slotSimulate(c slotSimCase, rng *rand.Rand) ([]Observation, float64) {
 			obs = append(obs, o)
 		}
 	}
-	slices.SortFunc(obs, func(a, b Observation) int { return cmp.Compare(a.StartS, b.StartS) })
+	slices.SortFunc(obs, func(a, b fingerprint.Observation) int { return cmp.Compare(a.StartS, b.StartS) })
 	for i := range obs {
 		obs[i].Index = i
 		if !c.start.IsZero() {
@@ -71,7 +73,7 @@ func slotSimulate(c slotSimCase, rng *rand.Rand) ([]Observation, float64) {
 
 // slotTruthOrder is the cyclic order by true phase, rotated to the first
 // transmitter heard in the observations.
-func slotTruthOrder(c slotSimCase, obs []Observation) []string {
+func slotTruthOrder(c slotSimCase, obs []fingerprint.Observation) []string {
 	txs := slices.Clone(c.txs)
 	slices.SortFunc(txs, func(a, b slotSimTx) int {
 		return cmp.Compare(math.Mod(a.phaseS, c.nominalS), math.Mod(b.phaseS, c.nominalS))
@@ -161,7 +163,7 @@ var slotSimCases = []slotSimCase{
 	},
 }
 
-// TestScheduleSyntheticTruth checks BuildSchedule on multi-transmitter
+// TestScheduleSyntheticTruth checks Build on multi-transmitter
 // schedules with known truth generated here: order exact, period within
 // 0.05 %, drift within 30 ppm, gap within 0.1 s, predicted starts and
 // collision times against the analytic truth.
@@ -178,11 +180,12 @@ func TestScheduleSyntheticTruth(t *testing.T) {
 			for seed := 1; seed <= seeds; seed++ {
 				rng := rand.New(rand.NewPCG(uint64(seed), 99))
 				obs, endS := slotSimulate(c, rng)
-				opts := ScheduleOptions{CaptureEndS: endS, StartJitterS: c.jitterS}
+				opts := DefaultOptions()
+				opts.CaptureEndS, opts.StartJitterS = endS, c.jitterS
 				if c.giveNominal {
 					opts.NominalPeriodS = c.nominalS
 				}
-				plan, err := BuildSchedule(obs, nil, opts)
+				plan, err := Build(obs, nil, opts)
 				if err != nil {
 					t.Fatalf("seed %d: %v", seed, err)
 				}
@@ -225,7 +228,7 @@ func TestScheduleSyntheticTruth(t *testing.T) {
 							t.Errorf("drift reference %q", plan.DriftReference)
 						}
 					} else {
-						med := fpMedian(truePeriods)
+						med := stats.Median(truePeriods)
 						wantDrift := (pTrue - med) / med * 1e6
 						if e := got.DriftPPM - wantDrift; math.Abs(e) > 30 {
 							t.Errorf("seed %d %s: drift vs median %+.1f ppm, truth %+.1f ppm", seed, id, got.DriftPPM, wantDrift)
@@ -370,7 +373,7 @@ func slotSxx(c slotSimCase, id string) float64 {
 	return sxx
 }
 
-func slotMinFit(p *SlotPlan, a, b string) int {
+func slotMinFit(p *Plan, a, b string) int {
 	return min(p.Transmitter(a).FitBursts, p.Transmitter(b).FitBursts)
 }
 
@@ -381,36 +384,4 @@ func slotTQuantile(df int) float64 {
 		return math.Inf(1)
 	}
 	return distuv.StudentsT{Mu: 0, Sigma: 1, Nu: float64(df)}.Quantile(0.9995)
-}
-
-// slotFuzzObservations turns fuzz bytes into observations: 6 bytes a burst
-// (start step, length, offset, tone, ID, confidence), with a few
-// special values (NaN, huge) reachable.
-func slotFuzzObservations(data []byte) []Observation {
-	var obs []Observation
-	t := 0.0
-	special := []float64{math.NaN(), math.Inf(1), -1e300, 1e300, 0, -0.5}
-	for i := 0; i+6 <= len(data) && len(obs) < 300; i += 6 {
-		b := data[i : i+6]
-		step := float64(b[0]) * 3
-		if b[0] == 255 {
-			step = special[int(b[1])%len(special)]
-		}
-		t += step
-		o := Observation{
-			Index:           len(obs),
-			StartS:          t,
-			EndS:            t + float64(b[1]),
-			OffsetHz:        float64(int8(b[2])) * 4,
-			ToneHz:          float64(b[3]) * 8,
-			Ident:           []string{"N0CALL/1", "N0CALL/2", "N0CALL/3", UnknownIdent, ""}[int(b[4])%5],
-			IdentConfidence: float64(b[5]) / 200,
-			DoubleCarrier:   b[5] == 7,
-		}
-		if b[2] == 0x80 {
-			o.OffsetHz = special[int(b[3])%len(special)]
-		}
-		obs = append(obs, o)
-	}
-	return obs
 }
