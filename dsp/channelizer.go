@@ -479,3 +479,81 @@ func dotSym(half []float32, w []complex64) complex64 {
 	}
 	return complex(ar+br, ai+bi)
 }
+
+// Response returns the power gain |H(f)|² of the whole filter chain for a
+// complex tone fHz from the channel centre (after the mixer), relative to
+// full scale in and out: the product of the stages' responses, each
+// Σ h[k]·e^{−j2πf·k/rate} at its own input rate. It is 1 at DC (the taps
+// have unit DC gain), within the ±0.1 dB ripple over the passband, and
+// ≤ −60 dB beyond the stopband edge. For |f| ≥ OutRate()/2 it gives the
+// gain at f, which then aliases onto f − k·OutRate() at the output.
+func (c *Channelizer) Response(fHz float64) float64 {
+	g := 1.0
+	rate := c.inRate
+	for _, s := range c.stages {
+		w := 2 * math.Pi * fHz / rate
+		// Σ h[k]·e^{−jwk}, the phasor stepped by one multiply per tap
+		// (rounding error ~1e−13 over a few thousand taps)
+		step := complex(math.Cos(w), -math.Sin(w))
+		ph := complex(1, 0)
+		var a complex128
+		for _, h := range s.taps {
+			a += complex(h, 0) * ph
+			ph *= step
+		}
+		g *= real(a)*real(a) + imag(a)*imag(a)
+		rate /= float64(s.d)
+	}
+	return g
+}
+
+// noiseGrid is the number of points over one output-rate span at which
+// NoiseBandwidthHz and NoiseACF sample Response.
+const noiseGrid = 4096
+
+// NoiseBandwidthHz returns the chain's equivalent noise bandwidth: the
+// integral of Response over (−OutRate()/2, OutRate()/2], so that complex
+// white noise of N0 per hertz at the input comes out with power
+// N0·NoiseBandwidthHz(). Noise from beyond ±OutRate()/2 that aliases in is
+// left out: at ≥ 60 dB down it adds less than 1e−6·InRate/OutRate of the
+// result. Computed by the midpoint rule on 4096 points (the response is
+// smooth on that grid: its finest detail, the transition band, spans ≥ 5 %
+// of the output rate for any plan NewChannelizer accepts with pass and stop
+// edges 1 % of the rate apart or more).
+func (c *Channelizer) NoiseBandwidthHz() float64 {
+	acf := c.NoiseACF(1)
+	return acf[0]
+}
+
+// NoiseACF returns the autocorrelation of the chain's output for complex
+// white input noise of unit density (1 per hertz): R[m] = E[y(n)·y*(n−m)]
+// for lags m = 0 … maxLag−1 output samples, R[m] = ∫ Response(f)·
+// e^{j2πfm/OutRate} df over one output span (real and even: the taps are
+// real and symmetric). R[0] is NoiseBandwidthHz. Lags beyond a few
+// hundred samples are meaningless (the grid has 4096 points) and read 0
+// past noiseGrid/2.
+func (c *Channelizer) NoiseACF(maxLag int) []float64 {
+	n := noiseGrid
+	df := c.outRate / float64(n)
+	resp := make([]float64, n)
+	for i := range resp {
+		resp[i] = c.Response((float64(i)+0.5)*df - c.outRate/2)
+	}
+	out := make([]float64, max(maxLag, 1))
+	lags := min(len(out), n/2)
+	for i, r := range resp {
+		// Σ over lags of r·cos(2πfm/rate), the phasor stepped per lag
+		f := (float64(i)+0.5)*df - c.outRate/2
+		w := 2 * math.Pi * f / c.outRate
+		step := complex(math.Cos(w), math.Sin(w))
+		ph := complex(1, 0)
+		for m := 0; m < lags; m++ {
+			out[m] += r * real(ph)
+			ph *= step
+		}
+	}
+	for m := range out[:lags] {
+		out[m] *= df
+	}
+	return out
+}

@@ -3,6 +3,7 @@ package geo
 import (
 	"encoding/json"
 	"encoding/xml"
+	"math"
 	"nullseek/internal/angle"
 	"strconv"
 	"strings"
@@ -170,5 +171,46 @@ func TestKMLParses(t *testing.T) {
 	}
 	if r := doc.Placemarks[1].Ring; len(strings.Fields(r)) != 73 {
 		t.Errorf("ellipse ring has %d tuples, want 73", len(strings.Fields(r)))
+	}
+}
+
+// A station with many bearings is drawn as one line: their weighted mean,
+// with the sigma of a weighted mean, 1/√Σσᵢ⁻² (σ/√n for equal sigmas;
+// common practice); rejected bearings are drawn one by one, and stations
+// with few bearings bearing by bearing.
+func TestDrawnCombinesBusyStations(t *testing.T) {
+	lat0, lon0 := 47.25, 8.75
+	mk := func(st string, az, dist, off float64) LOP {
+		la, lo, _ := Direct(lat0, lon0, az, dist)
+		_, b, _ := Inverse(la, lo, lat0, lon0)
+		return LOP{Ident: "T", Station: st, Lat: la, Lon: lo, BearingDeg: angle.Wrap360(b + off), SigmaDeg: 2}
+	}
+	var lops []LOP
+	for k := 0; k < 35; k++ {
+		lops = append(lops, mk("BUSY", 20, 3000, float64(k%5-2)*0.5))
+	}
+	lops = append(lops, mk("BUSY", 20, 3000, 45)) // an outlier
+	lops = append(lops, mk("B", 140, 2500, 0), mk("C", 250, 2000, 0))
+	f, err := SolveFix(lops, FixOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if f.Bearings[35].Used {
+		t.Fatalf("outlier used")
+	}
+	lines, undrawn := f.Drawn()
+	if len(lines) != 4 || undrawn != 0 {
+		t.Fatalf("%d lines (%d undrawn), want combined BUSY, its outlier, B, C", len(lines), undrawn)
+	}
+	c := lines[0]
+	if c.Station != "BUSY" || c.Count != 35 || math.Abs(c.SigmaDeg-2/math.Sqrt(35)) > 1e-12 {
+		t.Errorf("combined line %+v, want 35 bearings with sigma 2/√35", c)
+	}
+	_, truth, _ := Inverse(lops[0].Lat, lops[0].Lon, lat0, lon0)
+	if d := angle.Diff(angle.Wrap360(truth), c.BearingDeg); math.Abs(d) > 1e-9 { // the offsets −1…+1, seven times over, average to 0
+		t.Errorf("combined bearing %v, want %v", c.BearingDeg, angle.Wrap360(truth))
+	}
+	if lines[1].Used || lines[1].Count != 1 || lines[2].Station != "B" || lines[3].Station != "C" {
+		t.Errorf("lines %+v", lines[1:])
 	}
 }

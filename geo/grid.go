@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"nullseek/internal/angle"
 	"strconv"
 	"strings"
 )
@@ -130,7 +131,7 @@ func (g *Grid) Validate() error {
 		return fmt.Errorf("grid cell size %v m is outside 1..100000", g.CellM)
 	case math.IsNaN(g.RotationDeg) || math.IsInf(g.RotationDeg, 0):
 		return fmt.Errorf("grid rotation %v is not a number", g.RotationDeg)
-	case g.Cols < 1 || g.Rows < 1 || g.Cols*g.Rows > 4_000_000:
+	case g.Cols < 1 || g.Rows < 1 || float64(g.Cols)*float64(g.Rows) > 4_000_000:
 		return fmt.Errorf("grid must have 1 or more columns and rows and at most 4e6 cells (have %d×%d)", g.Cols, g.Rows)
 	case g.FirstCol < 0:
 		return errors.New("grid first column must be a letter")
@@ -233,8 +234,11 @@ func (g *Grid) set(k, v string) error {
 	return err
 }
 
-// gridFile is the JSON form of a grid.
+// gridFile is the JSON form of a grid (ReadGridJSON ignores spec and
+// automatic, which GridSpec writes).
 type gridFile struct {
+	Spec        string   `json:"spec,omitempty"`
+	Automatic   bool     `json:"automatic,omitempty"`
 	OriginLat   *float64 `json:"origin_lat"`
 	OriginLon   *float64 `json:"origin_lon"`
 	CellM       *float64 `json:"cell_m"`
@@ -270,26 +274,61 @@ func ReadGridJSON(r io.Reader) (*Grid, error) {
 	return g, g.Validate()
 }
 
+// GridSpec is a grid as written into the fix outputs: the keys of
+// ReadGridJSON (so the object can be given back with --grid-file), the
+// ParseGrid spec, and whether the grid was made automatically.
+type GridSpec struct {
+	Spec        string  `json:"spec"`
+	Automatic   bool    `json:"automatic"`
+	OriginLat   float64 `json:"origin_lat"`
+	OriginLon   float64 `json:"origin_lon"`
+	CellM       float64 `json:"cell_m"`
+	RotationDeg float64 `json:"rotation_deg"`
+	Cols        string  `json:"cols"`
+	Rows        string  `json:"rows"`
+	RowDir      string  `json:"row_direction"`
+}
+
+// Spec returns the grid's GridSpec.
+func (g *Grid) Spec() GridSpec {
+	dir := "down"
+	if g.RowsUp {
+		dir = "up"
+	}
+	return GridSpec{Spec: g.String(), Automatic: g.Auto, OriginLat: round(g.OriginLat, 7), OriginLon: round(g.OriginLon, 7),
+		CellM: g.CellM, RotationDeg: g.RotationDeg, Cols: ColumnLabel(g.FirstCol) + "-" + ColumnLabel(g.FirstCol+g.Cols-1),
+		Rows: fmt.Sprintf("%d-%d", g.FirstRow, g.FirstRow+g.Rows-1), RowDir: dir}
+}
+
 // String gives the grid back as a ParseGrid spec.
 func (g *Grid) String() string {
 	dir := "down"
 	if g.RowsUp {
 		dir = "up"
 	}
-	return fmt.Sprintf("origin=%.6f,%.6f cell=%g rotation=%g cols=%s-%s rows=%d-%d rowdir=%s",
-		g.OriginLat, g.OriginLon, g.CellM, g.RotationDeg, ColumnLabel(g.FirstCol), ColumnLabel(g.FirstCol+g.Cols-1),
+	return fmt.Sprintf("origin=%s,%s cell=%g rotation=%g cols=%s-%s rows=%d-%d rowdir=%s",
+		strconv.FormatFloat(round(g.OriginLat, 7), 'f', -1, 64), strconv.FormatFloat(round(g.OriginLon, 7), 'f', -1, 64), g.CellM, g.RotationDeg, ColumnLabel(g.FirstCol), ColumnLabel(g.FirstCol+g.Cols-1),
 		g.FirstRow, g.FirstRow+g.Rows-1, dir)
 }
 
 // AutoGrid makes a north-up grid with a round cell size (1, 2, 2.5 or 5
 // times a power of ten metres) that covers the given points with a margin
 // of one cell, with about maxCells columns and rows (a few more at most;
-// default 16 when maxCells < 2). It is used when the user gives no event
-// grid.
+// default 16 when maxCells < 2, at most 1000). It is used when the user
+// gives no event grid. So that cell names stay the same from run to run
+// while the points move a little, the grid is anchored on round
+// coordinates: the origin (the top-left corner) is the nearest multiple, to
+// the north-west, of a round step in degrees (1, 2 or 5 times a power of ten,
+// at least one cell long), and only moves when the points cross such a
+// line. It returns nil for no points.
 func AutoGrid(lats, lons []float64, maxCells int) *Grid {
+	if len(lats) == 0 || len(lats) != len(lons) {
+		return nil
+	}
 	if maxCells < 2 {
 		maxCells = 16
 	}
+	maxCells = min(maxCells, 1000)
 	lat0, lon0 := lats[0], lons[0]
 	minE, maxE, minN, maxN := 0.0, 0.0, 0.0, 0.0
 	for i := range lats {
@@ -299,12 +338,48 @@ func AutoGrid(lats, lons []float64, maxCells int) *Grid {
 	}
 	span := math.Max(math.Max(maxE-minE, maxN-minN), 100)
 	cell := niceStep(span / float64(maxCells-2))
-	e0 := math.Floor(minE/cell)*cell - cell
-	n0 := math.Ceil(maxN/cell)*cell + cell
-	cols := int(math.Ceil((maxE+cell-e0)/cell)) + 1
-	rows := int(math.Ceil((n0-(minN-cell))/cell)) + 1
-	olat, olon := FromENU(lat0, lon0, e0, n0)
-	return &Grid{OriginLat: olat, OriginLon: olon, CellM: cell, FirstRow: 1, Cols: cols, Rows: rows, Auto: true}
+	// The extent's north-west corner, one cell out.
+	nwLat, _ := FromENU(lat0, lon0, 0, maxN+cell)
+	_, nwLon := FromENU(lat0, lon0, minE-cell, 0)
+	for i := range lats { // the westmost point may lie north or south of lat0
+		_, lo := FromENU(lats[i], lons[i], -cell, 0)
+		if angle.Diff(nwLon, lo) < 0 {
+			nwLon = lo
+		}
+	}
+	const mPerDeg = 111_320.0
+	q := niceDeg(cell / mPerDeg)
+	olat := math.Min(math.Ceil(nwLat/q)*q, 89)
+	olon := math.Floor(nwLon/q) * q
+	if olon < -180 {
+		olon = -180
+	}
+	g := &Grid{OriginLat: roundTo(olat, q), OriginLon: roundTo(olon, q), CellM: cell, FirstRow: 1, Auto: true}
+	maxX, maxY := 0.0, 0.0
+	for i := range lats {
+		x, y := g.toGrid(lats[i], lons[i])
+		maxX, maxY = math.Max(maxX, x), math.Max(maxY, y)
+	}
+	g.Cols = int(math.Ceil(maxX+1e-9)) + 1
+	g.Rows = int(math.Ceil(maxY+1e-9)) + 1
+	return g
+}
+
+// niceDeg rounds x (degrees) up to 1, 2 or 5 times a power of ten.
+func niceDeg(x float64) float64 {
+	p := math.Pow(10, math.Floor(math.Log10(x)))
+	for _, m := range []float64{1, 2, 5, 10} {
+		if m*p >= x*(1-1e-12) {
+			return m * p
+		}
+	}
+	return 10 * p
+}
+
+// roundTo removes the rounding noise of a multiple of q.
+func roundTo(x, q float64) float64 {
+	digits := math.Max(0, -math.Floor(math.Log10(q))+1)
+	return round(x, int(digits))
 }
 
 // niceStep rounds x up to 1, 2, 2.5 or 5 times a power of ten.

@@ -3,6 +3,7 @@ package geo
 import (
 	"errors"
 	"math"
+	"nullseek/internal/angle"
 	"strings"
 	"testing"
 	"time"
@@ -157,4 +158,89 @@ func FuzzReadBearingsJSON(f *testing.F) {
 			}
 		}
 	})
+}
+
+// Bounds on every number of a bearing row, one error naming row and field:
+// latitude ±90, longitude ±180 (inclusive), 0 < sigma < 90° and finite,
+// declination ±180.
+func TestReadBearingsBounds(t *testing.T) {
+	row := func(s string) string {
+		return "ident,station,lat,lon,bearing_deg,sigma_deg,reference,time,declination_deg\nT,A,1,2,30,2,true,,\n" + s + "\n"
+	}
+	for _, c := range []struct{ in, want string }{
+		{row("T,B,-90.0001,2,30,2,true,,"), `row 3, field "lat"`},
+		{row("T,B,1,-180.5,30,2,true,,"), `row 3, field "lon"`},
+		{row("T,B,1,2,30,NaN,true,,"), `row 3, field "sigma_deg"`},
+		{row("T,B,1,2,30,Inf,true,,"), `row 3, field "sigma_deg"`},
+		{row("T,B,1,2,30,90,true,,"), `row 3, field "sigma_deg": 90 must be less than 90 degrees`},
+		{row("T,B,1,2,30,1e-400,true,,"), `row 3, field "sigma_deg"`},
+		{row("T,B,1,2,Inf,2,true,,"), `row 3, field "bearing_deg"`},
+		{row("T,B,1,2,30,2,magnetic,,200"), `row 3, field "declination_deg"`},
+	} {
+		if _, err := ReadBearingsCSV(strings.NewReader(c.in)); err == nil || !strings.Contains(err.Error(), c.want) {
+			t.Errorf("%q: %v, want %q", c.in[strings.LastIndex(c.in[:len(c.in)-1], "\n")+1:], err, c.want)
+		}
+	}
+	for _, ok := range []string{row("T,B,90,180,30,2,true,,"), row("T,B,-90,-180,30,89.9,true,,")} {
+		if _, err := ReadBearingsCSV(strings.NewReader(ok)); err != nil {
+			t.Errorf("edge values refused: %v", err)
+		}
+	}
+}
+
+// JSON booleans are read where booleans are natural ("ambiguous": false).
+func TestReadBearingsJSONBooleans(t *testing.T) {
+	in := `[{"ident":"T","station":"A","lat":1,"lon":2,"bearing_deg":30,"sigma_deg":2,"reference":"true","ambiguous":false},
+	{"ident":"T","station":"B","lat":1.1,"lon":2,"bearing_deg":300,"sigma_deg":2,"reference":"true","ambiguous":true}]`
+	recs, err := ReadBearingsJSON(strings.NewReader(in))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if recs[0].Ambiguous || !recs[1].Ambiguous {
+		t.Errorf("ambiguous %v %v", recs[0].Ambiguous, recs[1].Ambiguous)
+	}
+	if _, err := ReadBearingsJSON(strings.NewReader(strings.Replace(in, `"lat":1,`, `"lat":true,`, 1))); err == nil || !strings.Contains(err.Error(), `entry 1, field "lat"`) {
+		t.Errorf("boolean latitude: %v", err)
+	}
+}
+
+// What WriteBearingsCSV writes, ReadBearingsCSV reads back (to the
+// written precision), and repeated records are spotted as such.
+func TestWriteBearingsCSVRoundTrip(t *testing.T) {
+	when := time.Date(2026, 4, 2, 3, 4, 5, 0, time.UTC)
+	recs := []BearingRecord{
+		{LOP: LOP{Ident: "N0CALL/1", Station: "A, north", Lat: 46.1234567, Lon: -7.7654321, BearingDeg: 123.456, SigmaDeg: 2.5, Time: when, Ambiguous: true}},
+		{LOP: LOP{Ident: "N0CALL/1", Station: "B", Lat: -33.5, Lon: 151.25, BearingDeg: 0.004, SigmaDeg: 1}, Magnetic: true, DeclinationDeg: -3.25, HasDeclination: true},
+	}
+	var b strings.Builder
+	if err := WriteBearingsCSV(&b, recs); err != nil {
+		t.Fatal(err)
+	}
+	got, err := ReadBearingsCSV(strings.NewReader(b.String()))
+	if err != nil {
+		t.Fatalf("%v\n%s", err, b.String())
+	}
+	for i, g := range got {
+		w := recs[i]
+		if g.Ident != w.Ident || g.Station != w.Station || math.Abs(g.Lat-w.Lat) > 5e-7 || math.Abs(g.Lon-w.Lon) > 5e-7 ||
+			math.Abs(angle.Diff(g.BearingDeg, w.BearingDeg)) > 0.005 || g.SigmaDeg != w.SigmaDeg || !g.Time.Equal(w.Time) ||
+			g.Ambiguous != w.Ambiguous || g.Magnetic != w.Magnetic || g.HasDeclination != w.HasDeclination || g.DeclinationDeg != w.DeclinationDeg {
+			t.Errorf("record %d: wrote %+v, read %+v", i, w, g)
+		}
+	}
+	bad := []BearingRecord{{LOP: LOP{Ident: "T", Station: "S", BearingDeg: math.NaN(), SigmaDeg: 1}}}
+	if err := WriteBearingsCSV(&strings.Builder{}, bad); err == nil {
+		t.Error("NaN bearing written")
+	}
+	var d Duplicates
+	again := got[0]
+	again.Row = 9
+	for _, r := range []BearingRecord{got[0], got[1], again} {
+		d.Seen(r)
+	}
+	other := again
+	other.SigmaDeg = 2.6
+	if dup, _ := d.Seen(other); dup || d.Count != 1 || d.First != 9 || d.FirstOf != got[0].Row {
+		t.Errorf("duplicates: count %d first %d of %d", d.Count, d.First, d.FirstOf)
+	}
 }

@@ -2,6 +2,7 @@ package geo
 
 import (
 	"errors"
+	"fmt"
 	"math"
 	"sort"
 )
@@ -14,9 +15,12 @@ type CellProb struct {
 	Probability float64 `json:"probability"`
 }
 
-// vmSet holds bearings prepared for fast von Mises evaluation on a plane.
+// vmSet holds bearings prepared for fast von Mises evaluation on a plane,
+// summed per station position: Σᵢ κᵢ cos(φᵢ − θ) = S sin θ + C cos θ with
+// S = Σ κᵢ sin φᵢ and C = Σ κᵢ cos φᵢ, exactly, for the bearings of one
+// station (θ, the direction to the point, is theirs in common).
 type vmSet struct {
-	e, n, sin, cos, kappa []float64
+	e, n, s, c []float64
 }
 
 // prepareVM puts the stations on the tangent plane at (lat0, lon0). Each
@@ -25,21 +29,41 @@ type vmSet struct {
 // (latRef, lonRef), a point in the area of interest; across an event map the
 // remaining difference is far below any bearing sigma.
 func prepareVM(lops []LOP, lat0, lon0, latRef, lonRef float64) vmSet {
+	return prepareVMEach(func(yield func(*LOP)) {
+		for i := range lops {
+			yield(&lops[i])
+		}
+	}, lat0, lon0, latRef, lonRef)
+}
+
+// prepareVMEach is prepareVM over the LOPs that each yields.
+func prepareVMEach(each func(func(*LOP)), lat0, lon0, latRef, lonRef float64) vmSet {
 	v := vmSet{}
 	re, rn := ENU(lat0, lon0, latRef, lonRef)
-	for _, l := range lops {
-		e, n := ENU(lat0, lon0, l.Lat, l.Lon)
-		phi := l.BearingDeg * deg
-		if d, azi1, _ := Inverse(l.Lat, l.Lon, latRef, lonRef); d > 1 {
-			phi += wrapPi(math.Atan2(re-e, rn-n) - azi1*deg)
-		}
-		s := l.SigmaDeg * deg
-		v.e = append(v.e, e)
-		v.n = append(v.n, n)
-		v.sin = append(v.sin, math.Sin(phi))
-		v.cos = append(v.cos, math.Cos(phi))
-		v.kappa = append(v.kappa, 1/(s*s))
+	type st struct {
+		k    int
+		turn float64
 	}
+	index := map[posKey]st{}
+	each(func(l *LOP) {
+		key := posKey{l.Station, l.Lat, l.Lon}
+		g, ok := index[key]
+		if !ok {
+			e, n := ENU(lat0, lon0, l.Lat, l.Lon)
+			g = st{k: len(v.e)}
+			if d, azi1, _ := Inverse(l.Lat, l.Lon, latRef, lonRef); d > 1 {
+				g.turn = wrapPi(math.Atan2(re-e, rn-n) - azi1*deg)
+			}
+			index[key] = g
+			v.e, v.n = append(v.e, e), append(v.n, n)
+			v.s, v.c = append(v.s, 0), append(v.c, 0)
+		}
+		phi := l.BearingDeg*deg + g.turn
+		sg := l.SigmaDeg * deg
+		kappa := 1 / (sg * sg)
+		v.s[g.k] += kappa * math.Sin(phi)
+		v.c[g.k] += kappa * math.Cos(phi)
+	})
 	return v
 }
 
@@ -54,10 +78,14 @@ func (v *vmSet) logLik(e, n float64) float64 {
 		if r < 1e-9 {
 			continue
 		}
-		ll += v.kappa[i] * (v.sin[i]*de + v.cos[i]*dn) / r
+		ll += (v.s[i]*de + v.c[i]*dn) / r
 	}
 	return ll
 }
+
+// MaxProbMapSamples bounds the likelihood evaluations of one probability
+// map (cells × samples per cell).
+const MaxProbMapSamples = 20_000_000
 
 // ProbMap is the probability of every cell of a grid, from the bearings
 // alone (von Mises bearing errors with κ = 1/σ², σ in radians; a flat prior
@@ -69,11 +97,21 @@ type ProbMap struct {
 }
 
 // NewProbMap evaluates the likelihood at sub×sub points spread evenly
-// inside each cell (sub < 1 is taken as 1: the cell centre) and normalises
-// over the grid. Stations and bearings are put on the tangent plane at the
-// grid origin (see prepareVM).
+// inside each cell (1 ≤ sub ≤ 64; sub < 1 is taken as 1: the cell centre)
+// and normalises over the grid. Stations and bearings are put on the
+// tangent plane at the grid origin (see prepareVM). Cells × sub² may not
+// exceed MaxProbMapSamples. Memory is one number per cell.
 func NewProbMap(lops []LOP, g *Grid, sub int) (*ProbMap, error) {
-	if len(lops) == 0 {
+	return newProbMap(len(lops), func(yield func(*LOP)) {
+		for i := range lops {
+			yield(&lops[i])
+		}
+	}, g, sub)
+}
+
+// newProbMap is NewProbMap over the n LOPs that each yields.
+func newProbMap(n int, each func(func(*LOP)), g *Grid, sub int) (*ProbMap, error) {
+	if n == 0 {
 		return nil, errors.New("probability map: no bearings")
 	}
 	if err := g.Validate(); err != nil {
@@ -82,44 +120,54 @@ func NewProbMap(lops []LOP, g *Grid, sub int) (*ProbMap, error) {
 	if sub < 1 {
 		sub = 1
 	}
+	if sub > 64 {
+		return nil, fmt.Errorf("probability map: %d samples per cell side is more than 64", sub)
+	}
+	if n := float64(g.Cols) * float64(g.Rows) * float64(sub*sub); n > MaxProbMapSamples {
+		return nil, fmt.Errorf("probability map: %d×%d cells with %d×%d samples each is %.3g evaluations, more than %.0e: use fewer samples per cell or a smaller grid",
+			g.Cols, g.Rows, sub, sub, n, float64(MaxProbMapSamples))
+	}
 	clat, clon := g.GridToLatLon(float64(g.Cols)/2, float64(g.Rows)/2)
-	vm := prepareVM(lops, g.OriginLat, g.OriginLon, clat, clon)
+	vm := prepareVMEach(each, g.OriginLat, g.OriginLon, clat, clon)
 	ce, cn, re, rn := g.axes()
 	ce, cn, re, rn = ce*g.CellM, cn*g.CellM, re*g.CellM, rn*g.CellM
-	ns := sub * sub
-	ll := make([]float64, g.Cols*g.Rows*ns)
-	maxLL := math.Inf(-1)
-	k := 0
+	// Per cell: log Σ exp(ll) over its samples, by log-sum-exp about the
+	// cell's own largest sample; then normalised over the grid.
+	lc := make([]float64, g.Cols*g.Rows)
+	vals := make([]float64, sub*sub)
+	maxLC := math.Inf(-1)
 	for row := 0; row < g.Rows; row++ {
 		for col := 0; col < g.Cols; col++ {
+			m := math.Inf(-1)
+			k := 0
 			for sy := 0; sy < sub; sy++ {
 				y := float64(row) + (float64(sy)+0.5)/float64(sub)
 				for sx := 0; sx < sub; sx++ {
 					x := float64(col) + (float64(sx)+0.5)/float64(sub)
 					v := vm.logLik(x*ce+y*re, x*cn+y*rn)
-					ll[k] = v
-					if v > maxLL {
-						maxLL = v
-					}
+					vals[k] = v
+					m = math.Max(m, v)
 					k++
 				}
 			}
+			var sum float64
+			for _, v := range vals {
+				sum += math.Exp(v - m)
+			}
+			c := row*g.Cols + col
+			lc[c] = m + math.Log(sum)
+			maxLC = math.Max(maxLC, lc[c])
 		}
 	}
-	p := make([]float64, g.Cols*g.Rows)
 	var total float64
-	for c := range p {
-		var s float64
-		for _, v := range ll[c*ns : (c+1)*ns] {
-			s += math.Exp(v - maxLL)
-		}
-		p[c] = s
-		total += s
+	for c, v := range lc {
+		lc[c] = math.Exp(v - maxLC)
+		total += lc[c]
 	}
-	for c := range p {
-		p[c] /= total
+	for c := range lc {
+		lc[c] /= total
 	}
-	return &ProbMap{Grid: g, P: p}, nil
+	return &ProbMap{Grid: g, P: lc}, nil
 }
 
 // Top returns the most probable cells, best first: at most maxCells of them

@@ -6,6 +6,8 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"nullseek/internal/angle"
+	"nullseek/internal/geodesic"
 	"sync"
 	"time"
 )
@@ -122,7 +124,7 @@ func Declination(latDeg, lonDeg, heightM float64, t time.Time) (declDeg float64,
 // MagneticToTrue converts a bearing measured from magnetic north to one from true
 // north: true = magnetic + declination (east positive), normalised to [0, 360).
 func MagneticToTrue(bearingMagDeg, declDeg float64) float64 {
-	return NormalizeDeg(bearingMagDeg + declDeg)
+	return angle.Wrap360(bearingMagDeg + declDeg)
 }
 
 func wmmAt(latDeg, lonDeg, heightM, year float64) (Field, error) {
@@ -150,9 +152,9 @@ func wmmAt(latDeg, lonDeg, heightM, year float64) (Field, error) {
 	}
 
 	// Geodetic → geocentric spherical (WMM report eq. 7), on WGS84.
-	a := WGS84.EquatorialRadiusM()
-	e2 := WGS84.get().e2
-	sinLat, cosLat := sincosd(latDeg)
+	a, fl := geodesic.WGS84.EquatorialRadiusM(), geodesic.WGS84.Flattening()
+	e2 := fl * (2 - fl)
+	sinLat, cosLat := math.Sincos(latDeg * deg)
 	rc := a / math.Sqrt(1-e2*sinLat*sinLat)
 	p := (rc + heightM) * cosLat
 	z := (rc*(1-e2) + heightM) * sinLat
@@ -164,7 +166,7 @@ func wmmAt(latDeg, lonDeg, heightM, year float64) (Field, error) {
 	var pnm, dpnm [wmmNumCoef]float64
 	legendreSchmidt(sinC, cosC, &pnm, &dpnm)
 
-	lon := lonDeg * radPerDeg
+	lon := lonDeg * deg
 	var cosML, sinML [wmmMaxDeg + 1]float64
 	for k := 0; k <= wmmMaxDeg; k++ {
 		sinML[k], cosML[k] = math.Sincos(float64(k) * lon)
@@ -192,7 +194,7 @@ func wmmAt(latDeg, lonDeg, heightM, year float64) (Field, error) {
 	yp /= cosC
 
 	// Rotate from geocentric to geodetic (WMM report eq. 17).
-	psi := latC - latDeg*radPerDeg
+	psi := latC - latDeg*deg
 	sinPsi, cosPsi := math.Sincos(psi)
 	var f Field
 	f.X = xp*cosPsi - zp*sinPsi
@@ -200,8 +202,8 @@ func wmmAt(latDeg, lonDeg, heightM, year float64) (Field, error) {
 	f.Z = xp*sinPsi + zp*cosPsi
 	f.H = math.Hypot(f.X, f.Y)
 	f.F = math.Hypot(f.H, f.Z)
-	f.InclDeg = math.Atan2(f.Z, f.H) / radPerDeg
-	f.DeclDeg = math.Atan2(f.Y, f.X) / radPerDeg
+	f.InclDeg = math.Atan2(f.Z, f.H) / deg
+	f.DeclDeg = math.Atan2(f.Y, f.X) / deg
 	if year < wmmEpoch || year > wmmValidEnd {
 		return f, fmt.Errorf("wmm: year %.3f: %w", year, ErrOutsideModelSpan)
 	}

@@ -67,8 +67,8 @@ func TestWMMOfficialTestValues(t *testing.T) {
 		}
 		// The 6-decimal X, Y, Z, H also fix D and I far better than their 2-decimal
 		// printout: D = atan2(Y, X), I = atan2(Z, H) (WMM report eq. 19).
-		dRef := math.Atan2(v[5], v[4]) / radPerDeg
-		iRef := math.Atan2(v[6], v[7]) / radPerDeg
+		dRef := math.Atan2(v[5], v[4]) / deg
+		iRef := math.Atan2(v[6], v[7]) / deg
 		e := math.Max(angErr(got.DeclDeg, dRef), math.Abs(got.InclDeg-iRef))
 		maxFine = math.Max(maxFine, e)
 		if e > 1e-4 {
@@ -201,7 +201,7 @@ func TestMagneticToTrue(t *testing.T) {
 func TestLegendreSchmidt(t *testing.T) {
 	var p, dp [wmmNumCoef]float64
 	for _, latDeg := range []float64{-80, -12.5, 0, 33, 89} {
-		x, z := math.Sin(latDeg*radPerDeg), math.Cos(latDeg*radPerDeg)
+		x, z := math.Sin(latDeg*deg), math.Cos(latDeg*deg)
 		legendreSchmidt(x, z, &p, &dp)
 		want := map[[2]int]float64{
 			{1, 0}: x, {1, 1}: z,

@@ -20,16 +20,36 @@ import (
 	"gonum.org/v1/plot/vg/draw"
 
 	"nullseek/geo"
+	"nullseek/internal/palette"
 )
 
-// Options controls Render; zero values give the defaults.
+// Options controls Render; zero values give the defaults (Defaults).
 type Options struct {
-	// SizeCm is the side of the square picture; default 22 cm.
+	// SizeCm is the side of the square picture, 2..200 cm; default 22 cm.
 	SizeCm float64
-	// ShadeCells is the shading raster's side in samples; default 240.
+	// ShadeCells is the shading raster's side in samples, 10..2000;
+	// default 240.
 	ShadeCells int
 	// Title above the map; default names the transmitters.
 	Title string
+	// ColorOf gives a transmitter's colour index (internal/palette) by
+	// ident, so several maps and the KML agree; nil: the order of the fixes.
+	ColorOf map[string]int
+}
+
+// Defaults are the values zero Options fields take.
+var Defaults = Options{SizeCm: 22, ShadeCells: 240}
+
+// Validate checks the sizes: zero (the default) or within the documented
+// range.
+func (o Options) Validate() error {
+	if o.SizeCm != 0 && !(o.SizeCm >= 2 && o.SizeCm <= 200) {
+		return fmt.Errorf("map size %v cm is outside 2..200", o.SizeCm)
+	}
+	if o.ShadeCells != 0 && (o.ShadeCells < 10 || o.ShadeCells > 2000) {
+		return fmt.Errorf("map shading raster %d is outside 10..2000 samples a side", o.ShadeCells)
+	}
+	return nil
 }
 
 // Format returns "png" or "svg" from a file name's extension, or an error.
@@ -44,22 +64,13 @@ func Format(path string) (string, error) {
 	return "", fmt.Errorf("map file %q: name it .png or .svg", path)
 }
 
+// The colours are shared with the KML export (internal/palette).
 var (
-	colRejected = color.NRGBA{R: 110, G: 110, B: 110, A: 255}
-	colEllipse  = color.NRGBA{R: 200, G: 0, B: 0, A: 255}
-	colGrid     = color.NRGBA{R: 0, G: 120, B: 60, A: 170}
-	colStation  = color.NRGBA{R: 0, G: 0, B: 0, A: 255}
-	// One colour per transmitter for its bearings and wedges.
-	palette = []color.NRGBA{
-		{R: 20, G: 70, B: 200, A: 255},
-		{R: 0, G: 130, B: 120, A: 255},
-		{R: 130, G: 40, B: 170, A: 255},
-		{R: 150, G: 90, B: 0, A: 255},
-		{R: 60, G: 60, B: 60, A: 255},
-	}
+	colRejected = palette.Rejected
+	colEllipse  = palette.Ellipse
+	colGrid     = palette.Grid
+	colStation  = palette.Station
 )
-
-func withAlpha(c color.NRGBA, a uint8) color.NRGBA { c.A = a; return c }
 
 // frame maps lat/lon to km east/north of a reference point.
 type frame struct{ lat0, lon0 float64 }
@@ -84,11 +95,14 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 	if len(fixes) == 0 {
 		return nil, errors.New("map: no fixes to draw")
 	}
-	if opt.SizeCm <= 0 {
-		opt.SizeCm = 22
+	if err := opt.Validate(); err != nil {
+		return nil, err
 	}
-	if opt.ShadeCells <= 0 {
-		opt.ShadeCells = 240
+	if opt.SizeCm == 0 {
+		opt.SizeCm = Defaults.SizeCm
+	}
+	if opt.ShadeCells == 0 {
+		opt.ShadeCells = Defaults.ShadeCells
 	}
 	fr := frame{fixes[0].Lat, fixes[0].Lon}
 	if g != nil {
@@ -169,12 +183,15 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 	var stNames []string
 	legendUsed, legendRej := false, false
 	for fi, f := range fixes {
-		colUsed := palette[fi%len(palette)]
-		colWedge := withAlpha(colUsed, 38)
-		for _, b := range f.Bearings {
-			if b.Validate() != nil {
-				continue
-			}
+		ci := fi
+		if c, ok := opt.ColorOf[f.Ident]; ok {
+			ci = c
+		}
+		colUsed := palette.Transmitter(ci)
+		colWedge := palette.WithAlpha(colUsed, 38)
+		lines, _ := f.Drawn()
+		for _, d := range lines {
+			b := d.BearingUse
 			L := math.Max(1.3*b.DistM, 0.15*span*1e3)
 			if b.Used {
 				wedge := []([2]float64){{b.Lat, b.Lon}}

@@ -8,6 +8,7 @@ import (
 	"testing"
 
 	"nullseek/geo"
+	"nullseek/internal/palette"
 )
 
 func testFix(t *testing.T) ([]*geo.Fix, *geo.Grid) {
@@ -85,4 +86,50 @@ func TestRenderSVGIsXML(t *testing.T) {
 	if _, err := Render(nil, g, "png", Options{}); err == nil {
 		t.Error("empty fix list accepted")
 	}
+}
+
+// The map draws a transmitter's bearings in its palette colour (shared
+// with the KML export, internal/palette), chosen by ColorOf when given.
+func TestRenderUsesPaletteColours(t *testing.T) {
+	fixes, g := testFix(t)
+	count := func(opt Options, want [3]uint8) int {
+		b, err := Render(fixes, g, "png", opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		img, err := png.Decode(bytes.NewReader(b))
+		if err != nil {
+			t.Fatal(err)
+		}
+		n := 0
+		r := img.Bounds()
+		for y := r.Min.Y; y < r.Max.Y; y++ {
+			for x := r.Min.X; x < r.Max.X; x++ {
+				cr, cg, cb, _ := img.At(x, y).RGBA()
+				if d := absDiff(cr>>8, uint32(want[0])) + absDiff(cg>>8, uint32(want[1])) + absDiff(cb>>8, uint32(want[2])); d < 24 {
+					n++
+				}
+			}
+		}
+		return n
+	}
+	c0, c2 := palette.Transmitter(0), palette.Transmitter(2)
+	first := count(Options{SizeCm: 10}, [3]uint8{c0.R, c0.G, c0.B})
+	other := count(Options{SizeCm: 10, ColorOf: map[string]int{"T1": 2}}, [3]uint8{c2.R, c2.G, c2.B})
+	if first < 50 || other < 50 {
+		t.Errorf("pixels in the transmitter colour: %d (first), %d (ColorOf 2)", first, other)
+	}
+	if n := count(Options{SizeCm: 10, ColorOf: map[string]int{"T1": 2}}, [3]uint8{c0.R, c0.G, c0.B}); n > first/10 {
+		t.Errorf("%d pixels still in colour 0 with ColorOf 2", n)
+	}
+	if _, err := Render(fixes, g, "png", Options{SizeCm: 500}); err == nil {
+		t.Error("a 5 m map accepted")
+	}
+}
+
+func absDiff(a, b uint32) uint32 {
+	if a > b {
+		return a - b
+	}
+	return b - a
 }

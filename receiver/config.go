@@ -8,7 +8,7 @@ import (
 )
 
 // Config selects the channel and sets the burst detector. Zero values take
-// the defaults documented on each field (see Defaults).
+// the defaults of DefaultConfig (see Defaults).
 type Config struct {
 	// FreqHz is the absolute channel frequency. When non-zero it wins over
 	// OffsetHz and needs the recording's centre frequency.
@@ -25,45 +25,139 @@ type Config struct {
 	PassHz, StopHz float64
 	// ReadingsPerS is the rate of channel-power readings (default 200).
 	ReadingsPerS float64
-	// OnDB and OffDB are the hysteresis thresholds above the noise floor
-	// that start and end a burst (defaults 5 and 2.5 dB). A 5 ms reading of
-	// noise alone scatters by about 0.3 dB, so 5 dB never triggers on noise,
-	// while a carrier at 6 dB carrier-to-noise in 12.5 kHz (about 4.4 dB in
-	// this channel filter's noise bandwidth) still lifts the power 5.7 dB.
-	OnDB, OffDB float64
+	// FalseAlarmsPerHour is the detector's design rate of bursts started
+	// by noise alone (default 0.1 an hour). The thresholds follow from it
+	// by the union bound over every window tested (see cfarDesign), so the
+	// rate met is lower; raising it lowers the thresholds a little (a
+	// factor of ten moves them by about 0.3 standard deviations).
+	FalseAlarmsPerHour float64
 	// MinBurstS drops bursts shorter than this (default 0.1 s).
 	MinBurstS float64
 	// MergeGapS bridges drop-outs shorter than this inside one burst
-	// (default 0.1 s; raise it for keyed-carrier CW, whose element gaps
-	// are real silences, and for a turning antenna whose nulls drop the
-	// level under the threshold).
+	// (default 0.1 s; raise it for a turning antenna whose nulls drop the
+	// level into the noise). The marks of keyed Morse are joined without
+	// it (see JoinWaitS).
 	MergeGapS float64
-	// NoiseWindowS is the noise-floor tracker's window (default 20 s).
-	NoiseWindowS float64
-	// KeepAudio asks for the FM and AM demodulated audio of each burst, for
-	// identification. MaxAudioS caps what one burst keeps (default 180 s).
+	// JoinWaitS is how long after a burst ends the detector waits for more
+	// before it decides: bursts whose on and off times follow Morse timing
+	// (keyed carrier, or a carrier keyed by the marks of an MCW
+	// identifier) are joined into one keyed transmission, anything else
+	// stays apart (default 1.5 s: a word gap at 5.6 WPM). A keyed
+	// transmission ends after a gap of JoinWaitS or ten dots, whichever
+	// is longer (at most 3 s).
+	JoinWaitS float64
+	// NoiseAverageS is the time constant of the averaged spectrum the
+	// noise density is estimated from (default 2 s; see dsp.BandNoise).
+	NoiseAverageS float64
+	// KeepAudio asks for the FM and AM demodulated audio of each burst and
+	// piece, for identification.
 	KeepAudio bool
-	MaxAudioS float64
+	// PieceS is the span of one piece of a transmission (default 20 s) and
+	// PieceOverlapS how much of it repeats the previous piece (default 8 s:
+	// a Morse identifier of about ten characters at 8 WPM, so one copy
+	// straddling a boundary is whole in one piece). See Piece.
+	PieceS, PieceOverlapS float64
+	// MaxKeepS caps the level track and audio a closing Burst carries
+	// (default 60 s: a one-minute turn); longer bursts carry none and are
+	// read through their pieces.
+	MaxKeepS float64
 }
 
-// Defaults returns c with zero fields replaced by their defaults.
+// DefaultConfig holds the receiver's defaults: the one place they live
+// (flags and Defaults read them from here).
+var DefaultConfig = Config{
+	ChannelRateHz:      48000,
+	PassHz:             7000,
+	StopHz:             12000,
+	ReadingsPerS:       200,
+	FalseAlarmsPerHour: 0.1,
+	MinBurstS:          0.1,
+	MergeGapS:          0.1,
+	JoinWaitS:          1.5,
+	NoiseAverageS:      2,
+	PieceS:             20,
+	PieceOverlapS:      8,
+	MaxKeepS:           60,
+}
+
+// SNRBandwidthHz is the noise bandwidth SNRs are quoted in: a 12.5 kHz
+// channel, the width the carrier-to-noise ratio of an NBFM channel is
+// stated in (common practice). A Burst's SNRDB is its carrier power over
+// the noise power in 12.5 kHz; its NoiseDB is the noise power its level
+// readings carry, in the channel filter's noise bandwidth
+// (Summary.NoiseBandwidthHz, about 17.9 kHz with the default filter).
+const SNRBandwidthHz = 12500
+
+// PreRollS is how much of the channel before the reading that opened a
+// burst its first piece and its kept audio begin with.
+const PreRollS = 0.5
+
+// Defaults returns c with zero fields replaced by DefaultConfig's.
 func (c Config) Defaults() Config {
-	set := func(v *float64, d float64) {
+	d := DefaultConfig
+	set := func(v *float64, def float64) {
 		if *v == 0 {
-			*v = d
+			*v = def
 		}
 	}
-	set(&c.ChannelRateHz, 48000)
-	set(&c.PassHz, 7000)
-	set(&c.StopHz, 12000)
-	set(&c.ReadingsPerS, 200)
-	set(&c.OnDB, 5)
-	set(&c.OffDB, 2.5)
-	set(&c.MinBurstS, 0.1)
-	set(&c.MergeGapS, 0.1)
-	set(&c.NoiseWindowS, 20)
-	set(&c.MaxAudioS, 180)
+	set(&c.ChannelRateHz, d.ChannelRateHz)
+	set(&c.PassHz, d.PassHz)
+	set(&c.StopHz, d.StopHz)
+	set(&c.ReadingsPerS, d.ReadingsPerS)
+	set(&c.FalseAlarmsPerHour, d.FalseAlarmsPerHour)
+	set(&c.MinBurstS, d.MinBurstS)
+	set(&c.MergeGapS, d.MergeGapS)
+	set(&c.JoinWaitS, d.JoinWaitS)
+	set(&c.NoiseAverageS, d.NoiseAverageS)
+	set(&c.PieceS, d.PieceS)
+	set(&c.PieceOverlapS, d.PieceOverlapS)
+	set(&c.MaxKeepS, d.MaxKeepS)
 	return c
+}
+
+// Validate checks every numeric field (after Defaults) against its
+// practical range and names the flag or field that is wrong. NewScanner
+// calls it.
+func (c Config) Validate() error {
+	c = c.Defaults()
+	for _, f := range []struct {
+		name   string
+		v      float64
+		lo, hi float64
+		unit   string
+	}{
+		{"--freq (FreqHz)", c.FreqHz, -1e12, 1e12, "Hz"},
+		{"--offset (OffsetHz)", c.OffsetHz, -1e10, 1e10, "Hz"},
+		{"--channel-rate (ChannelRateHz)", c.ChannelRateHz, 1000, 1e7, "S/s"},
+		{"PassHz", c.PassHz, 100, 5e6, "Hz"},
+		{"StopHz", c.StopHz, 100, 5e6, "Hz"},
+		{"ReadingsPerS", c.ReadingsPerS, 10, 10000, "/s"},
+		{"--false-alarms (FalseAlarmsPerHour)", c.FalseAlarmsPerHour, 1e-6, 3600, "per hour"},
+		{"--min-burst (MinBurstS)", c.MinBurstS, 0.001, 3600, "s"},
+		{"--merge-gap (MergeGapS)", c.MergeGapS, 0.001, 60, "s"},
+		{"--join-wait (JoinWaitS)", c.JoinWaitS, 0.001, 10, "s"},
+		{"NoiseAverageS", c.NoiseAverageS, 0.1, 60, "s"},
+		{"PieceS", c.PieceS, 1, 600, "s"},
+		{"PieceOverlapS", c.PieceOverlapS, 0.001, 300, "s"},
+		{"MaxKeepS", c.MaxKeepS, 0.001, 3600, "s"},
+	} {
+		if math.IsNaN(f.v) || math.IsInf(f.v, 0) || f.v < f.lo || f.v > f.hi {
+			return fmt.Errorf("receiver: %s is %g %s; it must lie in %g…%g %s", f.name, f.v, f.unit, f.lo, f.hi, f.unit)
+		}
+	}
+	if c.StopHz <= c.PassHz {
+		return fmt.Errorf("receiver: StopHz %g must lie above PassHz %g", c.StopHz, c.PassHz)
+	}
+	if c.PieceOverlapS > c.PieceS/2 {
+		return fmt.Errorf("receiver: PieceOverlapS %g s must be at most half of PieceS %g s", c.PieceOverlapS, c.PieceS)
+	}
+	if c.MinBurstS >= c.PieceS-c.PieceOverlapS {
+		return fmt.Errorf("receiver: --min-burst %g s must be shorter than a piece's new part (PieceS − PieceOverlapS = %g s)", c.MinBurstS, c.PieceS-c.PieceOverlapS)
+	}
+	if c.ReadingsPerS > c.ChannelRateHz/4 {
+		return fmt.Errorf("receiver: ReadingsPerS %g needs a channel rate of at least %g S/s (have %g)", c.ReadingsPerS, 4*c.ReadingsPerS, c.ChannelRateHz)
+	}
+	return nil
 }
 
 // ChannelOffset resolves the channel's offset from the capture centre and

@@ -19,6 +19,7 @@ import (
 // implements sdr.Source and sdr.CU8Reader (the scanner's fast path).
 type cycleSource struct {
 	info  sdr.Info
+	lead  []byte // cu8 delivered once before buf (may be empty)
 	buf   []byte // one second of cu8
 	pos   int    // byte position in buf
 	left  int64  // bytes still to deliver
@@ -55,6 +56,33 @@ func newCycleSource(rate, totalS float64) *cycleSource {
 func (s *cycleSource) Info() sdr.Info { return s.info }
 func (s *cycleSource) Close() error   { return nil }
 
+// newCarrierSource is a cycleSource whose carrier never goes off after
+// leadS seconds of noise alone: the same FM-like carrier as
+// newCycleSource's bursts (its 800 Hz modulation and the 20 kHz offset
+// make whole cycles in the one-second loop, so the phase runs on).
+func newCarrierSource(rate, leadS, totalS float64) *cycleSource {
+	n := int(rate)
+	rng := rand.New(rand.NewSource(2))
+	const noiseSigma = 0.02
+	q := func(v float64) byte { return byte(math.Max(0, math.Min(255, math.Round(127.5+127.5*v)))) }
+	lead := make([]byte, 2*int(leadS*rate))
+	for i := range lead {
+		lead[i] = q(noiseSigma * rng.NormFloat64())
+	}
+	buf := make([]byte, 2*n)
+	for i := 0; i < n; i++ {
+		t := float64(i) / rate
+		ph := 2*math.Pi*memOffsetHz*t - 2500/800*math.Cos(2*math.Pi*800*t)
+		buf[2*i] = q(0.3*math.Cos(ph) + noiseSigma*rng.NormFloat64())
+		buf[2*i+1] = q(0.3*math.Sin(ph) + noiseSigma*rng.NormFloat64())
+	}
+	total := int64(totalS*rate) * 2
+	return &cycleSource{
+		info: sdr.Info{SampleRate: rate, Format: "cu8", Name: "carrier test stream", Samples: total / 2, ClipLevel: 1},
+		lead: lead, buf: buf, left: total, total: total,
+	}
+}
+
 func (s *cycleSource) ReadCU8(dst []byte) (int, error) {
 	if s.left <= 0 {
 		return 0, io.EOF
@@ -64,6 +92,9 @@ func (s *cycleSource) ReadCU8(dst []byte) (int, error) {
 		dst = dst[:s.left]
 	}
 	k := 0
+	if done := s.total - s.left; done < int64(len(s.lead)) {
+		k = copy(dst, s.lead[done:])
+	}
 	for k < len(dst) {
 		c := copy(dst[k:], s.buf[s.pos:])
 		k += c
@@ -82,8 +113,10 @@ func (s *cycleSource) Read(dst []complex64) (int, error) {
 	return n / 2, err
 }
 
-// memRun scans totalS seconds and returns the peak HeapInuse seen (sampled
-// after every block the scanner consumes), the largest live heap after a
+// memRun scans totalS seconds and returns the largest heap goal seen
+// (MemStats.NextGC, the size the runtime lets the heap reach before its
+// next collection: what bounds the peak; sampled after every block the
+// scanner consumes), the largest live heap after a
 // forced GC (taken every ~tenth of the input), and the number of bursts.
 func memRun(t *testing.T, rate, totalS float64) (peak, live uint64, bursts int) {
 	t.Helper()
@@ -95,12 +128,12 @@ func memRun(t *testing.T, rate, totalS float64) (peak, live uint64, bursts int) 
 	runtime.GC()
 	var ms runtime.MemStats
 	runtime.ReadMemStats(&ms)
-	peak, live = ms.HeapInuse, ms.HeapInuse
+	peak, live = ms.NextGC, ms.HeapInuse
 	next := int64(0)
 	step := int64(totalS * rate / 10)
 	progress := func(n int64) {
 		runtime.ReadMemStats(&ms)
-		peak = max(peak, ms.HeapInuse)
+		peak = max(peak, ms.NextGC)
 		if n >= next {
 			runtime.GC()
 			runtime.ReadMemStats(&ms)
@@ -124,11 +157,13 @@ func memRun(t *testing.T, rate, totalS float64) (peak, live uint64, bursts int) 
 // is being checked. The scanner keeps audio (KeepAudio) and a burst starts
 // every second, so every per-burst buffer is exercised 600 times.
 //
-// Slack: 10 % (the requirement) plus 1 MiB absolute, because HeapInuse is
-// sampled between garbage collections and its maximum over 10× more GC
-// cycles can be higher by a span or two of short-lived garbage (per-burst
-// level tracks and audio, ~0.1 MiB each) even when nothing is retained;
-// the live heap after a forced GC has a tighter 256 KiB slack.
+// The peak is taken as the heap goal (NextGC), not the largest HeapInuse
+// sampled: bursts less than JoinWaitS apart are held (up to 16 of them)
+// until it is clear they are not Morse keying, so several MiB of audio are
+// live at times, and the sampled HeapInuse maximum then depends on where
+// the collections fall (more of them in the longer run). The heap goal is
+// set by the live heap and bounds the peak. Slack: 10 % (the requirement)
+// plus 1 MiB; the live heap after a forced GC has a tighter 256 KiB slack.
 func TestMemoryFlat(t *testing.T) {
 	const rate = 240e3
 	t0 := time.Now()
@@ -137,17 +172,80 @@ func TestMemoryFlat(t *testing.T) {
 	peak10, live10, n10 := memRun(t, rate, 600)
 	t2 := time.Now()
 	const mib = 1 << 20
-	t.Logf("60 s: %d bursts, peak HeapInuse %.2f MiB, live %.2f MiB (%.1f s)", n1, float64(peak1)/mib, float64(live1)/mib, t1.Sub(t0).Seconds())
-	t.Logf("600 s: %d bursts, peak HeapInuse %.2f MiB, live %.2f MiB (%.1f s, %.0f MS/s with sampling)", n10, float64(peak10)/mib, float64(live10)/mib, t2.Sub(t1).Seconds(), 600*rate/1e6/t2.Sub(t1).Seconds())
+	t.Logf("60 s: %d bursts, heap goal %.2f MiB, live %.2f MiB (%.1f s)", n1, float64(peak1)/mib, float64(live1)/mib, t1.Sub(t0).Seconds())
+	t.Logf("600 s: %d bursts, heap goal %.2f MiB, live %.2f MiB (%.1f s, %.0f MS/s with sampling)", n10, float64(peak10)/mib, float64(live10)/mib, t2.Sub(t1).Seconds(), 600*rate/1e6/t2.Sub(t1).Seconds())
 	// One burst per second of input: the test stream is doing its job.
 	if n1 < 59 || n1 > 61 || n10 < 599 || n10 > 601 {
 		t.Fatalf("bursts %d and %d, want about 60 and 600", n1, n10)
 	}
 	if float64(peak10) > 1.10*float64(peak1)+mib {
-		t.Errorf("10-minute peak heap %.2f MiB exceeds the 1-minute peak %.2f MiB by more than 10 %% + 1 MiB", float64(peak10)/mib, float64(peak1)/mib)
+		t.Errorf("10-minute heap goal %.2f MiB exceeds the 1-minute one %.2f MiB by more than 10 %% + 1 MiB", float64(peak10)/mib, float64(peak1)/mib)
 	}
 	if live10 > live1+256<<10 {
 		t.Errorf("live heap after GC grew from %.2f MiB to %.2f MiB", float64(live1)/mib, float64(live10)/mib)
+	}
+}
+
+// TestMemoryContinuousCarrier: a carrier that stays on is one burst,
+// delivered in pieces with its audio, and the scanner's memory does not
+// grow with it: the heap goal (see TestMemoryFlat) for ten minutes of
+// carrier is within 20 % of one minute's
+// (the bound the project asks of an hour; BenchmarkSurveyMemory in survey
+// measures the hour, with identification). Input at 240 kS/s, the lowest
+// RTL-SDR rate band (librtlsdr rtl-sdr.h: 225001–300000 S/s). The one-minute
+// burst is under the 60 s keep cap, so it keeps its track and audio; the
+// ten-minute one does not, and its pieces carry everything.
+func TestMemoryContinuousCarrier(t *testing.T) {
+	const rate = 240e3
+	run := func(totalS float64) (peak, goal uint64, bursts []*Burst, pieces int) {
+		src := newCarrierSource(rate, 2, totalS)
+		sc, err := NewScanner(src.Info(), Config{OffsetHz: memOffsetHz, KeepAudio: true})
+		if err != nil {
+			t.Fatal(err)
+		}
+		runtime.GC()
+		var ms runtime.MemStats
+		runtime.ReadMemStats(&ms)
+		base := ms.HeapInuse
+		blocks := 0
+		h := Handler{
+			Piece: func(p *Piece) error {
+				if len(p.FMAudio) == 0 || len(p.Level) == 0 {
+					t.Errorf("piece %d of burst %d has %d audio samples and %d readings", p.Seq, p.Burst, len(p.FMAudio), len(p.Level))
+				}
+				pieces++
+				return nil
+			},
+			Burst: func(b *Burst) error { bursts = append(bursts, b); return nil },
+			Progress: func(int64) {
+				if blocks++; blocks%4 == 0 {
+					runtime.ReadMemStats(&ms)
+					peak = max(peak, ms.HeapInuse-min(base, ms.HeapInuse))
+					goal = max(goal, ms.NextGC-min(base, ms.NextGC))
+				}
+			},
+		}
+		if _, err := sc.Scan(context.Background(), src, h); err != nil {
+			t.Fatal(err)
+		}
+		return peak, goal, bursts, pieces
+	}
+	peak1, goal1, b1, p1 := run(60)
+	peak10, goal10, b10, p10 := run(600)
+	const mib = 1 << 20
+	t.Logf("60 s: peak %.1f MiB over the start (heap goal %.1f), %d pieces; 600 s: peak %.1f MiB (goal %.1f), %d pieces",
+		float64(peak1)/mib, float64(goal1)/mib, p1, float64(peak10)/mib, float64(goal10)/mib, p10)
+	if len(b1) != 1 || len(b10) != 1 {
+		t.Fatalf("%d and %d bursts, want one each", len(b1), len(b10))
+	}
+	if b1[0].LevelTruncated || b1[0].AudioTruncated || !b10[0].LevelTruncated || !b10[0].AudioTruncated || b10[0].Level != nil {
+		t.Errorf("kept tracks: 1 min truncated %v/%v, 10 min %v/%v", b1[0].LevelTruncated, b1[0].AudioTruncated, b10[0].LevelTruncated, b10[0].AudioTruncated)
+	}
+	if b10[0].Pieces != p10 || p10 < 49 {
+		t.Errorf("10 min: %d pieces (burst says %d), want about 50", p10, b10[0].Pieces)
+	}
+	if float64(goal10) > 1.2*float64(goal1) {
+		t.Errorf("10-minute carrier's heap goal %.1f MiB is more than 1.2 × the 1-minute %.1f MiB", float64(goal10)/mib, float64(goal1)/mib)
 	}
 }
 

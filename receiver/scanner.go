@@ -18,10 +18,13 @@ type Summary struct {
 	DurationS      float64 `json:"duration_s"`
 	Bursts         int     `json:"bursts"`
 	ClippedSamples int64   `json:"clipped_samples"`
-	NoiseDB        float64 `json:"noise_dbfs"`
-	OffsetHz       float64 `json:"offset_hz"`
-	FreqHz         float64 `json:"freq_hz,omitempty"`
-	ChannelRateHz  float64 `json:"channel_rate_hz"`
+	// NoiseDB is the last noise estimate: the noise power a level reading
+	// carries, in NoiseBandwidthHz (the channel filter's noise bandwidth).
+	NoiseDB          float64 `json:"noise_dbfs"`
+	NoiseBandwidthHz float64 `json:"noise_bandwidth_hz"`
+	OffsetHz         float64 `json:"offset_hz"`
+	FreqHz           float64 `json:"freq_hz,omitempty"`
+	ChannelRateHz    float64 `json:"channel_rate_hz"`
 	// InBurstAtStart is true when the recording began inside a
 	// transmission: the noise floor could not be seen first, so that
 	// first burst is reported from where the floor was found.
@@ -34,11 +37,18 @@ type reading struct {
 	p     float64    // mean channel power, linear (full-scale sine = 1)
 	r1    complex128 // lag-1 autocorrelation sum (carrier frequency)
 	clip  int        // clipped raw samples in the reading's input span
-	noise float64    // noise floor, linear, when the reading was taken
+	noise float64    // noise power a reading carries, linear, at its time
+	on    bool       // the detector judged the channel occupied
 }
 
 // Scanner is the streaming front end and burst detector for one channel.
-// Build it with NewScanner and feed it with Run.
+// Build it with NewScanner and feed it with Scan (or Run).
+//
+// Memory is bounded whatever the input's length and however long a
+// transmission lasts: besides fixed scratch, a Scanner holds at most one
+// piece (Config.PieceS), the kept level track and audio of the open burst
+// (Config.MaxKeepS) and a few seconds of history. Steady-state processing
+// of a reading allocates nothing; the buffers grow to their caps once.
 type Scanner struct {
 	cfg      Config
 	info     sdr.Info
@@ -46,12 +56,23 @@ type Scanner struct {
 
 	ch      *dsp.Channelizer
 	disc    dsp.FMDiscriminator
-	nf      *dsp.NoiseFloor
 	dec     int
 	outRate float64
 	readN   int // channel samples per reading
 	chunkIn int // input samples per reading
 	delayIn float64
+
+	// noise: the density beside the signal, and what a reading carries
+	bn         *dsp.BandNoise
+	enbw       float64 // channel filter noise bandwidth, Hz
+	noiseLag1  float64 // a reading's lag-1 sum of noise alone, per unit of its noise power
+	noiseLin   float64 // noise power of one reading, linear
+	noiseReady bool
+	cf         cfarDesign
+	pw         []float64 // the last len(pw) readings' powers (ring)
+	wsum       []float64 // their sums over each detection window
+	nRead      int64     // readings seen
+	since      int64     // detection windows start at or after this reading
 
 	// scratch, reused block after block
 	raw   []byte
@@ -61,39 +82,40 @@ type Scanner struct {
 	am    []float32
 	prev  complex64
 
-	// audio pre-trigger rings (channel rate)
-	ringFM, ringAM []float32
-	ringPos        int
-	ringFull       bool
+	// pre-roll: the readings (and their audio) since the last burst, up to
+	// PreRollS
+	pre preRoll
 
-	// detector state
-	recent    []reading // pre-trigger readings, oldest first
-	cur       *burstBuild
-	quietRuns int
+	// the open group and its bounded buffers
+	open        bool
+	g           group
+	quiet       int64     // readings judged off since the last one on
+	mergeN      int64     // readings of quiet that close a segment
+	pc          pieceBuf  // the piece being filled
+	keep        pieceBuf  // the group's level and audio up to MaxKeepS
+	hist        []reading // ring of the last len(hist) readings
+	markScratch []mark
+	piece       Piece // handed to Handler.Piece, reused
+	levels      []LevelSample
+	pieceN      int
+	overlapN    int
+	keepN       int
+
 	nBursts   int
-	noiseDB   float64 // the noise floor's latest estimate, dB
 	clipTotal int64
-	sawQuiet  bool
-	startup   []reading // readings before the floor is known to be noise
-	atEnd     bool      // the stream has ended: an open burst is cut by it
+	atEnd     bool // the stream has ended: an open burst is cut by it
 	summary   Summary
-	emit      func(*Burst) error
-	err       error // first error returned by emit
+	h         Handler
+	err       error // first error returned by a handler
 }
 
-type burstBuild struct {
-	readings   []reading
-	lastAbove  int // index into readings of the last reading above the off threshold
-	firstAbove int
-	cutAtStart bool
-	fm, am     []float32
-	audioStart int64 // channel-rate sample index of fm[0]
-	audioFull  bool
-}
-
-// NewScanner prepares the front end for a stream described by info.
+// NewScanner prepares the front end for a stream described by info. cfg
+// is completed with Defaults and checked with Validate.
 func NewScanner(info sdr.Info, cfg Config) (*Scanner, error) {
 	cfg = cfg.Defaults()
+	if err := cfg.Validate(); err != nil {
+		return nil, err
+	}
 	if !(info.SampleRate > 0) || math.IsInf(info.SampleRate, 0) {
 		return nil, fmt.Errorf("%s: sample rate %v is not usable", info.Name, info.SampleRate)
 	}
@@ -116,7 +138,26 @@ func NewScanner(info sdr.Info, cfg Config) (*Scanner, error) {
 	s.chunkIn = s.readN * s.dec
 	s.disc = dsp.FMDiscriminator{Gain: 1}
 	readingsPerS := s.outRate / float64(s.readN)
-	s.nf = dsp.NewNoiseFloor(readingsPerS, cfg.NoiseWindowS)
+	// noise: ~47 Hz bins at 48 kS/s; bins where the filter passes at least
+	// half the power
+	nfft := 1
+	for float64(nfft) < s.outRate/50 {
+		nfft *= 2
+	}
+	s.bn, err = dsp.NewBandNoise(s.outRate, nfft, ch.Response, 0.5, cfg.NoiseAverageS)
+	if err != nil {
+		return nil, fmt.Errorf("noise estimate: %w", err)
+	}
+	acf := ch.NoiseACF(64)
+	s.enbw = acf[0]
+	// the filtered noise correlates with itself (real: the filter is
+	// symmetric about the channel centre); the carrier estimate takes that
+	// part of the lag-1 sum off, or weak carriers read towards the centre
+	s.noiseLag1 = float64(s.readN) * acf[1] / acf[0]
+	s.cf = newCFAR(acf, s.readN, readingsPerS, cfg.FalseAlarmsPerHour)
+	maxW := s.cf.scales[len(s.cf.scales)-1]
+	s.pw = make([]float64, maxW+1)
+	s.wsum = make([]float64, len(s.cf.scales))
 	// Blocks of about 50 ms of input, a whole number of readings.
 	per := int(math.Max(1, math.Round(0.05*readingsPerS)))
 	s.iq = make([]complex64, per*s.chunkIn)
@@ -124,11 +165,18 @@ func NewScanner(info sdr.Info, cfg Config) (*Scanner, error) {
 	s.chBuf = make([]complex64, 0, per*s.readN+16)
 	s.fm = make([]float32, 0, per*s.readN+16)
 	s.am = make([]float32, 0, per*s.readN+16)
-	if cfg.KeepAudio {
-		n := int(0.5 * s.outRate)
-		s.ringFM = make([]float32, n)
-		s.ringAM = make([]float32, n)
-	}
+
+	rs := s.readingS()
+	warmS := float64(warmFrames*2*nfft) / s.outRate // analysed frames, one in two
+	s.pre = newPreRoll(max(8, int(math.Ceil(math.Max(PreRollS, warmS+0.05)/rs))), s.readN, cfg.KeepAudio)
+	s.pieceN = max(2, int(math.Round(cfg.PieceS/rs)))
+	s.overlapN = min(s.pieceN/2, max(1, int(math.Round(cfg.PieceOverlapS/rs))))
+	s.keepN = int(math.Ceil((PreRollS + cfg.MaxKeepS + 0.2) / rs))
+	s.mergeN = max(1, int64(math.Ceil(cfg.MergeGapS/rs-1e-9)))
+	// the history covers a segment's pre-roll and start, or its end and
+	// the quiet that closed it
+	s.hist = make([]reading, s.pre.cap()+int(s.mergeN)+4*maxW+64)
+
 	s.summary.OffsetHz = off
 	if info.CenterHz != 0 {
 		s.summary.FreqHz = info.CenterHz + off
@@ -143,18 +191,25 @@ func (s *Scanner) OffsetHz() float64 { return s.offsetHz }
 // ChannelRateHz is the channel sample rate after decimation.
 func (s *Scanner) ChannelRateHz() float64 { return s.outRate }
 
-// Run reads src to its end (or until ctx is cancelled), calling emit for
-// every burst as soon as it has ended. progress, when not nil, is called
-// with the number of input samples consumed so far after every block.
+// Run is Scan with a burst callback and a progress callback only (either
+// may be nil): no pieces are assembled.
 func (s *Scanner) Run(ctx context.Context, src sdr.Source, emit func(*Burst) error, progress func(int64)) (Summary, error) {
-	s.emit = emit
+	return s.Scan(ctx, src, Handler{Burst: emit, Progress: progress})
+}
+
+// Scan reads src to its end (or until ctx is cancelled) and hands what it
+// finds to h: the pieces of each transmission while it is on, then the
+// burst when it has ended, in time order. A handler's error stops the scan
+// and is returned. A Scanner scans one stream once.
+func (s *Scanner) Scan(ctx context.Context, src sdr.Source, h Handler) (Summary, error) {
+	s.h = h
 	cu8, fast := src.(sdr.CU8Reader)
 	fast = fast && s.info.Format == "cu8"
 	var total int64
 	var carry int // samples held in s.iq / s.raw from a short read
 	for {
 		if err := ctx.Err(); err != nil {
-			return s.finish(total, emit, err)
+			return s.finish(total, err)
 		}
 		var n int
 		var rerr error
@@ -178,8 +233,8 @@ func (s *Scanner) Run(ctx context.Context, src sdr.Source, emit func(*Burst) err
 				return s.summary, s.err
 			}
 			total += int64(whole)
-			if progress != nil {
-				progress(total)
+			if h.Progress != nil {
+				h.Progress(total)
 			}
 		}
 		// keep the part of a reading that is not yet whole
@@ -194,15 +249,15 @@ func (s *Scanner) Run(ctx context.Context, src sdr.Source, emit func(*Burst) err
 		if rerr != nil {
 			if errors.Is(rerr, io.EOF) {
 				total += int64(carry) // a partial reading at the very end is dropped
-				return s.finish(total, emit, nil)
+				return s.finish(total, nil)
 			}
-			return s.finish(total, emit, rerr)
+			return s.finish(total, rerr)
 		}
 	}
 }
 
 func (s *Scanner) processCU8(raw []byte, first int64) {
-	for off := 0; off < len(raw); off += 2 * s.chunkIn {
+	for off := 0; off < len(raw) && s.err == nil; off += 2 * s.chunkIn {
 		part := raw[off : off+2*s.chunkIn]
 		clip := dsp.CountClippedCU8(part)
 		s.chBuf = s.ch.ProcessCU8(s.chBuf[:0], part)
@@ -211,7 +266,7 @@ func (s *Scanner) processCU8(raw []byte, first int64) {
 }
 
 func (s *Scanner) processIQ(iq []complex64, first int64) {
-	for off := 0; off < len(iq); off += s.chunkIn {
+	for off := 0; off < len(iq) && s.err == nil; off += s.chunkIn {
 		part := iq[off : off+s.chunkIn]
 		clip := dsp.CountClipped(part, s.info.ClipLevel)
 		s.chBuf = s.ch.Process(s.chBuf[:0], part)
@@ -242,35 +297,17 @@ func (s *Scanner) reading(firstIn int64, clip int) {
 		fm, am = s.fm, s.am
 	}
 	s.prev = prev
+	s.bn.Add(x)
+	if n0, sd, ok := s.bn.Density(); ok {
+		s.noiseLin = n0 * s.enbw
+		s.cf.setNoiseSD(sd)
+		if !s.noiseReady && s.bn.Frames() >= warmFrames {
+			s.startNoise()
+		}
+	}
 	idx := firstIn / int64(s.chunkIn)
 	s.clipTotal += int64(clip)
 	s.detect(reading{idx: idx, p: p, r1: r1, clip: clip}, fm, am)
-}
-
-// pushRing stores audio in the pre-trigger rings.
-func (s *Scanner) pushRing(fm, am []float32) {
-	if len(s.ringFM) == 0 {
-		return
-	}
-	for i := range fm {
-		s.ringFM[s.ringPos] = fm[i]
-		s.ringAM[s.ringPos] = am[i]
-		s.ringPos++
-		if s.ringPos == len(s.ringFM) {
-			s.ringPos = 0
-			s.ringFull = true
-		}
-	}
-}
-
-// ringAudio returns the ring's content, oldest first.
-func (s *Scanner) ringAudio() (fm, am []float32) {
-	if !s.ringFull {
-		return append([]float32(nil), s.ringFM[:s.ringPos]...), append([]float32(nil), s.ringAM[:s.ringPos]...)
-	}
-	fm = append(append([]float32(nil), s.ringFM[s.ringPos:]...), s.ringFM[:s.ringPos]...)
-	am = append(append([]float32(nil), s.ringAM[s.ringPos:]...), s.ringAM[:s.ringPos]...)
-	return fm, am
 }
 
 // readingTime is the time in seconds from capture start of the centre of
@@ -279,11 +316,27 @@ func (s *Scanner) readingTime(idx float64) float64 {
 	return ((idx+0.5)*float64(s.chunkIn) - s.delayIn) / s.info.SampleRate
 }
 
+// edgeTime is the time of the start of reading idx (fractional readings
+// allowed): the time of its first channel sample.
+func (s *Scanner) edgeTime(idx float64) float64 {
+	return (idx*float64(s.chunkIn) - s.delayIn) / s.info.SampleRate
+}
+
+func (s *Scanner) levelSample(r reading) LevelSample {
+	t := s.readingTime(float64(r.idx))
+	return LevelSample{
+		Sample:  int64(math.Round(t * s.info.SampleRate)),
+		T:       t,
+		LevelDB: dsp.DBFS(r.p),
+		Clipped: r.clip,
+	}
+}
+
 // finish flushes an open burst and completes the summary.
-func (s *Scanner) finish(total int64, emit func(*Burst) error, cause error) (Summary, error) {
-	if s.cur != nil {
+func (s *Scanner) finish(total int64, cause error) (Summary, error) {
+	if s.open && s.err == nil {
 		s.atEnd = true
-		s.closeBurst()
+		s.finishGroup()
 	}
 	if s.err != nil && cause == nil {
 		cause = s.err
@@ -291,7 +344,8 @@ func (s *Scanner) finish(total int64, emit func(*Burst) error, cause error) (Sum
 	s.summary.Samples = total
 	s.summary.DurationS = float64(total) / s.info.SampleRate
 	s.summary.Bursts = s.nBursts
-	s.summary.NoiseDB = s.noiseDB
+	s.summary.NoiseDB = dsp.DBFS(s.noiseLin)
+	s.summary.NoiseBandwidthHz = s.enbw
 	s.summary.ClippedSamples = s.clipTotal
 	if total == 0 && cause == nil {
 		cause = fmt.Errorf("%s: no complete samples to scan", s.info.Name)

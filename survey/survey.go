@@ -83,10 +83,32 @@ func Run(ctx context.Context, src sdr.Source, opts Options, progress func(int64)
 		return nil, fmt.Errorf("%s: %w", info.Name, err)
 	}
 	res := &Result{Info: info}
-	emit := func(b *receiver.Burst) error {
+	// Identification reads each piece of a transmission as it comes and
+	// keeps the most confident reading (a transmission of any length is
+	// read with bounded memory).
+	var best *Record
+	h := receiver.Handler{Progress: progress}
+	if !opts.NoIdent {
+		h.Piece = func(p *receiver.Piece) error {
+			c := Record{Ident: ident.UnknownIdent}
+			// the transmission's part of the piece: audio with 0.1 s either
+			// side, the level track from edge to edge
+			fm, am, _ := p.Between(p.OnS-0.1, p.OffS+0.1)
+			_, _, level := p.Between(p.OnS, p.OffS)
+			identify(&c, fm, am, p.ChannelRateHz, level, opts.Mode, matcher)
+			if best == nil || betterReading(c, *best) {
+				best = &c
+			}
+			return nil
+		}
+	}
+	h.Burst = func(b *receiver.Burst) error {
 		r := Record{Burst: *b, Ident: ident.UnknownIdent}
-		if !opts.NoIdent {
-			identify(&r, b, opts.Mode, matcher)
+		if best != nil {
+			r.Mode, r.Text, r.ToneHz, r.WPM = best.Mode, best.Text, best.ToneHz, best.WPM
+			r.Ident, r.IdentConfidence, r.IdentMethod = best.Ident, best.IdentConfidence, best.IdentMethod
+			r.Warnings = best.Warnings
+			best = nil
 		}
 		if b.DoubleCarrier {
 			r.Warnings = append(r.Warnings, fmt.Sprintf("carrier stepped by %.0f Hz inside the burst: two transmitters on the air at once?", b.CarrierSpreadHz))
@@ -96,7 +118,7 @@ func Run(ctx context.Context, src sdr.Source, opts Options, progress func(int64)
 		res.Records = append(res.Records, r)
 		return nil
 	}
-	sum, err := sc.Run(ctx, src, emit, progress)
+	sum, err := sc.Scan(ctx, src, h)
 	res.Summary = sum
 	if err != nil {
 		return res, err // the source's errors name it already
@@ -142,18 +164,27 @@ func Observations(recs []Record) []ident.Observation {
 	return obs
 }
 
-// identify decodes the burst's Morse and matches it to the expected IDs.
-func identify(r *Record, b *receiver.Burst, mode ident.Mode, m *ident.Matcher) {
-	rate := b.ChannelRateHz
-	power, powerRate := levelPower(b)
+// betterReading says whether identification c of one piece beats the
+// best so far: more confident, or as confident with more text read.
+func betterReading(c, best Record) bool {
+	if c.IdentConfidence != best.IdentConfidence {
+		return c.IdentConfidence > best.IdentConfidence
+	}
+	return len(c.Text) > len(best.Text)
+}
+
+// identify decodes the Morse of a stretch of one transmission (FM and AM
+// audio at rate, its level track) and matches it to the expected IDs.
+func identify(r *Record, fmAudio, amAudio []float32, rate float64, level []receiver.LevelSample, mode ident.Mode, m *ident.Matcher) {
+	power, powerRate := levelPower(level)
 	if mode == ident.ModeAuto {
-		mode = ident.DetectMode(b.FMAudio, b.AMAudio, rate, power, powerRate)
+		mode = ident.DetectMode(fmAudio, amAudio, rate, power, powerRate)
 	}
 	r.Mode = mode.String()
 	opts := ident.DecodeOptions{Mode: mode}
-	audio := b.FMAudio
+	audio := fmAudio
 	if mode == ident.ModeAM {
-		audio = b.AMAudio
+		audio = amAudio
 	}
 	if m != nil && mode != ident.ModeCW {
 		// With a list, the template can name a burst whose text is lost.
@@ -238,16 +269,16 @@ func repeatedWord(d ident.Decoded) (string, float64, string) {
 	return best, math.Min(1, conf*share), "repeated-text"
 }
 
-// levelPower returns the burst's power track as linear power.
-func levelPower(b *receiver.Burst) ([]float32, float64) {
-	if len(b.Level) < 2 {
+// levelPower returns a level track as linear power and its rate.
+func levelPower(level []receiver.LevelSample) ([]float32, float64) {
+	if len(level) < 2 {
 		return nil, 0
 	}
-	p := make([]float32, len(b.Level))
-	for i, l := range b.Level {
+	p := make([]float32, len(level))
+	for i, l := range level {
 		p[i] = float32(math.Pow(10, l.LevelDB/10))
 	}
-	rate := float64(len(b.Level)-1) / (b.Level[len(b.Level)-1].T - b.Level[0].T)
+	rate := float64(len(level)-1) / (level[len(level)-1].T - level[0].T)
 	return p, rate
 }
 

@@ -3,6 +3,7 @@ package main
 import (
 	"encoding/json"
 	"fmt"
+	"io"
 	"nullseek/internal/atomicfile"
 	"os"
 	"path/filepath"
@@ -12,6 +13,7 @@ import (
 	"github.com/spf13/cobra"
 
 	"nullseek/bearing"
+	"nullseek/geo"
 	"nullseek/polarplot"
 	"nullseek/survey"
 )
@@ -20,6 +22,7 @@ func init() {
 	var in inputFlags
 	var idf identFlags
 	var hf headingFlags
+	var lf liveFlags
 	var asJSON bool
 	var plot, lopCSV string
 	cmd := &cobra.Command{
@@ -32,22 +35,22 @@ bearing when the pattern is ambiguous (a loop's two nulls), the null depth
 and the sweep coverage, per burst and combined per transmitter. It refuses
 rather than invents a bearing when the sweep cannot support one.`,
 		Args: cobra.ExactArgs(1),
-		RunE: func(cmd *cobra.Command, args []string) error {
+		RunE: lf.run(func(cmd *cobra.Command, rec recording) error {
 			notes := func(s string) { fmt.Fprintln(os.Stderr, s) }
 			pat, err := hf.pattern()
 			if err != nil {
 				return err
 			}
 			fo := bearing.FitOptions{}
-			res, tr, err := hf.surveyWithTrack(cmd.Context(), args[0], &in, &idf, pat, fo, notes)
+			res, tr, err := hf.surveyWithTrack(cmd.Context(), rec, &in, &idf, pat, fo, notes)
 			if err != nil {
 				return err
 			}
 			if len(res.Records) == 0 {
-				return fmt.Errorf("%s: no bursts found, so no bearing", args[0])
+				return fmt.Errorf("%s: no bursts found, so no bearing", rec.path)
 			}
 			bbs, txs := survey.Bearings(res, tr, pat, fo, hf.siteSigma)
-			if err := noBearing(args[0], bbs, txs); err != nil {
+			if err := noBearing(rec.path, bbs, txs); err != nil {
 				return err
 			}
 			if plot != "" {
@@ -75,7 +78,7 @@ rather than invents a bearing when the sweep cannot support one.`,
 				return nil
 			}
 			return survey.WriteBearingTable(os.Stdout, bbs, txs)
-		},
+		}),
 	}
 	in.add(cmd)
 	idf.add(cmd)
@@ -84,7 +87,7 @@ rather than invents a bearing when the sweep cannot support one.`,
 	cmd.Flags().BoolVar(&asJSON, "json", false, "one JSON object per burst and per transmitter")
 	cmd.Flags().StringVar(&plot, "plot", "", "write a polar plot per transmitter: PREFIX.png or PREFIX.svg becomes PREFIX-IDENT.png")
 	cmd.Flags().StringVar(&lopCSV, "bearings-csv", "", "write the transmitters' bearings as a CSV that `nullseek fix` reads (needs --station)")
-	addLive(cmd, &in, &idf, &hf) // live receiver and rotator sweep: live.go
+	lf.add(cmd, &in, &idf, &hf) // live receiver, rotator or compass: live.go
 	rootCmd.AddCommand(cmd)
 }
 
@@ -142,18 +145,14 @@ func writeLOPs(path string, hf *headingFlags, start time.Time, txs []survey.TxBe
 	if !ok {
 		return fmt.Errorf("--bearings-csv needs the station's position: --station LAT,LON")
 	}
-	var b strings.Builder
-	b.WriteString("ident,station,lat,lon,bearing_deg,sigma_deg,reference,time,ambiguous\n")
 	st := fmt.Sprintf("%.5f %.5f", lat, lon)
-	when := ""
-	if !start.IsZero() {
-		when = start.UTC().Format(time.RFC3339)
-	}
+	var recs []geo.BearingRecord
 	for _, t := range txs {
 		if t.Err != nil {
 			continue
 		}
-		fmt.Fprintf(&b, "%s,%s,%.6f,%.6f,%.2f,%.2f,true,%s,%v\n", t.Ident, st, lat, lon, t.Combined.BearingDeg, t.SigmaDeg, when, t.Combined.AltBearingDeg != nil)
+		recs = append(recs, geo.BearingRecord{LOP: geo.LOP{Ident: t.Ident, Station: st, Lat: lat, Lon: lon,
+			BearingDeg: t.Combined.BearingDeg, SigmaDeg: t.SigmaDeg, Time: start, Ambiguous: t.Combined.AltBearingDeg != nil}})
 	}
-	return atomicfile.Write(path, []byte(b.String()))
+	return atomicfile.WriteFunc(path, func(w io.Writer) error { return geo.WriteBearingsCSV(w, recs) })
 }

@@ -29,6 +29,7 @@ func init() {
 	var in inputFlags
 	var idf identFlags
 	var hf headingFlags
+	var lf liveFlags
 	var cf calibrateFlags
 	cmd := &cobra.Command{
 		Use:   "calibrate RECORDING",
@@ -49,7 +50,7 @@ OFFSET is the total printed (it includes any --mount-offset given here):
 the antenna's boresight is the heading source's reading plus OFFSET, and
 the saved pattern is measured relative to that boresight.`,
 		Args: cobra.ExactArgs(1),
-		RunE: func(cmd *cobra.Command, args []string) error {
+		RunE: lf.run(func(cmd *cobra.Command, rec recording) error {
 			out, errOut := cmd.OutOrStdout(), cmd.ErrOrStderr()
 			notes := func(s string) { fmt.Fprintln(errOut, s) }
 			known, how, err := cf.bearingFrom(&hf)
@@ -64,7 +65,7 @@ the saved pattern is measured relative to that boresight.`,
 				return err
 			}
 			fo := bearing.FitOptions{}
-			res, tr, err := hf.surveyWithTrack(cmd.Context(), args[0], &in, &idf, nominal, fo, notes)
+			res, tr, err := hf.surveyWithTrack(cmd.Context(), rec, &in, &idf, nominal, fo, notes)
 			if err != nil {
 				return err
 			}
@@ -86,7 +87,7 @@ the saved pattern is measured relative to that boresight.`,
 				return json.NewEncoder(out).Encode(calibrationJSON(cal, total, hf.mountOffset, how, cf.out))
 			}
 			return writeCalibration(out, cal, nominal.Name, total, hf.mountOffset, how, cf.out)
-		},
+		}),
 	}
 	in.add(cmd)
 	idf.add(cmd)
@@ -98,7 +99,7 @@ the saved pattern is measured relative to that boresight.`,
 	fl.StringVar(&cf.ident, "ident", "", "the calibration transmitter's identifier (or fingerprint label) when several were heard")
 	fl.StringVar(&cf.out, "out", "", "write the measured pattern here (JSON; required)")
 	fl.BoolVar(&cf.asJSON, "json", false, "print the result as one JSON object")
-	addLive(cmd, &in, &idf, &hf)
+	lf.add(cmd, &in, &idf, &hf) // live receiver, rotator or compass: live.go
 	rootCmd.AddCommand(cmd)
 }
 

@@ -18,7 +18,7 @@ import (
 	"nullseek/heading"
 	"nullseek/ident"
 	"nullseek/internal/angle"
-	"nullseek/mapplot"
+	"nullseek/locate"
 	"nullseek/polarplot"
 	"nullseek/receiver"
 	"nullseek/sdr"
@@ -65,8 +65,6 @@ func runDemo(ctx context.Context, w io.Writer, outDir string, writeIQ bool) erro
 		sc.Name, sc.Place, len(sc.Beacons), sc.ChannelHz/1e6, len(sc.Stations), sc.DurationS, sc.Start.Format(time.RFC3339))
 
 	var lops []geo.LOP
-	var csv strings.Builder
-	csv.WriteString("ident,station,lat,lon,bearing_deg,sigma_deg,reference,time,ambiguous\n")
 	var first *survey.Result
 	for si, st := range sc.Stations {
 		src, err := sim.NewSource(sc, st)
@@ -127,8 +125,6 @@ func runDemo(ctx context.Context, w io.Writer, outDir string, writeIQ bool) erro
 			lop := geo.LOP{Ident: tb.Ident, Station: st.Name, Lat: st.Lat, Lon: st.Lon,
 				BearingDeg: c.BearingDeg, SigmaDeg: tb.SigmaDeg, Time: sc.Start, Ambiguous: c.AltBearingDeg != nil}
 			lops = append(lops, lop)
-			fmt.Fprintf(&csv, "%s,%s,%.6f,%.6f,%.2f,%.2f,true,%s,%v\n", lop.Ident, lop.Station, lop.Lat, lop.Lon,
-				lop.BearingDeg, lop.SigmaDeg, sc.Start.Format(time.RFC3339), lop.Ambiguous)
 			if len(tb.Bursts) > 0 {
 				bb := bbs[tb.Bursts[0]]
 				name := filepath.Join(outDir, fmt.Sprintf("polar-%s-%s.png", st.Name, fileSafe(tb.Ident)))
@@ -160,30 +156,26 @@ func runDemo(ctx context.Context, w io.Writer, outDir string, writeIQ bool) erro
 	}
 
 	// Fixes.
-	if err := atomicfile.Write(filepath.Join(outDir, "bearings.csv"), []byte(csv.String())); err != nil {
+	recs := make([]geo.BearingRecord, len(lops))
+	for i, l := range lops {
+		recs[i] = geo.BearingRecord{LOP: l}
+	}
+	if err := atomicfile.WriteFunc(filepath.Join(outDir, "bearings.csv"), func(w io.Writer) error { return geo.WriteBearingsCSV(w, recs) }); err != nil {
 		return err
 	}
 	grid := &geo.Grid{OriginLat: sc.GridOriginLat, OriginLon: sc.GridOriginLon, CellM: sc.GridCellM,
 		Cols: sc.GridCols, Rows: sc.GridRows, FirstRow: 1}
-	if err := grid.Validate(); err != nil {
+	opt := locate.Options{Grid: grid, GeoJSONPath: filepath.Join(outDir, "fixes.geojson"), MapPath: filepath.Join(outDir, "map.png")}
+	opt.Map.Title = "nullseek demo: " + sc.Place
+	res, err := locate.RunLOPs(lops, opt)
+	if err != nil {
 		return err
 	}
-	idents, groups := geo.GroupByIdent(lops)
-	var fixes []*geo.Fix
-	fmt.Fprintf(w, "Fixes (95%% ellipses; event grid %s):\n", grid)
-	for _, id := range idents {
-		f, err := geo.SolveFixAmbiguous(groups[id], geo.FixOptions{})
-		if err != nil {
-			fmt.Fprintf(w, "  %-10s no fix: %v\n", id, err)
-			continue
-		}
-		if err := f.Place(grid, 4); err != nil {
-			return err
-		}
-		fixes = append(fixes, f)
+	fmt.Fprintf(w, "Fixes (95%% ellipses, semi-axes; event grid %s):\n", grid)
+	for _, f := range res.Fixes {
 		var truthErr float64
 		for _, b := range sc.Beacons {
-			if b.ID == id {
+			if b.ID == f.Ident {
 				truthErr, _, _ = geo.Inverse(f.Lat, f.Lon, b.Lat, b.Lon)
 			}
 		}
@@ -194,28 +186,21 @@ func runDemo(ctx context.Context, w io.Writer, outDir string, writeIQ bool) erro
 			}
 			cells += fmt.Sprintf(" %s %.0f%%", c.Cell, 100*c.Probability)
 		}
-		fmt.Fprintf(w, "  %-10s %s  %s  cell %-4s ellipse %.0f×%.0f m at %.0f°; %.0f m from truth; cells:%s\n",
-			id, geo.FormatLatLon(f.Lat, f.Lon), f.Maidenhead, f.GridCell,
+		fmt.Fprintf(w, "  %-10s %s  %s  cell %-4s ellipse semi-axes %.0f×%.0f m at %.0f°; %.0f m from truth; cells:%s\n",
+			f.Ident, geo.FormatLatLon(f.Lat, f.Lon), f.Maidenhead, f.GridCell,
 			f.Ellipse.SemiMajorM, f.Ellipse.SemiMinorM, f.Ellipse.OrientationDeg, truthErr, cells)
-	}
-	if len(fixes) > 0 {
-		gj, err := geo.GeoJSON(fixes, grid)
-		if err != nil {
-			return err
-		}
-		if err := atomicfile.Write(filepath.Join(outDir, "fixes.geojson"), gj); err != nil {
-			return err
-		}
-		png, err := mapplot.Render(fixes, grid, "png", mapplot.Options{Title: "nullseek demo: " + sc.Place})
-		if err != nil {
-			return err
-		}
-		if err := atomicfile.Write(filepath.Join(outDir, "map.png"), png); err != nil {
-			return err
+		for _, wn := range f.Warnings {
+			fmt.Fprintf(w, "  %-10s warning: %s\n", "", wn)
 		}
 	}
-	fmt.Fprintf(w, "\nFiles in %s: bearings.csv (try: nullseek fix %s), map.png, fixes.geojson, polar-*.png, headings-*.csv\n",
-		outDir, filepath.Join(outDir, "bearings.csv"))
+	for _, r := range res.Refused {
+		fmt.Fprintf(w, "  %-10s no fix: %v\n", r.Ident, r.Err)
+	}
+	if len(res.OutputErrors) > 0 && len(res.Fixes) > 0 {
+		return res.OutputErrors[0]
+	}
+	fmt.Fprintf(w, "\nFiles in %s: bearings.csv, map.png, fixes.geojson, polar-*.png, headings-*.csv\nTry: nullseek fix %s --grid %q\n",
+		outDir, filepath.Join(outDir, "bearings.csv"), grid.String())
 	return nil
 }
 

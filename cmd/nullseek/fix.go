@@ -1,169 +1,128 @@
 package main
 
 import (
-	"bufio"
-	"bytes"
-	"encoding/json"
 	"errors"
 	"fmt"
 	"io"
-	"log/slog"
-	"nullseek/internal/atomicfile"
 	"os"
-	"strings"
-	"time"
 
 	"github.com/spf13/cobra"
 
 	"nullseek/geo"
-	"nullseek/mapplot"
+	"nullseek/locate"
 )
 
 func init() { rootCmd.AddCommand(newFixCmd()) }
 
 type fixFlags struct {
-	json        bool
-	geojson     string
-	kml         string
-	mapFile     string
-	grid        string
-	gridFile    string
-	probability float64
-	declination float64
-	cellSamples int
+	json     bool
+	grid     string
+	gridFile string
+	mapSize  float64
+	o        locate.Options
 }
 
 func newFixCmd() *cobra.Command {
-	var o fixFlags
+	var fl fixFlags
+	d := locate.Defaults
 	cmd := &cobra.Command{
 		Use:   "fix BEARINGS.csv|BEARINGS.json|- [MORE...]",
 		Short: "Locate transmitters from bearings taken at two or more stations",
-		Long: `Reads bearings (CSV with header ident,station,lat,lon,bearing_deg,sigma_deg,reference[,time][,declination_deg],
-or the same keys as JSON) and prints, per ident, the most likely position, its error ellipse, the
-Maidenhead locator, the event-grid cell and the most probable cells. Magnetic bearings are turned
-to true with WMM2025 at the station and time unless a declination is given. Without --grid or
---grid-file an automatic north-up grid covering stations and fixes is used.
-Exit status is 1 for bad input (nothing is written) and also when any transmitter could not be fixed.`,
+		Long: `Reads bearings (CSV with header ident,station,lat,lon,bearing_deg,sigma_deg,reference[,time][,declination_deg][,ambiguous],
+or the same keys as JSON) and prints, per ident, the most likely position, its error ellipse (semi-axes and full axes),
+the Maidenhead locator, the event-grid cell and the most probable cells. Each transmitter is fixed on its own. Magnetic
+bearings are turned to true with WMM2025 at the station and time unless a declination is given; the declinations used
+are printed. Rows that repeat an earlier row exactly are reported and counted once. Without --grid or --grid-file an
+automatic north-up grid, anchored on round coordinates, covers each cluster of nearby transmitters.
+Exit status is 1 for bad input (nothing is written), and also when a transmitter could not be fixed or an output file
+could not be made (the others are still printed and written).`,
 		Args: cobra.MinimumNArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
-			return runFix(cmd.OutOrStdout(), args, o, cmd.Flags().Changed("declination"))
+			fl.o.DeclinationSet = cmd.Flags().Changed("declination")
+			return runFix(cmd.OutOrStdout(), cmd.ErrOrStderr(), args, fl)
 		},
 	}
 	f := cmd.Flags()
-	f.BoolVar(&o.json, "json", false, "print one JSON object per transmitter instead of the table")
-	f.StringVar(&o.geojson, "geojson", "", "write fixes, bearings, ellipses and grid as GeoJSON (RFC 7946) to `FILE`")
-	f.StringVar(&o.kml, "kml", "", "write the same as KML to `FILE`")
-	f.StringVar(&o.mapFile, "map", "", "draw a map to `FILE` (.png or .svg)")
-	f.StringVar(&o.grid, "grid", "", `event grid, e.g. "origin=LAT,LON cell=250 rotation=0 cols=A-L rows=1-9 rowdir=down"`)
-	f.StringVar(&o.gridFile, "grid-file", "", "event grid as a JSON `FILE` (origin_lat, origin_lon, cell_m, rotation_deg, cols, rows, row_direction)")
-	f.Float64Var(&o.probability, "probability", 0.95, "probability of the error ellipse (0..1)")
-	f.Float64Var(&o.declination, "declination", 0, "magnetic declination in `DEG` (east positive) for all magnetic bearings without their own declination_deg, instead of WMM2025")
-	f.IntVar(&o.cellSamples, "cell-samples", 4, "samples per cell side when integrating cell probabilities")
+	f.BoolVar(&fl.json, "json", false, "print one JSON object per transmitter instead of the table")
+	f.StringVar(&fl.o.GeoJSONPath, "geojson", "", "write fixes, bearings, ellipses and grid as GeoJSON (RFC 7946) to `FILE`")
+	f.StringVar(&fl.o.KMLPath, "kml", "", "write the same as KML to `FILE`")
+	f.StringVar(&fl.o.MapPath, "map", "", "draw a map to `FILE` (.png or .svg); far-apart clusters of transmitters get FILE-2, FILE-3, ...")
+	f.Float64Var(&fl.mapSize, "map-size", d.Map.SizeCm, "side of the map in `CM` (2..200)")
+	f.StringVar(&fl.grid, "grid", "", `event grid, e.g. "origin=LAT,LON cell=250 rotation=0 cols=A-L rows=1-9 rowdir=down"`)
+	f.StringVar(&fl.gridFile, "grid-file", "", "event grid as a JSON `FILE` (origin_lat, origin_lon, cell_m, rotation_deg, cols, rows, row_direction)")
+	f.Float64Var(&fl.o.Fix.Probability, "probability", d.Fix.Probability, "probability of the error ellipse (0..0.9999)")
+	f.Float64Var(&fl.o.Fix.PoorCrossingDeg, "poor-crossing", d.Fix.PoorCrossingDeg, "warn when the lines cross at less than `DEG` (0..90)")
+	f.Float64Var(&fl.o.DeclinationDeg, "declination", 0, "magnetic declination in `DEG` (east positive, -180..180) for all magnetic bearings without their own declination_deg, instead of WMM2025")
+	f.IntVar(&fl.o.CellSamples, "cell-samples", d.CellSamples, "samples per cell side when integrating cell probabilities (1..64)")
+	f.IntVar(&fl.o.AutoCells, "auto-cells", d.AutoCells, "about this many columns and rows in an automatic grid (4..200)")
+	f.Float64Var(&fl.o.ClusterKm, "cluster-km", d.ClusterKm, "transmitters closer than `KM` share an automatic grid and a map (0.1..1000)")
+	f.BoolVar(&fl.o.KeepDuplicates, "keep-duplicates", false, "count rows that repeat an earlier row exactly as separate bearings")
 	return cmd
 }
 
-func runFix(out io.Writer, inputs []string, o fixFlags, declSet bool) error {
-	if !(o.probability > 0 && o.probability < 1) {
-		return fmt.Errorf("--probability %v: must be between 0 and 1", o.probability)
-	}
-	// Bearings from several files (one per station, say) are fixed together.
-	var recs []geo.BearingRecord
-	for _, input := range inputs {
-		r, err := readBearings(input)
-		if err != nil {
-			return err
-		}
-		recs = append(recs, r...)
-	}
-	grid, err := loadGrid(o.grid, o.gridFile)
-	if err != nil {
-		return err
-	}
-	var override *float64
-	if declSet {
-		override = &o.declination
-	}
-	decl := func(lat, lon float64, t time.Time) (float64, error) { return geo.Declination(lat, lon, 0, t) }
-	lops, warns, err := geo.ResolveTrue(recs, override, decl, time.Now().UTC())
-	if err != nil {
-		return err
-	}
-	for _, w := range warns {
-		slog.Warn(w)
-	}
-	idents, groups := geo.GroupByIdent(lops)
-	var fixes []*geo.Fix
-	var refused []error
-	for _, id := range idents {
-		f, err := geo.SolveFixAmbiguous(groups[id], geo.FixOptions{Probability: o.probability})
-		if err != nil {
-			refused = append(refused, err)
-			continue
-		}
-		fixes = append(fixes, f)
-	}
-	if grid == nil && len(fixes) > 0 {
-		grid = autoGrid(fixes)
-	}
-	for _, f := range fixes {
-		if err := f.Place(grid, o.cellSamples); err != nil {
-			return err
-		}
-	}
-	if err := writeOutputs(fixes, grid, o); err != nil {
-		return err
-	}
-	if o.json {
-		enc := json.NewEncoder(out)
-		for _, f := range fixes {
-			if err := enc.Encode(f.Report()); err != nil {
-				return err
-			}
-		}
-		for _, e := range refused {
-			_ = enc.Encode(map[string]string{"ident": identOf(e), "error": e.Error()})
-		}
-	} else {
-		printFixTable(out, fixes, refused, grid)
-	}
-	if len(refused) > 0 {
-		return fmt.Errorf("%d of %d transmitters could not be fixed", len(refused), len(idents))
+// zeroFlag refuses 0 for flags whose 0 would silently mean "the default".
+func zeroFlag(name string, v float64) error {
+	if v == 0 {
+		return fmt.Errorf("--%s 0: give a positive value", name)
 	}
 	return nil
 }
 
-// identOf recovers the ident from a SolveFix error ("IDENT: reason").
-func identOf(err error) string {
-	s, _, _ := strings.Cut(err.Error(), ": ")
-	return s
-}
-
-func readBearings(input string) ([]geo.BearingRecord, error) {
-	var data []byte
-	var err error
-	if input == "-" {
-		data, err = io.ReadAll(os.Stdin)
-	} else {
-		data, err = os.ReadFile(input)
+func runFix(out, errOut io.Writer, inputs []string, fl fixFlags) error {
+	o := fl.o
+	o.Map.SizeCm = fl.mapSize
+	for _, c := range []struct {
+		name string
+		v    float64
+	}{{"probability", o.Fix.Probability}, {"poor-crossing", o.Fix.PoorCrossingDeg}, {"cell-samples", float64(o.CellSamples)},
+		{"auto-cells", float64(o.AutoCells)}, {"cluster-km", o.ClusterKm}, {"map-size", o.Map.SizeCm}} {
+		if err := zeroFlag(c.name, c.v); err != nil {
+			return err
+		}
 	}
+	grid, err := loadGrid(fl.grid, fl.gridFile)
 	if err != nil {
-		return nil, fmt.Errorf("read bearings: %w", err)
+		return err
 	}
-	name := input
-	if input == "-" {
-		name = "stdin"
+	o.Grid = grid
+	if err := o.Validate(); err != nil {
+		return err
 	}
-	trim := bytes.TrimSpace(data)
-	var recs []geo.BearingRecord
-	if strings.HasSuffix(strings.ToLower(input), ".json") || (len(trim) > 0 && (trim[0] == '[' || trim[0] == '{')) {
-		recs, err = geo.ReadBearingsJSON(bytes.NewReader(data))
-	} else {
-		recs, err = geo.ReadBearingsCSV(bytes.NewReader(data))
+	// Bearings from several files (one per station, say) are fixed together.
+	var srcs []locate.Source
+	for _, in := range inputs {
+		if in == "-" {
+			srcs = append(srcs, locate.Source{Name: "stdin", R: os.Stdin})
+			continue
+		}
+		fh, err := os.Open(in)
+		if err != nil {
+			return fmt.Errorf("read bearings: %w", err)
+		}
+		defer fh.Close()
+		srcs = append(srcs, locate.Source{Name: in, R: fh})
 	}
+	res, err := locate.Run(srcs, o)
 	if err != nil {
-		return nil, fmt.Errorf("%s: %w", name, err)
+		return err
 	}
-	return recs, nil
+	if fl.json {
+		if err := res.WriteJSON(out); err != nil {
+			return err
+		}
+		if err := res.WriteNotes(errOut, "nullseek: "); err != nil {
+			return err
+		}
+	} else if err := res.WriteTable(out); err != nil {
+		return err
+	}
+	switch {
+	case len(res.Refused) > 0:
+		return fmt.Errorf("%d of %d transmitters could not be fixed", len(res.Refused), len(res.Refused)+len(res.Fixes))
+	case len(res.OutputErrors) > 0:
+		return fmt.Errorf("%d output file(s) could not be made: %v", len(res.OutputErrors), res.OutputErrors[0])
+	}
+	return nil
 }
 
 func loadGrid(spec, file string) (*geo.Grid, error) {
@@ -189,107 +148,4 @@ func loadGrid(spec, file string) (*geo.Grid, error) {
 		return g, nil
 	}
 	return nil, nil
-}
-
-// autoGrid covers all stations and 95 % ellipses.
-func autoGrid(fixes []*geo.Fix) *geo.Grid {
-	var lats, lons []float64
-	for _, f := range fixes {
-		for _, p := range geo.EllipsePolygon(f, f.Ellipse, 16) {
-			lats, lons = append(lats, p[0]), append(lons, p[1])
-		}
-		for _, b := range f.Bearings {
-			lats, lons = append(lats, b.Lat), append(lons, b.Lon)
-		}
-	}
-	return geo.AutoGrid(lats, lons, 16)
-}
-
-// writeOutputs renders every requested file in memory first, then writes
-// each through a temporary file and a rename, so bad input never leaves a
-// partial file behind.
-func writeOutputs(fixes []*geo.Fix, grid *geo.Grid, o fixFlags) error {
-	type file struct {
-		path string
-		data []byte
-	}
-	var files []file
-	if o.geojson != "" {
-		b, err := geo.GeoJSON(fixes, grid)
-		if err != nil {
-			return fmt.Errorf("geojson: %w", err)
-		}
-		files = append(files, file{o.geojson, append(b, '\n')})
-	}
-	if o.kml != "" {
-		b, err := geo.KML(fixes, grid)
-		if err != nil {
-			return fmt.Errorf("kml: %w", err)
-		}
-		files = append(files, file{o.kml, b})
-	}
-	if o.mapFile != "" {
-		format, err := mapplot.Format(o.mapFile)
-		if err != nil {
-			return err
-		}
-		if len(fixes) > 0 {
-			b, err := mapplot.Render(fixes, grid, format, mapplot.Options{})
-			if err != nil {
-				return err
-			}
-			files = append(files, file{o.mapFile, b})
-		}
-	}
-	for _, f := range files {
-		if err := atomicfile.Write(f.path, f.data); err != nil {
-			return err
-		}
-	}
-	return nil
-}
-
-func printFixTable(out io.Writer, fixes []*geo.Fix, refused []error, grid *geo.Grid) {
-	w := bufio.NewWriter(out)
-	defer w.Flush()
-	if grid != nil && grid.Auto {
-		fmt.Fprintf(w, "(no event grid given; automatic grid: %s)\n\n", grid)
-	}
-	for _, f := range fixes {
-		e, e1 := f.Ellipse, f.Ellipse1Sigma
-		cell := f.GridCell
-		if cell == "" {
-			cell = "outside grid"
-		}
-		fmt.Fprintf(w, "%s\n", f.Ident)
-		fmt.Fprintf(w, "  position    %s   (%.6f, %.6f)\n", geo.FormatLatLon(f.Lat, f.Lon), f.Lat, f.Lon)
-		fmt.Fprintf(w, "  locator     %s    grid cell %s\n", f.Maidenhead, cell)
-		fmt.Fprintf(w, "  ellipse     %.0f%%: %.0f m by %.0f m, long axis %.0f° true   (1 sigma: %.0f m by %.0f m)\n",
-			100*e.Probability, e.SemiMajorM, e.SemiMinorM, e.OrientationDeg, e1.SemiMajorM, e1.SemiMinorM)
-		if len(f.Cells) > 0 {
-			var parts []string
-			for _, c := range f.Cells {
-				parts = append(parts, fmt.Sprintf("%s %.0f%%", c.Cell, 100*c.Probability))
-			}
-			fmt.Fprintf(w, "  cells       %s\n", strings.Join(parts, ", "))
-		}
-		if f.CockedHatM > 0 {
-			fmt.Fprintf(w, "  cocked hat  %.0f m across\n", f.CockedHatM)
-		}
-		fmt.Fprintf(w, "  %-12s %8s %6s %9s %9s  %s\n", "station", "bearing", "sigma", "residual", "range", "status")
-		for _, b := range f.Bearings {
-			status := "used"
-			if !b.Used {
-				status = "REJECTED: " + b.Reason
-			}
-			fmt.Fprintf(w, "  %-12s %7.1f° %5.1f° %8.1f° %7.2fkm  %s\n", b.Station, b.BearingDeg, b.SigmaDeg, b.ResidualDeg, b.DistM/1e3, status)
-		}
-		for _, wn := range f.Warnings {
-			fmt.Fprintf(w, "  warning: %s\n", wn)
-		}
-		fmt.Fprintln(w)
-	}
-	for _, e := range refused {
-		fmt.Fprintf(w, "NO FIX  %v\n", e)
-	}
 }

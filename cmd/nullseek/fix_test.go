@@ -11,6 +11,7 @@ import (
 	"testing"
 
 	"nullseek/geo"
+	"nullseek/internal/angle"
 )
 
 // runFixCmd runs a fresh `fix` command (args[0] is "fix") and returns its
@@ -44,7 +45,7 @@ func synthCSV(t *testing.T, dir string) (path string, truth map[string][2]float6
 		tr := truth[id]
 		for _, s := range stations {
 			_, az, _ := geo.Inverse(s.lat, s.lon, tr[0], tr[1])
-			fmt.Fprintf(&b, "%s,%s,%.7f,%.7f,%.6f,2,true,2025-10-01T12:00:00Z\n", id, s.name, s.lat, s.lon, geo.NormalizeDeg(az))
+			fmt.Fprintf(&b, "%s,%s,%.7f,%.7f,%.6f,2,true,2025-10-01T12:00:00Z\n", id, s.name, s.lat, s.lon, angle.Wrap360(az))
 		}
 	}
 	path = filepath.Join(dir, "b.csv")
@@ -145,5 +146,88 @@ func TestFixCommandBadInput(t *testing.T) {
 	out, err := runFixCmd(t, "fix", in, "--json")
 	if err == nil || !strings.Contains(out, "fewer than two usable bearings") {
 		t.Errorf("one bearing: err %v out %q", err, out)
+	}
+}
+
+// Every numeric flag of fix has bounds: one error line naming the flag, a
+// non-zero exit and no file written (issue: --cell-samples 100000 ran out of
+// memory, 3037000500 overflowed makeslice).
+func TestFixCommandFlagBounds(t *testing.T) {
+	dir := t.TempDir()
+	in, _ := synthCSV(t, dir)
+	cases := []struct {
+		args []string
+		want string
+	}{
+		{[]string{"--cell-samples", "100000"}, "--cell-samples"},
+		{[]string{"--cell-samples", "3037000500"}, "--cell-samples"},
+		{[]string{"--cell-samples", "0"}, "--cell-samples"},
+		{[]string{"--cell-samples", "-3"}, "--cell-samples"},
+		{[]string{"--probability", "1"}, "probability"},
+		{[]string{"--probability", "NaN"}, "probability"},
+		{[]string{"--probability", "-0.5"}, "probability"},
+		{[]string{"--probability", "0"}, "--probability"},
+		{[]string{"--poor-crossing", "120"}, "poor crossing"},
+		{[]string{"--declination", "400"}, "--declination"},
+		{[]string{"--declination", "Inf"}, "--declination"},
+		{[]string{"--map-size", "0.5"}, "--map-size"},
+		{[]string{"--map-size", "1e9"}, "--map-size"},
+		{[]string{"--auto-cells", "1"}, "--auto-cells"},
+		{[]string{"--auto-cells", "1000000"}, "--auto-cells"},
+		{[]string{"--cluster-km", "-1"}, "--cluster-km"},
+		{[]string{"--cluster-km", "NaN"}, "--cluster-km"},
+		{[]string{"--grid", "origin=45.13,6.17 cell=0.5 cols=A-P rows=1-14"}, "cell size"},
+		{[]string{"--grid", "origin=45.13,6.17 cell=10 cols=3000 rows=3000"}, "cells"},
+		{[]string{"--grid", "origin=45.13,6.17 cell=10 cols=1000 rows=1000", "--cell-samples", "8"}, "--cell-samples"},
+		{[]string{"--grid", "origin=95,6.17 cell=250"}, "latitude"},
+		{[]string{"--map", filepath.Join(dir, "m.gif")}, "--map"},
+	}
+	for _, c := range cases {
+		gj := filepath.Join(dir, "out.geojson")
+		args := append([]string{"fix", in, "--geojson", gj}, c.args...)
+		_, err := runFixCmd(t, args...)
+		if err == nil || !strings.Contains(err.Error(), c.want) || strings.Contains(err.Error(), "\n") {
+			t.Errorf("%v: err %v, want one line naming %q", c.args, err, c.want)
+		}
+		if _, serr := os.Stat(gj); serr == nil {
+			t.Errorf("%v: GeoJSON written on bad flags", c.args)
+			os.Remove(gj)
+		}
+	}
+}
+
+// A header-only bearings file is an error (it used to exit 0 with no
+// output); JSON booleans are accepted where booleans are natural.
+func TestFixCommandHeaderOnlyAndBooleans(t *testing.T) {
+	dir := t.TempDir()
+	in := filepath.Join(dir, "h.csv")
+	os.WriteFile(in, []byte("ident,station,lat,lon,bearing_deg,sigma_deg,reference,time\n"), 0o644)
+	if _, err := runFixCmd(t, "fix", in); err == nil || !strings.Contains(err.Error(), "no bearing rows after the header") {
+		t.Errorf("header only: %v", err)
+	}
+	js := filepath.Join(dir, "b.json")
+	os.WriteFile(js, []byte(`[{"ident":"T","station":"A","lat":45.1,"lon":6.1,"bearing_deg":90,"sigma_deg":2,"reference":"true","ambiguous":false},
+	{"ident":"T","station":"B","lat":45.11,"lon":6.15,"bearing_deg":180,"sigma_deg":2,"reference":"true","ambiguous":true}]`), 0o644)
+	out, err := runFixCmd(t, "fix", js, "--json")
+	if err != nil || !strings.Contains(out, `"type":"fix"`) {
+		t.Errorf("JSON booleans: %v\n%s", err, out)
+	}
+}
+
+// A map that cannot be written does not take the fixes with it: they are
+// printed, the GeoJSON is written, and the exit status says what failed.
+func TestFixCommandOutputFails(t *testing.T) {
+	dir := t.TempDir()
+	in, _ := synthCSV(t, dir)
+	gj := filepath.Join(dir, "f.geojson")
+	out, err := runFixCmd(t, "fix", in, "--geojson", gj, "--map", filepath.Join(dir, "missing", "m.png"))
+	if err == nil || !strings.Contains(err.Error(), "m.png not written") {
+		t.Errorf("err %v", err)
+	}
+	if !strings.Contains(out, "TX/1") || !strings.Contains(out, "TX/2") {
+		t.Errorf("fixes not printed:\n%s", out)
+	}
+	if _, err := os.Stat(gj); err != nil {
+		t.Errorf("GeoJSON not written: %v", err)
 	}
 }

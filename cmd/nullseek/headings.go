@@ -3,7 +3,6 @@ package main
 import (
 	"context"
 	"fmt"
-	"math"
 	"os"
 	"strconv"
 	"strings"
@@ -12,6 +11,7 @@ import (
 	"github.com/spf13/cobra"
 
 	"nullseek/bearing"
+	"nullseek/capture"
 	"nullseek/geo"
 	"nullseek/heading"
 	"nullseek/sdr"
@@ -85,16 +85,25 @@ func (f *headingFlags) stationPos() (lat, lon float64, ok bool, err error) {
 	return lat, lon, true, nil
 }
 
-// track reads the heading source and returns a true-north track over the
-// recording described by info. notes receives warnings for the user.
-func (f *headingFlags) track(info sdr.Info, notes func(string)) (*heading.Track, error) {
-	ref := heading.True
-	switch strings.ToLower(f.ref) {
+// headingRef reads --heading-ref.
+func headingRef(s string) (heading.Ref, error) {
+	switch strings.ToLower(strings.TrimSpace(s)) {
 	case "true", "t":
+		return heading.True, nil
 	case "magnetic", "mag", "m":
-		ref = heading.Magnetic
-	default:
-		return nil, fmt.Errorf("--heading-ref %q: want true or magnetic", f.ref)
+		return heading.Magnetic, nil
+	}
+	return heading.True, fmt.Errorf("--heading-ref %q: want true or magnetic", s)
+}
+
+// track reads the heading source and returns a true-north track over the
+// recording described by info; live, when not nil, is the track a live
+// capture recorded in place of the heading flags' source. notes receives
+// warnings for the user.
+func (f *headingFlags) track(info sdr.Info, live *heading.Track, notes func(string)) (*heading.Track, error) {
+	ref, err := headingRef(f.ref)
+	if err != nil {
+		return nil, err
 	}
 	given := 0
 	for _, s := range []string{f.log, f.nmea, f.turn} {
@@ -102,12 +111,13 @@ func (f *headingFlags) track(info sdr.Info, notes func(string)) (*heading.Track,
 			given++
 		}
 	}
-	if given != 1 {
+	if given != 1 && live == nil {
 		return nil, fmt.Errorf("give exactly one heading source: --headings FILE, --nmea FILE or --turn START:RATE")
 	}
 	var tr *heading.Track
-	var err error
 	switch {
+	case live != nil:
+		tr = live
 	case f.log != "":
 		fh, err := os.Open(f.log)
 		if err != nil {
@@ -133,27 +143,16 @@ func (f *headingFlags) track(info sdr.Info, notes func(string)) (*heading.Track,
 			notes(fmt.Sprintf("--nmea %s: %s", f.nmea, st))
 		}
 	default:
-		var st heading.SteadyTurn
-		parts := strings.Split(f.turn, ":")
-		vals := make([]float64, len(parts))
-		for i, p := range parts {
-			if vals[i], err = strconv.ParseFloat(strings.TrimSpace(p), 64); err != nil {
-				return nil, fmt.Errorf("--turn %q: want START:RATE[:T0] in degrees, °/s and seconds", f.turn)
-			}
-		}
-		if len(vals) < 2 || len(vals) > 3 || vals[1] == 0 {
-			return nil, fmt.Errorf("--turn %q: want START:RATE[:T0] with a non-zero rate", f.turn)
-		}
-		st.StartDeg, st.RateDegPerS, st.Ref = vals[0], vals[1], ref
-		if len(vals) == 3 {
-			st.StartS = vals[2]
+		st, err := capture.ParseTurn(f.turn, ref)
+		if err != nil {
+			return nil, err
 		}
 		dur := 3600.0
 		if info.Samples > 0 {
 			dur = float64(info.Samples) / info.SampleRate
 		}
-		if tr, err = st.Track(0, dur, 20); err != nil {
-			return nil, fmt.Errorf("--turn: %w", err)
+		if tr, err = capture.TurnTrack(st, dur); err != nil {
+			return nil, err
 		}
 	}
 	if ref == heading.Magnetic {
@@ -201,37 +200,34 @@ func (f *headingFlags) declinationAt(t time.Time, notes func(string)) (float64, 
 // surveyWithTrack surveys the recording at path and joins it with the
 // heading source: the track on the recording's clock, with the lag
 // estimated and removed when --estimate-lag asks for it.
-func (f *headingFlags) surveyWithTrack(ctx context.Context, path string, in *inputFlags, idf *identFlags, pat bearing.Pattern, fo bearing.FitOptions, notes func(string)) (*survey.Result, *heading.Track, error) {
+func (f *headingFlags) surveyWithTrack(ctx context.Context, rec recording, in *inputFlags, idf *identFlags, pat bearing.Pattern, fo bearing.FitOptions, notes func(string)) (*survey.Result, *heading.Track, error) {
 	// Read the heading source before the long scan, so a bad log costs
 	// no time; the recording's metadata gives the clock it needs.
+	path := rec.path
 	src, err := in.open(path)
 	if err != nil {
 		return nil, nil, err
 	}
 	info := src.Info()
 	src.Close()
-	tr, err := f.track(info, notes)
+	tr, err := f.track(info, rec.track, notes)
 	if err != nil {
 		return nil, nil, err
+	}
+	if f.estimateLag {
+		var turns []float64
+		for _, sw := range tr.Sweeps() {
+			turns = append(turns, sw.TurnDeg)
+		}
+		if err := bearing.CheckLagTurns(turns...); err != nil {
+			return nil, nil, fmt.Errorf("--estimate-lag: %w (give --lag instead)", err)
+		}
 	}
 	res, err := surveyRecording(ctx, path, in, idf, notes)
 	if err != nil {
 		return nil, nil, err
 	}
 	if f.estimateLag {
-		// A lag shifts clockwise and anticlockwise sweeps apart; one way
-		// only, it cannot be told from the bearing itself.
-		var dirs [2]float64
-		for _, sw := range tr.Sweeps() {
-			if sw.Dir == heading.CW {
-				dirs[0] += math.Abs(sw.TurnDeg)
-			} else {
-				dirs[1] += math.Abs(sw.TurnDeg)
-			}
-		}
-		if dirs[0] < 90 || dirs[1] < 90 {
-			return nil, nil, fmt.Errorf("--estimate-lag needs sweeps of at least 90° each way; the heading source turned %.0f° clockwise and %.0f° anticlockwise (give --lag instead)", dirs[0], dirs[1])
-		}
 		lag, sig, err := survey.EstimateLag(res, tr, pat, fo)
 		if err != nil {
 			return nil, nil, err

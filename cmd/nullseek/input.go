@@ -22,7 +22,7 @@ type inputFlags struct {
 	rate, format, center, start string
 	freq, offset                string
 	chanRate                    float64
-	onDB, offDB                 float64
+	falseAlarms, joinWait       float64
 	minBurst, mergeGap          float64
 	flags                       *pflag.FlagSet
 }
@@ -36,11 +36,12 @@ func (f *inputFlags) add(cmd *cobra.Command) {
 	fl.StringVar(&f.start, "start", "", "UTC time of a raw recording's first sample (RFC 3339)")
 	fl.StringVar(&f.freq, "freq", "", "channel frequency, Hz (k/M/G suffixes allowed); needs the centre frequency")
 	fl.StringVar(&f.offset, "offset", "", "channel offset from the capture centre, Hz (k suffix allowed); default: the strongest carrier found")
-	fl.Float64Var(&f.chanRate, "channel-rate", 48000, "target channel sample rate after decimation, S/s")
-	fl.Float64Var(&f.onDB, "on-db", 5, "a burst starts this many dB above the noise floor")
-	fl.Float64Var(&f.offDB, "off-db", 2.5, "a burst ends below this many dB above the noise floor")
-	fl.Float64Var(&f.minBurst, "min-burst", 0.1, "shortest burst kept, seconds")
-	fl.Float64Var(&f.mergeGap, "merge-gap", 0.1, "drop-outs shorter than this stay inside one burst, seconds")
+	d := receiver.DefaultConfig
+	fl.Float64Var(&f.chanRate, "channel-rate", d.ChannelRateHz, "target channel sample rate after decimation, S/s")
+	fl.Float64Var(&f.falseAlarms, "false-alarms", d.FalseAlarmsPerHour, "bursts per hour that noise alone may start (the detector's design rate; thresholds follow from it)")
+	fl.Float64Var(&f.joinWait, "join-wait", d.JoinWaitS, "bursts this close whose timing is Morse keying are joined into one keyed transmission, seconds")
+	fl.Float64Var(&f.minBurst, "min-burst", d.MinBurstS, "shortest burst kept, seconds")
+	fl.Float64Var(&f.mergeGap, "merge-gap", d.MergeGapS, "drop-outs shorter than this stay inside one burst, seconds")
 }
 
 // parseHz reads a frequency or rate with an optional k, M or G suffix.
@@ -98,17 +99,14 @@ func (f *inputFlags) config() (cfg receiver.Config, haveChannel bool, err error)
 	if f.freq != "" && f.offset != "" {
 		return cfg, false, fmt.Errorf("give --freq or --offset, not both")
 	}
-	if !(f.chanRate > 0) {
-		return cfg, false, fmt.Errorf("--channel-rate must be positive")
-	}
-	if !(f.onDB > f.offDB) || !(f.offDB > 0) {
-		return cfg, false, fmt.Errorf("--on-db (%g) must be above --off-db (%g), and both above 0", f.onDB, f.offDB)
-	}
 	cfg.ChannelRateHz = f.chanRate
-	cfg.OnDB, cfg.OffDB = f.onDB, f.offDB
+	cfg.FalseAlarmsPerHour, cfg.JoinWaitS = f.falseAlarms, f.joinWait
 	cfg.MinBurstS, cfg.MergeGapS = f.minBurst, f.mergeGap
 	if f.flags != nil && !f.flags.Changed("merge-gap") {
 		cfg.MergeGapS = 0 // the default for the keying mode (longer for keyed carrier)
+	}
+	if err := cfg.Validate(); err != nil {
+		return cfg, false, err
 	}
 	return cfg, f.freq != "" || f.offset != "", nil
 }

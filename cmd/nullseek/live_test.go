@@ -18,6 +18,7 @@ import (
 	"sort"
 	"strings"
 	"sync"
+	"sync/atomic"
 	"testing"
 	"time"
 
@@ -45,7 +46,7 @@ func TestNullseekHelperProcess(t *testing.T) {
 	rootCmd.SetArgs(args)
 	if err := rootCmd.Execute(); err != nil {
 		fmt.Fprintf(os.Stderr, "nullseek: %v\n", err)
-		os.Exit(1)
+		os.Exit(exitCode(err))
 	}
 	os.Exit(0)
 }
@@ -153,6 +154,20 @@ type turningSource struct {
 	rng              *rand.Rand
 	phase, gain      float64
 	gainAt, gainStep int64
+	// sent, when not nil, keeps the cu8 bytes of every sample generated,
+	// as the rtl_tcp replay server sends them (unsigned 8-bit, x·127.5 +
+	// 127.5 rounded and clamped: the cu8 of librtlsdr and SigMF).
+	sentMu sync.Mutex
+	sent   []byte
+}
+
+func cu8Code(x float32) byte { return byte(max(0, min(255, math.Round(float64(x)*127.5+127.5)))) }
+
+// sentBytes is a copy of the bytes generated so far.
+func (s *turningSource) sentBytes() []byte {
+	s.sentMu.Lock()
+	defer s.sentMu.Unlock()
+	return append([]byte(nil), s.sent...)
 }
 
 func (s *turningSource) Info() sdr.Info {
@@ -197,6 +212,13 @@ func (s *turningSource) Read(dst []complex64) (int, error) {
 			s.n++
 		}
 		s.pos = 0
+		if s.sent != nil {
+			s.sentMu.Lock()
+			for _, v := range s.buf {
+				s.sent = append(s.sent, cu8Code(real(v)), cu8Code(imag(v)))
+			}
+			s.sentMu.Unlock()
+		}
 	}
 	k := copy(dst, s.buf[s.pos:])
 	s.pos += k
@@ -210,6 +232,34 @@ type liveRig struct {
 	rotProc          *os.Process
 	stopServer       context.CancelFunc
 	serverDone       chan error
+	// hist is the rotator's azimuth as the rig's own connection polls it;
+	// src is the receiver's signal.
+	hist    *azHistory
+	src     *turningSource
+	pollErr atomic.Value // why the rig's own poll stopped, if it did
+}
+
+// azNow is the rotator's latest polled azimuth.
+func (r *liveRig) azNow() float64 {
+	r.hist.mu.Lock()
+	defer r.hist.mu.Unlock()
+	if len(r.hist.az) == 0 {
+		return math.NaN()
+	}
+	return r.hist.az[len(r.hist.az)-1]
+}
+
+// waitAz waits until the rotator has turned to deg or more; if it does not
+// within the time, it stops the child run c and fails with its output.
+func (r *liveRig) waitAz(t *testing.T, deg float64, within time.Duration, c *exec.Cmd, out, errb *bytes.Buffer) {
+	t.Helper()
+	for deadline := time.Now().Add(within); !(r.azNow() >= deg); time.Sleep(20 * time.Millisecond) {
+		if time.Now().After(deadline) {
+			c.Process.Kill()
+			run := waitNullseek(t, c, out, errb)
+			t.Fatalf("the rotator did not reach %.0f° within %v (at %.2f°; the test's poll: %v); the run's stderr:\n%s", deg, within, r.azNow(), r.pollErr.Load(), run.stderr)
+		}
+	}
 }
 
 const (
@@ -220,8 +270,8 @@ const (
 
 func newLiveRig(t *testing.T, truthDeg float64, withRotator bool) *liveRig {
 	t.Helper()
-	rig := &liveRig{}
 	hist := &azHistory{}
+	rig := &liveRig{hist: hist}
 	ctx, cancel := context.WithCancel(context.Background())
 	t.Cleanup(cancel)
 	if withRotator {
@@ -232,7 +282,11 @@ func newLiveRig(t *testing.T, truthDeg float64, withRotator bool) *liveRig {
 			t.Fatal(err)
 		}
 		t.Cleanup(func() { rot.Close() })
-		go rot.Poll(ctx, 25, hist.add)
+		go func() {
+			if err := rot.Poll(ctx, 25, hist.add); err != nil {
+				rig.pollErr.Store(err.Error())
+			}
+		}()
 	} else {
 		hist.add(time.Now(), 0)
 	}
@@ -244,8 +298,9 @@ func newLiveRig(t *testing.T, truthDeg float64, withRotator bool) *liveRig {
 		rate: liveRate, offsetHz: liveChanHz - liveCenterHz,
 		amp: math.Pow(10, -10.0/20), sigma: math.Sqrt(math.Pow(10, -35.0/10) / 2), onS: 2,
 		truthDeg: truthDeg, pat: yagi, hist: hist, chunk: 16 * 32 * 512 / 2,
-		rng: rand.New(rand.NewSource(11)),
+		rng: rand.New(rand.NewSource(11)), sent: []byte{},
 	}
+	rig.src = src
 	ln, err := net.Listen("tcp", "127.0.0.1:0")
 	if err != nil {
 		t.Fatal(err)
@@ -453,51 +508,31 @@ func TestLiveUnreachable(t *testing.T) {
 	}
 }
 
-func TestParseSweep(t *testing.T) {
-	cases := []struct {
-		sweep, step string
-		ok          bool
-		from, to    float64
-		stepDeg     float64
-		dwell       time.Duration
-	}{
-		{"0:150", "", true, 0, 150, 0, 0},
-		{"350:370", "", true, 350, 370, 0, 0},
-		{"-90:90", "", true, -90, 90, 0, 0},
-		{"", "0:10:90:1.5", true, 0, 90, 10, 1500 * time.Millisecond},
-		{"", "90:-15:0:0", true, 90, 0, -15, 0},
-		{"0:150", "0:10:90:1", false, 0, 0, 0, 0},
-		{"", "", false, 0, 0, 0, 0},
-		{"0", "", false, 0, 0, 0, 0},
-		{"0:x", "", false, 0, 0, 0, 0},
-		{"10:10", "", false, 0, 0, 0, 0},
-		{"NaN:10", "", false, 0, 0, 0, 0},
-		{"", "0:0:90:1", false, 0, 0, 0, 0},
-		{"", "0:10:90:-1", false, 0, 0, 0, 0},
-		{"", "0:-10:90:1", false, 0, 0, 0, 0},
+// TestLiveHelp: the live flags' help says --iq-latency's default in words,
+// not as the value "rtl_tcp", and names its value as seconds; the former
+// value is still accepted.
+func TestLiveHelp(t *testing.T) {
+	t.Parallel()
+	r := runNullseek(t, "", "bearing", "--help")
+	if r.code != 0 {
+		t.Fatalf("exit %d\n%s", r.code, r.stderr)
 	}
-	for _, c := range cases {
-		p, err := parseSweep(c.sweep, c.step)
-		if (err == nil) != c.ok {
-			t.Errorf("parseSweep(%q, %q) error %v, want ok=%v", c.sweep, c.step, err, c.ok)
-			continue
-		}
-		if c.ok && (p.FromDeg != c.from || p.ToDeg != c.to || p.StepDeg != c.stepDeg || p.Dwell != c.dwell) {
-			t.Errorf("parseSweep(%q, %q) = %+v", c.sweep, c.step, p)
+	var line string
+	for _, l := range strings.Split(r.stdout, "\n") {
+		if strings.Contains(l, "--iq-latency") {
+			line = l
 		}
 	}
-}
-
-func FuzzParseSweep(f *testing.F) {
-	for _, s := range [][2]string{{"0:150", ""}, {"", "0:10:90:1"}, {"a:b", ""}, {"", "1:2:3"}, {"1e308:-1e308", ""}} {
-		f.Add(s[0], s[1])
+	if !strings.Contains(line, "--iq-latency seconds") || !strings.Contains(line, "(default: measured from the stream") || strings.Contains(line, `"rtl_tcp"`) {
+		t.Errorf("--iq-latency help: %q", line)
 	}
-	f.Fuzz(func(t *testing.T, sweep, step string) {
-		p, err := parseSweep(sweep, step)
-		if err == nil {
-			if p.Check() != nil || p.FromDeg == p.ToDeg {
-				t.Fatalf("accepted a plan that does not check: %+v", p)
-			}
+	for _, w := range []string{"Ctrl-C", "130 or 143", "status line"} {
+		if !strings.Contains(r.stdout, w) {
+			t.Errorf("bearing --help does not mention %q", w)
 		}
-	})
+	}
+	// Nothing listens on port 1: the flags are accepted and the receiver
+	// is what fails.
+	r = runNullseek(t, "", "bearing", "rtl_tcp://127.0.0.1:1", "--iq-latency", "rtl_tcp", "--duration", "1", "--turn", "0:30", "--freq", "145.5M")
+	oneLine(t, r, "rtl_tcp", "127.0.0.1:1")
 }

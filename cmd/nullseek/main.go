@@ -46,6 +46,6 @@ func main() {
 	slog.SetDefault(slog.New(slog.NewTextHandler(os.Stderr, &slog.HandlerOptions{Level: slog.LevelWarn})))
 	if err := rootCmd.Execute(); err != nil {
 		fmt.Fprintf(os.Stderr, "nullseek: %v\n", err)
-		os.Exit(1)
+		os.Exit(exitCode(err))
 	}
 }

@@ -1,4 +1,4 @@
-package survey
+package capture
 
 import (
 	"context"
@@ -87,6 +87,7 @@ func every(ctx context.Context, period, limit time.Duration, fn func(now time.Ti
 // compass sent at that moment of the capture's clock.
 func TestCompassFeedCapture(t *testing.T) {
 	t.Parallel()
+	var err error
 	t0 := time.Now()
 	const startDeg, rate = 340.0, 30.0
 	trueAt := func(tm time.Time) float64 { return angle.Wrap360(startDeg + rate*tm.Sub(t0).Seconds()) }
@@ -110,17 +111,13 @@ func TestCompassFeedCapture(t *testing.T) {
 		})
 	})
 	ctx := context.Background()
-	stream, err := heading.DialNMEA(ctx, addr)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer stream.Close()
-	feed, err := StartCompassFeed(ctx, stream, CompassOptions{Ref: heading.True, SilenceS: 1})
-	if err != nil {
+	o := testOptions(20000)
+	o.DurationS, o.compassSilenceS = 2, 1
+	if o.Compass, err = ParseCompassAddr(addr); err != nil {
 		t.Fatal(err)
 	}
 	src := newPacedSource(20000, -1, nil)
-	lc, err := feed.Capture(ctx, src, LiveOptions{MaxS: 2})
+	lc, err := runWith(t, ctx, o, src, nil)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -195,17 +192,14 @@ func TestCompassFeedFailures(t *testing.T) {
 		t.Run(tc.name, func(t *testing.T) {
 			t.Parallel()
 			addr := serveNMEA(t, tc.script)
-			stream, err := heading.DialNMEA(context.Background(), addr)
-			if err != nil {
-				t.Fatal(err)
-			}
-			defer stream.Close()
-			feed, err := StartCompassFeed(context.Background(), stream, CompassOptions{Ref: heading.True, SilenceS: 1})
-			if err != nil {
+			o := testOptions(20000)
+			o.DurationS, o.compassSilenceS = 5, 1
+			var err error
+			if o.Compass, err = ParseCompassAddr(addr); err != nil {
 				t.Fatal(err)
 			}
 			began := time.Now()
-			_, err = feed.Capture(context.Background(), newPacedSource(20000, -1, nil), LiveOptions{MaxS: 5})
+			_, err = runWith(t, context.Background(), o, newPacedSource(20000, -1, nil), nil)
 			took := time.Since(began)
 			t.Logf("after %v: %v", took.Round(time.Millisecond), err)
 			if err == nil {

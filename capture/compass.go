@@ -1,4 +1,4 @@
-package survey
+package capture
 
 import (
 	"context"
@@ -7,11 +7,9 @@ import (
 	"io"
 	"log/slog"
 	"sync"
-	"sync/atomic"
 	"time"
 
 	"nullseek/heading"
-	"nullseek/sdr"
 )
 
 // DefaultCompassSilenceS is how long, in seconds, a live compass may go
@@ -44,8 +42,8 @@ type CompassOptions struct {
 // heading stamped with its arrival time on the local clock (the clock a
 // live receiver's sdr.Info.Start is read from). Start it before the
 // receiver is dialled so that nothing the compass sends waits unread in a
-// socket buffer (it would be stamped late); Capture then puts the headings
-// on the capture's clock.
+// socket buffer (it would be stamped late); Track then puts the headings
+// on the capture's clock. Run drives one for Options.Compass.
 type CompassFeed struct {
 	stream   *heading.NMEAStream
 	ref      heading.Ref
@@ -69,7 +67,7 @@ type CompassFeed struct {
 // StartCompassFeed starts reading stream until ctx ends, Stop is called or
 // the feed fails (see Err). It sets stream.IdleTimeout to twice the silence
 // limit and stream.Logger to a discarding logger: skipped lines are reported in
-// the LiveCapture's Warnings and in the error instead. The feed owns the
+// SkippedWarning and in the error instead. The feed owns the
 // reading; the caller still closes the stream after Stop.
 func StartCompassFeed(ctx context.Context, stream *heading.NMEAStream, opts CompassOptions) (*CompassFeed, error) {
 	if stream == nil {
@@ -246,62 +244,34 @@ func (f *CompassFeed) Track(start time.Time) (*heading.Track, error) {
 	return tr, nil
 }
 
-// Capture records src like CaptureLive (opts.MaxS is required and
-// opts.Rotator must be nil) while the feed records the compass, then stops
-// the feed and returns the capture with the compass headings as its Track,
-// on src.Info().Start's clock (shift Start by the receiver's latency
-// first, as for a rotator). A feed failure during the capture ends it with
-// that failure's one line; a summary of skipped sentences goes to
-// Warnings. The caller should discard what the sink got on error.
-func (f *CompassFeed) Capture(ctx context.Context, src sdr.Source, opts LiveOptions) (*LiveCapture, error) {
-	if opts.Rotator != nil {
-		f.Stop()
-		return nil, fmt.Errorf("live capture: a compass and a rotator both give the headings: use one")
+// Latest returns the last heading recorded (of Ref) and whether there is one.
+func (f *CompassFeed) Latest() (deg float64, ok bool) {
+	f.mu.Lock()
+	defer f.mu.Unlock()
+	if n := len(f.deg); n > 0 {
+		return f.deg[n-1], true
 	}
-	if !(opts.MaxS > 0) {
-		f.Stop()
-		return nil, fmt.Errorf("live capture with a compass needs a duration")
-	}
-	info := src.Info()
-	cctx, cancel := context.WithCancel(ctx)
-	defer cancel()
-	go func() {
-		select {
-		case <-f.failed:
-			cancel()
-		case <-cctx.Done():
-		}
-	}()
-	var got atomic.Int64
-	sink := opts.Sink
-	opts.Sink = func(b []complex64) error {
-		got.Add(int64(len(b)))
-		if sink != nil {
-			return sink(b)
-		}
-		return nil
-	}
-	lc, err := CaptureLive(cctx, src, opts)
-	ferr := f.Stop()
-	if ferr != nil && ctx.Err() == nil {
-		elapsed := 0.0
-		if info.SampleRate > 0 {
-			elapsed = float64(got.Load()) / info.SampleRate
-		}
-		return nil, fmt.Errorf("live capture stopped %.1f s in: %w", elapsed, ferr)
-	}
-	if err != nil {
-		return nil, err
-	}
-	tr, err := f.Track(info.Start)
-	if err != nil {
-		return nil, fmt.Errorf("live capture: %w", err)
-	}
-	lc.Track = tr
-	// Other sentence types and the other north are normal traffic; lines
-	// that failed their checks are worth a word.
+	return 0, false
+}
+
+// SkippedWarning is a one-line summary of the sentences that failed their
+// checks (garbage, bad or missing checksums), or "" when none did. Other
+// sentence types and the other north are normal traffic and not counted.
+func (f *CompassFeed) SkippedWarning() string {
 	if st := f.stream.Stats(); st.Garbage+st.BadChecksum+st.NoChecksum > 0 {
-		lc.Warnings = append(lc.Warnings, fmt.Sprintf("compass %s: some sentences were skipped: %s", f.stream.Name(), f.stats()))
+		return fmt.Sprintf("compass %s: some sentences were skipped: %s", f.stream.Name(), f.stats())
 	}
-	return lc, nil
+	return ""
+}
+
+// referenceHint adds the flags to give when a compass speaks of the other
+// north than the one asked for.
+func referenceHint(err error, asked heading.Ref) error {
+	if !errors.Is(err, ErrCompassReference) {
+		return err
+	}
+	if asked == heading.True {
+		return fmt.Errorf("%w; for a magnetic compass give --heading-ref magnetic and --station LAT,LON (WMM2025) or --declination DEG", err)
+	}
+	return fmt.Errorf("%w; for a compass that gives true headings give --heading-ref true", err)
 }

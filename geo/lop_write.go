@@ -1,0 +1,107 @@
+package geo
+
+import (
+	"encoding/binary"
+	"encoding/csv"
+	"fmt"
+	"hash/fnv"
+	"io"
+	"math"
+	"strconv"
+	"time"
+)
+
+// BearingsCSVHeader is the header WriteBearingsCSV writes: the columns that
+// ReadBearingsCSV reads.
+var BearingsCSVHeader = []string{"ident", "station", "lat", "lon", "bearing_deg", "sigma_deg", "reference", "time", "declination_deg", "ambiguous"}
+
+// WriteBearingsCSV writes records in the CSV form ReadBearingsCSV reads:
+// lat/lon to 1e-6° (about 0.1 m), bearing and sigma to 0.01°, reference
+// "true" or "magnetic", time in RFC 3339 UTC (empty when unknown),
+// declination_deg only when the record carries its own, ambiguous
+// true/false. Non-finite numbers are refused (an error naming the record),
+// so the file always reads back.
+func WriteBearingsCSV(w io.Writer, recs []BearingRecord) error {
+	cw := csv.NewWriter(w)
+	if err := cw.Write(BearingsCSVHeader); err != nil {
+		return err
+	}
+	f := func(x float64, prec int) string { return strconv.FormatFloat(x, 'f', prec, 64) }
+	for i, r := range recs {
+		for _, v := range []float64{r.Lat, r.Lon, r.BearingDeg, r.SigmaDeg, r.DeclinationDeg} {
+			if math.IsNaN(v) || math.IsInf(v, 0) {
+				return fmt.Errorf("bearings CSV: record %d (%s at %s) has a non-finite number", i+1, r.Ident, r.Station)
+			}
+		}
+		ref := "true"
+		if r.Magnetic {
+			ref = "magnetic"
+		}
+		when, decl := "", ""
+		if !r.Time.IsZero() {
+			when = r.Time.UTC().Format(time.RFC3339)
+		}
+		if r.HasDeclination {
+			decl = f(r.DeclinationDeg, 2)
+		}
+		if err := cw.Write([]string{r.Ident, r.Station, f(r.Lat, 6), f(r.Lon, 6), f(r.BearingDeg, 2), f(r.SigmaDeg, 2),
+			ref, when, decl, strconv.FormatBool(r.Ambiguous)}); err != nil {
+			return err
+		}
+	}
+	cw.Flush()
+	return cw.Error()
+}
+
+// Duplicates spots records that repeat an earlier one exactly (every field
+// that reaches the fix the same: ident, station, position, bearing, sigma,
+// reference, time, declination, ambiguity; the row number aside). It keeps
+// a 128-bit hash per distinct record, so it costs about 50 bytes a record.
+type Duplicates struct {
+	seen map[[2]uint64]int
+	// Count is the number of repeats seen; First and FirstOf name the first
+	// repeat and the row it repeats.
+	Count          int
+	First, FirstOf int
+}
+
+// Seen reports whether rec repeats an earlier record, and that record's
+// row.
+func (d *Duplicates) Seen(rec BearingRecord) (dup bool, firstRow int) {
+	if d.seen == nil {
+		d.seen = map[[2]uint64]int{}
+	}
+	h := fnv.New128a()
+	var b [8]byte
+	put := func(x float64) {
+		binary.LittleEndian.PutUint64(b[:], math.Float64bits(x))
+		h.Write(b[:])
+	}
+	h.Write([]byte(rec.Ident))
+	h.Write([]byte{0})
+	h.Write([]byte(rec.Station))
+	h.Write([]byte{0})
+	for _, x := range []float64{rec.Lat, rec.Lon, rec.BearingDeg, rec.SigmaDeg, rec.DeclinationDeg} {
+		put(x)
+	}
+	binary.LittleEndian.PutUint64(b[:], uint64(rec.Time.UnixNano()))
+	h.Write(b[:])
+	flags := byte(0)
+	for i, f := range []bool{rec.Magnetic, rec.HasDeclination, rec.Ambiguous, rec.Time.IsZero()} {
+		if f {
+			flags |= 1 << i
+		}
+	}
+	h.Write([]byte{flags})
+	sum := h.Sum(nil)
+	key := [2]uint64{binary.LittleEndian.Uint64(sum[:8]), binary.LittleEndian.Uint64(sum[8:])}
+	if row, ok := d.seen[key]; ok {
+		d.Count++
+		if d.Count == 1 {
+			d.First, d.FirstOf = rec.Row, row
+		}
+		return true, row
+	}
+	d.seen[key] = rec.Row
+	return false, 0
+}
