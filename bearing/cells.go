@@ -9,8 +9,8 @@ import (
 )
 
 // Usage says which readings a fit used and which it left out, and why.
-// Readings = Used + KeyUp + BelowNoise + Outliers; Clipped readings are part
-// of Used (as lower bounds, see Fit).
+// Readings = Used + KeyUp + BelowNoise + Outliers + Unfitted; Clipped
+// readings are part of Used (as lower bounds, see Fit).
 type Usage struct {
 	// Readings is the number of readings given.
 	Readings int
@@ -31,6 +31,10 @@ type Usage struct {
 	// standard deviations (of noise and fading) from the fitted pattern —
 	// a second path's lobe, a burst of interference.
 	Outliers int
+	// Unfitted readings belong to windows of a long sweep that gave no
+	// bearing of their own (Windowed): too short a stretch at the end, a
+	// window the antenna did not turn in.
+	Unfitted int
 }
 
 // String is a short account, e.g. "1190 of 1200 readings (8 clipped, used as lower bounds; 10 key-up left out)".
@@ -48,6 +52,9 @@ func (u Usage) String() string {
 	}
 	if u.Outliers > 0 {
 		parts = append(parts, fmt.Sprintf("%d far from the pattern left out", u.Outliers))
+	}
+	if u.Unfitted > 0 {
+		parts = append(parts, fmt.Sprintf("%d in windows that gave no bearing", u.Unfitted))
 	}
 	if len(parts) > 0 {
 		s += " (" + strings.Join(parts, "; ") + ")"

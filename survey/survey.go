@@ -32,6 +32,11 @@ type Options struct {
 	MinConfidence float64
 	// Cluster tunes the grouping of bursts into transmitters.
 	Cluster ident.ClusterOptions
+	// Bearing, when set, fits each transmission's bearing while the scan
+	// goes on, window by window from its pieces (bearing.Windowed), so
+	// that a transmission of any length gets a bearing with bounded
+	// memory; the fits land in Record.Fit.
+	Bearing *BearingPlan
 }
 
 // Record is one burst with what identification found. Its JSON form, a
@@ -48,6 +53,9 @@ type Record struct {
 	WPM             float64
 	Transmitter     string
 	Warnings        []string
+	// Fit is the burst's bearing fitted during the scan (Options.Bearing);
+	// nil without a plan.
+	Fit *BurstFit
 }
 
 // Result is a finished survey.
@@ -88,8 +96,20 @@ func Run(ctx context.Context, src sdr.Source, opts Options, progress func(int64)
 	// read with bounded memory).
 	var best *Record
 	h := receiver.Handler{Progress: progress}
-	if !opts.NoIdent {
+	var fit *bearingScan
+	if opts.Bearing != nil {
+		if fit, err = newBearingScan(*opts.Bearing); err != nil {
+			return nil, err
+		}
+	}
+	if !opts.NoIdent || fit != nil {
 		h.Piece = func(p *receiver.Piece) error {
+			if fit != nil {
+				fit.piece(p)
+			}
+			if opts.NoIdent {
+				return nil
+			}
 			c := Record{Ident: ident.UnknownIdent}
 			// the transmission's part of the piece: audio with 0.1 s either
 			// side, the level track from edge to edge
@@ -112,6 +132,9 @@ func Run(ctx context.Context, src sdr.Source, opts Options, progress func(int64)
 		}
 		if b.DoubleCarrier {
 			r.Warnings = append(r.Warnings, fmt.Sprintf("carrier stepped by %.0f Hz inside the burst: two transmitters on the air at once?", b.CarrierSpreadHz))
+		}
+		if fit != nil {
+			r.Fit = fit.finish(b)
 		}
 		// The audio has done its job; keep the record small.
 		r.FMAudio, r.AMAudio = nil, nil
