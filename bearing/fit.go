@@ -393,13 +393,14 @@ func Fit(points []Point, p Pattern, opts FitOptions) (Estimate, error) {
 	copy(f.w, cands[best].w)
 	f.tau = cands[best].tau
 	f.eval(theta, c)
-	// Cells the robust fit left out as lying far above the pattern stay
-	// out when there are many of them (3% of the cells or more: a second
-	// path's lobe, not the odd noisy cell): later noise models (fading
+	// Cells the robust fit left out as lying far above the pattern (more
+	// than lobeDB) stay out when there are many of them (3% of the cells
+	// or more: a second path's lobe, not the odd noisy cell near a null): later noise models (fading
 	// above all) must not take the lobe back in.
+	const lobeDB = 4 // a second path's lobe stands this far above the pattern at least
 	var above int
 	for k, cl := range f.cells {
-		if !cl.clipped && f.w[k] == 0 && f.r[k] > 0 {
+		if !cl.clipped && f.w[k] == 0 && f.r[k] > lobeDB {
 			above++
 		}
 	}
@@ -407,7 +408,7 @@ func Fit(points []Point, p Pattern, opts FitOptions) (Estimate, error) {
 		f.wBase = make([]float64, len(f.cells))
 		for k, cl := range f.cells {
 			f.wBase[k] = 1
-			if !cl.clipped && f.w[k] == 0 && f.r[k] > 0 {
+			if !cl.clipped && f.w[k] == 0 && f.r[k] > lobeDB {
 				f.wBase[k] = 0
 			}
 		}
@@ -513,13 +514,34 @@ func Fit(points []Point, p Pattern, opts FitOptions) (Estimate, error) {
 		f.eval(theta, c)
 		f.kalman(f.fad, f.tau, true)
 	}
+	// With one pass, the fading's correlation time was held short so that
+	// the fit could not take the pattern for fading; the sigma must still
+	// allow for fading as slow as the data would have it (up to a whole
+	// pass): the information under that slower model, at the same bearing.
+	slow := 0.0
+	if fading && passes < 1.8 {
+		keep, keepTau, keepMax := f.fad, f.tau, f.maxTauS
+		f.maxTauS = passS
+		f.eval(theta, c)
+		fs, ts, lrs, _ := f.profile()
+		if lrs > fadingLR && fs.Var >= minFadingVar && fs.TauS > keep.TauS {
+			f.fad, f.tau = fs, ts
+			f.eval(theta, c)
+			f.kalman(f.fad, f.tau, true)
+			b11, b12, b22, _, _ := f.glsNormal()
+			slow = fisherSigma(b11, b12, b22)
+		}
+		f.fad, f.tau, f.maxTauS = keep, keepTau, keepMax
+		f.eval(theta, c)
+		f.kalman(f.fad, f.tau, true)
+	}
 
 	est := Estimate{
 		BearingDeg:         theta,
 		FisherSigmaDeg:     fisher,
 		ModelSigmaDeg:      modelSigma,
 		CorrelatedSigmaDeg: hac,
-		SigmaDeg:           math.Max(math.Max(modelSigma, hac), math.Max(hacT, jk)),
+		SigmaDeg:           math.Max(math.Max(modelSigma, hac), math.Max(math.Max(hacT, jk), slow)),
 		CoverageDeg:        cov,
 		Arcs:               arcs(gaps),
 		Mode:               p.Mode,
@@ -606,7 +628,27 @@ func Fit(points []Point, p Pattern, opts FitOptions) (Estimate, error) {
 		est.warn(FlagFading, "fading: the level wandered by %.1f dB RMS (correlation time %.1f s) %s; modelled, sigma %.2f° widened to %.2f°",
 			est.FadingDB, est.FadingTimeS, what, fisher, modelSigma)
 	}
-	if w := f.trendWarning(); w != "" {
+	if w, slope, mt := f.trendWarning(); w != "" {
+		// The bearing with the trend taken out of the levels: how far it
+		// moves is how much the trend can have moved it (one pass cannot
+		// tell a trend from the pattern), and widens the sigma.
+		y0 := append([]float64(nil), f.y...)
+		for k, cl := range f.cells {
+			f.y[k] -= slope * (cl.t - mt)
+		}
+		var td float64
+		if fading {
+			td, _ = f.glsGN(theta, c)
+		} else {
+			td, _ = f.whiteGN(theta, c)
+		}
+		copy(f.y, y0)
+		f.eval(theta, c)
+		shift := math.Abs(math.Mod(angle.Wrap180(td-theta)+period/2+4*360, period) - period/2)
+		if s2 := math.Hypot(est.SigmaDeg, shift); s2 > est.SigmaDeg {
+			est.SigmaDeg = s2
+			w += fmt.Sprintf("; without it the bearing moves %.1f°: sigma widened to %.1f°", shift, s2)
+		}
 		est.warn(FlagTrend, "%s", w)
 	}
 	if w, sig := nullFill(sm, m, p, theta, c, thermal, floorDB, halfW); w != "" {
@@ -779,7 +821,7 @@ func (f *fitter) bootstrap(theta, c float64, nboot int, seed uint64, period floa
 // trendWarning regresses the white model's residuals (dB) of the cells
 // used on time and warns when the level drifted by more than 1 dB over the
 // sweep at more than 4 standard errors.
-func (f *fitter) trendWarning() string {
+func (f *fitter) trendWarning() (string, float64, float64) {
 	var sw, st, sr, stt, str float64
 	t0, t1 := math.Inf(1), math.Inf(-1)
 	n := 0
@@ -799,7 +841,7 @@ func (f *fitter) trendWarning() string {
 	}
 	varT := stt - st*st/sw
 	if !(varT > 0) || !(t1 > t0) || n < 4 {
-		return ""
+		return "", 0, 0
 	}
 	slope := (str - st*sr/sw) / varT
 	var rss float64
@@ -814,24 +856,25 @@ func (f *fitter) trendWarning() string {
 	se := math.Sqrt(rss / float64(n-2) / varT)
 	change := slope * (t1 - t0)
 	if math.Abs(change) > 1 && math.Abs(slope) > 4*se {
-		return fmt.Sprintf("level trend: %+.1f dB over the %.0f s sweep (transmitter or path changed while turning)", change, t1-t0)
+		return fmt.Sprintf("level trend: %+.1f dB over the %.0f s sweep (transmitter or path changed while turning)", change, t1-t0), slope, mt
 	}
-	return ""
+	return "", 0, 0
 }
 
 // outlierWarning names a stretch of headings that the robust fit left
-// out as far above the pattern (a second path's lobe) when it holds more
-// than 3% of the cells used.
+// out as far above the pattern (4 dB or more: a second path's lobe) when
+// it holds more than 3% of the cells.
 func (f *fitter) outlierWarning(p Pattern, theta, c float64, use Usage) string {
-	var n, above int
+	var n, above, readings int
 	var sx, sy, sr float64
 	for k, cl := range f.cells {
 		if cl.clipped {
 			continue
 		}
 		n++
-		if f.w[k] == 0 && f.r[k] > 0 {
+		if f.w[k] == 0 && f.r[k] > 4 {
 			above++
+			readings += int(cl.n)
 			s, co := math.Sincos(cl.h * math.Pi / 180)
 			sx += s
 			sy += co
@@ -843,7 +886,7 @@ func (f *fitter) outlierWarning(p Pattern, theta, c float64, use Usage) string {
 	}
 	h := angle.Wrap360(math.Atan2(sx, sy) * 180 / math.Pi)
 	return fmt.Sprintf("multipath: %d readings around heading %.0f° lie %.0f dB above the pattern on average (a second path?) and were left out",
-		use.Outliers, h, sr/float64(above))
+		readings, h, sr/float64(above))
 }
 
 // turns is how many times the headings went round: the heading travelled

@@ -158,7 +158,7 @@ func (f *fitter) eval(theta, c float64) {
 			}
 			if !f.frozen {
 				f.vt[k] = f.v[k]
-				if f.k2 > 0 && f.tau > 0 && f.vmode != varUniform {
+				if f.k2 > 0 && f.tau > 0 && f.vmode == varModel {
 					// the model's own error, the same in dB at every level
 					f.v[k] += f.k2 / f.tau
 				}
@@ -278,7 +278,7 @@ func (f *fitter) whiteGN(theta, c float64) (float64, float64) {
 // estimateScale sets tau robustly from the residuals at the last eval: the
 // median of r²/v over the observed cells over the median of χ²₁ (0.4549).
 //
-// In the thermal model (outside varUniform) it also sets k2, the variance
+// In the thermal model without fading (varModel) it also sets k2, the variance
 // of an error of the model itself that is the same in dB at every level —
 // a site's ripple on the pattern, a pattern a little off — which the
 // thermal variance, tiny for a strong carrier, does not allow for: tau
@@ -298,7 +298,7 @@ func (f *fitter) estimateScale() {
 	if len(q) == 0 {
 		return
 	}
-	if !f.thermal || f.vmode == varUniform || len(q) < 20 {
+	if !f.thermal || f.vmode != varModel || len(q) < 20 {
 		var rs []float64
 		for k, cl := range f.cells {
 			if cl.clipped || f.w[k] == 0 {
