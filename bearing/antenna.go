@@ -8,7 +8,8 @@ import (
 
 // AntennaSpec chooses an antenna pattern by name and shape, as the
 // commands' --antenna, --beamwidth, --front-back, --null-depth and
-// --body-depth flags do. Its zero fields take DefaultAntenna's values.
+// --body-depth flags do. Start from DefaultAntenna: a shape number of 0 is
+// out of range (only an empty Kind means DefaultAntenna's).
 type AntennaSpec struct {
 	// Kind is one of the AntennaKinds names, or the path of a pattern file
 	// written by calibrate (ending in .json).
@@ -50,21 +51,8 @@ func AntennaHelp() string {
 }
 
 func (a AntennaSpec) withDefaults() AntennaSpec {
-	d := DefaultAntenna
 	if a.Kind == "" {
-		a.Kind = d.Kind
-	}
-	if a.BeamwidthDeg == 0 {
-		a.BeamwidthDeg = d.BeamwidthDeg
-	}
-	if a.FrontBackDB == 0 {
-		a.FrontBackDB = d.FrontBackDB
-	}
-	if a.NullDepthDB == 0 {
-		a.NullDepthDB = d.NullDepthDB
-	}
-	if a.BodyDepthDB == 0 {
-		a.BodyDepthDB = d.BodyDepthDB
+		a.Kind = DefaultAntenna.Kind
 	}
 	return a
 }

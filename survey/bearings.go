@@ -569,7 +569,7 @@ func WriteBearingTable(w io.Writer, bbs []BurstBearing, txs []TxBearing, refNote
 		fmt.Fprintf(tw, "%-12s %-4s %9s %7s %9s %7d  %s\n", t.Ident, t.Transmitter, cellNum("%.1f°", c.BearingDeg, &bad),
 			cellNum("%.1f°", t.SigmaDeg, &bad), alt, c.BurstsUsed, strings.Join(notes, "; "))
 	}
-	fmt.Fprintf(tw, "(±1σ of a transmitter includes a %.1f° site error", firstSite(txs))
+	fmt.Fprintf(tw, "(±1σ of a transmitter includes a %s site error", cellNum("%.1f°", firstSite(txs), &bad))
 	if refNote != "" {
 		fmt.Fprintf(tw, "; %s", refNote)
 	}
