@@ -6,22 +6,27 @@ import (
 	"math"
 	"math/rand/v2"
 	"nullseek/internal/angle"
-	"sort"
 
-	"gonum.org/v1/gonum/dsp/fourier"
+	"gonum.org/v1/gonum/stat/distuv"
 )
 
 // Point is one level reading taken while the antenna turned.
 type Point struct {
-	// T is the reading's time in seconds (any origin; used for trend and lag).
+	// T is the reading's time in seconds (any origin; used for the fading
+	// model, the trend and the lag).
 	T float64
-	// HeadingDeg is the antenna boresight heading, degrees clockwise.
+	// HeadingDeg is the antenna's heading, degrees clockwise: the
+	// direction of its pattern's reference (Pattern.HeadingRef says which).
 	HeadingDeg float64
 	// LevelDB is the received level in dB (any fixed reference, e.g. dBFS).
 	LevelDB float64
-	// Clipped marks a reading taken while the receiver was clipping; such
-	// readings are left out of the fit and reported as a warning.
+	// Clipped marks a reading taken while the receiver's ADC was at its
+	// rails: its level is too low by an unknown amount. The fit uses it as
+	// a lower bound (Usage.Clipped).
 	Clipped bool
+	// KeyUp marks a reading taken while a keyed carrier was off (a gap
+	// between Morse elements): left out of the fit (Usage.KeyUp).
+	KeyUp bool
 }
 
 // NoiseModel selects how the level readings' errors are modelled.
@@ -32,16 +37,13 @@ const (
 	// NoiseDB otherwise.
 	NoiseAuto NoiseModel = iota
 	// NoiseDB: level = c + G(θ−φ) + e with e ~ N(0, σ²) in dB, σ constant and
-	// estimated from the residuals. This is the model of the bound derived in
-	// REFERENCES §6. Fitted in dB; c in closed form (jointly in Gauss–Newton).
+	// estimated from the residuals: the model of the Cramér–Rao bound CRBDBDeg.
 	NoiseDB
 	// NoiseThermal: each reading is a power averaged over many samples of a
-	// constant carrier plus complex Gaussian noise of known power N (the noise
-	// floor): E[P] = S·p(θ−φ) + N, Var[P] ∝ N² + 2·S·p·N. Fitted in the linear
-	// power domain by iteratively reweighted Gauss–Newton, so that a null
-	// filled by noise is modelled instead of being mistaken for the pattern's
-	// null. The variance scale (1/samples per reading) is estimated from the
-	// residuals.
+	// carrier plus complex Gaussian noise of known power N (the noise
+	// floor): E[P] = S·p(θ−φ) + N, Var[P] ∝ N² + 2·S·p·N. A null filled by
+	// noise is modelled instead of being mistaken for the pattern's null.
+	// The variance scale (1/samples per reading) is estimated.
 	NoiseThermal
 )
 
@@ -58,70 +60,143 @@ func (n NoiseModel) String() string {
 	return fmt.Sprintf("noise(%d)", int(n))
 }
 
-// FitOptions tunes Fit. The zero value gives the defaults.
+// FitOptions tunes Fit. The zero value gives the defaults (DefaultFit).
 type FitOptions struct {
-	// BinDeg is the heading bin width in degrees (default 1; range 0.1..10).
+	// BinDeg is the heading step of a cell in degrees: consecutive
+	// readings within it are averaged (default 1; range 0.1..10).
 	BinDeg float64
 	// NoiseFloorDB, when set, is the level of the noise alone on the LevelDB
 	// scale (from the receiver's noise estimate); it enables NoiseThermal.
 	NoiseFloorDB *float64
 	// Noise selects the error model (default NoiseAuto).
 	Noise NoiseModel
-	// MinPoints is the fewest usable (unclipped) points accepted (default 20).
+	// MinPoints is the fewest usable readings accepted (default 20; range
+	// 5..10⁷).
 	MinPoints int
-	// MinCoverageDeg is the least sweep coverage accepted (default 90°).
+	// MinCoverageDeg is the least sweep coverage accepted (default 90°;
+	// range 10..360).
 	MinCoverageDeg float64
 	// MaxGapDeg: gaps between neighbouring headings no wider than this count
-	// as covered (default 10°).
+	// as covered (default 10°; range 0.5..90).
 	MaxGapDeg float64
 	// Bootstrap is the number of residual-bootstrap refits (0 → 100,
-	// negative → no bootstrap).
+	// negative → no bootstrap; at most 10000). It runs only when the
+	// residuals show no fading (the bootstrap assumes independent cells).
 	Bootstrap int
 	// Seed seeds the bootstrap's random numbers (runs are reproducible).
 	Seed uint64
 }
+
+// DefaultFit holds the defaults of FitOptions (the zero value means them).
+var DefaultFit = FitOptions{BinDeg: 1, MinPoints: 20, MinCoverageDeg: 90, MaxGapDeg: 10, Bootstrap: 100}
+
+// Validate checks every field against its documented range; a zero field
+// means its default and is valid.
+func (o FitOptions) Validate() error {
+	_, err := o.withDefaults()
+	return err
+}
+
+// Flag names a condition that makes a bearing less trustworthy; each flag
+// comes with a sentence in Estimate.Warnings.
+type Flag string
+
+const (
+	// FlagPartial: the sweep covered the pattern's feature but not the
+	// whole circle.
+	FlagPartial Flag = "partial"
+	// FlagFading: the level changed with time in a way that does not repeat
+	// with heading (fading, a transmitter whose power wanders); the fit
+	// modelled it and the sigma allows for it.
+	FlagFading Flag = "fading"
+	// FlagMultipath: the level changed with heading in a way the pattern does
+	// not explain (a second path, a site that distorts the pattern).
+	FlagMultipath Flag = "multipath"
+	// FlagClipping: some readings were taken at the ADC's rails.
+	FlagClipping Flag = "clipping"
+	// FlagTrend: the level drifted steadily during the sweep.
+	FlagTrend Flag = "trend"
+	// FlagAmbiguous: the pattern fits equally at more than two bearings.
+	FlagAmbiguous Flag = "ambiguous"
+	// FlagUncertain: two estimates of the uncertainty disagree.
+	FlagUncertain Flag = "uncertain"
+)
 
 // Estimate is a fitted bearing.
 type Estimate struct {
 	// BearingDeg is the transmitter's bearing, degrees clockwise in [0, 360),
 	// in the heading source's reference (true north if the headings are true).
 	BearingDeg float64
-	// SigmaDeg is the reported 1-sigma uncertainty: FisherSigmaDeg, or the
-	// bootstrap's value when that is more than twice as large (with a warning).
+	// SigmaDeg is the reported 1-sigma uncertainty: the largest of
+	// ModelSigmaDeg, CorrelatedSigmaDeg and (when it disagrees with the
+	// Fisher sigma by more than twice) BootstrapSigmaDeg.
 	SigmaDeg float64
 	// AltBearingDeg is the equally good alternative bearing of an ambiguous
 	// pattern (BearingDeg + 360°/Symmetry), nil for an unambiguous one.
 	AltBearingDeg *float64
 	// NullDepthDB: for a Null pattern, the highest smoothed level minus the
-	// level measured at the fitted null; for a Peak pattern, the span between
-	// the highest and lowest smoothed levels.
+	// level measured nearest the fitted null; for a Peak pattern, the span
+	// between the highest and lowest smoothed levels. Always finite.
 	NullDepthDB float64
-	// ResidualDB is the RMS of binned level minus fitted level, dB.
+	// ResidualDB is the RMS of cell level minus fitted level over the cells
+	// used, dB (fading included).
 	ResidualDB float64
-	// CoverageDeg is the part of the circle the headings covered, degrees.
+	// CoverageDeg is the part of the circle the headings covered, degrees;
+	// Arcs are the covered stretches.
 	CoverageDeg float64
-	// Points is the number of readings used (clipped ones excluded).
+	Arcs        []Arc
+	// Points is the number of readings used (Usage.Used).
 	Points int
+	// Usage says which readings were used and which left out.
+	Usage Usage
 	// Mode is the pattern's mode (which feature marked the bearing).
 	Mode Mode
 	// Noise is the error model that was used.
 	Noise NoiseModel
 	// LevelDB is the fitted carrier level at the pattern's 0 dB direction
-	// (without the noise), on the LevelDB scale.
+	// (without the noise), on the LevelDB scale (its mean over the sweep
+	// when the level faded).
 	LevelDB float64
 	// NoiseFloorDB is the noise floor the thermal model used (0 for NoiseDB).
 	NoiseFloorDB float64
-	// FisherSigmaDeg is the 1-sigma from the Fisher information with the
-	// measured residual noise (REFERENCES §6).
+	// FisherSigmaDeg is the 1-sigma from the Fisher information of
+	// independent cells with the measured residual noise.
 	FisherSigmaDeg float64
+	// ModelSigmaDeg is the 1-sigma from the Fisher information of the
+	// model that was fitted: FisherSigmaDeg, or with fading the generalised
+	// least-squares information under the fitted fading.
+	ModelSigmaDeg float64
 	// BootstrapSigmaDeg is the RMS spread of residual-bootstrap refits,
 	// 0 when the bootstrap was not run.
 	BootstrapSigmaDeg float64
 	// CorrelatedSigmaDeg is the 1-sigma that allows for residuals correlated
-	// with heading (see correlatedSigma); SigmaDeg is never below it.
+	// with heading (see hacSigma); SigmaDeg is never below it.
 	CorrelatedSigmaDeg float64
-	// Warnings lists conditions that make the bearing less trustworthy.
+	// FadingDB and FadingTimeS describe the fading the fit found: the RMS
+	// of the level changes that do not repeat with heading (dB) and their
+	// correlation time (s); both 0 when none was found.
+	FadingDB, FadingTimeS float64
+	// Flags name the conditions that make the bearing less trustworthy;
+	// Warnings say each in a sentence (and may say more).
+	Flags    []Flag
 	Warnings []string
+}
+
+// HasFlag reports whether the estimate carries flag f.
+func (e Estimate) HasFlag(f Flag) bool {
+	for _, g := range e.Flags {
+		if g == f {
+			return true
+		}
+	}
+	return false
+}
+
+func (e *Estimate) warn(f Flag, format string, args ...any) {
+	if !e.HasFlag(f) {
+		e.Flags = append(e.Flags, f)
+	}
+	e.Warnings = append(e.Warnings, fmt.Sprintf(format, args...))
 }
 
 // Errors returned (wrapped) by Fit; test with errors.Is.
@@ -134,26 +209,36 @@ var (
 )
 
 func (o FitOptions) withDefaults() (FitOptions, error) {
+	d := DefaultFit
 	if o.BinDeg == 0 {
-		o.BinDeg = 1
+		o.BinDeg = d.BinDeg
 	}
 	if !(o.BinDeg >= 0.1 && o.BinDeg <= 10) {
 		return o, fmt.Errorf("%w: bin width %g° out of range [0.1, 10]", ErrBadInput, o.BinDeg)
 	}
 	if o.MinPoints == 0 {
-		o.MinPoints = 20
+		o.MinPoints = d.MinPoints
 	}
-	if o.MinPoints < 5 {
-		o.MinPoints = 5
+	if o.MinPoints < 5 || o.MinPoints > 1e7 {
+		return o, fmt.Errorf("%w: minimum readings %d out of range [5, 10⁷]", ErrBadInput, o.MinPoints)
 	}
 	if o.MinCoverageDeg == 0 {
-		o.MinCoverageDeg = 90
+		o.MinCoverageDeg = d.MinCoverageDeg
+	}
+	if !(o.MinCoverageDeg >= 10 && o.MinCoverageDeg <= 360) {
+		return o, fmt.Errorf("%w: minimum coverage %g° out of range [10, 360]", ErrBadInput, o.MinCoverageDeg)
 	}
 	if o.MaxGapDeg == 0 {
-		o.MaxGapDeg = 10
+		o.MaxGapDeg = d.MaxGapDeg
+	}
+	if !(o.MaxGapDeg >= 0.5 && o.MaxGapDeg <= 90) {
+		return o, fmt.Errorf("%w: largest covered gap %g° out of range [0.5, 90]", ErrBadInput, o.MaxGapDeg)
 	}
 	if o.Bootstrap == 0 {
-		o.Bootstrap = 100
+		o.Bootstrap = d.Bootstrap
+	}
+	if o.Bootstrap > 10000 {
+		return o, fmt.Errorf("%w: %d bootstrap refits, at most 10000", ErrBadInput, o.Bootstrap)
 	}
 	if o.NoiseFloorDB != nil && (math.IsNaN(*o.NoiseFloorDB) || math.IsInf(*o.NoiseFloorDB, 0)) {
 		return o, fmt.Errorf("%w: noise floor is not finite", ErrBadInput)
@@ -176,305 +261,35 @@ func (o FitOptions) withDefaults() (FitOptions, error) {
 	return o, nil
 }
 
-// bins holds readings grouped by heading.
-type bins struct {
-	hDeg []float64 // circular mean heading of the bin
-	yDB  []float64 // mean level, dB
-	pw   []float64 // mean power relative to the noise floor (thermal) or 10^(dB/10)
-	n    []float64 // readings in the bin
-}
+// fadingLR is the likelihood-ratio statistic (twice the log-likelihood
+// gain, two extra parameters) above which the fit models fading: the
+// χ²₂ tail beyond it is 2·10⁻⁹ (exp(−40/2)), so noise alone almost never
+// turns it on, while a level that wanders by a fraction of a dB over
+// hundreds of cells passes it by far.
+const fadingLR = 40
 
-func makeBins(pts []Point, binDeg float64, floorDB float64) bins {
-	nb := int(math.Ceil(360/binDeg - 1e-9))
-	sx := make([]float64, nb)
-	sy := make([]float64, nb)
-	sdb := make([]float64, nb)
-	spw := make([]float64, nb)
-	cnt := make([]float64, nb)
-	for _, p := range pts {
-		h := angle.Wrap360(p.HeadingDeg)
-		i := int(h / binDeg)
-		if i >= nb {
-			i = nb - 1
-		}
-		s, c := math.Sincos(h * math.Pi / 180)
-		sx[i] += s
-		sy[i] += c
-		sdb[i] += p.LevelDB
-		spw[i] += math.Pow(10, (p.LevelDB-floorDB)/10)
-		cnt[i]++
-	}
-	var b bins
-	for i := range cnt {
-		if cnt[i] == 0 {
-			continue
-		}
-		b.hDeg = append(b.hDeg, angle.Wrap360(math.Atan2(sx[i], sy[i])*180/math.Pi))
-		b.yDB = append(b.yDB, sdb[i]/cnt[i])
-		b.pw = append(b.pw, spw[i]/cnt[i])
-		b.n = append(b.n, cnt[i])
-	}
-	return b
-}
-
-// coverage returns the covered degrees and the uncovered gaps (start, width)
-// wider than maxGap.
-func coverage(pts []Point, maxGap float64) (float64, [][2]float64) {
-	h := make([]float64, len(pts))
-	for i, p := range pts {
-		h[i] = angle.Wrap360(p.HeadingDeg)
-	}
-	sort.Float64s(h)
-	var gaps [][2]float64
-	cov := 360.0
-	for i := range h {
-		var g float64
-		if i+1 < len(h) {
-			g = h[i+1] - h[i]
-		} else {
-			g = h[0] + 360 - h[i]
-		}
-		if g > maxGap {
-			gaps = append(gaps, [2]float64{h[i], g})
-			cov -= g
-		}
-	}
-	return cov, gaps
-}
-
-// inGap reports whether heading x lies strictly inside one of the gaps.
-func inGap(x float64, gaps [][2]float64) bool {
-	for _, g := range gaps {
-		d := angle.Wrap360(x - g[0])
-		if d > 0 && d < g[1] {
-			return true
-		}
-	}
-	return false
-}
-
-// solver fits one data vector (bin values) for a fixed bin geometry.
-type solver struct {
-	m      *model
-	b      bins
-	noise  NoiseModel
-	floor  float64 // linear noise power (1 in thermal, by normalisation)
-	mu     []float64
-	dmu    []float64
-	dlin   []float64
-	pwk    []float64
-	w      []float64
-	resid  []float64
-	ptsSym int
-}
-
-func newSolver(m *model, b bins, noise NoiseModel) *solver {
-	n := len(b.hDeg)
-	return &solver{m: m, b: b, noise: noise, floor: 1,
-		mu: make([]float64, n), dmu: make([]float64, n), dlin: make([]float64, n),
-		pwk: make([]float64, n), w: make([]float64, n), resid: make([]float64, n)}
-}
-
-// eval fills mu, dmu (dμ/dθ), dlin (dμ/dc or dμ/dS), w and resid for data y
-// at (theta, c). In NoiseDB, c is the level offset in dB; in NoiseThermal, c
-// is the signal power S relative to the noise floor.
-func (s *solver) eval(y []float64, theta, c float64, reweight bool) float64 {
-	var sse float64
-	for k, h := range s.b.hDeg {
-		x := theta - h
-		if s.noise == NoiseDB {
-			g, sl := s.m.gainSlopeDB(x)
-			s.mu[k] = c + g
-			s.dmu[k] = sl
-			s.dlin[k] = 1
-			if reweight {
-				s.w[k] = s.b.n[k]
-			}
-		} else {
-			pw, d := s.m.power(x)
-			s.pwk[k] = pw
-			s.mu[k] = c*pw + s.floor
-			s.dmu[k] = c * d
-			s.dlin[k] = pw
-			if reweight {
-				sp := math.Max(c, 0) * pw
-				s.w[k] = s.b.n[k] / (s.floor*s.floor + 2*sp*s.floor)
-			}
-		}
-		r := y[k] - s.mu[k]
-		s.resid[k] = r
-		sse += s.w[k] * r * r
-	}
-	return sse
-}
-
-// normal returns the 2×2 normal matrix JᵀWJ and JᵀWr at the last eval.
-func (s *solver) normal() (a11, a12, a22, b1, b2 float64) {
-	for k := range s.mu {
-		w := s.w[k]
-		a11 += w * s.dmu[k] * s.dmu[k]
-		a12 += w * s.dmu[k] * s.dlin[k]
-		a22 += w * s.dlin[k] * s.dlin[k]
-		b1 += w * s.dmu[k] * s.resid[k]
-		b2 += w * s.dlin[k] * s.resid[k]
-	}
-	return
-}
-
-// linearStart returns the closed-form level parameter at theta.
-func (s *solver) linearStart(y []float64, theta float64) float64 {
-	var num, den float64
-	for k, h := range s.b.hDeg {
-		if s.noise == NoiseDB {
-			g := s.m.gainDB(theta - h)
-			num += s.b.n[k] * (y[k] - g)
-			den += s.b.n[k]
-		} else {
-			pw, _ := s.m.power(theta - h)
-			num += s.b.n[k] * pw * (y[k] - s.floor)
-			den += s.b.n[k] * pw * pw
-		}
-	}
-	if den == 0 {
-		return 0
-	}
-	return num / den
-}
-
-// gaussNewton refines (theta, c) from theta0 and returns them with the final
-// weighted SSE.
-func (s *solver) gaussNewton(y []float64, theta0 float64) (theta, c, sse float64) {
-	theta = theta0
-	c = s.linearStart(y, theta)
-	if s.noise == NoiseThermal && c <= 0 {
-		c = 1e-6
-	}
-	for it := 0; it < 60; it++ {
-		sse = s.eval(y, theta, c, true)
-		a11, a12, a22, b1, b2 := s.normal()
-		det := a11*a22 - a12*a12
-		if !(det > 0) {
-			break
-		}
-		dt := (a22*b1 - a12*b2) / det
-		dc := (a11*b2 - a12*b1) / det
-		if math.Abs(dt) > 5 {
-			f := 5 / math.Abs(dt)
-			dt *= f
-			dc *= f
-		}
-		// Step halving on the SSE with this iteration's weights.
-		step := 1.0
-		accepted := false
-		for tries := 0; tries < 30; tries++ {
-			nt, nc := theta+step*dt, c+step*dc
-			if s.noise == NoiseThermal && nc <= 0 {
-				nc = c / 2
-			}
-			if s.eval(y, nt, nc, false) <= sse*(1+1e-12) {
-				theta, c = nt, nc
-				accepted = true
-				break
-			}
-			step /= 2
-		}
-		if !accepted || math.Abs(step*dt) < 1e-7 {
-			break
-		}
-	}
-	sse = s.eval(y, theta, c, true)
-	return angle.Wrap360(theta), c, sse
-}
-
-// coarse returns up to three candidate rotations (degrees) from the circular
-// cross-correlation of the binned dB levels with the pattern (via FFT),
-// refined by a parabola through the profile SSE around each minimum.
-func coarse(p Pattern, pts []Point) []float64 {
-	const n = PatternSteps
-	d := make([]float64, n)
-	m := make([]float64, n)
-	cnt := make([]float64, n)
-	for _, q := range pts {
-		i := int(angle.Wrap360(q.HeadingDeg)) % n
-		d[i] += q.LevelDB
-		cnt[i]++
-	}
-	lo, hi := math.Inf(1), math.Inf(-1)
-	for i := range d {
-		if cnt[i] > 0 {
-			d[i] /= cnt[i]
-			m[i] = 1
-			lo = math.Min(lo, d[i])
-			hi = math.Max(hi, d[i])
-		}
-	}
-	span := math.Max(hi-lo, 1)
-	g := make([]float64, n)
-	g2 := make([]float64, n)
-	for k := range g {
-		g[k] = math.Max(p.GainDB[k], -span)
-		g2[k] = g[k] * g[k]
-	}
-	md := make([]float64, n)
-	var nn, d1, d2 float64
-	for i := range d {
-		md[i] = m[i] * d[i]
-		nn += m[i]
-		d1 += md[i]
-		d2 += md[i] * d[i]
-	}
-	fft := fourier.NewFFT(n)
-	conv := func(a, b []float64) []float64 {
-		fa := fft.Coefficients(nil, a)
-		fb := fft.Coefficients(nil, b)
-		for i := range fa {
-			fa[i] *= fb[i]
-		}
-		out := fft.Sequence(nil, fa)
-		for i := range out {
-			out[i] /= n
-		}
-		return out
-	}
-	// (x*G)(θ) = Σ_j x_j G(θ−j): circular convolution.
-	A := conv(m, g)
-	B := conv(m, g2)
-	C := conv(md, g)
-	sse := make([]float64, n)
-	for t := range sse {
-		sse[t] = d2 - 2*C[t] + B[t] - (d1-A[t])*(d1-A[t])/nn
-	}
-	type cand struct{ t, v float64 }
-	var cs []cand
-	for t := 0; t < n; t++ {
-		l, r := sse[(t+n-1)%n], sse[(t+1)%n]
-		if sse[t] <= l && sse[t] < r {
-			off := 0.0
-			den := l - 2*sse[t] + r
-			if den > 0 {
-				off = 0.5 * (l - r) / den
-			}
-			cs = append(cs, cand{float64(t) + off, sse[t]})
-		}
-	}
-	sort.Slice(cs, func(i, j int) bool { return cs[i].v < cs[j].v })
-	var out []float64
-	for _, c := range cs {
-		if len(out) == 3 {
-			break
-		}
-		out = append(out, angle.Wrap360(c.t))
-	}
-	if len(out) == 0 {
-		out = append(out, 0)
-	}
-	return out
-}
+// minFadingVar is the least fading variance (dB²) the fit models: level
+// changes under 0.5 dB RMS move a bearing less than the heading-ordered
+// sandwich sigma already allows for, and a pattern table that is a little
+// off (a calibrated one, smoothed) would otherwise be taken for fading.
+const minFadingVar = 0.25
 
 // Fit finds the bearing that best explains the levels seen at each heading
-// with pattern p: coarse circular cross-correlation by FFT, then Gauss–Newton
-// in (θ, level) under the chosen noise model, then the Fisher-information
-// sigma with the measured residual noise and a residual bootstrap.
+// with pattern p.
+//
+// The readings are screened (key-up and drop-outs left out, clipped ones
+// kept as lower bounds; Usage), grouped into cells of consecutive readings
+// at nearly the same heading, and fitted in dB: a coarse circular
+// cross-correlation by FFT proposes candidates; Gauss–Newton in (θ, level)
+// under the chosen noise model, with robust weights that leave out cells
+// far from the pattern, refines each. The residuals are then tested for
+// fading — level changes correlated in time rather than in heading —
+// modelled as a Gauss–Markov process; when the test finds it, the fit is
+// redone by generalised least squares under it (fitter.kalman), which
+// averages the fading out over several turns and widens the sigma where
+// it cannot. The sigma is the largest of that model's Fisher sigma, a
+// heading-ordered sandwich sigma (multipath, pattern mismatch) and, without
+// fading, a residual bootstrap that disagrees.
 //
 // It refuses (returns an error wrapping ErrTooFewPoints, ErrCoverage,
 // ErrNoVariation, ErrNoOverlap or ErrBadInput) instead of making up a bearing.
@@ -487,174 +302,452 @@ func Fit(points []Point, p Pattern, opts FitOptions) (Estimate, error) {
 	if err != nil {
 		return Estimate{}, fmt.Errorf("fit bearing: %w", err)
 	}
-	pts := make([]Point, 0, len(points))
-	clipped := 0
-	for i, q := range points {
-		if math.IsNaN(q.HeadingDeg) || math.IsInf(q.HeadingDeg, 0) || math.IsNaN(q.LevelDB) || math.IsInf(q.LevelDB, 0) || math.IsNaN(q.T) || math.IsInf(q.T, 0) {
-			return Estimate{}, fmt.Errorf("fit bearing: %w: point %d has a non-finite field", ErrBadInput, i)
-		}
-		if q.Clipped {
-			clipped++
-			continue
-		}
-		pts = append(pts, q)
+	thermal := o.Noise == NoiseThermal
+	var floorPtr *float64
+	floorDB := 0.0
+	if thermal {
+		floorDB = *o.NoiseFloorDB
+		floorPtr = o.NoiseFloorDB
 	}
-	if len(pts) < o.MinPoints {
-		return Estimate{}, fmt.Errorf("fit bearing: %w: %d usable of %d (need %d)", ErrTooFewPoints, len(pts), len(points), o.MinPoints)
+	pts, use, err := screen(points, floorPtr)
+	if err != nil {
+		return Estimate{}, fmt.Errorf("fit bearing: %w", err)
+	}
+	if len(pts)-use.Clipped < o.MinPoints {
+		return Estimate{}, fmt.Errorf("fit bearing: %w: %s; need %d unclipped", ErrTooFewPoints, use, o.MinPoints)
 	}
 	cov, gaps := coverage(pts, o.MaxGapDeg)
 	if cov < o.MinCoverageDeg {
-		return Estimate{}, fmt.Errorf("fit bearing: %w: %.0f° covered, need %.0f°; turn the antenna further", ErrCoverage, cov, o.MinCoverageDeg)
+		return Estimate{}, fmt.Errorf("fit bearing: %w: %.0f° covered (%s), need %.0f°; turn the antenna further", ErrCoverage, cov, FormatArcs(arcs(gaps)), o.MinCoverageDeg)
 	}
-	floorDB := 0.0
-	if o.NoiseFloorDB != nil {
-		floorDB = *o.NoiseFloorDB
-	}
-	b := makeBins(pts, o.BinDeg, floorDB)
-	if len(b.hDeg) < 5 {
-		return Estimate{}, fmt.Errorf("fit bearing: %w: only %d distinct headings", ErrTooFewPoints, len(b.hDeg))
-	}
-	m := newModel(p)
-	s := newSolver(m, b, o.Noise)
-	y := b.yDB
-	if o.Noise == NoiseThermal {
-		y = b.pw
-	}
-
-	// Coarse candidates, then Gauss–Newton from each; keep the best.
-	bestSSE := math.Inf(1)
-	var theta, c float64
-	for _, t0 := range coarse(p, pts) {
-		t, cc, sse := s.gaussNewton(y, t0)
-		if sse < bestSSE {
-			bestSSE, theta, c = sse, t, cc
+	cells := makeCells(pts, o.BinDeg, thermal, floorDB)
+	var clear []Point
+	for _, q := range pts {
+		if !q.Clipped {
+			clear = append(clear, q)
 		}
 	}
-	sse := s.eval(y, theta, c, true)
-	nb := float64(len(b.hDeg))
-	dof := nb - 2
-	if dof < 1 {
-		return Estimate{}, fmt.Errorf("fit bearing: %w: %d bins", ErrTooFewPoints, len(b.hDeg))
+	nclear := 0
+	for _, c := range cells {
+		if !c.clipped {
+			nclear++
+		}
 	}
-	s2 := sse / dof
-	a11, a12, a22, _, _ := s.normal()
-	det := a11*a22 - a12*a12
+	if nclear < 5 {
+		return Estimate{}, fmt.Errorf("fit bearing: %w: only %d cells of distinct headings", ErrTooFewPoints, nclear)
+	}
+	m := newModel(p)
+	f := newFitter(m, cells, thermal, floorDB)
 
-	// Significance of the pattern against a constant level (same weights).
-	var sw, swy float64
-	for k := range y {
-		sw += s.w[k]
-		swy += s.w[k] * y[k]
+	// Candidates from the coarse search, each refined with every reading
+	// of the same weight in dB (varUniform: robust to fading), first on
+	// the 75% of cells it fits best (concentration steps of least trimmed
+	// squares: Rousseeuw & Van Driessen, Data Mining and Knowledge
+	// Discovery 12, 2006), so that a second path's lobe cannot drag the
+	// start, then with robust weights; then compared on the level in dB itself, each squared
+	// residual capped at (6·s)², s the smallest robust residual scale
+	// among them.
+	type cand struct {
+		theta, c, tau float64
+		w             []float64
 	}
-	var sse0 float64
-	for k := range y {
-		r := y[k] - swy/sw
-		sse0 += s.w[k] * r * r
+	var cands []cand
+	f.vmode = varUniform
+	for _, t0 := range coarse(p, clear) {
+		for k := range f.w {
+			f.w[k] = 1
+		}
+		f.tau = 0
+		t, cc := f.whiteGN(t0, f.start(t0))
+		for step := 0; step < 6; step++ {
+			if !f.trim(0.75) {
+				break
+			}
+			t, cc = f.whiteGN(t, cc)
+		}
+		for round := 0; round < 3; round++ {
+			f.estimateScale()
+			f.reweight()
+			t, cc = f.whiteGN(t, cc)
+		}
+		f.estimateScale()
+		cands = append(cands, cand{t, cc, f.tau, append([]float64(nil), f.w...)})
 	}
-	fstat := (sse0 - sse) / math.Max(s2, 1e-300)
-	if (o.Noise == NoiseThermal && c <= 0) || !(fstat > 30) || !(det > 0) {
-		return Estimate{}, fmt.Errorf("fit bearing: %w: F = %.1f against a constant level (need 30)", ErrNoVariation, fstat)
+	var theta, c float64
+	scale := math.Inf(1)
+	for _, cd := range cands {
+		f.tau = cd.tau
+		f.eval(cd.theta, cd.c)
+		scale = math.Min(scale, f.dbScale())
 	}
-	fisherSigma := math.Sqrt(s2 * a22 / det)
-	hacSigma := correlatedSigma(s, a11, a12, a22, cov >= 359)
+	bestLoss := math.Inf(1)
+	best := 0
+	for i, cd := range cands {
+		f.tau = cd.tau
+		f.eval(cd.theta, cd.c)
+		if loss := f.dbLoss(6 * scale); loss < bestLoss {
+			bestLoss, best = loss, i
+		}
+	}
+	theta, c = cands[best].theta, cands[best].c
+	copy(f.w, cands[best].w)
+	f.tau = cands[best].tau
+	f.eval(theta, c)
+	// Cells the robust fit left out as lying far above the pattern (more
+	// than lobeDB) stay out when there are many of them (3% of the cells
+	// or more: a second path's lobe, not the odd noisy cell near a null): later noise models (fading
+	// above all) must not take the lobe back in.
+	const lobeDB = 4 // a second path's lobe stands this far above the pattern at least
+	var above int
+	for k, cl := range f.cells {
+		if !cl.clipped && f.w[k] == 0 && f.r[k] > lobeDB {
+			above++
+		}
+	}
+	if float64(above) >= 0.03*float64(nclear) {
+		f.wBase = make([]float64, len(f.cells))
+		for k, cl := range f.cells {
+			f.wBase[k] = 1
+			if !cl.clipped && f.w[k] == 0 && f.r[k] > lobeDB {
+				f.wBase[k] = 0
+			}
+		}
+	}
+	passes := turns(pts)
+
+	// Fading: test the uniform fit's residuals, less what repeats with
+	// heading, for it.
+	f.rAdj = f.headingStructure(passes)
+	// The fading's correlation time must stay short against a pass over
+	// the pattern: with one pass a slower change is the pattern itself
+	// (heading and time go together), over several its repeating part is
+	// taken out above but what is left can still mimic the pattern's
+	// broad shape within one pass.
+	passS := (pts[len(pts)-1].T - pts[0].T) / math.Max(passes, 1)
+	f.maxTauS = passS / 2
+	if passes < 1.8 {
+		f.maxTauS = passS / 6
+	}
+	fm, tauF, lr, _ := f.profile()
+	fading := lr > fadingLR && fm.Var >= minFadingVar
+	if thermal {
+		if fading {
+			f.vmode = varData
+		} else {
+			f.vmode = varModel
+		}
+	}
+	f.eval(theta, c)
+	f.estimateScale()
+	f.reweight()
+	theta, c = f.whiteGN(theta, c)
+	f.estimateScale()
+	f.reweight()
+	theta, c = f.whiteGN(theta, c)
+	f.estimateScale()
+
+	// White-model statistics: significance against a constant level and
+	// the Fisher sigma of independent cells.
+	dofCells := 0
+	for k, cl := range f.cells {
+		if !cl.clipped && f.w[k] > 0 {
+			dofCells++
+		}
+	}
+	if dofCells < 5 {
+		return Estimate{}, fmt.Errorf("fit bearing: %w: only %d cells fit the pattern", ErrTooFewPoints, dofCells)
+	}
+	fstat, fneed, wa11, wa12, wa22 := f.significance()
+	if !(fstat > fneed) {
+		return Estimate{}, fmt.Errorf("fit bearing: %w: the level does not change with heading more than noise does (likelihood ratio %.1f, need %.0f)", ErrNoVariation, fstat, fneed)
+	}
+	fisher := math.Sqrt(f.tau) * fisherSigma(wa11, wa12, wa22)
+	if math.IsInf(fisher, 0) || math.IsNaN(fisher) {
+		return Estimate{}, fmt.Errorf("fit bearing: %w: the pattern's slope carries no information at these headings", ErrNoVariation)
+	}
+
+	// Under fading, refit by generalised least squares.
+	if fading {
+		fm, tauF, lr, _ = f.profile()
+		whiteTheta, whiteC, whiteTau := theta, c, f.tau
+		for round := 0; round < 2; round++ {
+			f.fad, f.tau = fm, tauF
+			f.eval(theta, c)
+			f.reweight()
+			theta, c = f.glsGN(theta, c)
+			fm, tauF, lr, _ = f.profile()
+			if !(lr > fadingLR && fm.Var >= minFadingVar) {
+				break
+			}
+		}
+		f.fad, f.tau = fm, tauF
+		if !(lr > fadingLR && fm.Var >= minFadingVar) {
+			// the refit explained the level changes after all
+			fading = false
+			f.fad = fadingModel{}
+			theta, c, f.tau = whiteTheta, whiteC, whiteTau
+		}
+	}
+	f.eval(theta, c)
+	f.kalman(f.fad, f.tau, true)
+	a11, a12, a22, _, _ := f.glsNormal()
+	modelSigma := fisherSigma(a11, a12, a22)
+	if !fading {
+		modelSigma = fisher
+	}
+	// Residuals correlated along the heading, over the turns: a sandwich
+	// sigma on the model's (whitened) scores ordered by heading. With one
+	// pass over each heading, heading and time order are the same.
+	ieff := a11 - a12*a12/a22
+	g, hd := f.scores(a11, a12, a22)
+	hac := hacSigma(headingOrder(g, hd), ieff, len(g)/4, cov >= 359)
+	hacT := hacSigma(g, ieff, len(g)/4, false)
+	if math.IsNaN(modelSigma) || math.IsInf(modelSigma, 0) {
+		return Estimate{}, fmt.Errorf("fit bearing: %w: the pattern's slope carries no information at these headings", ErrNoVariation)
+	}
+
+	// With several passes, the spread of refits that each leave one pass
+	// out (fading that the model does not describe shows here).
+	jk := 0.0
+	if fading {
+		jk = f.jackknife(theta, c, int(math.Floor(passes+0.2)), 360/float64(p.Symmetry))
+		f.eval(theta, c)
+		f.kalman(f.fad, f.tau, true)
+	}
+	// With one pass, the fading's correlation time was held short so that
+	// the fit could not take the pattern for fading; the sigma must still
+	// allow for fading as slow as the data would have it (up to a whole
+	// pass): the information under that slower model, at the same bearing.
+	slow := 0.0
+	if fading && passes < 1.8 {
+		keep, keepTau, keepMax := f.fad, f.tau, f.maxTauS
+		f.maxTauS = passS
+		f.eval(theta, c)
+		fs, ts, lrs, _ := f.profile()
+		if lrs > fadingLR && fs.Var >= minFadingVar && fs.TauS > keep.TauS {
+			f.fad, f.tau = fs, ts
+			f.eval(theta, c)
+			f.kalman(f.fad, f.tau, true)
+			b11, b12, b22, _, _ := f.glsNormal()
+			slow = fisherSigma(b11, b12, b22)
+		}
+		f.fad, f.tau, f.maxTauS = keep, keepTau, keepMax
+		f.eval(theta, c)
+		f.kalman(f.fad, f.tau, true)
+	}
 
 	est := Estimate{
 		BearingDeg:         theta,
-		FisherSigmaDeg:     fisherSigma,
-		SigmaDeg:           math.Max(fisherSigma, hacSigma),
-		CorrelatedSigmaDeg: hacSigma,
+		FisherSigmaDeg:     fisher,
+		ModelSigmaDeg:      modelSigma,
+		CorrelatedSigmaDeg: hac,
+		SigmaDeg:           math.Max(math.Max(modelSigma, hac), math.Max(math.Max(hacT, jk), slow)),
 		CoverageDeg:        cov,
-		Points:             len(pts),
+		Arcs:               arcs(gaps),
 		Mode:               p.Mode,
 		Noise:              o.Noise,
+		LevelDB:            c,
 	}
-	if o.Noise == NoiseDB {
-		est.LevelDB = c
-	} else {
-		est.LevelDB = floorDB + 10*math.Log10(c)
+	if thermal {
 		est.NoiseFloorDB = floorDB
 	}
+	if fading {
+		est.FadingDB = math.Sqrt(f.fad.Var)
+		est.FadingTimeS = f.fad.TauS
+	}
+	// Readings used: the screen's, less the robust fit's outliers.
+	for k, cl := range f.cells {
+		if !cl.clipped && f.w[k] == 0 {
+			use.Outliers += int(cl.n)
+		}
+	}
+	use.Used -= use.Outliers
+	est.Usage = use
+	est.Points = use.Used
+
 	period := 360 / float64(p.Symmetry)
 	if p.Symmetry > 1 {
 		alt := angle.Wrap360(theta + period)
 		est.AltBearingDeg = &alt
 		if p.Symmetry > 2 {
-			est.Warnings = append(est.Warnings, fmt.Sprintf("pattern has a %d-fold ambiguity: bearings every %.0f° fit equally", p.Symmetry, period))
+			est.warn(FlagAmbiguous, "pattern has a %d-fold ambiguity: bearings every %.0f° fit equally", p.Symmetry, period)
 		}
 	}
 
-	// Residual in dB and the per-bin dB fit.
-	muDB := make([]float64, len(b.hDeg))
+	// Residual RMS in dB over the cells used.
 	var rr, nn float64
-	for k := range b.hDeg {
-		if o.Noise == NoiseDB {
-			muDB[k] = s.mu[k]
-		} else {
-			muDB[k] = floorDB + 10*math.Log10(s.mu[k])
+	for k, cl := range f.cells {
+		if !cl.clipped && f.w[k] > 0 {
+			rr += cl.n * f.r[k] * f.r[k]
+			nn += cl.n
 		}
-		r := b.yDB[k] - muDB[k]
-		rr += b.n[k] * r * r
-		nn += b.n[k]
 	}
 	est.ResidualDB = math.Sqrt(rr / nn)
 
 	// The feature's heading(s): level = c + G(θ − φ), feature at G(f) → φ = θ − f.
-	f := p.FeatureDeg()
+	fdeg := p.FeatureDeg()
 	halfW := math.Max(p.WidthDeg()/2, 5)
 	near := false
 	for k := 0; k < p.Symmetry; k++ {
-		fh := angle.Wrap360(theta - f + float64(k)*period)
-		for _, h := range b.hDeg {
-			if math.Abs(angle.Wrap180(h-fh)) <= halfW {
+		fh := angle.Wrap360(theta - fdeg + float64(k)*period)
+		for _, cl := range f.cells {
+			if math.Abs(angle.Wrap180(cl.h-fh)) <= halfW {
 				near = true
 			}
 		}
 	}
 	if !near {
-		return Estimate{}, fmt.Errorf("fit bearing: %w (fitted %.1f°, no reading within %.0f° of the feature)", ErrNoOverlap, theta, halfW)
+		return Estimate{}, fmt.Errorf("fit bearing: %w (fitted %.1f°, no reading within %.0f° of the feature; covered %s)", ErrNoOverlap, theta, halfW, FormatArcs(est.Arcs))
 	}
 
-	// Null depth / span on smoothed binned levels.
-	sm := smoothGrid(pts)
-	est.NullDepthDB = depth(sm, p, theta)
+	sm := smoothGrid(clear)
+	est.NullDepthDB = depth(sm, p, theta, halfW)
 
-	// Warnings.
-	if clipped > 0 {
-		est.Warnings = append(est.Warnings, fmt.Sprintf("clipping: %d of %d readings clipped and left out", clipped, len(points)))
+	// Flags and warnings: only where something is wrong.
+	if use.Clipped > 0 {
+		est.warn(FlagClipping, "clipping: %d of %d readings at the ADC's rails, used as lower bounds on the level", use.Clipped, use.Readings)
 	}
-	if p.Mode == Null && cov < 300 {
-		est.Warnings = append(est.Warnings, fmt.Sprintf("partial sweep: %.0f° of 360° covered", cov))
+	if cov < 330 {
+		est.warn(FlagPartial, "partial sweep: %.0f° of 360° covered (%s)", cov, FormatArcs(est.Arcs))
 	}
 	if p.Mode == Peak {
-		fh := angle.Wrap360(theta - f)
+		fh := angle.Wrap360(theta - fdeg)
 		w := p.WidthDeg() / 2
 		for d := -w; d <= w; d += 0.5 {
 			if inGap(fh+d, gaps) {
-				est.Warnings = append(est.Warnings, fmt.Sprintf("partial sweep: main lobe (±%.0f° around %.0f°) not fully covered", w, fh))
+				est.warn(FlagPartial, "partial sweep: main lobe (±%.0f° around %.0f°) not fully covered", w, fh)
 				break
 			}
 		}
 	}
-	if hacSigma > 1.5*fisherSigma {
-		est.Warnings = append(est.Warnings, fmt.Sprintf("multipath-like residuals: sigma %.2f° widened to %.2f°", fisherSigma, hacSigma))
+	if fading && modelSigma > 1.5*fisher {
+		what := "in a way that does not repeat with heading"
+		if passes < 1.8 {
+			what = "(fading, or multipath: one pass over each heading cannot tell them apart)"
+		}
+		est.warn(FlagFading, "fading: the level wandered by %.1f dB RMS (correlation time %.1f s) %s; modelled, sigma %.2f° widened to %.2f°",
+			est.FadingDB, est.FadingTimeS, what, fisher, modelSigma)
 	}
-	if w := trendWarning(pts, m, o.Noise, theta, c, floorDB, s2); w != "" {
-		est.Warnings = append(est.Warnings, w)
+	if w, slope, mt := f.trendWarning(); w != "" {
+		// The bearing with the trend taken out of the levels: how far it
+		// moves is how much the trend can have moved it (one pass cannot
+		// tell a trend from the pattern), and widens the sigma.
+		y0 := append([]float64(nil), f.y...)
+		for k, cl := range f.cells {
+			f.y[k] -= slope * (cl.t - mt)
+		}
+		var td float64
+		if fading {
+			td, _ = f.glsGN(theta, c)
+		} else {
+			td, _ = f.whiteGN(theta, c)
+		}
+		copy(f.y, y0)
+		f.eval(theta, c)
+		shift := math.Abs(math.Mod(angle.Wrap180(td-theta)+period/2+4*360, period) - period/2)
+		if s2 := math.Hypot(est.SigmaDeg, shift); s2 > est.SigmaDeg {
+			est.SigmaDeg = s2
+			w += fmt.Sprintf("; without it the bearing moves %.1f°: sigma widened to %.1f°", shift, s2)
+		}
+		est.warn(FlagTrend, "%s", w)
 	}
-	if w := multipathWarning(sm, m, p, theta, c, o.Noise, floorDB); w != "" {
-		est.Warnings = append(est.Warnings, w)
+	if w, sig := nullFill(sm, m, p, theta, c, thermal, floorDB, halfW); w != "" {
+		est.warn(FlagMultipath, "%s; sigma widened to %.1f°", w, math.Max(est.SigmaDeg, sig))
+		est.SigmaDeg = math.Max(est.SigmaDeg, sig)
+	}
+	if w := f.outlierWarning(p, theta, c, use); w != "" {
+		est.warn(FlagMultipath, "%s", w)
+	} else if w := multipathWarning(sm, m, p, theta, c, thermal, floorDB); w != "" {
+		est.warn(FlagMultipath, "%s", w)
+	} else if passes >= 1.8 && hac > 2*modelSigma && hac > 1 {
+		est.warn(FlagMultipath, "multipath: level changes that repeat with heading over %.0f turns and that the pattern does not explain; sigma %.2f° widened to %.2f°", passes, modelSigma, hac)
 	}
 
-	// Residual bootstrap.
-	if o.Bootstrap > 0 {
-		est.BootstrapSigmaDeg = bootstrap(s, y, theta, c, o.Bootstrap, o.Seed, period)
+	// Residual bootstrap (independent cells only).
+	if o.Bootstrap > 0 && !fading {
+		est.BootstrapSigmaDeg = f.bootstrap(theta, c, o.Bootstrap, o.Seed, period)
 		bs, fs := est.BootstrapSigmaDeg, est.FisherSigmaDeg
 		if bs > 2*fs || fs > 2*bs {
-			est.Warnings = append(est.Warnings, fmt.Sprintf("uncertainty: bootstrap %.2f° and Fisher %.2f° disagree; reporting the larger", bs, fs))
+			est.warn(FlagUncertain, "uncertainty: bootstrap %.2f° and Fisher %.2f° disagree; reporting the larger", bs, fs)
 			est.SigmaDeg = math.Max(est.SigmaDeg, bs)
 		}
 	}
 	return est, nil
+}
+
+// dbScale is a robust scale of the dB residuals of the unclipped cells at
+// the last eval: 1.4826 times their median absolute value (the MAD's
+// consistency factor for Gaussian data, common practice).
+func (f *fitter) dbScale() float64 {
+	var a []float64
+	for k, cl := range f.cells {
+		if !cl.clipped {
+			a = append(a, math.Abs(f.r[k]))
+		}
+	}
+	return 1.4826 * median(a)
+}
+
+// dbLoss is Σ n·min(r², capDB²) over the unclipped cells at the last eval
+// (r in dB), plus the censoring terms of clipped cells the model lies
+// below.
+func (f *fitter) dbLoss(capDB float64) float64 {
+	var s float64
+	for k, cl := range f.cells {
+		if cl.clipped && !f.act[k] {
+			continue
+		}
+		s += cl.n * math.Min(f.r[k]*f.r[k], capDB*capDB)
+	}
+	return s
+}
+
+// significance tests whether the level changes with heading at all,
+// whatever the pattern: the cells with robust weight > 0, dB levels with
+// equal weight per reading, grouped in 10° sectors; the statistic is
+// N·log(SSE₀/SSE₁) of sector means against one constant level (a
+// likelihood ratio, χ² with sectors − 1 degrees of freedom under noise
+// alone), and the threshold its 1 − 10⁻⁶ quantile (gonum distuv). A
+// pattern that fits badly is a matter for the flags, not a refusal. It
+// also returns the white normal matrix.
+func (f *fitter) significance() (lr, threshold, a11, a12, a22 float64) {
+	a11, a12, a22, _, _ = f.whiteNormal()
+	var sn, sy [36]float64
+	var tn, ty float64
+	n := 0
+	for k, cl := range f.cells {
+		if cl.clipped || f.w[k] == 0 {
+			continue
+		}
+		i := int(cl.h/10) % 36
+		sn[i] += cl.n
+		sy[i] += cl.n * f.y[k]
+		tn += cl.n
+		ty += cl.n * f.y[k]
+		n++
+	}
+	var sse0, sse1 float64
+	sectors := 0
+	for i := range sn {
+		if sn[i] > 0 {
+			sectors++
+		}
+	}
+	for k, cl := range f.cells {
+		if cl.clipped || f.w[k] == 0 {
+			continue
+		}
+		i := int(cl.h/10) % 36
+		d0 := f.y[k] - ty/tn
+		d1 := f.y[k] - sy[i]/sn[i]
+		sse0 += cl.n * d0 * d0
+		sse1 += cl.n * d1 * d1
+	}
+	if sectors < 2 || n <= sectors || !(sse1 > 0) {
+		return 0, math.Inf(1), a11, a12, a22
+	}
+	threshold = distuv.ChiSquared{K: float64(sectors - 1)}.Quantile(1 - 1e-6)
+	return float64(n) * math.Log(sse0/sse1), threshold, a11, a12, a22
 }
 
 // FittedLevelDB returns the level the fit predicts at headingDeg with
@@ -664,294 +757,193 @@ func (e Estimate) FittedLevelDB(p Pattern, headingDeg float64) float64 {
 	if p.Validate() != nil {
 		return math.NaN()
 	}
-	m := newModel(p)
-	if e.Noise == NoiseThermal {
-		return levelAt(m, NoiseThermal, e.BearingDeg, math.Pow(10, (e.LevelDB-e.NoiseFloorDB)/10), e.NoiseFloorDB, headingDeg)
-	}
-	return levelAt(m, NoiseDB, e.BearingDeg, e.LevelDB, 0, headingDeg)
+	return levelAt(newModel(p), e.Noise == NoiseThermal, e.BearingDeg, e.LevelDB, e.NoiseFloorDB, headingDeg)
 }
 
-// correlatedSigma is the bearing's 1-sigma from a sandwich (Newey–West,
-// Bartlett weights) estimate of the variance of the efficient score for θ
-// (c profiled out), over bins ordered by heading (circularly when the sweep
-// closes the circle), with a bandwidth of a quarter of the bins. Residuals
-// that repeat with heading — site multipath, a pattern that does not quite
-// fit — are correlated from bin to bin; the Fisher information counts every
-// bin as independent and so understates the error, this does not. For
-// independent residuals it agrees with the Fisher sigma on average
-// (Newey & West, Econometrica 55(3), 1987; the HAC estimator is common
-// practice in regression with serially correlated errors).
-func correlatedSigma(s *solver, a11, a12, a22 float64, circular bool) float64 {
-	n := len(s.resid)
-	if n < 4 || !(a22 > 0) {
-		return 0
-	}
-	ieff := a11 - a12*a12/a22
-	if !(ieff > 0) {
-		return 0
-	}
-	g := make([]float64, n)
-	for k := range g {
-		g[k] = s.w[k] * s.resid[k] * (s.dmu[k] - a12/a22*s.dlin[k])
-	}
-	L := max(1, n/4)
-	var v float64
-	for k := range g {
-		v += g[k] * g[k]
-	}
-	for l := 1; l <= L; l++ {
-		wt := 1 - float64(l)/float64(L+1)
-		var acc float64
-		for k := 0; k < n; k++ {
-			j := k + l
-			if j >= n {
-				if !circular {
-					break
-				}
-				j -= n
-			}
-			acc += g[k] * g[j]
-		}
-		v += 2 * wt * acc
-	}
-	if !(v > 0) {
-		return 0
-	}
-	return math.Sqrt(v) / ieff
-}
-
-// bootstrap refits resampled standardised residuals and returns the RMS
-// spread of the refitted bearings (modulo the pattern's period).
-func bootstrap(s *solver, y []float64, theta, c float64, nboot int, seed uint64, period float64) float64 {
-	s.eval(y, theta, c, true)
-	n := len(y)
-	mu := append([]float64(nil), s.mu...)
-	sw := make([]float64, n)
-	e := make([]float64, n)
-	var mean float64
-	infl := math.Sqrt(float64(n) / float64(n-2))
-	for k := range y {
-		sw[k] = math.Sqrt(s.w[k])
-		e[k] = s.resid[k] * sw[k] * infl
-		mean += e[k]
-	}
-	mean /= float64(n)
-	for k := range e {
-		e[k] -= mean
-	}
-	rng := rand.New(rand.NewPCG(seed, 0x6e756c6c7365656b))
-	ys := make([]float64, n)
-	var acc float64
-	for i := 0; i < nboot; i++ {
-		for k := range ys {
-			ys[k] = mu[k] + e[rng.IntN(n)]/sw[k]
-		}
-		t, _, _ := s.gaussNewton(ys, theta)
-		d := math.Mod(angle.Wrap180(t-theta)+period/2+360*4, period) - period/2
-		acc += d * d
-	}
-	return math.Sqrt(acc / float64(nboot))
-}
-
-// smoothGrid returns mean dB per 1° heading (NaN where empty), smoothed by a
-// 5° circular moving average over occupied cells.
-func smoothGrid(pts []Point) []float64 {
-	const n = PatternSteps
-	sum := make([]float64, n)
-	cnt := make([]float64, n)
-	for _, q := range pts {
-		i := int(angle.Wrap360(q.HeadingDeg)) % n
-		sum[i] += q.LevelDB
-		cnt[i]++
-	}
-	out := make([]float64, n)
-	for i := range out {
-		if cnt[i] == 0 {
-			out[i] = math.NaN()
-			continue
-		}
-		var s, c float64
-		for d := -2; d <= 2; d++ {
-			j := (i + d + n) % n
-			if cnt[j] > 0 {
-				s += sum[j] / cnt[j]
-				c++
-			}
-		}
-		out[i] = s / c
-	}
-	return out
-}
-
-func depth(sm []float64, p Pattern, theta float64) float64 {
-	hi, lo := math.Inf(-1), math.Inf(1)
-	for _, v := range sm {
-		if !math.IsNaN(v) {
-			hi = math.Max(hi, v)
-			lo = math.Min(lo, v)
-		}
-	}
-	if p.Mode == Peak {
-		return hi - lo
-	}
-	period := 360 / float64(p.Symmetry)
-	f := p.FeatureDeg()
-	at := math.Inf(1)
-	for k := 0; k < p.Symmetry; k++ {
-		fh := angle.Wrap360(theta - f + float64(k)*period)
-		for d := -2; d <= 2; d++ {
-			v := sm[(int(math.Round(fh))+d+2*PatternSteps)%PatternSteps]
-			if !math.IsNaN(v) {
-				at = math.Min(at, v)
-			}
-		}
-	}
-	if math.IsInf(at, 1) {
-		return math.NaN()
-	}
-	return hi - at
-}
-
-// levelAt returns the fitted level in dB at heading h.
-func levelAt(m *model, noise NoiseModel, theta, c, floorDB, h float64) float64 {
-	if noise == NoiseDB {
+// levelAt returns the fitted level in dB at heading h: c + G for the dB
+// model, floor + 10·log10(S·p + 1) with S = 10^((c − floor)/10) thermal.
+func levelAt(m *model, thermal bool, theta, c, floorDB, h float64) float64 {
+	if !thermal {
 		return c + m.gainDB(theta-h)
 	}
 	pw, _ := m.power(theta - h)
-	return floorDB + 10*math.Log10(c*pw+1)
+	return floorDB + 10*math.Log10(math.Pow(10, (c-floorDB)/10)*pw+1)
 }
 
-// trendWarning regresses the dB residual on time and warns when the level
-// drifted by more than 1 dB over the sweep at more than 4 standard errors.
-func trendWarning(pts []Point, m *model, noise NoiseModel, theta, c, floorDB, s2 float64) string {
-	// residual in dB and its weight: in the thermal model the dB variance
-	// is ∝ (N² + 2SpN)/(Sp+N)² (delta method)
-	resid := func(q Point) (r, w float64) {
-		r = q.LevelDB - levelAt(m, noise, theta, c, floorDB, q.HeadingDeg)
-		w = 1
-		if noise == NoiseThermal {
-			pw, _ := m.power(theta - q.HeadingDeg)
-			sp := c * pw
-			w = (sp + 1) * (sp + 1) / (1 + 2*sp)
+// bootstrap refits resampled standardised residuals (white model) and
+// returns the RMS spread of the refitted bearings (modulo the period).
+func (f *fitter) bootstrap(theta, c float64, nboot int, seed uint64, period float64) float64 {
+	f.eval(theta, c)
+	var idx []int
+	for k, cl := range f.cells {
+		if !cl.clipped && f.w[k] > 0 {
+			idx = append(idx, k)
 		}
-		return r, w
 	}
+	n := len(idx)
+	if n < 3 {
+		return 0
+	}
+	mu := append([]float64(nil), f.mu...)
+	sv := make([]float64, len(f.v))
+	for k := range sv {
+		sv[k] = math.Sqrt(f.v[k])
+	}
+	e := make([]float64, n)
+	var mean float64
+	infl := math.Sqrt(float64(n) / float64(n-2))
+	for i, k := range idx {
+		e[i] = f.r[k] / sv[k] * infl
+		mean += e[i]
+	}
+	mean /= float64(n)
+	for i := range e {
+		e[i] -= mean
+	}
+	y0 := append([]float64(nil), f.y...)
+	defer copy(f.y, y0)
+	rng := rand.New(rand.NewPCG(seed, 0x6e756c6c7365656b))
+	var acc float64
+	for b := 0; b < nboot; b++ {
+		copy(f.y, y0)
+		for _, k := range idx {
+			f.y[k] = mu[k] + e[rng.IntN(n)]*sv[k]
+		}
+		t, _ := f.whiteGN(theta, c)
+		d := math.Mod(angle.Wrap180(t-theta)+period/2+360*4, period) - period/2
+		acc += d * d
+	}
+	copy(f.y, y0)
+	f.eval(theta, c)
+	return math.Sqrt(acc / float64(nboot))
+}
+
+// trendWarning regresses the white model's residuals (dB) of the cells
+// used on time and warns when the level drifted by more than 1 dB over the
+// sweep at more than 4 standard errors.
+func (f *fitter) trendWarning() (string, float64, float64) {
 	var sw, st, sr, stt, str float64
 	t0, t1 := math.Inf(1), math.Inf(-1)
-	for _, q := range pts {
-		r, w := resid(q)
+	n := 0
+	for k, cl := range f.cells {
+		if cl.clipped || f.w[k] == 0 {
+			continue
+		}
+		w := f.w[k] / f.v[k]
 		sw += w
-		st += w * q.T
-		sr += w * r
-		stt += w * q.T * q.T
-		str += w * q.T * r
-		t0 = math.Min(t0, q.T)
-		t1 = math.Max(t1, q.T)
+		st += w * cl.t
+		sr += w * f.r[k]
+		stt += w * cl.t * cl.t
+		str += w * cl.t * f.r[k]
+		t0 = math.Min(t0, cl.t)
+		t1 = math.Max(t1, cl.t)
+		n++
 	}
 	varT := stt - st*st/sw
-	if !(varT > 0) || !(t1 > t0) {
-		return ""
+	if !(varT > 0) || !(t1 > t0) || n < 4 {
+		return "", 0, 0
 	}
 	slope := (str - st*sr/sw) / varT
-	// residual variance around the trend
 	var rss float64
 	mt, mr := st/sw, sr/sw
-	for _, q := range pts {
-		r, w := resid(q)
-		e := r - mr - slope*(q.T-mt)
-		rss += w * e * e
+	for k, cl := range f.cells {
+		if cl.clipped || f.w[k] == 0 {
+			continue
+		}
+		e := f.r[k] - mr - slope*(cl.t-mt)
+		rss += f.w[k] / f.v[k] * e * e
 	}
-	se := math.Sqrt(rss / float64(len(pts)-2) / varT)
+	se := math.Sqrt(rss / float64(n-2) / varT)
 	change := slope * (t1 - t0)
 	if math.Abs(change) > 1 && math.Abs(slope) > 4*se {
-		return fmt.Sprintf("level trend: %+.1f dB over the %.0f s sweep (transmitter or path changed while turning)", change, t1-t0)
+		return fmt.Sprintf("level trend: %+.1f dB over the %.0f s sweep (transmitter or path changed while turning)", change, t1-t0), slope, mt
 	}
-	return ""
+	return "", 0, 0
 }
 
-// extrema finds local extrema (minima if wantMin) of a circular grid with
-// NaN gaps, with their prominence over a ±30° window.
-func extrema(v []float64, wantMin bool) (idx []int, prom []float64) {
-	n := len(v)
-	sgn := 1.0
-	if !wantMin {
-		sgn = -1
-	}
-	for i := range v {
-		if math.IsNaN(v[i]) {
+// outlierWarning names a stretch of headings that the robust fit left
+// out as far above the pattern (4 dB or more: a second path's lobe) when
+// it holds more than 3% of the cells.
+func (f *fitter) outlierWarning(p Pattern, theta, c float64, use Usage) string {
+	var n, above, readings int
+	var sx, sy, sr float64
+	for k, cl := range f.cells {
+		if cl.clipped {
 			continue
 		}
-		x := sgn * v[i]
-		isExt := true
-		for d := -3; d <= 3 && isExt; d++ {
-			if d == 0 {
-				continue
-			}
-			u := v[(i+d+n)%n]
-			if !math.IsNaN(u) && (sgn*u < x || (sgn*u == x && d < 0)) {
-				isExt = false
-			}
+		n++
+		if f.w[k] == 0 && f.r[k] > 4 {
+			above++
+			readings += int(cl.n)
+			s, co := math.Sincos(cl.h * math.Pi / 180)
+			sx += s
+			sy += co
+			sr += f.r[k]
 		}
-		if !isExt {
-			continue
-		}
-		side := func(dir int) float64 {
-			mx := x
-			for d := 1; d <= 30; d++ {
-				u := v[(i+dir*d+n)%n]
-				if !math.IsNaN(u) {
-					mx = math.Max(mx, sgn*u)
-				}
-			}
-			return mx - x
-		}
-		idx = append(idx, i)
-		prom = append(prom, math.Min(side(1), side(-1)))
 	}
-	return idx, prom
+	if n == 0 || float64(above) < 0.03*float64(n) {
+		return ""
+	}
+	h := angle.Wrap360(math.Atan2(sx, sy) * 180 / math.Pi)
+	return fmt.Sprintf("multipath: %d readings around heading %.0f° lie %.0f dB above the pattern on average (a second path?) and were left out",
+		readings, h, sr/float64(above))
 }
 
-// multipathWarning looks for a second null (peak) in the smoothed data of
-// comparable prominence that the fitted pattern does not explain.
-func multipathWarning(sm []float64, m *model, p Pattern, theta, c float64, noise NoiseModel, floorDB float64) string {
-	wantMin := p.Mode == Null
-	di, dp := extrema(sm, wantMin)
-	fit := make([]float64, len(sm))
-	for i := range fit {
-		if math.IsNaN(sm[i]) {
-			fit[i] = math.NaN()
-		} else {
-			fit[i] = levelAt(m, noise, theta, c, floorDB, float64(i))
-		}
+// turns is how many times the headings went round: the heading travelled
+// between consecutive readings (in time order), over 360°.
+func turns(pts []Point) float64 {
+	var s float64
+	for i := 1; i < len(pts); i++ {
+		s += math.Abs(angle.Wrap180(pts[i].HeadingDeg - pts[i-1].HeadingDeg))
 	}
-	mi, mp := extrema(fit, wantMin)
-	var main float64
+	return s / 360
+}
+
+// nullFill looks at a Null pattern's fitted null(s) on the smoothed levels
+// sm: when the lowest level within halfW of a null lies more than 3 dB above
+// the fitted model there (noise included), something fills the null — a
+// second path, most often: a small loop's null filled by a reflection of
+// relative field ρ at phase ψ moves by ½·atan(2ρ·cos ψ/(1 − ρ²)) (the
+// two fields add; derived for this project from |sin δ − ρ·e^{jψ}·cos δ|²).
+// The fill cannot tell ψ, so the sigma it returns is the half-width of the
+// nominal pattern's null at the filled level: the angle over which the
+// pattern stays below it (for a loop ≈ the fill's field ratio in radians,
+// about the RMS of the shift over ψ for a given fill). "" when the null is
+// as deep as the model says.
+func nullFill(sm []float64, m *model, p Pattern, theta, c float64, thermal bool, floorDB, halfW float64) (string, float64) {
+	if p.Mode != Null {
+		return "", 0
+	}
 	period := 360 / float64(p.Symmetry)
-	f := p.FeatureDeg()
-	for k, i := range di {
-		for s := 0; s < p.Symmetry; s++ {
-			if math.Abs(angle.Wrap180(float64(i)-(theta-f+float64(s)*period))) <= 10 {
-				main = math.Max(main, dp[k])
+	fdeg := p.FeatureDeg()
+	lo, at := math.Inf(1), 0.0
+	w := int(math.Ceil(halfW))
+	for k := 0; k < p.Symmetry; k++ {
+		fh := angle.Wrap360(theta - fdeg + float64(k)*period)
+		for d := -w; d <= w; d++ {
+			i := (int(math.Round(fh)) + d + 2*PatternSteps) % PatternSteps
+			if v := sm[i]; !math.IsNaN(v) && v < lo {
+				lo, at = v, float64(i)
 			}
 		}
 	}
-	for k, i := range di {
-		if dp[k] < 3 || dp[k] < 0.5*main {
-			continue
-		}
-		explained := false
-		for j, mIdx := range mi {
-			if mp[j] >= 1 && math.Abs(angle.Wrap180(float64(i-mIdx))) <= 15 {
-				explained = true
-			}
-		}
-		if !explained {
-			what := "null"
-			if !wantMin {
-				what = "peak"
-			}
-			return fmt.Sprintf("multipath: a second %s at heading %.0f° (%.1f dB) that the pattern does not explain", what, float64(i), dp[k])
-		}
+	if math.IsInf(lo, 1) {
+		return "", 0
 	}
-	return ""
+	model := levelAt(m, thermal, theta, c, floorDB, at)
+	excess := lo - model
+	if excess < 3 {
+		return "", 0
+	}
+	rel := lo - c // the filled null's level under the pattern's 0 dB
+	half := func(dir float64) float64 {
+		for d := 0.25; d <= 90; d += 0.25 {
+			if m.gainDB(fdeg+dir*d) >= rel {
+				return d
+			}
+		}
+		return 90
+	}
+	sig := (half(1) + half(-1)) / 2
+	return fmt.Sprintf("multipath: the null is filled %.0f dB above the pattern's (to %.0f dB under the peak): a second path?", excess, -rel), sig
 }

@@ -12,9 +12,15 @@
 //   - With the antenna's boresight at heading φ and the transmitter at bearing
 //     θ, the received level is c + G(θ − φ), where c is the (unknown) level the
 //     antenna would give at its best direction. Fitting finds θ.
+//   - Which direction of the antenna a heading names is the pattern's
+//     convention (Pattern.HeadingRef): a small loop's axis (perpendicular
+//     to its plane: the nulls lie along it) or its plane (the strongest
+//     direction), a Yagi's boresight, the way an operator shielding a whip
+//     with the body faces. A heading source that reports another direction
+//     needs a mount offset, or for a loop the other convention (LoopPlane).
 //   - Pattern math inside this package runs in degrees because the tables are
 //     sampled at 1° steps and the slopes are reported in dB per degree, as in
-//     the Cramér–Rao bound of REFERENCES §6.
+//     the Cramér–Rao bound CRBDBDeg.
 package bearing
 
 import (
@@ -79,7 +85,25 @@ type Pattern struct {
 	Symmetry int
 	// Mode says whether a null or a peak marks the bearing.
 	Mode Mode
+	// HeadingRef says which direction of the antenna a heading names, in
+	// words ("the loop's axis, perpendicular to its plane"): what the
+	// table's 0° is. Printed with every result.
+	HeadingRef string
+	// MountOffsetDeg is what to add to the heading source's readings to
+	// get the heading of the table's 0°, when MountOffsetSet: a pattern
+	// measured by Calibrate carries the offset it measured, so that using
+	// it needs no --mount-offset. Degrees in (−180, 180].
+	MountOffsetDeg float64
+	MountOffsetSet bool
 }
+
+// Headings named by the built-in patterns (Pattern.HeadingRef).
+const (
+	RefLoopAxis  = "the loop's axis (perpendicular to its plane; the nulls point along it)"
+	RefLoopPlane = "the loop's plane (its strongest direction; the nulls are 90° either side)"
+	RefBoresight = "the Yagi's boresight (the direction of its main lobe)"
+	RefFacing    = "the way the operator faces (the drop is with the back to the transmitter)"
+)
 
 // Validate checks the table size, finiteness, normalisation (max 0 dB within
 // 0.01 dB), the floor MinGainDB and the symmetry.
@@ -105,6 +129,9 @@ func (p Pattern) Validate() error {
 	}
 	if p.Mode != Null && p.Mode != Peak {
 		return fmt.Errorf("pattern %q: unknown mode %d", p.Name, int(p.Mode))
+	}
+	if p.MountOffsetSet && !(p.MountOffsetDeg > -360 && p.MountOffsetDeg < 360) {
+		return fmt.Errorf("pattern %q: mount offset %v° is not an angle within ±360°", p.Name, p.MountOffsetDeg)
 	}
 	return nil
 }
@@ -170,7 +197,26 @@ func SmallLoop(nullDepthDB float64) (Pattern, error) {
 		s := math.Sin(float64(k) * math.Pi / 180)
 		g[k] = 10 * math.Log10((s*s+a2)/(1+a2))
 	}
-	return finish(Pattern{Name: fmt.Sprintf("small loop, %.0f dB null", nullDepthDB), GainDB: g, Symmetry: 2, Mode: Null})
+	return finish(Pattern{Name: fmt.Sprintf("small loop, %.0f dB null", nullDepthDB), GainDB: g, Symmetry: 2, Mode: Null, HeadingRef: RefLoopAxis})
+}
+
+// LoopPlane is SmallLoop for a heading source that reports the loop's
+// plane (its strongest direction) instead of its axis: the same pattern
+// turned by 90°, G(δ) = SmallLoop's G(δ − 90°), so that no mount offset
+// is needed (a rotator or compass fixed along the loop's plane is common).
+func LoopPlane(nullDepthDB float64) (Pattern, error) {
+	p, err := SmallLoop(nullDepthDB)
+	if err != nil {
+		return Pattern{}, err
+	}
+	g := make([]float64, PatternSteps)
+	for k := range g {
+		g[k] = p.GainDB[(k+270)%PatternSteps]
+	}
+	p.GainDB = g
+	p.Name = fmt.Sprintf("small loop (heading = its plane), %.0f dB null", nullDepthDB)
+	p.HeadingRef = RefLoopPlane
+	return finish(p)
 }
 
 // Yagi is a directional beam with a Gaussian main lobe of −3 dB full width
@@ -203,7 +249,7 @@ func Yagi(beamwidthDeg, frontToBackDB float64) (Pattern, error) {
 		c := (1 - math.Cos(d*math.Pi/180)) / 2
 		g[k] = 10 * math.Log10((lobe(d)+b*c*c*c*c+f)/p0)
 	}
-	return finish(Pattern{Name: fmt.Sprintf("yagi, %.0f° beam, %.0f dB F/B", beamwidthDeg, frontToBackDB), GainDB: g, Symmetry: 1, Mode: Peak})
+	return finish(Pattern{Name: fmt.Sprintf("yagi, %.0f° beam, %.0f dB F/B", beamwidthDeg, frontToBackDB), GainDB: g, Symmetry: 1, Mode: Peak, HeadingRef: RefBoresight})
 }
 
 // BodyShield is a whip held against the operator's chest: the body shadows
@@ -226,7 +272,7 @@ func BodyShield(depthDB float64) (Pattern, error) {
 		e := (1+r)/2 + (1-r)/2*math.Cos(float64(k)*math.Pi/180)
 		g[k] = 20 * math.Log10(e)
 	}
-	return finish(Pattern{Name: fmt.Sprintf("body shield, %.0f dB", depthDB), GainDB: g, Symmetry: 1, Mode: Null})
+	return finish(Pattern{Name: fmt.Sprintf("body shield, %.0f dB", depthDB), GainDB: g, Symmetry: 1, Mode: Null, HeadingRef: RefFacing})
 }
 
 // finish clamps to MinGainDB, renormalises to 0 dB and validates.
@@ -245,28 +291,37 @@ func finish(p Pattern) (Pattern, error) {
 }
 
 // patternFile is the on-disk JSON form (our own format).
+// Version 2 adds heading_ref and mount_offset_deg (both optional);
+// version 1 files are still read.
 type patternFile struct {
-	Format   string    `json:"format"`
-	Version  int       `json:"version"`
-	Name     string    `json:"name"`
-	Mode     string    `json:"mode"`
-	Symmetry int       `json:"symmetry"`
-	StepDeg  float64   `json:"step_deg"`
-	GainDB   []float64 `json:"gain_db"`
+	Format         string    `json:"format"`
+	Version        int       `json:"version"`
+	Name           string    `json:"name"`
+	Mode           string    `json:"mode"`
+	Symmetry       int       `json:"symmetry"`
+	StepDeg        float64   `json:"step_deg"`
+	HeadingRef     string    `json:"heading_ref,omitempty"`
+	MountOffsetDeg *float64  `json:"mount_offset_deg,omitempty"`
+	GainDB         []float64 `json:"gain_db"`
 }
 
 const (
 	patternFormat  = "nullseek-antenna-pattern"
-	patternVersion = 1
+	patternVersion = 2
 )
 
-// MarshalPattern encodes p as our JSON pattern format (version 1).
+// MarshalPattern encodes p as our JSON pattern format (version 2).
 func MarshalPattern(p Pattern) ([]byte, error) {
 	if err := p.Validate(); err != nil {
 		return nil, err
 	}
-	return json.MarshalIndent(patternFile{Format: patternFormat, Version: patternVersion, Name: p.Name,
-		Mode: p.Mode.String(), Symmetry: p.Symmetry, StepDeg: 1, GainDB: p.GainDB}, "", " ")
+	f := patternFile{Format: patternFormat, Version: patternVersion, Name: p.Name,
+		Mode: p.Mode.String(), Symmetry: p.Symmetry, StepDeg: 1, HeadingRef: p.HeadingRef, GainDB: p.GainDB}
+	if p.MountOffsetSet {
+		off := p.MountOffsetDeg
+		f.MountOffsetDeg = &off
+	}
+	return json.MarshalIndent(f, "", " ")
 }
 
 // ParsePattern decodes our JSON pattern format and validates the result.
@@ -278,8 +333,8 @@ func ParsePattern(data []byte) (Pattern, error) {
 	if f.Format != patternFormat {
 		return Pattern{}, fmt.Errorf("pattern JSON: format %q, want %q", f.Format, patternFormat)
 	}
-	if f.Version != patternVersion {
-		return Pattern{}, fmt.Errorf("pattern JSON: version %d not supported (want %d)", f.Version, patternVersion)
+	if f.Version != 1 && f.Version != patternVersion {
+		return Pattern{}, fmt.Errorf("pattern JSON: version %d not supported (want 1 or %d)", f.Version, patternVersion)
 	}
 	if f.StepDeg != 1 {
 		return Pattern{}, fmt.Errorf("pattern JSON: step_deg %g not supported (want 1)", f.StepDeg)
@@ -288,7 +343,13 @@ func ParsePattern(data []byte) (Pattern, error) {
 	if err != nil {
 		return Pattern{}, fmt.Errorf("pattern JSON: %w", err)
 	}
-	p := Pattern{Name: f.Name, GainDB: f.GainDB, Symmetry: f.Symmetry, Mode: m}
+	p := Pattern{Name: f.Name, GainDB: f.GainDB, Symmetry: f.Symmetry, Mode: m, HeadingRef: f.HeadingRef}
+	if p.HeadingRef == "" {
+		p.HeadingRef = "the heading the pattern was measured against (the file does not say which direction of the antenna that is)"
+	}
+	if f.MountOffsetDeg != nil {
+		p.MountOffsetDeg, p.MountOffsetSet = *f.MountOffsetDeg, true
+	}
 	if err := p.Validate(); err != nil {
 		return Pattern{}, fmt.Errorf("pattern JSON: %w", err)
 	}

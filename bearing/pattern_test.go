@@ -133,7 +133,7 @@ func TestParsePatternErrors(t *testing.T) {
 	cases := []struct{ name, in, want string }{
 		{"notjson", "{", "pattern JSON"},
 		{"format", strings.Replace(s, "nullseek-antenna-pattern", "other", 1), "format"},
-		{"version", strings.Replace(s, `"version": 1`, `"version": 9`, 1), "version"},
+		{"version", strings.Replace(s, `"version": 2`, `"version": 9`, 1), "version"},
 		{"mode", strings.Replace(s, `"mode": "null"`, `"mode": "dip"`, 1), "mode"},
 		{"symmetry", strings.Replace(s, `"symmetry": 2`, `"symmetry": 7`, 1), "symmetry"},
 		{"step", strings.Replace(s, `"step_deg": 1`, `"step_deg": 2`, 1), "step_deg"},

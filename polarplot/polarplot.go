@@ -2,6 +2,10 @@
 // the measured levels, the fitted pattern, the bearing with its ±1σ wedge and
 // an ambiguous alternative dashed. North is up and degrees run clockwise;
 // the radius is level in dB, from the top of the plot down a fixed range.
+// The legend sits in a band under the circle, the ring labels on white
+// along the direction the fitted pattern leaves most free, and the title
+// and the legend print the bearing and sigma with one formatter
+// (FormatBearing).
 package polarplot
 
 import (
@@ -26,8 +30,18 @@ type Options struct {
 	// RangeDB is the level range from the rim to the centre (default: the
 	// measured span plus 3 dB, between 10 and 60 dB).
 	RangeDB float64
-	// SizeCm is the side of the square image (default 16 cm).
+	// SizeCm is the width of the image (default 16 cm); it is 1.2 times
+	// as tall, for the legend band.
 	SizeCm float64
+	// Note is a line under the title, e.g. which north the bearing is
+	// from and which direction of the antenna the heading named.
+	Note string
+}
+
+// FormatBearing is the one way bearings and sigmas are printed on a plot:
+// "123.4° ± 3.2°" (1σ, 0.1° steps).
+func FormatBearing(bearingDeg, sigmaDeg float64) string {
+	return fmt.Sprintf("%.1f° ± %.1f°", bearingDeg, sigmaDeg)
 }
 
 var (
@@ -40,9 +54,10 @@ var (
 
 // Write draws the plot to path; the format follows the extension (.png,
 // .svg, also .pdf/.eps/.jpg/.tif as gonum/plot supports). The file is
-// written to a temporary name and renamed into place.
-func Write(path string, pts []bearing.Point, est bearing.Estimate, p bearing.Pattern, title string) error {
-	return WriteOptions(path, pts, est, p, title, Options{})
+// written to a temporary name and renamed into place. The title is label
+// followed by the bearing and sigma (FormatBearing).
+func Write(path string, pts []bearing.Point, est bearing.Estimate, p bearing.Pattern, label string) error {
+	return WriteOptions(path, pts, est, p, label, Options{})
 }
 
 // WriteOptions is Write with options.
@@ -59,7 +74,7 @@ func WriteOptions(path string, pts []bearing.Point, est bearing.Estimate, p bear
 	if size == 0 {
 		size = 16
 	}
-	wt, err := pl.WriterTo(vg.Length(size)*vg.Centimeter, vg.Length(size)*vg.Centimeter, ext)
+	wt, err := pl.WriterTo(vg.Length(size)*vg.Centimeter, vg.Length(size*plotAspect)*vg.Centimeter, ext)
 	if err != nil {
 		return fmt.Errorf("polar plot %s: %w", path, err)
 	}
@@ -72,6 +87,14 @@ func WriteOptions(path string, pts []bearing.Point, est bearing.Estimate, p bear
 	return nil
 }
 
+// plotAspect is height over width; titleBand is the room above the circle
+// for the title (data units: the circle has radius 1, its labels reach
+// 1.2); what is left under the circle holds the legend.
+const (
+	plotAspect = 1.24
+	titleBand  = 0.34
+)
+
 // xy maps a bearing (degrees clockwise from north) and radius to plot
 // coordinates with north up.
 func xy(bearingDeg, r float64) plotter.XY {
@@ -79,33 +102,33 @@ func xy(bearingDeg, r float64) plotter.XY {
 	return plotter.XY{X: r * s, Y: r * c}
 }
 
-// Plot builds the plot without writing it.
-func Plot(pts []bearing.Point, est bearing.Estimate, p bearing.Pattern, title string, o Options) (*plot.Plot, error) {
+// Plot builds the plot without writing it; label starts the title.
+func Plot(pts []bearing.Point, est bearing.Estimate, p bearing.Pattern, label string, o Options) (*plot.Plot, error) {
 	if err := p.Validate(); err != nil {
 		return nil, err
 	}
-	if math.IsNaN(est.BearingDeg) || math.IsNaN(est.SigmaDeg) {
+	if !finite(est.BearingDeg) || !finite(est.SigmaDeg) {
 		return nil, fmt.Errorf("estimate has no bearing")
 	}
 	// Level scale: top = highest of data and fit.
 	top := math.Inf(-1)
 	lo := math.Inf(1)
 	for _, q := range pts {
-		if !math.IsNaN(q.LevelDB) && !math.IsInf(q.LevelDB, 0) {
+		if finite(q.LevelDB) {
 			top = math.Max(top, q.LevelDB)
 			lo = math.Min(lo, q.LevelDB)
 		}
 	}
-	fit := make(plotter.XYs, 0, 721)
 	var fitLv []float64
 	for k := 0; k <= 720; k++ {
-		h := float64(k) / 2
-		l := est.FittedLevelDB(p, h)
+		l := est.FittedLevelDB(p, float64(k)/2)
 		fitLv = append(fitLv, l)
-		top = math.Max(top, l)
-		lo = math.Min(lo, l)
+		if finite(l) {
+			top = math.Max(top, l)
+			lo = math.Min(lo, l)
+		}
 	}
-	if math.IsInf(top, 0) || math.IsNaN(top) {
+	if !finite(top) || !finite(lo) {
 		return nil, fmt.Errorf("no finite levels to plot")
 	}
 	top = math.Ceil(top/5) * 5
@@ -114,6 +137,7 @@ func Plot(pts []bearing.Point, est bearing.Estimate, p bearing.Pattern, title st
 		rng = math.Min(math.Max(math.Ceil((top-lo+3)/10)*10, 10), 60)
 	}
 	rad := func(l float64) float64 { return math.Min(math.Max((l-(top-rng))/rng, 0), 1) }
+	fit := make(plotter.XYs, 0, len(fitLv))
 	for k, l := range fitLv {
 		fit = append(fit, xy(float64(k)/2, rad(l)))
 	}
@@ -121,16 +145,19 @@ func Plot(pts []bearing.Point, est bearing.Estimate, p bearing.Pattern, title st
 	pl := plot.New()
 	pl.HideAxes()
 	pl.X.Min, pl.X.Max = -1.32, 1.32
-	pl.Y.Min, pl.Y.Max = -1.32, 1.32
-	pl.Title.Text = title
-	pl.Title.TextStyle.Font.Size = vg.Points(12)
+	// The title is drawn in data units too, so that the data area has the
+	// image's aspect and the circle stays round.
+	pl.Y.Max = 1.32 + titleBand
+	pl.Y.Min = pl.Y.Max - 2.64*plotAspect
+	title := label + ": " + FormatBearing(est.BearingDeg, est.SigmaDeg)
 
 	// Grid: level rings and 30° spokes.
 	step := 10.0
 	if rng <= 20 {
 		step = 5
 	}
-	var ringLabels plotter.XYLabels
+	var ringR []float64
+	var ringText []string
 	for l := 0.0; l <= rng+1e-9; l += step {
 		r := 1 - l/rng
 		if r <= 0 {
@@ -149,8 +176,8 @@ func Plot(pts []bearing.Point, est bearing.Estimate, p bearing.Pattern, title st
 			ln.LineStyle.Dashes = []vg.Length{vg.Points(2), vg.Points(2)}
 		}
 		pl.Add(ln)
-		ringLabels.XYs = append(ringLabels.XYs, xy(15, r))
-		ringLabels.Labels = append(ringLabels.Labels, fmt.Sprintf("%.0f dB", top-l))
+		ringR = append(ringR, r)
+		ringText = append(ringText, fmt.Sprintf("%.0f dB", top-l))
 	}
 	var spokeLabels plotter.XYLabels
 	for a := 0; a < 360; a += 30 {
@@ -164,7 +191,7 @@ func Plot(pts []bearing.Point, est bearing.Estimate, p bearing.Pattern, title st
 		if a == 0 {
 			lab = "N 0°"
 		}
-		spokeLabels.XYs = append(spokeLabels.XYs, xy(float64(a), 1.14))
+		spokeLabels.XYs = append(spokeLabels.XYs, xy(float64(a), 1.12))
 		spokeLabels.Labels = append(spokeLabels.Labels, lab)
 	}
 
@@ -186,19 +213,18 @@ func Plot(pts []bearing.Point, est bearing.Estimate, p bearing.Pattern, title st
 	// Measured points.
 	var mp plotter.XYs
 	for _, q := range pts {
-		if math.IsNaN(q.LevelDB) || math.IsInf(q.LevelDB, 0) || math.IsNaN(q.HeadingDeg) || math.IsInf(q.HeadingDeg, 0) {
+		if !finite(q.LevelDB) || !finite(q.HeadingDeg) {
 			continue
 		}
 		mp = append(mp, xy(q.HeadingDeg, rad(q.LevelDB)))
 	}
+	var sc *plotter.Scatter
 	if len(mp) > 0 {
-		sc, err := plotter.NewScatter(mp)
-		if err != nil {
+		if sc, err = plotter.NewScatter(mp); err != nil {
 			return nil, err
 		}
-		sc.GlyphStyle = draw.GlyphStyle{Color: colPoints, Radius: vg.Points(1.3), Shape: draw.CircleGlyph{}}
+		sc.GlyphStyle = draw.GlyphStyle{Color: colPoints, Radius: vg.Points(1.1), Shape: draw.CircleGlyph{}}
 		pl.Add(sc)
-		pl.Legend.Add("measured", sc)
 	}
 
 	// Fitted pattern.
@@ -208,7 +234,6 @@ func Plot(pts []bearing.Point, est bearing.Estimate, p bearing.Pattern, title st
 	}
 	fl.LineStyle = draw.LineStyle{Color: colFit, Width: vg.Points(1.2)}
 	pl.Add(fl)
-	pl.Legend.Add("fitted "+p.Name, fl)
 
 	// Bearing and alternate.
 	bl, err := plotter.NewLine(plotter.XYs{{}, xy(est.BearingDeg, 1.08)})
@@ -217,18 +242,32 @@ func Plot(pts []bearing.Point, est bearing.Estimate, p bearing.Pattern, title st
 	}
 	bl.LineStyle = draw.LineStyle{Color: colBear, Width: vg.Points(2)}
 	pl.Add(bl)
-	pl.Legend.Add(fmt.Sprintf("bearing %.1f°", est.BearingDeg), bl)
-	pl.Legend.Add(fmt.Sprintf("±1σ = ±%.2f°", sig), pg)
+	var al *plotter.Line
 	if est.AltBearingDeg != nil {
-		al, err := plotter.NewLine(plotter.XYs{{}, xy(*est.AltBearingDeg, 1.08)})
-		if err != nil {
+		if al, err = plotter.NewLine(plotter.XYs{{}, xy(*est.AltBearingDeg, 1.08)}); err != nil {
 			return nil, err
 		}
 		al.LineStyle = draw.LineStyle{Color: colBear, Width: vg.Points(1.5), Dashes: []vg.Length{vg.Points(5), vg.Points(3)}}
 		pl.Add(al)
-		pl.Legend.Add(fmt.Sprintf("ambiguous %.1f°", *est.AltBearingDeg), al)
 	}
 
+	// Ring labels on white, along the spoke direction where the fitted
+	// pattern and the points pass farthest from the rings.
+	labelAt := ringLabelBearing(fitLv, mp, ringR, rad, est)
+	var ringLabels plotter.XYLabels
+	for i, r := range ringR {
+		c := xy(labelAt, r)
+		w, h := 0.026*float64(len(ringText[i]))+0.03, 0.075
+		box, err := plotter.NewPolygon(plotter.XYs{{X: c.X - w/2, Y: c.Y - h/2}, {X: c.X + w/2, Y: c.Y - h/2}, {X: c.X + w/2, Y: c.Y + h/2}, {X: c.X - w/2, Y: c.Y + h/2}})
+		if err != nil {
+			return nil, err
+		}
+		box.Color = color.White
+		box.LineStyle.Width = 0
+		pl.Add(box)
+		ringLabels.XYs = append(ringLabels.XYs, c)
+		ringLabels.Labels = append(ringLabels.Labels, ringText[i])
+	}
 	for _, lb := range []plotter.XYLabels{ringLabels, spokeLabels} {
 		l, err := plotter.NewLabels(lb)
 		if err != nil {
@@ -238,12 +277,90 @@ func Plot(pts []bearing.Point, est bearing.Estimate, p bearing.Pattern, title st
 			l.TextStyle[i].Font.Size = vg.Points(8)
 			l.TextStyle[i].XAlign = draw.XCenter
 			l.TextStyle[i].YAlign = draw.YCenter
-			l.TextStyle[i].Color = color.Gray{Y: 70}
+			l.TextStyle[i].Color = color.Gray{Y: 60}
 		}
 		pl.Add(l)
 	}
-	pl.Legend.Top = true
+
+	// Title (and note) above the circle.
+	tl := plotter.XYLabels{XYs: []plotter.XY{{X: 0, Y: 1.32 + titleBand*0.62}}, Labels: []string{title}}
+	if o.Note != "" {
+		tl.XYs = append(tl.XYs, plotter.XY{X: 0, Y: 1.32 + titleBand*0.25})
+		tl.Labels = append(tl.Labels, o.Note)
+	}
+	tlab, err := plotter.NewLabels(tl)
+	if err != nil {
+		return nil, err
+	}
+	for i := range tlab.TextStyle {
+		tlab.TextStyle[i].Font.Size = vg.Points(12)
+		if i > 0 {
+			tlab.TextStyle[i].Font.Size = vg.Points(8.5)
+		}
+		tlab.TextStyle[i].XAlign = draw.XCenter
+		tlab.TextStyle[i].YAlign = draw.YCenter
+	}
+	pl.Add(tlab)
+
+	// Legend in the band under the circle, left aligned.
+	if sc != nil {
+		pl.Legend.Add(fmt.Sprintf("measured (%d readings)", len(mp)), sc)
+	}
+	pl.Legend.Add("fitted "+p.Name, fl)
+	pl.Legend.Add("bearing "+FormatBearing(est.BearingDeg, est.SigmaDeg)+" (1σ wedge)", bl, pg)
+	if al != nil {
+		pl.Legend.Add(fmt.Sprintf("the other null %.1f° (a loop cannot tell them apart)", *est.AltBearingDeg), al)
+	}
+	pl.Legend.Top = false
 	pl.Legend.Left = true
+	pl.Legend.XOffs = vg.Points(10)
+	pl.Legend.YOffs = vg.Points(8)
+	pl.Legend.Padding = vg.Points(2)
 	pl.Legend.TextStyle.Font.Size = vg.Points(9)
 	return pl, nil
 }
+
+// ringLabelBearing picks, among the diagonal spokes, the bearing along
+// which the fitted pattern and the measured points keep farthest from the
+// ring radii (and off the bearing's own line).
+func ringLabelBearing(fitLv []float64, mp plotter.XYs, ringR []float64, rad func(float64) float64, est bearing.Estimate) float64 {
+	best, bestScore := 15.0, math.Inf(-1)
+	for a := 15.0; a < 360; a += 30 {
+		if math.Abs(math.Remainder(a-est.BearingDeg, 360)) < 20 {
+			continue
+		}
+		if est.AltBearingDeg != nil && math.Abs(math.Remainder(a-*est.AltBearingDeg, 360)) < 20 {
+			continue
+		}
+		score := math.Inf(1)
+		// the curve near this bearing (±4°)
+		for d := -8; d <= 8; d++ {
+			k := (int(a*2) + d + 720) % 720
+			if !finite(fitLv[k]) {
+				continue
+			}
+			for _, r := range ringR {
+				score = math.Min(score, math.Abs(rad(fitLv[k])-r))
+			}
+		}
+		// points near this bearing
+		var near int
+		for _, q := range mp {
+			ang := math.Atan2(q.X, q.Y) * 180 / math.Pi
+			if math.Abs(math.Remainder(ang-a, 360)) < 4 {
+				for _, r := range ringR {
+					if math.Abs(math.Hypot(q.X, q.Y)-r) < 0.05 {
+						near++
+					}
+				}
+			}
+		}
+		score -= 0.002 * float64(near)
+		if score > bestScore {
+			best, bestScore = a, score
+		}
+	}
+	return best
+}
+
+func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }

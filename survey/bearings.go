@@ -10,7 +10,32 @@ import (
 
 	"nullseek/bearing"
 	"nullseek/heading"
+	"nullseek/receiver"
 )
+
+// BearingPlan asks Run to fit bearings while it scans (Options.Bearing).
+type BearingPlan struct {
+	// Track gives the antenna's heading at each reading's time.
+	Track *heading.Track
+	// Pattern and Fit are the fit's pattern and options; Fit.NoiseFloorDB
+	// is filled from the receiver's noise estimate of each piece.
+	Pattern bearing.Pattern
+	Fit     bearing.FitOptions
+	// WindowS is the span of one window of a long transmission (0:
+	// bearing.DefaultWindowS).
+	WindowS float64
+}
+
+// BurstFit is one burst's bearing fitted from its readings.
+type BurstFit struct {
+	Est bearing.Estimate
+	// Err says why no bearing was fitted (the fit refuses rather than
+	// inventing one); Est is then empty.
+	Err error
+	// Points are the readings joined with the headings, for pictures: all
+	// of them, or an even thinning to bearing.MaxPlotPoints.
+	Points []bearing.Point
+}
 
 // BurstBearing is the bearing fitted to one burst's level track.
 type BurstBearing struct {
@@ -40,7 +65,9 @@ type TxBearing struct {
 	// that differs at this site) repeats on every turn and every burst, so
 	// the data of one site cannot show it; it is added after combining.
 	SigmaDeg, SiteSigmaDeg float64
-	Err                    error
+	// Flags are the used bursts' flags, each once.
+	Flags []bearing.Flag
+	Err   error
 }
 
 // DefaultSiteSigmaDeg is the site error assumed for a VHF bearing from a
@@ -50,39 +77,111 @@ type TxBearing struct {
 // accuracy for this reason).
 const DefaultSiteSigmaDeg = 3.0
 
-// Points joins a burst's level track with the heading track. Readings the
-// heading track does not cover (outside it or in a gap) are left out.
-func Points(r Record, track *heading.Track) []bearing.Point {
+// MaxSiteSigmaDeg bounds the site error one may give: beyond 45° a
+// bearing says nothing a map could use.
+const MaxSiteSigmaDeg = 45.0
+
+// Points joins a level track with the heading track. Readings the
+// heading track does not cover (outside it or in a gap) are left out; the
+// receiver's clipping and key-up marks are carried over (the fit uses a
+// clipped reading as a lower bound and leaves key-up readings out).
+func Points(level []receiver.LevelSample, track *heading.Track) []bearing.Point {
 	var pts []bearing.Point
-	for _, l := range r.Level {
+	for _, l := range level {
 		h, ok := track.At(l.T)
 		if !ok {
 			continue
 		}
-		// A reading taken while the ADC was at its rails understates the
-		// level; the fit leaves it out and warns.
-		pts = append(pts, bearing.Point{T: l.T, HeadingDeg: h, LevelDB: l.LevelDB, Clipped: l.Clipped > 0})
+		pts = append(pts, bearing.Point{T: l.T, HeadingDeg: h, LevelDB: l.LevelDB, Clipped: l.Clipped > 0, KeyUp: l.KeyUp})
 	}
 	return pts
 }
 
+// bearingScan fits bearings from the pieces of a scan (Options.Bearing).
+type bearingScan struct {
+	plan  BearingPlan
+	cur   *bearing.Windowed
+	index int  // the burst the current fit belongs to
+	fed   bool // the current burst got readings from pieces
+}
+
+func newBearingScan(p BearingPlan) (*bearingScan, error) {
+	if p.Track == nil {
+		return nil, fmt.Errorf("bearing plan: no heading track")
+	}
+	if _, err := bearing.NewWindowed(p.Pattern, p.Fit, p.WindowS); err != nil {
+		return nil, err
+	}
+	return &bearingScan{plan: p, index: -1}, nil
+}
+
+func (s *bearingScan) start(burst int) {
+	s.cur, _ = bearing.NewWindowed(s.plan.Pattern, s.plan.Fit, s.plan.WindowS) // checked in newBearingScan
+	s.index = burst
+	s.fed = false
+}
+
+// piece adds the transmission's readings of a piece (the overlap with the
+// previous piece is skipped by Windowed.Add).
+func (s *bearingScan) piece(p *receiver.Piece) {
+	if p.Burst != s.index || s.cur == nil {
+		s.start(p.Burst)
+	}
+	_, _, level := p.Between(p.OnS, p.OffS)
+	nf := p.NoiseDB
+	s.cur.Add(Points(level, s.plan.Track), &nf)
+	s.fed = true
+}
+
+// finish finishes the burst's fit (from its own level track when no piece
+// brought readings).
+func (s *bearingScan) finish(b *receiver.Burst) *BurstFit {
+	if b.Index != s.index || s.cur == nil || !s.fed {
+		s.start(b.Index)
+		nf := b.NoiseDB
+		s.cur.Add(Points(b.Level, s.plan.Track), &nf)
+	}
+	bf := fitWindowed(s.cur, b.StartS, b.EndS)
+	s.cur, s.index = nil, -1
+	return bf
+}
+
+func fitWindowed(w *bearing.Windowed, startS, endS float64) *BurstFit {
+	bf := &BurstFit{Points: append([]bearing.Point(nil), w.PlotPoints()...)}
+	if len(bf.Points) == 0 {
+		bf.Err = fmt.Errorf("no heading readings during the burst (%.1f–%.1f s): the heading log does not overlap it", startS, endS)
+		return bf
+	}
+	bf.Est, bf.Err = w.Finish()
+	return bf
+}
+
 // Bearings fits every burst of res against the heading track with pattern
-// p, then combines the bursts of each transmitter.
-// siteSigmaDeg (≥ 0) is added in quadrature to each combined sigma.
+// p (or takes the fit made during the scan, Record.Fit), then combines the
+// bursts of each transmitter. siteSigmaDeg (0..MaxSiteSigmaDeg) is added in
+// quadrature to each combined sigma.
 func Bearings(res *Result, track *heading.Track, p bearing.Pattern, opts bearing.FitOptions, siteSigmaDeg float64) ([]BurstBearing, []TxBearing) {
 	var bbs []BurstBearing
 	groups := map[string][]int{}
 	for _, r := range res.Records {
 		bb := BurstBearing{Index: r.Index, Ident: r.Ident, Transmitter: r.Transmitter, StartS: r.StartS}
-		bb.Points = Points(r, track)
-		o := opts
-		nf := r.NoiseDB
-		o.NoiseFloorDB = &nf
-		if len(bb.Points) == 0 {
-			bb.Err = fmt.Errorf("no heading readings during the burst (%.1f–%.1f s): the heading log does not overlap it", r.StartS, r.EndS)
-		} else {
-			bb.Est, bb.Err = bearing.Fit(bb.Points, p, o)
+		bf := r.Fit
+		if bf == nil {
+			switch {
+			case r.Level == nil && r.LevelTruncated:
+				bf = &BurstFit{Err: fmt.Errorf("the transmission (%.0f s) outlasted the level track the survey keeps; fit it during the scan (survey.Options.Bearing)", r.EndS-r.StartS)}
+			default:
+				w, err := bearing.NewWindowed(p, opts, 0)
+				if err != nil {
+					bf = &BurstFit{Err: err}
+					break
+				}
+				nf := r.NoiseDB
+				w.Add(Points(r.Level, track), &nf)
+				bf = fitWindowed(w, r.StartS, r.EndS)
+			}
 		}
+		bb.Est, bb.Err, bb.Points = bf.Est, bf.Err, bf.Points
 		bbs = append(bbs, bb)
 		key := txKey(r)
 		if bb.Err == nil {
@@ -118,15 +217,75 @@ func Bearings(res *Result, track *heading.Track, p bearing.Pattern, opts bearing
 		tb.Combined, tb.Err = bearing.Combine(ests, bearing.CombineOptions{})
 		tb.SiteSigmaDeg = siteSigmaDeg
 		tb.SigmaDeg = math.Hypot(tb.Combined.SigmaDeg, siteSigmaDeg)
+		if tb.Err == nil && !(finite(tb.Combined.BearingDeg) && finite(tb.SigmaDeg)) {
+			tb.Err = fmt.Errorf("the combination of %s's bursts is not a number (bearing %v ± %v)", k, tb.Combined.BearingDeg, tb.SigmaDeg)
+		}
 		for _, u := range tb.Combined.Used {
 			tb.Bursts = append(tb.Bursts, idx[u])
 			e := bbs[idx[u]].Est
 			tb.NullDepthDB = math.Max(tb.NullDepthDB, e.NullDepthDB)
 			tb.CoverageDeg = math.Max(tb.CoverageDeg, e.CoverageDeg)
+			for _, f := range e.Flags {
+				if !hasFlag(tb.Flags, f) {
+					tb.Flags = append(tb.Flags, f)
+				}
+			}
 		}
 		txs = append(txs, tb)
 	}
 	return bbs, txs
+}
+
+func hasFlag(fs []bearing.Flag, f bearing.Flag) bool {
+	for _, g := range fs {
+		if g == f {
+			return true
+		}
+	}
+	return false
+}
+
+func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
+
+// PlotData is what a polar plot of a transmitter shows, drawn from its
+// combined result: the readings of every burst used (each burst's levels
+// moved by the difference between its fitted level and the first burst's,
+// so that bursts heard at different strengths line up; thinned to
+// bearing.MaxPlotPoints), and an estimate carrying the combined bearing,
+// the transmitter's sigma (site error included) and the combination's
+// choice between a loop's two nulls, at the first burst's level.
+func (t TxBearing) PlotData(bbs []BurstBearing) ([]bearing.Point, bearing.Estimate, error) {
+	if t.Err != nil || len(t.Bursts) == 0 {
+		return nil, bearing.Estimate{}, fmt.Errorf("%s has no bearing to plot", t.Ident)
+	}
+	ref := bbs[t.Bursts[0]].Est
+	var pts []bearing.Point
+	for _, i := range t.Bursts {
+		b := bbs[i]
+		d := ref.LevelDB - b.Est.LevelDB
+		if b.Est.Noise == bearing.NoiseThermal {
+			// keep each reading's share above the noise: shift the
+			// carrier, not the floor
+			d = 0
+		}
+		for _, q := range b.Points {
+			q.LevelDB += d
+			pts = append(pts, q)
+		}
+	}
+	if len(pts) > bearing.MaxPlotPoints {
+		step := float64(len(pts)) / bearing.MaxPlotPoints
+		thin := make([]bearing.Point, 0, bearing.MaxPlotPoints)
+		for x := 0.0; int(x) < len(pts); x += step {
+			thin = append(thin, pts[int(x)])
+		}
+		pts = thin
+	}
+	est := ref
+	est.BearingDeg = t.Combined.BearingDeg
+	est.SigmaDeg = t.SigmaDeg
+	est.AltBearingDeg = t.Combined.AltBearingDeg
+	return pts, est, nil
 }
 
 // txKey names the transmitter a record belongs to: its identifier, or its
@@ -141,83 +300,182 @@ func txKey(r Record) string {
 	return "unknown"
 }
 
-func optDeg(p *float64) *float64 {
+// jsonNum is a number for JSON that is null when not finite; nulled
+// collects the names of the fields that were (for a warning).
+type jsonNums struct{ nulled []string }
+
+func (j *jsonNums) num(name string, v float64, digits int) *float64 {
+	if !finite(v) {
+		j.nulled = append(j.nulled, name)
+		return nil
+	}
+	r := round(v, digits)
+	return &r
+}
+
+func (j *jsonNums) opt(name string, p *float64, digits int) *float64 {
 	if p == nil {
 		return nil
 	}
-	v := round(*p, 2)
-	return &v
+	return j.num(name, *p, digits)
 }
 
-// MarshalJSON writes a `"type":"burst_bearing"` line.
+// warning is the sentence that says which fields were written as null.
+func (j *jsonNums) warning() string {
+	if len(j.nulled) == 0 {
+		return ""
+	}
+	return fmt.Sprintf("not a number, written as null: %s", strings.Join(j.nulled, ", "))
+}
+
+// usageJSON is bearing.Usage in a JSON line.
+type usageJSON struct {
+	Readings   int `json:"readings"`
+	Used       int `json:"used"`
+	Clipped    int `json:"clipped"`
+	KeyUp      int `json:"key_up"`
+	BelowNoise int `json:"below_noise"`
+	Outliers   int `json:"outliers"`
+	Unfitted   int `json:"unfitted"`
+}
+
+// burstBearingLine is a `"type":"burst_bearing"` line.
+type burstBearingLine struct {
+	Type              string     `json:"type"`
+	Index             int        `json:"index"`
+	Ident             string     `json:"ident"`
+	Transmitter       string     `json:"transmitter"`
+	StartS            *float64   `json:"start_s"`
+	BurstsUsed        int        `json:"bursts_used"`
+	Error             string     `json:"error,omitempty"`
+	BearingDeg        *float64   `json:"bearing_deg"`
+	SigmaDeg          *float64   `json:"sigma_deg"`
+	AltBearingDeg     *float64   `json:"alt_bearing_deg"`
+	NullDepthDB       *float64   `json:"null_depth_db,omitempty"`
+	CoverageDeg       *float64   `json:"coverage_deg,omitempty"`
+	Covered           string     `json:"covered,omitempty"`
+	ResidualDB        *float64   `json:"residual_db,omitempty"`
+	FisherSigmaDeg    *float64   `json:"fisher_sigma_deg,omitempty"`
+	ModelSigmaDeg     *float64   `json:"model_sigma_deg,omitempty"`
+	BootstrapSigmaDeg *float64   `json:"bootstrap_sigma_deg,omitempty"`
+	FadingDB          *float64   `json:"fading_db,omitempty"`
+	Points            int        `json:"points"`
+	Readings          *usageJSON `json:"readings,omitempty"`
+	Mode              string     `json:"mode,omitempty"`
+	Flags             []string   `json:"flags,omitempty"`
+	Warnings          []string   `json:"warnings,omitempty"`
+}
+
+// MarshalJSON writes a `"type":"burst_bearing"` line. A value that is not
+// finite is written as null and named in a warning.
 func (b BurstBearing) MarshalJSON() ([]byte, error) {
-	m := map[string]any{
-		"type": "burst_bearing", "index": b.Index, "ident": b.Ident,
-		"transmitter": b.Transmitter, "start_s": round(b.StartS, 3), "bursts_used": 0,
-	}
+	var j jsonNums
+	l := burstBearingLine{Type: "burst_bearing", Index: b.Index, Ident: b.Ident, Transmitter: b.Transmitter,
+		StartS: j.num("start_s", b.StartS, 3)}
 	if b.Err != nil {
-		m["error"] = b.Err.Error()
-		m["bearing_deg"], m["sigma_deg"], m["alt_bearing_deg"] = nil, nil, nil
-		return json.Marshal(m)
+		l.Error = b.Err.Error()
+	} else {
+		e := b.Est
+		l.BurstsUsed = 1
+		l.BearingDeg = j.num("bearing_deg", e.BearingDeg, 2)
+		l.SigmaDeg = j.num("sigma_deg", e.SigmaDeg, 2)
+		l.AltBearingDeg = j.opt("alt_bearing_deg", e.AltBearingDeg, 2)
+		l.NullDepthDB = j.num("null_depth_db", e.NullDepthDB, 1)
+		l.CoverageDeg = j.num("coverage_deg", e.CoverageDeg, 1)
+		l.Covered = bearing.FormatArcs(e.Arcs)
+		l.ResidualDB = j.num("residual_db", e.ResidualDB, 2)
+		l.FisherSigmaDeg = j.num("fisher_sigma_deg", e.FisherSigmaDeg, 2)
+		l.ModelSigmaDeg = j.num("model_sigma_deg", e.ModelSigmaDeg, 2)
+		l.BootstrapSigmaDeg = j.num("bootstrap_sigma_deg", e.BootstrapSigmaDeg, 2)
+		l.FadingDB = j.num("fading_db", e.FadingDB, 2)
+		l.Points = e.Points
+		u := e.Usage
+		l.Readings = &usageJSON{u.Readings, u.Used, u.Clipped, u.KeyUp, u.BelowNoise, u.Outliers, u.Unfitted}
+		l.Mode = e.Mode.String()
+		for _, f := range e.Flags {
+			l.Flags = append(l.Flags, string(f))
+		}
+		l.Warnings = append(l.Warnings, e.Warnings...)
+		if l.BearingDeg == nil || l.SigmaDeg == nil {
+			l.BurstsUsed = 0
+		}
 	}
-	e := b.Est
-	m["bearing_deg"] = round(e.BearingDeg, 2)
-	m["sigma_deg"] = round(e.SigmaDeg, 2)
-	m["alt_bearing_deg"] = optDeg(e.AltBearingDeg)
-	m["null_depth_db"] = round(e.NullDepthDB, 1)
-	m["coverage_deg"] = round(e.CoverageDeg, 1)
-	m["residual_db"] = round(e.ResidualDB, 2)
-	m["fisher_sigma_deg"] = round(e.FisherSigmaDeg, 2)
-	m["bootstrap_sigma_deg"] = round(e.BootstrapSigmaDeg, 2)
-	m["points"] = e.Points
-	m["mode"] = e.Mode.String()
-	m["bursts_used"] = 1
-	if len(e.Warnings) > 0 {
-		m["warnings"] = e.Warnings
+	if w := j.warning(); w != "" {
+		l.Warnings = append(l.Warnings, w)
 	}
-	return json.Marshal(m)
+	return json.Marshal(l)
 }
 
-// MarshalJSON writes a `"type":"bearing"` line.
+type excludedJSON struct {
+	BearingDeg *float64 `json:"bearing_deg"`
+	Reason     string   `json:"reason"`
+}
+
+// txBearingLine is a `"type":"bearing"` line.
+type txBearingLine struct {
+	Type          string         `json:"type"`
+	Ident         string         `json:"ident"`
+	Transmitter   string         `json:"transmitter"`
+	Error         string         `json:"error,omitempty"`
+	BearingDeg    *float64       `json:"bearing_deg"`
+	SigmaDeg      *float64       `json:"sigma_deg"`
+	FitSigmaDeg   *float64       `json:"fit_sigma_deg,omitempty"`
+	SiteSigmaDeg  *float64       `json:"site_sigma_deg,omitempty"`
+	AltBearingDeg *float64       `json:"alt_bearing_deg"`
+	NullDepthDB   *float64       `json:"null_depth_db,omitempty"`
+	CoverageDeg   *float64       `json:"coverage_deg,omitempty"`
+	BurstsUsed    int            `json:"bursts_used"`
+	PValue        *float64       `json:"p_value,omitempty"`
+	Excluded      []excludedJSON `json:"excluded,omitempty"`
+	Flags         []string       `json:"flags,omitempty"`
+	Warnings      []string       `json:"warnings,omitempty"`
+}
+
+// MarshalJSON writes a `"type":"bearing"` line. A value that is not finite
+// is written as null and named in a warning.
 func (t TxBearing) MarshalJSON() ([]byte, error) {
-	m := map[string]any{"type": "bearing", "ident": t.Ident, "transmitter": t.Transmitter}
+	var j jsonNums
+	l := txBearingLine{Type: "bearing", Ident: t.Ident, Transmitter: t.Transmitter}
 	if t.Err != nil {
-		m["error"] = t.Err.Error()
-		m["bearing_deg"], m["sigma_deg"], m["alt_bearing_deg"] = nil, nil, nil
-		m["bursts_used"] = 0
-		return json.Marshal(m)
-	}
-	c := t.Combined
-	m["bearing_deg"] = round(c.BearingDeg, 2)
-	m["sigma_deg"] = round(t.SigmaDeg, 2)
-	m["fit_sigma_deg"] = round(c.SigmaDeg, 2)
-	m["site_sigma_deg"] = round(t.SiteSigmaDeg, 2)
-	m["alt_bearing_deg"] = optDeg(c.AltBearingDeg)
-	m["null_depth_db"] = round(t.NullDepthDB, 1)
-	m["coverage_deg"] = round(t.CoverageDeg, 1)
-	m["bursts_used"] = c.BurstsUsed
-	m["p_value"] = round(c.PValue, 4)
-	if len(c.Excluded) > 0 {
-		var ex []map[string]any
+		l.Error = t.Err.Error()
+	} else {
+		c := t.Combined
+		l.BearingDeg = j.num("bearing_deg", c.BearingDeg, 2)
+		l.SigmaDeg = j.num("sigma_deg", t.SigmaDeg, 2)
+		l.FitSigmaDeg = j.num("fit_sigma_deg", c.SigmaDeg, 2)
+		l.SiteSigmaDeg = j.num("site_sigma_deg", t.SiteSigmaDeg, 2)
+		l.AltBearingDeg = j.opt("alt_bearing_deg", c.AltBearingDeg, 2)
+		l.NullDepthDB = j.num("null_depth_db", t.NullDepthDB, 1)
+		l.CoverageDeg = j.num("coverage_deg", t.CoverageDeg, 1)
+		l.BurstsUsed = c.BurstsUsed
+		l.PValue = j.num("p_value", c.PValue, 4)
 		for _, e := range c.Excluded {
-			ex = append(ex, map[string]any{"bearing_deg": round(e.BearingDeg, 2), "reason": e.Reason})
+			l.Excluded = append(l.Excluded, excludedJSON{j.num("excluded.bearing_deg", e.BearingDeg, 2), e.Reason})
 		}
-		m["excluded"] = ex
+		for _, f := range t.Flags {
+			l.Flags = append(l.Flags, string(f))
+		}
+		l.Warnings = append(l.Warnings, c.Warnings...)
+		if l.BearingDeg == nil || l.SigmaDeg == nil {
+			l.BurstsUsed = 0
+		}
 	}
-	if len(c.Warnings) > 0 {
-		m["warnings"] = c.Warnings
+	if w := j.warning(); w != "" {
+		l.Warnings = append(l.Warnings, w)
 	}
-	return json.Marshal(m)
+	return json.Marshal(l)
 }
 
 // EstimateLag estimates the lag between level and heading from the
 // transmitter with the most readings (bearing.EstimateLag: sweeps must turn
 // both ways). The sign is bearing's: positive means the level readings are
-// late; remove it with track.WithLag(track.LagS − lagS).
+// late; remove it with track.WithLag(track.LagS − lagS). Bursts whose
+// level track was not kept (a transmission past the receiver's cap) are
+// left out.
 func EstimateLag(res *Result, track *heading.Track, p bearing.Pattern, opts bearing.FitOptions) (lagS, sigmaS float64, err error) {
 	byTx := map[string][]bearing.Point{}
 	for _, r := range res.Records {
-		byTx[txKey(r)] = append(byTx[txKey(r)], Points(r, track)...)
+		byTx[txKey(r)] = append(byTx[txKey(r)], Points(r.Level, track)...)
 	}
 	best := ""
 	for k, pts := range byTx {
@@ -226,7 +484,10 @@ func EstimateLag(res *Result, track *heading.Track, p bearing.Pattern, opts bear
 		}
 	}
 	if best == "" {
-		return 0, 0, fmt.Errorf("estimate lag: no bursts")
+		return 0, 0, fmt.Errorf("estimate lag: no bursts found in the recording")
+	}
+	if len(byTx[best]) == 0 {
+		return 0, 0, fmt.Errorf("estimate lag: no level reading of any burst falls inside the heading track (%d bursts): check the heading log's clock", len(res.Records))
 	}
 	nf := math.Inf(1)
 	for _, r := range res.Records {
@@ -234,7 +495,9 @@ func EstimateLag(res *Result, track *heading.Track, p bearing.Pattern, opts bear
 			nf = math.Min(nf, r.NoiseDB)
 		}
 	}
-	opts.NoiseFloorDB = &nf
+	if finite(nf) {
+		opts.NoiseFloorDB = &nf
+	}
 	lag, sig, err := bearing.EstimateLag(byTx[best], p, bearing.LagOptions{Fit: opts})
 	if err != nil {
 		return 0, 0, fmt.Errorf("estimate lag from %s: %w", best, err)
@@ -242,9 +505,23 @@ func EstimateLag(res *Result, track *heading.Track, p bearing.Pattern, opts bear
 	return lag, sig, nil
 }
 
-// WriteBearingTable prints per-burst and per-transmitter bearings for people.
-func WriteBearingTable(w io.Writer, bbs []BurstBearing, txs []TxBearing) error {
+// cellNum formats v for a table cell ("-" when not a number; bad is then
+// set).
+func cellNum(format string, v float64, bad *bool) string {
+	if !finite(v) {
+		*bad = true
+		return "-"
+	}
+	return fmt.Sprintf(format, v)
+}
+
+// WriteBearingTable prints per-burst and per-transmitter bearings for
+// people. refNote, when not empty, says which north the bearings are from
+// and which direction of the antenna its heading named (the pattern's
+// convention); a value that is not a number prints as "-" with a note.
+func WriteBearingTable(w io.Writer, bbs []BurstBearing, txs []TxBearing, refNote string) error {
 	tw := &errWriter{w: w}
+	bad := false
 	fmt.Fprintf(tw, "%-5s %-12s %-4s %9s %7s %9s %8s %8s  %s\n", "burst", "ident", "tx", "bearing", "±1σ", "alt", "null dB", "cover", "notes")
 	for _, b := range bbs {
 		if b.Err != nil {
@@ -254,10 +531,16 @@ func WriteBearingTable(w io.Writer, bbs []BurstBearing, txs []TxBearing) error {
 		e := b.Est
 		alt := "-"
 		if e.AltBearingDeg != nil {
-			alt = fmt.Sprintf("%.1f°", *e.AltBearingDeg)
+			alt = cellNum("%.1f°", *e.AltBearingDeg, &bad)
 		}
-		fmt.Fprintf(tw, "%-5d %-12s %-4s %8.1f° %6.2f° %9s %8.1f %7.0f°  %s\n", b.Index, b.Ident, b.Transmitter,
-			e.BearingDeg, e.SigmaDeg, alt, e.NullDepthDB, e.CoverageDeg, strings.Join(e.Warnings, "; "))
+		notes := append([]string(nil), e.Warnings...)
+		u := e.Usage
+		if u.Used < u.Readings {
+			notes = append(notes, "used "+u.String())
+		}
+		fmt.Fprintf(tw, "%-5d %-12s %-4s %9s %7s %9s %8s %8s  %s\n", b.Index, b.Ident, b.Transmitter,
+			cellNum("%.1f°", e.BearingDeg, &bad), cellNum("%.2f°", e.SigmaDeg, &bad), alt,
+			cellNum("%.1f", e.NullDepthDB, &bad), cellNum("%.0f°", e.CoverageDeg, &bad), strings.Join(notes, "; "))
 	}
 	fmt.Fprintln(tw)
 	fmt.Fprintf(tw, "%-12s %-4s %9s %7s %9s %7s  %s\n", "ident", "tx", "bearing", "±1σ", "alt", "bursts", "notes")
@@ -269,16 +552,31 @@ func WriteBearingTable(w io.Writer, bbs []BurstBearing, txs []TxBearing) error {
 		c := t.Combined
 		alt := "-"
 		if c.AltBearingDeg != nil {
-			alt = fmt.Sprintf("%.1f°", *c.AltBearingDeg)
+			alt = cellNum("%.1f°", *c.AltBearingDeg, &bad)
 		}
 		var notes []string
+		if len(t.Flags) > 0 {
+			var fs []string
+			for _, f := range t.Flags {
+				fs = append(fs, string(f))
+			}
+			notes = append(notes, "flags: "+strings.Join(fs, ", "))
+		}
 		notes = append(notes, c.Warnings...)
 		for _, x := range c.Excluded {
-			notes = append(notes, fmt.Sprintf("left out %.1f°: %s", x.BearingDeg, x.Reason))
+			notes = append(notes, fmt.Sprintf("left out %s: %s", cellNum("%.1f°", x.BearingDeg, &bad), x.Reason))
 		}
-		fmt.Fprintf(tw, "%-12s %-4s %8.1f° %6.1f° %9s %7d  %s\n", t.Ident, t.Transmitter, c.BearingDeg, t.SigmaDeg, alt, c.BurstsUsed, strings.Join(notes, "; "))
+		fmt.Fprintf(tw, "%-12s %-4s %9s %7s %9s %7d  %s\n", t.Ident, t.Transmitter, cellNum("%.1f°", c.BearingDeg, &bad),
+			cellNum("%.1f°", t.SigmaDeg, &bad), alt, c.BurstsUsed, strings.Join(notes, "; "))
 	}
-	fmt.Fprintf(tw, "(±1σ of a transmitter includes a %.1f° site error; bearings are from true north)\n", firstSite(txs))
+	fmt.Fprintf(tw, "(±1σ of a transmitter includes a %s site error", cellNum("%.1f°", firstSite(txs), &bad))
+	if refNote != "" {
+		fmt.Fprintf(tw, "; %s", refNote)
+	}
+	fmt.Fprintln(tw, ")")
+	if bad {
+		fmt.Fprintln(tw, "(\"-\": not a number; the fit could not give that value)")
+	}
 	return tw.err
 }
 
@@ -289,4 +587,68 @@ func firstSite(txs []TxBearing) float64 {
 		}
 	}
 	return 0
+}
+
+// BearingOptions are the choices of the bearing and calibrate commands
+// that are not about the heading source: the antenna, the fit, the site
+// error, the mount offset and the lag.
+type BearingOptions struct {
+	Antenna bearing.AntennaSpec
+	Fit     bearing.FitOptions
+	// SiteSigmaDeg is added in quadrature to each transmitter's sigma
+	// (--site-sigma; 0..MaxSiteSigmaDeg).
+	SiteSigmaDeg float64
+	// MountOffsetDeg is the antenna's reference direction minus the
+	// heading source's reading (--mount-offset; within ±360°);
+	// MountOffsetGiven says it was given (a pattern file may carry one).
+	MountOffsetDeg   float64
+	MountOffsetGiven bool
+	// LagS: the heading timestamps lag the level by this many seconds
+	// (--lag; within ±60 s: a heading source later than a minute has no
+	// business being used).
+	LagS float64
+	// WindowS is the span of one window of a long transmission (0:
+	// bearing.DefaultWindowS).
+	WindowS float64
+}
+
+// DefaultBearingOptions holds the defaults; the flags read theirs from it.
+var DefaultBearingOptions = BearingOptions{Antenna: bearing.DefaultAntenna, Fit: bearing.DefaultFit, SiteSigmaDeg: DefaultSiteSigmaDeg, WindowS: bearing.DefaultWindowS}
+
+// Validate checks every number against its range (NaN and ±Inf fail
+// every range), with one error naming the flag.
+func (o BearingOptions) Validate() error {
+	if err := o.Antenna.Validate(); err != nil {
+		return err
+	}
+	if err := o.Fit.Validate(); err != nil {
+		return err
+	}
+	switch {
+	case !(o.SiteSigmaDeg >= 0 && o.SiteSigmaDeg <= MaxSiteSigmaDeg):
+		return fmt.Errorf("--site-sigma %v: want degrees in [0, %g] (the site error added to each bearing's sigma)", o.SiteSigmaDeg, MaxSiteSigmaDeg)
+	case !(o.MountOffsetDeg > -360 && o.MountOffsetDeg < 360):
+		return fmt.Errorf("--mount-offset %v: want degrees within ±360", o.MountOffsetDeg)
+	case !(o.LagS >= -60 && o.LagS <= 60):
+		return fmt.Errorf("--lag %v: want seconds within ±60", o.LagS)
+	case !(o.WindowS >= 0 && o.WindowS <= 86400):
+		return fmt.Errorf("bearing window %v s: want seconds in (0, 86400]", o.WindowS)
+	}
+	return nil
+}
+
+// MountOffset is the mount offset to apply with pattern p: the one given,
+// or the one a calibrated pattern file carries when none was given. Both
+// given and different is an error (the file's was measured; repeating it
+// is harmless).
+func (o BearingOptions) MountOffset(p bearing.Pattern) (float64, error) {
+	switch {
+	case !p.MountOffsetSet:
+		return o.MountOffsetDeg, nil
+	case !o.MountOffsetGiven:
+		return p.MountOffsetDeg, nil
+	case math.Abs(o.MountOffsetDeg-p.MountOffsetDeg) <= 0.005:
+		return o.MountOffsetDeg, nil
+	}
+	return 0, fmt.Errorf("--mount-offset %g: the pattern file %q carries the mount offset %.2f° that calibrate measured; drop --mount-offset (or give the same)", o.MountOffsetDeg, p.Name, p.MountOffsetDeg)
 }

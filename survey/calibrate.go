@@ -25,74 +25,23 @@ type CalibrationOptions struct {
 }
 
 // Calibration is an antenna's measured pattern and the north offset of
-// its heading source, from a sweep with a transmitter at a known bearing.
+// its heading source (bearing.Calibration), with the transmitter and
+// bursts it was measured on.
 type Calibration struct {
-	// Ident is the transmitter whose bursts were used.
-	Ident string
-	// KnownBearingDeg is the bearing of the transmitter, degrees true in
-	// [0, 360), as given.
-	KnownBearingDeg float64
-	// NorthOffsetDeg is what to add to the track's headings (after any
-	// mount offset the track already carries) to get the heading of the
-	// measured pattern's boresight, the middle of its main lobe (peak) or
-	// null: true boresight = track heading + NorthOffsetDeg, in
-	// (−180, 180] (for an ambiguous pattern, the smallest equivalent).
-	NorthOffsetDeg float64
-	// SigmaDeg is the 1-sigma of NorthOffsetDeg from the level noise: the
-	// sigma of a refit of the sweep with the measured pattern and a
-	// split-half estimate of the noise in the pattern's centre, in
-	// quadrature. Errors of the calibration site (multipath) repeat on
-	// every turn and are not in it; Alignment.SigmaDeg shows how far the
-	// nominal pattern was off.
-	SigmaDeg float64
-	// Pattern is the measured pattern, centred on the corrected boresight,
-	// with the nominal pattern's Mode and Symmetry.
-	Pattern bearing.Pattern
-	// Alignment is the fit of the nominal pattern that fixed the offset.
-	Alignment bearing.Estimate
-	// Bursts and Points count the bursts and level readings used.
-	Bursts, Points int
-	// Shape summarises the measured pattern.
-	Shape PatternShape
-}
-
-// PatternShape is a pattern's headline numbers.
-type PatternShape struct {
-	// WidthDeg is the −3 dB beamwidth of a Peak pattern, or the +3 dB
-	// width of a Null pattern's null (bearing.Pattern.WidthDeg).
-	WidthDeg float64
-	// NullDepthDB is 0 dB minus the lowest gain of the table (≥ 0): the
-	// depth of the deepest null, for either mode.
-	NullDepthDB float64
-	// FrontBackDB is the gain at the feature minus the gain 180° from it,
-	// for a Peak pattern (front-to-back ratio); 0 for a Null pattern.
-	FrontBackDB float64
-}
-
-// Shape measures p's width, null depth and front-to-back ratio.
-func Shape(p bearing.Pattern) PatternShape {
-	s := PatternShape{WidthDeg: p.WidthDeg()}
-	lo := math.Inf(1)
-	for _, g := range p.GainDB {
-		lo = math.Min(lo, g)
-	}
-	s.NullDepthDB = -lo
-	if p.Mode == bearing.Peak {
-		f := int(p.FeatureDeg())
-		s.FrontBackDB = p.GainDB[f] - p.GainDB[(f+180)%len(p.GainDB)]
-	}
-	return s
+	bearing.Calibration
+	// Ident is the transmitter whose bursts were used; Bursts how many.
+	Ident  string
+	Bursts int
 }
 
 // Calibrate measures the antenna's pattern and the heading source's north
 // offset from the bursts of one transmitter at a known bearing
 // (knownBearingDeg, degrees true): the level readings of all its bursts are
-// joined with track (survey.Points), pooled, and handed to
-// bearing.Calibrate with the nominal pattern, which fixes the boresight
-// roughly; the boresight is then moved to the measured pattern's axis of
-// symmetry (the middle of its main lobe or null), and a refit of the sweep with the measured pattern
-// sets the offset and its sigma. The pooled sweep must cover at least 340° of the circle (the whole
-// pattern is measured). Errors say which transmitter and why.
+// joined with track (Points), pooled, and handed to bearing.MeasureAntenna
+// with the nominal pattern; the noise floor is the bursts' median when
+// opts.Fit has none. The pooled sweep must cover at least 340° of the
+// circle (the whole pattern is measured). Errors say which transmitter and
+// why.
 func Calibrate(res *Result, track *heading.Track, nominal bearing.Pattern, knownBearingDeg float64, opts CalibrationOptions) (*Calibration, error) {
 	if math.IsNaN(knownBearingDeg) || math.IsInf(knownBearingDeg, 0) {
 		return nil, fmt.Errorf("calibrate: known bearing %v is not a number of degrees", knownBearingDeg)
@@ -111,7 +60,7 @@ func Calibrate(res *Result, track *heading.Track, nominal bearing.Pattern, known
 		if txKey(r) != key {
 			continue
 		}
-		p := Points(r, track)
+		p := Points(r.Level, track)
 		if len(p) == 0 {
 			continue
 		}
@@ -128,165 +77,15 @@ func Calibrate(res *Result, track *heading.Track, nominal bearing.Pattern, known
 		nf := noise[len(noise)/2]
 		fo.NoiseFloorDB = &nf
 	}
-	if fo.MinCoverageDeg == 0 {
-		fo.MinCoverageDeg = 340
-	}
 	name := opts.Name
 	if name == "" {
 		name = "calibrated"
 	}
-	known := angle.Wrap360(knownBearingDeg)
-	align, err := bearing.Fit(pts, nominal, fo)
+	cal, err := bearing.MeasureAntenna(pts, angle.Wrap360(knownBearingDeg), nominal, bearing.CalibrateOptions{Fit: fo, Name: name})
 	if err != nil {
 		return nil, fmt.Errorf("calibrate on %s (%d bursts, %d readings): %w", key, bursts, len(pts), err)
 	}
-	pat, off, err := bearing.Calibrate(pts, known, nominal, bearing.CalibrateOptions{Fit: fo, Name: name})
-	if err != nil {
-		return nil, fmt.Errorf("calibrate on %s: %w", key, err)
-	}
-	// The nominal pattern fixed the boresight only roughly: when the real
-	// pattern differs, the alignment leans by a degree or so. Move the
-	// boresight to the measured pattern's axis of symmetry (the middle of
-	// its main lobe or null) so that the offset is the heading source's
-	// real error and the pattern is centred on its feature.
-	f0 := nominal.FeatureDeg()
-	centre, err := featureCentre(pat, f0)
-	if err != nil {
-		return nil, fmt.Errorf("calibrate on %s: %w", key, err)
-	}
-	centreSigma := splitHalfCentreSigma(pts, known, off, f0, nominal, fo.NoiseFloorDB)
-	centre = angle.Wrap180(centre - f0)
-	pat, err = rotatePattern(pat, centre)
-	if err != nil {
-		return nil, fmt.Errorf("calibrate on %s: %w", key, err)
-	}
-	off += centre
-	// Refit the sweep with the measured pattern: what is left between its
-	// bearing and the known one goes into the offset, and its sigma is the
-	// offset's (noise only; the site's errors are not in one sweep).
-	shifted := make([]bearing.Point, len(pts))
-	for i, q := range pts {
-		q.HeadingDeg = angle.Wrap360(q.HeadingDeg + off)
-		shifted[i] = q
-	}
-	check, err := bearing.Fit(shifted, pat, fo)
-	if err != nil {
-		return nil, fmt.Errorf("calibrate on %s: refit with the measured pattern: %w", key, err)
-	}
-	off += angle.Wrap180(known - check.BearingDeg)
-	period := 360 / float64(pat.Symmetry)
-	off = math.Mod(off+period/2+4*360, period) - period/2
-	if off <= -180 {
-		off += 360
-	}
-	return &Calibration{
-		Ident: key, KnownBearingDeg: known, NorthOffsetDeg: off, SigmaDeg: math.Hypot(check.SigmaDeg, centreSigma),
-		Pattern: pat, Alignment: align, Bursts: bursts, Points: len(pts), Shape: Shape(pat),
-	}, nil
-}
-
-// featureCentre is the pattern's axis of mirror symmetry nearest nearDeg
-// (within 45°), degrees clockwise of boresight: the angle c that best
-// matches the gain at c + x with the gain at c − x, in linear power over
-// the whole pattern, at 0.01° resolution. It uses every entry, so it is
-// far steadier on a measured table than the midpoint of the −3 dB
-// crossings. An asymmetric pattern gets the axis that balances it best.
-func featureCentre(p bearing.Pattern, nearDeg float64) (float64, error) {
-	n := len(p.GainDB)
-	pw := make([]float64, n)
-	for k, g := range p.GainDB {
-		pw[k] = math.Pow(10, g/10)
-	}
-	at := func(x float64) float64 {
-		x = angle.Wrap360(x)
-		i := int(x)
-		f := x - float64(i)
-		return pw[i%n]*(1-f) + pw[(i+1)%n]*f
-	}
-	half := 180 / p.Symmetry
-	cost := func(c float64) float64 {
-		var j float64
-		for k := 1; k < half; k++ {
-			d := at(c+float64(k)) - at(c-float64(k))
-			j += d * d
-		}
-		return j
-	}
-	best, bestJ := nearDeg, math.Inf(1)
-	for c := nearDeg - 45; c <= nearDeg+45; c += 0.25 {
-		if j := cost(c); j < bestJ {
-			best, bestJ = c, j
-		}
-	}
-	lo := best
-	for c := lo - 0.25; c <= lo+0.25; c += 0.01 {
-		if j := cost(c); j < bestJ {
-			best, bestJ = c, j
-		}
-	}
-	if math.IsNaN(bestJ) || math.Abs(best-nearDeg) >= 45 {
-		return 0, fmt.Errorf("the measured pattern has no axis of symmetry within 45° of its nominal %s", p.Mode)
-	}
-	return best, nil
-}
-
-// splitHalfCentreSigma estimates the noise of the measured pattern's
-// centre: the patterns of the even and of the odd readings are measured
-// apart and their centres c₁, c₂ compared. Each half has twice the full
-// set's variance, so var(c₁ − c₂) = 4σ² and σ ≈ |c₁ − c₂|/2 (one draw: a
-// rough, order-of-magnitude figure). 0 when a half cannot be measured.
-func splitHalfCentreSigma(pts []bearing.Point, known, off, f0 float64, nominal bearing.Pattern, floorDB *float64) float64 {
-	var c [2]float64
-	for h := 0; h < 2; h++ {
-		var rel, lvl []float64
-		for i := h; i < len(pts); i += 2 {
-			if pts[i].Clipped {
-				continue
-			}
-			rel = append(rel, known-off-pts[i].HeadingDeg)
-			lvl = append(lvl, pts[i].LevelDB)
-		}
-		p, err := bearing.Measured("half", rel, lvl, bearing.MeasureOptions{Symmetry: nominal.Symmetry, Mode: nominal.Mode, SmoothDeg: 3, NoiseFloorDB: floorDB})
-		if err != nil {
-			return 0
-		}
-		if c[h], err = featureCentre(p, f0); err != nil {
-			return 0
-		}
-	}
-	return math.Abs(angle.Wrap180(c[0]-c[1])) / 2
-}
-
-// rotatePattern returns p turned so that what was at byDeg clockwise of
-// boresight is at boresight: gain'(x) = gain(x + byDeg), interpolated with
-// a periodic Catmull–Rom spline in linear power and renormalised to 0 dB.
-func rotatePattern(p bearing.Pattern, byDeg float64) (bearing.Pattern, error) {
-	n := len(p.GainDB)
-	pw := make([]float64, n)
-	for k, g := range p.GainDB {
-		pw[k] = math.Pow(10, g/10)
-	}
-	out := make([]float64, n)
-	mx := 0.0
-	for k := range out {
-		x := angle.Wrap360(float64(k) + byDeg)
-		i := int(x)
-		t := x - float64(i)
-		p0, p1, p2, p3 := pw[(i+n-1)%n], pw[i%n], pw[(i+1)%n], pw[(i+2)%n]
-		v := p1 + 0.5*t*(p2-p0+t*(2*p0-5*p1+4*p2-p3+t*(3*(p1-p2)+p3-p0)))
-		v = math.Max(v, math.Min(p1, p2)*0.5) // no overshoot below zero near a deep null
-		out[k] = v
-		mx = math.Max(mx, v)
-	}
-	q := p
-	q.GainDB = make([]float64, n)
-	for k, v := range out {
-		q.GainDB[k] = math.Max(10*math.Log10(v/mx), bearing.MinGainDB)
-	}
-	if err := q.Validate(); err != nil {
-		return bearing.Pattern{}, fmt.Errorf("rotate pattern: %w", err)
-	}
-	return q, nil
+	return &Calibration{Calibration: *cal, Ident: key, Bursts: bursts}, nil
 }
 
 // chooseTransmitter picks the transmitter key named by want, or the only
@@ -321,4 +120,52 @@ func chooseTransmitter(res *Result, want string) (string, error) {
 		}
 	}
 	return "", fmt.Errorf("calibrate: transmitter %q not heard; heard: %s", want, list())
+}
+
+// CalibrationLine is the `"type":"calibration"` JSON line of calibrate. A
+// value that is not finite is written as null and named in a warning.
+type CalibrationLine struct {
+	Type                string   `json:"type"`
+	Ident               string   `json:"ident"`
+	KnownBearingDeg     *float64 `json:"known_bearing_deg"`
+	KnownBearingSource  string   `json:"known_bearing_source"`
+	SeenBearingDeg      *float64 `json:"seen_bearing_deg"`
+	SeenSigmaDeg        *float64 `json:"seen_sigma_deg"`
+	NorthOffsetDeg      *float64 `json:"north_offset_deg"`
+	NorthOffsetSigmaDeg *float64 `json:"north_offset_sigma_deg"`
+	GivenMountOffsetDeg *float64 `json:"given_mount_offset_deg"`
+	MountOffsetDeg      *float64 `json:"mount_offset_deg"`
+	HeadingRef          string   `json:"heading_ref"`
+	BurstsUsed          int      `json:"bursts_used"`
+	PointsUsed          int      `json:"points_used"`
+	CoverageDeg         *float64 `json:"coverage_deg"`
+	Mode                string   `json:"mode"`
+	WidthDeg            *float64 `json:"width_deg"`
+	NullDepthDB         *float64 `json:"null_depth_db"`
+	FrontBackDB         *float64 `json:"front_back_db,omitempty"`
+	PatternFile         string   `json:"pattern_file"`
+	NominalFitWarnings  []string `json:"nominal_fit_warnings,omitempty"`
+	Warnings            []string `json:"warnings,omitempty"`
+}
+
+// Line is the calibration's JSON line: total is the mount offset saved
+// with the pattern (given plus the north offset), how says where the known
+// bearing came from, path where the pattern was saved.
+func (c *Calibration) Line(total, given float64, how, path string) CalibrationLine {
+	var j jsonNums
+	l := CalibrationLine{Type: "calibration", Ident: c.Ident, KnownBearingDeg: j.num("known_bearing_deg", c.KnownBearingDeg, 4),
+		KnownBearingSource: how, SeenBearingDeg: j.num("seen_bearing_deg", c.Alignment.BearingDeg, 3),
+		SeenSigmaDeg: j.num("seen_sigma_deg", c.Alignment.SigmaDeg, 3), NorthOffsetDeg: j.num("north_offset_deg", c.NorthOffsetDeg, 3),
+		NorthOffsetSigmaDeg: j.num("north_offset_sigma_deg", c.SigmaDeg, 3), GivenMountOffsetDeg: j.num("given_mount_offset_deg", given, 3),
+		MountOffsetDeg: j.num("mount_offset_deg", total, 3), HeadingRef: c.Pattern.HeadingRef, BurstsUsed: c.Bursts, PointsUsed: c.Points,
+		CoverageDeg: j.num("coverage_deg", c.Alignment.CoverageDeg, 1), Mode: c.Pattern.Mode.String(),
+		WidthDeg: j.num("width_deg", c.Shape.WidthDeg, 2), NullDepthDB: j.num("null_depth_db", c.Shape.NullDepthDB, 2),
+		PatternFile: path, NominalFitWarnings: c.Alignment.Warnings}
+	if c.Pattern.Mode == bearing.Peak {
+		l.FrontBackDB = j.num("front_back_db", c.Shape.FrontBackDB, 2)
+	}
+	if w := j.warning(); w != "" {
+		l.Warnings = append(l.Warnings, w)
+	}
+	return l
 }

@@ -27,6 +27,11 @@ type Options struct {
 	Ident ident.Options
 	// NoIdent skips Morse decoding (levels and timing only).
 	NoIdent bool
+	// Bearing, when set, fits each transmission's bearing while the scan
+	// goes on, window by window from its pieces (bearing.Windowed), so
+	// that a transmission of any length gets a bearing with bounded
+	// memory; the fits land in Record.Fit.
+	Bearing *BearingPlan
 }
 
 // Record is one burst with what identification found. Its JSON form, a
@@ -56,6 +61,9 @@ type Record struct {
 	// transmitters on the air together that their fingerprints could not
 	// tell apart. Such a burst names neither's edges.
 	AlsoHeard []string
+	// Fit is the burst's bearing fitted during the scan (Options.Bearing);
+	// nil without a plan.
+	Fit *BurstFit
 }
 
 // Result is a finished survey.
@@ -92,8 +100,20 @@ func Run(ctx context.Context, src sdr.Source, opts Options, progress func(int64)
 	// when its closing burst arrives.
 	var tr *ident.Transmission
 	h := receiver.Handler{Progress: progress}
-	if !opts.NoIdent {
+	var fit *bearingScan
+	if opts.Bearing != nil {
+		if fit, err = newBearingScan(*opts.Bearing); err != nil {
+			return nil, err
+		}
+	}
+	if !opts.NoIdent || fit != nil {
 		h.Piece = func(p *receiver.Piece) error {
+			if fit != nil {
+				fit.piece(p)
+			}
+			if opts.NoIdent {
+				return nil
+			}
 			if tr == nil {
 				tr = idf.Begin()
 			}
@@ -104,6 +124,9 @@ func Run(ctx context.Context, src sdr.Source, opts Options, progress func(int64)
 		r := Record{Burst: *b, Ident: idmatch.Unknown}
 		// The audio has done its job; keep the record small.
 		r.FMAudio, r.AMAudio = nil, nil
+		if fit != nil {
+			r.Fit = fit.finish(b)
+		}
 		var parts []ident.Part
 		if tr != nil {
 			var whole ident.Burst

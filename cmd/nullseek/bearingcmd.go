@@ -6,15 +6,12 @@ import (
 	"io"
 	"nullseek/internal/atomicfile"
 	"os"
-	"path/filepath"
 	"strings"
 	"time"
 
 	"github.com/spf13/cobra"
 
-	"nullseek/bearing"
 	"nullseek/geo"
-	"nullseek/polarplot"
 	"nullseek/survey"
 )
 
@@ -25,6 +22,7 @@ func init() {
 	var lf liveFlags
 	var asJSON bool
 	var plot, lopCSV string
+	var plotBursts bool
 	cmd := &cobra.Command{
 		Use:   "bearing RECORDING",
 		Short: "Fit signal level against antenna heading into a bearing per burst and per transmitter",
@@ -37,24 +35,34 @@ rather than invents a bearing when the sweep cannot support one.`,
 		Args: cobra.ExactArgs(1),
 		RunE: lf.run(func(cmd *cobra.Command, rec recording) error {
 			notes := func(s string) { fmt.Fprintln(os.Stderr, s) }
+			bo, err := hf.options()
+			if err != nil {
+				return err
+			}
 			pat, err := hf.pattern()
 			if err != nil {
 				return err
 			}
-			fo := bearing.FitOptions{}
-			res, tr, err := hf.surveyWithTrack(cmd.Context(), rec, &in, &idf, pat, fo, notes)
+			if plot != "" {
+				if err := survey.CheckPlotPath(plot); err != nil {
+					return err
+				}
+			}
+			res, tr, err := hf.surveyWithTrack(cmd.Context(), rec, &in, &idf, pat, bo.Fit, true, notes)
 			if err != nil {
 				return err
 			}
 			if len(res.Records) == 0 {
 				return fmt.Errorf("%s: no bursts found, so no bearing", rec.path)
 			}
-			bbs, txs := survey.Bearings(res, tr, pat, fo, hf.siteSigma)
+			bbs, txs := survey.Bearings(res, tr, pat, bo.Fit, bo.SiteSigmaDeg)
 			if err := noBearing(rec.path, bbs, txs); err != nil {
 				return err
 			}
+			mount, _ := hf.mountOffset(pat) // checked by hf.pattern
+			ref := survey.ReferenceNote(pat, tr.Ref, mount)
 			if plot != "" {
-				if err := writeBearingPlots(plot, bbs, txs, pat); err != nil {
+				if err := survey.WritePolarPlots(plot, bbs, txs, pat, ref, plotBursts); err != nil {
 					return err
 				}
 			}
@@ -77,7 +85,7 @@ rather than invents a bearing when the sweep cannot support one.`,
 				}
 				return nil
 			}
-			return survey.WriteBearingTable(os.Stdout, bbs, txs)
+			return survey.WriteBearingTable(os.Stdout, bbs, txs, ref)
 		}),
 	}
 	in.add(cmd)
@@ -85,7 +93,8 @@ rather than invents a bearing when the sweep cannot support one.`,
 	hf.add(cmd)
 	_ = cmd.Flags().Set("merge-gap", "1.5") // a turning antenna's nulls must not split a burst
 	cmd.Flags().BoolVar(&asJSON, "json", false, "one JSON object per burst and per transmitter")
-	cmd.Flags().StringVar(&plot, "plot", "", "write a polar plot per transmitter: PREFIX.png or PREFIX.svg becomes PREFIX-IDENT.png")
+	cmd.Flags().StringVar(&plot, "plot", "", "write a polar plot per transmitter, from its combined bearing: PREFIX.png or PREFIX.svg becomes PREFIX-IDENT.png")
+	cmd.Flags().BoolVar(&plotBursts, "plot-bursts", false, "with --plot, also one polar plot per burst (PREFIX-IDENT-burst-N.png)")
 	cmd.Flags().StringVar(&lopCSV, "bearings-csv", "", "write the transmitters' bearings as a CSV that `nullseek fix` reads (needs --station)")
 	lf.add(cmd, &in, &idf, &hf) // live receiver, rotator or compass: live.go
 	rootCmd.AddCommand(cmd)
@@ -113,27 +122,6 @@ func noBearing(path string, bbs []survey.BurstBearing, txs []survey.TxBearing) e
 		reasons = append(reasons[:3], fmt.Sprintf("and %d more", len(reasons)-3))
 	}
 	return fmt.Errorf("%s: no bearing from any of its %d bursts: %s", path, len(bbs), strings.Join(reasons, "; "))
-}
-
-// writeBearingPlots draws one polar plot per transmitter, from its first
-// used burst.
-func writeBearingPlots(prefix string, bbs []survey.BurstBearing, txs []survey.TxBearing, pat bearing.Pattern) error {
-	ext := strings.ToLower(filepath.Ext(prefix))
-	if ext != ".png" && ext != ".svg" {
-		return fmt.Errorf("--plot %q: end it in .png or .svg", prefix)
-	}
-	base := strings.TrimSuffix(prefix, filepath.Ext(prefix))
-	for _, t := range txs {
-		if t.Err != nil || len(t.Bursts) == 0 {
-			continue
-		}
-		b := bbs[t.Bursts[0]]
-		title := fmt.Sprintf("%s burst %d: %.1f° ± %.1f°", t.Ident, b.Index, b.Est.BearingDeg, b.Est.SigmaDeg)
-		if err := polarplot.Write(base+"-"+fileSafe(t.Ident)+ext, b.Points, b.Est, pat, title); err != nil {
-			return err
-		}
-	}
-	return nil
 }
 
 // writeLOPs writes the transmitters' bearings in the CSV form `fix` reads.

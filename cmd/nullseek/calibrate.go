@@ -42,13 +42,15 @@ symmetry (the middle of its main lobe or null) and saves it (--out
 pattern.json). The offset printed is how far the heading source's north is
 from that axis.
 
-Use the two together in later fits, with the same heading flags as here:
+The pattern file carries the total mount offset (the one printed, which
+includes any --mount-offset given here) and which direction of the antenna
+its heading names; use it in later fits with the same heading flags as
+here and no --mount-offset:
 
-  nullseek bearing REC --antenna pattern.json --mount-offset OFFSET ...
+  nullseek bearing REC --antenna pattern.json ...
 
-OFFSET is the total printed (it includes any --mount-offset given here):
-the antenna's boresight is the heading source's reading plus OFFSET, and
-the saved pattern is measured relative to that boresight.`,
+The antenna's reference direction is then the heading source's reading
+plus that offset, and the saved pattern is measured relative to it.`,
 		Args: cobra.ExactArgs(1),
 		RunE: lf.run(func(cmd *cobra.Command, rec recording) error {
 			out, errOut := cmd.OutOrStdout(), cmd.ErrOrStderr()
@@ -64,8 +66,12 @@ the saved pattern is measured relative to that boresight.`,
 			if err != nil {
 				return err
 			}
+			given, err := hf.mountOffset(nominal)
+			if err != nil {
+				return err
+			}
 			fo := bearing.FitOptions{}
-			res, tr, err := hf.surveyWithTrack(cmd.Context(), rec, &in, &idf, nominal, fo, notes)
+			res, tr, err := hf.surveyWithTrack(cmd.Context(), rec, &in, &idf, nominal, fo, false, notes)
 			if err != nil {
 				return err
 			}
@@ -78,15 +84,15 @@ the saved pattern is measured relative to that boresight.`,
 			if err != nil {
 				return err
 			}
-			total := angle.Wrap180(hf.mountOffset + cal.NorthOffsetDeg)
-			cal.Pattern.Name += fmt.Sprintf(", use with --mount-offset %.2f", total)
+			total := angle.Wrap180(given + cal.NorthOffsetDeg)
+			cal.Pattern.MountOffsetDeg, cal.Pattern.MountOffsetSet = total, true
 			if err := bearing.SavePattern(cf.out, cal.Pattern); err != nil {
 				return err
 			}
 			if cf.asJSON {
-				return json.NewEncoder(out).Encode(calibrationJSON(cal, total, hf.mountOffset, how, cf.out))
+				return json.NewEncoder(out).Encode(cal.Line(total, given, how, cf.out))
 			}
-			return writeCalibration(out, cal, nominal.Name, total, hf.mountOffset, how, cf.out)
+			return writeCalibration(out, cal, nominal.Name, total, given, how, cf.out)
 		}),
 	}
 	in.add(cmd)
@@ -176,27 +182,8 @@ func writeCalibration(w io.Writer, cal *survey.Calibration, nominal string, tota
 		fmt.Fprintf(ew, "nominal-pattern fit      %s\n", warn)
 	}
 	fmt.Fprintf(ew, "saved                    %s\n", path)
-	fmt.Fprintf(ew, "use it                   nullseek bearing REC --antenna %s --mount-offset %.2f (and the same heading flags as here)\n", path, total)
+	fmt.Fprintf(ew, "heading names            %s\n", cal.Pattern.HeadingRef)
+	fmt.Fprintf(ew, "use it                   nullseek bearing REC --antenna %s (it carries the mount offset %+.2f°; the same heading flags as here)\n", path, total)
 	_, err := io.WriteString(w, ew.String())
 	return err
-}
-
-func calibrationJSON(cal *survey.Calibration, total, given float64, how, path string) map[string]any {
-	r := func(v float64, n int) float64 { p := math.Pow(10, float64(n)); return math.Round(v*p) / p }
-	m := map[string]any{
-		"type": "calibration", "ident": cal.Ident, "known_bearing_deg": r(cal.KnownBearingDeg, 4),
-		"known_bearing_source": how, "seen_bearing_deg": r(cal.Alignment.BearingDeg, 3), "seen_sigma_deg": r(cal.Alignment.SigmaDeg, 3),
-		"north_offset_deg": r(cal.NorthOffsetDeg, 3), "north_offset_sigma_deg": r(cal.SigmaDeg, 3),
-		"given_mount_offset_deg": given, "mount_offset_deg": r(total, 3),
-		"bursts_used": cal.Bursts, "points_used": cal.Points, "coverage_deg": r(cal.Alignment.CoverageDeg, 1),
-		"mode": cal.Pattern.Mode.String(), "width_deg": r(cal.Shape.WidthDeg, 2),
-		"null_depth_db": r(cal.Shape.NullDepthDB, 2), "pattern_file": path,
-	}
-	if cal.Pattern.Mode == bearing.Peak {
-		m["front_back_db"] = r(cal.Shape.FrontBackDB, 2)
-	}
-	if len(cal.Alignment.Warnings) > 0 {
-		m["nominal_fit_warnings"] = cal.Alignment.Warnings
-	}
-	return m
 }

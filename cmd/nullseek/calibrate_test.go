@@ -18,7 +18,6 @@ import (
 	"nullseek/geo"
 	"nullseek/heading"
 	"nullseek/sim"
-	"nullseek/survey"
 )
 
 // calScene is an invented scene for the calibration round trip: one
@@ -134,7 +133,9 @@ func TestCalibrateRoundTrip(t *testing.T) {
 	pat2 := filepath.Join(dir, "pattern2.json")
 	rt := runNullseek(t, "", "calibrate", calRec, "--freq", "145.0125M", "--ids", "N0CALL/1,N0CALL/2",
 		"--ident", "N0CALL/1", "--known-bearing", fmt.Sprint(known), "--turn", sensor(15, 30), "--out", pat2)
-	if want := fmt.Sprintf("--antenna %s --mount-offset %.2f", pat2, off); rt.code != 0 || !strings.Contains(rt.stdout, want) {
+	// The pattern file carries the mount offset: the advice needs no
+	// --mount-offset, and says what it carries.
+	if want := fmt.Sprintf("--antenna %s (it carries the mount offset %+.2f°", pat2, off); rt.code != 0 || !strings.Contains(rt.stdout, want) {
 		t.Errorf("calibrate table (exit %d) does not say %q:\n%s%s", rt.code, want, rt.stdout, rt.stderr)
 	}
 	t.Logf("calibrate output:\n%s", rt.stdout)
@@ -143,7 +144,7 @@ func TestCalibrateRoundTrip(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	want, got := survey.Shape(sc.real), survey.Shape(pat)
+	want, got := bearing.Shape(sc.real), bearing.Shape(pat)
 	if math.Abs(got.WidthDeg-want.WidthDeg) > 3 || math.Abs(got.FrontBackDB-want.FrontBackDB) > 1.5 {
 		t.Errorf("measured pattern: beamwidth %.1f° F/B %.1f dB; rendered with %.1f° and %.1f dB", got.WidthDeg, got.FrontBackDB, want.WidthDeg, want.FrontBackDB)
 	}
@@ -172,18 +173,31 @@ func TestCalibrateRoundTrip(t *testing.T) {
 	}
 	// The sigmas are the ones `bearing` reports: fit and the default 3°
 	// site error in quadrature.
-	b, s := fit("--antenna", patPath, "--mount-offset", fmt.Sprint(off))
+	// The file's own mount offset is used without --mount-offset; giving
+	// the same again changes nothing; a different one is refused.
+	b, s := fit("--antenna", patPath)
 	e := angle.Wrap180(b - truth)
 	t.Logf("calibrated fit: %.2f° ± %.2f°, truth %.2f°, error %+.2f°", b, s, truth, e)
 	if math.Abs(e) > s || math.Abs(e) > 1.5 {
 		t.Errorf("with the calibration: %.2f° ± %.2f°, truth %.2f° (error %+.2f°): want within 1σ and 1.5°", b, s, truth, e)
 	}
+	if b2, _ := fit("--antenna", patPath, "--mount-offset", fmt.Sprintf("%.3f", off)); math.Abs(angle.Wrap180(b2-b)) > 0.01 {
+		t.Errorf("repeating the file's mount offset moved the bearing from %.3f° to %.3f°", b, b2)
+	}
+	rr := runNullseek(t, "", "bearing", chk, "--freq", "145.0125M", "--ids", "N0CALL/3", "--turn", sensor(200, -30),
+		"--antenna", patPath, "--mount-offset", fmt.Sprintf("%.3f", off+5))
+	if rr.code == 0 || !strings.Contains(rr.stderr, "carries the mount offset") {
+		t.Errorf("a --mount-offset other than the file's: exit %d, stderr %q; want a refusal naming the file's offset", rr.code, rr.stderr)
+	}
 	// Without it the sensor's error shows (the check above can fail).
 	b0, s0 := fit("--antenna", "yagi")
 	e0 := angle.Wrap180(b0 - truth)
 	t.Logf("uncalibrated fit: %.2f° ± %.2f°, error %+.2f°", b0, s0, e0)
-	if math.Abs(e0) < s0 || e0 > -5 {
-		t.Errorf("without the calibration the error is %+.2f° ± %.2f°, want beyond 1σ and about %+.1f°", e0, s0, -sc.mountErr)
+	// The fit now says how badly the nominal pattern fits (its sigma
+	// covers the error), so the check is that the error is the sensor's
+	// and the sigma wider than the calibrated fit's.
+	if e0 > -5 || !(s0 > s) {
+		t.Errorf("without the calibration the error is %+.2f° ± %.2f°, want about %+.1f° and a sigma wider than the calibrated %.2f°", e0, s0, -sc.mountErr, s)
 	}
 }
 

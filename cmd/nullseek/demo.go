@@ -20,7 +20,6 @@ import (
 	"nullseek/heading"
 	"nullseek/internal/angle"
 	"nullseek/locate"
-	"nullseek/polarplot"
 	"nullseek/receiver"
 	"nullseek/sdr"
 	"nullseek/sim"
@@ -126,14 +125,11 @@ func runDemo(ctx context.Context, w io.Writer, outDir string, writeIQ bool) erro
 			lop := geo.LOP{Ident: tb.Ident, Station: st.Name, Lat: st.Lat, Lon: st.Lon,
 				BearingDeg: c.BearingDeg, SigmaDeg: tb.SigmaDeg, Time: sc.Start, Ambiguous: c.AltBearingDeg != nil}
 			lops = append(lops, lop)
-			if len(tb.Bursts) > 0 {
-				bb := bbs[tb.Bursts[0]]
-				name := filepath.Join(outDir, fmt.Sprintf("polar-%s-%s.png", st.Name, fileSafe(tb.Ident)))
-				title := fmt.Sprintf("%s at %s: %.1f° ± %.1f°", tb.Ident, st.Name, bb.Est.BearingDeg, bb.Est.SigmaDeg)
-				if err := polarplot.Write(name, bb.Points, bb.Est, st.Antenna, title); err != nil {
-					return err
-				}
-			}
+		}
+		// one polar plot per transmitter, from its combined bearing
+		note := survey.ReferenceNote(st.Antenna, heading.True, 0) + " (station " + st.Name + ")"
+		if err := survey.WritePolarPlots(filepath.Join(outDir, "polar-"+st.Name+".png"), bbs, txs, st.Antenna, note, false); err != nil {
+			return err
 		}
 		fmt.Fprintln(w)
 	}

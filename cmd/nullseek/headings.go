@@ -19,22 +19,21 @@ import (
 )
 
 // headingFlags select where the antenna's heading comes from and how the
-// antenna is modelled.
+// antenna is modelled (bo: the options survey owns, with their defaults).
 type headingFlags struct {
-	log, nmea, turn      string
-	ref                  string
-	declination          string
-	station              string
-	mountOffset, lag     float64
-	estimateLag          bool
-	antenna              string
-	beamwidth, frontBack float64
-	nullDepth, bodyDepth float64
-	siteSigma            float64
-	nmeaRate             float64
+	log, nmea, turn string
+	ref             string
+	declination     string
+	station         string
+	estimateLag     bool
+	bo              survey.BearingOptions
+	cmd             *cobra.Command
+	nmeaRate        float64
 }
 
 func (f *headingFlags) add(cmd *cobra.Command) {
+	f.cmd = cmd
+	d := survey.DefaultBearingOptions
 	fl := cmd.Flags()
 	fl.StringVar(&f.log, "headings", "", "heading log CSV: time (seconds from capture start, or RFC 3339), heading degrees")
 	fl.StringVar(&f.nmea, "nmea", "", "file of NMEA 0183 heading sentences (HDT, HDG, HDM), each line optionally led by its time")
@@ -43,31 +42,52 @@ func (f *headingFlags) add(cmd *cobra.Command) {
 	fl.StringVar(&f.ref, "heading-ref", "true", "the headings' north: true or magnetic")
 	fl.StringVar(&f.declination, "declination", "", "magnetic declination in degrees east (default: WMM2025 at --station and the recording's time)")
 	fl.StringVar(&f.station, "station", "", "station position LAT,LON in degrees (for WMM declination and for the bearings CSV)")
-	fl.Float64Var(&f.mountOffset, "mount-offset", 0, "antenna boresight minus sensor heading, degrees")
-	fl.Float64Var(&f.lag, "lag", 0, "heading timestamps lag the level by this many seconds")
+	fl.Float64Var(&f.bo.MountOffsetDeg, "mount-offset", d.MountOffsetDeg, "the antenna's reference direction (see --antenna) minus the heading source's reading, degrees; a pattern file from calibrate carries its own")
+	fl.Float64Var(&f.bo.LagS, "lag", d.LagS, "heading timestamps lag the level by this many seconds")
 	fl.BoolVar(&f.estimateLag, "estimate-lag", false, "estimate the heading/level lag from sweeps that turn both ways, and remove it")
-	fl.StringVar(&f.antenna, "antenna", "yagi", "antenna pattern: loop, yagi, body, or a pattern file from calibrate (.json)")
-	fl.Float64Var(&f.beamwidth, "beamwidth", 60, "Yagi -3 dB beamwidth, degrees")
-	fl.Float64Var(&f.frontBack, "front-back", 18, "Yagi front-to-back ratio, dB")
-	fl.Float64Var(&f.nullDepth, "null-depth", 25, "small-loop null depth, dB")
-	fl.Float64Var(&f.bodyDepth, "body-depth", 12, "body-shield drop, dB")
-	fl.Float64Var(&f.siteSigma, "site-sigma", 3, "site error added in quadrature to each bearing's sigma, degrees (multipath one site cannot see)")
+	fl.StringVar(&f.bo.Antenna.Kind, "antenna", d.Antenna.Kind, bearing.AntennaHelp())
+	fl.Float64Var(&f.bo.Antenna.BeamwidthDeg, "beamwidth", d.Antenna.BeamwidthDeg, "Yagi -3 dB beamwidth, degrees")
+	fl.Float64Var(&f.bo.Antenna.FrontBackDB, "front-back", d.Antenna.FrontBackDB, "Yagi front-to-back ratio, dB")
+	fl.Float64Var(&f.bo.Antenna.NullDepthDB, "null-depth", d.Antenna.NullDepthDB, "small-loop null depth, dB")
+	fl.Float64Var(&f.bo.Antenna.BodyDepthDB, "body-depth", d.Antenna.BodyDepthDB, "body-shield drop, dB")
+	fl.Float64Var(&f.bo.SiteSigmaDeg, "site-sigma", d.SiteSigmaDeg, "site error added in quadrature to each bearing's sigma, degrees (multipath one site cannot see)")
 }
 
-// pattern builds the antenna pattern.
+// options returns the validated bearing options.
+func (f *headingFlags) options() (survey.BearingOptions, error) {
+	o := f.bo
+	o.Fit = bearing.FitOptions{}
+	o.MountOffsetGiven = f.cmd != nil && f.cmd.Flags().Changed("mount-offset")
+	if err := o.Validate(); err != nil {
+		return o, err
+	}
+	return o, nil
+}
+
+// pattern builds the antenna pattern (after checking every bearing option).
 func (f *headingFlags) pattern() (bearing.Pattern, error) {
-	switch strings.ToLower(f.antenna) {
-	case "loop":
-		return bearing.SmallLoop(f.nullDepth)
-	case "yagi":
-		return bearing.Yagi(f.beamwidth, f.frontBack)
-	case "body":
-		return bearing.BodyShield(f.bodyDepth)
+	o, err := f.options()
+	if err != nil {
+		return bearing.Pattern{}, err
 	}
-	if strings.HasSuffix(strings.ToLower(f.antenna), ".json") {
-		return bearing.LoadPattern(f.antenna)
+	p, err := o.Antenna.Pattern()
+	if err != nil {
+		return bearing.Pattern{}, err
 	}
-	return bearing.Pattern{}, fmt.Errorf("--antenna %q: want loop, yagi, body or a pattern .json file", f.antenna)
+	if _, err := o.MountOffset(p); err != nil {
+		return bearing.Pattern{}, err
+	}
+	return p, nil
+}
+
+// mountOffset is the mount offset to use with pattern p (--mount-offset,
+// or the one a calibrated pattern file carries).
+func (f *headingFlags) mountOffset(p bearing.Pattern) (float64, error) {
+	o, err := f.options()
+	if err != nil {
+		return 0, err
+	}
+	return o.MountOffset(p)
 }
 
 // stationPos parses --station; ok is false when it was not given.
@@ -104,6 +124,14 @@ func headingRef(s string) (heading.Ref, error) {
 // warnings for the user.
 func (f *headingFlags) track(info sdr.Info, live *heading.Track, notes func(string)) (*heading.Track, error) {
 	ref, err := headingRef(f.ref)
+	if err != nil {
+		return nil, err
+	}
+	pat, err := f.pattern()
+	if err != nil {
+		return nil, err
+	}
+	mount, err := f.mountOffset(pat)
 	if err != nil {
 		return nil, err
 	}
@@ -167,7 +195,7 @@ func (f *headingFlags) track(info sdr.Info, live *heading.Track, notes func(stri
 		}
 		tr = tr.ToTrue(decl)
 	}
-	tr = tr.WithOffset(f.mountOffset).WithLag(f.lag)
+	tr = tr.WithOffset(mount).WithLag(f.bo.LagS)
 	return tr, nil
 }
 
@@ -205,7 +233,11 @@ func (f *headingFlags) declinationAt(t time.Time, notes func(string)) (float64, 
 // surveyWithTrack surveys the recording at path and joins it with the
 // heading source: the track on the recording's clock, with the lag
 // estimated and removed when --estimate-lag asks for it.
-func (f *headingFlags) surveyWithTrack(ctx context.Context, rec recording, in *inputFlags, idf *identFlags, pat bearing.Pattern, fo bearing.FitOptions, notes func(string)) (*survey.Result, *heading.Track, error) {
+//
+// With fitDuringScan (and no lag to estimate first) the bearings are fitted
+// while the scan goes on (survey.Options.Bearing), so that a transmission
+// of any length gets one with bounded memory.
+func (f *headingFlags) surveyWithTrack(ctx context.Context, rec recording, in *inputFlags, idf *identFlags, pat bearing.Pattern, fo bearing.FitOptions, fitDuringScan bool, notes func(string)) (*survey.Result, *heading.Track, error) {
 	// Read the heading source before the long scan, so a bad log costs
 	// no time; the recording's metadata gives the clock it needs.
 	path := rec.path
@@ -228,7 +260,11 @@ func (f *headingFlags) surveyWithTrack(ctx context.Context, rec recording, in *i
 			return nil, nil, fmt.Errorf("--estimate-lag: %w (give --lag instead)", err)
 		}
 	}
-	res, err := surveyRecording(ctx, path, in, idf, notes)
+	var plan *survey.BearingPlan
+	if fitDuringScan && !f.estimateLag {
+		plan = &survey.BearingPlan{Track: tr, Pattern: pat, Fit: fo, WindowS: f.bo.WindowS}
+	}
+	res, err := surveyRecordingPlan(ctx, path, in, idf, plan, notes)
 	if err != nil {
 		return nil, nil, err
 	}

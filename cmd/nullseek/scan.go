@@ -59,6 +59,12 @@ func (f *identFlags) options() (morse.Mode, []string, error) {
 // surveyRecording opens path, finds the channel when none was given, and
 // runs the survey, with a progress bar on a terminal.
 func surveyRecording(ctx context.Context, path string, in *inputFlags, idf *identFlags, note func(string)) (*survey.Result, error) {
+	return surveyRecordingPlan(ctx, path, in, idf, nil, note)
+}
+
+// surveyRecordingPlan is surveyRecording that also fits bearings during the
+// scan when plan is not nil (survey.Options.Bearing).
+func surveyRecordingPlan(ctx context.Context, path string, in *inputFlags, idf *identFlags, plan *survey.BearingPlan, note func(string)) (*survey.Result, error) {
 	cfg, haveChannel, err := in.config()
 	if err != nil {
 		return nil, err
@@ -81,7 +87,7 @@ func surveyRecording(ctx context.Context, path string, in *inputFlags, idf *iden
 	}
 	defer src.Close()
 	prog, done := progress(src.Info(), "scanning")
-	res, err := survey.Run(ctx, src, survey.Options{Receiver: cfg, Ident: ident.Options{Mode: mode, IDs: ids, MinConfidence: idf.minConf}, NoIdent: idf.noIdent}, prog)
+	res, err := survey.Run(ctx, src, survey.Options{Receiver: cfg, Ident: ident.Options{Mode: mode, IDs: ids, MinConfidence: idf.minConf}, NoIdent: idf.noIdent, Bearing: plan}, prog)
 	done()
 	return res, err
 }
