@@ -3,6 +3,7 @@ package heading
 import (
 	"context"
 	"errors"
+	"fmt"
 	"io"
 	"net"
 	"os"
@@ -74,6 +75,7 @@ func TestRotctldFrozen(t *testing.T) {
 		t.Fatal(err)
 	}
 	defer proc.Signal(syscall.SIGCONT)
+	waitStopped(t, proc.Pid)
 	_, _, err = rot.Position()
 	want := "rotctld at " + addr + " did not answer `p` (get_pos) within 0.5 s"
 	if err == nil || !strings.Contains(err.Error(), want) || strings.Contains(err.Error(), "i/o timeout") {
@@ -100,4 +102,24 @@ func TestRotctldFrozen(t *testing.T) {
 		t.Errorf("frozen sweep: %v", err)
 	}
 	t.Logf("frozen sweep: %v", err)
+}
+
+// waitStopped waits until the kernel reports process pid stopped (state
+// "T" in /proc/PID/stat, proc(5)): kill(2) returns before a running
+// process has actually stopped, and rotctld could otherwise still answer
+// the next request.
+func waitStopped(t *testing.T, pid int) {
+	t.Helper()
+	path := fmt.Sprintf("/proc/%d/stat", pid)
+	for deadline := time.Now().Add(2 * time.Second); time.Now().Before(deadline); time.Sleep(5 * time.Millisecond) {
+		b, err := os.ReadFile(path)
+		if err != nil {
+			t.Skipf("cannot read %s to see the process stop: %v", path, err)
+		}
+		// the state follows the parenthesised command name
+		if i := strings.LastIndexByte(string(b), ')'); i >= 0 && i+2 < len(b) && (b[i+2] == 'T' || b[i+2] == 't') {
+			return
+		}
+	}
+	t.Fatalf("rotctld (pid %d) did not stop within 2 s of SIGSTOP", pid)
 }

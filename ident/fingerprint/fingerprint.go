@@ -80,8 +80,8 @@ type Options struct {
 	// edge burst (cut by the recording, split from an overlap, or carrying
 	// two carriers), whose fingerprint is measured on less or on a mix
 	// (default 3); LevelTolDB is the level distance (dB) counted as one
-	// tolerance for it (default 10: one transmitter's level, heard on one
-	// antenna, changes little from turn to turn).
+	// tolerance when several transmitters fit it by offset and tone
+	// (default 10; the level only breaks such ties, see attachEdges).
 	EdgeFactor, LevelTolDB float64
 }
 
@@ -116,12 +116,17 @@ func (o Options) withDefaults() Options {
 func edgeBurst(o Observation) bool { return o.CutStart || o.CutEnd || o.DoubleCarrier }
 
 // attachEdges places the edge bursts (comp −2): with the cluster whose
-// member is nearest by offset, tone (tolerances widened EdgeFactor times)
-// and level (LevelTolDB), within one widened tolerance; else with the
-// cluster whose members read the same identifier confidently; else, when
-// it reads an identifier of its own, as a cluster of its own (a
-// transmitter heard only cut); else nowhere (−1). A burst with two
-// carriers never makes a cluster of its own.
+// members fit it by offset and tone (tolerances widened EdgeFactor times,
+// normalised distance ≤ 1); when members of several clusters fit, with the
+// one nearest once the level is counted too (LevelTolDB a unit). The level
+// only breaks ties: a burst cut short by the recording is measured over
+// part of an antenna's turn, so its level can differ from its
+// transmitter's by far more than LevelTolDB (a 4 s piece of a Yagi's turn
+// reads 15 dB under the turn's mean) while its offset and tone are its
+// transmitter's. Else it joins the cluster whose members read the same
+// identifier confidently; else, when it reads an identifier of its own, a
+// cluster of its own (a transmitter heard only cut); else nowhere (−1). A
+// burst with two carriers never makes a cluster of its own.
 func attachEdges(obs []Observation, comp []int, offTol, toneTol float64, opts Options) {
 	for i, o := range obs {
 		if comp[i] != -2 {
@@ -136,14 +141,16 @@ func attachEdges(obs []Observation, comp []int, offTol, toneTol float64, opts Op
 			if (o.ToneHz == 0) != (m.ToneHz == 0) {
 				continue
 			}
-			d := math.Sqrt(sq((o.OffsetHz-m.OffsetHz)/(opts.EdgeFactor*offTol)) + sq((o.ToneHz-m.ToneHz)/(opts.EdgeFactor*toneTol)) +
-				sq((o.LevelDB-m.LevelDB)/opts.LevelTolDB))
-			if d < bestD {
+			ft := sq((o.OffsetHz-m.OffsetHz)/(opts.EdgeFactor*offTol)) + sq((o.ToneHz-m.ToneHz)/(opts.EdgeFactor*toneTol))
+			if ft > 1 {
+				continue
+			}
+			if d := math.Sqrt(ft + sq((o.LevelDB-m.LevelDB)/opts.LevelTolDB)); d < bestD {
 				best, bestD = c, d
 			}
 		}
 		switch {
-		case best >= 0 && bestD <= 1:
+		case best >= 0:
 			comp[i] = best
 		case idmatch.Known(o.Ident):
 			comp[i] = -1
