@@ -79,7 +79,7 @@ type Matcher struct {
 	MinConfidence float64
 
 	planOnce  sync.Once
-	templates templatePlan // templates, built on first use
+	templates *templatePlan // templates, built on first use
 }
 
 // ErrBadList is wrapped by errors about the identifier list.

@@ -6,6 +6,7 @@ import (
 	"nullseek/ident/morse"
 	"sort"
 	"strings"
+	"sync"
 )
 
 // The template method: each listed identifier's ideal keying, repeated as a
@@ -48,6 +49,13 @@ const (
 	fineStep   = 1.005
 	// refinePeaks is how many coarse speeds per ID are refined.
 	refinePeaks = 3
+	// screenFull: a list longer than this is screened on a speed grid of
+	// screenStep first, and only its screenFull best IDs searched fully.
+	screenFull = 20
+	screenStep = 1.1
+	// variantTop is how many of the best-fitting listed IDs have their
+	// unlisted variants scored.
+	variantTop = 3
 	// wordGapU is the gap between copies in dot units (a word gap).
 	wordGapU = 7.0
 
@@ -100,40 +108,76 @@ func templateFromCodes(codes []string) template {
 // drawn from.
 const variantAlphabet = "ABCDEFGHIJKLMNOPQRSTUVWXYZ0123456789/"
 
-// templatePlan holds the templates of a matcher's IDs and of the unlisted
-// family (every ID with one character replaced, minus the listed ones).
+// templatePlan holds the templates of a matcher's IDs and what is needed
+// for their unlisted family (every ID with one character replaced, minus
+// the listed ones). The family of a thousand IDs has some 300,000
+// members: they are built only for the IDs that fit a burst best
+// (variantsOf, cached for the last few).
 type templatePlan struct {
-	ids      []template
-	variants []template
+	ids    []template
+	codes  [][]string
+	listed map[string]bool
+	// familySize is the unlisted family's size: Σ over IDs of its
+	// characters times the alphabet less one (members two IDs share, or
+	// that are listed, counted as they come; an approximation that only
+	// sets the family's prior share).
+	familySize int
+	mu         sync.Mutex
+	cache      map[int][]variant
 }
 
-func newTemplatePlan(tokens [][]string) templatePlan {
-	var p templatePlan
-	listed := map[string]bool{}
-	codes := make([][]string, len(tokens))
+// variant is one unlisted family member: its code key (the characters'
+// Morse codes joined by spaces) and its template.
+type variant struct {
+	key string
+	t   template
+}
+
+// variantCacheIDs bounds the variants kept built (per ID).
+const variantCacheIDs = 32
+
+func newTemplatePlan(tokens [][]string) *templatePlan {
+	p := &templatePlan{listed: map[string]bool{}, cache: map[int][]variant{}}
+	p.codes = make([][]string, len(tokens))
 	for i, toks := range tokens {
 		for _, t := range toks {
-			codes[i] = append(codes[i], code(t))
+			p.codes[i] = append(p.codes[i], code(t))
 		}
-		listed[strings.Join(codes[i], " ")] = true
-		p.ids = append(p.ids, templateFromCodes(codes[i]))
-	}
-	seen := map[string]bool{}
-	for _, cs := range codes {
-		for pos := range cs {
-			for _, r := range variantAlphabet {
-				alt := append([]string(nil), cs...)
-				alt[pos] = code(string(r))
-				key := strings.Join(alt, " ")
-				if listed[key] || seen[key] {
-					continue
-				}
-				seen[key] = true
-				p.variants = append(p.variants, templateFromCodes(alt))
-			}
-		}
+		p.listed[strings.Join(p.codes[i], " ")] = true
+		p.ids = append(p.ids, templateFromCodes(p.codes[i]))
+		p.familySize += len(p.codes[i]) * (len(variantAlphabet) - 1)
 	}
 	return p
+}
+
+// variantsOf returns the unlisted variants of ID i (one character
+// replaced from variantAlphabet, not a listed ID).
+func (p *templatePlan) variantsOf(i int) []variant {
+	p.mu.Lock()
+	defer p.mu.Unlock()
+	if v, ok := p.cache[i]; ok {
+		return v
+	}
+	if len(p.cache) >= variantCacheIDs {
+		clear(p.cache)
+	}
+	cs := p.codes[i]
+	var out []variant
+	seen := map[string]bool{}
+	for pos := range cs {
+		for _, r := range variantAlphabet {
+			alt := append([]string(nil), cs...)
+			alt[pos] = code(string(r))
+			key := strings.Join(alt, " ")
+			if p.listed[key] || seen[key] {
+				continue
+			}
+			seen[key] = true
+			out = append(out, variant{key, templateFromCodes(alt)})
+		}
+	}
+	p.cache[i] = out
+	return out
 }
 
 // placement is one scored placement of a template.
@@ -504,6 +548,7 @@ type templateEvidence struct {
 	ll     []float64 // log-likelihood ratio of each listed ID vs. all key up
 	best   []placement
 	vll    []float64 // log-likelihood ratio of each unlisted variant
+	vRest  int       // family members not scored (counted at 0)
 	xll    []float64 // … of each extra unlisted candidate (decoded words)
 	post   []float64 // posterior of each listed ID
 	pOther float64   // posterior of "an unlisted ID"
@@ -525,9 +570,44 @@ func (p *templatePlan) run(s *envSearch, extra []template) (templateEvidence, bo
 	for u := uLo; u <= uHi*1.0001; u *= coarseStep {
 		units = append(units, u)
 	}
+	// A long list is screened first on a sparse speed grid: only the
+	// screenFull best templates (and every extra candidate) get the coarse
+	// grid and the refinement; the others keep their screening fit,
+	// rescored at the final threshold.
+	full := make([]bool, len(all))
+	var screen []placement
+	if len(p.ids) > screenFull {
+		screen = make([]placement, len(all))
+		for i, t := range all {
+			screen[i] = placement{score: math.Inf(-1)}
+			for u := uLo; u <= uHi*1.0001; u *= screenStep {
+				if c := s.scan(t, u, max(1, int(u/3))); c.score > screen[i].score {
+					screen[i] = c
+				}
+			}
+		}
+		order := make([]int, K)
+		for i := range order {
+			order[i] = i
+		}
+		sort.SliceStable(order, func(a, b int) bool { return screen[order[a]].score > screen[order[b]].score })
+		for _, i := range order[:screenFull] {
+			full[i] = true
+		}
+		for i := K; i < len(all); i++ {
+			full[i] = true
+		}
+	} else {
+		for i := range full {
+			full[i] = true
+		}
+	}
 	coarse := make([][]placement, len(all))
 	gBest, gi := math.Inf(-1), -1
 	for i, t := range all {
+		if !full[i] {
+			continue
+		}
 		coarse[i] = make([]placement, len(units))
 		for k, u := range units {
 			coarse[i][k] = s.scan(t, u, max(1, int(u/3)))
@@ -550,6 +630,14 @@ func (p *templatePlan) run(s *envSearch, extra []template) (templateEvidence, bo
 	bi := 0
 	for i, t := range all {
 		b := placement{score: math.Inf(-1)}
+		if !full[i] {
+			b = s.scan(t, screen[i].unit, 1)
+			best[i] = b
+			if i < K && b.score > best[bi].score {
+				bi = i
+			}
+			continue
+		}
 		for _, k := range topPeaks(coarse[i], refinePeaks) {
 			for f := -3; f <= 3; f++ {
 				u := units[k] * math.Pow(fineStep, float64(f))
@@ -583,29 +671,51 @@ func (p *templatePlan) run(s *envSearch, extra []template) (templateEvidence, bo
 	r.wpm = 1.2 * s.rate / r.best[bi].unit
 	r.snrDB = 10 * math.Log10(lv.signal*lv.signal/lv.sigma2)
 	// Unlisted family, aligned with the best listed fit: same speed, the
-	// same copy start ±1 sample.
+	// same copy start ± a dot. A short list (screenFull IDs or fewer)
+	// scores its whole family. A long one scores only the variants of the
+	// variantTop best listed IDs, and the rest of the family counts at the
+	// floor (log-likelihood ratio 0): scored at the best fit's alignment,
+	// a variant of a poorly fitting ID scores about that anyway.
+	top := make([]int, K)
+	for i := range top {
+		top[i] = i
+	}
+	sort.SliceStable(top, func(a, b int) bool { return r.ll[top[a]] > r.ll[top[b]] })
+	if K > screenFull {
+		top = top[:min(variantTop, K)]
+	}
 	var vll []float64
-	for _, t := range p.variants {
-		v := s.variantScore(t, r.best[bi].unit, r.best[bi].origin)
-		vll = append(vll, scale*math.Max(0, v))
+	seen := map[string]bool{} // a member two IDs share is scored once
+	for _, i := range top {
+		for _, vt := range p.variantsOf(i) {
+			if seen[vt.key] {
+				continue
+			}
+			seen[vt.key] = true
+			v := s.variantScore(vt.t, r.best[bi].unit, r.best[bi].origin)
+			vll = append(vll, scale*math.Max(0, v))
+		}
 	}
 	r.vll = vll
-	r.post, r.pOther, r.pNone = templatePosterior(r.ll, vll, r.xll, temperature, noneLL, otherPrior)
+	if K > screenFull {
+		r.vRest = max(0, p.familySize-len(vll))
+	}
+	r.post, r.pOther, r.pNone = templatePosterior(r.ll, vll, r.vRest, r.xll, temperature, noneLL, otherPrior)
 	return r, true
 }
 
 // templatePosterior turns log-likelihood ratios into posteriors at temperature
-// temp: the listed IDs (ll, prior 1 each), the unlisted family (vll, prior
-// otherPrior shared evenly; xll, prior 1 each) and "none" (log-likelihood
-// noneLL, prior 1).
-func templatePosterior(ll, vll, xll []float64, temp, noneLL, otherPrior float64) (post []float64, pOther, pNone float64) {
+// temp: the listed IDs (ll, prior 1 each), the unlisted family (vll, plus
+// vRest members at log-likelihood ratio 0, prior otherPrior shared evenly;
+// xll, prior 1 each) and "none" (log-likelihood noneLL, prior 1).
+func templatePosterior(ll, vll []float64, vRest int, xll []float64, temp, noneLL, otherPrior float64) (post []float64, pOther, pNone float64) {
 	z := make([]float64, 0, len(ll)+2+len(xll))
 	for _, v := range ll {
 		z = append(z, v/temp)
 	}
 	z = append(z, noneLL/temp)
-	if len(vll) > 0 {
-		z = append(z, logMeanExp(vll, 1/temp)/temp+math.Log(otherPrior))
+	if len(vll)+vRest > 0 {
+		z = append(z, logMeanExpRest(vll, vRest, 1/temp)/temp+math.Log(otherPrior))
 	}
 	for _, v := range xll {
 		z = append(z, v/temp)
@@ -617,6 +727,22 @@ func templatePosterior(ll, vll, xll []float64, temp, noneLL, otherPrior float64)
 		pOther += v
 	}
 	return post, pOther, pNone
+}
+
+// logMeanExpRest is logMeanExp over x and rest more values 0.
+func logMeanExpRest(x []float64, rest int, k float64) float64 {
+	if rest == 0 {
+		return logMeanExp(x, k)
+	}
+	mx := 0.0
+	for _, v := range x {
+		mx = math.Max(mx, k*v)
+	}
+	s := float64(rest) * math.Exp(-mx)
+	for _, v := range x {
+		s += math.Exp(k*v - mx)
+	}
+	return (mx + math.Log(s/float64(len(x)+rest))) / k
 }
 
 // logMeanExp returns log(mean(exp(k·x))) / k, computed stably.
@@ -656,7 +782,7 @@ func topPeaks(c []placement, n int) []int {
 // plan returns the matcher's templates, building them on first use.
 func (m *Matcher) plan() *templatePlan {
 	m.planOnce.Do(func() { m.templates = newTemplatePlan(m.tokens) })
-	return &m.templates
+	return m.templates
 }
 
 // MatchEnvelope names the burst whose key-down power envelope (linear,

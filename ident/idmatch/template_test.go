@@ -2,6 +2,7 @@ package idmatch
 
 import (
 	"bytes"
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"nullseek/ident/internal/identtest"
@@ -147,7 +148,7 @@ func TestTemplateFit(t *testing.T) {
 		if x.ll == nil {
 			continue
 		}
-		post, po, pn := templatePosterior(x.ll, x.vll, nil, temperature, noneLL, otherPrior)
+		post, po, pn := templatePosterior(x.ll, x.vll, 0, nil, temperature, noneLL, otherPrior)
 		p := po + pn
 		for i, id := range fiveIDs {
 			if id == x.truth {
@@ -182,7 +183,7 @@ func tplFitCalibration(tr []tplTrial, ids []string) (temp, none, other, score fl
 					if x.ll == nil {
 						continue
 					}
-					post, po, pn := templatePosterior(x.ll, x.vll, nil, T, none0, w)
+					post, po, pn := templatePosterior(x.ll, x.vll, 0, nil, T, none0, w)
 					p := po + pn
 					for i, id := range ids {
 						if id == x.truth {
@@ -477,4 +478,33 @@ func BenchmarkMatchEnvelope(b *testing.B) {
 		}
 	}
 	b.ReportMetric(float64(len(env))/er, "s/burst")
+}
+
+// BenchmarkMatchListSize times MatchTone (free decoding, text method and,
+// the text being garbled, the template method) on one 0 dB burst
+// (N0CALL/5 at 22 WPM) against lists of 5, 100 and MaxIDs identifiers
+// (the project's bound; 10,000 IDs took 437 s before it). It reports
+// seconds per burst.
+func BenchmarkMatchListSize(b *testing.B) {
+	fs := loadTplFixtures(b)
+	f := fs[4]
+	a := noisyBurst(f, 0, 0.06, rand.New(rand.NewPCG(1, 2)))
+	for _, n := range []int{5, 100, MaxIDs} {
+		ids := append([]string(nil), fiveIDs...)
+		for i := 0; len(ids) < n; i++ {
+			ids = append(ids, fmt.Sprintf("N%dCALL/%d", 1+i%9, 10+i))
+		}
+		m, err := New(ids)
+		if err != nil {
+			b.Fatal(err)
+		}
+		b.Run(fmt.Sprintf("ids=%d", n), func(b *testing.B) {
+			for i := 0; i < b.N; i++ {
+				if _, mt, err := m.MatchTone(a, f.rate, morse.DecodeOptions{}); err != nil || mt.ID == "N0CALL/1" {
+					b.Fatalf("%+v %v", mt, err)
+				}
+			}
+			b.ReportMetric(b.Elapsed().Seconds()/float64(b.N), "s/burst")
+		})
+	}
 }
