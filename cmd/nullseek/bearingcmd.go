@@ -95,7 +95,7 @@ rather than invents a bearing when the sweep cannot support one.`,
 	cmd.Flags().BoolVar(&asJSON, "json", false, "one JSON object per burst and per transmitter")
 	cmd.Flags().StringVar(&plot, "plot", "", "write a polar plot per transmitter, from its combined bearing: PREFIX.png or PREFIX.svg becomes PREFIX-IDENT.png")
 	cmd.Flags().BoolVar(&plotBursts, "plot-bursts", false, "with --plot, also one polar plot per burst (PREFIX-IDENT-burst-N.png)")
-	cmd.Flags().StringVar(&lopCSV, "bearings-csv", "", "write the transmitters' bearings as a CSV that `nullseek fix` reads (needs --station)")
+	cmd.Flags().StringVar(&lopCSV, "bearings-csv", "", "write the transmitters' bearings as a CSV FILE that nullseek fix reads (needs --station)")
 	lf.add(cmd, &in, &idf, &hf) // live receiver, rotator or compass: live.go
 	rootCmd.AddCommand(cmd)
 }
