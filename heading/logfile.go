@@ -11,9 +11,6 @@ import (
 	"time"
 )
 
-// maxLineBytes bounds one line of a heading log or NMEA file.
-const maxLineBytes = 4096
-
 // ReadLog reads a heading log in CSV: one "time,heading_deg" row per line.
 //
 //   - An optional header row whose first field starts with "time" or

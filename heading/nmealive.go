@@ -1,7 +1,6 @@
 package heading
 
 import (
-	"bufio"
 	"context"
 	"errors"
 	"fmt"
@@ -40,7 +39,7 @@ type NMEAStream struct {
 	Logger *slog.Logger
 
 	name  string
-	next  func(ctx context.Context, idle time.Duration) (lines []string, at time.Time, err error)
+	next  func(ctx context.Context, idle time.Duration) (lines []liveLine, at time.Time, err error)
 	cls   func() error
 	local net.Addr
 
@@ -141,35 +140,52 @@ type readerFunc func([]byte) (int, error)
 
 func (f readerFunc) Read(b []byte) (int, error) { return f(b) }
 
-// newLineStream wraps a byte stream whose reads honour setDeadline.
+// liveLine is one line from a live source; tooLong marks a line longer
+// than MaxLineBytes, of which text holds only the start.
+type liveLine struct {
+	text    string
+	tooLong bool
+}
+
+// newLineStream wraps a byte stream whose reads honour setDeadline. Lines
+// are read in bounded memory: a line longer than MaxLineBytes is reported
+// once as too long and the rest of it is discarded as it arrives, each
+// call with a fresh idle deadline, so a flood without newlines neither
+// grows memory nor passes for silence.
 func newLineStream(name string, r io.Reader, setDeadline func(time.Time) error, cls func() error) *NMEAStream {
-	br := bufio.NewReaderSize(r, maxLineBytes)
+	lr := newLineReader(r)
 	s := &NMEAStream{name: name, cls: cls}
-	s.next = func(ctx context.Context, idle time.Duration) ([]string, time.Time, error) {
+	s.next = func(ctx context.Context, idle time.Duration) ([]liveLine, time.Time, error) {
 		if err := setDeadline(time.Now().Add(idle)); err != nil {
 			return nil, time.Time{}, err
 		}
 		stop := context.AfterFunc(ctx, func() { setDeadline(time.Unix(1, 0)) })
 		defer stop()
-		line, tooLong, err := readLine(br)
+		line, kind, err := lr.next()
 		at := time.Now()
-		if err != nil {
+		switch {
+		case kind == lineTooLong:
+			return []liveLine{{text: line, tooLong: true}}, at, nil
+		case kind == lineRest:
+			if err != nil {
+				return nil, at, err
+			}
+			return nil, at, nil
+		case err != nil && !(err == io.EOF && line != ""):
 			return nil, at, err
 		}
-		if tooLong {
-			line = "\x00too long"
-		}
-		return []string{line}, at, nil
+		return []liveLine{{text: line}}, at, nil
 	}
 	return s
 }
 
 // newPacketStream wraps a datagram socket; each datagram may hold several
-// lines.
+// lines (a datagram is at most 64 KiB; lines longer than MaxLineBytes in
+// it are reported as too long).
 func newPacketStream(name string, pc net.PacketConn) *NMEAStream {
 	buf := make([]byte, 65536)
 	s := &NMEAStream{name: name, cls: pc.Close, local: pc.LocalAddr()}
-	s.next = func(ctx context.Context, idle time.Duration) ([]string, time.Time, error) {
+	s.next = func(ctx context.Context, idle time.Duration) ([]liveLine, time.Time, error) {
 		if err := pc.SetReadDeadline(time.Now().Add(idle)); err != nil {
 			return nil, time.Time{}, err
 		}
@@ -180,15 +196,25 @@ func newPacketStream(name string, pc net.PacketConn) *NMEAStream {
 		if err != nil {
 			return nil, at, err
 		}
-		var lines []string
-		for _, l := range strings.Split(string(buf[:n]), "\n") {
-			if strings.TrimSpace(l) != "" {
-				lines = append(lines, l)
-			}
-		}
-		return lines, at, nil
+		return splitDatagram(buf[:n]), at, nil
 	}
 	return s
+}
+
+// splitDatagram cuts a datagram into its non-blank lines.
+func splitDatagram(b []byte) []liveLine {
+	var lines []liveLine
+	for _, l := range strings.Split(string(b), "\n") {
+		if strings.TrimSpace(l) == "" {
+			continue
+		}
+		if len(l) > maxLineBytes {
+			lines = append(lines, liveLine{text: l[:maxLineBytes], tooLong: true})
+			continue
+		}
+		lines = append(lines, liveLine{text: l})
+	}
+	return lines
 }
 
 // Run reads the source, calling fn for every valid heading sentence (any
@@ -219,9 +245,9 @@ func (s *NMEAStream) Run(ctx context.Context, fn func(LiveReading)) error {
 			}
 			return fmt.Errorf("NMEA source %s: %w", s.name, err)
 		}
-		for _, raw := range lines {
-			line := strings.TrimSpace(raw)
-			if line == "" {
+		for _, l := range lines {
+			line := strings.TrimSpace(l.text)
+			if line == "" && !l.tooLong {
 				continue
 			}
 			lineNo++
@@ -229,9 +255,8 @@ func (s *NMEAStream) Run(ctx context.Context, fn func(LiveReading)) error {
 			s.stats.Lines++
 			var rd Reading
 			ok := false
-			if strings.HasPrefix(raw, "\x00too long") {
-				s.stats.Garbage++
-				s.stats.note(lineNo, fmt.Sprintf("line longer than %d bytes", maxLineBytes))
+			if l.tooLong {
+				s.stats.add(ProblemTooLong, lineNo, fmt.Sprintf("line longer than %d bytes, skipped to its end", maxLineBytes))
 			} else {
 				rd, ok = s.stats.classify(lineNo, line, s.AllowMissingChecksum)
 				if ok {

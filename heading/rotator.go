@@ -99,6 +99,45 @@ func parseDeg(line string) (float64, error) {
 	return v, nil
 }
 
+// maxReplyBytes bounds one reply line read from rotctld: its replies are
+// numbers, "RPRT n" or short info strings (Hamlib rotctld(1) 4.5.4).
+const maxReplyBytes = 512
+
+// rotctldCommandNames names the rotctld(1) default-protocol commands this
+// package sends (Hamlib rotctld(1) 4.5.4, COMMANDS).
+var rotctldCommandNames = map[string]string{
+	"p": "get_pos", "P": "set_pos", "S": "stop", "M": "move", "K": "park", "R": "reset", "_": "get_info",
+}
+
+// RotatorTimeoutError says rotctld did not answer a command in time: the
+// daemon is frozen, or the rotator controller behind it stopped
+// answering. It matches os.ErrDeadlineExceeded with errors.Is.
+type RotatorTimeoutError struct {
+	Addr    string
+	Cmd     string        // as sent, without the newline
+	Timeout time.Duration // the per-command bound
+	Got     int           // reply lines received before the deadline
+	Want    int           // reply lines a get command owes (0: up to RPRT)
+}
+
+func (e *RotatorTimeoutError) Error() string {
+	verb, _, _ := strings.Cut(e.Cmd, " ")
+	name := rotctldCommandNames[verb]
+	if name == "" {
+		name = "command"
+	}
+	part := ""
+	if e.Got > 0 && e.Want > 0 {
+		part = fmt.Sprintf(" (%d of its %d reply lines came)", e.Got, e.Want)
+	} else if e.Got > 0 {
+		part = fmt.Sprintf(" (%d reply lines came, no RPRT)", e.Got)
+	}
+	return fmt.Sprintf("rotctld at %s did not answer `%s` (%s) within %g s%s: is rotctld or the rotator controller stuck?", e.Addr, e.Cmd, name, e.Timeout.Seconds(), part)
+}
+
+// Is makes errors.Is(err, os.ErrDeadlineExceeded) true.
+func (e *RotatorTimeoutError) Is(target error) bool { return target == os.ErrDeadlineExceeded }
+
 // RotatorOptions configures DialRotator. Zero values take the defaults.
 type RotatorOptions struct {
 	// Timeout bounds each command's round trip (DefaultRotatorTimeout).
@@ -168,9 +207,13 @@ func DialRotator(ctx context.Context, addr string, opts RotatorOptions) (*Rotato
 	if err != nil {
 		return nil, fmt.Errorf("rotator at %s: %w (is rotctld running?)", addr, err)
 	}
-	r := &Rotator{addr: addr, opts: opts, log: log, conn: c, br: bufio.NewReaderSize(c, 512)}
+	r := &Rotator{addr: addr, opts: opts, log: log, conn: c, br: bufio.NewReaderSize(c, maxReplyBytes)}
 	if _, _, err := r.Position(); err != nil {
 		c.Close()
+		var te *RotatorTimeoutError
+		if errors.As(err, &te) {
+			return nil, err
+		}
 		return nil, fmt.Errorf("rotator at %s does not answer get_pos like rotctld: %w", addr, err)
 	}
 	return r, nil
@@ -208,6 +251,9 @@ func (r *Rotator) roundTrip(cmd string, nLines int) ([]string, error) {
 		return fail(err)
 	}
 	if _, err := io.WriteString(r.conn, cmd+"\n"); err != nil {
+		if errors.Is(err, os.ErrDeadlineExceeded) {
+			return fail(&RotatorTimeoutError{Addr: r.addr, Cmd: cmd, Timeout: r.opts.Timeout, Want: nLines})
+		}
 		return fail(err)
 	}
 	var lines []string
@@ -215,8 +261,15 @@ func (r *Rotator) roundTrip(cmd string, nLines int) ([]string, error) {
 		if nLines == 0 && len(lines) > 8 {
 			return fail(fmt.Errorf("no RPRT line after %q; is this rotctld's default protocol?", cmd))
 		}
-		line, err := r.br.ReadString('\n')
+		b, err := r.br.ReadSlice('\n')
+		line := string(b)
+		if err == bufio.ErrBufferFull {
+			return fail(fmt.Errorf("a reply line to %q is longer than %d bytes: is this rotctld?", cmd, maxReplyBytes))
+		}
 		if err != nil {
+			if errors.Is(err, os.ErrDeadlineExceeded) {
+				return fail(&RotatorTimeoutError{Addr: r.addr, Cmd: cmd, Timeout: r.opts.Timeout, Got: len(lines), Want: nLines})
+			}
 			if err == io.EOF && line != "" {
 				err = io.ErrUnexpectedEOF
 			}
@@ -346,7 +399,7 @@ func (s *sweepRec) wrap(err error) error {
 	case errors.Is(err, ErrRotatorClosed):
 		return fmt.Errorf("rotator at %s closed the connection during the sweep %s: %w", s.r.addr, at, err)
 	case errors.Is(err, os.ErrDeadlineExceeded):
-		return fmt.Errorf("rotator at %s did not answer within %v during the sweep %s: %w", s.r.addr, s.r.opts.Timeout, at, err)
+		return fmt.Errorf("rotator sweep stopped %s: %w", at, err)
 	case errors.As(err, &he):
 		return fmt.Errorf("rotator at %s refused a command during the sweep %s: %w", s.r.addr, at, err)
 	}

@@ -264,7 +264,7 @@ func TestRotatorSilentServer(t *testing.T) {
 	}()
 	t0 := time.Now()
 	_, err = DialRotator(context.Background(), l.Addr().String(), RotatorOptions{Timeout: 200 * time.Millisecond})
-	if err == nil || !strings.Contains(err.Error(), "does not answer get_pos like rotctld") {
+	if err == nil || !strings.Contains(err.Error(), "rotctld at "+l.Addr().String()+" did not answer `p` (get_pos) within 0.2 s") || strings.Contains(err.Error(), "i/o timeout") {
 		t.Fatalf("err = %v", err)
 	}
 	if d := time.Since(t0); d > time.Second {

@@ -12,6 +12,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"time"
 )
@@ -140,6 +141,9 @@ func newSigMFSource(meta *Meta, r io.Reader, closer io.Closer, size int64, name 
 	switch {
 	case g.SampleRate != nil:
 		info.SampleRate = *g.SampleRate
+		if err := checkRate(info.SampleRate); err != nil {
+			return nil, fmt.Errorf("%s: core:sample_rate: %w", name, err)
+		}
 		if raw.SampleRate != 0 && !close9(raw.SampleRate, info.SampleRate) {
 			return nil, fmt.Errorf("%s: --rate %v Hz conflicts with core:sample_rate %v Hz in the metadata", name, raw.SampleRate, info.SampleRate)
 		}
@@ -150,6 +154,16 @@ func newSigMFSource(meta *Meta, r io.Reader, closer io.Closer, size int64, name 
 		info.SampleRate = raw.SampleRate
 	default:
 		return nil, fmt.Errorf("%s: the metadata has no core:sample_rate: give --rate in Hz", name)
+	}
+	for i, c := range meta.Captures {
+		if c.Frequency != nil {
+			if err := checkCenter(*c.Frequency); err != nil {
+				return nil, fmt.Errorf("%s: captures[%d] core:frequency: %w", name, i, err)
+			}
+		}
+	}
+	if err := checkCenter(raw.CenterHz); err != nil {
+		return nil, fmt.Errorf("%s: --center: %w", name, err)
 	}
 	var first Capture
 	if len(meta.Captures) > 0 {
@@ -163,9 +177,45 @@ func newSigMFSource(meta *Meta, r io.Reader, closer io.Closer, size int64, name 
 	} else {
 		info.CenterHz = raw.CenterHz
 	}
+
+	// Header bytes before segments and trailing bytes are not samples:
+	// each, and their sum, must fit in the data (checked one at a time,
+	// so no sum of huge uint64 values can wrap around).
+	var skips []skipPoint
+	if g.TrailingBytes > uint64(size) {
+		return nil, fmt.Errorf("%s: core:trailing_bytes %d exceeds the data size %d", name, g.TrailingBytes, size)
+	}
+	nonSample := int64(g.TrailingBytes)
+	for i, c := range meta.Captures {
+		if c.HeaderBytes == 0 {
+			continue
+		}
+		if c.HeaderBytes > uint64(size-nonSample) {
+			return nil, fmt.Errorf("%s: captures[%d] core:header_bytes %d with the other header and trailing bytes (%d) exceed the data size %d", name, i, c.HeaderBytes, nonSample, size)
+		}
+		nonSample += int64(c.HeaderBytes)
+		if c.SampleStart > math.MaxInt64 {
+			return nil, fmt.Errorf("%s: captures[%d] core:sample_start %d is out of range", name, i, c.SampleStart)
+		}
+		skips = append(skips, skipPoint{at: int64(c.SampleStart), n: int64(c.HeaderBytes)})
+	}
+	total, err := wholeSamples(size-nonSample, f)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", name, err)
+	}
+	// Capture indices point into the data (a segment may start at its end,
+	// empty, but not beyond it).
+	for i, c := range meta.Captures {
+		if c.SampleStart > uint64(total) {
+			return nil, fmt.Errorf("%s: captures[%d] core:sample_start %d is beyond the %d samples of the data", name, i, c.SampleStart, total)
+		}
+	}
+	if err := checkLength(total, info.SampleRate); err != nil {
+		return nil, fmt.Errorf("%s: %w", name, err)
+	}
 	if !first.Datetime.IsZero() {
 		// The datetime belongs to the capture's first sample; shift it back
-		// to sample 0 of the dataset.
+		// to sample 0 of the dataset (at most MaxRecordingS, checked above).
 		off := time.Duration(float64(first.SampleStart) / info.SampleRate * 1e9)
 		info.Start = first.Datetime.Add(-off)
 		if !raw.Start.IsZero() {
@@ -176,32 +226,10 @@ func newSigMFSource(meta *Meta, r io.Reader, closer io.Closer, size int64, name 
 	} else if !raw.Start.IsZero() {
 		info.Start = raw.Start.UTC()
 	}
-
-	// Header bytes before segments and trailing bytes are not samples.
-	var skips []skipPoint
-	nonSample := int64(g.TrailingBytes)
-	for _, c := range meta.Captures {
-		if c.HeaderBytes > 0 {
-			if c.HeaderBytes > math.MaxInt64/2 || c.SampleStart > math.MaxInt64/2 {
-				return nil, fmt.Errorf("%s: core:header_bytes %d is out of range", name, c.HeaderBytes)
-			}
-			skips = append(skips, skipPoint{at: int64(c.SampleStart), n: int64(c.HeaderBytes)})
-			nonSample += int64(c.HeaderBytes)
-		}
-	}
-	if nonSample < 0 || nonSample > size {
-		return nil, fmt.Errorf("%s: header and trailing bytes (%d) exceed the data size %d", name, nonSample, size)
-	}
-	total, err := wholeSamples(size-nonSample, f)
+	s, err := newStreamSource(r, closer, f, info, total, skips)
 	if err != nil {
-		return nil, fmt.Errorf("%s: %w", name, err)
+		return nil, err
 	}
-	for _, k := range skips {
-		if k.at > total {
-			return nil, fmt.Errorf("%s: a capture starts at sample %d but the data holds only %d samples", name, k.at, total)
-		}
-	}
-	s := newStreamSource(r, closer, f, info, total, skips)
 	if g.SHA512 != "" {
 		h := sha512.New()
 		s.r = io.TeeReader(r, h)
@@ -236,7 +264,7 @@ func openArchive(path string, raw RawParams) (Source, error) {
 	if err != nil {
 		return nil, err
 	}
-	s, err := archiveSource(fh, path, raw)
+	s, err := archiveSource(fh, fh, path, raw)
 	if err != nil {
 		fh.Close()
 		return nil, err
@@ -244,7 +272,33 @@ func openArchive(path string, raw RawParams) (Source, error) {
 	return s, nil
 }
 
-func archiveSource(fh *os.File, path string, raw RawParams) (Source, error) {
+// printableName returns s, or s quoted when it holds bytes that are not
+// printable ASCII (a name from an archive may hold a newline), so errors
+// stay one line.
+func printableName(s string) string {
+	for i := 0; i < len(s); i++ {
+		if s[i] < 0x20 || s[i] > 0x7e {
+			return strconv.Quote(s)
+		}
+	}
+	return s
+}
+
+// archiveFile is what archiveSource reads: an *os.File, or a bytes.Reader
+// in tests.
+type archiveFile interface {
+	io.Reader
+	io.ReaderAt
+	io.Seeker
+}
+
+// maxArchiveEntries bounds the tar entries read from a .sigmf archive: one
+// recording's archive holds a directory, a .sigmf-meta and a .sigmf-data
+// (SigMF v1.2.5, Archive), so 256 is generous; an archive of millions of
+// empty entries is refused rather than walked.
+const maxArchiveEntries = 256
+
+func archiveSource(fh archiveFile, closer io.Closer, path string, raw RawParams) (Source, error) {
 	tr := tar.NewReader(fh)
 	type entry struct {
 		name      string
@@ -253,7 +307,10 @@ func archiveSource(fh *os.File, path string, raw RawParams) (Source, error) {
 	var metas []string
 	var metaBytes [][]byte
 	datas := map[string]entry{}
-	for {
+	for n := 0; ; n++ {
+		if n == maxArchiveEntries {
+			return nil, fmt.Errorf("%s: more than %d entries in the archive: a .sigmf archive holds one recording's meta and data", path, maxArchiveEntries)
+		}
 		hdr, err := tr.Next()
 		if err == io.EOF {
 			break
@@ -261,11 +318,15 @@ func archiveSource(fh *os.File, path string, raw RawParams) (Source, error) {
 		if err != nil {
 			return nil, fmt.Errorf("%s: not a readable tar archive: %w", path, err)
 		}
-		name := hdr.Name
+		name := printableName(hdr.Name)
 		switch {
 		case strings.HasSuffix(name, ".sigmf-meta"):
 			if hdr.Typeflag != tar.TypeReg {
 				return nil, fmt.Errorf("%s: %s is not a regular file in the archive", path, name)
+			}
+			if len(metas) == 1 {
+				// Refused at once, not after reading every meta into memory.
+				return nil, fmt.Errorf("%s: the archive holds 2 recordings or more (%s.sigmf-meta, %s, ...): nullseek reads archives of one recording", path, printableName(metas[0]), name)
 			}
 			if hdr.Size > maxMetaBytes {
 				return nil, fmt.Errorf("%s: %s is larger than %d MiB", path, name, maxMetaBytes>>20)
@@ -274,7 +335,7 @@ func archiveSource(fh *os.File, path string, raw RawParams) (Source, error) {
 			if err != nil {
 				return nil, fmt.Errorf("%s: reading %s: %w", path, name, err)
 			}
-			metas = append(metas, strings.TrimSuffix(name, ".sigmf-meta"))
+			metas = append(metas, strings.TrimSuffix(hdr.Name, ".sigmf-meta"))
 			metaBytes = append(metaBytes, b)
 		case strings.HasSuffix(name, ".sigmf-data"):
 			if hdr.Typeflag != tar.TypeReg {
@@ -284,7 +345,7 @@ func archiveSource(fh *os.File, path string, raw RawParams) (Source, error) {
 			if err != nil {
 				return nil, fmt.Errorf("%s: %w", path, err)
 			}
-			datas[strings.TrimSuffix(name, ".sigmf-data")] = entry{name, off, hdr.Size}
+			datas[strings.TrimSuffix(hdr.Name, ".sigmf-data")] = entry{name, off, hdr.Size}
 		}
 	}
 	switch len(metas) {
@@ -292,11 +353,11 @@ func archiveSource(fh *os.File, path string, raw RawParams) (Source, error) {
 		return nil, fmt.Errorf("%s: the archive holds no .sigmf-meta file", path)
 	case 1:
 	default:
-		return nil, fmt.Errorf("%s: the archive holds %d recordings (%s, ...): nullseek reads archives of one recording", path, len(metas), metas[0])
+		return nil, fmt.Errorf("%s: the archive holds %d recordings (%s, ...): nullseek reads archives of one recording", path, len(metas), printableName(metas[0]))
 	}
 	meta, err := ParseMeta(metaBytes[0])
 	if err != nil {
-		return nil, fmt.Errorf("%s: %s.sigmf-meta: %w", path, metas[0], err)
+		return nil, fmt.Errorf("%s: %s: %w", path, printableName(metas[0]+".sigmf-meta"), err)
 	}
 	base := metas[0]
 	if meta.Global.Dataset != "" {
@@ -304,8 +365,11 @@ func archiveSource(fh *os.File, path string, raw RawParams) (Source, error) {
 	}
 	d, ok := datas[base]
 	if !ok {
-		return nil, fmt.Errorf("%s: missing data file %s.sigmf-data in the archive", path, base)
+		return nil, fmt.Errorf("%s: missing data file %s in the archive", path, printableName(base+".sigmf-data"))
 	}
 	name := path + ":" + d.name
-	return newSigMFSource(meta, io.NewSectionReader(fh, d.off, d.size), fh, d.size, name, raw)
+	if d.off < 0 || d.size < 0 {
+		return nil, fmt.Errorf("%s: %s has a negative offset or size in the archive", path, d.name)
+	}
+	return newSigMFSource(meta, io.NewSectionReader(fh, d.off, d.size), closer, d.size, name, raw)
 }

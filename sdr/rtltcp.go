@@ -88,22 +88,60 @@ type RTLConfig struct {
 	EOFOnClose bool
 }
 
+// Bounds of RTLConfig fields besides the sample rate (RTLMinRateLow …
+// RTLMaxRateHigh) and the centre frequency (the protocol's uint32).
+const (
+	// MaxPPM bounds the frequency correction: ±1000 ppm. A dongle's
+	// crystal is typically within ±100 ppm (±1–2 ppm with a TCXO); one
+	// that needs more than 0.1 % is faulty (common practice).
+	MaxPPM = 1000
+	// MaxGainDB bounds the manual tuner gain: ±100 dB. Real tuner tables
+	// span about −10…50 dB (rtl-sdr tuner_r82xx.c, tuner_e4k.c); the device
+	// picks the nearest step.
+	MaxGainDB = 100
+	// MaxSettleS bounds SettleSamples to ten seconds of samples at the
+	// configured rate: settling after a retune takes milliseconds.
+	MaxSettleS = 10
+	// MaxNoDataTimeout bounds NoDataTimeout to ten minutes.
+	MaxNoDataTimeout = 10 * time.Minute
+)
+
+// rtlRate returns the rate as the device gets it (the protocol and
+// librtlsdr carry whole Hz) or an error naming the ranges librtlsdr
+// accepts.
+func rtlRate(hz float64) (uint32, error) {
+	if math.IsNaN(hz) || math.IsInf(hz, 0) || hz <= 0 {
+		return 0, fmt.Errorf("sample rate %v Hz is not a positive finite number", hz)
+	}
+	r := math.Round(hz)
+	if !(r >= RTLMinRateLow && r <= RTLMaxRateLow) && !(r >= RTLMinRateHigh && r <= RTLMaxRateHigh) {
+		return 0, fmt.Errorf("sample rate %v S/s is not one an RTL2832 supports (225001–300000 or 900001–3200000 S/s, librtlsdr rtlsdr_set_sample_rate)", hz)
+	}
+	return uint32(r), nil
+}
+
+// check validates every numeric field against its range.
 func (c RTLConfig) check() error {
-	if err := checkRate(c.SampleRate); err != nil {
+	if _, err := rtlRate(c.SampleRate); err != nil {
 		return err
 	}
-	r := c.SampleRate
-	if !(r > 225000 && r <= 300000) && !(r > 900000 && r <= 3200000) {
-		return fmt.Errorf("sample rate %v Hz is not one an RTL2832 supports (225001–300000 or 900001–3200000 Hz)", r)
-	}
-	if c.CenterHz < 0 || c.CenterHz > math.MaxUint32 || math.IsNaN(c.CenterHz) {
-		return fmt.Errorf("centre frequency %v Hz is outside 0–%d Hz", c.CenterHz, uint32(math.MaxUint32))
+	if !(c.CenterHz >= 0 && c.CenterHz <= math.MaxUint32) {
+		return fmt.Errorf("centre frequency %v Hz is outside 0–%d Hz (rtl_tcp carries a uint32)", c.CenterHz, uint32(math.MaxUint32))
 	}
 	if c.DirectSampling < 0 || c.DirectSampling > 2 {
 		return fmt.Errorf("direct sampling mode %d: want 0, 1 or 2", c.DirectSampling)
 	}
-	if math.IsNaN(c.GainDB) || math.Abs(c.GainDB) > 100 {
-		return fmt.Errorf("gain %v dB is out of range", c.GainDB)
+	if !(math.Abs(c.GainDB) <= MaxGainDB) {
+		return fmt.Errorf("gain %v dB is outside ±%d dB", c.GainDB, MaxGainDB)
+	}
+	if c.PPM < -MaxPPM || c.PPM > MaxPPM {
+		return fmt.Errorf("frequency correction %d ppm is outside ±%d ppm (a crystal that far off is faulty)", c.PPM, MaxPPM)
+	}
+	if c.SettleSamples < 0 || float64(c.SettleSamples) > MaxSettleS*c.SampleRate {
+		return fmt.Errorf("settle samples %d is outside 0–%d s of samples", c.SettleSamples, MaxSettleS)
+	}
+	if c.NoDataTimeout < 0 || c.NoDataTimeout > MaxNoDataTimeout {
+		return fmt.Errorf("no-data timeout %v is outside 0–%v", c.NoDataTimeout, MaxNoDataTimeout)
 	}
 	return nil
 }
@@ -154,6 +192,12 @@ func DialRTLTCP(ctx context.Context, addr string, cfg RTLConfig) (*RTLTCP, error
 	if err != nil {
 		return nil, fmt.Errorf("rtl_tcp: cannot connect to %s: %w", addr, err)
 	}
+	return startRTLTCP(ctx, conn, addr, cfg, timeout)
+}
+
+// startRTLTCP runs the client side of the protocol on an open connection
+// (a TCP one, or a net.Pipe in tests); cfg has been checked.
+func startRTLTCP(ctx context.Context, conn net.Conn, addr string, cfg RTLConfig, timeout time.Duration) (*RTLTCP, error) {
 	c := &RTLTCP{
 		conn:    conn,
 		addr:    addr,
@@ -162,7 +206,7 @@ func DialRTLTCP(ctx context.Context, addr string, cfg RTLConfig) (*RTLTCP, error
 		buf:     make([]byte, 64<<10),
 		ctx:     ctx,
 		info: Info{
-			SampleRate: cfg.SampleRate,
+			SampleRate: math.Round(cfg.SampleRate),
 			CenterHz:   cfg.CenterHz,
 			Format:     "cu8",
 			Name:       "rtl_tcp " + addr,
@@ -177,14 +221,15 @@ func DialRTLTCP(ctx context.Context, addr string, cfg RTLConfig) (*RTLTCP, error
 	}
 	var g [rtlGreetingBytes]byte
 	conn.SetReadDeadline(time.Now().Add(timeout))
-	if _, err := io.ReadFull(conn, g[:]); err != nil {
-		return fail(c.wrapReadErr(err, "greeting"))
+	n, err := io.ReadFull(conn, g[:])
+	if err != nil {
+		return fail(c.greetingErr(g[:n], err))
 	}
-	if string(g[:4]) != rtlMagic {
-		return fail(fmt.Errorf("rtl_tcp %s: not an rtl_tcp server (greeting starts %q, want %q)", addr, g[:4], rtlMagic))
+	tuner, gains, err := parseGreeting(g[:])
+	if err != nil {
+		return fail(fmt.Errorf("rtl_tcp %s: %w", addr, err))
 	}
-	c.tuner = binary.BigEndian.Uint32(g[4:8])
-	c.gainCount = binary.BigEndian.Uint32(g[8:12])
+	c.tuner, c.gainCount = tuner, gains
 	if err := c.configure(cfg); err != nil {
 		return fail(err)
 	}
@@ -199,6 +244,9 @@ func DialRTLTCP(ctx context.Context, addr string, cfg RTLConfig) (*RTLTCP, error
 			continue
 		}
 		if err := c.fill(); err != nil {
+			if err == io.EOF {
+				err = fmt.Errorf("rtl_tcp %s closed the connection after its greeting, before the first sample", c.addr)
+			}
 			return fail(err)
 		}
 	}
@@ -211,7 +259,8 @@ func (c *RTLTCP) configure(cfg RTLConfig) error {
 		code  byte
 		param uint32
 	}
-	cmds := []cmd{{CmdSampleRate, uint32(cfg.SampleRate)}}
+	rate, _ := rtlRate(cfg.SampleRate) // checked by DialRTLTCP
+	cmds := []cmd{{CmdSampleRate, rate}}
 	if cfg.CenterHz > 0 {
 		cmds = append(cmds, cmd{CmdCenterFreq, uint32(math.Round(cfg.CenterHz))})
 	}
@@ -290,10 +339,11 @@ func (c *RTLTCP) SetSampleRate(hz float64) error {
 	if err := cfg.check(); err != nil {
 		return fmt.Errorf("rtl_tcp %s: %w", c.addr, err)
 	}
-	if err := c.Command(CmdSampleRate, uint32(hz)); err != nil {
+	r, _ := rtlRate(hz)
+	if err := c.Command(CmdSampleRate, r); err != nil {
 		return err
 	}
-	c.info.SampleRate = hz
+	c.info.SampleRate = float64(r)
 	return nil
 }
 
@@ -303,6 +353,9 @@ func (c *RTLTCP) SetAutoGain(auto bool) error { return c.Command(CmdGainMode, bo
 // SetGainDB sets the manual tuner gain in dB (sent in tenths of a dB; the
 // device picks the nearest step of its gain table).
 func (c *RTLTCP) SetGainDB(db float64) error {
+	if !(math.Abs(db) <= MaxGainDB) {
+		return fmt.Errorf("rtl_tcp %s: gain %v dB is outside ±%d dB", c.addr, db, MaxGainDB)
+	}
 	return c.Command(CmdGain, uint32(int32(math.Round(db*10))))
 }
 
@@ -316,7 +369,12 @@ func (c *RTLTCP) SetGainIndex(i int) error {
 }
 
 // SetPPM sets the frequency correction in parts per million.
-func (c *RTLTCP) SetPPM(ppm int) error { return c.Command(CmdFreqCorrection, uint32(int32(ppm))) }
+func (c *RTLTCP) SetPPM(ppm int) error {
+	if ppm < -MaxPPM || ppm > MaxPPM {
+		return fmt.Errorf("rtl_tcp %s: frequency correction %d ppm is outside ±%d ppm", c.addr, ppm, MaxPPM)
+	}
+	return c.Command(CmdFreqCorrection, uint32(int32(ppm)))
+}
 
 // SetAGC turns the RTL2832 digital AGC on or off.
 func (c *RTLTCP) SetAGC(on bool) error { return c.Command(CmdAGCMode, boolParam(on)) }
@@ -352,6 +410,62 @@ func (c *RTLTCP) Close() error {
 	return c.conn.Close()
 }
 
+// greetingLayout states the greeting as the protocol defines it, for
+// messages.
+const greetingLayout = `the rtl_tcp protocol (osmocom rtl-sdr src/rtl_tcp.c, dongle_info_t) starts with a 12-byte greeting: "RTL0", then the tuner type and the tuner's gain count as big-endian uint32`
+
+// parseGreeting checks the 12-byte rtl_tcp greeting and returns the tuner
+// type and gain count. The magic must be "RTL0"; any tuner type and gain
+// count are accepted (librtlsdr's rtlsdr_tuner enum may grow).
+func parseGreeting(g []byte) (tuner, gains uint32, err error) {
+	if len(g) != rtlGreetingBytes {
+		return 0, 0, fmt.Errorf("greeting of %d bytes: %s", len(g), greetingLayout)
+	}
+	if string(g[:4]) != rtlMagic {
+		return 0, 0, fmt.Errorf("not an rtl_tcp server: its greeting starts % x (%q), want \"RTL0\"; %s", g[:4], printable(g[:4]), greetingLayout)
+	}
+	return binary.BigEndian.Uint32(g[4:8]), binary.BigEndian.Uint32(g[8:12]), nil
+}
+
+// printable replaces non-printable bytes by '.' for messages.
+func printable(b []byte) string {
+	out := make([]byte, len(b))
+	for i, c := range b {
+		if c < 0x20 || c > 0x7e {
+			c = '.'
+		}
+		out[i] = c
+	}
+	return string(out)
+}
+
+// greetingErr explains a greeting that did not arrive whole: what came
+// (bytes in hex) and what the protocol expects.
+func (c *RTLTCP) greetingErr(got []byte, err error) error {
+	if c.ctx.Err() != nil {
+		return fmt.Errorf("rtl_tcp %s: %w", c.addr, c.ctx.Err())
+	}
+	then := fmt.Sprintf("then nothing for %v", c.timeout)
+	switch {
+	case errors.Is(err, io.EOF) || errors.Is(err, io.ErrUnexpectedEOF):
+		then = "then closed the connection"
+		if len(got) == 0 {
+			return fmt.Errorf("rtl_tcp %s closed the connection before its greeting: is another client connected? (rtl_tcp serves one at a time; %s)", c.addr, greetingLayout)
+		}
+	case errors.Is(err, os.ErrDeadlineExceeded):
+		if len(got) == 0 {
+			return fmt.Errorf("rtl_tcp %s sent no greeting within %v: is it an rtl_tcp server? (%s)", c.addr, c.timeout, greetingLayout)
+		}
+	default:
+		return fmt.Errorf("rtl_tcp %s: reading the greeting: %w", c.addr, err)
+	}
+	if len(got) >= 4 && string(got[:4]) != rtlMagic {
+		_, _, perr := parseGreeting(append(got[:4:4], make([]byte, 8)...))
+		return fmt.Errorf("rtl_tcp %s: %w", c.addr, perr)
+	}
+	return fmt.Errorf("rtl_tcp %s sent a %d-byte greeting (% x), %s: %s", c.addr, len(got), got, then, greetingLayout)
+}
+
 // wrapReadErr turns network errors into one clear line.
 func (c *RTLTCP) wrapReadErr(err error, what string) error {
 	if c.ctx.Err() != nil {
@@ -361,9 +475,6 @@ func (c *RTLTCP) wrapReadErr(err error, what string) error {
 		return fmt.Errorf("no samples from rtl_tcp at %s for %v: is the receiver still connected?", c.addr, c.timeout)
 	}
 	if errors.Is(err, io.EOF) || errors.Is(err, io.ErrUnexpectedEOF) {
-		if what == "greeting" {
-			return fmt.Errorf("rtl_tcp %s closed the connection before its greeting: is another client connected?", c.addr)
-		}
 		return fmt.Errorf("rtl_tcp %s closed the connection after %d samples", c.addr, c.pos)
 	}
 	return fmt.Errorf("rtl_tcp %s: %s: %w", c.addr, what, err)

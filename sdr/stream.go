@@ -4,7 +4,6 @@ import (
 	"errors"
 	"fmt"
 	"io"
-	"math"
 	"os"
 	"time"
 )
@@ -62,10 +61,15 @@ type streamSource struct {
 	atEnd func() error
 }
 
-func newStreamSource(r io.Reader, closer io.Closer, f sampleFormat, info Info, total int64, skips []skipPoint) *streamSource {
+// newStreamSource checks info (with the format's fields and total filled
+// in) against the package bounds, naming the source in the error.
+func newStreamSource(r io.Reader, closer io.Closer, f sampleFormat, info Info, total int64, skips []skipPoint) (*streamSource, error) {
 	info.Format = f.name
 	info.ClipLevel = f.clip
 	info.Samples = total
+	if err := info.Validate(); err != nil {
+		return nil, fmt.Errorf("%s: %w", info.Name, err)
+	}
 	bps := f.bytesPerSample()
 	return &streamSource{
 		info:   info,
@@ -75,7 +79,7 @@ func newStreamSource(r io.Reader, closer io.Closer, f sampleFormat, info Info, t
 		buf:    make([]byte, streamBufBytes/bps*bps),
 		total:  total,
 		skips:  skips,
-	}
+	}, nil
 }
 
 // NewRawSource streams raw interleaved IQ from r. sizeBytes is the number of
@@ -100,8 +104,8 @@ func newRaw(r io.Reader, sizeBytes int64, p RawParams, name string) (*streamSour
 	if err := checkRate(p.SampleRate); err != nil {
 		return nil, fmt.Errorf("%s: --rate: %w", name, err)
 	}
-	if math.IsNaN(p.CenterHz) || math.IsInf(p.CenterHz, 0) {
-		return nil, fmt.Errorf("%s: --center %v is not a finite frequency", name, p.CenterHz)
+	if err := checkCenter(p.CenterHz); err != nil {
+		return nil, fmt.Errorf("%s: --center: %w", name, err)
 	}
 	f, err := parseFormat(p.Format)
 	if err != nil {
@@ -119,15 +123,7 @@ func newRaw(r io.Reader, sizeBytes int64, p RawParams, name string) (*streamSour
 	if p.Start.IsZero() {
 		info.Start = time.Time{}
 	}
-	return newStreamSource(r, c, f, info, total, nil), nil
-}
-
-// checkRate accepts a finite positive sample rate.
-func checkRate(hz float64) error {
-	if math.IsNaN(hz) || math.IsInf(hz, 0) || hz <= 0 {
-		return fmt.Errorf("sample rate %v Hz is not a positive finite number", hz)
-	}
-	return nil
+	return newStreamSource(r, c, f, info, total, nil)
 }
 
 // wholeSamples converts a data size in bytes to a sample count, refusing

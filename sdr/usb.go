@@ -55,7 +55,7 @@ func OpenUSB(index int, cfg RTLConfig) (Source, error) {
 		},
 	}
 	steps := []func() error{
-		func() error { return dev.SetSampleRate(uint32(cfg.SampleRate)) },
+		func() error { r, _ := rtlRate(cfg.SampleRate); return dev.SetSampleRate(r) },
 		func() error {
 			if cfg.CenterHz > 0 {
 				return dev.SetCenterFreq(uint32(math.Round(cfg.CenterHz)))

@@ -14,6 +14,7 @@ type wavHeader struct {
 	channels   int
 	rateHz     uint32
 	bits       int
+	blockAlign int
 	float      bool
 	dataOffset int64
 	dataBytes  int64
@@ -22,6 +23,11 @@ type wavHeader struct {
 // extensible sub-format GUID tails (KSDATAFORMAT_SUBTYPE_PCM / _IEEE_FLOAT):
 // the first two bytes carry the format tag, the rest is fixed.
 var wavGUIDTail = []byte{0x00, 0x00, 0x00, 0x00, 0x10, 0x00, 0x80, 0x00, 0x00, 0xaa, 0x00, 0x38, 0x9b, 0x71}
+
+// maxWAVChunks bounds the chunks read before the data chunk. A WAV file
+// holds a handful (fmt, fact, LIST, bext, JUNK padding) before its data;
+// a file of millions of empty chunks would otherwise cost one read each.
+const maxWAVChunks = 256
 
 // parseWAV walks the RIFF chunks up to the data chunk. size is the file
 // size; a data chunk length of 0 or 0xFFFFFFFF, or one running past the end
@@ -41,7 +47,10 @@ func parseWAV(r io.ReaderAt, size int64) (wavHeader, error) {
 	}
 	off := int64(12)
 	haveFmt := false
-	for {
+	for chunks := 0; ; chunks++ {
+		if chunks == maxWAVChunks {
+			return h, fmt.Errorf("WAV file has more than %d chunks before its data chunk: not an IQ recording?", maxWAVChunks)
+		}
 		var ch [8]byte
 		if _, err := r.ReadAt(ch[:], off); err != nil {
 			if !haveFmt {
@@ -64,6 +73,7 @@ func parseWAV(r io.ReaderAt, size int64) (wavHeader, error) {
 			tag := binary.LittleEndian.Uint16(b[0:2])
 			h.channels = int(binary.LittleEndian.Uint16(b[2:4]))
 			h.rateHz = binary.LittleEndian.Uint32(b[4:8])
+			h.blockAlign = int(binary.LittleEndian.Uint16(b[12:14]))
 			h.bits = int(binary.LittleEndian.Uint16(b[14:16]))
 			if tag == 0xFFFE { // WAVE_FORMAT_EXTENSIBLE
 				if n < 40 || !bytes.Equal(b[26:40], wavGUIDTail) {
@@ -109,6 +119,14 @@ func (h wavHeader) format() (string, error) {
 	if h.channels != 2 {
 		return "", fmt.Errorf("WAV file has %d channels: IQ needs exactly 2 (I, Q)", h.channels)
 	}
+	// The block (one sample frame of every channel) is nChannels ×
+	// wBitsPerSample/8 bytes (RIFF/WAVE, Microsoft/IBM Multimedia
+	// Programming Interface and Data Specifications 1.0, 1991, "Data
+	// Packing for PCM WAVE Files"); any other nBlockAlign leaves the
+	// layout of the data unknown.
+	if h.bits%8 == 0 && h.blockAlign != h.channels*h.bits/8 {
+		return "", fmt.Errorf("WAV header says %d-byte sample frames but %d channels of %d bits make %d: the header is corrupt", h.blockAlign, h.channels, h.bits, h.channels*h.bits/8)
+	}
 	switch {
 	case !h.float && h.bits == 8:
 		return "cu8", nil
@@ -136,7 +154,12 @@ func openWAV(path string, raw RawParams) (Source, error) {
 	if err != nil {
 		return nil, err
 	}
-	s, err := wavSource(fh, path, raw)
+	st, err := fh.Stat()
+	if err != nil {
+		fh.Close()
+		return nil, err
+	}
+	s, err := wavSource(fh, fh, st.Size(), path, raw)
 	if err != nil {
 		fh.Close()
 		return nil, err
@@ -144,12 +167,9 @@ func openWAV(path string, raw RawParams) (Source, error) {
 	return s, nil
 }
 
-func wavSource(fh *os.File, path string, raw RawParams) (Source, error) {
-	st, err := fh.Stat()
-	if err != nil {
-		return nil, err
-	}
-	h, err := parseWAV(fh, st.Size())
+// wavSource streams the WAV file r of size bytes; closer closes it.
+func wavSource(fh io.ReaderAt, closer io.Closer, size int64, path string, raw RawParams) (Source, error) {
+	h, err := parseWAV(fh, size)
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", path, err)
 	}
@@ -161,10 +181,13 @@ func wavSource(fh *os.File, path string, raw RawParams) (Source, error) {
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", path, err)
 	}
-	if h.rateHz == 0 {
-		return nil, fmt.Errorf("%s: WAV header gives a sample rate of 0 Hz", path)
-	}
 	rate := float64(h.rateHz)
+	if err := checkRate(rate); err != nil {
+		return nil, fmt.Errorf("%s: the WAV header's rate: %w", path, err)
+	}
+	if err := checkCenter(raw.CenterHz); err != nil {
+		return nil, fmt.Errorf("%s: --center: %w", path, err)
+	}
 	if raw.SampleRate != 0 && !close9(raw.SampleRate, rate) {
 		return nil, fmt.Errorf("%s: --rate %v Hz conflicts with the WAV header's %d Hz", path, raw.SampleRate, h.rateHz)
 	}
@@ -179,5 +202,9 @@ func wavSource(fh *os.File, path string, raw RawParams) (Source, error) {
 	if !raw.Start.IsZero() {
 		info.Start = raw.Start.UTC()
 	}
-	return newStreamSource(io.NewSectionReader(fh, h.dataOffset, h.dataBytes), fh, f, info, total, nil), nil
+	s, err := newStreamSource(io.NewSectionReader(fh, h.dataOffset, h.dataBytes), closer, f, info, total, nil)
+	if err != nil {
+		return nil, err
+	}
+	return s, nil
 }

@@ -10,7 +10,6 @@ import (
 	"fmt"
 	"hash"
 	"io"
-	"io/fs"
 	"nullseek/internal/atomicfile"
 	"os"
 	"path/filepath"
@@ -25,16 +24,21 @@ const SigMFVersion = "1.2.0"
 // writeChunk is how many samples the writer encodes at a time.
 const writeChunk = 4096
 
-// SigMFWriter records complex samples as a SigMF pair. The dataset is
-// written to a temporary file beside its final name and renamed into place
-// by Close, which writes the .sigmf-meta last (also through a temporary
-// file): a crash leaves at worst an orphan temporary file or a dataset
-// without metadata, never a metadata file describing a partial dataset.
+// SigMFWriter records complex samples as a SigMF pair. Both files are
+// staged in an atomicfile.Set (temporary files beside their final names,
+// mode 0666 less the umask, written through symbolic links) and Close
+// renames them into place data first, meta last, without removing the old
+// meta before the new data is in place: a crash leaves at worst hidden
+// temporary files, or the new dataset beside the old meta (whose
+// core:sha512 then no longer matches, which the reader reports), never a
+// meta without its data. A failed or aborted recording leaves nothing.
 type SigMFWriter struct {
 	base    string
 	f       sampleFormat
 	info    Info
-	tmp     *os.File
+	set     *atomicfile.Set
+	ownSet  bool
+	data    *atomicfile.File
 	bw      *bufio.Writer
 	h       hash.Hash
 	scratch []byte
@@ -53,6 +57,18 @@ type SigMFWriter struct {
 // datatype nullseek reads is accepted). Integer formats saturate at their
 // rails; see Saturations.
 func CreateSigMF(basePath string, info Info, format string, annotations ...Annotation) (*SigMFWriter, error) {
+	w, err := CreateSigMFIn(&atomicfile.Set{}, basePath, info, format, annotations...)
+	if err != nil {
+		return nil, err
+	}
+	w.ownSet = true
+	return w, nil
+}
+
+// CreateSigMFIn is CreateSigMF with the pair staged in set, the outputs of
+// a whole run: Close then stages the meta after the data and leaves the
+// commit (or abort) to the set's owner; Abort discards only this pair.
+func CreateSigMFIn(set *atomicfile.Set, basePath string, info Info, format string, annotations ...Annotation) (*SigMFWriter, error) {
 	basePath = strings.TrimSuffix(strings.TrimSuffix(basePath, ".sigmf-meta"), ".sigmf-data")
 	f, err := parseFormat(format)
 	if err != nil {
@@ -61,7 +77,10 @@ func CreateSigMF(basePath string, info Info, format string, annotations ...Annot
 	if err := checkRate(info.SampleRate); err != nil {
 		return nil, fmt.Errorf("create %s: %w", basePath, err)
 	}
-	tmp, err := os.CreateTemp(filepath.Dir(basePath), filepath.Base(basePath)+".sigmf-data.*.tmp")
+	if err := checkCenter(info.CenterHz); err != nil {
+		return nil, fmt.Errorf("create %s: %w", basePath, err)
+	}
+	data, err := set.Create(basePath + ".sigmf-data")
 	if err != nil {
 		return nil, fmt.Errorf("create %s: %w", basePath, err)
 	}
@@ -69,11 +88,12 @@ func CreateSigMF(basePath string, info Info, format string, annotations ...Annot
 		base:    basePath,
 		f:       f,
 		info:    info,
-		tmp:     tmp,
+		set:     set,
+		data:    data,
 		h:       sha512.New(),
 		scratch: make([]byte, writeChunk*f.bytesPerSample()),
 	}
-	w.bw = bufio.NewWriterSize(io.MultiWriter(tmp, w.h), 64<<10)
+	w.bw = bufio.NewWriterSize(io.MultiWriter(data, w.h), 64<<10)
 	w.meta.Global.Recorder = "nullseek"
 	w.meta.Annotations = append(w.meta.Annotations, annotations...)
 	return w, nil
@@ -101,7 +121,7 @@ func (w *SigMFWriter) Write(samples []complex64) error {
 		n := min(len(samples), writeChunk)
 		w.sat += int64(w.f.encode(w.scratch[:n*bps], samples[:n]))
 		if _, err := w.bw.Write(w.scratch[:n*bps]); err != nil {
-			w.err = fmt.Errorf("write %s: %w", w.tmp.Name(), err)
+			w.err = fmt.Errorf("write %s.sigmf-data: %w", w.base, err)
 			return w.err
 		}
 		w.samples += int64(n)
@@ -120,24 +140,29 @@ func (w *SigMFWriter) Samples() int64 { return w.samples }
 // Saturations is the number of I or Q components clamped (or NaN) so far.
 func (w *SigMFWriter) Saturations() int64 { return w.sat }
 
-// Abort discards the recording: the temporary dataset is removed and no
-// files are created.
+// Abort discards the recording: its staged files are removed and no file
+// is created or replaced.
 func (w *SigMFWriter) Abort() error {
 	if w.closed {
 		return nil
 	}
 	w.closed = true
-	w.tmp.Close()
-	return os.Remove(w.tmp.Name())
+	if w.ownSet {
+		w.set.Abort()
+	} else {
+		w.set.Discard(w.data)
+	}
+	return nil
 }
 
 // SetStart changes the UTC time of sample 0 written into the metadata at
 // Close (for a live capture whose clock was refined after it began).
 func (w *SigMFWriter) SetStart(t time.Time) { w.info.Start = t }
 
-// Close finishes the dataset, renames it to NAME.sigmf-data and then writes
-// NAME.sigmf-meta. An existing NAME.sigmf-meta is removed before the dataset
-// is replaced, so it never describes the new data.
+// Close finishes the dataset and the metadata and renames them into place,
+// NAME.sigmf-data first and NAME.sigmf-meta last (with CreateSigMFIn it
+// stages the meta after the data and the set's Commit renames them). On
+// any error nothing is left.
 func (w *SigMFWriter) Close() error {
 	if w.closed {
 		return errors.New("sigmf writer: already closed")
@@ -146,27 +171,16 @@ func (w *SigMFWriter) Close() error {
 		w.Abort()
 		return w.err
 	}
-	w.closed = true
 	fail := func(err error) error {
-		w.tmp.Close()
-		os.Remove(w.tmp.Name())
+		w.Abort()
 		return fmt.Errorf("write %s.sigmf-data: %w", w.base, err)
 	}
 	if err := w.bw.Flush(); err != nil {
 		return fail(err)
 	}
-	if err := w.tmp.Sync(); err != nil {
-		return fail(err)
-	}
-	if err := w.tmp.Close(); err != nil {
-		return fail(err)
-	}
-	metaPath := w.base + ".sigmf-meta"
-	if err := os.Remove(metaPath); err != nil && !errors.Is(err, fs.ErrNotExist) {
-		return fail(err)
-	}
-	if err := os.Rename(w.tmp.Name(), w.base+".sigmf-data"); err != nil {
-		return fail(err)
+	if err := w.data.Close(); err != nil {
+		w.Abort()
+		return err
 	}
 	g := &w.meta.Global
 	g.Datatype = w.f.name
@@ -189,23 +203,34 @@ func (w *SigMFWriter) Close() error {
 	sort.SliceStable(w.meta.Annotations, func(i, j int) bool {
 		return w.meta.Annotations[i].SampleStart < w.meta.Annotations[j].SampleStart
 	})
-	return writeMetaFile(metaPath, &w.meta)
+	b, err := metaJSON(&w.meta)
+	if err != nil {
+		w.Abort()
+		return fmt.Errorf("write %s.sigmf-meta: %w", w.base, err)
+	}
+	if err := w.set.Write(w.base+".sigmf-meta", b); err != nil {
+		w.Abort()
+		return err
+	}
+	w.closed = true
+	if w.ownSet {
+		return w.set.Commit()
+	}
+	return nil
 }
 
-// writeMetaFile writes m as indented JSON through a temporary file.
-func writeMetaFile(path string, m *Meta) error {
+// metaJSON renders m as indented JSON with a final newline.
+func metaJSON(m *Meta) ([]byte, error) {
 	b, err := json.Marshal(m)
 	if err != nil {
-		return fmt.Errorf("write %s: %w", path, err)
+		return nil, err
 	}
 	var v any
-	_ = json.Unmarshal(b, &v)
-	b, _ = json.MarshalIndent(v, "", "    ")
-	b = append(b, '\n')
-	return atomicfile.WriteFunc(path, func(w io.Writer) error {
-		_, err := w.Write(b)
-		return err
-	})
+	if err := json.Unmarshal(b, &v); err != nil {
+		return nil, err
+	}
+	b, err = json.MarshalIndent(v, "", "    ")
+	return append(b, '\n'), err
 }
 
 // WriteSigMFArchive packs the SigMF pair at basePath into a .sigmf archive

@@ -31,12 +31,14 @@ type headingFlags struct {
 	beamwidth, frontBack float64
 	nullDepth, bodyDepth float64
 	siteSigma            float64
+	nmeaRate             float64
 }
 
 func (f *headingFlags) add(cmd *cobra.Command) {
 	fl := cmd.Flags()
 	fl.StringVar(&f.log, "headings", "", "heading log CSV: time (seconds from capture start, or RFC 3339), heading degrees")
 	fl.StringVar(&f.nmea, "nmea", "", "file of NMEA 0183 heading sentences (HDT, HDG, HDM), each line optionally led by its time")
+	fl.Float64Var(&f.nmeaRate, "nmea-rate", 0, "sentence rate of an --nmea file of bare sentences (no times), Hz: the k-th sentence is at k/RATE s")
 	fl.StringVar(&f.turn, "turn", "", "steady turn START:RATE[:T0]: heading START° at T0 s (default 0), turning RATE °/s (negative: anticlockwise)")
 	fl.StringVar(&f.ref, "heading-ref", "true", "the headings' north: true or magnetic")
 	fl.StringVar(&f.declination, "declination", "", "magnetic declination in degrees east (default: WMM2025 at --station and the recording's time)")
@@ -114,6 +116,9 @@ func (f *headingFlags) track(info sdr.Info, live *heading.Track, notes func(stri
 	if given != 1 && live == nil {
 		return nil, fmt.Errorf("give exactly one heading source: --headings FILE, --nmea FILE or --turn START:RATE")
 	}
+	if f.nmeaRate != 0 && f.nmea == "" {
+		return nil, fmt.Errorf("--nmea-rate paces the sentences of an --nmea FILE: drop it or give --nmea")
+	}
 	var tr *heading.Track
 	switch {
 	case live != nil:
@@ -135,7 +140,7 @@ func (f *headingFlags) track(info sdr.Info, live *heading.Track, notes func(stri
 		}
 		defer fh.Close()
 		var st heading.NMEAStats
-		tr, st, err = heading.ReadNMEA(fh, heading.NMEAFileOptions{Ref: ref, CaptureStart: info.Start, Name: f.nmea})
+		tr, st, err = heading.ReadNMEA(fh, heading.NMEAFileOptions{Ref: ref, CaptureStart: info.Start, PaceHz: f.nmeaRate, Name: f.nmea})
 		if err != nil {
 			return nil, fmt.Errorf("--nmea: %w", err)
 		}

@@ -9,6 +9,8 @@ import (
 	"runtime/pprof"
 
 	"github.com/spf13/cobra"
+
+	"nullseek/internal/atomicfile"
 )
 
 // rootCmd is the top of the command tree; each subcommand registers itself
@@ -22,6 +24,13 @@ var rootCmd = &cobra.Command{
 
 var cpuProfile string
 
+// profileOut stages the --cpuprofile file: it appears only when the run
+// succeeds (atomicfile.Set), like every other output.
+var profileOut struct {
+	set     atomicfile.Set
+	started bool
+}
+
 func init() {
 	rootCmd.PersistentFlags().StringVar(&cpuProfile, "cpuprofile", "", "write a CPU profile to this file (for developers)")
 	_ = rootCmd.PersistentFlags().MarkHidden("cpuprofile")
@@ -29,22 +38,40 @@ func init() {
 		if cpuProfile == "" {
 			return nil
 		}
-		f, err := os.Create(cpuProfile)
+		f, err := profileOut.set.Create(cpuProfile)
 		if err != nil {
-			return err
+			return fmt.Errorf("--cpuprofile: %w", err)
 		}
-		return pprof.StartCPUProfile(f)
-	}
-	rootCmd.PersistentPostRun = func(*cobra.Command, []string) {
-		if cpuProfile != "" {
-			pprof.StopCPUProfile()
+		if err := pprof.StartCPUProfile(f); err != nil {
+			profileOut.set.Abort()
+			return fmt.Errorf("--cpuprofile: %w", err)
 		}
+		profileOut.started = true
+		return nil
 	}
+}
+
+// finishProfile stops the CPU profile and keeps its file when the run
+// succeeded, or removes it.
+func finishProfile(ok bool) error {
+	if !profileOut.started {
+		return nil
+	}
+	pprof.StopCPUProfile()
+	if !ok {
+		profileOut.set.Abort()
+		return nil
+	}
+	return profileOut.set.Commit()
 }
 
 func main() {
 	slog.SetDefault(slog.New(slog.NewTextHandler(os.Stderr, &slog.HandlerOptions{Level: slog.LevelWarn})))
-	if err := rootCmd.Execute(); err != nil {
+	err := rootCmd.Execute()
+	if perr := finishProfile(err == nil); err == nil {
+		err = perr
+	}
+	if err != nil {
 		fmt.Fprintf(os.Stderr, "nullseek: %v\n", err)
 		os.Exit(exitCode(err))
 	}
