@@ -79,15 +79,16 @@ func (a AntennaSpec) Validate() error {
 	}
 	checks := []struct {
 		flag   string
+		what   string
 		v      float64
 		lo, hi float64
 		unit   string
 		loOpen bool
 	}{
-		{"--beamwidth", a.BeamwidthDeg, 5, 180, "°", false},
-		{"--front-back", a.FrontBackDB, 1, 60, " dB", false},
-		{"--null-depth", a.NullDepthDB, 0, -MinGainDB, " dB", true},
-		{"--body-depth", a.BodyDepthDB, 0, 40, " dB", true},
+		{"--beamwidth", "the Yagi's -3 dB beamwidth", a.BeamwidthDeg, 5, 180, "°", false},
+		{"--front-back", "the Yagi's front-to-back ratio", a.FrontBackDB, 1, 60, " dB", false},
+		{"--null-depth", "the loop's null depth", a.NullDepthDB, 0, -MinGainDB, " dB", true},
+		{"--body-depth", "the body-shield drop", a.BodyDepthDB, 0, 40, " dB", true},
 	}
 	for _, c := range checks {
 		ok := c.v <= c.hi && (c.v > c.lo || (!c.loOpen && c.v == c.lo))
@@ -96,7 +97,7 @@ func (a AntennaSpec) Validate() error {
 			if c.loOpen {
 				lb = "("
 			}
-			return fmt.Errorf("%s %v: want a value in %s%g, %g]%s", c.flag, c.v, lb, c.lo, c.hi, c.unit)
+			return fmt.Errorf("%s %v: %s must be in %s%g, %g]%s", c.flag, c.v, c.what, lb, c.lo, c.hi, c.unit)
 		}
 	}
 	return nil

@@ -105,13 +105,20 @@ const (
 	RefFacing    = "the way the operator faces (the drop is with the back to the transmitter)"
 )
 
+// MinPatternRangeDB is the least spread between a pattern's highest and
+// lowest gain: below it the level barely changes as the antenna turns and
+// no fit could tell a direction from receiver noise (a body shield, the
+// weakest pattern here, drops about 12 dB).
+const MinPatternRangeDB = 1.0
+
 // Validate checks the table size, finiteness, normalisation (max 0 dB within
-// 0.01 dB), the floor MinGainDB and the symmetry.
+// 0.01 dB), the floor MinGainDB, the spread MinPatternRangeDB and the
+// symmetry.
 func (p Pattern) Validate() error {
 	if len(p.GainDB) != PatternSteps {
 		return fmt.Errorf("pattern %q: %d gain values, want %d (1° steps)", p.Name, len(p.GainDB), PatternSteps)
 	}
-	mx := math.Inf(-1)
+	mx, mn := math.Inf(-1), math.Inf(1)
 	for k, g := range p.GainDB {
 		if math.IsNaN(g) || math.IsInf(g, 0) {
 			return fmt.Errorf("pattern %q: gain at %d° is not finite", p.Name, k)
@@ -119,10 +126,13 @@ func (p Pattern) Validate() error {
 		if g < MinGainDB-1e-9 {
 			return fmt.Errorf("pattern %q: gain at %d° is %.1f dB, below the floor %.0f dB", p.Name, k, g, MinGainDB)
 		}
-		mx = math.Max(mx, g)
+		mx, mn = math.Max(mx, g), math.Min(mn, g)
 	}
 	if math.Abs(mx) > 0.01 {
 		return fmt.Errorf("pattern %q: maximum gain is %.3f dB, want 0 dB (normalise the table)", p.Name, mx)
+	}
+	if mx-mn < MinPatternRangeDB {
+		return fmt.Errorf("pattern %q: its gains span only %.2f dB (want at least %g dB): a pattern this flat tells no direction", p.Name, mx-mn, MinPatternRangeDB)
 	}
 	if p.Symmetry < 1 || PatternSteps%p.Symmetry != 0 {
 		return fmt.Errorf("pattern %q: symmetry %d must be a positive divisor of 360", p.Name, p.Symmetry)
@@ -325,10 +335,22 @@ func MarshalPattern(p Pattern) ([]byte, error) {
 }
 
 // ParsePattern decodes our JSON pattern format and validates the result.
+// A null among the gains is an error (encoding/json would read it as 0 dB).
 func ParsePattern(data []byte) (Pattern, error) {
 	var f patternFile
+	var gains struct {
+		GainDB []*float64 `json:"gain_db"`
+	}
 	if err := json.Unmarshal(data, &f); err != nil {
 		return Pattern{}, fmt.Errorf("pattern JSON: %w", err)
+	}
+	if err := json.Unmarshal(data, &gains); err != nil {
+		return Pattern{}, fmt.Errorf("pattern JSON: %w", err)
+	}
+	for k, g := range gains.GainDB {
+		if g == nil {
+			return Pattern{}, fmt.Errorf("pattern JSON: gain_db[%d] is null, want a number of dB", k)
+		}
 	}
 	if f.Format != patternFormat {
 		return Pattern{}, fmt.Errorf("pattern JSON: format %q, want %q", f.Format, patternFormat)

@@ -28,6 +28,10 @@ import (
 //     an error naming the line. Holes are allowed (see Track.Gaps).
 //   - A file with no data rows is an error.
 //
+//   - A time more than maxLogOffsetS from the capture start is an error:
+//     no heading log of a recording spans years, and such a value is a
+//     corrupt row (or a Unix time written as seconds).
+//
 // Every error names the line number (1-based).
 func ReadLog(r io.Reader, captureStart time.Time, ref Ref) (*Track, error) {
 	if ref != True && ref != Magnetic {
@@ -89,6 +93,10 @@ func isHeader(f0, f1 string) bool {
 	return (strings.HasPrefix(t, "time") || strings.HasPrefix(t, "second")) && strings.HasPrefix(strings.ToLower(f1), "heading")
 }
 
+// maxLogOffsetS bounds a heading log's time from the capture start: 1e8 s
+// is a little over three years.
+const maxLogOffsetS = 1e8
+
 var errNoCaptureStart = errors.New("RFC 3339 time but the capture start time is unknown; give the capture start or write seconds from it")
 
 // parseTime reads seconds from the capture start or an RFC 3339 stamp.
@@ -100,6 +108,9 @@ func parseTime(s string, captureStart time.Time) (float64, error) {
 		if !finite(v) {
 			return 0, fmt.Errorf("time %q is not a finite number of seconds", s)
 		}
+		if math.Abs(v) > maxLogOffsetS {
+			return 0, fmt.Errorf("time %s s is more than %.0e s (about 3 years) from the capture start: not a time of this recording", s, maxLogOffsetS)
+		}
 		return v, nil
 	}
 	if strings.ContainsAny(s, "T:") {
@@ -110,7 +121,11 @@ func parseTime(s string, captureStart time.Time) (float64, error) {
 		if captureStart.IsZero() {
 			return 0, fmt.Errorf("time %q: %w", s, errNoCaptureStart)
 		}
-		return t.Sub(captureStart).Seconds(), nil
+		d := t.Sub(captureStart).Seconds()
+		if math.Abs(d) > maxLogOffsetS {
+			return 0, fmt.Errorf("time %s is more than %.0e s (about 3 years) from the capture start %s: not a time of this recording", s, maxLogOffsetS, captureStart.UTC().Format(time.RFC3339))
+		}
+		return d, nil
 	}
 	return 0, fmt.Errorf("time %q is neither seconds nor RFC 3339", s)
 }

@@ -64,6 +64,11 @@ type Options struct {
 	// Now is the time used for magnetic bearings without a time; zero:
 	// the clock.
 	Now time.Time
+	// Stage, when not nil, receives the output files instead of their being
+	// written at once: the caller commits them with the rest of its run's
+	// outputs (atomicfile.Set.Commit). Nil: each file is written on its own
+	// (temporary file and rename), and one that fails leaves the others.
+	Stage *atomicfile.Set
 }
 
 // Defaults holds the default of every numeric option.
@@ -107,6 +112,16 @@ func (o Options) Validate() error {
 	if o.MapPath != "" {
 		if _, err := mapplot.Format(o.MapPath); err != nil {
 			return fmt.Errorf("--map: %w", err)
+		}
+	}
+	// A target that can never be a file (a FIFO, a folder) is bad input,
+	// refused before any work; a missing folder or a full disk is found
+	// when writing, and reported with the outputs that could be made.
+	for _, out := range []struct{ flag, path string }{{"--geojson", o.GeoJSONPath}, {"--kml", o.KMLPath}, {"--map", o.MapPath}} {
+		if out.path != "" {
+			if err := atomicfile.Check(out.path); err != nil {
+				return fmt.Errorf("%s: %w", out.flag, err)
+			}
 		}
 	}
 	if o.Grid != nil {
@@ -382,7 +397,9 @@ func (res *Result) writeOutputs(clusters [][]int, gridOf []*geo.Grid, o Options)
 	}
 	write := func(path string, render func() ([]byte, error)) {
 		b, err := render()
-		if err == nil {
+		if err == nil && o.Stage != nil {
+			err = o.Stage.Write(path, b)
+		} else if err == nil {
 			err = atomicfile.Write(path, b)
 		}
 		if err != nil {

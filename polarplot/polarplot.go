@@ -62,6 +62,20 @@ func Write(path string, pts []bearing.Point, est bearing.Estimate, p bearing.Pat
 
 // WriteOptions is Write with options.
 func WriteOptions(path string, pts []bearing.Point, est bearing.Estimate, p bearing.Pattern, title string, o Options) error {
+	var set atomicfile.Set
+	defer set.Abort()
+	if err := Stage(&set, path, pts, est, p, title, o); err != nil {
+		return err
+	}
+	if err := set.Commit(); err != nil {
+		return fmt.Errorf("polar plot: %w", err)
+	}
+	return nil
+}
+
+// Stage draws the plot into set, to appear at path when the set is
+// committed with the run's other outputs.
+func Stage(set *atomicfile.Set, path string, pts []bearing.Point, est bearing.Estimate, p bearing.Pattern, title string, o Options) error {
 	ext := strings.TrimPrefix(strings.ToLower(filepath.Ext(path)), ".")
 	if ext == "" {
 		return fmt.Errorf("polar plot %s: no file extension to choose the format", path)
@@ -78,7 +92,7 @@ func WriteOptions(path string, pts []bearing.Point, est bearing.Estimate, p bear
 	if err != nil {
 		return fmt.Errorf("polar plot %s: %w", path, err)
 	}
-	if err := atomicfile.WriteFunc(path, func(w io.Writer) error {
+	if err := set.WriteFunc(path, func(w io.Writer) error {
 		_, err := wt.WriteTo(w)
 		return err
 	}); err != nil {

@@ -298,6 +298,24 @@ type archiveFile interface {
 // empty entries is refused rather than walked.
 const maxArchiveEntries = 256
 
+// memberPathOK refuses a tar member name that is absolute or climbs out of
+// the archive with "..": SigMF v1.2.5 (Archive) puts a recording's files in
+// one folder named after the archive, so such a name is no SigMF archive,
+// and is the classic path trick against extractors (what GNU tar refuses
+// by default, leading "/" stripped and ".." members skipped).
+func memberPathOK(name string) error {
+	n := strings.ReplaceAll(name, "\\", "/")
+	if strings.HasPrefix(n, "/") || (len(n) > 1 && n[1] == ':') {
+		return errors.New("has an absolute path: a SigMF archive's files sit in its own folder")
+	}
+	for _, part := range strings.Split(n, "/") {
+		if part == ".." {
+			return errors.New(`climbs out of the archive with "..": a SigMF archive's files sit in its own folder`)
+		}
+	}
+	return nil
+}
+
 func archiveSource(fh archiveFile, closer io.Closer, path string, raw RawParams) (Source, error) {
 	tr := tar.NewReader(fh)
 	type entry struct {
@@ -319,6 +337,9 @@ func archiveSource(fh archiveFile, closer io.Closer, path string, raw RawParams)
 			return nil, fmt.Errorf("%s: not a readable tar archive: %w", path, err)
 		}
 		name := printableName(hdr.Name)
+		if err := memberPathOK(hdr.Name); err != nil {
+			return nil, fmt.Errorf("%s: member %s %v", path, name, err)
+		}
 		switch {
 		case strings.HasSuffix(name, ".sigmf-meta"):
 			if hdr.Typeflag != tar.TypeReg {

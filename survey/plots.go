@@ -7,6 +7,7 @@ import (
 
 	"nullseek/bearing"
 	"nullseek/heading"
+	"nullseek/internal/atomicfile"
 	"nullseek/polarplot"
 )
 
@@ -45,12 +46,20 @@ func fileSafe(s string) string {
 	}, s)
 }
 
-// WritePolarPlots draws one polar plot per transmitter with a bearing,
+// PolarPlotPath is the file StagePolarPlots draws transmitter ident's plot
+// to, for the plot name prefix (PREFIX.png → PREFIX-IDENT.png).
+func PolarPlotPath(prefix, ident string) string {
+	ext := filepath.Ext(prefix)
+	return strings.TrimSuffix(prefix, ext) + "-" + fileSafe(ident) + ext
+}
+
+// StagePolarPlots draws one polar plot per transmitter with a bearing,
 // PREFIX-IDENT.EXT, from its combined result (TxBearing.PlotData: every
 // used burst's readings, the combined bearing and sigma, the table's choice
 // of null), with note under the title; with perBurst also one per fitted
-// burst, PREFIX-IDENT-burst-N.EXT.
-func WritePolarPlots(prefix string, bbs []BurstBearing, txs []TxBearing, p bearing.Pattern, note string, perBurst bool) error {
+// burst, PREFIX-IDENT-burst-N.EXT. The plots are staged in set and appear
+// when the caller commits it with the run's other outputs.
+func StagePolarPlots(set *atomicfile.Set, prefix string, bbs []BurstBearing, txs []TxBearing, p bearing.Pattern, note string, perBurst bool) error {
 	if err := CheckPlotPath(prefix); err != nil {
 		return err
 	}
@@ -65,7 +74,7 @@ func WritePolarPlots(prefix string, bbs []BurstBearing, txs []TxBearing, p beari
 			return err
 		}
 		label := fmt.Sprintf("%s, %d burst(s)", t.Ident, t.Combined.BurstsUsed)
-		if err := polarplot.WriteOptions(base+"-"+fileSafe(t.Ident)+ext, pts, est, p, label, polarplot.Options{Note: note}); err != nil {
+		if err := polarplot.Stage(set, PolarPlotPath(prefix, t.Ident), pts, est, p, label, polarplot.Options{Note: note}); err != nil {
 			return err
 		}
 		if !perBurst {
@@ -74,7 +83,7 @@ func WritePolarPlots(prefix string, bbs []BurstBearing, txs []TxBearing, p beari
 		for _, i := range t.Bursts {
 			b := bbs[i]
 			label := fmt.Sprintf("%s burst %d", t.Ident, b.Index)
-			if err := polarplot.WriteOptions(fmt.Sprintf("%s-%s-burst-%d%s", base, fileSafe(t.Ident), b.Index, ext), b.Points, b.Est, p, label, polarplot.Options{Note: note}); err != nil {
+			if err := polarplot.Stage(set, fmt.Sprintf("%s-%s-burst-%d%s", base, fileSafe(t.Ident), b.Index, ext), b.Points, b.Est, p, label, polarplot.Options{Note: note}); err != nil {
 				return err
 			}
 		}

@@ -1,6 +1,7 @@
 package main
 
 import (
+	"bytes"
 	"encoding/json"
 	"fmt"
 	"io"
@@ -43,9 +44,20 @@ rather than invents a bearing when the sweep cannot support one.`,
 			if err != nil {
 				return err
 			}
+			// Every output is checked before the recording is read, and all
+			// are staged and committed together once the results are in: a
+			// failure leaves no plot without its CSV, nor half a table.
 			if plot != "" {
 				if err := survey.CheckPlotPath(plot); err != nil {
 					return err
+				}
+			}
+			if lopCSV != "" {
+				if _, _, ok, _ := hf.stationPos(); !ok { // syntax checked by hf.options
+					return fmt.Errorf("--bearings-csv needs the station's position: --station LAT,LON")
+				}
+				if err := atomicfile.Check(lopCSV); err != nil {
+					return fmt.Errorf("--bearings-csv: %w", err)
 				}
 			}
 			res, tr, err := hf.surveyWithTrack(cmd.Context(), rec, &in, &idf, pat, bo.Fit, true, notes)
@@ -61,18 +73,21 @@ rather than invents a bearing when the sweep cannot support one.`,
 			}
 			mount, _ := hf.mountOffset(pat) // checked by hf.pattern
 			ref := survey.ReferenceNote(pat, tr.Ref, mount)
+			var outs atomicfile.Set
+			defer outs.Abort()
 			if plot != "" {
-				if err := survey.WritePolarPlots(plot, bbs, txs, pat, ref, plotBursts); err != nil {
+				if err := survey.StagePolarPlots(&outs, plot, bbs, txs, pat, ref, plotBursts); err != nil {
 					return err
 				}
 			}
 			if lopCSV != "" {
-				if err := writeLOPs(lopCSV, &hf, res.Info.Start, txs); err != nil {
+				if err := stageLOPs(&outs, lopCSV, &hf, res.Info.Start, txs); err != nil {
 					return err
 				}
 			}
+			var text bytes.Buffer
 			if asJSON {
-				enc := json.NewEncoder(os.Stdout)
+				enc := json.NewEncoder(&text)
 				for _, b := range bbs {
 					if err := enc.Encode(b); err != nil {
 						return err
@@ -83,9 +98,14 @@ rather than invents a bearing when the sweep cannot support one.`,
 						return err
 					}
 				}
-				return nil
+			} else if err := survey.WriteBearingTable(&text, bbs, txs, ref); err != nil {
+				return err
 			}
-			return survey.WriteBearingTable(os.Stdout, bbs, txs, ref)
+			if err := outs.Commit(); err != nil {
+				return err
+			}
+			_, err = text.WriteTo(os.Stdout)
+			return err
 		}),
 	}
 	in.add(cmd)
@@ -124,8 +144,8 @@ func noBearing(path string, bbs []survey.BurstBearing, txs []survey.TxBearing) e
 	return fmt.Errorf("%s: no bearing from any of its %d bursts: %s", path, len(bbs), strings.Join(reasons, "; "))
 }
 
-// writeLOPs writes the transmitters' bearings in the CSV form `fix` reads.
-func writeLOPs(path string, hf *headingFlags, start time.Time, txs []survey.TxBearing) error {
+// stageLOPs stages the transmitters' bearings in the CSV form `fix` reads.
+func stageLOPs(set *atomicfile.Set, path string, hf *headingFlags, start time.Time, txs []survey.TxBearing) error {
 	lat, lon, ok, err := hf.stationPos()
 	if err != nil {
 		return err
@@ -142,5 +162,5 @@ func writeLOPs(path string, hf *headingFlags, start time.Time, txs []survey.TxBe
 		recs = append(recs, geo.BearingRecord{LOP: geo.LOP{Ident: t.Ident, Station: st, Lat: lat, Lon: lon,
 			BearingDeg: t.Combined.BearingDeg, SigmaDeg: t.SigmaDeg, Time: start, Ambiguous: t.Combined.AltBearingDeg != nil}})
 	}
-	return atomicfile.WriteFunc(path, func(w io.Writer) error { return geo.WriteBearingsCSV(w, recs) })
+	return set.WriteFunc(path, func(w io.Writer) error { return geo.WriteBearingsCSV(w, recs) })
 }

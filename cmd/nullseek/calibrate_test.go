@@ -5,6 +5,7 @@ import (
 	"math"
 	"nullseek/ident/morse"
 	"nullseek/internal/angle"
+	"nullseek/internal/atomicfile"
 	"nullseek/internal/testtool"
 	"os"
 	"os/exec"
@@ -49,7 +50,11 @@ func (c calScene) render(t *testing.T, dir, name string, turn heading.SteadyTurn
 	}
 	st := sim.Station{Name: name, Lat: c.lat0, Lon: c.lon0, Antenna: c.real, AntennaName: "yagi",
 		Turn: turn, HeadingRef: heading.True, RippleDB: 0.3}
-	if err := writeStationIQ(sc, st, dir); err != nil {
+	var outs atomicfile.Set
+	if err := stageStationIQ(&outs, sc, st, dir); err != nil {
+		t.Fatal(err)
+	}
+	if err := outs.Commit(); err != nil {
 		t.Fatal(err)
 	}
 	return filepath.Join(dir, "station-"+name+".sigmf-meta")

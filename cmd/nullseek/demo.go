@@ -1,6 +1,7 @@
 package main
 
 import (
+	"bytes"
 	"context"
 	"fmt"
 	"io"
@@ -14,6 +15,7 @@ import (
 	"time"
 
 	"github.com/spf13/cobra"
+	"golang.org/x/term"
 
 	"nullseek/bearing"
 	"nullseek/geo"
@@ -40,7 +42,11 @@ per transmitter at every station and fixes each transmitter's position,
 comparing every result with the scene's truth. Files go to --out.`,
 		Args: cobra.NoArgs,
 		RunE: func(cmd *cobra.Command, _ []string) error {
-			return runDemo(cmd.Context(), os.Stdout, outDir, writeIQ)
+			var progress io.Writer = io.Discard
+			if term.IsTerminal(int(os.Stderr.Fd())) {
+				progress = os.Stderr
+			}
+			return runDemo(cmd.Context(), os.Stdout, progress, outDir, writeIQ)
 		},
 	}
 	cmd.Flags().StringVar(&outDir, "out", "nullseek-demo", "directory for the demo's files (bearings CSV, map, GeoJSON, polar plots, heading logs)")
@@ -48,17 +54,52 @@ comparing every result with the scene's truth. Files go to --out.`,
 	rootCmd.AddCommand(cmd)
 }
 
-func runDemo(ctx context.Context, w io.Writer, outDir string, writeIQ bool) error {
+// runDemo runs the demo, writing its files to outDir and its report to
+// out once everything has worked (a failure prints no half report);
+// progress gets a line per stage while it runs.
+func runDemo(ctx context.Context, out, progress io.Writer, outDir string, writeIQ bool) error {
+	var report bytes.Buffer
+	w := &report
 	sc, err := sim.Demo()
 	if err != nil {
 		return err
 	}
-	if err := os.MkdirAll(outDir, 0o755); err != nil {
-		return fmt.Errorf("--out: %w", err)
-	}
 	var ids []string
 	for _, b := range sc.Beacons {
 		ids = append(ids, b.ID)
+	}
+	// Every file the demo makes is checked before the work starts and
+	// staged until the end: a failure leaves the folder as it was (and
+	// removes it when the demo made it).
+	names := []string{"bearings.csv", "fixes.geojson", "map.png"}
+	for _, st := range sc.Stations {
+		names = append(names, "headings-"+st.Name+".csv")
+		for _, id := range ids {
+			names = append(names, filepath.Base(survey.PolarPlotPath("polar-"+st.Name+".png", id)))
+		}
+		if writeIQ {
+			names = append(names, "station-"+st.Name+".sigmf-data", "station-"+st.Name+".sigmf-meta")
+		}
+	}
+	for _, n := range names {
+		if err := atomicfile.Check(filepath.Join(outDir, n)); err != nil {
+			return fmt.Errorf("--out: %w", err)
+		}
+	}
+	_, statErr := os.Stat(outDir)
+	if err := os.MkdirAll(outDir, 0o755); err != nil {
+		return fmt.Errorf("--out: %w", err)
+	}
+	var outs atomicfile.Set
+	defer outs.Abort()
+	committed := false
+	if os.IsNotExist(statErr) {
+		defer func() {
+			if !committed {
+				outs.Abort()
+				os.Remove(outDir) // only if still empty
+			}
+		}()
 	}
 	fmt.Fprintf(w, "Bearing sigmas include a %.0f° site error (multipath a single site cannot see).\n", survey.DefaultSiteSigmaDeg)
 	fmt.Fprintf(w, "Scenario %q at %s (invented): %d beacons on %.4f MHz, %d stations, %.0f s each, starting %s\n\n",
@@ -72,10 +113,11 @@ func runDemo(ctx context.Context, w io.Writer, outDir string, writeIQ bool) erro
 			return err
 		}
 		if writeIQ {
-			if err := writeStationIQ(sc, st, outDir); err != nil {
+			if err := stageStationIQ(&outs, sc, st, outDir); err != nil {
 				return err
 			}
 		}
+		fmt.Fprintf(progress, "demo: station %s (%d of %d)...\n", st.Name, si+1, len(sc.Stations))
 		t0 := time.Now()
 		res, err := survey.Run(ctx, src, survey.Options{
 			Receiver: demoReceiver(sc),
@@ -88,7 +130,7 @@ func runDemo(ctx context.Context, w io.Writer, outDir string, writeIQ bool) erro
 		if err != nil {
 			return err
 		}
-		if err := atomicfile.WriteFunc(filepath.Join(outDir, "headings-"+st.Name+".csv"), func(w io.Writer) error { return heading.WriteLog(w, track) }); err != nil {
+		if err := outs.WriteFunc(filepath.Join(outDir, "headings-"+st.Name+".csv"), func(w io.Writer) error { return heading.WriteLog(w, track) }); err != nil {
 			return err
 		}
 		bbs, txs := survey.Bearings(res, track, st.Antenna, bearing.FitOptions{}, survey.DefaultSiteSigmaDeg)
@@ -128,7 +170,7 @@ func runDemo(ctx context.Context, w io.Writer, outDir string, writeIQ bool) erro
 		}
 		// one polar plot per transmitter, from its combined bearing
 		note := survey.ReferenceNote(st.Antenna, heading.True, 0) + " (station " + st.Name + ")"
-		if err := survey.WritePolarPlots(filepath.Join(outDir, "polar-"+st.Name+".png"), bbs, txs, st.Antenna, note, false); err != nil {
+		if err := survey.StagePolarPlots(&outs, filepath.Join(outDir, "polar-"+st.Name+".png"), bbs, txs, st.Antenna, note, false); err != nil {
 			return err
 		}
 		fmt.Fprintln(w)
@@ -157,12 +199,12 @@ func runDemo(ctx context.Context, w io.Writer, outDir string, writeIQ bool) erro
 	for i, l := range lops {
 		recs[i] = geo.BearingRecord{LOP: l}
 	}
-	if err := atomicfile.WriteFunc(filepath.Join(outDir, "bearings.csv"), func(w io.Writer) error { return geo.WriteBearingsCSV(w, recs) }); err != nil {
+	if err := outs.WriteFunc(filepath.Join(outDir, "bearings.csv"), func(w io.Writer) error { return geo.WriteBearingsCSV(w, recs) }); err != nil {
 		return err
 	}
 	grid := &geo.Grid{OriginLat: sc.GridOriginLat, OriginLon: sc.GridOriginLon, CellM: sc.GridCellM,
 		Cols: sc.GridCols, Rows: sc.GridRows, FirstRow: 1}
-	opt := locate.Options{Grid: grid, GeoJSONPath: filepath.Join(outDir, "fixes.geojson"), MapPath: filepath.Join(outDir, "map.png")}
+	opt := locate.Options{Grid: grid, GeoJSONPath: filepath.Join(outDir, "fixes.geojson"), MapPath: filepath.Join(outDir, "map.png"), Stage: &outs}
 	opt.Map.Title = "nullseek demo: " + sc.Place
 	res, err := locate.RunLOPs(lops, opt)
 	if err != nil {
@@ -198,7 +240,12 @@ func runDemo(ctx context.Context, w io.Writer, outDir string, writeIQ bool) erro
 	}
 	fmt.Fprintf(w, "\nFiles in %s: bearings.csv, map.png, fixes.geojson, polar-*.png, headings-*.csv\nTry: nullseek fix %s --grid %q\n",
 		outDir, filepath.Join(outDir, "bearings.csv"), grid.String())
-	return nil
+	if err := outs.Commit(); err != nil {
+		return err
+	}
+	committed = true
+	_, err = report.WriteTo(out)
+	return err
 }
 
 func demoReceiver(sc sim.Scenario) (cfg receiver.Config) {
@@ -216,21 +263,13 @@ func demoDrifts(sc sim.Scenario) string {
 	return strings.Join(parts, ", ")
 }
 
-func fileSafe(s string) string {
-	return strings.Map(func(r rune) rune {
-		if r == '/' || r == '\\' || r == ' ' {
-			return '_'
-		}
-		return r
-	}, s)
-}
-
-func writeStationIQ(sc sim.Scenario, st sim.Station, dir string) error {
+// stageStationIQ renders station st's recording into outs as a SigMF pair.
+func stageStationIQ(outs *atomicfile.Set, sc sim.Scenario, st sim.Station, dir string) error {
 	src, err := sim.NewSource(sc, st)
 	if err != nil {
 		return err
 	}
-	w, err := sdr.CreateSigMF(filepath.Join(dir, "station-"+st.Name), src.Info(), "cu8")
+	w, err := sdr.CreateSigMFIn(outs, filepath.Join(dir, "station-"+st.Name), src.Info(), "cu8")
 	if err != nil {
 		return err
 	}
@@ -242,8 +281,12 @@ func writeStationIQ(sc sim.Scenario, st sim.Station, dir string) error {
 				return err
 			}
 		}
-		if rerr != nil {
+		if rerr == io.EOF {
 			break
+		}
+		if rerr != nil {
+			w.Abort()
+			return rerr
 		}
 	}
 	return w.Close()

@@ -3,6 +3,7 @@ package main
 import (
 	"context"
 	"fmt"
+	"math"
 	"os"
 	"strconv"
 	"strings"
@@ -61,7 +62,30 @@ func (f *headingFlags) options() (survey.BearingOptions, error) {
 	if err := o.Validate(); err != nil {
 		return o, err
 	}
+	// The heading source's flags are checked here too, so that a bad one
+	// stops the command before any recording is read.
+	if _, err := headingRef(f.ref); err != nil {
+		return o, err
+	}
+	if _, err := f.declinationFlag(); err != nil {
+		return o, err
+	}
+	if _, _, _, err := f.stationPos(); err != nil {
+		return o, err
+	}
 	return o, nil
+}
+
+// declinationFlag parses --declination: NaN when it was not given.
+func (f *headingFlags) declinationFlag() (deg float64, err error) {
+	if f.declination == "" {
+		return math.NaN(), nil
+	}
+	d, err := strconv.ParseFloat(strings.TrimSpace(f.declination), 64)
+	if err != nil || !(d >= -180 && d <= 180) {
+		return 0, fmt.Errorf("--declination %q: want degrees east (negative west) within ±180", f.declination)
+	}
+	return d, nil
 }
 
 // pattern builds the antenna pattern (after checking every bearing option).
@@ -201,12 +225,8 @@ func (f *headingFlags) track(info sdr.Info, live *heading.Track, notes func(stri
 
 // declinationAt is --declination, or WMM2025 at --station and time t.
 func (f *headingFlags) declinationAt(t time.Time, notes func(string)) (float64, error) {
-	if f.declination != "" {
-		d, err := strconv.ParseFloat(f.declination, 64)
-		if err != nil || d < -180 || d > 180 {
-			return 0, fmt.Errorf("--declination %q: want degrees east (negative west)", f.declination)
-		}
-		return d, nil
+	if d, err := f.declinationFlag(); err != nil || !math.IsNaN(d) {
+		return d, err
 	}
 	lat, lon, ok, err := f.stationPos()
 	if err != nil {

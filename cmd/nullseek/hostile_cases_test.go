@@ -396,7 +396,8 @@ func hostileCases(t *testing.T) []hostileCase {
 		// 1): the GeoJSON stays, the KML in a missing folder is reported.
 		{name: "fix/KML in a missing folder", files: bcsv(hostileBearings), args: with(hFix, "--geojson", "{out}/f.geojson", "--kml", "{out}/no/f.kml"),
 			want: "f.kml", stdout: true, keep: []string{"out/f.geojson"}},
-		{name: "fix/map on a full disk", files: bcsv(hostileBearings), fsize: 60000, args: with(hFix, "--kml", "{out}/f.kml", "--map", "{out}/m.png"),
+		{name: "fix/map on a full disk", files: bcsv(hostileBearings), fsize: 30000, // the KML is 15 kB, the map 55 kB
+			args: with(hFix, "--kml", "{out}/f.kml", "--map", "{out}/m.png"),
 			want: "m.png", stdout: true, keep: []string{"out/f.kml"}},
 
 		// ---- fix: event grids ----------------------------------------------

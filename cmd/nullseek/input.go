@@ -99,6 +99,11 @@ func (f *inputFlags) config() (cfg receiver.Config, haveChannel bool, err error)
 	if f.freq != "" && f.offset != "" {
 		return cfg, false, fmt.Errorf("give --freq or --offset, not both")
 	}
+	if f.flags != nil && f.flags.Changed("channel-rate") {
+		if err := zeroFlag("channel-rate", f.chanRate); err != nil {
+			return cfg, false, err // 0 would silently mean the default
+		}
+	}
 	cfg.ChannelRateHz = f.chanRate
 	cfg.FalseAlarmsPerHour, cfg.JoinWaitS = f.falseAlarms, f.joinWait
 	cfg.MinBurstS, cfg.MergeGapS = f.minBurst, f.mergeGap

@@ -26,6 +26,11 @@ start times, and when two neighbouring slots will first overlap at the
 measured drifts. Overlaps already in the recording are reported too.`,
 		Args: cobra.ExactArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
+			if cmd.Flags().Changed("period") {
+				if err := zeroFlag("period", opts.NominalPeriodS); err != nil {
+					return err // 0 would silently mean "unknown"
+				}
+			}
 			if err := opts.Validate(); err != nil {
 				return err
 			}

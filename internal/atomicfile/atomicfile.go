@@ -149,6 +149,16 @@ func resolve(path string) (string, error) {
 	}
 }
 
+// Check tells whether path could take an output, before any work is done:
+// the error Create would give for a target that can never be a regular
+// file (a directory, named pipe, device or socket, directly or through
+// links, or a path through a regular file). A missing folder is not
+// checked here; Create reports it.
+func Check(path string) error {
+	_, err := resolve(path)
+	return err
+}
+
 // tempName is a fresh name beside target, hidden and marked .tmp.
 func tempName(target string) string {
 	var b [6]byte
