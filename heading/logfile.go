@@ -16,16 +16,20 @@ import (
 //   - An optional header row whose first field starts with "time" or
 //     "second" and second with "heading" (case-insensitive) may come first. Blank lines
 //     and lines starting with '#' are skipped anywhere.
+//
 //   - time is either seconds from the capture start (a decimal number, may
 //     be negative) or an RFC 3339 timestamp (e.g. 2025-06-01T10:00:00.5Z),
 //     converted to seconds with captureStart; an RFC 3339 time with a zero
 //     captureStart is an error. The two forms may be mixed.
+//
 //   - heading_deg is degrees clockwise from the ref north in [0, 360];
 //     360 is read as 0 (some compasses print 360.0 for north). A negative
 //     value, one above 360, NaN or Inf is an error naming the line: a log
 //     that writes -10 for 350 is taken as corrupt rather than guessed at.
+//
 //   - Times must strictly increase; a row at or before the previous one is
 //     an error naming the line. Holes are allowed (see Track.Gaps).
+//
 //   - A file with no data rows is an error.
 //
 //   - A time more than maxLogOffsetS from the capture start is an error:
