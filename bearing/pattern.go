@@ -30,6 +30,7 @@ import (
 	"nullseek/internal/angle"
 	"nullseek/internal/atomicfile"
 	"os"
+	"slices"
 )
 
 // Mode says which feature of a pattern marks the bearing: a null (small loop,
@@ -105,20 +106,21 @@ const (
 	RefFacing    = "the way the operator faces (the drop is with the back to the transmitter)"
 )
 
-// MinPatternRangeDB is the least spread between a pattern's highest and
-// lowest gain: below it the level barely changes as the antenna turns and
+// MinPatternRangeDB is the least spread between the highest and lowest gain
+// of a pattern file (one read to take bearings with): below it the level barely changes as the antenna turns and
 // no fit could tell a direction from receiver noise (a body shield, the
 // weakest pattern here, drops about 12 dB).
 const MinPatternRangeDB = 1.0
 
 // Validate checks the table size, finiteness, normalisation (max 0 dB within
-// 0.01 dB), the floor MinGainDB, the spread MinPatternRangeDB and the
-// symmetry.
+// 0.01 dB), the floor MinGainDB and the symmetry. A flat pattern passes (an
+// omnidirectional antenna is a pattern too, for finding bursts); a pattern
+// file must also have the spread MinPatternRangeDB (ParsePattern).
 func (p Pattern) Validate() error {
 	if len(p.GainDB) != PatternSteps {
 		return fmt.Errorf("pattern %q: %d gain values, want %d (1° steps)", p.Name, len(p.GainDB), PatternSteps)
 	}
-	mx, mn := math.Inf(-1), math.Inf(1)
+	mx := math.Inf(-1)
 	for k, g := range p.GainDB {
 		if math.IsNaN(g) || math.IsInf(g, 0) {
 			return fmt.Errorf("pattern %q: gain at %d° is not finite", p.Name, k)
@@ -126,13 +128,10 @@ func (p Pattern) Validate() error {
 		if g < MinGainDB-1e-9 {
 			return fmt.Errorf("pattern %q: gain at %d° is %.1f dB, below the floor %.0f dB", p.Name, k, g, MinGainDB)
 		}
-		mx, mn = math.Max(mx, g), math.Min(mn, g)
+		mx = math.Max(mx, g)
 	}
 	if math.Abs(mx) > 0.01 {
 		return fmt.Errorf("pattern %q: maximum gain is %.3f dB, want 0 dB (normalise the table)", p.Name, mx)
-	}
-	if mx-mn < MinPatternRangeDB {
-		return fmt.Errorf("pattern %q: its gains span only %.2f dB (want at least %g dB): a pattern this flat tells no direction", p.Name, mx-mn, MinPatternRangeDB)
 	}
 	if p.Symmetry < 1 || PatternSteps%p.Symmetry != 0 {
 		return fmt.Errorf("pattern %q: symmetry %d must be a positive divisor of 360", p.Name, p.Symmetry)
@@ -374,6 +373,9 @@ func ParsePattern(data []byte) (Pattern, error) {
 	}
 	if err := p.Validate(); err != nil {
 		return Pattern{}, fmt.Errorf("pattern JSON: %w", err)
+	}
+	if mn := slices.Min(p.GainDB); -mn < MinPatternRangeDB-1e-9 {
+		return Pattern{}, fmt.Errorf("pattern JSON: its gains span only %.2f dB (want at least %g dB): a pattern this flat tells no direction", -mn, MinPatternRangeDB)
 	}
 	return p, nil
 }
