@@ -662,6 +662,17 @@ func Fit(points []Point, p Pattern, opts FitOptions) (Estimate, error) {
 	} else if passes >= 1.8 && hac > 2*modelSigma && hac > 1 {
 		est.warn(FlagMultipath, "multipath: level changes that repeat with heading over %.0f turns and that the pattern does not explain; sigma %.2f° widened to %.2f°", passes, modelSigma, hac)
 	}
+	// A second path biases the bearing, and a bias is what no sigma from
+	// the residuals shows: the fit absorbs its part along the pattern's
+	// slope. How far the bearing moves when each eighth of the sweep around
+	// the feature is left out in turn bounds what a distortion confined to
+	// some headings can have done; the sigma is widened to that spread.
+	if est.HasFlag(FlagMultipath) {
+		if jk, moved, n := f.sectorJackknife(theta, c, angle.Wrap360(theta-fdeg), 8, 360/float64(p.Symmetry), fading); n >= 4 && jk > est.SigmaDeg {
+			est.warn(FlagMultipath, "multipath: the bearing moves up to %.1f° when any 45° of the sweep is left out: sigma widened from %.2f° to %.1f°", moved, est.SigmaDeg, jk)
+			est.SigmaDeg = jk
+		}
+	}
 
 	// Residual bootstrap (independent cells only).
 	if o.Bootstrap > 0 && !fading {

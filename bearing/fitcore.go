@@ -788,3 +788,59 @@ func (f *fitter) jackknife(theta, c float64, blocks int, period float64) float64
 	}
 	return math.Sqrt(float64(blocks-1) / float64(blocks) * ss)
 }
+
+// sectorJackknife refits the bearing with the cells of one heading sector
+// left out at a time: sectors equal slices of the circle, the first centred
+// on featureHeading (where the pattern's feature was seen). It returns the
+// jackknife standard error of the bearing over the refits that worked,
+// sqrt((n-1)/n · Σ(θk − θ̄)²) (Efron & Tibshirani 1993, An Introduction to
+// the Bootstrap, eq. 11.5), the largest move from theta, and n. A sector
+// holding no cell adds no refit.
+func (f *fitter) sectorJackknife(theta, c, featureHeading float64, sectors int, period float64, gls bool) (se, moved float64, n int) {
+	w0 := append([]float64(nil), f.w...)
+	defer func() {
+		copy(f.w, w0)
+		f.eval(theta, c)
+	}()
+	width := 360 / float64(sectors)
+	var ts []float64
+	for s := 0; s < sectors; s++ {
+		left := 0
+		for k, cl := range f.cells {
+			if int(angle.Wrap360(cl.h-featureHeading+width/2)/width)%sectors == s {
+				f.w[k] = 0
+				left++
+			} else {
+				f.w[k] = w0[k]
+			}
+		}
+		if left == 0 {
+			continue
+		}
+		var t float64
+		if gls {
+			t, _ = f.glsGN(theta, c)
+		} else {
+			t, _ = f.whiteGN(theta, c)
+		}
+		d := math.Mod(angle.Wrap180(t-theta)+period/2+4*360, period) - period/2
+		if math.IsNaN(d) {
+			continue
+		}
+		ts = append(ts, d)
+		moved = math.Max(moved, math.Abs(d))
+	}
+	n = len(ts)
+	if n < 2 {
+		return 0, moved, n
+	}
+	var mean, ss float64
+	for _, d := range ts {
+		mean += d
+	}
+	mean /= float64(n)
+	for _, d := range ts {
+		ss += (d - mean) * (d - mean)
+	}
+	return math.Sqrt(float64(n-1) / float64(n) * ss), moved, n
+}
