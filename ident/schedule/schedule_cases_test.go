@@ -152,12 +152,12 @@ func TestScheduleSingleBurstTransmitter(t *testing.T) {
 		t.Fatal(err)
 	}
 	var raw struct {
-		Transmitters map[string]map[string]any `json:"transmitters"`
+		Transmitters []map[string]any `json:"transmitters"`
 	}
 	if err := json.Unmarshal(b, &raw); err != nil {
 		t.Fatal(err)
 	}
-	if v, ok := raw.Transmitters["N0CALL/2"]["period_s"]; !ok || v != nil {
+	if v, ok := txByIdent(raw.Transmitters)["N0CALL/2"]["period_s"]; !ok || v != nil {
 		t.Errorf("period_s of a single-burst transmitter: %v (present %v), want null", v, ok)
 	}
 }
@@ -187,14 +187,25 @@ func TestScheduleJSONShape(t *testing.T) {
 				t.Fatal(err)
 			}
 			var doc struct {
+				Type         string                    `json:"type"`
 				Order        []string                  `json:"order"`
-				Transmitters map[string]map[string]any `json:"transmitters"`
+				TxList       []map[string]any          `json:"transmitters"`
+				Transmitters map[string]map[string]any `json:"-"`
 				Collisions   []map[string]any          `json:"collisions"`
 				Overlaps     []any                     `json:"overlaps"`
 				DriftRef     string                    `json:"drift_reference"`
 			}
 			if err := json.Unmarshal(b, &doc); err != nil {
 				t.Fatal(err)
+			}
+			doc.Transmitters = txByIdent(doc.TxList)
+			if doc.Type != "schedule" {
+				t.Errorf(`"type" %q, want "schedule" (every JSON line nullseek writes says its type)`, doc.Type)
+			}
+			for i, tx := range doc.TxList {
+				if tx["ident"] != plan.Order[i] {
+					t.Errorf("transmitters[%d] is %v, want %s: the list follows the cycle order", i, tx["ident"], plan.Order[i])
+				}
 			}
 			if !slices.Equal(doc.Order, plan.Order) || len(doc.Transmitters) != 5 || doc.DriftRef != "nominal 300 s" || doc.Overlaps == nil {
 				t.Fatalf("document %s", b)
@@ -247,7 +258,7 @@ func slotCheckWhen(t *testing.T, v any, withStart bool, start time.Time, wantS f
 		return
 	}
 	f, ok := v.(float64)
-	if !ok || math.Abs(f-wantS) > 1e-9 {
+	if !ok || math.Abs(f-wantS) > 0.5e-4+1e-9 { // written to 0.1 ms
 		t.Errorf("time %v, want seconds %.3f", v, wantS)
 	}
 }
@@ -511,7 +522,11 @@ func TestScheduleNextInTable(t *testing.T) {
 		if err := json.Unmarshal(js, &back); err != nil {
 			t.Fatal(err)
 		}
-		if got := back["transmitters"].(map[string]any)["N0CALL/1"].(map[string]any)["next_on_s"].([]any); len(got) != n {
+		var list []map[string]any
+		for _, x := range back["transmitters"].([]any) {
+			list = append(list, x.(map[string]any))
+		}
+		if got := txByIdent(list)["N0CALL/1"]["next_on_s"].([]any); len(got) != n {
 			t.Errorf("--next %d: JSON has %d predictions", n, len(got))
 		}
 	}
@@ -638,4 +653,15 @@ func TestScheduleListedHeard(t *testing.T) {
 	if !strings.Contains(b.String(), "never heard: N0CALL/2, N0CALL/4") || !strings.Contains(string(js), `"not_heard":["N0CALL/2","N0CALL/4"]`) {
 		t.Errorf("table or JSON lacks the never-heard IDs:\n%s\n%s", b.String(), js)
 	}
+}
+
+// txByIdent indexes the schedule JSON's transmitters list by "ident".
+func txByIdent(list []map[string]any) map[string]map[string]any {
+	m := map[string]map[string]any{}
+	for _, tx := range list {
+		if id, ok := tx["ident"].(string); ok {
+			m[id] = tx
+		}
+	}
+	return m
 }

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"strconv"
 	"strings"
 	"text/tabwriter"
 	"time"
@@ -13,7 +14,10 @@ import (
 // timeLayout is RFC 3339 in UTC with milliseconds.
 const timeLayout = "2006-01-02T15:04:05.000Z07:00"
 
-// jsonNum is a JSON number that is null when not finite.
+// jsonNum is a JSON number that is null when not finite, written with 7
+// significant digits: 0.1 ms in a 300 s period, 0.01 ppm in a drift of
+// hundreds, far finer than any of the schedule's standard errors, and no
+// floating-point tail (300.0123, not 300.01230000000004).
 type jsonNum float64
 
 func (x jsonNum) MarshalJSON() ([]byte, error) {
@@ -21,7 +25,24 @@ func (x jsonNum) MarshalJSON() ([]byte, error) {
 	if math.IsNaN(f) || math.IsInf(f, 0) {
 		return []byte("null"), nil
 	}
-	return json.Marshal(f)
+	r, err := strconv.ParseFloat(strconv.FormatFloat(f, 'g', 7, 64), 64)
+	if err != nil {
+		return nil, err
+	}
+	return json.Marshal(r)
+}
+
+// jsonSec is a time in seconds from the capture start as JSON: null when
+// not finite, rounded to 0.1 ms (the RFC 3339 times carry 1 ms; burst edges
+// are good to about a millisecond at best).
+type jsonSec float64
+
+func (x jsonSec) MarshalJSON() ([]byte, error) {
+	f := float64(x)
+	if math.IsNaN(f) || math.IsInf(f, 0) {
+		return []byte("null"), nil
+	}
+	return json.Marshal(math.Round(f*1e4) / 1e4)
 }
 
 // timeOrSeconds is an RFC 3339 time when the capture start is known, else the
@@ -30,23 +51,24 @@ func timeOrSeconds(t0 time.Time, s float64) any {
 	if at, ok := toUTC(t0, s); ok {
 		return at.Format(timeLayout)
 	}
-	return jsonNum(s)
+	return jsonSec(s)
 }
 
 type txJSON struct {
+	Ident            string             `json:"ident"`
 	PeriodS          jsonNum            `json:"period_s"`
 	PeriodSigmaS     jsonNum            `json:"period_sigma_s"`
 	OnS              jsonNum            `json:"on_s"`
 	GapS             jsonNum            `json:"gap_s"`
 	DriftPPM         jsonNum            `json:"drift_ppm"`
 	NextOn           []any              `json:"next_on"`
-	NextOnS          []jsonNum          `json:"next_on_s"`
+	NextOnS          []jsonSec          `json:"next_on_s"`
 	NextOnSigmaS     []jsonNum          `json:"next_on_sigma_s"`
 	DriftSigmaPPM    jsonNum            `json:"drift_sigma_ppm"`
 	RelativeDriftPPM map[string]jsonNum `json:"relative_drift_ppm,omitempty"`
 	OnSigmaS         jsonNum            `json:"on_sigma_s"`
-	PhaseS           jsonNum            `json:"phase_s"`
-	T0S              jsonNum            `json:"t0_s"`
+	PhaseS           jsonSec            `json:"phase_s"`
+	T0S              jsonSec            `json:"t0_s"`
 	ResidualRMSS     jsonNum            `json:"residual_rms_s"`
 	Bursts           int                `json:"bursts"`
 	FitBursts        int                `json:"fit_bursts"`
@@ -58,7 +80,7 @@ type collisionJSON struct {
 	A                string  `json:"a"`
 	B                string  `json:"b"`
 	At               any     `json:"at"`
-	AtS              jsonNum `json:"at_s"`
+	AtS              jsonSec `json:"at_s"`
 	SigmaS           jsonNum `json:"sigma_s"`
 	Cycles           jsonNum `json:"cycles"`
 	ClosingSPerCycle jsonNum `json:"closing_s_per_cycle"`
@@ -73,50 +95,54 @@ type overlapJSON struct {
 	IndexA int     `json:"index_a"`
 	IndexB int     `json:"index_b"`
 	Start  any     `json:"start"`
-	StartS jsonNum `json:"start_s"`
-	EndS   jsonNum `json:"end_s"`
+	StartS jsonSec `json:"start_s"`
+	EndS   jsonSec `json:"end_s"`
 	Source string  `json:"source"`
 }
 
 type planJSON struct {
-	Order           []string          `json:"order"`
-	Transmitters    map[string]txJSON `json:"transmitters"`
-	Collisions      []collisionJSON   `json:"collisions"`
-	Overlaps        []overlapJSON     `json:"overlaps"`
-	CommonPeriodS   jsonNum           `json:"common_period_s"`
-	DriftReference  string            `json:"drift_reference"`
-	DriftReferenceS jsonNum           `json:"drift_reference_s"`
-	CaptureStart    *string           `json:"capture_start"`
-	EndS            jsonNum           `json:"end_s"`
-	NominalPeriodS  jsonNum           `json:"nominal_period_s,omitempty"`
-	NominalFits     *bool             `json:"nominal_fits,omitempty"`
-	NominalMisfit   string            `json:"nominal_misfit,omitempty"`
-	Heard           []string          `json:"heard"`
-	NotHeard        []string          `json:"not_heard"`
-	Notes           []string          `json:"notes,omitempty"`
+	Type            string          `json:"type"`
+	Order           []string        `json:"order"`
+	Transmitters    []txJSON        `json:"transmitters"`
+	Collisions      []collisionJSON `json:"collisions"`
+	Overlaps        []overlapJSON   `json:"overlaps"`
+	CommonPeriodS   jsonNum         `json:"common_period_s"`
+	DriftReference  string          `json:"drift_reference"`
+	DriftReferenceS jsonNum         `json:"drift_reference_s"`
+	CaptureStart    *string         `json:"capture_start"`
+	EndS            jsonSec         `json:"end_s"`
+	NominalPeriodS  jsonNum         `json:"nominal_period_s,omitempty"`
+	NominalFits     *bool           `json:"nominal_fits,omitempty"`
+	NominalMisfit   string          `json:"nominal_misfit,omitempty"`
+	Heard           []string        `json:"heard"`
+	NotHeard        []string        `json:"not_heard"`
+	Notes           []string        `json:"notes,omitempty"`
 }
 
 // MarshalJSON writes the plan as
 //
-//	{"order": [id…],
-//	 "transmitters": {id: {"period_s", "period_sigma_s", "on_s", "gap_s",
-//	                       "drift_ppm", "next_on": [time…], …}},
+//	{"type": "schedule", "order": [id…],
+//	 "transmitters": [{"ident": id, "period_s", "period_sigma_s", "on_s",
+//	                   "gap_s", "drift_ppm", "next_on": [time…], …}],
 //	 "collisions": [{"a", "b", "at", "at_s", …}], "overlaps": […], …}
 //
 // Times ("next_on", "at", "start") are RFC 3339 UTC strings when the capture
 // start is known, else seconds from the capture start; "…_s" fields are
-// always seconds. Quantities that could not be estimated are null. Lists are
-// [] rather than null when empty.
+// always seconds. Quantities that could not be estimated are null; numbers
+// carry 7 significant digits (jsonNum). Lists are [] rather than null when
+// empty; "transmitters" is a list in the plan's order, like every list of
+// transmitters nullseek writes.
 func (p *Plan) MarshalJSON() ([]byte, error) {
 	out := planJSON{
+		Type:            "schedule",
 		Order:           p.Order,
-		Transmitters:    map[string]txJSON{},
+		Transmitters:    []txJSON{},
 		Collisions:      []collisionJSON{},
 		Overlaps:        []overlapJSON{},
 		CommonPeriodS:   jsonNum(p.CommonPeriodS),
 		DriftReference:  p.DriftReference,
 		DriftReferenceS: jsonNum(p.DriftReferenceS),
-		EndS:            jsonNum(p.EndS),
+		EndS:            jsonSec(p.EndS),
 		NominalMisfit:   p.NominalMisfit,
 		Heard:           append([]string{}, p.Heard...),
 		NotHeard:        append([]string{}, p.NotHeard...),
@@ -135,16 +161,17 @@ func (p *Plan) MarshalJSON() ([]byte, error) {
 	}
 	for _, t := range p.Transmitters {
 		j := txJSON{
+			Ident:   t.ID,
 			PeriodS: jsonNum(t.PeriodS), PeriodSigmaS: jsonNum(t.PeriodSigmaS),
 			OnS: jsonNum(t.OnS), GapS: jsonNum(t.GapS), DriftPPM: jsonNum(t.DriftPPM),
-			NextOn: []any{}, NextOnS: []jsonNum{}, NextOnSigmaS: []jsonNum{},
+			NextOn: []any{}, NextOnS: []jsonSec{}, NextOnSigmaS: []jsonNum{},
 			DriftSigmaPPM: jsonNum(t.DriftSigmaPPM), OnSigmaS: jsonNum(t.OnSigmaS),
-			PhaseS: jsonNum(t.PhaseS), T0S: jsonNum(t.T0S), ResidualRMSS: jsonNum(t.ResidualRMSS),
+			PhaseS: jsonSec(t.PhaseS), T0S: jsonSec(t.T0S), ResidualRMSS: jsonNum(t.ResidualRMSS),
 			Bursts: t.Bursts, FitBursts: t.FitBursts, Rejected: t.Rejected, Reason: t.Reason,
 		}
 		for i, s := range t.NextOnS {
 			j.NextOn = append(j.NextOn, timeOrSeconds(p.CaptureStart, s))
-			j.NextOnS = append(j.NextOnS, jsonNum(s))
+			j.NextOnS = append(j.NextOnS, jsonSec(s))
 			j.NextOnSigmaS = append(j.NextOnSigmaS, jsonNum(t.NextOnSigmaS[i]))
 		}
 		if len(t.RelativeDriftPPM) > 0 {
@@ -153,11 +180,11 @@ func (p *Plan) MarshalJSON() ([]byte, error) {
 				j.RelativeDriftPPM[k] = jsonNum(v)
 			}
 		}
-		out.Transmitters[t.ID] = j
+		out.Transmitters = append(out.Transmitters, j)
 	}
 	for _, c := range p.Collisions {
 		out.Collisions = append(out.Collisions, collisionJSON{
-			A: c.A, B: c.B, At: timeOrSeconds(p.CaptureStart, c.AtS), AtS: jsonNum(c.AtS),
+			A: c.A, B: c.B, At: timeOrSeconds(p.CaptureStart, c.AtS), AtS: jsonSec(c.AtS),
 			SigmaS: jsonNum(c.SigmaS), Cycles: jsonNum(c.Cycles),
 			ClosingSPerCycle: jsonNum(c.ClosingSPerCycle), ClosingSigmaS: jsonNum(c.ClosingSigmaS),
 			Significant: c.Significant, Already: c.Already,
@@ -166,7 +193,7 @@ func (p *Plan) MarshalJSON() ([]byte, error) {
 	for _, o := range p.Overlaps {
 		out.Overlaps = append(out.Overlaps, overlapJSON{
 			A: o.A, B: o.B, IndexA: o.IndexA, IndexB: o.IndexB,
-			Start: timeOrSeconds(p.CaptureStart, o.StartS), StartS: jsonNum(o.StartS), EndS: jsonNum(o.EndS),
+			Start: timeOrSeconds(p.CaptureStart, o.StartS), StartS: jsonSec(o.StartS), EndS: jsonSec(o.EndS),
 			Source: o.Source,
 		})
 	}
