@@ -259,6 +259,12 @@ func ReadGridJSON(r io.Reader) (*Grid, error) {
 	if err := dec.Decode(&f); err != nil {
 		return nil, fmt.Errorf("grid JSON: %w", err)
 	}
+	// One object and nothing after it: a second object or stray text is a
+	// damaged or concatenated file, not a grid to guess from.
+	var extra json.RawMessage
+	if err := dec.Decode(&extra); err != io.EOF {
+		return nil, errors.New("grid JSON: more after the grid object: want one object and nothing else")
+	}
 	if f.OriginLat == nil || f.OriginLon == nil || f.CellM == nil {
 		return nil, errors.New("grid JSON needs origin_lat, origin_lon and cell_m")
 	}

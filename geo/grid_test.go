@@ -183,3 +183,17 @@ func BenchmarkProbMap200(b *testing.B) {
 		_ = pm.Top(10, 0.005)
 	}
 }
+
+// TestReadGridJSONTrailing: one object and nothing after it (RFC 8259 §2: a
+// JSON text is one value).
+func TestReadGridJSONTrailing(t *testing.T) {
+	good := `{"origin_lat": 45.1, "origin_lon": 6.1, "cell_m": 250, "cols": "A-L", "rows": "1-9"}`
+	if _, err := ReadGridJSON(strings.NewReader(good + "\n")); err != nil {
+		t.Fatalf("one object: %v", err)
+	}
+	for _, tail := range []string{" {}", " garbage", "\n" + good} {
+		if _, err := ReadGridJSON(strings.NewReader(good + tail)); err == nil || !strings.Contains(err.Error(), "more after") {
+			t.Errorf("%q after the object: %v, want a refusal", tail, err)
+		}
+	}
+}
