@@ -27,12 +27,23 @@ type CarrierSearch struct {
 	LiveSeconds float64
 }
 
+// maxCarrierFFT bounds the carrier search's spectrum: 2^22 points (32 MiB
+// of complex64 per buffer) resolves 2.4 MS/s to 0.6 Hz, finer than any
+// carrier search needs.
+const maxCarrierFFT = 1 << 22
+
 // FindCarriers averages the power spectrum of src (Welch, Hann window) and
 // lists the carriers standing above the floor, strongest first, with
 // offsets relative to the capture centre. It reads src; reopen it to scan.
 func FindCarriers(src sdr.Source, cs CarrierSearch) ([]dsp.Carrier, error) {
 	info := src.Info()
-	if cs.BinHz <= 0 {
+	if err := info.Validate(); err != nil {
+		return nil, fmt.Errorf("find carriers: %w", err)
+	}
+	if !(cs.BinHz >= 0) || math.IsInf(cs.BinHz, 0) {
+		return nil, fmt.Errorf("find carriers: resolution %v Hz is not a positive number", cs.BinHz)
+	}
+	if cs.BinHz == 0 {
 		cs.BinHz = 250
 	}
 	if cs.MinSNRDB <= 0 {
@@ -49,6 +60,9 @@ func FindCarriers(src sdr.Source, cs CarrierSearch) ([]dsp.Carrier, error) {
 	}
 	nfft := 1
 	for float64(nfft) < info.SampleRate/cs.BinHz {
+		if nfft == maxCarrierFFT {
+			return nil, fmt.Errorf("find carriers: %g Hz resolution at %g S/s needs an FFT over %d points: give a coarser resolution", cs.BinHz, info.SampleRate, maxCarrierFFT)
+		}
 		nfft *= 2
 	}
 	nfft = max(nfft, 64)

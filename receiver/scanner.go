@@ -116,8 +116,8 @@ func NewScanner(info sdr.Info, cfg Config) (*Scanner, error) {
 	if err := cfg.Validate(); err != nil {
 		return nil, err
 	}
-	if !(info.SampleRate > 0) || math.IsInf(info.SampleRate, 0) {
-		return nil, fmt.Errorf("%s: sample rate %v is not usable", info.Name, info.SampleRate)
+	if err := info.Validate(); err != nil {
+		return nil, fmt.Errorf("%s: %w", info.Name, err)
 	}
 	off, err := cfg.ChannelOffset(info)
 	if err != nil {
