@@ -133,7 +133,12 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 	cx, cy := (minX+maxX)/2, (minY+maxY)/2
 	// A band across the top keeps the legend off the grid's column labels;
 	// x grows as much so a kilometre stays as long both ways.
-	band := 0.12 * span
+	// The band is as tall as the legend: one line per transmitter's
+	// bearings, the two ellipses, the fix, the shading, the station and
+	// perhaps rejected bearings, 13 pt each at 10 pt type.
+	entries := len(fixes) + 6
+	frac := math.Min(0.45, float64(entries*13+16)/(0.85*opt.SizeCm*72/2.54))
+	band := span * frac / (1 - frac)
 	x0, x1, y0, y1 := cx-span/2-band/2, cx+span/2+band/2, cy-span/2, cy+span/2+band
 
 	p := plot.New()
@@ -181,8 +186,9 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 	seen := map[string]bool{}
 	var stXY plotter.XYs
 	var stNames []string
-	legendUsed, legendRej := false, false
+	legendRej := false
 	for fi, f := range fixes {
+		legendUsed := false
 		ci := fi
 		if c, ok := opt.ColorOf[f.Ident]; ok {
 			ci = c
@@ -222,7 +228,7 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 					legendRej = true
 				}
 			} else if !legendUsed {
-				p.Legend.Add("bearing, wedge = ±1 sigma", ln)
+				p.Legend.Add(f.Ident+" bearings, wedge ±1σ", ln)
 				legendUsed = true
 			}
 			p.Add(ln)
@@ -248,8 +254,13 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 			if e.dashed {
 				ln.Width = vg.Points(0.8)
 				ln.Dashes = []vg.Length{vg.Points(2), vg.Points(2)}
-			} else if f == fixes[0] {
-				p.Legend.Add(fmt.Sprintf("%.0f%% error ellipse", 100*e.el.Probability), ln)
+			}
+			if f == fixes[0] {
+				what := "%.0f%% error ellipse"
+				if e.dashed {
+					what = "1σ error ellipse (%.0f%%)"
+				}
+				p.Legend.Add(fmt.Sprintf(what, 100*e.el.Probability), ln)
 			}
 			p.Add(ln)
 		}
@@ -262,11 +273,21 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 		sc.Color = colEllipse
 		sc.Radius = vg.Points(5)
 		p.Add(sc)
+		if f == fixes[0] {
+			p.Legend.Add("fix: most likely position", sc)
+			p.Legend.Add("shading: likelihood of the position", shadeThumb{})
+		}
 		label := f.Ident
 		if f.GridCell != "" {
-			label += "  " + f.GridCell
+			label += "  cell " + f.GridCell
 		}
-		if err := addLabels(p, plotter.XYs{{X: x, Y: y}}, []string{label}, colEllipse, 12, vg.Points(8), vg.Points(6)); err != nil {
+		// The label sits right of the 95% ellipse, clear of it.
+		right := x
+		for _, q := range geo.EllipsePolygon(f, f.Ellipse, 36) {
+			qx, _ := fr.xy(q[0], q[1])
+			right = math.Max(right, qx)
+		}
+		if err := addLabels(p, plotter.XYs{{X: right, Y: y}}, []string{label}, colEllipse, 12, vg.Points(5), vg.Points(-4)); err != nil {
 			return nil, err
 		}
 	}
@@ -284,20 +305,111 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 			return nil, err
 		}
 	}
+	p.Add(furniture{spanKm: x1 - x0})
+	p.Title.Padding = vg.Points(8)
 	p.Legend.Top = true
 	p.Legend.Left = true
-	p.Legend.Padding = vg.Points(3)
+	p.Legend.Padding = vg.Points(2)
+	p.Legend.TextStyle.Font.Size = vg.Points(10)
+	p.Legend.XOffs, p.Legend.YOffs = vg.Points(6), vg.Points(-6)
 
 	side := vg.Length(opt.SizeCm) * vg.Centimeter
-	wt, err := p.WriterTo(side, side, format)
+	cw, err := draw.NewFormattedCanvas(side, side, format)
 	if err != nil {
 		return nil, fmt.Errorf("map: %w", err)
 	}
+	// The legend is drawn last, on a light box of its own, so that what
+	// lies under it stays readable and it stays readable over the map.
+	legend := p.Legend
+	p.Legend = plot.NewLegend()
+	dc := draw.New(cw)
+	p.Draw(dc)
+	da := p.DataCanvas(dc)
+	// The legend's size from gonum's Legend.Rectangle (whose Left is the
+	// mirror of Draw's in plot v0.17, and which leaves out the offsets),
+	// placed where Draw puts the entries: top left, shifted by the offsets.
+	flip := legend
+	flip.Left = !legend.Left
+	size := flip.Rectangle(da).Size()
+	pad := vg.Points(4)
+	top := da.Max.Y + legend.YOffs
+	left := da.Min.X + legend.XOffs
+	box := vg.Rectangle{Min: vg.Point{X: left - pad, Y: top - size.Y - legend.TextStyle.FontExtents().Descent - pad},
+		Max: vg.Point{X: left + size.X + pad, Y: top + pad}}
+	da.SetColor(color.NRGBA{R: 255, G: 255, B: 255, A: 225})
+	da.Fill(box.Path())
+	da.SetLineStyle(draw.LineStyle{Color: color.Gray{Y: 140}, Width: vg.Points(0.6)})
+	da.Stroke(box.Path())
+	legend.Draw(da)
 	var buf bytes.Buffer
-	if _, err := wt.WriteTo(&buf); err != nil {
+	if _, err := cw.WriteTo(&buf); err != nil {
 		return nil, fmt.Errorf("map: %w", err)
 	}
 	return buf.Bytes(), nil
+}
+
+// shadeThumb is the legend's swatch for the likelihood shading.
+type shadeThumb struct{}
+
+func (shadeThumb) Thumbnail(c *draw.Canvas) {
+	c.SetColor(color.NRGBA{R: 255, G: 150, B: 0, A: 120})
+	c.Fill(c.Rectangle.Path())
+}
+
+// furniture draws a scale bar and a north arrow in the lower right corner
+// of the map. The map is a local east/north plane (frame.xy), so north is
+// straight up and a kilometre has one length both ways.
+type furniture struct{ spanKm float64 }
+
+// niceLength is the 1, 2 or 5 × 10^k km nearest below a fifth of the span.
+func niceLength(spanKm float64) float64 {
+	target := spanKm / 5
+	e := math.Pow(10, math.Floor(math.Log10(target)))
+	for _, m := range []float64{5, 2, 1} {
+		if m*e <= target {
+			return m * e
+		}
+	}
+	return e
+}
+
+func (f furniture) Plot(c draw.Canvas, p *plot.Plot) {
+	trX, _ := p.Transforms(&c)
+	L := niceLength(f.spanKm)
+	px := trX(p.X.Min+L) - trX(p.X.Min) // bar length on the canvas
+	right := c.Max.X - vg.Points(14)
+	bottom := c.Min.Y + vg.Points(14)
+	ink := color.Gray{Y: 30}
+	c.SetLineStyle(draw.LineStyle{Color: ink, Width: vg.Points(1.6)})
+	var bar vg.Path
+	bar.Move(vg.Point{X: right - px, Y: bottom})
+	bar.Line(vg.Point{X: right, Y: bottom})
+	for _, x := range []vg.Length{right - px, right - px/2, right} {
+		bar.Move(vg.Point{X: x, Y: bottom})
+		bar.Line(vg.Point{X: x, Y: bottom + vg.Points(5)})
+	}
+	c.Stroke(bar)
+	sty := p.Legend.TextStyle
+	sty.Color = ink
+	sty.Font.Size = vg.Points(10)
+	sty.XAlign, sty.YAlign = draw.XCenter, draw.YBottom
+	label := strconv.FormatFloat(L, 'f', -1, 64) + " km"
+	if L < 1 {
+		label = strconv.FormatFloat(L*1000, 'f', -1, 64) + " m"
+	}
+	c.FillText(sty, vg.Point{X: right - px/2, Y: bottom + vg.Points(7)}, label)
+	// North arrow above the bar.
+	ax, ay := right-vg.Points(8), bottom+vg.Points(30)
+	var head vg.Path
+	head.Move(vg.Point{X: ax, Y: ay + vg.Points(22)})
+	head.Line(vg.Point{X: ax - vg.Points(6), Y: ay})
+	head.Line(vg.Point{X: ax, Y: ay + vg.Points(6)})
+	head.Line(vg.Point{X: ax + vg.Points(6), Y: ay})
+	head.Close()
+	c.SetColor(ink)
+	c.Fill(head)
+	sty.YAlign = draw.YBottom
+	c.FillText(sty, vg.Point{X: ax, Y: ay + vg.Points(24)}, "N")
 }
 
 func addLabels(p *plot.Plot, xy plotter.XYs, text []string, c color.Color, sizePt float64, dx, dy vg.Length) error {
