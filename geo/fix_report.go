@@ -114,7 +114,7 @@ func round(x float64, digits int) float64 {
 }
 
 func roundEllipse(e Ellipse) Ellipse {
-	return Ellipse{round(e.SemiMajorM, 2), round(e.SemiMinorM, 2), round(e.OrientationDeg, 2), e.Probability}
+	return Ellipse{round(e.SemiMajorM, 2), round(e.SemiMinorM, 2), round(e.OrientationDeg, 2), round(e.Probability, 4)}
 }
 
 // Report converts the fix to its JSON form (lat/lon to 1e-7°, lengths to
