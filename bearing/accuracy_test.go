@@ -9,10 +9,10 @@ import (
 )
 
 // The accuracy checks follow the reporting style of ITU-R SM.2060-0 (RMS
-// bearing error over true bearings stepped round the circle; REFERENCES §6,
+// bearing error over true bearings stepped round the circle;
 // content from memory) and compare that RMS with the Cramér–Rao bound derived
-// for the simulated model (CRBThermalDeg, CRBDBDeg; REFERENCES §6
-// derivation). The simulated readings are exact noncentral-χ² power
+// for the simulated model (CRBThermalDeg, CRBDBDeg; derived in
+// crb.go). The simulated readings are exact noncentral-χ² power
 // estimates, so the dB errors are non-Gaussian and the null is filled by
 // noise: the estimator has to model that (NoiseThermal) to reach the bound.
 
@@ -128,7 +128,7 @@ func TestAccuracyVsCRB(t *testing.T) {
 			if r.refused > 0 {
 				t.Errorf("%s SNR %.0f: %d of %d fits refused on a full sweep", pc.name, snr, r.refused, r.trials)
 			}
-			// CRB: REFERENCES §6 derivation, extended to this model (CRBThermalDeg).
+			// CRB: the crb.go derivation for this model (CRBThermalDeg).
 			if ratio > 1.3 || ratio < 0.85 {
 				t.Errorf("%s SNR %.0f dB: RMS/CRB = %.2f, want 0.85..1.3", pc.name, snr, ratio)
 			}
@@ -143,7 +143,7 @@ func TestAccuracyVsCRB(t *testing.T) {
 	}
 }
 
-// TestAccuracyDBModel checks the additive-dB model of REFERENCES §6 directly.
+// TestAccuracyDBModel checks the additive-dB model of CRBDBDeg directly.
 func TestAccuracyDBModel(t *testing.T) {
 	trials := 400
 	if testing.Short() {
@@ -167,7 +167,7 @@ func TestAccuracyDBModel(t *testing.T) {
 		r := runDB(p, c.sigmaDB, trials, 1)
 		ratio := r.rmsDeg / r.crbDeg
 		t.Logf("%-11s RMS %.3f° CRB %.3f° ratio %.2f cover95 %.1f%%", c.name, r.rmsDeg, r.crbDeg, ratio, 100*r.cover95)
-		// CRB: REFERENCES §6, var ≥ σ²/[Σg² − (Σg)²/N].
+		// CRB (CRBDBDeg, derived in crb.go): var ≥ σ²/[Σg² − (Σg)²/N].
 		if ratio > 1.3 || ratio < 0.85 || r.refused > 0 {
 			t.Errorf("%s: RMS/CRB %.2f (refused %d)", c.name, ratio, r.refused)
 		}

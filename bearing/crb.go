@@ -6,7 +6,8 @@ import (
 )
 
 // CRBDBDeg is the Cramér–Rao bound (1-sigma, degrees) on the bearing for the
-// additive-dB model of REFERENCES §6: level_k = c + G(θ − φ_k) + e_k with
+// additive-dB model (derived for this project; no published closed form
+// was found): level_k = c + G(θ − φ_k) + e_k with
 // e_k ~ N(0, sigmaDB²) and c unknown:
 //
 //	var(θ̂) ≥ σ² / [Σ g_k² − (Σ g_k)²/N],  g_k = G′(θ − φ_k) in dB per degree.
@@ -37,7 +38,7 @@ func CRBDBDeg(p Pattern, headingsDeg []float64, bearingDeg, sigmaDB float64) (fl
 
 // CRBThermalDeg is the Cramér–Rao bound (1-sigma, degrees) on the bearing for
 // the thermal-noise model used by NoiseThermal and by the accuracy tests,
-// derived here in the same way as REFERENCES §6 but for this model.
+// derived here in the same way as CRBDBDeg but for this model.
 //
 // Model: reading k is the power averaged over M = samplesPerReading samples
 // of a constant carrier of power S·p_k (p_k = pattern power at θ − φ_k) plus

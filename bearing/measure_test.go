@@ -8,7 +8,7 @@ import (
 
 // TestShape checks the headline numbers against the patterns' defining
 // formulas: the Yagi's Gaussian lobe −12(δ/θ₃)² dB is −3 dB at ±θ₃/2 and
-// its back lobe is set to exactly −F/B (REFERENCES §6, common practice);
+// its back lobe is set to exactly −F/B (common practice);
 // the small loop's and the body shield's nulls are set to exactly the
 // depth asked for (FCC pool G9D10 figure eight with a filled null).
 func TestShape(t *testing.T) {

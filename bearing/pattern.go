@@ -229,7 +229,7 @@ func LoopPlane(nullDepthDB float64) (Pattern, error) {
 }
 
 // Yagi is a directional beam with a Gaussian main lobe of −3 dB full width
-// beamwidthDeg (G = −12(δ/θ₃)² dB, REFERENCES §6, common practice), a back
+// beamwidthDeg (G = −12(δ/θ₃)² dB, common practice), a back
 // lobe frontToBackDB below the peak at 180° shaped as ((1−cos δ)/2)⁴, and a
 // floor 15 dB under the back lobe between them (in power):
 //
@@ -268,7 +268,7 @@ func Yagi(beamwidthDeg, frontToBackDB float64) (Pattern, error) {
 //	E(δ) = (1+r)/2 + (1−r)/2·cos δ,  r = 10^(−depth/20),
 //
 // so the gain is 0 dB facing the transmitter and −depthDB with the back to it
-// (REFERENCES §6, from memory: roughly 10+ dB at 2 m). The fit returns the
+// (common practice, from memory: roughly 10+ dB at 2 m). The fit returns the
 // transmitter's bearing either way; Mode is Null because the drop is the
 // sharpest feature. depthDB must lie in (0, 40].
 func BodyShield(depthDB float64) (Pattern, error) {

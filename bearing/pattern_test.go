@@ -26,14 +26,14 @@ func TestPatternShapes(t *testing.T) {
 		source   string
 	}{
 		// FCC pool G9D10 (nulls broadside to the loop plane) and E9H05 (bidirectional
-		// null → two nulls 180° apart), REFERENCES §6; depth as parameterised.
+		// null → two nulls 180° apart); depth as parameterised.
 		{"loop25", loop, []int{0, 180}, 25, 0, 0, 2, Null, "FCC G9D10, E9H05"},
 		{"loop40", loop40, []int{0, 180}, 40, 0, 0, 2, Null, "FCC G9D10, E9H05"},
-		// Gaussian main lobe −12(δ/θ₃)² dB (REFERENCES §6, common practice): −3 dB at ±θ₃/2.
+		// Gaussian main lobe −12(δ/θ₃)² dB (common practice): −3 dB at ±θ₃/2.
 		{"yagi60", yagi, []int{}, 0, 60, 18, 1, Peak, "common practice"},
 		{"yagi30", yagi30, []int{}, 0, 30, 15, 1, Peak, "common practice"},
-		// Body shielding: drop with the back to the transmitter (REFERENCES §6, from memory).
-		{"body12", body, []int{180}, 12, 0, 0, 1, Null, "REFERENCES §6 (from memory)"},
+		// Body shielding: drop with the back to the transmitter (common practice, from memory).
+		{"body12", body, []int{180}, 12, 0, 0, 1, Null, "common practice (from memory)"},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
@@ -170,7 +170,8 @@ func FuzzParsePattern(f *testing.F) {
 	})
 }
 
-// TestCRBWorkedExample: REFERENCES §6 worked example — Gaussian main lobe
+// TestCRBWorkedExample: worked example of the CRBDBDeg bound (derived for
+// this project) — Gaussian main lobe
 // θ₃ = 60°, σ = 1 dB, 13 samples at 5° steps over ±30° → σ_θ ≥ 2.2°.
 func TestCRBWorkedExample(t *testing.T) {
 	p, err := Yagi(60, 40)
@@ -188,6 +189,6 @@ func TestCRBWorkedExample(t *testing.T) {
 	// The tabulated Yagi adds a back lobe and floor 55 dB down, and 1° table
 	// interpolation; both are negligible on the main lobe.
 	if math.Abs(got-2.2) > 0.05 {
-		t.Errorf("CRB %.3f°, want 2.2° (REFERENCES §6 worked example)", got)
+		t.Errorf("CRB %.3f°, want 2.2° (CRBDBDeg worked example)", got)
 	}
 }

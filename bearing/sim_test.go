@@ -40,7 +40,7 @@ func simThermal(rng *rand.Rand, p Pattern, thetaDeg, snrDB float64, M int, h, t 
 	return pts
 }
 
-// simDB renders readings under the additive-dB model of REFERENCES §6:
+// simDB renders readings under the additive-dB model of CRBDBDeg (crb.go):
 // level = levelDB + G(θ−φ) + N(0, σ²).
 func simDB(rng *rand.Rand, p Pattern, thetaDeg, levelDB, sigmaDB float64, h, t []float64) []Point {
 	m := newModel(p)

@@ -16,7 +16,7 @@ import (
 )
 
 // nmeaLine frames body as an NMEA 0183 sentence: '$', body, '*', the XOR
-// of the body's bytes in two hex digits, CR LF (REFERENCES §4).
+// of the body's bytes in two hex digits, CR LF (NMEA 0183 checksum).
 func nmeaLine(body string) string {
 	var c byte
 	for i := 0; i < len(body); i++ {
@@ -26,8 +26,8 @@ func nmeaLine(body string) string {
 }
 
 func TestNMEALineChecksum(t *testing.T) {
-	// REFERENCES §4: $GPHDT,274.07,T*03 (checksum verified against gpsd
-	// 3.22) and $SDHDG,234.6,,,1.3,E*34.
+	// NMEA 0183: $GPHDT,274.07,T*03 (checksum verified against gpsd
+	// 3.22) and $SDHDG,234.6,,,1.3,E*34 (gpsd driver_nmea0183.c processHDG).
 	for _, want := range []string{"$GPHDT,274.07,T*03\r\n", "$SDHDG,234.6,,,1.3,E*34\r\n"} {
 		if got := nmeaLine(want[1:strings.IndexByte(want, '*')]); got != want {
 			t.Errorf("nmeaLine = %q, want %q", got, want)

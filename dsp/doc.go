@@ -2,7 +2,7 @@
 //
 // It holds FIR design (Kaiser window, scipy.signal semantics), the front-end
 // channelizer (frequency translation plus multi-stage polyphase decimation,
-// with a table-driven first stage for raw RTL-SDR bytes), the FM
+// with an entry for raw RTL-SDR bytes, ProcessCU8), the FM
 // discriminator and AM envelope, the power meter, the channel noise
 // estimator (BandNoise: the density beside the occupied bins), tone
 // detectors (Goertzel and a sliding tone meter) and FFT helpers built on

@@ -7,7 +7,7 @@ import (
 )
 
 // TestSolveFixAmbiguous: a small loop's bearing is known only up to 180°
-// (two nulls; FCC question pool E9H05, REFERENCES §6). Given the wrong one
+// (two nulls; FCC question pool E9H05). Given the wrong one
 // of the pair, the fix must still land on the truth, taking the other.
 // Truth bearings come from Inverse, itself checked against GeodSolve.
 func TestSolveFixAmbiguous(t *testing.T) {

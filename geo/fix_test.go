@@ -70,7 +70,8 @@ func TestFixZeroNoiseGeodSolve(t *testing.T) {
 	}
 }
 
-// k = √(−2 ln(1−P)): REFERENCES §6 (Stansfield 1947; NavList "least squares
+// k = √(−2 ln(1−P)): chi-square with 2 degrees of freedom (Stansfield,
+// J. IEE IIIA 94(15), 1947; NavList "least squares
 // method for determining a fix"): P=0.5 → 1.1774, P=0.95 → 2.4477.
 func TestEllipseK(t *testing.T) {
 	for _, c := range []struct{ p, k float64 }{{0.5, 1.1774}, {0.95, 2.4477}, {1 - math.Exp(-0.5), 1}} {
@@ -83,7 +84,7 @@ func TestEllipseK(t *testing.T) {
 	}
 }
 
-// Ellipse axes are √eigenvalues of the covariance (REFERENCES §6); a
+// Ellipse axes are √eigenvalues of the covariance (Stansfield 1947); a
 // covariance rotated by θ has its major axis at azimuth θ (common practice).
 func TestEllipseFromCov(t *testing.T) {
 	for _, c := range []struct{ a, b, azDeg float64 }{{100, 30, 0}, {100, 30, 90}, {50, 10, 30}, {50, 10, 135}, {70, 69, 170}} {
@@ -105,7 +106,8 @@ func TestEllipseFromCov(t *testing.T) {
 }
 
 // At zero noise the reported covariance must equal the Cramér–Rao bound of
-// REFERENCES §6, J = Σ nᵢnᵢᵀ/(σᵢ²dᵢ²), computed here independently on the
+// bearing-only fixing, J = Σ nᵢnᵢᵀ/(σᵢ²dᵢ²) (Gavish & Weiss, IEEE TAES
+// 28(3), 1992), computed here independently on the
 // plane at the truth (ENU is azimuthal equidistant, so each station's
 // direction from the truth is exact).
 func TestFixCovarianceIsCRB(t *testing.T) {
@@ -176,7 +178,7 @@ func inside(f *Fix, lat, lon, p float64) bool {
 // ellipse must contain the truth in 93–97 % of 1000 trials (issue #5; the
 // binomial standard deviation is 0.7 %), and the 1-sigma ellipse in
 // 1−e^(−1/2) = 39.3 % ± 4.5 % (3 binomial sigmas). Source: Stansfield 1947,
-// Gavish & Weiss 1992 (REFERENCES §6): the ML fix is asymptotically normal
+// Gavish & Weiss, IEEE TAES 28(3):817–828, 1992: the ML fix is asymptotically normal
 // with covariance J⁻¹.
 func TestFixEllipseCoverageMonteCarlo(t *testing.T) {
 	rng := rand.New(rand.NewPCG(5, 1947))

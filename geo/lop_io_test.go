@@ -92,7 +92,7 @@ func TestReadBearingsJSON(t *testing.T) {
 	}
 }
 
-// Magnetic → true: true = magnetic + declination (REFERENCES §8); the
+// Magnetic → true: true = magnetic + declination (WMM2025 technical report); the
 // WMM2025 report table 6 gives D = 1.28° at (80°N, 0°E), 2025.0, 0 km.
 func TestResolveTrue(t *testing.T) {
 	mk := func(mag bool, own *float64) BearingRecord {
@@ -119,7 +119,7 @@ func TestResolveTrue(t *testing.T) {
 	if lops[0].BearingDeg != 104 {
 		t.Errorf("override: %v", lops[0].BearingDeg)
 	}
-	// Outside 2025.0–2030.0: a warning (WMM2025 validity, REFERENCES §8).
+	// Outside 2025.0–2030.0: a warning (WMM2025 technical report: valid 2025.0–2030.0).
 	r := mk(true, nil)
 	r.Time = time.Date(2031, 6, 1, 0, 0, 0, 0, time.UTC)
 	if _, warns, _ := ResolveTrue([]BearingRecord{r}, nil, wmm, time.Now()); len(warns) != 1 {

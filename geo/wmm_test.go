@@ -79,9 +79,10 @@ func TestWMMOfficialTestValues(t *testing.T) {
 		"max |Δ| %.3g° vs D, I from the 6-decimal components", len(recs)-1, maxNT, maxDeg, maxFine)
 }
 
-// TestWMMReportTable checks the declinations of the WMM2025 report's table 6 as
-// listed in REFERENCES §8 ([V] there), and the §8 table rows through WMM() with a
-// time.Time (2025.5 = 2025-07-02T12:00Z by the WMM decimal-year rule).
+// TestWMMReportTable checks the declinations of the WMM2025 technical
+// report's table 6 ([V] by an independent synthesis), and rows of the official
+// WMM2025_TestValues.txt through WMM() with a time.Time (2025.5 =
+// 2025-07-02T12:00Z by the WMM decimal-year rule).
 func TestWMMReportTable(t *testing.T) {
 	pts := [3][2]float64{{80, 0}, {0, 120}, {-80, 240}}
 	rows := []struct {
@@ -104,7 +105,7 @@ func TestWMMReportTable(t *testing.T) {
 			}
 		}
 	}
-	// REFERENCES §8 table: 2025.5, 6 km, (−36, −137): D 20.28, I −52.11, H 25353.23.
+	// WMM2025_TestValues.txt: 2025.5, 6 km, (−36, −137): D 20.28, I −52.11, H 25353.23.
 	f, err := WMM(-36, -137, 6000, time.Date(2025, 7, 2, 12, 0, 0, 0, time.UTC))
 	if err != nil {
 		t.Fatal(err)
@@ -183,7 +184,8 @@ func TestDeclinationWarningsAndErrors(t *testing.T) {
 }
 
 func TestMagneticToTrue(t *testing.T) {
-	// true = magnetic + declination (east positive), REFERENCES §8 and NMEA HDG rule §4.
+	// true = magnetic + declination (east positive): WMM2025 technical
+	// report and the NMEA 0183 HDG rule.
 	for _, c := range []struct{ mag, decl, want float64 }{
 		{350, 15, 5}, {10, -20, 350}, {0, 0, 0}, {359.9, 0.1, 0}, {-10, 0, 350}, {720, 1.5, 1.5}, {123.4, -3.2, 120.2},
 	} {

@@ -17,7 +17,7 @@ import (
 )
 
 // TestHDTAgainstGpsd cross-checks ParseNMEA with gpsd 3.22 (Debian gpsd,
-// REFERENCES §4 [V]): gpsfake replays testdata/heading/gpsd_hdt.nmea and
+// gpsd_json(5) ATT, [V]): gpsfake replays testdata/heading/gpsd_hdt.nmea and
 // gpsd reports each accepted HDT as an ATT object whose "heading" is the
 // true heading. Our accepted HDT values, in order, must equal gpsd's, and
 // the sentence with the corrupted checksum must be rejected by both.
@@ -60,7 +60,7 @@ func TestHDTAgainstGpsd(t *testing.T) {
 	l.Close()
 	ctx, cancel := context.WithTimeout(context.Background(), 40*time.Second)
 	defer cancel()
-	// REFERENCES §4 [V] working run: gpsfake -1 -p -c 0.2 -P 29476 test.nmea
+	// gpsfake(1), gpsd 3.22, [V] working run: gpsfake -1 -p -c 0.2 -P 29476 test.nmea
 	cmd := exec.CommandContext(ctx, bin, "-1", "-p", "-c", "0.1", "-P", strconv.Itoa(port), fixture)
 	var stderr bytes.Buffer
 	cmd.Stderr = &stderr

@@ -8,7 +8,8 @@ import (
 	"strings"
 )
 
-// NMEA 0183 limits (REFERENCES §4).
+// NMEA 0183 limits (sentence length and checksum, as restated in gpsd
+// www/NMEA.adoc, ntpsec/gpsd @46977fa).
 const (
 	// MaxNMEALen is the longest sentence in bytes including '$' and CR LF.
 	MaxNMEALen = 82
@@ -85,7 +86,8 @@ func NMEAChecksum(body string) byte {
 // option to accept them). Extra trailing fields, as later NMEA versions may
 // add, are ignored. Headings must lie in [0, 360] (360 is read as 0).
 //
-// HDG follows the field order of NMEA 0183 (REFERENCES §4): 1 sensor
+// HDG follows the field order of NMEA 0183 (quoted in gpsd
+// drivers/driver_nmea0183.c processHDG, 3.22): 1 sensor
 // heading, 2 deviation, 3 E/W, 4 variation, 5 E/W. Magnetic = sensor +
 // deviation (east positive; an empty deviation is taken as 0, meaning the
 // sensor heading is already magnetic). True = magnetic + variation, given

@@ -10,7 +10,7 @@ import (
 )
 
 func TestNMEAChecksum(t *testing.T) {
-	// Sentences and checksums quoted in REFERENCES §4 (the HDT one [V]
+	// NMEA 0183 sentences and checksums (the HDT one [V]
 	// against gpsd 3.22; all three re-checked by testdata/heading/make_nmea.py).
 	tests := []struct {
 		sentence string
@@ -30,7 +30,8 @@ func TestNMEAChecksum(t *testing.T) {
 
 // TestParseNMEAFixture reads testdata/heading/hdg_cases.nmea (made by
 // make_nmea.py, checksums computed in Python). Expected values are worked
-// by hand from the HDG field order of REFERENCES §4: magnetic = sensor +
+// by hand from the NMEA 0183 HDG field order (as quoted in gpsd
+// drivers/driver_nmea0183.c processHDG, 3.22): magnetic = sensor +
 // deviation (E+), true = magnetic + variation (E+), true only when
 // variation is given.
 func TestParseNMEAFixture(t *testing.T) {
@@ -42,9 +43,9 @@ func TestParseNMEAFixture(t *testing.T) {
 		magDeg, sensorDeg float64
 	}
 	wants := []want{
-		{"GP", "HDT", true, 274.07, false, 0, 0},       // REFERENCES §4, [V] gpsd 3.22 ATT heading 274.070
-		{"AP", "HDM", false, 0, true, 218.634, 0},      // REFERENCES §4
-		{"SD", "HDG", true, 235.9, true, 234.6, 234.6}, // REFERENCES §4: 234.6 + 1.3 E
+		{"GP", "HDT", true, 274.07, false, 0, 0},       // NMEA 0183 HDT, [V] gpsd 3.22 ATT heading 274.070
+		{"AP", "HDM", false, 0, true, 218.634, 0},      // NMEA 0183 HDM
+		{"SD", "HDG", true, 235.9, true, 234.6, 234.6}, // gpsd processHDG example: 234.6 + 1.3 E
 		{"HC", "HDG", true, 102.6, true, 98.6, 101.1},  // 101.1 − 2.5 W = 98.6; + 4.0 E = 102.6
 		{"HC", "HDG", false, 0, true, 0.5, 359.5},      // 359.5 + 1.0 E wraps to 0.5; no variation
 		{"II", "HDG", true, 357.5, true, 10.0, 10.0},   // no deviation; 10.0 − 12.5 W wraps to 357.5
@@ -83,7 +84,8 @@ func TestParseNMEAFixture(t *testing.T) {
 }
 
 func TestParseNMEAErrors(t *testing.T) {
-	// Checksum and length rules of NMEA 0183 as quoted in REFERENCES §4.
+	// Checksum and length rules of NMEA 0183: XOR of the characters between
+	// '$' and '*' in two hex digits; at most 82 bytes including '$' and CR LF.
 	tests := []struct {
 		name, line string
 		wantIs     error
@@ -197,7 +199,7 @@ func TestReadNMEAStampedFixture(t *testing.T) {
 
 func TestReadNMEA(t *testing.T) {
 	start := time.Date(2025, 6, 1, 10, 0, 0, 0, time.UTC)
-	hdt := "$GPHDT,274.07,T*03" // REFERENCES §4
+	hdt := "$GPHDT,274.07,T*03" // NMEA 0183 HDT, [V] gpsd 3.22
 	hdm := "$APHDM,218.634,M*39"
 	hdg := "$SDHDG,234.6,,,1.3,E*34"
 	tests := []struct {
@@ -278,7 +280,7 @@ func FuzzParseNMEA(f *testing.F) {
 		if !r.HasTrue && !r.HasMag {
 			t.Fatalf("%q: accepted without any heading", line)
 		}
-		// An accepted sentence carries a checksum that matches (§4).
+		// An accepted sentence carries a checksum that matches (NMEA 0183 checksum).
 		s := strings.TrimRight(line, "\r\n ")
 		star := strings.IndexByte(s, '*')
 		if star < 0 || star+3 != len(s) {

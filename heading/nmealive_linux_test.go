@@ -55,7 +55,7 @@ func TestNMEASerialPTY(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	// REFERENCES §4 values: HDT 274.07; HDG 234.6 + 1.3 E = 235.9 true.
+	// NMEA 0183 values: HDT 274.07; HDG 234.6 + 1.3 E = 235.9 true.
 	if len(tr.Samples) != 2 || tr.Samples[0].Deg != 274.07 || !near(tr.Samples[1].Deg, 235.9, 1e-9) {
 		t.Fatalf("samples %v", tr.Samples)
 	}

@@ -35,7 +35,7 @@ func serveTCP(t *testing.T, lines []string, pause, hold time.Duration) string {
 }
 
 func TestNMEATCP(t *testing.T) {
-	// Sentences from REFERENCES §4, plus the junk a real link carries.
+	// NMEA 0183 HDT/HDG sentences (gpsd 3.22 examples), plus the junk a real link carries.
 	lines := []string{
 		"$GPHDT,274.07,T*03\r\n",
 		"$GPHDT,274.07,T*04\r\n", // bad checksum
@@ -59,7 +59,7 @@ func TestNMEATCP(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	want := []float64{274.07, 235.9, 102.6} // REFERENCES §4 and HDG field order
+	want := []float64{274.07, 235.9, 102.6} // NMEA 0183 HDT and HDG field order
 	if len(tr.Samples) != len(want) {
 		t.Fatalf("samples %v", tr.Samples)
 	}
@@ -162,7 +162,7 @@ func TestNMEAUDP(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	// REFERENCES §4: HDM 218.634; HDG 234.6 with no deviation is 234.6
+	// NMEA 0183: HDM 218.634; HDG 234.6 with no deviation is 234.6
 	// magnetic. The two in one datagram share an arrival time, so the
 	// second is Stale.
 	if len(tr.Samples) != 2 || tr.Samples[0].Deg != 0.5 || tr.Samples[1].Deg != 218.634 {

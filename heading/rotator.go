@@ -38,7 +38,7 @@ const (
 var ErrRotatorClosed = errors.New("rotator connection closed")
 
 // hamlibErrNames maps the Hamlib error codes (rig.h enum rig_errcode_e,
-// sent negated after RPRT; REFERENCES §3) to their names and meanings.
+// sent negated after RPRT; Hamlib rotctld(1), 4.5.4) to their names and meanings.
 var hamlibErrNames = [...][2]string{
 	0: {"RIG_OK", "no error"}, 1: {"RIG_EINVAL", "invalid parameter"},
 	2: {"RIG_ECONF", "invalid configuration"}, 3: {"RIG_ENOMEM", "out of memory"},
@@ -162,7 +162,7 @@ type RotatorOptions struct {
 }
 
 // Rotator is a client of Hamlib's rotctld network daemon using its default
-// protocol (REFERENCES §3): one command per line, get_pos answered by two
+// protocol (Hamlib rotctld(1), 4.5.4): one command per line, get_pos answered by two
 // value lines, set commands by "RPRT n". Methods are safe for concurrent
 // use; commands are serialised. After a connection error or a timeout the
 // Rotator is unusable (the reply stream may be out of step): dial again.

@@ -28,7 +28,7 @@ func TestRotctldContinuousSweep(t *testing.T) {
 		fromDeg, toDeg float64
 		wantDir        Direction
 	}{
-		// The Hamlib dummy turns at 360°/min = 6°/s (REFERENCES §3, [V]);
+		// The Hamlib dummy turns at 360°/min = 6°/s (Hamlib 4.5.4 rigs/dummy/rot_dummy.c, [V]);
 		// short sweeps keep the test quick.
 		{"cw 0 to 30", 0, 30, CW},
 		{"ccw 30 to 12", 30, 12, CCW},
@@ -62,7 +62,7 @@ func TestRotctldContinuousSweep(t *testing.T) {
 			if rate < 8 || rate > 12 {
 				t.Fatalf("poll rate %.1f Hz, want about 10", rate)
 			}
-			// Turning speed: dummy rotator 6°/s (REFERENCES §3). Fit the
+			// Turning speed: dummy rotator 6°/s (Hamlib 4.5.4 rot_dummy.c). Fit the
 			// moving part (exclude the ends inside 0.5° of a limit).
 			speed := movingSpeed(s, tc.fromDeg, tc.toDeg)
 			if math.Abs(speed-6) > 0.6 {
@@ -114,7 +114,7 @@ func TestRotctldStepSweep(t *testing.T) {
 	}
 	// Dwell positions 0, 4, 8 and the shortened last step 10: each must
 	// hold for ≥ 0.4 s within 0.5° (the default tolerance); the dummy
-	// reports the exact target once there (REFERENCES §3 [V]: p after
+	// reports the exact target once there (Hamlib 4.5.4 dummy [V]: p after
 	// arrival returns the commanded value).
 	for _, target := range []float64{0, 4, 8, 10} {
 		var first, last float64 = math.NaN(), math.NaN()
@@ -149,7 +149,7 @@ func TestRotctldErrors(t *testing.T) {
 	}
 	defer rot.Close()
 	// The dummy accepts azimuth −180…450 and elevation 0…90 and answers
-	// RPRT -1 (RIG_EINVAL) outside (REFERENCES §3, [V] Hamlib 4.5.4:
+	// RPRT -1 (RIG_EINVAL) outside (Hamlib rotctld(1) and rot_dummy.c, [V] Hamlib 4.5.4:
 	// "P 500 0" → "RPRT -1"). In-range cases keep their targets near the
 	// start so the rotator does not move far.
 	tests := []struct {
@@ -273,7 +273,7 @@ func TestRotatorSilentServer(t *testing.T) {
 }
 
 func TestParseRotctldReplies(t *testing.T) {
-	// Reply lines as rotctld 4.5.4 sends them (REFERENCES §3 [V]).
+	// Reply lines as rotctld 4.5.4 sends them (Hamlib rotctld(1), [V]).
 	tests := []struct {
 		line     string
 		isRPRT   bool
@@ -303,7 +303,7 @@ func TestParseRotctldReplies(t *testing.T) {
 	}
 	for code, want := range map[int]string{-1: "RIG_EINVAL", -9: "RIG_ERJCTED", -22: "RIG_EACCESS", -23: ""} {
 		if got := (&HamlibError{Code: code}).Name(); got != want {
-			t.Errorf("code %d name %q, want %q (rig.h enum rig_errcode_e, REFERENCES §3)", code, got, want)
+			t.Errorf("code %d name %q, want %q (Hamlib 4.5.4 rig.h enum rig_errcode_e)", code, got, want)
 		}
 	}
 }
@@ -333,7 +333,7 @@ func TestRotctldPollAndCancel(t *testing.T) {
 	}
 	defer rot.Close()
 
-	// Cancelling a sweep stops the rotator (stop, "S"; REFERENCES §3).
+	// Cancelling a sweep stops the rotator (stop, "S"; Hamlib rotctld(1), 4.5.4).
 	c1, cancel1 := context.WithTimeout(ctx, 800*time.Millisecond)
 	defer cancel1()
 	_, err = rot.ContinuousSweep(c1, 0, 30)

@@ -13,8 +13,8 @@ func near(a, b, tol float64) bool { return math.Abs(a-b) <= tol }
 func circNear(a, b, tol float64) bool { return math.Abs(angle.Wrap180(a-b)) <= tol }
 
 func TestAtInterpolatesAcrossNorth(t *testing.T) {
-	// Circular interpolation (common practice; REFERENCES §6 "circular
-	// differences matter: 355° vs 10° is 15°"): between neighbours the
+	// Circular interpolation (common practice: circular differences wrap,
+	// 355° vs 10° is 15°): between neighbours the
 	// antenna turned the shorter way, in either sense.
 	tests := []struct {
 		name    string
@@ -163,7 +163,7 @@ func TestLagAndOffset(t *testing.T) {
 }
 
 func TestToTrue(t *testing.T) {
-	// true = magnetic + D, D east positive (WMM convention, REFERENCES §8).
+	// true = magnetic + D, D east positive (WMM2025 technical report, NOAA NCEI/BGS).
 	// Declinations are WMM2025 official test values quoted there.
 	tests := []struct {
 		name         string

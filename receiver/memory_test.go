@@ -157,10 +157,10 @@ func memRun(t *testing.T, rate, totalS float64) (peak, live uint64, bursts int) 
 // TestMemoryFlat: project issue "Memory does not grow with input: scanning a
 // 10-minute recording peaks within 10 % of a 1-minute one". The input rate
 // is 240 kS/s (RTL-SDR's lowest useful rate is 225–300 kS/s; librtlsdr
-// rtl-sdr.h, REFERENCES §2) so that 600 s of input is 144 M samples and the
-// test stays a few seconds long on a shared machine; the scanner's buffers
-// are sized per block, not per recording, so the rate does not change what
-// is being checked. The scanner keeps audio (KeepAudio) and a burst starts
+// rtl-sdr.h and librtlsdr.c, osmocom/rtl-sdr @ae0dd6d) so that 600 s of
+// input is 144 M samples and the test stays a few seconds long on a shared
+// machine; the scanner's buffers are sized per block, not per recording, so
+// the rate does not change what is being checked. The scanner keeps audio (KeepAudio) and a burst starts
 // every second, so every per-burst buffer is exercised 600 times.
 //
 // What is compared is the live heap after a forced GC, sampled at the same

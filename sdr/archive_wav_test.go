@@ -32,7 +32,7 @@ func TestArchiveFromOutsideTools(t *testing.T) {
 	t.Run("python tarfile pax, data first", func(t *testing.T) {
 		py := testtool.Need(t, testtool.DebianPython)
 		arc := filepath.Join(dir, "py.sigmf")
-		// Python 3 tarfile, PAX_FORMAT = POSIX.1-2001 (REFERENCES §1 archive format).
+		// Python 3 tarfile, PAX_FORMAT = POSIX.1-2001 (SigMF v1.2.5 archive format).
 		run(t, py, "-c", `import sys, tarfile
 with tarfile.open(sys.argv[1], "w", format=tarfile.PAX_FORMAT) as t:
     t.add(sys.argv[2] + ".sigmf-data", arcname="py/rec.sigmf-data")

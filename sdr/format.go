@@ -22,7 +22,7 @@ func (f sampleFormat) bytesPerSample() int { return 2 * f.compBytes }
 
 func (f sampleFormat) isFloat() bool { return f.kind == 'f' }
 
-// datatypeRE is the SigMF datatype grammar (REFERENCES §1, sigmf-schema.json
+// datatypeRE is the SigMF datatype grammar (SigMF v1.2.5, sigmf-schema.json
 // core:datatype and the spec's ABNF): (r|c) then a sized type with an
 // endianness suffix, or i8/u8 without one.
 var datatypeRE = regexp.MustCompile(`^(r|c)((f32|f64|i32|i16|u32|u16)(_le|_be)|i8|u8)$`)

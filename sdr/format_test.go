@@ -11,8 +11,8 @@ import (
 )
 
 // The cu8 convention: zero between codes 127 and 128, scale 1/127.5, so the
-// rails map to exactly ±1 (RTL-SDR common practice; REFERENCES §2 notes
-// osmocom's own tools subtract 127, and (x-127.5)/127.5 is the other common
+// rails map to exactly ±1 (RTL-SDR common practice; osmocom's
+// own tools subtract 127, rtl_fm.c and rtl_power.c, and (x-127.5)/127.5 is the other common
 // choice, which nullseek uses so that the DC offset is zero).
 func TestCU8Convention(t *testing.T) {
 	cases := []struct {
@@ -55,7 +55,7 @@ func TestClipLevels(t *testing.T) {
 	}
 }
 
-// Datatype grammar, from the SigMF ABNF (REFERENCES §1): sized types need an
+// Datatype grammar, from the SigMF v1.2.5 ABNF (core:datatype): sized types need an
 // endianness suffix, 8-bit types must not have one.
 func TestDatatypeGrammar(t *testing.T) {
 	good := []string{"cu8", "ci8", "ci16_le", "cf32_le", "ri16_le", "cf64_be", "cu32_be", "ru8"}

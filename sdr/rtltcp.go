@@ -14,7 +14,7 @@ import (
 	"time"
 )
 
-// rtl_tcp protocol (REFERENCES §2, osmocom rtl-sdr src/rtl_tcp.c): the
+// rtl_tcp protocol (librtlsdr rtl_tcp.c, osmocom/rtl-sdr @ae0dd6d): the
 // server greets with 12 bytes {"RTL0", uint32 tuner type, uint32 gain
 // count} in network byte order, then streams cu8. The client sends 5-byte
 // commands {uint8 cmd, uint32 param big-endian}.

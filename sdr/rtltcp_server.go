@@ -22,7 +22,9 @@ type RTLCommand struct {
 // ServeOptions configures ServeRTLTCP.
 type ServeOptions struct {
 	// TunerType and GainCount fill the greeting (defaults: TunerR820T, 29,
-	// which is what an R820T dongle reports; REFERENCES §2).
+	// which is what an R820T dongle reports; librtlsdr.c
+	// rtlsdr_get_tuner_gains, osmocom/rtl-sdr @ae0dd6d: the R82xx table
+	// has 29 steps).
 	TunerType, GainCount uint32
 	// Paced streams at the source's sample rate (real time); otherwise as
 	// fast as the client reads.

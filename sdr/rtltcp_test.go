@@ -12,7 +12,7 @@ import (
 	"time"
 )
 
-// Byte layouts from osmocom rtl-sdr src/rtl_tcp.c (REFERENCES §2): the
+// Byte layouts from osmocom rtl-sdr src/rtl_tcp.c @ae0dd6d: the
 // greeting struct {char magic[4]; uint32_t tuner_type; uint32_t
 // tuner_gain_count} with htonl, and the packed struct command {unsigned char
 // cmd; unsigned int param} read with ntohl. Expected hex computed with
@@ -260,7 +260,7 @@ func TestRTLTCPCancel(t *testing.T) {
 }
 
 func TestRTLConfigCheck(t *testing.T) {
-	// Valid rate ranges from rtl-sdr.h / librtlsdr.c (REFERENCES §2).
+	// Valid rate ranges from librtlsdr.c rtlsdr_set_sample_rate (osmocom/rtl-sdr @ae0dd6d).
 	for _, r := range []float64{225001, 300000, 900001, 2.4e6, 3.2e6} {
 		if err := (RTLConfig{SampleRate: r}).check(); err != nil {
 			t.Errorf("%v Hz rejected: %v", r, err)

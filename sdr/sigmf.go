@@ -12,7 +12,7 @@ import (
 	"time"
 )
 
-// Meta is a SigMF metadata file (spec v1.2, REFERENCES §1). Fields named in
+// Meta is a SigMF metadata file (SigMF v1.2.5, sigmf-schema.json). Fields named in
 // the core namespace are decoded into typed fields; every other key (other
 // namespaces such as antenna:, spatial:, or unknown core: keys) is kept
 // verbatim in Extra and written back by MarshalJSON.
@@ -134,7 +134,7 @@ var (
 )
 
 // ParseDatetime parses a SigMF core:datetime: RFC 3339 with "Z" as the only
-// allowed offset and any number of fractional-second digits (REFERENCES §1).
+// allowed offset and any number of fractional-second digits (SigMF v1.2.5, core:datetime).
 func ParseDatetime(s string) (time.Time, error) {
 	if !datetimeRE.MatchString(s) {
 		return time.Time{}, fmt.Errorf("datetime %q is not RFC 3339 UTC like 2024-05-01T12:00:00.000Z (SigMF allows only the Z offset)", s)

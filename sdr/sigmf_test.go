@@ -43,7 +43,7 @@ func TestParseMetaOfficialLogo(t *testing.T) {
 }
 
 // Validation rules, each from sigmf-schema.json v1.2.x / the SigMF spec
-// (REFERENCES §1). ok=true cases must parse.
+// (v1.2.5). ok=true cases must parse.
 func TestParseMetaRules(t *testing.T) {
 	g := `"core:datatype":"cu8","core:version":"1.2.0"`
 	cases := []struct {

@@ -234,7 +234,7 @@ func metaJSON(m *Meta) ([]byte, error) {
 }
 
 // WriteSigMFArchive packs the SigMF pair at basePath into a .sigmf archive
-// (POSIX.1-2001 pax tar, REFERENCES §1) at archivePath. Inside, the files
+// (POSIX.1-2001 pax tar, SigMF v1.2.5 archive) at archivePath. Inside, the files
 // sit in a directory named after the archive: DIR/NAME.sigmf-meta first,
 // then DIR/NAME.sigmf-data, which is streamed, not loaded. The archive is
 // written through a temporary file and renamed into place.

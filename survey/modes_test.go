@@ -14,8 +14,8 @@ import (
 )
 
 // TestKeyingModes: the same identifier keyed as a tone on FM (MCW), as a
-// tone on AM (A2A, the mode of many 2 m direction-finding events, REFERENCES
-// §9) and as a keyed carrier (A1A) is detected and read in auto mode. The
+// tone on AM (A2A, the mode of many 2 m direction-finding events; IARU R2
+// ARDF rules v1.0, 2016) and as a keyed carrier (A1A) is detected and read in auto mode. The
 // keying comes from morse.Encode, checked against ITU-R M.1677-1 timing.
 func TestKeyingModes(t *testing.T) {
 	flat, err := bearing.BodyShield(1) // nearly omnidirectional receiving antenna

@@ -76,7 +76,7 @@ var ErrUnsendable = errors.New("character has no Morse code")
 
 // morseTable maps text (a character, or a prosign written "<AR>") to its
 // code, '.' for a dot and '-' for a dash. Source: ITU-R M.1677-1 (10/2009)
-// §1.1.1–1.1.3 as transcribed in REFERENCES §5; prosigns are the usual
+// Annex 1 §1.1.1–1.1.3; prosigns are the usual
 // run-together letter pairs (common practice).
 var morseTable = map[string]string{
 	"A": ".-", "B": "-...", "C": "-.-.", "D": "-..", "E": ".", "F": "..-.",

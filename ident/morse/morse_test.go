@@ -29,7 +29,7 @@ func TestModeStringParse(t *testing.T) {
 }
 
 // itu1677 is the character table of ITU-R M.1677-1 (10/2009) §1.1.1–1.1.3
-// as transcribed in REFERENCES §5 (letters, digits, punctuation).
+// Annex 1 (letters, digits, punctuation).
 var itu1677 = map[string]string{
 	"A": ".-", "B": "-...", "C": "-.-.", "D": "-..", "E": ".", "F": "..-.", "G": "--.",
 	"H": "....", "I": "..", "J": ".---", "K": "-.-", "L": ".-..", "M": "--", "N": "-.",
@@ -43,13 +43,13 @@ var itu1677 = map[string]string{
 }
 
 func TestMorseTableITU(t *testing.T) {
-	// Source: ITU-R M.1677-1 §1.1.1–1.1.3 (REFERENCES §5).
+	// Source: ITU-R M.1677-1 Annex 1 §1.1.1–1.1.3.
 	for ch, code := range itu1677 {
 		if got := morseTable[ch]; got != code {
 			t.Errorf("%q: table has %q, ITU-R M.1677-1 gives %q", ch, got, code)
 		}
 	}
-	// Service signals (REFERENCES §5, partly from memory): end of work
+	// Service signals (ITU-R M.1677-1 Annex 1 §1.1.3, partly from memory): end of work
 	// ...-.- (SK), wait .-... (AS), starting signal -.-.- (CT).
 	for _, tc := range [][2]string{{"<SK>", "...-.-"}, {"<AS>", ".-..."}, {"<CT>", "-.-.-"}, {"<SN>", "...-."}, {"<HH>", "........"}} {
 		if morseTable[tc[0]] != tc[1] {
@@ -106,7 +106,7 @@ func unitsOf(marks []Mark, u float64) float64 {
 func TestEncodeRatiosAndPARIS(t *testing.T) {
 	for _, wpm := range []float64{5, 13, 20, 40} {
 		// PARIS standard: "PARIS " is 50 units, dot = 1200/WPM ms
-		// (REFERENCES §5: brainwagon.org 2010-02-08; morsecode.world).
+		// (common practice: brainwagon.org 2010-02-08; morsecode.world).
 		u := DotSeconds(wpm)
 		if math.Abs(u-1.2/wpm) > 1e-12 {
 			t.Fatalf("dot at %g WPM = %g s", wpm, u)
@@ -145,7 +145,8 @@ func TestEncodeRatiosAndPARIS(t *testing.T) {
 }
 
 func TestEncodeFarnsworth(t *testing.T) {
-	// Bloom, QEX April 1990 (REFERENCES §5): c=20, s=10 → ta = 4.14 s,
+	// J. Bloom KE3Z, "A Standard for Morse Timing Using the Farnsworth
+	// Technique", QEX April 1990: c=20, s=10 → ta = 4.14 s,
 	// tc = 0.654 s, tw = 1.525 s; PARIS = 31·0.06 + 4tc + tw = 6.0 s.
 	m, err := Encode("PARIS", 20, 10)
 	if err != nil {

@@ -122,7 +122,7 @@ func slotFind(c slotSimCase, id string) slotSimTx {
 
 var slotSimCases = []slotSimCase{
 	{
-		// ARDF convention (REFERENCES §9, common practice): 1 min on, 300 s
+		// ARDF convention (IARU R2 ARDF rules v1.0, 2016; common practice): 1 min on, 300 s
 		// cycle; three transmitters with 40 s guard, five cycles, one burst missed.
 		name: "three_tx_five_cycles_missed", nominalS: 300, cycles: 5, jitterS: 0.010, giveNominal: true,
 		txs: []slotSimTx{

@@ -5,7 +5,7 @@ import (
 	"testing"
 )
 
-// Circular differences (REFERENCES §6: "355° vs 10° is 15°", common practice).
+// Circular differences ("355° vs 10° is 15°", common practice).
 func TestWrap(t *testing.T) {
 	for _, c := range []struct{ in, w360, w180 float64 }{
 		{0, 0, 0}, {360, 0, 0}, {-1e-15, 0, 0}, {720.5, 0.5, 0.5}, {-90, 270, -90},

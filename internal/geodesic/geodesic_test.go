@@ -245,14 +245,15 @@ func TestGeodesicWorkedExamples(t *testing.T) {
 	}
 	nan := math.NaN()
 	cases := []inv{
-		// Geoscience Australia, Vincenty inverse worked example (GRS80), REFERENCES §7:
+		// Geoscience Australia, Vincenty inverse worked example (GRS80),
+		// ga.gov.au/geodesy/datums/vincenty_inverse.jsp:
 		// s = 54972.271 m, α12 = 306°52′05.37″, α21 = 127°10′25.07″ (back azimuth).
 		{src: "Geoscience Australia Flinders Peak→Buninyong (GRS80)", e: GRS80,
 			lat1: dms(-37, 57, 3.72030), lon1: dms(144, 25, 29.52440),
 			lat2: dms(-37, 39, 10.15610), lon2: dms(143, 55, 35.38390),
 			azi1: dms(306, 52, 5.37), azi2: dms(127, 10, 25.07), s12: 54972.271,
 			tolAzi: 0.006 / 3600, tolS: 0.5e-3, backAzi: true, azi1Normalised360: true},
-		// REFERENCES §7, [V] with GeodSolve 2.1.2 (WGS84).
+		// [V] with GeodSolve 2.1.2 (GeographicLib, WGS84).
 		{src: "Land's End→John o' Groats, GeodSolve", e: WGS84,
 			lat1: 50.06632, lon1: -5.71475, lat2: 58.64402, lon2: -3.07009,
 			azi1: 9.14187749, azi2: 11.29722041, s12: 969954.166, tolAzi: 0.6e-8, tolS: 0.5e-3},
@@ -260,7 +261,8 @@ func TestGeodesicWorkedExamples(t *testing.T) {
 			lat2: 0.5, lon2: 179.5, azi1: nan, azi2: nan, s12: 19936288.579, tolS: 0.5e-3},
 		{src: "(0,0)→(0.5,179.7) near-antipodal (Vincenty fails), GeodSolve", e: WGS84,
 			lat2: 0.5, lon2: 179.7, azi1: nan, azi2: nan, s12: 19944127.421, tolS: 0.5e-3},
-		// GeodSolve man page example (REFERENCES §7): 003:18:29.9 177:29:09.2 15347628.
+		// GeodSolve(1) man page example (GeographicLib 2.1.2, man/GeodSolve.pod):
+		// 003:18:29.9 177:29:09.2 15347628.
 		{src: "GeodSolve.pod JFK→SIN", e: WGS84,
 			lat1: dms(40, 38, 23), lon1: -dms(73, 46, 44), lat2: dms(1, 21, 33), lon2: dms(103, 59, 22),
 			azi1: dms(3, 18, 29.9), azi2: dms(177, 29, 9.2), s12: 15347628, tolAzi: 0.051 / 3600, tolS: 0.5},
@@ -381,7 +383,7 @@ func TestDirectWorkedExamples(t *testing.T) {
 }
 
 // TestGeodPROJ cross-checks against PROJ's geod 9.1.1 (Debian proj-bin),
-// "geod +ellps=WGS84 -I -f %.10f -F %.6f" (REFERENCES §7): output az12, az21
+// "geod +ellps=WGS84 -I -f %.10f -F %.6f" (geod(1), PROJ 9.1.1): output az12, az21
 // (back azimuth) and distance. PROJ's geod uses its own copy of geodesic.c.
 func TestGeodPROJ(t *testing.T) {
 	geod := testtool.Need(t, "geod")
@@ -409,7 +411,7 @@ func TestGeodPROJ(t *testing.T) {
 			t.Errorf("geod line %q: got %.10f %.10f %.6f, geod %q", in[i], azi1, angle.Wrap360(azi2+180), s12, o)
 		}
 	}
-	// REFERENCES §7 [V]: geod +ellps=GRS80 -I -f "%.8f" -F "%.4f" on Flinders→Buninyong.
+	// [V] PROJ 9.1.1: geod +ellps=GRS80 -I -f "%.8f" -F "%.4f" on Flinders→Buninyong.
 	out = runTool(t, []string{"-37.950922305555556 144.42486788888889 -37.652821138888889 143.92649552777778"},
 		geod, "+ellps=GRS80", "-I", "-f", "%.8f", "-F", "%.4f")
 	v := parseFloats(t, out[0])

@@ -1,5 +1,5 @@
-// Package rtlsdr is a small cgo binding to librtlsdr (Debian librtlsdr-dev,
-// header rtl-sdr.h; REFERENCES §2). The binding is compiled only with the
-// build tag "rtlsdr"; without it this package is empty and package sdr
+// Package rtlsdr is a small cgo binding to librtlsdr (Debian librtlsdr-dev
+// 0.6.0, header rtl-sdr.h; osmocom/rtl-sdr). The binding is compiled only
+// with the build tag "rtlsdr"; without it this package is empty and package sdr
 // reports that USB support was not built in.
 package rtlsdr

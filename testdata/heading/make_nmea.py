@@ -2,9 +2,9 @@
 """Make the NMEA 0183 heading fixtures for package heading.
 
 Checksums are computed here, independently of the Go code, as the 8-bit XOR
-of every character between '$' and '*' (NMEA 0183; REFERENCES.md section 4).
-The three sentences quoted in REFERENCES.md section 4 are copied verbatim
-(their checksums are verified there and re-checked by this script).
+of every character between '$' and '*' (NMEA 0183).
+Three example sentences (HDT, HDM, and gpsd's processHDG example) are
+copied verbatim and their checksums re-checked by this script.
 
 Run from the repository root:
     /usr/bin/python3 testdata/heading/make_nmea.py
@@ -26,14 +26,14 @@ def sentence(body):
     return "$%s*%s" % (body, cs(body))
 
 
-# Verbatim from REFERENCES.md section 4; assert the quoted checksums hold.
+# Verbatim NMEA 0183 examples; assert the quoted checksums hold.
 QUOTED = ["$GPHDT,274.07,T*03", "$APHDM,218.634,M*39", "$SDHDG,234.6,,,1.3,E*34"]
 for q in QUOTED:
     body, want = q[1:].split("*")
     assert cs(body) == want, (q, cs(body))
 
 # One sentence per line; the Go test holds the expected values (computed by
-# hand from the REFERENCES.md section 4 field order) in the same order.
+# hand from the NMEA 0183 HDG field order) in the same order.
 CASES = QUOTED + [
     sentence("HCHDG,101.1,2.5,W,4.0,E"),   # mag 98.6, true 102.6
     sentence("HCHDG,359.5,1.0,E,,"),       # mag 0.5 (wraps), no true
@@ -66,7 +66,7 @@ with open(os.path.join(HERE, "compass_stamped.nmea"), "w") as f:
     f.write("\n".join(lines) + "\n")
 
 # HDT sentences for the gpsd cross-check (gpsfake magic comment per
-# REFERENCES.md section 4; present-day date because of gpsd's rollover
+# gpsfake(1), gpsd 3.22; present-day date because of gpsd's rollover
 # handling). Talkers GP and HC only: gpsd 3.22 drops HEHDT. One sentence has
 # a corrupted checksum; gpsd and the Go parser must both reject it.
 hdt = [sentence("GPHDT,274.07,T"), sentence("HCHDT,0.0,T"), sentence("GPHDT,359.99,T"),

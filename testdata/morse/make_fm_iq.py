@@ -16,7 +16,7 @@ Signal chain per case (all at 48 kS/s complex baseband):
   -> rational_resampler_fff 6/1 -> 48 kS/s
   -> frequency_modulator_fc, sensitivity 2*pi*2500/48000 rad/sample per
      unit: audio peak 1.0 = +-2.5 kHz deviation (12.5 kHz channel,
-     REFERENCES section 9)
+     ETSI/FCC narrowband practice, from memory)
   -> multiply by exp(j*2*pi*OFFSET_HZ*t), OFFSET_HZ = +3000 Hz (the carrier
      sits off the tuned centre)
   -> add noise_source_c(GAUSSIAN, ampl, seed)
