@@ -352,6 +352,11 @@ func (r *resilient) close() error {
 // only with cfg.EOFOnClose (a replay); otherwise it is a fault like any
 // other.
 type ResilientRTLTCP struct {
+	resilientSource
+}
+
+// resilientSource is the API shared by ResilientRTLTCP and ResilientUSB.
+type resilientSource struct {
 	r *resilient
 }
 
@@ -368,15 +373,15 @@ func NewResilientRTLTCP(ctx context.Context, addr string, cfg RTLConfig, opts Re
 	if err != nil {
 		return nil, err
 	}
-	return &ResilientRTLTCP{r: r}, nil
+	return &ResilientRTLTCP{resilientSource{r}}, nil
 }
 
 // Info implements Source.
-func (c *ResilientRTLTCP) Info() Info { return c.r.info }
+func (c *resilientSource) Info() Info { return c.r.info }
 
 // Read implements Source; a fault is handled inside (the call blocks
 // while reconnecting) and only a final failure is returned.
-func (c *ResilientRTLTCP) Read(dst []complex64) (int, error) {
+func (c *resilientSource) Read(dst []complex64) (int, error) {
 	if len(dst) == 0 {
 		return 0, nil
 	}
@@ -384,7 +389,7 @@ func (c *ResilientRTLTCP) Read(dst []complex64) (int, error) {
 }
 
 // ReadCU8 implements CU8Reader, with the same fault handling as Read.
-func (c *ResilientRTLTCP) ReadCU8(dst []byte) (int, error) {
+func (c *resilientSource) ReadCU8(dst []byte) (int, error) {
 	if len(dst) < 2 {
 		return 0, nil
 	}
@@ -393,15 +398,31 @@ func (c *ResilientRTLTCP) ReadCU8(dst []byte) (int, error) {
 }
 
 // Close stops the receiver; a Read blocked in a backoff wait returns.
-func (c *ResilientRTLTCP) Close() error { return c.r.close() }
+func (c *resilientSource) Close() error { return c.r.close() }
 
 // Gaps returns the gaps found so far, in the order found. It is safe to
 // call from any goroutine.
-func (c *ResilientRTLTCP) Gaps() []Gap { return c.r.gapsCopy() }
+func (c *resilientSource) Gaps() []Gap { return c.r.gapsCopy() }
 
 // StreamIndex maps a delivered sample index to the receiver's own sample
 // count by adding the Missing of every gap at or before it.
-func (c *ResilientRTLTCP) StreamIndex(i int64) int64 { return c.r.streamIndex(i) }
+func (c *resilientSource) StreamIndex(i int64) int64 { return c.r.streamIndex(i) }
 
 // Reconnects is the number of successful reconnections.
-func (c *ResilientRTLTCP) Reconnects() int { return c.r.reconnects }
+func (c *resilientSource) Reconnects() int { return c.r.reconnects }
+
+// ResilientUSB is an RTL-SDR on USB that survives device errors (a
+// replugged or reset dongle): on a failed read it closes the device,
+// reopens the same index with backoff, applies the whole configuration
+// again, and records the gap like ResilientRTLTCP (same Gap convention,
+// same drop detection from arrival timing). Built only with -tags rtlsdr
+// (OpenResilientUSB); untested without hardware beyond building.
+//
+// Limits: librtlsdr's rtlsdr_read_sync cannot be interrupted, so Close
+// must not be called while a Read is in progress (cancel the context and
+// let Read return first); and the device is reopened by index, so with
+// several dongles a replug may renumber them (librtlsdr numbers devices in
+// USB enumeration order).
+type ResilientUSB struct {
+	resilientSource
+}
