@@ -66,6 +66,17 @@ func (l *logBuf) logger() *slog.Logger { return slog.New(slog.NewTextHandler(l, 
 // client configured with cfg gets, until EOF.
 func replayClient(t testing.TB, open func() (Source, error), opts ReplayOptions, cfg RTLConfig, limit int) ([]byte, error, error) {
 	t.Helper()
+	got, _, rerr, serr := replayRead(t, open, opts, cfg, limit, true)
+	return got, rerr, serr
+}
+
+// replayRead is replayClient that keeps the bytes only when keep is set
+// and also returns how many arrived.
+func replayRead(t testing.TB, open func() (Source, error), opts ReplayOptions, cfg RTLConfig, limit int, keep bool) ([]byte, int, error, error) {
+	t.Helper()
+	if opts.Logger == nil {
+		opts.Logger = slog.New(slog.DiscardHandler)
+	}
 	ln, err := ListenReplay("127.0.0.1:0", false)
 	if err != nil {
 		t.Fatal(err)
@@ -78,14 +89,18 @@ func replayClient(t testing.TB, open func() (Source, error), opts ReplayOptions,
 	c, err := DialRTLTCP(ctx, ln.Addr().String(), cfg)
 	if err != nil {
 		cancel()
-		return nil, err, <-done
+		return nil, 0, err, <-done
 	}
 	var got []byte
+	total := 0
 	buf := make([]byte, 1<<16)
 	var rerr error
-	for limit <= 0 || len(got) < limit {
+	for limit <= 0 || total < limit {
 		n, err := c.ReadCU8(buf)
-		got = append(got, buf[:n]...)
+		total += n
+		if keep {
+			got = append(got, buf[:n]...)
+		}
 		if err != nil {
 			if err != io.EOF {
 				rerr = err
@@ -97,7 +112,7 @@ func replayClient(t testing.TB, open func() (Source, error), opts ReplayOptions,
 	if limit > 0 {
 		cancel()
 	}
-	return got, rerr, <-done
+	return got, total, rerr, <-done
 }
 
 // A cu8 file written by sox, replayed as fast as the client reads, reaches
@@ -212,9 +227,9 @@ func BenchmarkReplayThroughput(b *testing.B) {
 	b.SetBytes(int64(len(data)))
 	b.ReportAllocs()
 	for b.Loop() {
-		got, rerr, serr := replayClient(b, open, ReplayOptions{}, RTLConfig{SampleRate: 2.4e6}, 0)
-		if rerr != nil || serr != nil || len(got) != len(data) {
-			b.Fatalf("%d bytes, client %v, server %v", len(got), rerr, serr)
+		_, n, rerr, serr := replayRead(b, open, ReplayOptions{}, RTLConfig{SampleRate: 2.4e6}, 0, false)
+		if rerr != nil || serr != nil || n != len(data) {
+			b.Fatalf("%d bytes, client %v, server %v", n, rerr, serr)
 		}
 	}
 }
@@ -231,9 +246,9 @@ func BenchmarkReplayThroughputCF32(b *testing.B) {
 	}
 	b.SetBytes(int64(2 * len(in)))
 	for b.Loop() {
-		got, rerr, serr := replayClient(b, open, ReplayOptions{}, RTLConfig{SampleRate: 2.4e6}, 0)
-		if rerr != nil || serr != nil || len(got) != 2*len(in) {
-			b.Fatalf("%d bytes, client %v, server %v", len(got), rerr, serr)
+		_, n, rerr, serr := replayRead(b, open, ReplayOptions{}, RTLConfig{SampleRate: 2.4e6}, 0, false)
+		if rerr != nil || serr != nil || n != 2*len(in) {
+			b.Fatalf("%d bytes, client %v, server %v", n, rerr, serr)
 		}
 	}
 }
