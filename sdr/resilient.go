@@ -8,6 +8,7 @@ import (
 	"log/slog"
 	"math"
 	"math/rand/v2"
+	"net"
 	"sync"
 	"time"
 )
@@ -330,7 +331,10 @@ func (r *resilient) close() error {
 	r.cancel()
 	r.mu.Lock()
 	defer r.mu.Unlock()
-	return r.cur.Close()
+	if err := r.cur.Close(); err != nil && !errors.Is(err, net.ErrClosed) {
+		return err // a leg that failed was closed already
+	}
+	return nil
 }
 
 // ResilientRTLTCP is an rtl_tcp client that survives a dropped connection:
