@@ -301,7 +301,7 @@ func FuzzRTLTCPStream(f *testing.F) {
 		ctx, cancel := context.WithTimeout(context.Background(), 10*time.Second)
 		defer cancel()
 		cfg := RTLConfig{SampleRate: 2.4e6, EOFOnClose: true}
-		c, err := startRTLTCP(ctx, cli, "fuzz", cfg, 5*time.Second)
+		c, err := startRTLTCP(ctx, cli, "fuzz", cfg, 5*time.Second, nil)
 		oneLine(t, err)
 		goodMagic := len(data) >= 12 && string(data[:4]) == "RTL0"
 		if err != nil {

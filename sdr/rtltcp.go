@@ -172,6 +172,7 @@ type RTLTCP struct {
 	err                  error
 	stop                 func() bool
 	ctx                  context.Context
+	watch                *dropWatch // nil unless a ResilientRTLTCP watches for drops
 }
 
 // DialRTLTCP connects to an rtl_tcp server at addr (host:port), reads the
@@ -181,6 +182,12 @@ func DialRTLTCP(ctx context.Context, addr string, cfg RTLConfig) (*RTLTCP, error
 	if err := cfg.check(); err != nil {
 		return nil, fmt.Errorf("rtl_tcp %s: %w", addr, err)
 	}
+	return dialRTLTCP(ctx, addr, cfg, nil)
+}
+
+// dialRTLTCP is DialRTLTCP on a checked cfg, with a drop watch (nil for
+// none) fed by every read.
+func dialRTLTCP(ctx context.Context, addr string, cfg RTLConfig, watch *dropWatch) (*RTLTCP, error) {
 	timeout := cfg.NoDataTimeout
 	if timeout <= 0 {
 		timeout = 5 * time.Second
@@ -192,13 +199,14 @@ func DialRTLTCP(ctx context.Context, addr string, cfg RTLConfig) (*RTLTCP, error
 	if err != nil {
 		return nil, fmt.Errorf("rtl_tcp: cannot connect to %s: %w", addr, err)
 	}
-	return startRTLTCP(ctx, conn, addr, cfg, timeout)
+	return startRTLTCP(ctx, conn, addr, cfg, timeout, watch)
 }
 
 // startRTLTCP runs the client side of the protocol on an open connection
 // (a TCP one, or a net.Pipe in tests); cfg has been checked.
-func startRTLTCP(ctx context.Context, conn net.Conn, addr string, cfg RTLConfig, timeout time.Duration) (*RTLTCP, error) {
+func startRTLTCP(ctx context.Context, conn net.Conn, addr string, cfg RTLConfig, timeout time.Duration, watch *dropWatch) (*RTLTCP, error) {
 	c := &RTLTCP{
+		watch:   watch,
 		conn:    conn,
 		addr:    addr,
 		timeout: timeout,
@@ -509,6 +517,7 @@ func (c *RTLTCP) noteArrival(a time.Time, n int) {
 	if got <= 0 || !(c.info.SampleRate > 0) {
 		return
 	}
+	c.watch.note(a, got, min(got, int64(n/2)))
 	cand := a.UnixNano() - int64(float64(got)/c.info.SampleRate*1e9)
 	if old := c.originNs.Load(); old == 0 || cand < old {
 		c.originNs.Store(cand)

@@ -10,6 +10,7 @@ import (
 	"math"
 	"net"
 	"sync"
+	"sync/atomic"
 	"time"
 )
 
@@ -27,12 +28,20 @@ type ServeOptions struct {
 	// has 29 steps).
 	TunerType, GainCount uint32
 	// Paced streams at the source's sample rate (real time); otherwise as
-	// fast as the client reads.
+	// fast as the client reads. Same as Speed 1.
 	Paced bool
+	// Speed, when > 0, paces the stream at Speed times the source's rate
+	// (2 = twice real time); 0 leaves it to Paced.
+	Speed float64
 	// OnCommand, if set, is called (from the connection's command reader
 	// goroutine) for every command a client sends. The replay cannot
 	// retune or resample, so commands change nothing else.
 	OnCommand func(RTLCommand)
+	// Check, if set, is called after OnCommand for every command; an error
+	// refuses the command: the client's connection is closed (rtl_tcp has
+	// no way to answer a command) and the error is logged as the reason.
+	// The next client continues the stream.
+	Check func(RTLCommand) error
 	// Logger receives connection events; nil = slog.Default().
 	Logger *slog.Logger
 }
@@ -132,6 +141,12 @@ func (st *replayState) serve(ctx context.Context, conn net.Conn) (done bool, err
 	if _, err := conn.Write(g[:]); err != nil {
 		return false, err
 	}
+	var refused atomic.Pointer[error]
+	defer func() {
+		if r := refused.Load(); r != nil {
+			done, err = false, *r
+		}
+	}()
 	var wg sync.WaitGroup
 	wg.Add(1)
 	go func() { // command reader
@@ -141,21 +156,33 @@ func (st *replayState) serve(ctx context.Context, conn net.Conn) (done bool, err
 			if _, err := io.ReadFull(conn, b[:]); err != nil {
 				return
 			}
+			cmd := RTLCommand{Code: b[0], Param: binary.BigEndian.Uint32(b[1:])}
 			if st.opts.OnCommand != nil {
-				st.opts.OnCommand(RTLCommand{Code: b[0], Param: binary.BigEndian.Uint32(b[1:])})
+				st.opts.OnCommand(cmd)
+			}
+			if st.opts.Check != nil {
+				if err := st.opts.Check(cmd); err != nil {
+					refused.Store(&err)
+					conn.Close()
+					return
+				}
 			}
 		}
 	}()
 	defer wg.Wait()
 	defer conn.Close() // unblocks the command reader
 	rate := st.src.Info().SampleRate
+	speed := st.opts.Speed
+	if speed <= 0 && st.opts.Paced {
+		speed = 1
+	}
 	connStart, connSent0 := time.Now(), st.sent
 	for {
 		n, rerr := st.next()
 		if n > 0 {
-			if st.opts.Paced && rate > 0 {
+			if speed > 0 && rate > 0 {
 				// A receiver hands over a block once its last sample is in.
-				due := connStart.Add(time.Duration(float64(st.sent-connSent0+int64(n/2)) / rate * float64(time.Second)))
+				due := connStart.Add(time.Duration(float64(st.sent-connSent0+int64(n/2)) / (rate * speed) * float64(time.Second)))
 				if d := time.Until(due); d > 0 {
 					t := time.NewTimer(d)
 					select {

@@ -3,6 +3,7 @@
 package sdr
 
 import (
+	"context"
 	"fmt"
 	"math"
 	"time"
@@ -28,6 +29,8 @@ type usbSource struct {
 	lo, hi  int
 	err     error
 	started bool
+	got     int64      // samples received
+	watch   *dropWatch // nil unless a ResilientUSB watches for drops
 }
 
 // OpenUSB opens RTL-SDR device index (0-based) with cfg (NoDataTimeout and
@@ -38,13 +41,40 @@ func OpenUSB(index int, cfg RTLConfig) (Source, error) {
 	if err := cfg.check(); err != nil {
 		return nil, fmt.Errorf("usb rtl-sdr %d: %w", index, err)
 	}
+	return openUSB(index, cfg, nil)
+}
+
+// OpenResilientUSB opens RTL-SDR device index like OpenUSB and returns a
+// source that reopens it on a device error (see ResilientUSB). A failure
+// of the first opening is returned at once. Cancelling ctx stops it.
+func OpenResilientUSB(ctx context.Context, index int, cfg RTLConfig, opts ResilientOptions) (*ResilientUSB, error) {
+	if err := cfg.check(); err != nil {
+		return nil, fmt.Errorf("usb rtl-sdr %d: %w", index, err)
+	}
+	rate, _ := rtlRate(cfg.SampleRate)
+	r, err := newResilient(ctx, fmt.Sprintf("usb rtl-sdr %d", index), float64(rate), opts, false,
+		func(ctx context.Context, w *dropWatch) (leg, error) {
+			if err := ctx.Err(); err != nil {
+				return nil, err
+			}
+			return openUSB(index, cfg, w)
+		})
+	if err != nil {
+		return nil, err
+	}
+	return &ResilientUSB{resilientSource{r}}, nil
+}
+
+// openUSB opens and configures the device; cfg has been checked.
+func openUSB(index int, cfg RTLConfig, watch *dropWatch) (*usbSource, error) {
 	dev, err := rtlsdr.Open(index)
 	if err != nil {
 		return nil, err
 	}
 	s := &usbSource{
-		dev: dev,
-		buf: make([]byte, 32<<10), // multiple of 512 as read_sync wants
+		dev:   dev,
+		watch: watch,
+		buf:   make([]byte, 32<<10), // multiple of 512 as read_sync wants
 		info: Info{
 			SampleRate: cfg.SampleRate,
 			CenterHz:   cfg.CenterHz,
@@ -137,6 +167,10 @@ func (s *usbSource) ReadCU8(dst []byte) (int, error) {
 			s.info.Start = time.Now().UTC()
 		}
 		s.hi += n
+		if n > 0 {
+			s.got += int64(n / 2)
+			s.watch.note(time.Now(), s.got, int64(n/2))
+		}
 		if err != nil {
 			s.err = err
 			return 0, err

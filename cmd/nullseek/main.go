@@ -32,6 +32,7 @@ var profileOut struct {
 }
 
 func init() {
+	rootCmd.AddCommand(newReplayCmd())
 	rootCmd.PersistentFlags().StringVar(&cpuProfile, "cpuprofile", "", "write a CPU profile to this file (for developers)")
 	_ = rootCmd.PersistentFlags().MarkHidden("cpuprofile")
 	rootCmd.PersistentPreRunE = func(*cobra.Command, []string) error {
