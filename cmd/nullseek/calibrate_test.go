@@ -16,6 +16,7 @@ import (
 	"time"
 
 	"nullseek/bearing"
+	"nullseek/demo"
 	"nullseek/geo"
 	"nullseek/heading"
 	"nullseek/sim"
@@ -51,7 +52,7 @@ func (c calScene) render(t *testing.T, dir, name string, turn heading.SteadyTurn
 	st := sim.Station{Name: name, Lat: c.lat0, Lon: c.lon0, Antenna: c.real, AntennaName: "yagi",
 		Turn: turn, HeadingRef: heading.True, RippleDB: 0.3}
 	var outs atomicfile.Set
-	if err := stageStationIQ(&outs, sc, st, dir); err != nil {
+	if err := demo.StageStationIQ(&outs, sc, st, dir); err != nil {
 		t.Fatal(err)
 	}
 	if err := outs.Commit(); err != nil {
@@ -225,49 +226,10 @@ func TestCalibrateErrors(t *testing.T) {
 		{"missing file", []string{rec, "--known-bearing", "10", "--out", filepath.Join(dir, "p.json"), "--freq", "145M", "--turn", "0:30"}, "none.sigmf"},
 	}
 	for _, tc := range cases {
-		r := runNullseek(t, "", append([]string{"calibrate"}, tc.args...)...)
+		r := inProcess(t, append([]string{"calibrate"}, tc.args...)...)
 		t.Run(tc.name, func(t *testing.T) { oneLine(t, r, tc.want) })
 	}
 	if _, err := os.Stat(filepath.Join(dir, "p.json")); err == nil {
 		t.Error("a pattern file was written by a failed run")
 	}
-}
-
-func TestParseLatLon(t *testing.T) {
-	cases := []struct {
-		in       string
-		ok       bool
-		lat, lon float64
-	}{
-		{"46.8127,7.4415", true, 46.8127, 7.4415},
-		{" -33.5 , -70.25 ", true, -33.5, -70.25},
-		{"90,180", true, 90, 180},
-		{"91,0", false, 0, 0},
-		{"0,-181", false, 0, 0},
-		{"46.8", false, 0, 0},
-		{"a,b", false, 0, 0},
-		{"NaN,0", false, 0, 0},
-		{"1,2,3", false, 0, 0},
-	}
-	for _, c := range cases {
-		lat, lon, err := parseLatLon("--tx", c.in)
-		if (err == nil) != c.ok || (c.ok && (lat != c.lat || lon != c.lon)) {
-			t.Errorf("parseLatLon(%q) = %v, %v, %v", c.in, lat, lon, err)
-		}
-		if err != nil && !strings.Contains(err.Error(), "--tx") {
-			t.Errorf("error %q does not name the flag", err)
-		}
-	}
-}
-
-func FuzzParseLatLon(f *testing.F) {
-	for _, s := range []string{"46.8127,7.4415", "-90,-180", "1e3,0", ",", "0x10,5", "Inf,0"} {
-		f.Add(s)
-	}
-	f.Fuzz(func(t *testing.T, s string) {
-		lat, lon, err := parseLatLon("--tx", s)
-		if err == nil && !(lat >= -90 && lat <= 90 && lon >= -180 && lon <= 180) {
-			t.Fatalf("accepted %q as %v,%v", s, lat, lon)
-		}
-	})
 }

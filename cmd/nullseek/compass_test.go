@@ -478,7 +478,7 @@ func TestLiveCompassFlags(t *testing.T) {
 		{"on a recording", []string{filepath.Join(dir, "x.sigmf-meta"), "--nmea-feed", feed}, []string{"--nmea-feed", "live receiver"}},
 	}
 	for _, tc := range cases {
-		r := runNullseek(t, "", append(base, tc.args...)...)
+		r := inProcess(t, append(base, tc.args...)...)
 		t.Run(tc.name, func(t *testing.T) { oneLine(t, r, tc.want...) })
 	}
 	if left := filesIn(t, dir); len(left) > 0 {

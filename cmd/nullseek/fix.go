@@ -12,8 +12,6 @@ import (
 	"nullseek/locate"
 )
 
-func init() { rootCmd.AddCommand(newFixCmd()) }
-
 type fixFlags struct {
 	json     bool
 	grid     string
@@ -39,7 +37,7 @@ could not be made (the others are still printed and written).`,
 		Args: cobra.MinimumNArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			fl.o.DeclinationSet = cmd.Flags().Changed("declination")
-			return runFix(cmd.OutOrStdout(), cmd.ErrOrStderr(), args, fl)
+			return runFix(cmd.InOrStdin(), cmd.OutOrStdout(), cmd.ErrOrStderr(), args, fl)
 		},
 	}
 	f := cmd.Flags()
@@ -60,15 +58,7 @@ could not be made (the others are still printed and written).`,
 	return cmd
 }
 
-// zeroFlag refuses 0 for flags whose 0 would silently mean "the default".
-func zeroFlag(name string, v float64) error {
-	if v == 0 {
-		return fmt.Errorf("--%s 0: give a positive value", name)
-	}
-	return nil
-}
-
-func runFix(out, errOut io.Writer, inputs []string, fl fixFlags) error {
+func runFix(stdin io.Reader, out, errOut io.Writer, inputs []string, fl fixFlags) error {
 	o := fl.o
 	o.Map.SizeCm = fl.mapSize
 	for _, c := range []struct {
@@ -92,7 +82,7 @@ func runFix(out, errOut io.Writer, inputs []string, fl fixFlags) error {
 	var srcs []locate.Source
 	for _, in := range inputs {
 		if in == "-" {
-			srcs = append(srcs, locate.Source{Name: "stdin", R: os.Stdin})
+			srcs = append(srcs, locate.Source{Name: "stdin", R: stdin})
 			continue
 		}
 		fh, err := os.Open(in)

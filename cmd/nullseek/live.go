@@ -31,9 +31,6 @@ type liveFlags struct {
 	hf                                  *headingFlags
 }
 
-// liveOnly are the flags that only a live receiver takes.
-var liveOnly = []string{"rotator", "sweep", "step", "duration", "margin", "record", "gain", "ppm", "iq-latency", "poll-hz", "nmea-feed"}
-
 // add lets cmd (bearing, calibrate) take a live receiver in place of
 // RECORDING. Call it after the input, ident and heading flags are added.
 func (f *liveFlags) add(cmd *cobra.Command, in *inputFlags, idf *identFlags, hf *headingFlags) {
@@ -77,8 +74,8 @@ enough; the command then exits 1.`
 func (f *liveFlags) run(body func(*cobra.Command, recording) error) func(*cobra.Command, []string) error {
 	return func(c *cobra.Command, args []string) error {
 		if !capture.IsReceiver(args[0]) {
-			var given []string
-			for _, n := range liveOnly {
+			var given []string // the flags only a live receiver takes
+			for _, n := range []string{"rotator", "sweep", "step", "duration", "margin", "record", "gain", "ppm", "iq-latency", "poll-hz", "nmea-feed"} {
 				if c.Flags().Changed(n) {
 					given = append(given, "--"+n)
 				}
@@ -103,15 +100,15 @@ func (f *liveFlags) options(target string) (capture.Options, error) {
 	if in.format != "" || in.start != "" {
 		return o, fmt.Errorf("--format and --start describe a raw recording; a live receiver gives cu8 and its own start time")
 	}
-	if rate, err := parseHz("rate", in.rate); err != nil {
+	if rate, err := hzFlag("rate", in.rate); err != nil {
 		return o, err
 	} else if rate != 0 {
 		o.RateHz = rate
 	}
-	if o.CenterHz, err = parseHz("center", in.center); err != nil {
+	if o.CenterHz, err = hzFlag("center", in.center); err != nil {
 		return o, err
 	}
-	if o.FreqHz, err = parseHz("freq", in.freq); err != nil {
+	if o.FreqHz, err = hzFlag("freq", in.freq); err != nil {
 		return o, err
 	}
 	if o.Plan, err = capture.ParseSweep(f.sweep, f.step); err != nil {
@@ -128,22 +125,19 @@ func (f *liveFlags) options(target string) (capture.Options, error) {
 			return o, err
 		}
 	}
-	if o.Ref, err = headingRef(hf.ref); err != nil {
+	hs, err := hf.source(nil)
+	if err != nil {
 		return o, err
 	}
-	if hf.log != "" && hf.nmea != "" {
+	o.Ref, o.Turn = hs.Ref, hs.Turn
+	if hs.LogPath != "" && hs.NMEAPath != "" {
 		return o, fmt.Errorf("give one heading file: --headings or --nmea")
 	}
 	switch {
-	case hf.turn != "":
-		st, err := capture.ParseTurn(hf.turn, o.Ref)
-		if err != nil {
-			return o, err
-		}
-		o.Turn = &st
-	case hf.log != "":
+	case hs.Turn != nil:
+	case hs.LogPath != "":
 		o.HeadingFile = "--headings"
-	case hf.nmea != "":
+	case hs.NMEAPath != "":
 		o.HeadingFile = "--nmea"
 	}
 	if err := o.Validate(); err != nil {
@@ -152,16 +146,16 @@ func (f *liveFlags) options(target string) (capture.Options, error) {
 	if _, _, err := in.config(); err != nil {
 		return o, err
 	}
-	if _, _, err := f.idf.options(); err != nil {
+	if _, err := f.idf.options(); err != nil {
 		return o, err
 	}
-	if _, err := hf.pattern(); err != nil {
+	if _, err := hs.Pattern(); err != nil {
 		return o, err
 	}
 	if o.Ref == heading.Magnetic && o.HeadingFile == "" {
 		// The body converts with the recording's start time; this only
 		// checks now that it will be able to.
-		if _, err := hf.declinationAt(time.Now().UTC(), func(string) {}); err != nil {
+		if _, err := hs.DeclinationAt(time.Now().UTC(), nil); err != nil {
 			return o, err
 		}
 	}
@@ -230,14 +224,4 @@ func recordedNote(cmdName string, res *capture.Result) string {
 		rerun += " (with the same other flags)"
 	}
 	return fmt.Sprintf("recorded %.1f s to %s; re-run offline: %s", res.Seconds(), res.Meta, rerun)
-}
-
-// exitCode is the process's exit status for err: the error's own
-// (capture.Interrupted: 128 + the signal) or 1.
-func exitCode(err error) int {
-	var ec interface{ ExitCode() int }
-	if errors.As(err, &ec) {
-		return ec.ExitCode()
-	}
-	return 1
 }
