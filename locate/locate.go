@@ -19,6 +19,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"os"
 	"path/filepath"
 	"strings"
 	"time"
@@ -438,4 +439,32 @@ func (res *Result) writeOutputs(clusters [][]int, gridOf []*geo.Grid, o Options)
 			write(path, func() ([]byte, error) { return mapplot.Render(fixes, gridOf[c], format, mo) })
 		}
 	}
+}
+
+// LoadGrid reads the event grid the command line gives: spec (--grid,
+// geo.ParseGrid) or the JSON file (--grid-file, geo.ReadGridJSON), not
+// both; nil when neither is given (an automatic grid).
+func LoadGrid(spec, file string) (*geo.Grid, error) {
+	switch {
+	case spec != "" && file != "":
+		return nil, errors.New("give --grid or --grid-file, not both")
+	case spec != "":
+		g, err := geo.ParseGrid(spec)
+		if err != nil {
+			return nil, fmt.Errorf("--grid: %w", err)
+		}
+		return g, nil
+	case file != "":
+		fh, err := os.Open(file)
+		if err != nil {
+			return nil, fmt.Errorf("--grid-file: %w", err)
+		}
+		defer fh.Close()
+		g, err := geo.ReadGridJSON(fh)
+		if err != nil {
+			return nil, fmt.Errorf("%s: %w", file, err)
+		}
+		return g, nil
+	}
+	return nil, nil
 }

@@ -12,6 +12,7 @@ import (
 	"nullseek/capture"
 	"nullseek/geo"
 	"nullseek/heading"
+	"nullseek/internal/units"
 	"nullseek/receiver"
 	"nullseek/sdr"
 )
@@ -92,6 +93,68 @@ func (in *Input) Run(ctx context.Context, plan *BearingPlan) (*Result, error) {
 	res, err := Run(ctx, src, opts, prog)
 	done()
 	return res, err
+}
+
+// InputFlags describe a recording and its channel as the command line
+// gives them: the raw-file flags --rate, --format, --center and --start
+// (needed for a raw file; a SigMF or WAV file carries its own), the
+// channel as --freq or --offset (units.ParseHz), and the receiver's
+// numeric flags in Receiver (defaults: receiver.DefaultConfig).
+type InputFlags struct {
+	Rate, Format, Center, Start, Freq, Offset string
+	Receiver                                  receiver.Config
+	// ChannelRateGiven and MergeGapGiven say --channel-rate and
+	// --merge-gap were given (else 0 refused, and the keying mode's own
+	// merge gap).
+	ChannelRateGiven, MergeGapGiven bool
+}
+
+// Raw is the description of a raw recording the flags give.
+func (f *InputFlags) Raw() (p sdr.RawParams, err error) {
+	if p.SampleRate, err = units.HzFlag("rate", f.Rate); err != nil {
+		return p, err
+	}
+	if p.CenterHz, err = units.HzFlag("center", f.Center); err != nil {
+		return p, err
+	}
+	p.Format = f.Format
+	if f.Start != "" {
+		t, err := time.Parse(time.RFC3339Nano, f.Start)
+		if err != nil {
+			return p, fmt.Errorf("--start %q is not an RFC 3339 time (example 2026-05-01T10:00:00Z)", f.Start)
+		}
+		p.Start = t.UTC()
+	}
+	return p, nil
+}
+
+// Config is the checked receiver configuration; haveChannel is false when
+// neither --freq nor --offset was given.
+func (f *InputFlags) Config() (cfg receiver.Config, haveChannel bool, err error) {
+	// Only the flagged fields: the others stay zero, which means their
+	// defaults (receiver.Config).
+	r := f.Receiver
+	cfg.ChannelRateHz, cfg.FalseAlarmsPerHour, cfg.JoinWaitS = r.ChannelRateHz, r.FalseAlarmsPerHour, r.JoinWaitS
+	cfg.MinBurstS, cfg.MergeGapS = r.MinBurstS, r.MergeGapS
+	if cfg.FreqHz, err = units.HzFlag("freq", f.Freq); err != nil {
+		return cfg, false, err
+	}
+	if cfg.OffsetHz, err = units.HzFlag("offset", f.Offset); err != nil {
+		return cfg, false, err
+	}
+	if f.Freq != "" && f.Offset != "" {
+		return cfg, false, fmt.Errorf("give --freq or --offset, not both")
+	}
+	if f.ChannelRateGiven && cfg.ChannelRateHz == 0 {
+		return cfg, false, fmt.Errorf("--channel-rate 0: give a positive value") // 0 would silently mean the default
+	}
+	if !f.MergeGapGiven {
+		cfg.MergeGapS = 0 // the default for the keying mode (longer for keyed carrier)
+	}
+	if err := cfg.Validate(); err != nil {
+		return cfg, false, err
+	}
+	return cfg, f.Freq != "" || f.Offset != "", nil
 }
 
 // HeadingSource says where the antenna's headings come from and how they

@@ -2,15 +2,10 @@ package main
 
 import (
 	"bytes"
-	"encoding/json"
 	"fmt"
-	"io"
-	"strings"
-	"time"
 
 	"github.com/spf13/cobra"
 
-	"nullseek/geo"
 	"nullseek/internal/atomicfile"
 	"nullseek/survey"
 )
@@ -88,7 +83,7 @@ func runBearing(cmd *cobra.Command, rec recording, o *bearingOptions) error {
 		return fmt.Errorf("%s: no bursts found, so no bearing", rec.path)
 	}
 	bbs, txs := survey.Bearings(res, tr, pat, hs.Bearing.Fit, hs.Bearing.SiteSigmaDeg)
-	if err := noBearing(rec.path, bbs, txs); err != nil {
+	if err := survey.NoBearing(rec.path, bbs, txs); err != nil {
 		return err
 	}
 	mount, _ := hs.Bearing.MountOffset(pat) // checked by hs.Pattern
@@ -101,24 +96,17 @@ func runBearing(cmd *cobra.Command, rec recording, o *bearingOptions) error {
 		}
 	}
 	if o.lopCSV != "" {
-		if err := stageLOPs(&outs, o.lopCSV, hs, res.Info.Start, txs); err != nil {
+		if err := survey.StageLOPs(&outs, o.lopCSV, hs.StationLat, hs.StationLon, res.Info.Start, txs); err != nil {
 			return err
 		}
 	}
 	var text bytes.Buffer
 	if o.asJSON {
-		enc := json.NewEncoder(&text)
-		for _, b := range bbs {
-			if err := enc.Encode(b); err != nil {
-				return err
-			}
-		}
-		for _, t := range txs {
-			if err := enc.Encode(t); err != nil {
-				return err
-			}
-		}
-	} else if err := survey.WriteBearingTable(&text, bbs, txs, ref); err != nil {
+		err = survey.WriteBearingsJSON(&text, bbs, txs)
+	} else {
+		err = survey.WriteBearingTable(&text, bbs, txs, ref)
+	}
+	if err != nil {
 		return err
 	}
 	if err := outs.Commit(); err != nil {
@@ -126,43 +114,4 @@ func runBearing(cmd *cobra.Command, rec recording, o *bearingOptions) error {
 	}
 	_, err = text.WriteTo(cmd.OutOrStdout())
 	return err
-}
-
-// noBearing is an error when no transmitter got a bearing (a heading log
-// that misses the recording, a sweep under 90°, ...): the command then has
-// nothing to report and exits non-zero with the bursts' reasons, writing
-// no files.
-func noBearing(path string, bbs []survey.BurstBearing, txs []survey.TxBearing) error {
-	for _, t := range txs {
-		if t.Err == nil {
-			return nil
-		}
-	}
-	var reasons []string
-	seen := map[string]bool{}
-	for _, b := range bbs {
-		if b.Err != nil && !seen[b.Err.Error()] {
-			seen[b.Err.Error()] = true
-			reasons = append(reasons, fmt.Sprintf("burst %d: %v", b.Index, b.Err))
-		}
-	}
-	if len(reasons) > 3 {
-		reasons = append(reasons[:3], fmt.Sprintf("and %d more", len(reasons)-3))
-	}
-	return fmt.Errorf("%s: no bearing from any of its %d bursts: %s", path, len(bbs), strings.Join(reasons, "; "))
-}
-
-// stageLOPs stages the transmitters' bearings in the CSV form `fix` reads.
-func stageLOPs(set *atomicfile.Set, path string, hs *survey.HeadingSource, start time.Time, txs []survey.TxBearing) error {
-	lat, lon := hs.StationLat, hs.StationLon
-	st := fmt.Sprintf("%.5f %.5f", lat, lon)
-	var recs []geo.BearingRecord
-	for _, t := range txs {
-		if t.Err != nil {
-			continue
-		}
-		recs = append(recs, geo.BearingRecord{LOP: geo.LOP{Ident: t.Ident, Station: st, Lat: lat, Lon: lon,
-			BearingDeg: t.Combined.BearingDeg, SigmaDeg: t.SigmaDeg, Time: start, Ambiguous: t.Combined.AltBearingDeg != nil}})
-	}
-	return set.WriteFunc(path, func(w io.Writer) error { return geo.WriteBearingsCSV(w, recs) })
 }

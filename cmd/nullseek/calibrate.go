@@ -3,17 +3,11 @@ package main
 import (
 	"encoding/json"
 	"fmt"
-	"io"
-	"math"
-	"strconv"
-	"strings"
 
 	"github.com/spf13/cobra"
 
 	"nullseek/bearing"
-	"nullseek/geo"
 	"nullseek/internal/angle"
-	"nullseek/internal/units"
 	"nullseek/survey"
 )
 
@@ -70,7 +64,8 @@ func runCalibrate(cmd *cobra.Command, rec recording, o *calibrateOptions) error 
 	if err != nil {
 		return err
 	}
-	known, how, err := o.bearingFrom(hs)
+	known, how, err := survey.KnownBearing{Bearing: o.knownBearing, Tx: o.tx, Station: o.hf.station,
+		HasStation: hs.HasStation, StationLat: hs.StationLat, StationLon: hs.StationLon}.Degrees()
 	if err != nil {
 		return err
 	}
@@ -110,67 +105,5 @@ func runCalibrate(cmd *cobra.Command, rec recording, o *calibrateOptions) error 
 	if o.asJSON {
 		return json.NewEncoder(cmd.OutOrStdout()).Encode(cal.Line(total, given, how, o.out))
 	}
-	return writeCalibration(cmd.OutOrStdout(), cal, nominal.Name, total, given, how, o.out)
-}
-
-// bearingFrom returns the calibration bearing in degrees true and a
-// description of where it came from.
-func (o *calibrateOptions) bearingFrom(hs *survey.HeadingSource) (float64, string, error) {
-	switch {
-	case o.tx != "" && o.knownBearing != "":
-		return 0, "", fmt.Errorf("give --tx LAT,LON (with --station) or --known-bearing DEG, not both")
-	case o.knownBearing != "":
-		v, err := strconv.ParseFloat(strings.TrimSpace(o.knownBearing), 64)
-		if err != nil || math.IsNaN(v) || math.IsInf(v, 0) || v < -360 || v > 360 {
-			return 0, "", fmt.Errorf("--known-bearing %q: want degrees true, e.g. 123.4", o.knownBearing)
-		}
-		v = angle.Wrap360(v)
-		return v, fmt.Sprintf("%.2f° true (given)", v), nil
-	case o.tx != "":
-		txLat, txLon, err := units.ParseLatLon(o.tx)
-		if err != nil {
-			return 0, "", fmt.Errorf("--tx: %w", err)
-		}
-		if !hs.HasStation {
-			return 0, "", fmt.Errorf("--tx needs the station's position too: --station LAT,LON")
-		}
-		dist, az, _ := geo.Inverse(hs.StationLat, hs.StationLon, txLat, txLon)
-		if math.IsNaN(az) || !(dist >= 1) {
-			return 0, "", fmt.Errorf("--tx %s and --station %s are the same place: no bearing between them", o.tx, o.hf.station)
-		}
-		az = angle.Wrap360(az)
-		if az >= 360 {
-			az = 0
-		}
-		return az, fmt.Sprintf("%.2f° true, %.0f m from the station (geodesic, WGS84)", az, dist), nil
-	}
-	return 0, "", fmt.Errorf("calibrate needs the transmitter's bearing: --tx LAT,LON with --station LAT,LON, or --known-bearing DEG")
-}
-
-func writeCalibration(w io.Writer, cal *survey.Calibration, nominal string, total, given float64, how, path string) error {
-	ew := &strings.Builder{}
-	s := cal.Shape
-	fmt.Fprintf(ew, "calibration transmitter  %s, known bearing %s\n", cal.Ident, how)
-	fmt.Fprintf(ew, "used                     %d burst(s), %d level readings, sweep coverage %.0f°\n", cal.Bursts, cal.Points, cal.Alignment.CoverageDeg)
-	fmt.Fprintf(ew, "seen at                  %.2f° ± %.2f° with the nominal pattern %q (fit residual %.2f dB)\n", cal.Alignment.BearingDeg, cal.Alignment.SigmaDeg, nominal, cal.Alignment.ResidualDB)
-	fmt.Fprintf(ew, "north offset             %+.2f° ± %.2f° (1σ, level noise only) to the middle of the measured main lobe or null", cal.NorthOffsetDeg, cal.SigmaDeg)
-	if given != 0 {
-		fmt.Fprintf(ew, ", on top of --mount-offset %.2f", given)
-	}
-	fmt.Fprintln(ew)
-	if cal.Pattern.Mode == bearing.Peak {
-		fmt.Fprintf(ew, "measured pattern         peak, beamwidth %.1f° (−3 dB), front-to-back %.1f dB, deepest null %.1f dB\n", s.WidthDeg, s.FrontBackDB, s.NullDepthDB)
-	} else {
-		fmt.Fprintf(ew, "measured pattern         null, null depth %.1f dB, null width %.1f° (+3 dB)\n", s.NullDepthDB, s.WidthDeg)
-	}
-	for _, warn := range cal.Alignment.Warnings {
-		// The nominal pattern is only the starting point: its misfit is
-		// what calibration is for.
-		fmt.Fprintf(ew, "nominal-pattern fit      %s\n", warn)
-	}
-	fmt.Fprintf(ew, "saved                    %s\n", path)
-	fmt.Fprintf(ew, "heading names            %s\n", cal.Pattern.HeadingRef)
-	fmt.Fprintf(ew, "use it                   nullseek bearing REC --antenna %s (it carries the mount offset %+.2f°; the same heading flags as here)\n", path, total)
-	_, err := io.WriteString(w, ew.String())
-	return err
+	return cal.WriteReport(cmd.OutOrStdout(), nominal.Name, total, given, how, o.out)
 }

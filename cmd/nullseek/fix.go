@@ -1,14 +1,12 @@
 package main
 
 import (
-	"errors"
 	"fmt"
 	"io"
 	"os"
 
 	"github.com/spf13/cobra"
 
-	"nullseek/geo"
 	"nullseek/locate"
 )
 
@@ -70,7 +68,7 @@ func runFix(stdin io.Reader, out, errOut io.Writer, inputs []string, fl fixFlags
 			return err
 		}
 	}
-	grid, err := loadGrid(fl.grid, fl.gridFile)
+	grid, err := locate.LoadGrid(fl.grid, fl.gridFile)
 	if err != nil {
 		return err
 	}
@@ -113,29 +111,4 @@ func runFix(stdin io.Reader, out, errOut io.Writer, inputs []string, fl fixFlags
 		return fmt.Errorf("%d output file(s) could not be made: %v", len(res.OutputErrors), res.OutputErrors[0])
 	}
 	return nil
-}
-
-func loadGrid(spec, file string) (*geo.Grid, error) {
-	switch {
-	case spec != "" && file != "":
-		return nil, errors.New("give --grid or --grid-file, not both")
-	case spec != "":
-		g, err := geo.ParseGrid(spec)
-		if err != nil {
-			return nil, fmt.Errorf("--grid: %w", err)
-		}
-		return g, nil
-	case file != "":
-		fh, err := os.Open(file)
-		if err != nil {
-			return nil, fmt.Errorf("--grid-file: %w", err)
-		}
-		defer fh.Close()
-		g, err := geo.ReadGridJSON(fh)
-		if err != nil {
-			return nil, fmt.Errorf("%s: %w", file, err)
-		}
-		return g, nil
-	}
-	return nil, nil
 }

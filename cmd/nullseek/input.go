@@ -14,7 +14,6 @@ import (
 	"nullseek/ident"
 	"nullseek/ident/idmatch"
 	"nullseek/ident/morse"
-	"nullseek/internal/units"
 	"nullseek/receiver"
 	"nullseek/sdr"
 	"nullseek/survey"
@@ -22,87 +21,30 @@ import (
 
 // inputFlags are the flags every command that reads a recording shares.
 type inputFlags struct {
-	rate, format, center, start string
-	freq, offset                string
-	cfg                         receiver.Config // the numeric flags, defaults from receiver.DefaultConfig
-	flags                       *pflag.FlagSet
+	survey.InputFlags
+	flags *pflag.FlagSet
 }
 
 func (f *inputFlags) add(cmd *cobra.Command) {
 	fl := cmd.Flags()
-	f.flags, f.cfg = fl, receiver.DefaultConfig
-	fl.StringVar(&f.rate, "rate", "", "sample rate of a raw recording, S/s (k/M suffixes allowed)")
-	fl.StringVar(&f.format, "format", "", "sample format of a raw recording: cu8, ci8, ci16_le, cf32_le")
-	fl.StringVar(&f.center, "center", "", "centre frequency of a raw recording, Hz (k/M/G suffixes and Hz allowed)")
-	fl.StringVar(&f.start, "start", "", "UTC time of a raw recording's first sample (RFC 3339)")
-	fl.StringVar(&f.freq, "freq", "", "channel frequency, Hz (k/M/G suffixes and Hz allowed: 144.525M, 144.525MHz); needs the centre frequency")
-	fl.StringVar(&f.offset, "offset", "", "channel offset from the capture centre, Hz (k suffix allowed); default: the strongest carrier found")
-	fl.Float64Var(&f.cfg.ChannelRateHz, "channel-rate", f.cfg.ChannelRateHz, "target channel sample rate after decimation, S/s")
-	fl.Float64Var(&f.cfg.FalseAlarmsPerHour, "false-alarms", f.cfg.FalseAlarmsPerHour, "bursts per hour that noise alone may start (the detector's design rate; thresholds follow from it)")
-	fl.Float64Var(&f.cfg.JoinWaitS, "join-wait", f.cfg.JoinWaitS, "bursts this close whose timing is Morse keying are joined into one keyed transmission, seconds")
-	fl.Float64Var(&f.cfg.MinBurstS, "min-burst", f.cfg.MinBurstS, "shortest burst kept, seconds")
-	fl.Float64Var(&f.cfg.MergeGapS, "merge-gap", f.cfg.MergeGapS, "drop-outs shorter than this stay inside one burst, seconds")
+	f.flags, f.Receiver = fl, receiver.DefaultConfig
+	fl.StringVar(&f.Rate, "rate", "", "sample rate of a raw recording, S/s (k/M suffixes allowed)")
+	fl.StringVar(&f.Format, "format", "", "sample format of a raw recording: cu8, ci8, ci16_le, cf32_le")
+	fl.StringVar(&f.Center, "center", "", "centre frequency of a raw recording, Hz (k/M/G suffixes and Hz allowed)")
+	fl.StringVar(&f.Start, "start", "", "UTC time of a raw recording's first sample (RFC 3339)")
+	fl.StringVar(&f.Freq, "freq", "", "channel frequency, Hz (k/M/G suffixes and Hz allowed: 144.525M, 144.525MHz); needs the centre frequency")
+	fl.StringVar(&f.Offset, "offset", "", "channel offset from the capture centre, Hz (k suffix allowed); default: the strongest carrier found")
+	fl.Float64Var(&f.Receiver.ChannelRateHz, "channel-rate", f.Receiver.ChannelRateHz, "target channel sample rate after decimation, S/s")
+	fl.Float64Var(&f.Receiver.FalseAlarmsPerHour, "false-alarms", f.Receiver.FalseAlarmsPerHour, "bursts per hour that noise alone may start (the detector's design rate; thresholds follow from it)")
+	fl.Float64Var(&f.Receiver.JoinWaitS, "join-wait", f.Receiver.JoinWaitS, "bursts this close whose timing is Morse keying are joined into one keyed transmission, seconds")
+	fl.Float64Var(&f.Receiver.MinBurstS, "min-burst", f.Receiver.MinBurstS, "shortest burst kept, seconds")
+	fl.Float64Var(&f.Receiver.MergeGapS, "merge-gap", f.Receiver.MergeGapS, "drop-outs shorter than this stay inside one burst, seconds")
 }
 
-// hzFlag reads flag --name's frequency with units.ParseHz; "" is 0.
-func hzFlag(name, s string) (float64, error) {
-	if s == "" {
-		return 0, nil
-	}
-	v, err := units.ParseHz(s)
-	if err != nil {
-		return 0, fmt.Errorf("--%s: %w", name, err)
-	}
-	return v, nil
-}
-
-// raw is the description of a raw recording the flags give.
-func (f *inputFlags) raw() (p sdr.RawParams, err error) {
-	if p.SampleRate, err = hzFlag("rate", f.rate); err != nil {
-		return p, err
-	}
-	if p.CenterHz, err = hzFlag("center", f.center); err != nil {
-		return p, err
-	}
-	p.Format = f.format
-	if f.start != "" {
-		t, err := time.Parse(time.RFC3339Nano, f.start)
-		if err != nil {
-			return p, fmt.Errorf("--start %q is not an RFC 3339 time (example 2026-05-01T10:00:00Z)", f.start)
-		}
-		p.Start = t.UTC()
-	}
-	return p, nil
-}
-
-// config builds the receiver configuration; haveChannel is false when
-// neither --freq nor --offset was given.
-func (f *inputFlags) config() (cfg receiver.Config, haveChannel bool, err error) {
-	// Only the flagged fields: the others stay zero, which means their
-	// defaults (receiver.Config).
-	cfg.ChannelRateHz, cfg.FalseAlarmsPerHour, cfg.JoinWaitS = f.cfg.ChannelRateHz, f.cfg.FalseAlarmsPerHour, f.cfg.JoinWaitS
-	cfg.MinBurstS, cfg.MergeGapS = f.cfg.MinBurstS, f.cfg.MergeGapS
-	if cfg.FreqHz, err = hzFlag("freq", f.freq); err != nil {
-		return cfg, false, err
-	}
-	if cfg.OffsetHz, err = hzFlag("offset", f.offset); err != nil {
-		return cfg, false, err
-	}
-	if f.freq != "" && f.offset != "" {
-		return cfg, false, fmt.Errorf("give --freq or --offset, not both")
-	}
-	if f.flags.Changed("channel-rate") {
-		if err := zeroFlag("channel-rate", cfg.ChannelRateHz); err != nil {
-			return cfg, false, err // 0 would silently mean the default
-		}
-	}
-	if !f.flags.Changed("merge-gap") {
-		cfg.MergeGapS = 0 // the default for the keying mode (longer for keyed carrier)
-	}
-	if err := cfg.Validate(); err != nil {
-		return cfg, false, err
-	}
-	return cfg, f.freq != "" || f.offset != "", nil
+// config is the receiver configuration the flags give.
+func (f *inputFlags) config() (receiver.Config, bool, error) {
+	f.ChannelRateGiven, f.MergeGapGiven = f.flags.Changed("channel-rate"), f.flags.Changed("merge-gap")
+	return f.Config()
 }
 
 // input is the survey of the recording at path that the flags describe;
@@ -116,7 +58,7 @@ func (f *inputFlags) input(cmd *cobra.Command, path string, idf *identFlags) (*s
 	if err != nil {
 		return nil, err
 	}
-	raw, err := f.raw()
+	raw, err := f.Raw()
 	if err != nil {
 		return nil, err
 	}
@@ -146,21 +88,8 @@ func (f *identFlags) options() (o ident.Options, err error) {
 		return o, err
 	}
 	o.MinConfidence = f.minConf
-	switch {
-	case f.ids == "":
-	case f.ids[0] == '@':
-		fh, err := os.Open(f.ids[1:])
-		if err != nil {
-			return o, fmt.Errorf("--ids: %w", err)
-		}
-		defer fh.Close()
-		if o.IDs, err = idmatch.ReadList(fh); err != nil {
-			return o, fmt.Errorf("--ids %s: %w", f.ids[1:], err)
-		}
-	default:
-		if o.IDs, err = idmatch.ParseList(f.ids); err != nil {
-			return o, fmt.Errorf("--ids: %w", err)
-		}
+	if o.IDs, err = idmatch.LoadList(f.ids); err != nil {
+		return o, fmt.Errorf("--ids: %w", err)
 	}
 	return o, nil
 }

@@ -14,11 +14,10 @@ import (
 	"os"
 	"runtime"
 	"runtime/debug"
-	"runtime/pprof"
 
 	"github.com/spf13/cobra"
 
-	"nullseek/internal/atomicfile"
+	"nullseek/internal/cpuprofile"
 	"nullseek/internal/warnlog"
 )
 
@@ -52,7 +51,7 @@ func execute(args []string, stdin io.Reader, stdout, stderr io.Writer) error {
 
 // newRootCmd builds the command tree.
 func newRootCmd() *cobra.Command {
-	var prof cpuProfile
+	var profile string
 	root := &cobra.Command{
 		Use:           "nullseek",
 		Short:         "Find, identify and locate narrowband transmitters with a low-cost SDR",
@@ -61,11 +60,14 @@ func newRootCmd() *cobra.Command {
 		SilenceErrors: true,
 	}
 	root.SetVersionTemplate("{{.Version}}\n")
-	root.PersistentFlags().StringVar(&prof.path, "cpuprofile", "", "write a CPU profile to this file (for developers)")
+	root.PersistentFlags().StringVar(&profile, "cpuprofile", "", "write a CPU profile to this file (for developers)")
 	_ = root.PersistentFlags().MarkHidden("cpuprofile")
 	root.AddCommand(newScanCmd(), newSlotsCmd(), newBearingCmd(), newCalibrateCmd(), newFixCmd(), newDemoCmd())
 	for _, c := range root.Commands() {
-		c.RunE = prof.around(c.RunE)
+		body := c.RunE
+		c.RunE = func(c *cobra.Command, args []string) error {
+			return cpuprofile.Around(profile, func() error { return body(c, args) })
+		}
 	}
 	return root
 }
@@ -79,37 +81,6 @@ func version() string {
 		v = bi.Main.Version
 	}
 	return fmt.Sprintf("nullseek %s (%s)", v, runtime.Version())
-}
-
-// cpuProfile is --cpuprofile: the profile file appears only when the run
-// succeeds (atomicfile.Set), like every other output.
-type cpuProfile struct {
-	path string
-	set  atomicfile.Set
-}
-
-// around runs a command's body inside the profile, when one is asked for.
-func (p *cpuProfile) around(body func(*cobra.Command, []string) error) func(*cobra.Command, []string) error {
-	return func(c *cobra.Command, args []string) error {
-		if p.path == "" {
-			return body(c, args)
-		}
-		f, err := p.set.Create(p.path)
-		if err != nil {
-			return fmt.Errorf("--cpuprofile: %w", err)
-		}
-		if err := pprof.StartCPUProfile(f); err != nil {
-			p.set.Abort()
-			return fmt.Errorf("--cpuprofile: %w", err)
-		}
-		err = body(c, args)
-		pprof.StopCPUProfile()
-		if err != nil {
-			p.set.Abort()
-			return err
-		}
-		return p.set.Commit()
-	}
 }
 
 // exitCode is the process's exit status for err: the error's own

@@ -1,7 +1,6 @@
 package main
 
 import (
-	"encoding/json"
 	"fmt"
 	"time"
 
@@ -64,7 +63,7 @@ func runScan(cmd *cobra.Command, path string, o *scanOptions) error {
 
 // listCarriers prints the carriers seen in a recording.
 func listCarriers(cmd *cobra.Command, path string, o *scanOptions) error {
-	raw, err := o.in.raw()
+	raw, err := o.in.Raw()
 	if err != nil {
 		return err
 	}
@@ -77,28 +76,8 @@ func listCarriers(cmd *cobra.Command, path string, o *scanOptions) error {
 	if err != nil {
 		return err
 	}
-	info, out := src.Info(), cmd.OutOrStdout()
 	if o.asJSON {
-		enc := json.NewEncoder(out)
-		for _, c := range cs {
-			m := map[string]any{"type": "carrier", "offset_hz": c.OffsetHz, "level_dbfs": c.LevelDB, "snr_db": c.SNRDB}
-			if info.CenterHz != 0 {
-				m["freq_hz"] = info.CenterHz + c.OffsetHz
-			}
-			if err := enc.Encode(m); err != nil {
-				return err
-			}
-		}
-		return nil
+		return receiver.WriteCarriersJSON(cmd.OutOrStdout(), cs, src.Info())
 	}
-	fmt.Fprintf(out, "%-4s %12s %14s %10s %8s\n", "#", "offset Hz", "freq MHz", "dBFS/bin", "SNR dB")
-	for i, c := range cs {
-		f := "-"
-		if info.CenterHz != 0 {
-			f = fmt.Sprintf("%.6f", (info.CenterHz+c.OffsetHz)/1e6)
-		}
-		fmt.Fprintf(out, "%-4d %12.0f %14s %10.1f %8.1f\n", i+1, c.OffsetHz, f, c.LevelDB, c.SNRDB)
-	}
-	_, err = fmt.Fprintf(out, "%d carriers in %s (averaged spectrum)\n", len(cs), info.Name)
-	return err
+	return receiver.WriteCarriers(cmd.OutOrStdout(), cs, src.Info())
 }

@@ -150,3 +150,16 @@ func FuzzParseLatLon(f *testing.F) {
 		}
 	})
 }
+
+// TestHzFlag: an empty flag is 0; a bad one names the flag.
+func TestHzFlag(t *testing.T) {
+	if v, err := HzFlag("freq", ""); v != 0 || err != nil {
+		t.Errorf("HzFlag(freq, \"\") = %v, %v", v, err)
+	}
+	if v, err := HzFlag("freq", "144.525MHz"); v != 144.525e6 || err != nil {
+		t.Errorf("HzFlag(freq, 144.525MHz) = %v, %v", v, err)
+	}
+	if _, err := HzFlag("offset", "NaN"); err == nil || !strings.HasPrefix(err.Error(), "--offset: ") {
+		t.Errorf("HzFlag(offset, NaN): %v, want an error naming --offset", err)
+	}
+}
