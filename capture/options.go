@@ -278,6 +278,14 @@ type Gain struct {
 	DB float64
 }
 
+// String is the gain as ParseGain reads it: "auto" or the dB value.
+func (g Gain) String() string {
+	if g.Auto {
+		return "auto"
+	}
+	return strconv.FormatFloat(g.DB, 'g', -1, 64)
+}
+
 // ParseGain reads --gain: "auto" (or empty) or a gain in dB from 0 to
 // MaxGainDB.
 func ParseGain(s string) (Gain, error) {

@@ -37,6 +37,9 @@ import (
 	"nullseek/survey"
 )
 
+// DefaultOutDir is the folder the demo's files go to unless told.
+const DefaultOutDir = "nullseek-demo"
+
 // Run runs the demo, writing its files to outDir and its report to out
 // once everything has worked (a failure prints no half report and leaves
 // outDir as it was); progress gets a line per stage while it runs. With
@@ -234,8 +237,7 @@ func Run(ctx context.Context, out, progress io.Writer, outDir string, writeIQ bo
 
 func receiverConfig(sc sim.Scenario) (cfg receiver.Config) {
 	cfg.FreqHz = sc.ChannelHz
-	// a turning antenna's nulls and back lobe must not split a burst
-	cfg.MergeGapS = 1.5
+	cfg.MergeGapS = survey.TurningMergeGapS
 	return cfg
 }
 

@@ -615,6 +615,11 @@ type BearingOptions struct {
 	WindowS float64
 }
 
+// TurningMergeGapS is the merge gap (receiver.Config.MergeGapS) of a
+// survey made with a turning antenna: its nulls and back lobe must not
+// split a burst. The bearing and calibrate commands and the demo use it.
+const TurningMergeGapS = 1.5
+
 // DefaultBearingOptions holds the defaults; the flags read theirs from it.
 var DefaultBearingOptions = BearingOptions{Antenna: bearing.DefaultAntenna, Fit: bearing.DefaultFit, SiteSigmaDeg: DefaultSiteSigmaDeg, WindowS: bearing.DefaultWindowS}
 

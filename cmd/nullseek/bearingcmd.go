@@ -37,7 +37,7 @@ rather than invents a bearing when the sweep cannot support one.`,
 	o.in.add(cmd)
 	o.idf.add(cmd)
 	o.hf.add(cmd)
-	_ = cmd.Flags().Set("merge-gap", "1.5") // a turning antenna's nulls must not split a burst
+	o.in.turning()
 	cmd.Flags().BoolVar(&o.asJSON, "json", false, "one JSON object per burst and per transmitter")
 	cmd.Flags().StringVar(&o.plot, "plot", "", "write a polar plot per transmitter, from its combined bearing: PREFIX.png or PREFIX.svg becomes PREFIX-IDENT.png")
 	cmd.Flags().BoolVar(&o.plotBursts, "plot-bursts", false, "with --plot, also one polar plot per burst (PREFIX-IDENT-burst-N.png)")

@@ -48,7 +48,7 @@ plus that offset, and the saved pattern is measured relative to it.`,
 	o.in.add(cmd)
 	o.idf.add(cmd)
 	o.hf.add(cmd)
-	_ = cmd.Flags().Set("merge-gap", "1.5") // a turning antenna's nulls must not split a burst
+	o.in.turning()
 	fl := cmd.Flags()
 	fl.StringVar(&o.tx, "tx", "", "the calibration transmitter's position LAT,LON in degrees (needs --station)")
 	fl.StringVar(&o.knownBearing, "known-bearing", "", "the calibration transmitter's bearing from the station, degrees true (instead of --tx and --station)")

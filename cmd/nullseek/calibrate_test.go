@@ -105,7 +105,7 @@ func TestCalibrateRoundTrip(t *testing.T) {
 		calBeacon("N0CALL/1", txLat, txLon, 1, 13, 800), calBeacon("N0CALL/2", otherLat, otherLon, 15.5, 12, 650))
 	patPath := filepath.Join(dir, "pattern.json")
 	sensor := func(start, rate float64) string { return fmt.Sprintf("%.3f:%g", start-sc.mountErr, rate) }
-	r := runNullseek(t, "", "calibrate", calRec, "--freq", "145.0125M", "--ids", "N0CALL/1,N0CALL/2",
+	r := inProcess(t, "calibrate", calRec, "--freq", "145.0125M", "--ids", "N0CALL/1,N0CALL/2",
 		"--ident", "N0CALL/1", "--tx", fmt.Sprintf("%.8f,%.8f", txLat, txLon),
 		"--station", fmt.Sprintf("%.8f,%.8f", sc.lat0, sc.lon0), "--turn", sensor(15, 30),
 		"--antenna", "yagi", "--out", patPath, "--json")
@@ -137,7 +137,7 @@ func TestCalibrateRoundTrip(t *testing.T) {
 	}
 	// The table for people says how to use the result.
 	pat2 := filepath.Join(dir, "pattern2.json")
-	rt := runNullseek(t, "", "calibrate", calRec, "--freq", "145.0125M", "--ids", "N0CALL/1,N0CALL/2",
+	rt := inProcess(t, "calibrate", calRec, "--freq", "145.0125M", "--ids", "N0CALL/1,N0CALL/2",
 		"--ident", "N0CALL/1", "--known-bearing", fmt.Sprint(known), "--turn", sensor(15, 30), "--out", pat2)
 	// The pattern file carries the mount offset: the advice needs no
 	// --mount-offset, and says what it carries.
@@ -165,7 +165,7 @@ func TestCalibrateRoundTrip(t *testing.T) {
 		t.Helper()
 		args := append([]string{"bearing", chk, "--freq", "145.0125M", "--ids", "N0CALL/3",
 			"--turn", sensor(200, -30), "--json"}, extra...)
-		r := runNullseek(t, "", args...)
+		r := inProcess(t, args...)
 		if r.code != 0 {
 			t.Fatalf("bearing %v: exit %d\n%s", extra, r.code, r.stderr)
 		}
@@ -190,7 +190,7 @@ func TestCalibrateRoundTrip(t *testing.T) {
 	if b2, _ := fit("--antenna", patPath, "--mount-offset", fmt.Sprintf("%.3f", off)); math.Abs(angle.Wrap180(b2-b)) > 0.01 {
 		t.Errorf("repeating the file's mount offset moved the bearing from %.3f° to %.3f°", b, b2)
 	}
-	rr := runNullseek(t, "", "bearing", chk, "--freq", "145.0125M", "--ids", "N0CALL/3", "--turn", sensor(200, -30),
+	rr := inProcess(t, "bearing", chk, "--freq", "145.0125M", "--ids", "N0CALL/3", "--turn", sensor(200, -30),
 		"--antenna", patPath, "--mount-offset", fmt.Sprintf("%.3f", off+5))
 	if rr.code == 0 || !strings.Contains(rr.stderr, "carries the mount offset") {
 		t.Errorf("a --mount-offset other than the file's: exit %d, stderr %q; want a refusal naming the file's offset", rr.code, rr.stderr)

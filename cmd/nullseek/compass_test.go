@@ -293,7 +293,7 @@ func TestLiveBearingCompass(t *testing.T) {
 			checkCompassLog(t, sr.rec, sr.clock, tc.magOff)
 			if tc.name == "HDM with --declination" {
 				// The recording and heading log re-run offline to the same answer.
-				off := runNullseek(t, "", append([]string{"bearing", sr.rec + ".sigmf-meta", "--headings", sr.rec + ".csv",
+				off := inProcess(t, append([]string{"bearing", sr.rec + ".sigmf-meta", "--headings", sr.rec + ".csv",
 					"--freq", "145.5M", "--no-ident", "--antenna", "yagi", "--json"}, tc.args...)...)
 				if off.code != 0 {
 					t.Fatalf("offline re-run: exit %d\n%s", off.code, off.stderr)

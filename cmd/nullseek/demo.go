@@ -27,7 +27,7 @@ comparing every result with the scene's truth. Files go to --out.`,
 		Args: cobra.NoArgs,
 		RunE: func(cmd *cobra.Command, _ []string) error { return runDemo(cmd, &o) },
 	}
-	cmd.Flags().StringVar(&o.outDir, "out", "nullseek-demo", "directory for the demo's files (bearings CSV, map, GeoJSON, polar plots, heading logs)")
+	cmd.Flags().StringVar(&o.outDir, "out", demo.DefaultOutDir, "directory for the demo's files (bearings CSV, map, GeoJSON, polar plots, heading logs)")
 	cmd.Flags().BoolVar(&o.writeIQ, "write-iq", false, "also write each station's recording as a SigMF pair (about 35 MB each)")
 	return cmd
 }

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"strconv"
 	"time"
 
 	"github.com/schollz/progressbar/v3"
@@ -39,6 +40,12 @@ func (f *inputFlags) add(cmd *cobra.Command) {
 	fl.Float64Var(&f.Receiver.JoinWaitS, "join-wait", f.Receiver.JoinWaitS, "bursts this close whose timing is Morse keying are joined into one keyed transmission, seconds")
 	fl.Float64Var(&f.Receiver.MinBurstS, "min-burst", f.Receiver.MinBurstS, "shortest burst kept, seconds")
 	fl.Float64Var(&f.Receiver.MergeGapS, "merge-gap", f.Receiver.MergeGapS, "drop-outs shorter than this stay inside one burst, seconds")
+}
+
+// turning makes the merge gap of a turning antenna the default
+// (survey.TurningMergeGapS), as if --merge-gap had been given.
+func (f *inputFlags) turning() {
+	_ = f.flags.Set("merge-gap", strconv.FormatFloat(survey.TurningMergeGapS, 'g', -1, 64))
 }
 
 // config is the receiver configuration the flags give.
@@ -77,7 +84,7 @@ type identFlags struct {
 }
 
 func (f *identFlags) add(cmd *cobra.Command) {
-	cmd.Flags().StringVar(&f.mode, "mode", "auto", "how the identifier is keyed: auto, fm (tone on FM), am (tone on AM, A2A) or cw (keyed carrier)")
+	cmd.Flags().StringVar(&f.mode, "mode", morse.ModeAuto.String(), "how the identifier is keyed: auto, fm (tone on FM), am (tone on AM, A2A) or cw (keyed carrier)")
 	cmd.Flags().StringVar(&f.ids, "ids", "", "expected identifiers, comma-separated, or @FILE with one per line")
 	cmd.Flags().BoolVar(&f.noIdent, "no-ident", false, "skip Morse decoding; report levels and timing only")
 	cmd.Flags().Float64Var(&f.minConf, "min-confidence", idmatch.DefaultMinConfidence, "least confidence (0–1) at which a burst is given a listed identifier; below it: unknown")

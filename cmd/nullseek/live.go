@@ -41,7 +41,7 @@ func (f *liveFlags) add(cmd *cobra.Command, in *inputFlags, idf *identFlags, hf 
 	fl.Float64Var(&f.o.DurationS, "duration", f.o.DurationS, "live: stop the capture after this many seconds (required without --rotator)")
 	fl.Float64Var(&f.o.MarginS, "margin", f.o.MarginS, "live: keep recording this many seconds after the sweep ends")
 	fl.StringVar(&f.o.Record, "record", "", "live: keep the capture as FILE.sigmf-meta/.sigmf-data and its heading log FILE.csv, to re-run offline")
-	fl.StringVar(&f.gain, "gain", "auto", "live: tuner gain in dB, or auto")
+	fl.StringVar(&f.gain, "gain", f.o.Gain.String(), "live: tuner gain in dB, or auto")
 	fl.IntVar(&f.o.PPM, "ppm", f.o.PPM, "live: receiver frequency correction, parts per million")
 	fl.StringVar(&f.latency, "iq-latency", "", "live: `seconds` the samples take to arrive, taken off the capture start so headings and levels line up (default: measured from the stream, from the earliest arrival less the samples received)")
 	fl.Float64Var(&f.o.PollHz, "poll-hz", f.o.PollHz, "live: rotator position polls per second")

@@ -420,7 +420,7 @@ func TestLiveBearingRotctldSweep(t *testing.T) {
 			t.Fatalf("--record left no %s: %v", f, err)
 		}
 	}
-	off := runNullseek(t, "", "bearing", rec+".sigmf-meta", "--headings", rec+".csv",
+	off := inProcess(t, "bearing", rec+".sigmf-meta", "--headings", rec+".csv",
 		"--freq", "145.5M", "--no-ident", "--antenna", "yagi", "--json")
 	if off.code != 0 {
 		t.Fatalf("offline re-run: exit %d\n%s", off.code, off.stderr)
