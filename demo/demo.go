@@ -42,9 +42,12 @@ const DefaultOutDir = "nullseek-demo"
 
 // Run runs the demo, writing its files to outDir and its report to out
 // once everything has worked (a failure prints no half report and leaves
-// outDir as it was); progress gets a line per stage while it runs. With
-// writeIQ each station's recording is kept as a SigMF pair too.
+// outDir as it was); progress (nil: none) gets a line per stage while it
+// runs. With writeIQ each station's recording is kept as a SigMF pair too.
 func Run(ctx context.Context, out, progress io.Writer, outDir string, writeIQ bool) error {
+	if progress == nil {
+		progress = io.Discard
+	}
 	var report bytes.Buffer
 	w := &report
 	sc, err := sim.Demo()
