@@ -468,3 +468,41 @@ func LoadGrid(spec, file string) (*geo.Grid, error) {
 	}
 	return nil, nil
 }
+
+// OpenFiles opens the bearing files named on the command line as
+// Sources, "-" being stdin; closeAll closes what was opened (also after
+// an error, when it is a no-op for the files not opened).
+func OpenFiles(names []string, stdin io.Reader) (srcs []Source, closeAll func(), err error) {
+	var open []*os.File
+	closeAll = func() {
+		for _, f := range open {
+			f.Close()
+		}
+	}
+	for _, n := range names {
+		if n == "-" {
+			srcs = append(srcs, Source{Name: "stdin", R: stdin})
+			continue
+		}
+		fh, err := os.Open(n)
+		if err != nil {
+			return nil, closeAll, fmt.Errorf("read bearings: %w", err)
+		}
+		open = append(open, fh)
+		srcs = append(srcs, Source{Name: n, R: fh})
+	}
+	return srcs, closeAll, nil
+}
+
+// Err is the run's outcome as an error for the exit status: some
+// transmitters could not be fixed, or some output files could not be
+// made (the rest is still reported); nil when neither.
+func (res *Result) Err() error {
+	switch {
+	case len(res.Refused) > 0:
+		return fmt.Errorf("%d of %d transmitters could not be fixed", len(res.Refused), len(res.Refused)+len(res.Fixes))
+	case len(res.OutputErrors) > 0:
+		return fmt.Errorf("%d output file(s) could not be made: %v", len(res.OutputErrors), res.OutputErrors[0])
+	}
+	return nil
+}

@@ -1,9 +1,7 @@
 package main
 
 import (
-	"fmt"
 	"io"
-	"os"
 
 	"github.com/spf13/cobra"
 
@@ -77,18 +75,10 @@ func runFix(stdin io.Reader, out, errOut io.Writer, inputs []string, fl fixFlags
 		return err
 	}
 	// Bearings from several files (one per station, say) are fixed together.
-	var srcs []locate.Source
-	for _, in := range inputs {
-		if in == "-" {
-			srcs = append(srcs, locate.Source{Name: "stdin", R: stdin})
-			continue
-		}
-		fh, err := os.Open(in)
-		if err != nil {
-			return fmt.Errorf("read bearings: %w", err)
-		}
-		defer fh.Close()
-		srcs = append(srcs, locate.Source{Name: in, R: fh})
+	srcs, closeAll, err := locate.OpenFiles(inputs, stdin)
+	defer closeAll()
+	if err != nil {
+		return err
 	}
 	res, err := locate.Run(srcs, o)
 	if err != nil {
@@ -104,11 +94,5 @@ func runFix(stdin io.Reader, out, errOut io.Writer, inputs []string, fl fixFlags
 	} else if err := res.WriteTable(out); err != nil {
 		return err
 	}
-	switch {
-	case len(res.Refused) > 0:
-		return fmt.Errorf("%d of %d transmitters could not be fixed", len(res.Refused), len(res.Refused)+len(res.Fixes))
-	case len(res.OutputErrors) > 0:
-		return fmt.Errorf("%d output file(s) could not be made: %v", len(res.OutputErrors), res.OutputErrors[0])
-	}
-	return nil
+	return res.Err()
 }
