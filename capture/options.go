@@ -9,6 +9,7 @@ import (
 	"strings"
 
 	"nullseek/heading"
+	"nullseek/internal/units"
 )
 
 // Options configure Run. Each field's comment names the command-line flag
@@ -277,6 +278,14 @@ type Gain struct {
 	DB float64
 }
 
+// String is the gain as ParseGain reads it: "auto" or the dB value.
+func (g Gain) String() string {
+	if g.Auto {
+		return "auto"
+	}
+	return strconv.FormatFloat(g.DB, 'g', -1, 64)
+}
+
 // ParseGain reads --gain: "auto" (or empty) or a gain in dB from 0 to
 // MaxGainDB.
 func ParseGain(s string) (Gain, error) {
@@ -324,3 +333,47 @@ func ParseLatency(s string) (Latency, error) {
 }
 
 func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
+
+// Flags are a live capture's flags as typed; Options.Parse reads them.
+type Flags struct {
+	// Target is the receiver (ParseReceiver); Rate, Center and Freq are
+	// --rate, --center and --freq (units.ParseHz; Rate "" keeps the
+	// default); Sweep and Step are --sweep and --step (ParseSweep); Gain,
+	// Latency and Compass are --gain, --iq-latency and --nmea-feed.
+	Target, Rate, Center, Freq, Sweep, Step, Gain, Latency, Compass string
+}
+
+// Parse fills the receiver, tuning, sweep, gain, latency and compass of
+// o from the flags' text, with one error naming the flag.
+func (o *Options) Parse(f Flags) error {
+	var err error
+	if o.Receiver, err = ParseReceiver(f.Target); err != nil {
+		return err
+	}
+	if rate, err := units.HzFlag("rate", f.Rate); err != nil {
+		return err
+	} else if rate != 0 {
+		o.RateHz = rate
+	}
+	if o.CenterHz, err = units.HzFlag("center", f.Center); err != nil {
+		return err
+	}
+	if o.FreqHz, err = units.HzFlag("freq", f.Freq); err != nil {
+		return err
+	}
+	if o.Plan, err = ParseSweep(f.Sweep, f.Step); err != nil {
+		return err
+	}
+	if o.Gain, err = ParseGain(f.Gain); err != nil {
+		return err
+	}
+	if o.Latency, err = ParseLatency(f.Latency); err != nil {
+		return err
+	}
+	if f.Compass != "" {
+		if o.Compass, err = ParseCompassAddr(f.Compass); err != nil {
+			return err
+		}
+	}
+	return nil
+}

@@ -6,6 +6,7 @@ import (
 	"math"
 	"nullseek/internal/angle"
 	"sort"
+	"strings"
 )
 
 // Ref names the north a heading is measured from.
@@ -30,6 +31,20 @@ func (r Ref) String() string {
 		return "magnetic"
 	}
 	return fmt.Sprintf("Ref(%d)", int(r))
+}
+
+// ParseRef reads a heading reference as people write it in flags and
+// station files: "true" or "magnetic", in any case, and nothing else (no
+// abbreviations: a typo must not pick a north). It is the one parser of
+// the word; callers add the flag or key to the error.
+func ParseRef(s string) (Ref, error) {
+	switch {
+	case strings.EqualFold(s, "true"):
+		return True, nil
+	case strings.EqualFold(s, "magnetic"):
+		return Magnetic, nil
+	}
+	return True, fmt.Errorf("%q: want true or magnetic", s)
 }
 
 // Sample is one heading observation.

@@ -315,3 +315,27 @@ func BenchmarkTrackAt(b *testing.B) {
 	b.ReportMetric(float64(b.N)/b.Elapsed().Seconds(), "lookups/s")
 	_ = sink
 }
+
+// TestParseRef: the two words naming the north a heading is measured
+// from (true or magnetic north, common practice), in any case, and
+// nothing else: no abbreviation, no padding.
+func TestParseRef(t *testing.T) {
+	for _, c := range []struct {
+		in   string
+		want Ref
+		ok   bool
+	}{
+		{"true", True, true}, {"TRUE", True, true}, {"True", True, true},
+		{"magnetic", Magnetic, true}, {"Magnetic", Magnetic, true}, {"MAGNETIC", Magnetic, true},
+		{"t", True, false}, {"m", True, false}, {"mag", True, false}, {"grid", True, false},
+		{"", True, false}, {" true", True, false}, {"truemagnetic", True, false},
+	} {
+		got, err := ParseRef(c.in)
+		if (err == nil) != c.ok || (c.ok && got != c.want) {
+			t.Errorf("ParseRef(%q) = %v, %v; want %v, ok %v", c.in, got, err, c.want, c.ok)
+		}
+		if err != nil && !strings.Contains(err.Error(), "want true or magnetic") {
+			t.Errorf("ParseRef(%q) error %q does not say what is wanted", c.in, err)
+		}
+	}
+}

@@ -19,6 +19,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"os"
 	"path/filepath"
 	"strings"
 	"time"
@@ -438,4 +439,70 @@ func (res *Result) writeOutputs(clusters [][]int, gridOf []*geo.Grid, o Options)
 			write(path, func() ([]byte, error) { return mapplot.Render(fixes, gridOf[c], format, mo) })
 		}
 	}
+}
+
+// LoadGrid reads the event grid the command line gives: spec (--grid,
+// geo.ParseGrid) or the JSON file (--grid-file, geo.ReadGridJSON), not
+// both; nil when neither is given (an automatic grid).
+func LoadGrid(spec, file string) (*geo.Grid, error) {
+	switch {
+	case spec != "" && file != "":
+		return nil, errors.New("give --grid or --grid-file, not both")
+	case spec != "":
+		g, err := geo.ParseGrid(spec)
+		if err != nil {
+			return nil, fmt.Errorf("--grid: %w", err)
+		}
+		return g, nil
+	case file != "":
+		fh, err := os.Open(file)
+		if err != nil {
+			return nil, fmt.Errorf("--grid-file: %w", err)
+		}
+		defer fh.Close()
+		g, err := geo.ReadGridJSON(fh)
+		if err != nil {
+			return nil, fmt.Errorf("%s: %w", file, err)
+		}
+		return g, nil
+	}
+	return nil, nil
+}
+
+// OpenFiles opens the bearing files named on the command line as
+// Sources, "-" being stdin; closeAll closes what was opened (also after
+// an error, when it is a no-op for the files not opened).
+func OpenFiles(names []string, stdin io.Reader) (srcs []Source, closeAll func(), err error) {
+	var open []*os.File
+	closeAll = func() {
+		for _, f := range open {
+			f.Close()
+		}
+	}
+	for _, n := range names {
+		if n == "-" {
+			srcs = append(srcs, Source{Name: "stdin", R: stdin})
+			continue
+		}
+		fh, err := os.Open(n)
+		if err != nil {
+			return nil, closeAll, fmt.Errorf("read bearings: %w", err)
+		}
+		open = append(open, fh)
+		srcs = append(srcs, Source{Name: n, R: fh})
+	}
+	return srcs, closeAll, nil
+}
+
+// Err is the run's outcome as an error for the exit status: some
+// transmitters could not be fixed, or some output files could not be
+// made (the rest is still reported); nil when neither.
+func (res *Result) Err() error {
+	switch {
+	case len(res.Refused) > 0:
+		return fmt.Errorf("%d of %d transmitters could not be fixed", len(res.Refused), len(res.Refused)+len(res.Fixes))
+	case len(res.OutputErrors) > 0:
+		return fmt.Errorf("%d output file(s) could not be made: %v", len(res.OutputErrors), res.OutputErrors[0])
+	}
+	return nil
 }

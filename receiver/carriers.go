@@ -1,6 +1,7 @@
 package receiver
 
 import (
+	"encoding/json"
 	"errors"
 	"fmt"
 	"io"
@@ -142,4 +143,37 @@ func readFull(src sdr.Source, buf []complex64) (int, error) {
 		}
 	}
 	return n, nil
+}
+
+// WriteCarriers prints the carriers cs found in the stream described by
+// info as a table (`scan --list`): offset, frequency (when the centre is
+// known), level per bin and SNR.
+func WriteCarriers(w io.Writer, cs []dsp.Carrier, info sdr.Info) error {
+	fmt.Fprintf(w, "%-4s %12s %14s %10s %8s\n", "#", "offset Hz", "freq MHz", "dBFS/bin", "SNR dB")
+	for i, c := range cs {
+		f := "-"
+		if info.CenterHz != 0 {
+			f = fmt.Sprintf("%.6f", (info.CenterHz+c.OffsetHz)/1e6)
+		}
+		fmt.Fprintf(w, "%-4d %12.0f %14s %10.1f %8.1f\n", i+1, c.OffsetHz, f, c.LevelDB, c.SNRDB)
+	}
+	_, err := fmt.Fprintf(w, "%d carriers in %s (averaged spectrum)\n", len(cs), info.Name)
+	return err
+}
+
+// WriteCarriersJSON prints one JSON line per carrier (`scan --list
+// --json`): type "carrier", offset_hz, level_dbfs, snr_db and, when the
+// centre is known, freq_hz.
+func WriteCarriersJSON(w io.Writer, cs []dsp.Carrier, info sdr.Info) error {
+	enc := json.NewEncoder(w)
+	for _, c := range cs {
+		m := map[string]any{"type": "carrier", "offset_hz": c.OffsetHz, "level_dbfs": c.LevelDB, "snr_db": c.SNRDB}
+		if info.CenterHz != 0 {
+			m["freq_hz"] = info.CenterHz + c.OffsetHz
+		}
+		if err := enc.Encode(m); err != nil {
+			return err
+		}
+	}
+	return nil
 }

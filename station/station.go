@@ -32,6 +32,7 @@ import (
 
 	toml "github.com/pelletier/go-toml/v2"
 
+	"nullseek/heading"
 	"nullseek/internal/units"
 )
 
@@ -626,12 +627,12 @@ func (v *validator) heading(r *raw, f *File) {
 	h := &f.Heading
 	rh := r.Heading
 	h.Source, h.Reference = rh.Source, rh.Reference
-	switch h.Reference {
-	case "":
-		h.Reference = "true"
-	case "true", "magnetic":
-	default:
-		v.fail("heading.reference", "%q: want true or magnetic", rh.Reference)
+	if h.Reference == "" {
+		h.Reference = heading.True.String()
+	} else if ref, err := heading.ParseRef(h.Reference); err != nil {
+		v.fail("heading.reference", "%v", err)
+	} else {
+		h.Reference = ref.String() // the one spelling, whatever the case given
 	}
 	for _, o := range []struct {
 		k   string

@@ -7,9 +7,12 @@ import (
 	"math"
 	"sort"
 	"strings"
+	"time"
 
 	"nullseek/bearing"
+	"nullseek/geo"
 	"nullseek/heading"
+	"nullseek/internal/atomicfile"
 	"nullseek/receiver"
 )
 
@@ -612,6 +615,11 @@ type BearingOptions struct {
 	WindowS float64
 }
 
+// TurningMergeGapS is the merge gap (receiver.Config.MergeGapS) of a
+// survey made with a turning antenna: its nulls and back lobe must not
+// split a burst. The bearing and calibrate commands and the demo use it.
+const TurningMergeGapS = 1.5
+
 // DefaultBearingOptions holds the defaults; the flags read theirs from it.
 var DefaultBearingOptions = BearingOptions{Antenna: bearing.DefaultAntenna, Fit: bearing.DefaultFit, SiteSigmaDeg: DefaultSiteSigmaDeg, WindowS: bearing.DefaultWindowS}
 
@@ -651,4 +659,61 @@ func (o BearingOptions) MountOffset(p bearing.Pattern) (float64, error) {
 		return o.MountOffsetDeg, nil
 	}
 	return 0, fmt.Errorf("--mount-offset %g: the pattern file %q carries the mount offset %.2f° that calibrate measured; drop --mount-offset (or give the same)", o.MountOffsetDeg, p.Name, p.MountOffsetDeg)
+}
+
+// WriteBearingsJSON writes one JSON line per burst, then one per
+// transmitter (BurstBearing.MarshalJSON, TxBearing.MarshalJSON).
+func WriteBearingsJSON(w io.Writer, bbs []BurstBearing, txs []TxBearing) error {
+	enc := json.NewEncoder(w)
+	for _, b := range bbs {
+		if err := enc.Encode(b); err != nil {
+			return err
+		}
+	}
+	for _, t := range txs {
+		if err := enc.Encode(t); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// NoBearing is an error when no transmitter got a bearing (a heading log
+// that misses the recording, a sweep under 90°, ...), naming the
+// recording at path and up to three of the bursts' reasons; nil when one
+// did. A command then has nothing to report and writes no files.
+func NoBearing(path string, bbs []BurstBearing, txs []TxBearing) error {
+	for _, t := range txs {
+		if t.Err == nil {
+			return nil
+		}
+	}
+	var reasons []string
+	seen := map[string]bool{}
+	for _, b := range bbs {
+		if b.Err != nil && !seen[b.Err.Error()] {
+			seen[b.Err.Error()] = true
+			reasons = append(reasons, fmt.Sprintf("burst %d: %v", b.Index, b.Err))
+		}
+	}
+	if len(reasons) > 3 {
+		reasons = append(reasons[:3], fmt.Sprintf("and %d more", len(reasons)-3))
+	}
+	return fmt.Errorf("%s: no bearing from any of its %d bursts: %s", path, len(bbs), strings.Join(reasons, "; "))
+}
+
+// StageLOPs stages in set the transmitters' bearings taken at the
+// station lat, lon (degrees) as the bearings CSV at path that `fix` reads
+// (geo.WriteBearingsCSV); transmitters without a bearing are left out.
+func StageLOPs(set *atomicfile.Set, path string, lat, lon float64, start time.Time, txs []TxBearing) error {
+	st := fmt.Sprintf("%.5f %.5f", lat, lon)
+	var recs []geo.BearingRecord
+	for _, t := range txs {
+		if t.Err != nil {
+			continue
+		}
+		recs = append(recs, geo.BearingRecord{LOP: geo.LOP{Ident: t.Ident, Station: st, Lat: lat, Lon: lon,
+			BearingDeg: t.Combined.BearingDeg, SigmaDeg: t.SigmaDeg, Time: start, Ambiguous: t.Combined.AltBearingDeg != nil}})
+	}
+	return set.WriteFunc(path, func(w io.Writer) error { return geo.WriteBearingsCSV(w, recs) })
 }

@@ -2,13 +2,17 @@ package survey
 
 import (
 	"fmt"
+	"io"
 	"math"
 	"nullseek/internal/angle"
 	"sort"
+	"strconv"
 	"strings"
 
 	"nullseek/bearing"
+	"nullseek/geo"
 	"nullseek/heading"
+	"nullseek/internal/units"
 )
 
 // CalibrationOptions tune Calibrate.
@@ -168,4 +172,83 @@ func (c *Calibration) Line(total, given float64, how, path string) CalibrationLi
 		l.Warnings = append(l.Warnings, w)
 	}
 	return l
+}
+
+// WriteReport writes the calibration for a person: what was used, where
+// the transmitter was seen with the nominal pattern (named nominal), the
+// north offset (on top of the given mount offset), the measured pattern's
+// shape, and the saved file at path carrying the total mount offset; how
+// says where the known bearing came from.
+func (cal *Calibration) WriteReport(w io.Writer, nominal string, total, given float64, how, path string) error {
+	ew := &strings.Builder{}
+	s := cal.Shape
+	fmt.Fprintf(ew, "calibration transmitter  %s, known bearing %s\n", cal.Ident, how)
+	fmt.Fprintf(ew, "used                     %d burst(s), %d level readings, sweep coverage %.0f°\n", cal.Bursts, cal.Points, cal.Alignment.CoverageDeg)
+	fmt.Fprintf(ew, "seen at                  %.2f° ± %.2f° with the nominal pattern %q (fit residual %.2f dB)\n", cal.Alignment.BearingDeg, cal.Alignment.SigmaDeg, nominal, cal.Alignment.ResidualDB)
+	fmt.Fprintf(ew, "north offset             %+.2f° ± %.2f° (1σ, level noise only) to the middle of the measured main lobe or null", cal.NorthOffsetDeg, cal.SigmaDeg)
+	if given != 0 {
+		fmt.Fprintf(ew, ", on top of --mount-offset %.2f", given)
+	}
+	fmt.Fprintln(ew)
+	if cal.Pattern.Mode == bearing.Peak {
+		fmt.Fprintf(ew, "measured pattern         peak, beamwidth %.1f° (−3 dB), front-to-back %.1f dB, deepest null %.1f dB\n", s.WidthDeg, s.FrontBackDB, s.NullDepthDB)
+	} else {
+		fmt.Fprintf(ew, "measured pattern         null, null depth %.1f dB, null width %.1f° (+3 dB)\n", s.NullDepthDB, s.WidthDeg)
+	}
+	for _, warn := range cal.Alignment.Warnings {
+		// The nominal pattern is only the starting point: its misfit is
+		// what calibration is for.
+		fmt.Fprintf(ew, "nominal-pattern fit      %s\n", warn)
+	}
+	fmt.Fprintf(ew, "saved                    %s\n", path)
+	fmt.Fprintf(ew, "heading names            %s\n", cal.Pattern.HeadingRef)
+	fmt.Fprintf(ew, "use it                   nullseek bearing REC --antenna %s (it carries the mount offset %+.2f°; the same heading flags as here)\n", path, total)
+	_, err := io.WriteString(w, ew.String())
+	return err
+}
+
+// KnownBearing is where the calibration transmitter is, as calibrate's
+// flags give it: its bearing from the station in degrees true
+// (--known-bearing, as typed) or its position (--tx, as typed;
+// units.ParseLatLon) with the station's (--station: as typed, and
+// parsed).
+type KnownBearing struct {
+	Bearing, Tx, Station   string
+	HasStation             bool
+	StationLat, StationLon float64
+}
+
+// Degrees returns the bearing in degrees true [0, 360) and a description
+// of where it came from: given, or the geodesic azimuth on the WGS84
+// ellipsoid from the station to the transmitter (geo.Inverse).
+func (k KnownBearing) Degrees() (float64, string, error) {
+	switch {
+	case k.Tx != "" && k.Bearing != "":
+		return 0, "", fmt.Errorf("give --tx LAT,LON (with --station) or --known-bearing DEG, not both")
+	case k.Bearing != "":
+		v, err := strconv.ParseFloat(strings.TrimSpace(k.Bearing), 64)
+		if err != nil || math.IsNaN(v) || math.IsInf(v, 0) || v < -360 || v > 360 {
+			return 0, "", fmt.Errorf("--known-bearing %q: want degrees true, e.g. 123.4", k.Bearing)
+		}
+		v = angle.Wrap360(v)
+		return v, fmt.Sprintf("%.2f° true (given)", v), nil
+	case k.Tx != "":
+		txLat, txLon, err := units.ParseLatLon(k.Tx)
+		if err != nil {
+			return 0, "", fmt.Errorf("--tx: %w", err)
+		}
+		if !k.HasStation {
+			return 0, "", fmt.Errorf("--tx needs the station's position too: --station LAT,LON")
+		}
+		dist, az, _ := geo.Inverse(k.StationLat, k.StationLon, txLat, txLon)
+		if math.IsNaN(az) || !(dist >= 1) {
+			return 0, "", fmt.Errorf("--tx %s and --station %s are the same place: no bearing between them", k.Tx, k.Station)
+		}
+		az = angle.Wrap360(az)
+		if az >= 360 {
+			az = 0
+		}
+		return az, fmt.Sprintf("%.2f° true, %.0f m from the station (geodesic, WGS84)", az, dist), nil
+	}
+	return 0, "", fmt.Errorf("calibrate needs the transmitter's bearing: --tx LAT,LON with --station LAT,LON, or --known-bearing DEG")
 }

@@ -7,6 +7,8 @@ import (
 	"math"
 	"strings"
 	"time"
+
+	"nullseek/ident/fingerprint"
 )
 
 // burstLine is the stable JSON form of a burst (`scan --json`).
@@ -153,4 +155,33 @@ func listOrNone(s []string) string {
 		return "none"
 	}
 	return strings.Join(s, ", ")
+}
+
+// WriteJSON writes the survey as JSON lines (`scan --json`): one burst
+// line per record (Record.MarshalJSON), then one "summary" line with the
+// summary, the transmitters, the fingerprint flags and the identifiers
+// heard and not heard (empty lists as [], never null).
+func (res *Result) WriteJSON(w io.Writer) error {
+	enc := json.NewEncoder(w)
+	for _, r := range res.Records {
+		if err := enc.Encode(r); err != nil {
+			return err
+		}
+	}
+	txs, flags := res.Clusters.Clusters, res.Clusters.Flags
+	if txs == nil {
+		txs = []fingerprint.Transmitter{}
+	}
+	if flags == nil {
+		flags = []fingerprint.Flag{}
+	}
+	return enc.Encode(map[string]any{"type": "summary", "summary": res.Summary, "transmitters": txs, "flags": flags,
+		"heard": orEmpty(res.Heard), "not_heard": orEmpty(res.NotHeard)})
+}
+
+func orEmpty(s []string) []string {
+	if s == nil {
+		return []string{}
+	}
+	return s
 }

@@ -2,28 +2,26 @@ package main
 
 import (
 	"bytes"
-	"encoding/json"
 	"fmt"
-	"io"
-	"nullseek/internal/atomicfile"
-	"os"
-	"strings"
-	"time"
 
 	"github.com/spf13/cobra"
 
-	"nullseek/geo"
+	"nullseek/internal/atomicfile"
 	"nullseek/survey"
 )
 
-func init() {
-	var in inputFlags
-	var idf identFlags
-	var hf headingFlags
-	var lf liveFlags
-	var asJSON bool
-	var plot, lopCSV string
-	var plotBursts bool
+type bearingOptions struct {
+	in           inputFlags
+	idf          identFlags
+	hf           headingFlags
+	lf           liveFlags
+	asJSON       bool
+	plot, lopCSV string
+	plotBursts   bool
+}
+
+func newBearingCmd() *cobra.Command {
+	var o bearingOptions
 	cmd := &cobra.Command{
 		Use:   "bearing RECORDING",
 		Short: "Fit signal level against antenna heading into a bearing per burst and per transmitter",
@@ -34,133 +32,86 @@ bearing when the pattern is ambiguous (a loop's two nulls), the null depth
 and the sweep coverage, per burst and combined per transmitter. It refuses
 rather than invents a bearing when the sweep cannot support one.`,
 		Args: cobra.ExactArgs(1),
-		RunE: lf.run(func(cmd *cobra.Command, rec recording) error {
-			notes := func(s string) { fmt.Fprintln(os.Stderr, s) }
-			bo, err := hf.options()
-			if err != nil {
-				return err
-			}
-			pat, err := hf.pattern()
-			if err != nil {
-				return err
-			}
-			// Every output is checked before the recording is read, and all
-			// are staged and committed together once the results are in: a
-			// failure leaves no plot without its CSV, nor half a table.
-			if plot != "" {
-				if err := survey.CheckPlotPath(plot); err != nil {
-					return err
-				}
-			}
-			if lopCSV != "" {
-				if _, _, ok, _ := hf.stationPos(); !ok { // syntax checked by hf.options
-					return fmt.Errorf("--bearings-csv needs the station's position: --station LAT,LON")
-				}
-				if err := atomicfile.Check(lopCSV); err != nil {
-					return fmt.Errorf("--bearings-csv: %w", err)
-				}
-			}
-			res, tr, err := hf.surveyWithTrack(cmd.Context(), rec, &in, &idf, pat, bo.Fit, true, notes)
-			if err != nil {
-				return err
-			}
-			if len(res.Records) == 0 {
-				return fmt.Errorf("%s: no bursts found, so no bearing", rec.path)
-			}
-			bbs, txs := survey.Bearings(res, tr, pat, bo.Fit, bo.SiteSigmaDeg)
-			if err := noBearing(rec.path, bbs, txs); err != nil {
-				return err
-			}
-			mount, _ := hf.mountOffset(pat) // checked by hf.pattern
-			ref := survey.ReferenceNote(pat, tr.Ref, mount)
-			var outs atomicfile.Set
-			defer outs.Abort()
-			if plot != "" {
-				if err := survey.StagePolarPlots(&outs, plot, bbs, txs, pat, ref, plotBursts); err != nil {
-					return err
-				}
-			}
-			if lopCSV != "" {
-				if err := stageLOPs(&outs, lopCSV, &hf, res.Info.Start, txs); err != nil {
-					return err
-				}
-			}
-			var text bytes.Buffer
-			if asJSON {
-				enc := json.NewEncoder(&text)
-				for _, b := range bbs {
-					if err := enc.Encode(b); err != nil {
-						return err
-					}
-				}
-				for _, t := range txs {
-					if err := enc.Encode(t); err != nil {
-						return err
-					}
-				}
-			} else if err := survey.WriteBearingTable(&text, bbs, txs, ref); err != nil {
-				return err
-			}
-			if err := outs.Commit(); err != nil {
-				return err
-			}
-			_, err = text.WriteTo(os.Stdout)
-			return err
-		}),
+		RunE: o.lf.run(func(cmd *cobra.Command, rec recording) error { return runBearing(cmd, rec, &o) }),
 	}
-	in.add(cmd)
-	idf.add(cmd)
-	hf.add(cmd)
-	_ = cmd.Flags().Set("merge-gap", "1.5") // a turning antenna's nulls must not split a burst
-	cmd.Flags().BoolVar(&asJSON, "json", false, "one JSON object per burst and per transmitter")
-	cmd.Flags().StringVar(&plot, "plot", "", "write a polar plot per transmitter, from its combined bearing: PREFIX.png or PREFIX.svg becomes PREFIX-IDENT.png")
-	cmd.Flags().BoolVar(&plotBursts, "plot-bursts", false, "with --plot, also one polar plot per burst (PREFIX-IDENT-burst-N.png)")
-	cmd.Flags().StringVar(&lopCSV, "bearings-csv", "", "write the transmitters' bearings as a CSV FILE that nullseek fix reads (needs --station)")
-	lf.add(cmd, &in, &idf, &hf) // live receiver, rotator or compass: live.go
-	rootCmd.AddCommand(cmd)
+	o.in.add(cmd)
+	o.idf.add(cmd)
+	o.hf.add(cmd)
+	o.in.turning()
+	cmd.Flags().BoolVar(&o.asJSON, "json", false, "one JSON object per burst and per transmitter")
+	cmd.Flags().StringVar(&o.plot, "plot", "", "write a polar plot per transmitter, from its combined bearing: PREFIX.png or PREFIX.svg becomes PREFIX-IDENT.png")
+	cmd.Flags().BoolVar(&o.plotBursts, "plot-bursts", false, "with --plot, also one polar plot per burst (PREFIX-IDENT-burst-N.png)")
+	cmd.Flags().StringVar(&o.lopCSV, "bearings-csv", "", "write the transmitters' bearings as a CSV FILE that nullseek fix reads (needs --station)")
+	o.lf.add(cmd, &o.in, &o.idf, &o.hf) // live receiver, rotator or compass: live.go
+	return cmd
 }
 
-// noBearing is an error when no transmitter got a bearing (a heading log
-// that misses the recording, a sweep under 90°, ...): the command then has
-// nothing to report and exits non-zero with the bursts' reasons, writing
-// no files.
-func noBearing(path string, bbs []survey.BurstBearing, txs []survey.TxBearing) error {
-	for _, t := range txs {
-		if t.Err == nil {
-			return nil
-		}
-	}
-	var reasons []string
-	seen := map[string]bool{}
-	for _, b := range bbs {
-		if b.Err != nil && !seen[b.Err.Error()] {
-			seen[b.Err.Error()] = true
-			reasons = append(reasons, fmt.Sprintf("burst %d: %v", b.Index, b.Err))
-		}
-	}
-	if len(reasons) > 3 {
-		reasons = append(reasons[:3], fmt.Sprintf("and %d more", len(reasons)-3))
-	}
-	return fmt.Errorf("%s: no bearing from any of its %d bursts: %s", path, len(bbs), strings.Join(reasons, "; "))
-}
-
-// stageLOPs stages the transmitters' bearings in the CSV form `fix` reads.
-func stageLOPs(set *atomicfile.Set, path string, hf *headingFlags, start time.Time, txs []survey.TxBearing) error {
-	lat, lon, ok, err := hf.stationPos()
+func runBearing(cmd *cobra.Command, rec recording, o *bearingOptions) error {
+	hs, err := o.hf.source(rec.track)
 	if err != nil {
 		return err
 	}
-	if !ok {
-		return fmt.Errorf("--bearings-csv needs the station's position: --station LAT,LON")
+	pat, err := hs.Pattern()
+	if err != nil {
+		return err
 	}
-	st := fmt.Sprintf("%.5f %.5f", lat, lon)
-	var recs []geo.BearingRecord
-	for _, t := range txs {
-		if t.Err != nil {
-			continue
+	// Every output is checked before the recording is read, and all are
+	// staged and committed together once the results are in: a failure
+	// leaves no plot without its CSV, nor half a table.
+	if o.plot != "" {
+		if err := survey.CheckPlotPath(o.plot); err != nil {
+			return err
 		}
-		recs = append(recs, geo.BearingRecord{LOP: geo.LOP{Ident: t.Ident, Station: st, Lat: lat, Lon: lon,
-			BearingDeg: t.Combined.BearingDeg, SigmaDeg: t.SigmaDeg, Time: start, Ambiguous: t.Combined.AltBearingDeg != nil}})
 	}
-	return set.WriteFunc(path, func(w io.Writer) error { return geo.WriteBearingsCSV(w, recs) })
+	if o.lopCSV != "" {
+		if !hs.HasStation {
+			return fmt.Errorf("--bearings-csv needs the station's position: --station LAT,LON")
+		}
+		if err := atomicfile.Check(o.lopCSV); err != nil {
+			return fmt.Errorf("--bearings-csv: %w", err)
+		}
+	}
+	in, err := o.in.input(cmd, rec.path, &o.idf)
+	if err != nil {
+		return err
+	}
+	res, tr, pat, err := hs.Survey(cmd.Context(), in, true)
+	if err != nil {
+		return err
+	}
+	if len(res.Records) == 0 {
+		return fmt.Errorf("%s: no bursts found, so no bearing", rec.path)
+	}
+	bbs, txs := survey.Bearings(res, tr, pat, hs.Bearing.Fit, hs.Bearing.SiteSigmaDeg)
+	if err := survey.NoBearing(rec.path, bbs, txs); err != nil {
+		return err
+	}
+	mount, _ := hs.Bearing.MountOffset(pat) // checked by hs.Pattern
+	ref := survey.ReferenceNote(pat, tr.Ref, mount)
+	var outs atomicfile.Set
+	defer outs.Abort()
+	if o.plot != "" {
+		if err := survey.StagePolarPlots(&outs, o.plot, bbs, txs, pat, ref, o.plotBursts); err != nil {
+			return err
+		}
+	}
+	if o.lopCSV != "" {
+		if err := survey.StageLOPs(&outs, o.lopCSV, hs.StationLat, hs.StationLon, res.Info.Start, txs); err != nil {
+			return err
+		}
+	}
+	var text bytes.Buffer
+	if o.asJSON {
+		err = survey.WriteBearingsJSON(&text, bbs, txs)
+	} else {
+		err = survey.WriteBearingTable(&text, bbs, txs, ref)
+	}
+	if err != nil {
+		return err
+	}
+	if err := outs.Commit(); err != nil {
+		return err
+	}
+	_, err = text.WriteTo(cmd.OutOrStdout())
+	return err
 }

@@ -3,34 +3,25 @@ package main
 import (
 	"encoding/json"
 	"fmt"
-	"io"
-	"math"
-	"nullseek/internal/angle"
-	"strconv"
-	"strings"
 
 	"github.com/spf13/cobra"
 
 	"nullseek/bearing"
-	"nullseek/geo"
+	"nullseek/internal/angle"
 	"nullseek/survey"
 )
 
-// calibrateFlags are calibrate's own flags.
-type calibrateFlags struct {
-	tx           string
-	knownBearing string
-	ident        string
-	out          string
-	asJSON       bool
+type calibrateOptions struct {
+	in                           inputFlags
+	idf                          identFlags
+	hf                           headingFlags
+	lf                           liveFlags
+	tx, knownBearing, ident, out string
+	asJSON                       bool
 }
 
-func init() {
-	var in inputFlags
-	var idf identFlags
-	var hf headingFlags
-	var lf liveFlags
-	var cf calibrateFlags
+func newCalibrateCmd() *cobra.Command {
+	var o calibrateOptions
 	cmd := &cobra.Command{
 		Use:   "calibrate RECORDING",
 		Short: "Measure the antenna's real pattern and the heading source's north offset on a transmitter at a known position",
@@ -52,138 +43,67 @@ here and no --mount-offset:
 The antenna's reference direction is then the heading source's reading
 plus that offset, and the saved pattern is measured relative to it.`,
 		Args: cobra.ExactArgs(1),
-		RunE: lf.run(func(cmd *cobra.Command, rec recording) error {
-			out, errOut := cmd.OutOrStdout(), cmd.ErrOrStderr()
-			notes := func(s string) { fmt.Fprintln(errOut, s) }
-			known, how, err := cf.bearingFrom(&hf)
-			if err != nil {
-				return err
-			}
-			if cf.out == "" {
-				return fmt.Errorf("calibrate needs --out FILE.json for the measured pattern")
-			}
-			nominal, err := hf.pattern()
-			if err != nil {
-				return err
-			}
-			given, err := hf.mountOffset(nominal)
-			if err != nil {
-				return err
-			}
-			fo := bearing.FitOptions{}
-			res, tr, err := hf.surveyWithTrack(cmd.Context(), rec, &in, &idf, nominal, fo, false, notes)
-			if err != nil {
-				return err
-			}
-			when := "undated"
-			if !res.Info.Start.IsZero() {
-				when = res.Info.Start.UTC().Format("2006-01-02")
-			}
-			cal, err := survey.Calibrate(res, tr, nominal, known, survey.CalibrationOptions{
-				Ident: cf.ident, Fit: fo, Name: fmt.Sprintf("calibrated %s, nominal %s", when, nominal.Name)})
-			if err != nil {
-				return err
-			}
-			total := angle.Wrap180(given + cal.NorthOffsetDeg)
-			cal.Pattern.MountOffsetDeg, cal.Pattern.MountOffsetSet = total, true
-			if err := bearing.SavePattern(cf.out, cal.Pattern); err != nil {
-				return err
-			}
-			if cf.asJSON {
-				return json.NewEncoder(out).Encode(cal.Line(total, given, how, cf.out))
-			}
-			return writeCalibration(out, cal, nominal.Name, total, given, how, cf.out)
-		}),
+		RunE: o.lf.run(func(cmd *cobra.Command, rec recording) error { return runCalibrate(cmd, rec, &o) }),
 	}
-	in.add(cmd)
-	idf.add(cmd)
-	hf.add(cmd)
-	_ = cmd.Flags().Set("merge-gap", "1.5") // a turning antenna's nulls must not split a burst
+	o.in.add(cmd)
+	o.idf.add(cmd)
+	o.hf.add(cmd)
+	o.in.turning()
 	fl := cmd.Flags()
-	fl.StringVar(&cf.tx, "tx", "", "the calibration transmitter's position LAT,LON in degrees (needs --station)")
-	fl.StringVar(&cf.knownBearing, "known-bearing", "", "the calibration transmitter's bearing from the station, degrees true (instead of --tx and --station)")
-	fl.StringVar(&cf.ident, "ident", "", "the calibration transmitter's identifier (or fingerprint label) when several were heard")
-	fl.StringVar(&cf.out, "out", "", "write the measured pattern here (JSON; required)")
-	fl.BoolVar(&cf.asJSON, "json", false, "print the result as one JSON object")
-	lf.add(cmd, &in, &idf, &hf) // live receiver, rotator or compass: live.go
-	rootCmd.AddCommand(cmd)
+	fl.StringVar(&o.tx, "tx", "", "the calibration transmitter's position LAT,LON in degrees (needs --station)")
+	fl.StringVar(&o.knownBearing, "known-bearing", "", "the calibration transmitter's bearing from the station, degrees true (instead of --tx and --station)")
+	fl.StringVar(&o.ident, "ident", "", "the calibration transmitter's identifier (or fingerprint label) when several were heard")
+	fl.StringVar(&o.out, "out", "", "write the measured pattern here (JSON; required)")
+	fl.BoolVar(&o.asJSON, "json", false, "print the result as one JSON object")
+	o.lf.add(cmd, &o.in, &o.idf, &o.hf) // live receiver, rotator or compass: live.go
+	return cmd
 }
 
-// bearingFrom returns the calibration bearing in degrees true and a
-// description of where it came from.
-func (cf *calibrateFlags) bearingFrom(hf *headingFlags) (float64, string, error) {
-	switch {
-	case cf.tx != "" && cf.knownBearing != "":
-		return 0, "", fmt.Errorf("give --tx LAT,LON (with --station) or --known-bearing DEG, not both")
-	case cf.knownBearing != "":
-		v, err := strconv.ParseFloat(strings.TrimSpace(cf.knownBearing), 64)
-		if err != nil || math.IsNaN(v) || math.IsInf(v, 0) || v < -360 || v > 360 {
-			return 0, "", fmt.Errorf("--known-bearing %q: want degrees true, e.g. 123.4", cf.knownBearing)
-		}
-		v = angle.Wrap360(v)
-		return v, fmt.Sprintf("%.2f° true (given)", v), nil
-	case cf.tx != "":
-		txLat, txLon, err := parseLatLon("--tx", cf.tx)
-		if err != nil {
-			return 0, "", err
-		}
-		lat, lon, ok, err := hf.stationPos()
-		if err != nil {
-			return 0, "", err
-		}
-		if !ok {
-			return 0, "", fmt.Errorf("--tx needs the station's position too: --station LAT,LON")
-		}
-		dist, az, _ := geo.Inverse(lat, lon, txLat, txLon)
-		if math.IsNaN(az) || !(dist >= 1) {
-			return 0, "", fmt.Errorf("--tx %s and --station %s are the same place: no bearing between them", cf.tx, hf.station)
-		}
-		az = angle.Wrap360(az)
-		if az >= 360 {
-			az = 0
-		}
-		return az, fmt.Sprintf("%.2f° true, %.0f m from the station (geodesic, WGS84)", az, dist), nil
+func runCalibrate(cmd *cobra.Command, rec recording, o *calibrateOptions) error {
+	hs, err := o.hf.source(rec.track)
+	if err != nil {
+		return err
 	}
-	return 0, "", fmt.Errorf("calibrate needs the transmitter's bearing: --tx LAT,LON with --station LAT,LON, or --known-bearing DEG")
-}
-
-// parseLatLon reads "LAT,LON" in degrees.
-func parseLatLon(flag, s string) (float64, float64, error) {
-	parts := strings.Split(s, ",")
-	if len(parts) == 2 {
-		lat, err1 := strconv.ParseFloat(strings.TrimSpace(parts[0]), 64)
-		lon, err2 := strconv.ParseFloat(strings.TrimSpace(parts[1]), 64)
-		if err1 == nil && err2 == nil && lat >= -90 && lat <= 90 && lon >= -180 && lon <= 180 {
-			return lat, lon, nil
-		}
+	known, how, err := survey.KnownBearing{Bearing: o.knownBearing, Tx: o.tx, Station: o.hf.station,
+		HasStation: hs.HasStation, StationLat: hs.StationLat, StationLon: hs.StationLon}.Degrees()
+	if err != nil {
+		return err
 	}
-	return 0, 0, fmt.Errorf("%s %q: want LAT,LON in degrees, latitude within ±90 and longitude within ±180", flag, s)
-}
-
-func writeCalibration(w io.Writer, cal *survey.Calibration, nominal string, total, given float64, how, path string) error {
-	ew := &strings.Builder{}
-	s := cal.Shape
-	fmt.Fprintf(ew, "calibration transmitter  %s, known bearing %s\n", cal.Ident, how)
-	fmt.Fprintf(ew, "used                     %d burst(s), %d level readings, sweep coverage %.0f°\n", cal.Bursts, cal.Points, cal.Alignment.CoverageDeg)
-	fmt.Fprintf(ew, "seen at                  %.2f° ± %.2f° with the nominal pattern %q (fit residual %.2f dB)\n", cal.Alignment.BearingDeg, cal.Alignment.SigmaDeg, nominal, cal.Alignment.ResidualDB)
-	fmt.Fprintf(ew, "north offset             %+.2f° ± %.2f° (1σ, level noise only) to the middle of the measured main lobe or null", cal.NorthOffsetDeg, cal.SigmaDeg)
-	if given != 0 {
-		fmt.Fprintf(ew, ", on top of --mount-offset %.2f", given)
+	if o.out == "" {
+		return fmt.Errorf("calibrate needs --out FILE.json for the measured pattern")
 	}
-	fmt.Fprintln(ew)
-	if cal.Pattern.Mode == bearing.Peak {
-		fmt.Fprintf(ew, "measured pattern         peak, beamwidth %.1f° (−3 dB), front-to-back %.1f dB, deepest null %.1f dB\n", s.WidthDeg, s.FrontBackDB, s.NullDepthDB)
-	} else {
-		fmt.Fprintf(ew, "measured pattern         null, null depth %.1f dB, null width %.1f° (+3 dB)\n", s.NullDepthDB, s.WidthDeg)
+	nominal, err := hs.Pattern()
+	if err != nil {
+		return err
 	}
-	for _, warn := range cal.Alignment.Warnings {
-		// The nominal pattern is only the starting point: its misfit is
-		// what calibration is for.
-		fmt.Fprintf(ew, "nominal-pattern fit      %s\n", warn)
+	given, err := hs.Bearing.MountOffset(nominal)
+	if err != nil {
+		return err
 	}
-	fmt.Fprintf(ew, "saved                    %s\n", path)
-	fmt.Fprintf(ew, "heading names            %s\n", cal.Pattern.HeadingRef)
-	fmt.Fprintf(ew, "use it                   nullseek bearing REC --antenna %s (it carries the mount offset %+.2f°; the same heading flags as here)\n", path, total)
-	_, err := io.WriteString(w, ew.String())
-	return err
+	in, err := o.in.input(cmd, rec.path, &o.idf)
+	if err != nil {
+		return err
+	}
+	res, tr, _, err := hs.Survey(cmd.Context(), in, false)
+	if err != nil {
+		return err
+	}
+	when := "undated"
+	if !res.Info.Start.IsZero() {
+		when = res.Info.Start.UTC().Format("2006-01-02")
+	}
+	cal, err := survey.Calibrate(res, tr, nominal, known, survey.CalibrationOptions{
+		Ident: o.ident, Fit: hs.Bearing.Fit, Name: fmt.Sprintf("calibrated %s, nominal %s", when, nominal.Name)})
+	if err != nil {
+		return err
+	}
+	total := angle.Wrap180(given + cal.NorthOffsetDeg)
+	cal.Pattern.MountOffsetDeg, cal.Pattern.MountOffsetSet = total, true
+	if err := bearing.SavePattern(o.out, cal.Pattern); err != nil {
+		return err
+	}
+	if o.asJSON {
+		return json.NewEncoder(cmd.OutOrStdout()).Encode(cal.Line(total, given, how, o.out))
+	}
+	return cal.WriteReport(cmd.OutOrStdout(), nominal.Name, total, given, how, o.out)
 }

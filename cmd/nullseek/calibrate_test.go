@@ -16,6 +16,7 @@ import (
 	"time"
 
 	"nullseek/bearing"
+	"nullseek/demo"
 	"nullseek/geo"
 	"nullseek/heading"
 	"nullseek/sim"
@@ -51,7 +52,7 @@ func (c calScene) render(t *testing.T, dir, name string, turn heading.SteadyTurn
 	st := sim.Station{Name: name, Lat: c.lat0, Lon: c.lon0, Antenna: c.real, AntennaName: "yagi",
 		Turn: turn, HeadingRef: heading.True, RippleDB: 0.3}
 	var outs atomicfile.Set
-	if err := stageStationIQ(&outs, sc, st, dir); err != nil {
+	if err := demo.StageStationIQ(&outs, sc, st, dir); err != nil {
 		t.Fatal(err)
 	}
 	if err := outs.Commit(); err != nil {
@@ -104,7 +105,7 @@ func TestCalibrateRoundTrip(t *testing.T) {
 		calBeacon("N0CALL/1", txLat, txLon, 1, 13, 800), calBeacon("N0CALL/2", otherLat, otherLon, 15.5, 12, 650))
 	patPath := filepath.Join(dir, "pattern.json")
 	sensor := func(start, rate float64) string { return fmt.Sprintf("%.3f:%g", start-sc.mountErr, rate) }
-	r := runNullseek(t, "", "calibrate", calRec, "--freq", "145.0125M", "--ids", "N0CALL/1,N0CALL/2",
+	r := inProcess(t, "calibrate", calRec, "--freq", "145.0125M", "--ids", "N0CALL/1,N0CALL/2",
 		"--ident", "N0CALL/1", "--tx", fmt.Sprintf("%.8f,%.8f", txLat, txLon),
 		"--station", fmt.Sprintf("%.8f,%.8f", sc.lat0, sc.lon0), "--turn", sensor(15, 30),
 		"--antenna", "yagi", "--out", patPath, "--json")
@@ -136,7 +137,7 @@ func TestCalibrateRoundTrip(t *testing.T) {
 	}
 	// The table for people says how to use the result.
 	pat2 := filepath.Join(dir, "pattern2.json")
-	rt := runNullseek(t, "", "calibrate", calRec, "--freq", "145.0125M", "--ids", "N0CALL/1,N0CALL/2",
+	rt := inProcess(t, "calibrate", calRec, "--freq", "145.0125M", "--ids", "N0CALL/1,N0CALL/2",
 		"--ident", "N0CALL/1", "--known-bearing", fmt.Sprint(known), "--turn", sensor(15, 30), "--out", pat2)
 	// The pattern file carries the mount offset: the advice needs no
 	// --mount-offset, and says what it carries.
@@ -164,7 +165,7 @@ func TestCalibrateRoundTrip(t *testing.T) {
 		t.Helper()
 		args := append([]string{"bearing", chk, "--freq", "145.0125M", "--ids", "N0CALL/3",
 			"--turn", sensor(200, -30), "--json"}, extra...)
-		r := runNullseek(t, "", args...)
+		r := inProcess(t, args...)
 		if r.code != 0 {
 			t.Fatalf("bearing %v: exit %d\n%s", extra, r.code, r.stderr)
 		}
@@ -189,7 +190,7 @@ func TestCalibrateRoundTrip(t *testing.T) {
 	if b2, _ := fit("--antenna", patPath, "--mount-offset", fmt.Sprintf("%.3f", off)); math.Abs(angle.Wrap180(b2-b)) > 0.01 {
 		t.Errorf("repeating the file's mount offset moved the bearing from %.3f° to %.3f°", b, b2)
 	}
-	rr := runNullseek(t, "", "bearing", chk, "--freq", "145.0125M", "--ids", "N0CALL/3", "--turn", sensor(200, -30),
+	rr := inProcess(t, "bearing", chk, "--freq", "145.0125M", "--ids", "N0CALL/3", "--turn", sensor(200, -30),
 		"--antenna", patPath, "--mount-offset", fmt.Sprintf("%.3f", off+5))
 	if rr.code == 0 || !strings.Contains(rr.stderr, "carries the mount offset") {
 		t.Errorf("a --mount-offset other than the file's: exit %d, stderr %q; want a refusal naming the file's offset", rr.code, rr.stderr)
@@ -225,49 +226,10 @@ func TestCalibrateErrors(t *testing.T) {
 		{"missing file", []string{rec, "--known-bearing", "10", "--out", filepath.Join(dir, "p.json"), "--freq", "145M", "--turn", "0:30"}, "none.sigmf"},
 	}
 	for _, tc := range cases {
-		r := runNullseek(t, "", append([]string{"calibrate"}, tc.args...)...)
+		r := inProcess(t, append([]string{"calibrate"}, tc.args...)...)
 		t.Run(tc.name, func(t *testing.T) { oneLine(t, r, tc.want) })
 	}
 	if _, err := os.Stat(filepath.Join(dir, "p.json")); err == nil {
 		t.Error("a pattern file was written by a failed run")
 	}
-}
-
-func TestParseLatLon(t *testing.T) {
-	cases := []struct {
-		in       string
-		ok       bool
-		lat, lon float64
-	}{
-		{"46.8127,7.4415", true, 46.8127, 7.4415},
-		{" -33.5 , -70.25 ", true, -33.5, -70.25},
-		{"90,180", true, 90, 180},
-		{"91,0", false, 0, 0},
-		{"0,-181", false, 0, 0},
-		{"46.8", false, 0, 0},
-		{"a,b", false, 0, 0},
-		{"NaN,0", false, 0, 0},
-		{"1,2,3", false, 0, 0},
-	}
-	for _, c := range cases {
-		lat, lon, err := parseLatLon("--tx", c.in)
-		if (err == nil) != c.ok || (c.ok && (lat != c.lat || lon != c.lon)) {
-			t.Errorf("parseLatLon(%q) = %v, %v, %v", c.in, lat, lon, err)
-		}
-		if err != nil && !strings.Contains(err.Error(), "--tx") {
-			t.Errorf("error %q does not name the flag", err)
-		}
-	}
-}
-
-func FuzzParseLatLon(f *testing.F) {
-	for _, s := range []string{"46.8127,7.4415", "-90,-180", "1e3,0", ",", "0x10,5", "Inf,0"} {
-		f.Add(s)
-	}
-	f.Fuzz(func(t *testing.T, s string) {
-		lat, lon, err := parseLatLon("--tx", s)
-		if err == nil && !(lat >= -90 && lat <= 90 && lon >= -180 && lon <= 180) {
-			t.Fatalf("accepted %q as %v,%v", s, lat, lon)
-		}
-	})
 }

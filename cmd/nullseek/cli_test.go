@@ -5,7 +5,6 @@ import (
 	"bytes"
 	"encoding/binary"
 	"encoding/json"
-	"errors"
 	"fmt"
 	"math"
 	"os"
@@ -18,10 +17,12 @@ import (
 )
 
 // cliBin is the nullseek binary, built once for the package on first use
-// (cliBuild): running it is the most faithful check of what a user sees
-// (exit status, stdout, stderr). It is built lazily, not in TestMain's
-// start, because other tests of this package re-run the test binary as a
-// child process, which must not build (or leave) anything.
+// (cliBuild), for the tests of what only a process shows: exit statuses,
+// signals and file-size limits (the hostile corpus, hostile_test.go).
+// Tests of a command's output and errors run the command line in-process
+// (runCLI, cliRun). It is built lazily, not in TestMain's start, because
+// other tests of this package re-run the test binary as a child process,
+// which must not build (or leave) anything.
 var (
 	cliBin, cliDir string
 	cliOnce        sync.Once
@@ -61,28 +62,50 @@ func TestMain(m *testing.M) {
 	os.Exit(code)
 }
 
-// cliResult is one run of the binary.
+// runCLI runs the command line args in-process on a fresh command tree,
+// with empty stdin, and returns what the command wrote to stdout and
+// stderr and its error (which main would print as the last line).
+func runCLI(t *testing.T, args ...string) (stdout, stderr string, err error) {
+	t.Helper()
+	var out, errb bytes.Buffer
+	root := newRootCmd()
+	root.SetArgs(args)
+	root.SetIn(strings.NewReader(""))
+	root.SetOut(&out)
+	root.SetErr(&errb)
+	err = root.Execute()
+	return out.String(), errb.String(), err
+}
+
+// cliResult is one run of the command line.
 type cliResult struct {
 	code           int
 	stdout, stderr string
 }
 
-// cliRun runs the binary in dir with args.
+// cliRun runs the command line in-process in dir as main does (execute:
+// a failure's line on stderr, the exit status exitCode gives). The
+// working directory is dir for the run only; being the process's, it is
+// not for parallel tests.
 func cliRun(t *testing.T, dir string, args ...string) cliResult {
 	t.Helper()
-	cmd := exec.Command(cliBuild(t), args...)
-	cmd.Dir = dir
+	wd, err := os.Getwd()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := os.Chdir(dir); err != nil {
+		t.Fatal(err)
+	}
+	defer func() {
+		if err := os.Chdir(wd); err != nil {
+			t.Fatal(err)
+		}
+	}()
 	var out, errb bytes.Buffer
-	cmd.Stdout, cmd.Stderr = &out, &errb
-	err := cmd.Run()
+	err = execute(args, strings.NewReader(""), &out, &errb)
 	r := cliResult{stdout: out.String(), stderr: errb.String()}
-	var ee *exec.ExitError
-	switch {
-	case err == nil:
-	case errors.As(err, &ee):
-		r.code = ee.ExitCode()
-	default:
-		t.Fatalf("run %v: %v", args, err)
+	if err != nil {
+		r.code = exitCode(err)
 	}
 	return r
 }

@@ -293,7 +293,7 @@ func TestLiveBearingCompass(t *testing.T) {
 			checkCompassLog(t, sr.rec, sr.clock, tc.magOff)
 			if tc.name == "HDM with --declination" {
 				// The recording and heading log re-run offline to the same answer.
-				off := runNullseek(t, "", append([]string{"bearing", sr.rec + ".sigmf-meta", "--headings", sr.rec + ".csv",
+				off := inProcess(t, append([]string{"bearing", sr.rec + ".sigmf-meta", "--headings", sr.rec + ".csv",
 					"--freq", "145.5M", "--no-ident", "--antenna", "yagi", "--json"}, tc.args...)...)
 				if off.code != 0 {
 					t.Fatalf("offline re-run: exit %d\n%s", off.code, off.stderr)
@@ -478,7 +478,7 @@ func TestLiveCompassFlags(t *testing.T) {
 		{"on a recording", []string{filepath.Join(dir, "x.sigmf-meta"), "--nmea-feed", feed}, []string{"--nmea-feed", "live receiver"}},
 	}
 	for _, tc := range cases {
-		r := runNullseek(t, "", append(base, tc.args...)...)
+		r := inProcess(t, append(base, tc.args...)...)
 		t.Run(tc.name, func(t *testing.T) { oneLine(t, r, tc.want...) })
 	}
 	if left := filesIn(t, dir); len(left) > 0 {

@@ -1,18 +1,12 @@
 package main
 
 import (
-	"errors"
-	"fmt"
 	"io"
-	"os"
 
 	"github.com/spf13/cobra"
 
-	"nullseek/geo"
 	"nullseek/locate"
 )
-
-func init() { rootCmd.AddCommand(newFixCmd()) }
 
 type fixFlags struct {
 	json     bool
@@ -39,7 +33,7 @@ could not be made (the others are still printed and written).`,
 		Args: cobra.MinimumNArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			fl.o.DeclinationSet = cmd.Flags().Changed("declination")
-			return runFix(cmd.OutOrStdout(), cmd.ErrOrStderr(), args, fl)
+			return runFix(cmd.InOrStdin(), cmd.OutOrStdout(), cmd.ErrOrStderr(), args, fl)
 		},
 	}
 	f := cmd.Flags()
@@ -60,15 +54,7 @@ could not be made (the others are still printed and written).`,
 	return cmd
 }
 
-// zeroFlag refuses 0 for flags whose 0 would silently mean "the default".
-func zeroFlag(name string, v float64) error {
-	if v == 0 {
-		return fmt.Errorf("--%s 0: give a positive value", name)
-	}
-	return nil
-}
-
-func runFix(out, errOut io.Writer, inputs []string, fl fixFlags) error {
+func runFix(stdin io.Reader, out, errOut io.Writer, inputs []string, fl fixFlags) error {
 	o := fl.o
 	o.Map.SizeCm = fl.mapSize
 	for _, c := range []struct {
@@ -80,7 +66,7 @@ func runFix(out, errOut io.Writer, inputs []string, fl fixFlags) error {
 			return err
 		}
 	}
-	grid, err := loadGrid(fl.grid, fl.gridFile)
+	grid, err := locate.LoadGrid(fl.grid, fl.gridFile)
 	if err != nil {
 		return err
 	}
@@ -89,18 +75,10 @@ func runFix(out, errOut io.Writer, inputs []string, fl fixFlags) error {
 		return err
 	}
 	// Bearings from several files (one per station, say) are fixed together.
-	var srcs []locate.Source
-	for _, in := range inputs {
-		if in == "-" {
-			srcs = append(srcs, locate.Source{Name: "stdin", R: os.Stdin})
-			continue
-		}
-		fh, err := os.Open(in)
-		if err != nil {
-			return fmt.Errorf("read bearings: %w", err)
-		}
-		defer fh.Close()
-		srcs = append(srcs, locate.Source{Name: in, R: fh})
+	srcs, closeAll, err := locate.OpenFiles(inputs, stdin)
+	defer closeAll()
+	if err != nil {
+		return err
 	}
 	res, err := locate.Run(srcs, o)
 	if err != nil {
@@ -116,36 +94,5 @@ func runFix(out, errOut io.Writer, inputs []string, fl fixFlags) error {
 	} else if err := res.WriteTable(out); err != nil {
 		return err
 	}
-	switch {
-	case len(res.Refused) > 0:
-		return fmt.Errorf("%d of %d transmitters could not be fixed", len(res.Refused), len(res.Refused)+len(res.Fixes))
-	case len(res.OutputErrors) > 0:
-		return fmt.Errorf("%d output file(s) could not be made: %v", len(res.OutputErrors), res.OutputErrors[0])
-	}
-	return nil
-}
-
-func loadGrid(spec, file string) (*geo.Grid, error) {
-	switch {
-	case spec != "" && file != "":
-		return nil, errors.New("give --grid or --grid-file, not both")
-	case spec != "":
-		g, err := geo.ParseGrid(spec)
-		if err != nil {
-			return nil, fmt.Errorf("--grid: %w", err)
-		}
-		return g, nil
-	case file != "":
-		fh, err := os.Open(file)
-		if err != nil {
-			return nil, fmt.Errorf("--grid-file: %w", err)
-		}
-		defer fh.Close()
-		g, err := geo.ReadGridJSON(fh)
-		if err != nil {
-			return nil, fmt.Errorf("%s: %w", file, err)
-		}
-		return g, nil
-	}
-	return nil, nil
+	return res.Err()
 }

@@ -2,7 +2,6 @@ package main
 
 import (
 	"bufio"
-	"bytes"
 	"encoding/json"
 	"fmt"
 	"os"
@@ -14,19 +13,12 @@ import (
 	"nullseek/internal/angle"
 )
 
-// runFixCmd runs a fresh `fix` command (args[0] is "fix") and returns its
-// output and error.
+// runFixCmd runs the command line args (args[0] is "fix") in-process and
+// returns what it wrote to stdout and stderr, and its error.
 func runFixCmd(t *testing.T, args ...string) (string, error) {
 	t.Helper()
-	args = args[1:]
-	cmd := newFixCmd()
-	cmd.SilenceUsage, cmd.SilenceErrors = true, true
-	var out bytes.Buffer
-	cmd.SetOut(&out)
-	cmd.SetErr(&out)
-	cmd.SetArgs(args)
-	err := cmd.Execute()
-	return out.String(), err
+	out, errOut, err := runCLI(t, args...)
+	return out + errOut, err
 }
 
 // synthCSV writes exact bearings (geo.Direct/Inverse, checked against

@@ -2,10 +2,9 @@ package main
 
 import (
 	"fmt"
-	"math"
+	"io"
 	"os"
 	"strconv"
-	"strings"
 	"time"
 
 	"github.com/schollz/progressbar/v3"
@@ -13,117 +12,120 @@ import (
 	"github.com/spf13/pflag"
 	"golang.org/x/term"
 
+	"nullseek/ident"
+	"nullseek/ident/idmatch"
+	"nullseek/ident/morse"
 	"nullseek/receiver"
 	"nullseek/sdr"
+	"nullseek/survey"
 )
 
 // inputFlags are the flags every command that reads a recording shares.
 type inputFlags struct {
-	rate, format, center, start string
-	freq, offset                string
-	chanRate                    float64
-	falseAlarms, joinWait       float64
-	minBurst, mergeGap          float64
-	flags                       *pflag.FlagSet
+	survey.InputFlags
+	flags *pflag.FlagSet
 }
 
 func (f *inputFlags) add(cmd *cobra.Command) {
 	fl := cmd.Flags()
-	f.flags = fl
-	fl.StringVar(&f.rate, "rate", "", "sample rate of a raw recording, S/s (k/M suffixes allowed)")
-	fl.StringVar(&f.format, "format", "", "sample format of a raw recording: cu8, ci8, ci16_le, cf32_le")
-	fl.StringVar(&f.center, "center", "", "centre frequency of a raw recording, Hz (k/M/G suffixes allowed)")
-	fl.StringVar(&f.start, "start", "", "UTC time of a raw recording's first sample (RFC 3339)")
-	fl.StringVar(&f.freq, "freq", "", "channel frequency, Hz (k/M/G suffixes allowed); needs the centre frequency")
-	fl.StringVar(&f.offset, "offset", "", "channel offset from the capture centre, Hz (k suffix allowed); default: the strongest carrier found")
-	d := receiver.DefaultConfig
-	fl.Float64Var(&f.chanRate, "channel-rate", d.ChannelRateHz, "target channel sample rate after decimation, S/s")
-	fl.Float64Var(&f.falseAlarms, "false-alarms", d.FalseAlarmsPerHour, "bursts per hour that noise alone may start (the detector's design rate; thresholds follow from it)")
-	fl.Float64Var(&f.joinWait, "join-wait", d.JoinWaitS, "bursts this close whose timing is Morse keying are joined into one keyed transmission, seconds")
-	fl.Float64Var(&f.minBurst, "min-burst", d.MinBurstS, "shortest burst kept, seconds")
-	fl.Float64Var(&f.mergeGap, "merge-gap", d.MergeGapS, "drop-outs shorter than this stay inside one burst, seconds")
+	f.flags, f.Receiver = fl, receiver.DefaultConfig
+	fl.StringVar(&f.Rate, "rate", "", "sample rate of a raw recording, S/s (k/M suffixes allowed)")
+	fl.StringVar(&f.Format, "format", "", "sample format of a raw recording: cu8, ci8, ci16_le, cf32_le")
+	fl.StringVar(&f.Center, "center", "", "centre frequency of a raw recording, Hz (k/M/G suffixes and Hz allowed)")
+	fl.StringVar(&f.Start, "start", "", "UTC time of a raw recording's first sample (RFC 3339)")
+	fl.StringVar(&f.Freq, "freq", "", "channel frequency, Hz (k/M/G suffixes and Hz allowed: 144.525M, 144.525MHz); needs the centre frequency")
+	fl.StringVar(&f.Offset, "offset", "", "channel offset from the capture centre, Hz (k suffix allowed); default: the strongest carrier found")
+	fl.Float64Var(&f.Receiver.ChannelRateHz, "channel-rate", f.Receiver.ChannelRateHz, "target channel sample rate after decimation, S/s")
+	fl.Float64Var(&f.Receiver.FalseAlarmsPerHour, "false-alarms", f.Receiver.FalseAlarmsPerHour, "bursts per hour that noise alone may start (the detector's design rate; thresholds follow from it)")
+	fl.Float64Var(&f.Receiver.JoinWaitS, "join-wait", f.Receiver.JoinWaitS, "bursts this close whose timing is Morse keying are joined into one keyed transmission, seconds")
+	fl.Float64Var(&f.Receiver.MinBurstS, "min-burst", f.Receiver.MinBurstS, "shortest burst kept, seconds")
+	fl.Float64Var(&f.Receiver.MergeGapS, "merge-gap", f.Receiver.MergeGapS, "drop-outs shorter than this stay inside one burst, seconds")
 }
 
-// parseHz reads a frequency or rate with an optional k, M or G suffix.
-func parseHz(name, s string) (float64, error) {
-	if s == "" {
-		return 0, nil
-	}
-	mult := 1.0
-	t := strings.TrimSpace(s)
-	switch {
-	case strings.HasSuffix(t, "k"), strings.HasSuffix(t, "K"):
-		mult, t = 1e3, t[:len(t)-1]
-	case strings.HasSuffix(t, "M"):
-		mult, t = 1e6, t[:len(t)-1]
-	case strings.HasSuffix(t, "G"):
-		mult, t = 1e9, t[:len(t)-1]
-	}
-	v, err := strconv.ParseFloat(t, 64)
-	if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
-		return 0, fmt.Errorf("--%s %q is not a frequency (examples: 145.5M, 2.4M, -12.5k, 433920000)", name, s)
-	}
-	return v * mult, nil
+// turning makes the merge gap of a turning antenna the default
+// (survey.TurningMergeGapS), as if --merge-gap had been given.
+func (f *inputFlags) turning() {
+	_ = f.flags.Set("merge-gap", strconv.FormatFloat(survey.TurningMergeGapS, 'g', -1, 64))
 }
 
-// open opens the recording named by path with the raw-file flags.
-func (f *inputFlags) open(path string) (sdr.Source, error) {
-	var p sdr.RawParams
-	var err error
-	if p.SampleRate, err = parseHz("rate", f.rate); err != nil {
+// config is the receiver configuration the flags give.
+func (f *inputFlags) config() (receiver.Config, bool, error) {
+	f.ChannelRateGiven, f.MergeGapGiven = f.flags.Changed("channel-rate"), f.flags.Changed("merge-gap")
+	return f.Config()
+}
+
+// input is the survey of the recording at path that the flags describe;
+// notes and the progress bar go to cmd's stderr.
+func (f *inputFlags) input(cmd *cobra.Command, path string, idf *identFlags) (*survey.Input, error) {
+	cfg, have, err := f.config()
+	if err != nil {
 		return nil, err
 	}
-	if p.CenterHz, err = parseHz("center", f.center); err != nil {
+	io, err := idf.options()
+	if err != nil {
 		return nil, err
 	}
-	p.Format = f.format
-	if f.start != "" {
-		t, err := time.Parse(time.RFC3339Nano, f.start)
-		if err != nil {
-			return nil, fmt.Errorf("--start %q is not an RFC 3339 time (example 2026-05-01T10:00:00Z)", f.start)
-		}
-		p.Start = t.UTC()
+	raw, err := f.Raw()
+	if err != nil {
+		return nil, err
 	}
-	return sdr.Open(path, p)
+	w := cmd.ErrOrStderr()
+	return &survey.Input{Path: path, Raw: raw, HaveChannel: have,
+		Options:  survey.Options{Receiver: cfg, Ident: io, NoIdent: idf.noIdent},
+		Progress: func(info sdr.Info) (func(int64), func()) { return progress(w, info, "scanning") },
+		Notes:    func(s string) { fmt.Fprintln(w, s) }}, nil
 }
 
-// config builds the receiver configuration; haveChannel is false when
-// neither --freq nor --offset was given.
-func (f *inputFlags) config() (cfg receiver.Config, haveChannel bool, err error) {
-	if cfg.FreqHz, err = parseHz("freq", f.freq); err != nil {
-		return cfg, false, err
-	}
-	if cfg.OffsetHz, err = parseHz("offset", f.offset); err != nil {
-		return cfg, false, err
-	}
-	if f.freq != "" && f.offset != "" {
-		return cfg, false, fmt.Errorf("give --freq or --offset, not both")
-	}
-	if f.flags != nil && f.flags.Changed("channel-rate") {
-		if err := zeroFlag("channel-rate", f.chanRate); err != nil {
-			return cfg, false, err // 0 would silently mean the default
-		}
-	}
-	cfg.ChannelRateHz = f.chanRate
-	cfg.FalseAlarmsPerHour, cfg.JoinWaitS = f.falseAlarms, f.joinWait
-	cfg.MinBurstS, cfg.MergeGapS = f.minBurst, f.mergeGap
-	if f.flags != nil && !f.flags.Changed("merge-gap") {
-		cfg.MergeGapS = 0 // the default for the keying mode (longer for keyed carrier)
-	}
-	if err := cfg.Validate(); err != nil {
-		return cfg, false, err
-	}
-	return cfg, f.freq != "" || f.offset != "", nil
+// identFlags select how identifiers are read.
+type identFlags struct {
+	mode, ids string
+	noIdent   bool
+	minConf   float64
 }
 
-// progress returns a callback that draws a progress bar on stderr when it
-// is a terminal and the stream's length is known; otherwise nil.
-func progress(info sdr.Info, label string) (func(int64), func()) {
-	if info.Samples <= 0 || !term.IsTerminal(int(os.Stderr.Fd())) {
-		return nil, func() {}
+func (f *identFlags) add(cmd *cobra.Command) {
+	cmd.Flags().StringVar(&f.mode, "mode", morse.ModeAuto.String(), "how the identifier is keyed: auto, fm (tone on FM), am (tone on AM, A2A) or cw (keyed carrier)")
+	cmd.Flags().StringVar(&f.ids, "ids", "", "expected identifiers, comma-separated, or @FILE with one per line")
+	cmd.Flags().BoolVar(&f.noIdent, "no-ident", false, "skip Morse decoding; report levels and timing only")
+	cmd.Flags().Float64Var(&f.minConf, "min-confidence", idmatch.DefaultMinConfidence, "least confidence (0–1) at which a burst is given a listed identifier; below it: unknown")
+}
+
+func (f *identFlags) options() (o ident.Options, err error) {
+	if o.Mode, err = morse.ParseMode(f.mode); err != nil {
+		return o, err
+	}
+	o.MinConfidence = f.minConf
+	if o.IDs, err = idmatch.LoadList(f.ids); err != nil {
+		return o, fmt.Errorf("--ids: %w", err)
+	}
+	return o, nil
+}
+
+// zeroFlag refuses 0 for flags whose 0 would silently mean "the default".
+func zeroFlag(name string, v float64) error {
+	if v == 0 {
+		return fmt.Errorf("--%s 0: give a positive value", name)
+	}
+	return nil
+}
+
+// terminal is w when it is a terminal, else nil.
+func terminal(w io.Writer) *os.File {
+	if f, ok := w.(*os.File); ok && term.IsTerminal(int(f.Fd())) {
+		return f
+	}
+	return nil
+}
+
+// progress returns a callback that draws a progress bar on w when it is a
+// terminal and the stream's length is known; otherwise a no-op.
+func progress(w io.Writer, info sdr.Info, label string) (func(int64), func()) {
+	tty := terminal(w)
+	if info.Samples <= 0 || tty == nil {
+		return func(int64) {}, func() {}
 	}
 	bar := progressbar.NewOptions64(info.Samples,
-		progressbar.OptionSetWriter(os.Stderr),
+		progressbar.OptionSetWriter(tty),
 		progressbar.OptionSetDescription(label),
 		progressbar.OptionShowCount(),
 		progressbar.OptionThrottle(100*time.Millisecond),

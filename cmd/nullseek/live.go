@@ -2,7 +2,6 @@ package main
 
 import (
 	"context"
-	"errors"
 	"fmt"
 	"os"
 	"strings"
@@ -31,9 +30,6 @@ type liveFlags struct {
 	hf                                  *headingFlags
 }
 
-// liveOnly are the flags that only a live receiver takes.
-var liveOnly = []string{"rotator", "sweep", "step", "duration", "margin", "record", "gain", "ppm", "iq-latency", "poll-hz", "nmea-feed"}
-
 // add lets cmd (bearing, calibrate) take a live receiver in place of
 // RECORDING. Call it after the input, ident and heading flags are added.
 func (f *liveFlags) add(cmd *cobra.Command, in *inputFlags, idf *identFlags, hf *headingFlags) {
@@ -45,31 +41,13 @@ func (f *liveFlags) add(cmd *cobra.Command, in *inputFlags, idf *identFlags, hf 
 	fl.Float64Var(&f.o.DurationS, "duration", f.o.DurationS, "live: stop the capture after this many seconds (required without --rotator)")
 	fl.Float64Var(&f.o.MarginS, "margin", f.o.MarginS, "live: keep recording this many seconds after the sweep ends")
 	fl.StringVar(&f.o.Record, "record", "", "live: keep the capture as FILE.sigmf-meta/.sigmf-data and its heading log FILE.csv, to re-run offline")
-	fl.StringVar(&f.gain, "gain", "auto", "live: tuner gain in dB, or auto")
+	fl.StringVar(&f.gain, "gain", f.o.Gain.String(), "live: tuner gain in dB, or auto")
 	fl.IntVar(&f.o.PPM, "ppm", f.o.PPM, "live: receiver frequency correction, parts per million")
 	fl.StringVar(&f.latency, "iq-latency", "", "live: `seconds` the samples take to arrive, taken off the capture start so headings and levels line up (default: measured from the stream, from the earliest arrival less the samples received)")
 	fl.Float64Var(&f.o.PollHz, "poll-hz", f.o.PollHz, "live: rotator position polls per second")
 	fl.StringVar(&f.compass, "nmea-feed", "", "live: NMEA 0183 compass (HDT, HDG, HDM) giving the headings during the capture: tcp://HOST:PORT, udp://[HOST]:PORT or serial:/dev/ttyXXX[@BAUD] (default 4800 baud); needs --duration")
 	cmd.Use = strings.Replace(cmd.Use, "RECORDING", "RECORDING|rtl_tcp://HOST:PORT", 1)
-	cmd.Long += `
-
-Live: give rtl_tcp://HOST:PORT (or usb://INDEX in a build with USB) instead
-of a recording, with --freq (the channel; the receiver tunes a quarter of
---rate below it unless --center is given), --rate (default 250k) and
---gain. With --rotator HOST:PORT (Hamlib rotctld) and --sweep FROM:TO or
---step FROM:STEP:TO:DWELL the antenna is turned while the receiver records;
-the capture ends --margin seconds after the sweep (or at --duration) and is
-fitted as usual. Without --rotator give --duration and a heading source
-(--turn for a steady hand turn, or --nmea-feed ADDR for a compass that
-sends NMEA 0183 headings, stamped as they arrive; --heading-ref picks its
-HDT or HDM sentences as for --nmea). --record FILE keeps
-FILE.sigmf-meta/.sigmf-data and the heading log FILE.csv. On a terminal a
-status line shows the level, the heading and the progress.
-
-Ctrl-C (SIGINT) or SIGTERM stops the rotator, keeps what was captured (with
---record), removes temporary files and exits with 130 or 143. A receiver
-that fails mid-capture keeps what it gave, which is analysed when long
-enough; the command then exits 1.`
+	cmd.Long += "\n\n" + capture.Help
 }
 
 // run is the command's RunE: body on a recording, or a live capture first
@@ -77,8 +55,8 @@ enough; the command then exits 1.`
 func (f *liveFlags) run(body func(*cobra.Command, recording) error) func(*cobra.Command, []string) error {
 	return func(c *cobra.Command, args []string) error {
 		if !capture.IsReceiver(args[0]) {
-			var given []string
-			for _, n := range liveOnly {
+			var given []string // the flags only a live receiver takes
+			for _, n := range []string{"rotator", "sweep", "step", "duration", "margin", "record", "gain", "ppm", "iq-latency", "poll-hz", "nmea-feed"} {
 				if c.Flags().Changed(n) {
 					given = append(given, "--"+n)
 				}
@@ -96,54 +74,26 @@ func (f *liveFlags) run(body func(*cobra.Command, recording) error) func(*cobra.
 // offline body's own flags, before anything is connected.
 func (f *liveFlags) options(target string) (capture.Options, error) {
 	o, in, hf := f.o, f.in, f.hf
-	var err error
-	if o.Receiver, err = capture.ParseReceiver(target); err != nil {
-		return o, err
-	}
-	if in.format != "" || in.start != "" {
+	if in.Format != "" || in.Start != "" {
 		return o, fmt.Errorf("--format and --start describe a raw recording; a live receiver gives cu8 and its own start time")
 	}
-	if rate, err := parseHz("rate", in.rate); err != nil {
-		return o, err
-	} else if rate != 0 {
-		o.RateHz = rate
-	}
-	if o.CenterHz, err = parseHz("center", in.center); err != nil {
+	if err := o.Parse(capture.Flags{Target: target, Rate: in.Rate, Center: in.Center, Freq: in.Freq,
+		Sweep: f.sweep, Step: f.step, Gain: f.gain, Latency: f.latency, Compass: f.compass}); err != nil {
 		return o, err
 	}
-	if o.FreqHz, err = parseHz("freq", in.freq); err != nil {
+	hs, err := hf.source(nil)
+	if err != nil {
 		return o, err
 	}
-	if o.Plan, err = capture.ParseSweep(f.sweep, f.step); err != nil {
-		return o, err
-	}
-	if o.Gain, err = capture.ParseGain(f.gain); err != nil {
-		return o, err
-	}
-	if o.Latency, err = capture.ParseLatency(f.latency); err != nil {
-		return o, err
-	}
-	if f.compass != "" {
-		if o.Compass, err = capture.ParseCompassAddr(f.compass); err != nil {
-			return o, err
-		}
-	}
-	if o.Ref, err = headingRef(hf.ref); err != nil {
-		return o, err
-	}
-	if hf.log != "" && hf.nmea != "" {
+	o.Ref, o.Turn = hs.Ref, hs.Turn
+	if hs.LogPath != "" && hs.NMEAPath != "" {
 		return o, fmt.Errorf("give one heading file: --headings or --nmea")
 	}
 	switch {
-	case hf.turn != "":
-		st, err := capture.ParseTurn(hf.turn, o.Ref)
-		if err != nil {
-			return o, err
-		}
-		o.Turn = &st
-	case hf.log != "":
+	case hs.Turn != nil:
+	case hs.LogPath != "":
 		o.HeadingFile = "--headings"
-	case hf.nmea != "":
+	case hs.NMEAPath != "":
 		o.HeadingFile = "--nmea"
 	}
 	if err := o.Validate(); err != nil {
@@ -152,16 +102,16 @@ func (f *liveFlags) options(target string) (capture.Options, error) {
 	if _, _, err := in.config(); err != nil {
 		return o, err
 	}
-	if _, _, err := f.idf.options(); err != nil {
+	if _, err := f.idf.options(); err != nil {
 		return o, err
 	}
-	if _, err := hf.pattern(); err != nil {
+	if _, err := hs.Pattern(); err != nil {
 		return o, err
 	}
 	if o.Ref == heading.Magnetic && o.HeadingFile == "" {
 		// The body converts with the recording's start time; this only
 		// checks now that it will be able to.
-		if _, err := hf.declinationAt(time.Now().UTC(), func(string) {}); err != nil {
+		if _, err := hs.DeclinationAt(time.Now().UTC(), nil); err != nil {
 			return o, err
 		}
 	}
@@ -169,75 +119,18 @@ func (f *liveFlags) options(target string) (capture.Options, error) {
 }
 
 // live captures from the receiver at target, then runs body on the
-// recording: on a whole capture, or on what a failed receiver gave when it
-// is enough. A signal ends either with what was kept.
+// recording (capture.Analyse).
 func (f *liveFlags) live(c *cobra.Command, target string, body func(*cobra.Command, recording) error) error {
 	o, err := f.options(target)
 	if err != nil {
 		return err
 	}
-	notes := func(s string) { fmt.Fprintln(c.ErrOrStderr(), s) }
-	o.Notes = notes
+	o.Notes = func(s string) { fmt.Fprintln(c.ErrOrStderr(), s) }
 	if w, ok := c.ErrOrStderr().(*os.File); ok {
 		o.Status = capture.NewStatusLine(w)
 	}
-	ctx, stop := capture.NotifySignals(c.Context())
-	defer stop()
-	res, err := capture.Run(ctx, o)
-	if res == nil {
-		return err
-	}
-	defer res.Close()
-	for _, w := range res.Warnings {
-		notes(w)
-	}
-	var fault *capture.ReceiverFault
-	switch {
-	case err == nil:
-		notes(recordedNote(c.Name(), res))
-	case errors.As(err, &fault) && res.Analysable():
-		notes(fmt.Sprintf("the receiver failed %.1f s into the capture: analysing what it gave", res.Seconds()))
-	default:
-		return err
-	}
-	c.SetContext(ctx)
-	berr := body(c, recording{path: res.Meta, track: res.Track})
-	if berr != nil && !res.Kept {
-		// The body names its recording; a temporary one is gone by now.
-		berr = errors.New(strings.ReplaceAll(berr.Error(), res.Meta, "the live capture"))
-	}
-	if ctx.Err() != nil {
-		return res.InterruptedAnalysis(context.Cause(ctx))
-	}
-	if err != nil {
-		if berr != nil {
-			notes(fmt.Sprintf("the %.1f s captured gave no result: %v", res.Seconds(), berr))
-		}
-		return err
-	}
-	return berr
-}
-
-// recordedNote says what a whole capture recorded and how to re-run it.
-func recordedNote(cmdName string, res *capture.Result) string {
-	if !res.Kept {
-		return fmt.Sprintf("recorded %.1f s", res.Seconds())
-	}
-	rerun := fmt.Sprintf("nullseek %s %s", cmdName, res.Meta)
-	if res.HeadingLog != "" {
-		rerun += " --headings " + res.HeadingLog + " (with the same other flags, less the live heading source)"
-	} else {
-		rerun += " (with the same other flags)"
-	}
-	return fmt.Sprintf("recorded %.1f s to %s; re-run offline: %s", res.Seconds(), res.Meta, rerun)
-}
-
-// exitCode is the process's exit status for err: the error's own
-// (capture.Interrupted: 128 + the signal) or 1.
-func exitCode(err error) int {
-	var ec interface{ ExitCode() int }
-	if errors.As(err, &ec) {
-		return ec.ExitCode()
-	}
-	return 1
+	return capture.Analyse(c.Context(), o, "nullseek "+c.Name(), func(ctx context.Context, meta string, track *heading.Track) error {
+		c.SetContext(ctx)
+		return body(c, recording{path: meta, track: track})
+	})
 }

@@ -191,7 +191,7 @@ func TestLiveInterrupt(t *testing.T) {
 				t.Errorf("heading log %.2f–%.2f s ending at %.1f°, recording %.2f s, rotator stopped at %.1f°", first.T, last.T, last.Deg, secs, a1)
 			}
 			// The recording is whole: it re-runs offline.
-			off := runNullseek(t, "", "bearing", rec+".sigmf-meta", "--headings", rec+".csv", "--freq", "145.5M", "--no-ident", "--json")
+			off := inProcess(t, "bearing", rec+".sigmf-meta", "--headings", rec+".csv", "--freq", "145.5M", "--no-ident", "--json")
 			if strings.Contains(off.stderr, "panic") || off.code != 0 && !strings.Contains(off.stderr, "nullseek: ") {
 				t.Errorf("offline re-run of the kept part: exit %d\n%s", off.code, off.stderr)
 			}
@@ -308,7 +308,7 @@ func TestLiveTurnRecordsHeadingLog(t *testing.T) {
 		t.Errorf("the re-run hint does not name the heading log:\n%s", r.stderr)
 	}
 	live := bearingOf(t, r.stdout)
-	off := runNullseek(t, "", "bearing", rec+".sigmf-meta", "--headings", rec+".csv", "--freq", "145.5M", "--no-ident", "--json")
+	off := inProcess(t, "bearing", rec+".sigmf-meta", "--headings", rec+".csv", "--freq", "145.5M", "--no-ident", "--json")
 	if off.code != 0 {
 		t.Fatalf("offline re-run: exit %d\n%s", off.code, off.stderr)
 	}

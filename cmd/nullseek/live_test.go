@@ -5,7 +5,6 @@ import (
 	"bytes"
 	"context"
 	"encoding/json"
-	"fmt"
 	"log/slog"
 	"math"
 	"math/rand"
@@ -42,13 +41,7 @@ func TestNullseekHelperProcess(t *testing.T) {
 			break
 		}
 	}
-	slog.SetDefault(slog.New(slog.NewTextHandler(os.Stderr, &slog.HandlerOptions{Level: slog.LevelWarn})))
-	rootCmd.SetArgs(args)
-	if err := rootCmd.Execute(); err != nil {
-		fmt.Fprintf(os.Stderr, "nullseek: %v\n", err)
-		os.Exit(exitCode(err))
-	}
-	os.Exit(0)
+	os.Exit(mainStatus(args))
 }
 
 // nullseekRun is a finished child run of the command line.
@@ -90,6 +83,20 @@ func runNullseek(t *testing.T, tmp string, args ...string) nullseekRun {
 	t.Helper()
 	c, o, e := startNullseek(t, tmp, args...)
 	return waitNullseek(t, c, o, e)
+}
+
+// inProcess runs the command line in-process as main does (execute), for
+// the checks of flags, help and errors that need no process of its own
+// (no signal, no exit status beyond non-zero, no TMPDIR).
+func inProcess(t *testing.T, args ...string) nullseekRun {
+	t.Helper()
+	var out, errb bytes.Buffer
+	err := execute(args, strings.NewReader(""), &out, &errb)
+	r := nullseekRun{stdout: out.String(), stderr: errb.String()}
+	if err != nil {
+		r.code = exitCode(err)
+	}
+	return r
 }
 
 // azHistory records a rotator's polled azimuth and interpolates it.
@@ -413,7 +420,7 @@ func TestLiveBearingRotctldSweep(t *testing.T) {
 			t.Fatalf("--record left no %s: %v", f, err)
 		}
 	}
-	off := runNullseek(t, "", "bearing", rec+".sigmf-meta", "--headings", rec+".csv",
+	off := inProcess(t, "bearing", rec+".sigmf-meta", "--headings", rec+".csv",
 		"--freq", "145.5M", "--no-ident", "--antenna", "yagi", "--json")
 	if off.code != 0 {
 		t.Fatalf("offline re-run: exit %d\n%s", off.code, off.stderr)
@@ -513,7 +520,7 @@ func TestLiveUnreachable(t *testing.T) {
 // value is still accepted.
 func TestLiveHelp(t *testing.T) {
 	t.Parallel()
-	r := runNullseek(t, "", "bearing", "--help")
+	r := inProcess(t, "bearing", "--help")
 	if r.code != 0 {
 		t.Fatalf("exit %d\n%s", r.code, r.stderr)
 	}

@@ -5,7 +5,6 @@ import (
 	"errors"
 	"fmt"
 	"io"
-	"log/slog"
 	"math"
 	"os"
 	"os/signal"
@@ -13,7 +12,9 @@ import (
 
 	"github.com/spf13/cobra"
 
+	"nullseek/internal/warnlog"
 	"nullseek/sdr"
+	"nullseek/survey"
 )
 
 // replayOptions are the replay command's flags.
@@ -22,9 +23,9 @@ type replayOptions struct {
 	allowRemote bool
 	speed       float64
 	loop        bool
-	// rate, format, center, start describe a raw recording, as for the
-	// other commands (inputFlags.open parses them).
-	rate, format, center, start string
+	// in describes a raw recording, as for the other commands
+	// (survey.InputFlags.Raw parses it).
+	in survey.InputFlags
 }
 
 func newReplayCmd() *cobra.Command {
@@ -53,10 +54,10 @@ The command ends at the end of the recording (without --loop) or on Ctrl-C.`,
 	f.BoolVar(&o.allowRemote, "allow-remote", false, "allow a --listen address other clients on the network can reach")
 	f.Float64Var(&o.speed, "speed", 1, "pace: 1 real time, 2 twice as fast, 0 as fast as the client reads")
 	f.BoolVar(&o.loop, "loop", false, "start the recording again at its end, until stopped")
-	f.StringVar(&o.rate, "rate", "", "sample rate of a raw recording, S/s (k/M suffixes allowed)")
-	f.StringVar(&o.format, "format", "", "sample format of a raw recording: cu8, ci8, ci16_le, cf32_le")
-	f.StringVar(&o.center, "center", "", "centre frequency of a raw recording, Hz (k/M/G suffixes allowed)")
-	f.StringVar(&o.start, "start", "", "UTC time of a raw recording's first sample (RFC 3339)")
+	f.StringVar(&o.in.Rate, "rate", "", "sample rate of a raw recording, S/s (k/M suffixes allowed)")
+	f.StringVar(&o.in.Format, "format", "", "sample format of a raw recording: cu8, ci8, ci16_le, cf32_le")
+	f.StringVar(&o.in.Center, "center", "", "centre frequency of a raw recording, Hz (k/M/G suffixes allowed)")
+	f.StringVar(&o.in.Start, "start", "", "UTC time of a raw recording's first sample (RFC 3339)")
 	return cmd
 }
 
@@ -66,8 +67,11 @@ func runReplay(ctx context.Context, errOut io.Writer, path string, o replayOptio
 	if math.IsNaN(o.speed) || math.IsInf(o.speed, 0) || o.speed < 0 {
 		return fmt.Errorf("--speed %v: give 0 (as fast as the client reads) or a positive factor (1 = real time)", o.speed)
 	}
-	in := inputFlags{rate: o.rate, format: o.format, center: o.center, start: o.start}
-	open := func() (sdr.Source, error) { return in.open(path) }
+	raw, err := o.in.Raw()
+	if err != nil {
+		return err
+	}
+	open := func() (sdr.Source, error) { return sdr.Open(path, raw) }
 	src, err := open() // checked before listening: a bad file is one line, no server
 	if err != nil {
 		return err
@@ -94,7 +98,7 @@ func runReplay(ctx context.Context, errOut io.Writer, path string, o replayOptio
 	}
 	fmt.Fprintf(errOut, "nullseek: replaying %s (%.0f S/s %s, %s) on rtl_tcp %s, %s\n",
 		path, info.SampleRate, info.Format, centre, ln.Addr(), pace)
-	log := slog.New(slog.NewTextHandler(errOut, &slog.HandlerOptions{Level: slog.LevelInfo}))
+	log := warnlog.NewProgress(errOut, "nullseek")
 	err = sdr.ServeReplay(ctx, ln, open, sdr.ReplayOptions{Speed: o.speed, Loop: o.loop, Logger: log})
 	if errors.Is(err, context.Canceled) {
 		fmt.Fprintln(errOut, "nullseek: replay stopped")

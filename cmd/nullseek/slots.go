@@ -3,7 +3,6 @@ package main
 import (
 	"encoding/json"
 	"fmt"
-	"os"
 
 	"github.com/spf13/cobra"
 
@@ -11,11 +10,15 @@ import (
 	"nullseek/survey"
 )
 
-func init() {
-	var in inputFlags
-	var idf identFlags
-	var asJSON bool
-	opts := schedule.DefaultOptions()
+type slotsOptions struct {
+	in     inputFlags
+	idf    identFlags
+	asJSON bool
+	plan   schedule.Options
+}
+
+func newSlotsCmd() *cobra.Command {
+	o := slotsOptions{plan: schedule.DefaultOptions()}
 	cmd := &cobra.Command{
 		Use:   "slots RECORDING",
 		Short: "Work out the slot schedule of beacons sharing a channel: order, period, drift, next on, collisions",
@@ -25,35 +28,39 @@ squares, with its standard error), clock drift in ppm, the predicted next
 start times, and when two neighbouring slots will first overlap at the
 measured drifts. Overlaps already in the recording are reported too.`,
 		Args: cobra.ExactArgs(1),
-		RunE: func(cmd *cobra.Command, args []string) error {
-			if cmd.Flags().Changed("period") {
-				if err := zeroFlag("period", opts.NominalPeriodS); err != nil {
-					return err // 0 would silently mean "unknown"
-				}
-			}
-			if err := opts.Validate(); err != nil {
-				return err
-			}
-			res, err := surveyRecording(cmd.Context(), args[0], &in, &idf, func(s string) {
-				cmd.PrintErrln(s)
-			})
-			if err != nil {
-				return err
-			}
-			plan, err := survey.Schedule(res, opts)
-			if err != nil {
-				return err
-			}
-			if asJSON {
-				return json.NewEncoder(os.Stdout).Encode(plan)
-			}
-			return plan.WriteTable(os.Stdout)
-		},
+		RunE: func(cmd *cobra.Command, args []string) error { return runSlots(cmd, args[0], &o) },
 	}
-	in.add(cmd)
-	idf.add(cmd)
-	cmd.Flags().BoolVar(&asJSON, "json", false, "print the plan as one JSON object")
-	cmd.Flags().Float64Var(&opts.NominalPeriodS, "period", opts.NominalPeriodS, "the programmed cycle in seconds, when known (drift is measured against it; default: the median of the transmitters)")
-	cmd.Flags().IntVar(&opts.NextCount, "next", opts.NextCount, fmt.Sprintf("how many next start times to predict per transmitter (0–%d)", schedule.MaxNextCount))
-	rootCmd.AddCommand(cmd)
+	o.in.add(cmd)
+	o.idf.add(cmd)
+	cmd.Flags().BoolVar(&o.asJSON, "json", false, "print the plan as one JSON object")
+	cmd.Flags().Float64Var(&o.plan.NominalPeriodS, "period", o.plan.NominalPeriodS, "the programmed cycle in seconds, when known (drift is measured against it; default: the median of the transmitters)")
+	cmd.Flags().IntVar(&o.plan.NextCount, "next", o.plan.NextCount, fmt.Sprintf("how many next start times to predict per transmitter (0–%d)", schedule.MaxNextCount))
+	return cmd
+}
+
+func runSlots(cmd *cobra.Command, path string, o *slotsOptions) error {
+	if cmd.Flags().Changed("period") {
+		if err := zeroFlag("period", o.plan.NominalPeriodS); err != nil {
+			return err // 0 would silently mean "unknown"
+		}
+	}
+	if err := o.plan.Validate(); err != nil {
+		return err
+	}
+	in, err := o.in.input(cmd, path, &o.idf)
+	if err != nil {
+		return err
+	}
+	res, err := in.Run(cmd.Context(), nil)
+	if err != nil {
+		return err
+	}
+	plan, err := survey.Schedule(res, o.plan)
+	if err != nil {
+		return err
+	}
+	if o.asJSON {
+		return json.NewEncoder(cmd.OutOrStdout()).Encode(plan)
+	}
+	return plan.WriteTable(cmd.OutOrStdout())
 }

@@ -502,3 +502,25 @@ func (m *Matcher) ownedCopies(chars []morse.Char, fits []textFit) []int {
 	}
 	return owned
 }
+
+// LoadList reads the --ids value: "" is no list, "@FILE" a file of one
+// identifier a line (ReadList), anything else a comma-separated list
+// (ParseList). The error starts with the file's name for a file.
+func LoadList(spec string) ([]string, error) {
+	switch {
+	case spec == "":
+		return nil, nil
+	case spec[0] == '@':
+		fh, err := os.Open(spec[1:])
+		if err != nil {
+			return nil, err
+		}
+		defer fh.Close()
+		ids, err := ReadList(fh)
+		if err != nil {
+			return nil, fmt.Errorf("%s: %w", spec[1:], err)
+		}
+		return ids, nil
+	}
+	return ParseList(spec)
+}

@@ -19,7 +19,8 @@ const (
 	domain     = 2 // one concern each: IQ I/O, headings, the Earth, bearings, identification, station files
 	stages     = 3 // build on domain packages: receiver, live capture, storage, plots, simulation
 	pipelines  = 4 // whole jobs over files: survey, locate
-	command    = 5 // cmd/nullseek
+	apps       = 5 // jobs built from pipelines: the demo, the unattended station
+	command    = 6 // cmd/nullseek
 )
 
 // place is a package's position: its layer and, inside the ident family,
@@ -39,13 +40,14 @@ var layers = map[string]place{
 	"internal/testtool":   {foundation, 0},
 	"internal/units":      {foundation, 0},
 	"internal/archtest":   {foundation, 0},
+	"internal/cpuprofile": {domain, 0}, // stages its file with internal/atomicfile
+	"internal/warnlog":    {foundation, 0},
 	"dsp":                 {foundation, 0},
 
 	"sdr":     {domain, 0},
 	"heading": {domain, 0},
 	"geo":     {domain, 0},
 	"bearing": {domain, 0},
-	"station": {domain, 0},
 	// The ident family, in its own order.
 	"ident/internal/stats":     {domain, 1},
 	"ident/internal/identtest": {domain, 1},
@@ -57,6 +59,7 @@ var layers = map[string]place{
 	"ident":                    {domain, 5},
 
 	"receiver":  {stages, 0},
+	"station":   {stages, 0},
 	"capture":   {stages, 0},
 	"store":     {stages, 0},
 	"mapplot":   {stages, 0},
@@ -65,6 +68,8 @@ var layers = map[string]place{
 
 	"survey": {pipelines, 0},
 	"locate": {pipelines, 0},
+
+	"demo": {apps, 0},
 
 	"cmd/nullseek": {command, 0},
 }

@@ -59,6 +59,19 @@ func ParseHz(s string) (float64, error) {
 	return v * mult, nil
 }
 
+// HzFlag is ParseHz for the value s of the command-line flag --name,
+// whose name the error gives; an empty value (the flag not given) is 0.
+func HzFlag(name, s string) (float64, error) {
+	if s == "" {
+		return 0, nil
+	}
+	v, err := ParseHz(s)
+	if err != nil {
+		return 0, fmt.Errorf("--%s: %w", name, err)
+	}
+	return v, nil
+}
+
 // Axis says which coordinate a value is.
 type axis int
 

@@ -19,6 +19,9 @@ func TestParseHz(t *testing.T) {
 		"144.525MHZ": 144.525e6, "12.5k": 12500, "12.5K": 12500, "-12.5kHz": -12500,
 		"2.4M": 2.4e6, "1.2G": 1.2e9, "1.2GHz": 1.2e9, "433.92e6": 433.92e6, "48000Hz": 48000, "+250": 250,
 		".5M": 5e5, "0": 0, "145.": 145,
+		// issue 13: the hertz forms every flag takes, and the ones the
+		// command line's own parser took before (145.5M, -12.5k, 433920000).
+		"12.5kHz": 12500, "433920000Hz": 433920000, "145.5M": 145.5e6, "-12.5k": -12500, "433920000": 433920000,
 	} {
 		got, err := ParseHz(in)
 		if err != nil || math.Abs(got-want) > 1e-6*math.Abs(want) {
@@ -104,5 +107,59 @@ func TestParseLatitudeLongitude(t *testing.T) {
 	}
 	if _, err := ParseLongitude("-190"); err == nil || !strings.Contains(err.Error(), "±180") {
 		t.Errorf("longitude -190: %v", err)
+	}
+}
+
+// TestParseLatLonCommaForms: the comma-separated decimal positions the
+// command line's flags (--station, --tx) took before they used
+// ParseLatLon, with the ranges of latitude (±90°) and longitude (±180°)
+// by definition of the coordinates.
+func TestParseLatLonCommaForms(t *testing.T) {
+	cases := []struct {
+		in       string
+		ok       bool
+		lat, lon float64
+	}{
+		{"46.8127,7.4415", true, 46.8127, 7.4415},
+		{" -33.5 , -70.25 ", true, -33.5, -70.25},
+		{"90,180", true, 90, 180},
+		{"91,0", false, 0, 0},
+		{"0,-181", false, 0, 0},
+		{"46.8", false, 0, 0},
+		{"a,b", false, 0, 0},
+		{"NaN,0", false, 0, 0},
+		{"1,2,3", false, 0, 0},
+		{"abc", false, 0, 0},
+	}
+	for _, c := range cases {
+		lat, lon, err := ParseLatLon(c.in)
+		if (err == nil) != c.ok || (c.ok && (lat != c.lat || lon != c.lon)) {
+			t.Errorf("ParseLatLon(%q) = %v, %v, %v", c.in, lat, lon, err)
+		}
+	}
+}
+
+func FuzzParseLatLon(f *testing.F) {
+	for _, s := range []string{"46.8127,7.4415", "-90,-180", "1e3,0", ",", "0x10,5", "Inf,0", "52:14:32.6N 5:52:01.9E"} {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, s string) {
+		lat, lon, err := ParseLatLon(s)
+		if err == nil && !(lat >= -90 && lat <= 90 && lon >= -180 && lon <= 180) {
+			t.Fatalf("accepted %q as %v,%v", s, lat, lon)
+		}
+	})
+}
+
+// TestHzFlag: an empty flag is 0; a bad one names the flag.
+func TestHzFlag(t *testing.T) {
+	if v, err := HzFlag("freq", ""); v != 0 || err != nil {
+		t.Errorf("HzFlag(freq, \"\") = %v, %v", v, err)
+	}
+	if v, err := HzFlag("freq", "144.525MHz"); v != 144.525e6 || err != nil {
+		t.Errorf("HzFlag(freq, 144.525MHz) = %v, %v", v, err)
+	}
+	if _, err := HzFlag("offset", "NaN"); err == nil || !strings.HasPrefix(err.Error(), "--offset: ") {
+		t.Errorf("HzFlag(offset, NaN): %v, want an error naming --offset", err)
 	}
 }
