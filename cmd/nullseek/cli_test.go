@@ -236,7 +236,7 @@ func checkBadInput(t *testing.T, cases []cliCase) {
 // data file, a data size that is not a whole number of samples, unknown
 // datatype, malformed or truncated metadata, a sample rate of zero, NaN or
 // Inf in float data, a channel outside the captured band, an empty file").
-// Datatype grammar and core:sample_rate: SigMF v1.2.5 (REFERENCES §1).
+// Datatype grammar and core:sample_rate: SigMF v1.2.5, core:datatype and core:sample_rate.
 func TestCLIScanBadInput(t *testing.T) {
 	meta := func(name string, data []byte) string { return name + ".sigmf-meta" }
 	cases := []cliCase{

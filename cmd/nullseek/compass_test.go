@@ -26,7 +26,7 @@ import (
 
 // nmeaSentence frames body as an NMEA 0183 sentence: '$', body, '*', the
 // 8-bit XOR of the body's characters as two hex digits, CR LF
-// (REFERENCES §4).
+// (NMEA 0183 sentence framing and checksum, as gpsd 3.22 drivers/driver_nmea0183.c checks it).
 func nmeaSentence(body string) string {
 	var c byte
 	for i := 0; i < len(body); i++ {
@@ -36,7 +36,7 @@ func nmeaSentence(body string) string {
 }
 
 func TestNMEASentenceChecksum(t *testing.T) {
-	// REFERENCES §4: $GPHDT,274.07,T*03 ([V] with gpsd 3.22) and the HDM
+	// NMEA 0183 HDT: $GPHDT,274.07,T*03 ([V] with gpsd 3.22) and the HDM
 	// example $APHDM,218.634,M*39 from gpsd's NMEA notes.
 	for _, want := range []string{"$GPHDT,274.07,T*03\r\n", "$APHDM,218.634,M*39\r\n"} {
 		if got := nmeaSentence(want[1:strings.IndexByte(want, '*')]); got != want {
@@ -182,7 +182,7 @@ func newTurnRig(t *testing.T, truthDeg float64, clock turnClock) string {
 // wmmDeclAtSouthPolarPlateau is the WMM2025 declination at 80° S 240° E
 // (120° W), 0 km, on date tm, interpolated linearly between the WMM2025
 // report's table 6 rows for 2025.0 (68.78°) and 2027.5 (68.49°)
-// (REFERENCES §8, [V]). The model's coefficients change linearly in time,
+// (WMM2025 technical report, table 6; [V] against WMM2025_TestValues.txt). The model's coefficients change linearly in time,
 // so the interpolation is good to a few hundredths of a degree.
 func wmmDeclAtSouthPolarPlateau(tm time.Time) (float64, bool) {
 	y0 := time.Date(tm.Year(), 1, 1, 0, 0, 0, 0, time.UTC)

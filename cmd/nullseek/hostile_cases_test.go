@@ -472,7 +472,7 @@ func hostileCases(t *testing.T) []hostileCase {
 }
 
 // nmeaLine is one NMEA 0183 sentence with its checksum (the XOR of the
-// characters between '$' and '*', NMEA 0183 §5.3), led by a time.
+// characters between '$' and '*', NMEA 0183 framing; common practice), led by a time.
 func nmeaLine(ts, body string) string {
 	var cs byte
 	for i := 0; i < len(body); i++ {

@@ -143,7 +143,7 @@ func (h *azHistory) at(t time.Time) (float64, bool) {
 
 // turningSource is a receiver in front of a Yagi on the rotator: a carrier
 // whose level follows the pattern pointed at the rotator's current azimuth,
-// plus noise. Like rtl_tcp (REFERENCES §2: read_async's default transfer
+// plus noise. Like rtl_tcp (librtlsdr.c rtlsdr_read_async, osmocom/rtl-sdr @ae0dd6d: the default transfer
 // of 16·32·512 bytes, rtl-sdr.h) it hands samples over one transfer at a
 // time, when the transfer's last sample has been taken; sample n is taken
 // at t0 + n/rate, t0 being the first Read.
@@ -270,7 +270,7 @@ func (r *liveRig) waitAz(t *testing.T, deg float64, within time.Duration, c *exe
 }
 
 const (
-	liveRate     = 250000.0 // an RTL2832 rate (225001–300000 Hz; REFERENCES §2)
+	liveRate     = 250000.0 // an RTL2832 rate (225001–300000 Hz; librtlsdr.c rtlsdr_set_sample_rate)
 	liveCenterHz = 145.45e6
 	liveChanHz   = 145.5e6
 )
@@ -381,7 +381,7 @@ func oneLine(t *testing.T, r nullseekRun, want ...string) {
 }
 
 // TestLiveBearingRotctldSweep sweeps Hamlib's real rotctld dummy rotator
-// (Hamlib 4.5.4, model 1, 6°/s; REFERENCES §3) over 150° while a Yagi
+// (Hamlib 4.5.4, model 1, 6°/s; Hamlib rigs/dummy/rot_dummy.c) over 150° while a Yagi
 // (60°, 18 dB F/B) in front of an rtl_tcp-like receiver sees a carrier at
 // a known bearing, and checks the live `bearing` result against it.
 func TestLiveBearingRotctldSweep(t *testing.T) {
