@@ -74,7 +74,10 @@ func serve(t *testing.T, meta string) string {
 	}
 	ctx, cancel := context.WithCancel(context.Background())
 	done := make(chan struct{})
-	go func() { defer close(done); sdr.ServeRTLTCP(ctx, ln, src, sdr.ServeOptions{Paced: true, Logger: discard}) }()
+	go func() {
+		defer close(done)
+		sdr.ServeRTLTCP(ctx, ln, src, sdr.ServeOptions{Paced: true, Logger: discard})
+	}()
 	t.Cleanup(func() { cancel(); <-done; src.Close() })
 	return ln.Addr().String()
 }
