@@ -364,6 +364,10 @@ type meteredSource struct {
 	limit int64
 }
 
+// Info is the stream as the watch knows it (the tuning filled in when the
+// receiver does not say).
+func (m *meteredSource) Info() sdr.Info { return m.w.info }
+
 func (m *meteredSource) Read(dst []complex64) (int, error) {
 	got := m.w.samples.Load()
 	if m.limit > 0 {
