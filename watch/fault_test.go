@@ -1,3 +1,5 @@
+//go:build unix
+
 package watch
 
 import (
@@ -10,6 +12,7 @@ import (
 	"strconv"
 	"strings"
 	"sync"
+	"syscall"
 	"testing"
 	"time"
 
@@ -193,5 +196,31 @@ wait:
 	}
 	if after["captures"] != 2 || after["stations"] != 1 || after["headings"] <= counts["headings"] || after["bursts"] < counts["bursts"] {
 		t.Errorf("the second run left %v (before: %v); want a second capture of the same station, more headings, the bursts kept", after, counts)
+	}
+
+	// SIGTERM (as a service manager stops it) ends a third run cleanly:
+	// exit status 0, its closing line, everything committed.
+	sp3 := writeStation(t, dir, serve(t, meta), rot)
+	third := exec.Command(bin, "watch", "--station-file", sp3, "--db", dbPath)
+	var out3 syncBuffer
+	third.Stdout, third.Stderr = &out3, &out3
+	if err := third.Start(); err != nil {
+		t.Fatal(err)
+	}
+	time.Sleep(3 * time.Second)
+	third.Process.Signal(syscall.SIGTERM)
+	if err := third.Wait(); err != nil {
+		t.Fatalf("watch after SIGTERM: %v\n%s", err, out3.String())
+	}
+	if !strings.Contains(out3.String(), "watch ended after") {
+		t.Errorf("no closing line after SIGTERM:\n%s", out3.String())
+	}
+	integrityCheck(t, dbPath)
+	final, err := db.Counts()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if final["captures"] != 3 || final["headings"] <= after["headings"] {
+		t.Errorf("after the SIGTERM run the database holds %v (before: %v)", final, after)
 	}
 }

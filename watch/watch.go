@@ -271,8 +271,8 @@ func (w *watcher) run(ctx context.Context) (*Summary, error) {
 	if w.stationID, err = w.o.DB.PutStation(stationRow); err != nil {
 		return nil, fmt.Errorf("%s: %w", w.o.DB.Path(), err)
 	}
-	if st.Receiver.AGC {
-		w.logf("warning: %s: receiver.agc is on: automatic gain distorts the level readings bearings are fitted from; set agc = false and a fixed gain_db", st.Path)
+	for _, warn := range st.Warnings {
+		w.logf("warning: %s: %s", st.Path, warn) // AGC on, among others (station owns the wording)
 	}
 
 	sctx, cancel := context.WithCancel(ctx)

@@ -75,9 +75,6 @@ func runWatch(ctx context.Context, stdout, stderr io.Writer, o watchOptions) err
 	}
 	ctx, stop := capture.NotifySignals(ctx)
 	defer stop()
-	for _, w := range st.Warnings {
-		fmt.Fprintf(stderr, "warning: %s\n", w)
-	}
 	_, err = watch.Run(ctx, watch.Options{Station: st, DB: db, Log: stdout, Status: stderr, DurationS: o.duration.Seconds()})
 	return err
 }
