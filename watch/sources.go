@@ -168,7 +168,7 @@ func (w *watcher) handOff(ctx context.Context) {
 		}
 		if hs := w.hs.take(); len(hs) > 0 {
 			if err := w.wr.AddHeadings(w.capture, w.ref.String(), hs); err != nil {
-				w.logf("warning: headings not stored: %v", err)
+				w.fail(err) // the Writer has stopped: nothing more can be kept
 				return
 			}
 		}

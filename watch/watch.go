@@ -146,6 +146,11 @@ type watcher struct {
 	cutShort bool
 	obs      []survey.Record // the latest bursts, for the schedule
 
+	// fail ends the watch with err (the first one given wins).
+	failOnce sync.Once
+	failErr  error
+	stopScan context.CancelFunc
+
 	samples   atomic.Int64
 	inputDB   atomic.Uint64 // math.Float64bits of the last block's level
 	channelDB atomic.Uint64 // the last channel reading in a burst; NaN between
@@ -277,6 +282,7 @@ func (w *watcher) run(ctx context.Context) (*Summary, error) {
 
 	sctx, cancel := context.WithCancel(ctx)
 	defer cancel()
+	w.stopScan = cancel
 	cfg := w.config()
 	src, err := w.open(sctx, cfg)
 	if err != nil {
@@ -336,6 +342,9 @@ func (w *watcher) run(ctx context.Context) (*Summary, error) {
 		serr = err
 	}
 	cerr := w.wr.Close()
+	if w.failErr != nil && cerr == nil {
+		cerr = w.failErr
+	}
 	sum := &Summary{Capture: w.capture, Samples: w.samples.Load(), Bursts: int(w.bursts.Load()), Bearings: int(w.bearings.Load()), Committed: w.wr.Stats()}
 	switch {
 	case cerr != nil:
@@ -345,6 +354,14 @@ func (w *watcher) run(ctx context.Context) (*Summary, error) {
 	}
 	w.logf("watch ended after %.1f s of samples: %d bursts, %d bearings, %d rows stored", float64(sum.Samples)/w.info.SampleRate, sum.Bursts, sum.Bearings, sum.Committed.Rows())
 	return sum, nil
+}
+
+// fail ends the watch with err.
+func (w *watcher) fail(err error) {
+	w.failOnce.Do(func() {
+		w.failErr = err
+		w.stopScan()
+	})
 }
 
 func (w *watcher) headingName() string {
