@@ -251,6 +251,15 @@ func TestWatchMatchesSurvey(t *testing.T) {
 	compared := 0
 	for i, r := range res.Records {
 		b := bursts[i]
+		// Level readings thinned to store.DefaultReadingsPerS (40 a second)
+		// over the burst: one per window of 6000 samples at 240 kS/s.
+		rd, err := db.Readings(b.ID)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if want := (b.EndS - b.StartS) * store.DefaultReadingsPerS; float64(len(rd)) < 0.8*want || float64(len(rd)) > want+2 {
+			t.Errorf("burst %d (%.1f s): %d level readings stored, want about %.0f", i, b.EndS-b.StartS, len(rd), want)
+		}
 		if d := math.Abs(b.StartS - r.StartS); d > 0.05 {
 			t.Errorf("burst %d starts at %.3f s in the watch, %.3f s in survey", i, b.StartS, r.StartS)
 		}
