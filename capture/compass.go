@@ -36,6 +36,15 @@ type CompassOptions struct {
 	// many seconds, counted from the start and then from the last one;
 	// 0 means DefaultCompassSilenceS.
 	SilenceS float64
+	// KeepLast, when > 0, bounds the readings the feed keeps to about the
+	// last KeepLast (between KeepLast and twice that): a feed that runs
+	// for hours, whose caller takes the headings as they come (OnHeading),
+	// does not grow. Track then covers only the readings kept.
+	KeepLast int
+	// OnHeading, when set, is called with every heading of Ref the feed
+	// records (arrival time on the local clock, degrees), on the feed's
+	// goroutine; it must not call the feed.
+	OnHeading func(t time.Time, deg float64)
 }
 
 // CompassFeed records a live NMEA 0183 compass in the background, each
@@ -45,13 +54,15 @@ type CompassOptions struct {
 // socket buffer (it would be stamped late); Track then puts the headings
 // on the capture's clock. Run drives one for Options.Compass.
 type CompassFeed struct {
-	stream   *heading.NMEAStream
-	ref      heading.Ref
-	silence  time.Duration
-	cancel   context.CancelFunc
-	wg       sync.WaitGroup
-	failed   chan struct{}
-	failOnce sync.Once
+	stream    *heading.NMEAStream
+	ref       heading.Ref
+	keep      int
+	onHeading func(time.Time, float64)
+	silence   time.Duration
+	cancel    context.CancelFunc
+	wg        sync.WaitGroup
+	failed    chan struct{}
+	failOnce  sync.Once
 
 	mu        sync.Mutex
 	at        []time.Time
@@ -83,13 +94,16 @@ func StartCompassFeed(ctx context.Context, stream *heading.NMEAStream, opts Comp
 	if !(s > 0 && s <= 3600) {
 		return nil, fmt.Errorf("compass %s: silence limit %v s must be from 0 to 3600 s", stream.Name(), opts.SilenceS)
 	}
+	if opts.KeepLast < 0 {
+		return nil, fmt.Errorf("compass %s: KeepLast %d is negative", stream.Name(), opts.KeepLast)
+	}
 	silence := time.Duration(s * float64(time.Second))
 	// The watchdog below says more than the stream's own idle error; let
 	// it speak first.
 	stream.IdleTimeout = 2 * silence
 	stream.Logger = slog.New(slog.NewTextHandler(io.Discard, nil))
 	cctx, cancel := context.WithCancel(ctx)
-	f := &CompassFeed{stream: stream, ref: opts.Ref, silence: silence, cancel: cancel, failed: make(chan struct{}), lastOK: time.Now()}
+	f := &CompassFeed{stream: stream, ref: opts.Ref, keep: opts.KeepLast, onHeading: opts.OnHeading, silence: silence, cancel: cancel, failed: make(chan struct{}), lastOK: time.Now()}
 	f.wg.Add(2)
 	go func() {
 		defer f.wg.Done()
@@ -131,6 +145,13 @@ func StartCompassFeed(ctx context.Context, stream *heading.NMEAStream, opts Comp
 // add takes one valid heading sentence from the stream.
 func (f *CompassFeed) add(lr heading.LiveReading) {
 	deg, has := lr.Heading(f.ref)
+	if f.record(lr, deg, has) && f.onHeading != nil {
+		f.onHeading(lr.Time, deg)
+	}
+}
+
+// record keeps one reading and reports whether it was a usable heading.
+func (f *CompassFeed) record(lr heading.LiveReading, deg float64, has bool) bool {
 	f.mu.Lock()
 	defer f.mu.Unlock()
 	n := len(f.at)
@@ -146,10 +167,16 @@ func (f *CompassFeed) add(lr heading.LiveReading) {
 	case n > 0 && !lr.Time.After(f.at[n-1]):
 		f.stale++
 	default:
+		if f.keep > 0 && n >= 2*f.keep {
+			f.at = append(f.at[:0], f.at[n-f.keep:]...)
+			f.deg = append(f.deg[:0], f.deg[n-f.keep:]...)
+		}
 		f.at = append(f.at, lr.Time)
 		f.deg = append(f.deg, deg)
 		f.lastOK = lr.Time
+		return true
 	}
+	return false
 }
 
 // stats is the stream's counts with this feed's reference and time-order

@@ -225,3 +225,62 @@ func TestCompassFeedFailures(t *testing.T) {
 		})
 	}
 }
+
+// TestCompassFeedKeepLastAndOnHeading: a feed told to keep the last 5
+// readings hands every HDT heading (IEC 61162-1 HDT: heading, T) to
+// OnHeading in arrival order and keeps no more than twice 5 itself.
+func TestCompassFeedKeepLastAndOnHeading(t *testing.T) {
+	const n = 40
+	addr := serveNMEA(t, func(ctx context.Context, w io.Writer) {
+		i := 0
+		every(ctx, 5*time.Millisecond, 0, func(time.Time) error {
+			if i == n {
+				<-ctx.Done()
+				return ctx.Err()
+			}
+			_, err := io.WriteString(w, nmeaLine(fmt.Sprintf("GPHDT,%.1f,T", float64(i))))
+			i++
+			return err
+		})
+	})
+	ca, err := ParseCompassAddr(addr)
+	if err != nil {
+		t.Fatal(err)
+	}
+	ctx, cancel := context.WithTimeout(context.Background(), 10*time.Second)
+	defer cancel()
+	stream, err := ca.Open(ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer stream.Close()
+	got := make(chan float64, n)
+	f, err := StartCompassFeed(ctx, stream, CompassOptions{Ref: heading.True, KeepLast: 5, OnHeading: func(_ time.Time, deg float64) { got <- deg }})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Stop()
+	for i := 0; i < n; i++ {
+		select {
+		case d := <-got:
+			if d != float64(i) {
+				t.Fatalf("heading %d: got %v", i, d)
+			}
+		case <-ctx.Done():
+			t.Fatalf("only %d headings arrived", i)
+		}
+	}
+	tr, err := f.Track(time.Now().Add(-time.Hour))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if k := len(tr.Samples); k < 5 || k > 10 {
+		t.Errorf("the feed kept %d readings, want 5–10", k)
+	}
+	if last := tr.Samples[len(tr.Samples)-1].Deg; last != n-1 {
+		t.Errorf("last kept heading %v, want %d", last, n-1)
+	}
+	if _, err := StartCompassFeed(ctx, stream, CompassOptions{KeepLast: -1}); err == nil {
+		t.Error("KeepLast −1 was accepted")
+	}
+}

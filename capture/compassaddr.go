@@ -96,6 +96,10 @@ func (a *CompassAddr) String() string {
 }
 
 // open connects to (TCP), listens on (UDP) or opens (serial) the compass.
+// Open connects to the compass (a TCP server, a UDP port to listen on, or
+// a serial device).
+func (a *CompassAddr) Open(ctx context.Context) (*heading.NMEAStream, error) { return a.open(ctx) }
+
 func (a *CompassAddr) open(ctx context.Context) (*heading.NMEAStream, error) {
 	if a.network == "serial" {
 		s, err := heading.OpenNMEASerial(a.target, a.baud)

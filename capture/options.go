@@ -119,8 +119,14 @@ func (o *Options) tuning() float64 {
 	if o.CenterHz != 0 {
 		return o.CenterHz
 	}
-	return o.FreqHz - o.RateHz/4
+	return TuningHz(o.FreqHz, o.RateHz)
 }
+
+// TuningHz is the tuning frequency chosen for a channel at freqHz when none
+// is given: a quarter of the sample rate below it, which keeps the channel
+// off the receiver's DC spike (an RTL-SDR's LO leakage sits at the centre,
+// common practice) and inside the captured band.
+func TuningHz(freqHz, rateHz float64) float64 { return freqHz - rateHz/4 }
 
 // Validate checks every field before anything is connected, so that a typo
 // does not cost a sweep. Each error is one line naming the flag.

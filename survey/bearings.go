@@ -27,6 +27,12 @@ type BearingPlan struct {
 	// WindowS is the span of one window of a long transmission (0:
 	// bearing.DefaultWindowS).
 	WindowS float64
+	// Headings, when set, is asked instead of Track for the antenna's
+	// heading at a reading's time (seconds from sample 0, mount offset
+	// and lag applied as Track.At does), false when it does not know: a
+	// heading source that grows while the scan goes on, as a live
+	// station's does.
+	Headings func(t float64) (float64, bool)
 }
 
 // BurstFit is one burst's bearing fitted from its readings.
@@ -89,9 +95,14 @@ const MaxSiteSigmaDeg = 45.0
 // receiver's clipping and key-up marks are carried over (the fit uses a
 // clipped reading as a lower bound and leaves key-up readings out).
 func Points(level []receiver.LevelSample, track *heading.Track) []bearing.Point {
+	return points(level, track.At)
+}
+
+// points is Points with the heading at a time given by at.
+func points(level []receiver.LevelSample, at func(float64) (float64, bool)) []bearing.Point {
 	var pts []bearing.Point
 	for _, l := range level {
-		h, ok := track.At(l.T)
+		h, ok := at(l.T)
 		if !ok {
 			continue
 		}
@@ -103,19 +114,24 @@ func Points(level []receiver.LevelSample, track *heading.Track) []bearing.Point 
 // bearingScan fits bearings from the pieces of a scan (Options.Bearing).
 type bearingScan struct {
 	plan  BearingPlan
+	at    func(float64) (float64, bool)
 	cur   *bearing.Windowed
 	index int  // the burst the current fit belongs to
 	fed   bool // the current burst got readings from pieces
 }
 
 func newBearingScan(p BearingPlan) (*bearingScan, error) {
-	if p.Track == nil {
-		return nil, fmt.Errorf("bearing plan: no heading track")
+	at := p.Headings
+	if at == nil {
+		if p.Track == nil {
+			return nil, fmt.Errorf("bearing plan: no heading track")
+		}
+		at = p.Track.At
 	}
 	if _, err := bearing.NewWindowed(p.Pattern, p.Fit, p.WindowS); err != nil {
 		return nil, err
 	}
-	return &bearingScan{plan: p, index: -1}, nil
+	return &bearingScan{plan: p, at: at, index: -1}, nil
 }
 
 func (s *bearingScan) start(burst int) {
@@ -132,7 +148,7 @@ func (s *bearingScan) piece(p *receiver.Piece) {
 	}
 	_, _, level := p.Between(p.OnS, p.OffS)
 	nf := p.NoiseDB
-	s.cur.Add(Points(level, s.plan.Track), &nf)
+	s.cur.Add(points(level, s.at), &nf)
 	s.fed = true
 }
 
@@ -142,7 +158,7 @@ func (s *bearingScan) finish(b *receiver.Burst) *BurstFit {
 	if b.Index != s.index || s.cur == nil || !s.fed {
 		s.start(b.Index)
 		nf := b.NoiseDB
-		s.cur.Add(Points(b.Level, s.plan.Track), &nf)
+		s.cur.Add(points(b.Level, s.at), &nf)
 	}
 	bf := fitWindowed(s.cur, b.StartS, b.EndS)
 	s.cur, s.index = nil, -1

@@ -80,11 +80,71 @@ type Result struct {
 
 // Run surveys src. progress (may be nil) gets the input samples consumed.
 func Run(ctx context.Context, src sdr.Source, opts Options, progress func(int64)) (*Result, error) {
-	info := src.Info()
 	idf, err := ident.New(opts.Ident)
 	if err != nil {
 		return nil, err
 	}
+	res := &Result{Info: src.Info(), ListedIDs: idf.Options().IDs}
+	sum, err := stream(ctx, src, opts, idf, StreamHandler{
+		Progress: progress,
+		Record:   func(r Record) error { res.Records = append(res.Records, r); return nil },
+	})
+	res.Summary = sum
+	if err != nil {
+		return res, err // the source's errors name it already
+	}
+	if len(res.Records) > 0 && !opts.NoIdent {
+		words := make([][]idmatch.Word, len(res.Records))
+		for i, r := range res.Records {
+			words[i] = r.Words
+		}
+		nm, err := idf.Name(Observations(res.Records), words)
+		if err != nil {
+			return res, err
+		}
+		res.Clusters = nm.Clusters
+		res.Heard, res.NotHeard = nm.Heard, nm.NotHeard
+		for i, a := range nm.Bursts {
+			r := &res.Records[i]
+			r.Transmitter = a.Transmitter
+			r.Ident, r.IdentConfidence, r.IdentMethod = a.Ident, a.Confidence, a.Method
+			if a.Note != "" {
+				r.Warnings = append(r.Warnings, a.Note)
+			}
+		}
+	}
+	return res, nil
+}
+
+// StreamHandler receives what Stream finds. Every field may be nil.
+type StreamHandler struct {
+	// Record is called with every record as soon as its burst has ended
+	// (two for a burst split by fingerprint), identified from its own
+	// Morse only: naming across bursts (Identifier.Name, which Run does at
+	// the end) has not happened, so Transmitter is empty.
+	Record func(Record) error
+	// Piece is called with every piece of every burst before
+	// identification and the bearing fit read it (receiver.Piece: the
+	// piece is the scanner's; copy what you keep).
+	Piece func(*receiver.Piece) error
+	// Progress gets the input samples consumed.
+	Progress func(int64)
+}
+
+// Stream surveys src and hands each record over as its burst ends,
+// keeping nothing between bursts: a stream of any length is surveyed with
+// the receiver's bounded memory. It is Run without the naming at the end;
+// Run is Stream collecting the records.
+func Stream(ctx context.Context, src sdr.Source, opts Options, h StreamHandler) (receiver.Summary, error) {
+	idf, err := ident.New(opts.Ident)
+	if err != nil {
+		return receiver.Summary{}, err
+	}
+	return stream(ctx, src, opts, idf, h)
+}
+
+func stream(ctx context.Context, src sdr.Source, opts Options, idf *ident.Identifier, sh StreamHandler) (receiver.Summary, error) {
+	info := src.Info()
 	rc := opts.Receiver
 	rc.KeepAudio = !opts.NoIdent
 	if opts.Ident.Mode == morse.ModeCW && rc.MergeGapS == 0 {
@@ -92,22 +152,30 @@ func Run(ctx context.Context, src sdr.Source, opts Options, progress func(int64)
 	}
 	sc, err := receiver.NewScanner(info, rc)
 	if err != nil {
-		return nil, fmt.Errorf("%s: %w", info.Name, err)
+		return receiver.Summary{}, fmt.Errorf("%s: %w", info.Name, err)
 	}
-	res := &Result{Info: info, ListedIDs: idf.Options().IDs}
+	emit := sh.Record
+	if emit == nil {
+		emit = func(Record) error { return nil }
+	}
 	// Identification reads each piece of a transmission as it comes (a
 	// transmission of any length is read with bounded memory) and names it
 	// when its closing burst arrives.
 	var tr *ident.Transmission
-	h := receiver.Handler{Progress: progress}
+	h := receiver.Handler{Progress: sh.Progress}
 	var fit *bearingScan
 	if opts.Bearing != nil {
 		if fit, err = newBearingScan(*opts.Bearing); err != nil {
-			return nil, err
+			return receiver.Summary{}, err
 		}
 	}
-	if !opts.NoIdent || fit != nil {
+	if !opts.NoIdent || fit != nil || sh.Piece != nil {
 		h.Piece = func(p *receiver.Piece) error {
+			if sh.Piece != nil {
+				if err := sh.Piece(p); err != nil {
+					return err
+				}
+			}
 			if fit != nil {
 				fit.piece(p)
 			}
@@ -138,42 +206,18 @@ func Run(ctx context.Context, src sdr.Source, opts Options, progress func(int64)
 			// Two transmitters on the air together, told apart by their
 			// fingerprints: one record each.
 			for i, p := range parts {
-				res.Records = append(res.Records, partRecord(r, p, i, len(parts), sc.OffsetHz()))
+				if err := emit(partRecord(r, p, i, len(parts), sc.OffsetHz())); err != nil {
+					return err
+				}
 			}
 			return nil
 		}
 		if b.DoubleCarrier {
 			r.Warnings = append(r.Warnings, fmt.Sprintf("carrier stepped by %.0f Hz inside the burst: two transmitters on the air at once?", b.CarrierSpreadHz))
 		}
-		res.Records = append(res.Records, r)
-		return nil
+		return emit(r)
 	}
-	sum, err := sc.Scan(ctx, src, h)
-	res.Summary = sum
-	if err != nil {
-		return res, err // the source's errors name it already
-	}
-	if len(res.Records) > 0 && !opts.NoIdent {
-		words := make([][]idmatch.Word, len(res.Records))
-		for i, r := range res.Records {
-			words[i] = r.Words
-		}
-		nm, err := idf.Name(Observations(res.Records), words)
-		if err != nil {
-			return res, err
-		}
-		res.Clusters = nm.Clusters
-		res.Heard, res.NotHeard = nm.Heard, nm.NotHeard
-		for i, a := range nm.Bursts {
-			r := &res.Records[i]
-			r.Transmitter = a.Transmitter
-			r.Ident, r.IdentConfidence, r.IdentMethod = a.Ident, a.Confidence, a.Method
-			if a.Note != "" {
-				r.Warnings = append(r.Warnings, a.Note)
-			}
-		}
-	}
-	return res, nil
+	return sc.Scan(ctx, src, h)
 }
 
 func known(id string) bool { return idmatch.Known(id) }

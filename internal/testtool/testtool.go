@@ -102,6 +102,18 @@ func Rotctld(t testing.TB) (addr string, proc *os.Process) {
 	}
 	port := ln.Addr().(*net.TCPAddr).Port
 	ln.Close()
+	return rotctldOn(t, bin, port)
+}
+
+// RotctldOn is Rotctld on a given loopback port: a rotctld that comes back
+// where a killed one was.
+func RotctldOn(t testing.TB, port int) (addr string, proc *os.Process) {
+	t.Helper()
+	return rotctldOn(t, Need(t, "rotctld"), port)
+}
+
+func rotctldOn(t testing.TB, bin string, port int) (addr string, proc *os.Process) {
+	t.Helper()
 	cmd := exec.Command(bin, "-m", "1", "-T", "127.0.0.1", "-t", fmt.Sprint(port))
 	if err := cmd.Start(); err != nil {
 		t.Fatal(err)

@@ -88,6 +88,16 @@ def heading_at(a, t):
     return a.start_heading + a.arc * tri
 
 
+def burst_gate(t, a):
+    """--bursts ON:OFF: the transmitter on for ON s from --first-on, then off
+    for OFF s, repeating; returns the gate (0/1) and each sample's time since
+    its burst began (the Morse restarts with every burst)."""
+    on, off = (float(v) for v in a.bursts.split(":"))
+    since = np.mod(t - a.first_on, on + off)
+    gate = ((t >= a.first_on) & (since < on)).astype(np.float32)
+    return gate, since
+
+
 def morse_key(t, wpm):
     """On/off keying of "N0CALL" repeated with a word gap, ITU-R M.1677-1
     Annex 1 §2 timing (dot = 1.2/wpm s), from t = 0.5 s."""
@@ -117,7 +127,7 @@ class Rotating(gr.top_block):
         n = int(round(a.seconds * fs))
         t = np.arange(n) / fs
         heading = heading_at(a, t)
-        if a.pattern == "loop" and a.reflection_db == 0 and a.fading == "none" and not a.keyed:
+        if a.pattern == "loop" and a.reflection_db == 0 and a.fading == "none" and not a.keyed and not a.bursts:
             # the original fixture's path (bit-identical heading log and truth)
             amp = (a.peak * loop_amplitude(a.bearing - heading, a.null_depth)).astype(np.complex64)
         else:
@@ -142,7 +152,12 @@ class Rotating(gr.top_block):
                 h = np.array(snk.data())
                 tr = np.arange(nr) * m / fs
                 e = e * (np.interp(t, tr, h.real) + 1j * np.interp(t, tr, h.imag))
-            if a.keyed:
+            if a.bursts:
+                gate, since = burst_gate(t, a)
+                e = e * gate
+                if a.keyed:
+                    e = e * morse_key(since, a.keyed)
+            elif a.keyed:
                 e = e * morse_key(t, a.keyed)
             amp = (a.peak * e).astype(np.complex64)
 
@@ -220,6 +235,8 @@ def main():
     p.add_argument("--reflection-offset", dest="reflection_offset", type=float, default=90.0, help="the reflection's bearing minus the direct one, degrees")
     p.add_argument("--reflection-phase", dest="reflection_phase", type=float, default=1.0, help="the reflection's phase, radians")
     p.add_argument("--keyed", type=float, default=0.0, help="key the carrier with Morse N0CALL at this many WPM (0: continuous)")
+    p.add_argument("--bursts", default="", help="ON:OFF seconds: the transmitter keyed on and off in bursts (with --keyed, N0CALL restarts in each)")
+    p.add_argument("--first-on", dest="first_on", type=float, default=1.0, help="with --bursts: the first burst's start, s")
     p.add_argument("--datatype", default="ci16_le", choices=["ci16_le", "cu8"], help="IQ sample format")
     p.add_argument("--full-scale", dest="full_scale", type=float, default=1.0, help="cu8: the amplitude at the 8-bit rails")
     p.add_argument("--log-hz", dest="log_hz", type=float, default=10.0, help="heading log rate")
@@ -282,12 +299,12 @@ def main():
         "model": "level = carrier power at heading h: peak^2 * (sin^2(bearing-h) + a^2)/(1+a^2), a^2 = 1/(10^(depth/10)-1); "
         "heading(t) = start + rate*t; noise complex Gaussian",
     }
-    if a.pattern != "loop" or a.sweep != "turn" or a.fading != "none" or a.reflection_db > 0 or a.keyed or a.datatype != "ci16_le" or a.log_lag or a.declination is not None:
+    if a.pattern != "loop" or a.sweep != "turn" or a.fading != "none" or a.reflection_db > 0 or a.keyed or a.bursts or a.datatype != "ci16_le" or a.log_lag or a.declination is not None:
         truth["pattern"] = {"kind": a.pattern, "null_depth_db": a.null_depth, "symmetry": 2 if a.pattern.startswith("loop") else 1,
                             "beamwidth_deg": a.beamwidth, "front_back_db": a.front_back, "body_depth_db": a.body_depth}
         truth["conditions"] = {"sweep": a.sweep, "arc_deg": a.arc, "fading": a.fading, "doppler_hz": a.doppler, "k": a.k,
                                "reflection_db": a.reflection_db, "reflection_offset_deg": a.reflection_offset,
-                               "reflection_phase_rad": a.reflection_phase, "keyed_wpm": a.keyed, "full_scale": a.full_scale,
+                               "reflection_phase_rad": a.reflection_phase, "keyed_wpm": a.keyed, "bursts": a.bursts, "first_on_s": a.first_on, "full_scale": a.full_scale,
                                "log_hz": a.log_hz, "log_lag_s": a.log_lag, "log_noise_deg": a.log_noise, "declination_deg": a.declination}
     with open(os.path.join(a.out, STEM + "_truth.json"), "w") as f:
         json.dump(truth, f, indent=1)

@@ -1,0 +1,226 @@
+//go:build unix
+
+package watch
+
+import (
+	"bufio"
+	"context"
+	"net"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"strconv"
+	"strings"
+	"sync"
+	"syscall"
+	"testing"
+	"time"
+
+	"nullseek/internal/testtool"
+	"nullseek/station"
+	"nullseek/store"
+)
+
+// TestWatchRotatorOutage: rotctld (Hamlib 4.5.4 dummy) is killed 9 s into
+// the first burst and started again on the same port at 16.5 s. The watch
+// says once that the rotator failed, logs and stores every burst, the
+// first without a bearing (a hole of 8 s in its headings leaves less than
+// the fit's 90° of sweep), and the second — which begins after the rotator
+// answered again — with one.
+func TestWatchRotatorOutage(t *testing.T) {
+	t.Parallel()
+	dir := t.TempDir()
+	meta := makeRecording(t, dir)
+	rot, proc := testtool.Rotctld(t)
+	_, portS, _ := net.SplitHostPort(rot)
+	port, _ := strconv.Atoi(portS)
+	sp := writeStation(t, dir, serve(t, meta), rot)
+
+	st, err := station.Load(sp)
+	if err != nil {
+		t.Fatal(err)
+	}
+	db, err := store.Open(st.Database, store.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer db.Close()
+	var log syncBuffer
+	ctx, cancel := context.WithTimeout(context.Background(), 3*time.Minute)
+	defer cancel()
+	var sum *Summary
+	var runErr error
+	var wg sync.WaitGroup
+	wg.Add(1)
+	t0 := time.Now()
+	go func() {
+		defer wg.Done()
+		sum, runErr = Run(ctx, Options{Station: st, DB: db, Log: &log, DurationS: recSeconds, RetryPeriod: 500 * time.Millisecond})
+	}()
+	time.Sleep(9*time.Second - time.Since(t0))
+	proc.Kill()
+	time.Sleep(16500*time.Millisecond - time.Since(t0))
+	testtool.RotctldOn(t, port)
+	wg.Wait()
+	out := log.String()
+	t.Logf("log:\n%s", out)
+	if runErr != nil {
+		t.Fatal(runErr)
+	}
+	if n := strings.Count(out, "rotator at "+rot+" failed"); n != 1 {
+		t.Errorf("the rotator's failure was reported %d times, want once", n)
+	}
+	if !strings.Contains(out, "answers again") {
+		t.Error("the rotator's return was not reported")
+	}
+	bursts, err := db.BurstsOfCapture(sum.Capture)
+	if err != nil {
+		t.Fatal(err)
+	}
+	bs, err := db.Bearings(store.BearingQuery{Station: st.Name})
+	if err != nil {
+		t.Fatal(err)
+	}
+	has := map[int64]bool{}
+	for _, b := range bs {
+		has[b.BurstStartSample] = true
+	}
+	if len(bursts) < 3 || sum.Bursts != len(bursts) {
+		t.Fatalf("%d bursts stored, %d logged; want every burst of the recording (at least 3)", len(bursts), sum.Bursts)
+	}
+	if has[bursts[0].StartSample] {
+		t.Errorf("the burst the rotator vanished in (%.1f–%.1f s) has a bearing", bursts[0].StartS, bursts[0].EndS)
+	}
+	if !has[bursts[1].StartSample] {
+		t.Errorf("the burst after the rotator came back (%.1f–%.1f s) has no bearing", bursts[1].StartS, bursts[1].EndS)
+	}
+	if !strings.Contains(out, "no bearing") {
+		t.Error("no burst line says it has no bearing")
+	}
+}
+
+// buildNullseek builds the command into dir.
+func buildNullseek(t *testing.T, dir string) string {
+	t.Helper()
+	bin := filepath.Join(dir, "nullseek")
+	out, err := exec.Command("go", "build", "-o", bin, "nullseek/cmd/nullseek").CombinedOutput()
+	if err != nil {
+		t.Fatalf("go build: %v\n%s", err, out)
+	}
+	return bin
+}
+
+// TestWatchKill9: a `nullseek watch` process killed with SIGKILL (no
+// clean-up at all) 1.5 s after it printed its first burst leaves a
+// database that sqlite3 finds sound and that holds that burst and the
+// headings up to the last commit; a second watch on the same database
+// opens it, adds its own capture to the same station and ends cleanly.
+func TestWatchKill9(t *testing.T) {
+	t.Parallel()
+	dir := t.TempDir()
+	meta := makeRecording(t, dir)
+	bin := buildNullseek(t, dir)
+	rot, _ := testtool.Rotctld(t)
+	sp := writeStation(t, dir, serve(t, meta), rot)
+	dbPath := filepath.Join(dir, "watch.db")
+
+	cmd := exec.Command(bin, "watch", "--station-file", sp)
+	stdout, err := cmd.StdoutPipe()
+	if err != nil {
+		t.Fatal(err)
+	}
+	cmd.Stderr = nil
+	if err := cmd.Start(); err != nil {
+		t.Fatal(err)
+	}
+	lines := make(chan string, 100)
+	go func() {
+		sc := bufio.NewScanner(stdout)
+		for sc.Scan() {
+			lines <- sc.Text()
+		}
+		close(lines)
+	}()
+	deadline := time.After(60 * time.Second)
+	var seen []string
+wait:
+	for {
+		select {
+		case l, ok := <-lines:
+			if !ok {
+				t.Fatalf("watch ended before a burst:\n%s", strings.Join(seen, "\n"))
+			}
+			seen = append(seen, l)
+			if strings.HasPrefix(l, "burst ") {
+				break wait
+			}
+		case <-deadline:
+			cmd.Process.Kill()
+			t.Fatalf("no burst line in 60 s:\n%s", strings.Join(seen, "\n"))
+		}
+	}
+	time.Sleep(1500 * time.Millisecond) // the Writer commits at least every second
+	if err := cmd.Process.Signal(os.Kill); err != nil {
+		t.Fatal(err)
+	}
+	cmd.Wait()
+	integrityCheck(t, dbPath)
+	db, err := store.Open(dbPath, store.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	counts, err := db.Counts()
+	db.Close()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if counts["bursts"] < 1 || counts["headings"] < 100 || counts["captures"] != 1 || counts["stations"] != 1 {
+		t.Fatalf("after kill -9 the database holds %v; want the logged burst, ~10 headings a second, one capture and station", counts)
+	}
+
+	// A new run continues the database (a fresh replay of the recording).
+	sp2 := writeStation(t, dir, serve(t, meta), rot)
+	out, err := exec.Command(bin, "watch", "--station-file", sp2, "--db", dbPath, "--duration", "3s").CombinedOutput()
+	if err != nil {
+		t.Fatalf("second watch: %v\n%s", err, out)
+	}
+	integrityCheck(t, dbPath)
+	db, err = store.Open(dbPath, store.Options{ReadOnly: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer db.Close()
+	after, err := db.Counts()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if after["captures"] != 2 || after["stations"] != 1 || after["headings"] <= counts["headings"] || after["bursts"] < counts["bursts"] {
+		t.Errorf("the second run left %v (before: %v); want a second capture of the same station, more headings, the bursts kept", after, counts)
+	}
+
+	// SIGTERM (as a service manager stops it) ends a third run cleanly:
+	// exit status 0, its closing line, everything committed.
+	sp3 := writeStation(t, dir, serve(t, meta), rot)
+	third := exec.Command(bin, "watch", "--station-file", sp3, "--db", dbPath)
+	var out3 syncBuffer
+	third.Stdout, third.Stderr = &out3, &out3
+	if err := third.Start(); err != nil {
+		t.Fatal(err)
+	}
+	time.Sleep(3 * time.Second)
+	third.Process.Signal(syscall.SIGTERM)
+	if err := third.Wait(); err != nil {
+		t.Fatalf("watch after SIGTERM: %v\n%s", err, out3.String())
+	}
+	if !strings.Contains(out3.String(), "watch ended after") {
+		t.Errorf("no closing line after SIGTERM:\n%s", out3.String())
+	}
+	integrityCheck(t, dbPath)
+	final, err := db.Counts()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if final["captures"] != 3 || final["headings"] <= after["headings"] {
+		t.Errorf("after the SIGTERM run the database holds %v (before: %v)", final, after)
+	}
+}

@@ -1,0 +1,74 @@
+package watch
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"strings"
+	"time"
+)
+
+// showStatus prints the status line every StatusPeriod until ctx ends.
+func (w *watcher) showStatus(ctx context.Context) {
+	period := w.o.StatusPeriod
+	if period <= 0 {
+		period = DefaultStatusPeriod
+	}
+	tick := time.NewTicker(period)
+	defer tick.Stop()
+	lastWall, lastN := w.now(), w.samples.Load()
+	lastCPU, cpuOK := processCPU()
+	for {
+		select {
+		case <-ctx.Done():
+			return
+		case <-tick.C:
+		}
+		now, n := w.now(), w.samples.Load()
+		cpu, ok := processCPU()
+		fmt.Fprintln(w.o.Status, w.statusLine(now, now.Sub(lastWall), n-lastN, cpu-lastCPU, ok && cpuOK))
+		lastWall, lastN, lastCPU, cpuOK = now, n, cpu, ok
+	}
+}
+
+// statusLine is one status line: the sample rate received over the last
+// period, how far the stream is behind the wall clock (samples late or
+// dropped on the way: a live stream that falls behind loses samples at the
+// server), the process's CPU time over wall time (1 = one core busy), the
+// channel's level in the current burst, the heading and the rows stored.
+func (w *watcher) statusLine(now time.Time, wall time.Duration, samples int64, cpu time.Duration, cpuOK bool) string {
+	var b strings.Builder
+	fmt.Fprintf(&b, "status %s", now.UTC().Format(time.TimeOnly))
+	if wall > 0 {
+		fmt.Fprintf(&b, "  %.3f MS/s", float64(samples)/wall.Seconds()/1e6)
+	}
+	n := w.samples.Load()
+	behind := now.Sub(w.info.Start).Seconds() - float64(n)/w.info.SampleRate
+	fmt.Fprintf(&b, "  behind %.1f s (%d samples late or dropped)", max(behind, 0), int64(max(behind, 0)*w.info.SampleRate))
+	if cpuOK && wall > 0 {
+		fmt.Fprintf(&b, "  CPU %.2f", cpu.Seconds()/wall.Seconds())
+	}
+	fmt.Fprintf(&b, "  input %.1f dBFS", math.Float64frombits(w.inputDB.Load()))
+	if ch := math.Float64frombits(w.channelDB.Load()); !math.IsNaN(ch) {
+		fmt.Fprintf(&b, "  channel %.1f dBFS (in a burst)", ch)
+	} else {
+		b.WriteString("  channel quiet")
+	}
+	deg, have := w.hs.latest()
+	switch {
+	case !w.headingOK.Load():
+		fmt.Fprintf(&b, "  %s: no answer", w.headingSourceShort())
+	case have:
+		fmt.Fprintf(&b, "  %s %.1f°", w.headingSourceShort(), deg)
+	}
+	st := w.wr.Stats()
+	fmt.Fprintf(&b, "  bursts %d, bearings %d, stored %d bursts", w.bursts.Load(), w.bearings.Load(), st.Bursts)
+	return b.String()
+}
+
+func (w *watcher) headingSourceShort() string {
+	if w.st.Heading.Source == "rotator" {
+		return "rotator"
+	}
+	return "compass"
+}
