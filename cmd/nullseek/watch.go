@@ -15,8 +15,6 @@ import (
 	"nullseek/watch"
 )
 
-func init() { rootCmd.AddCommand(newWatchCmd()) }
-
 // watchOptions are the watch command's flags.
 type watchOptions struct {
 	stationFile string

@@ -69,7 +69,8 @@ var layers = map[string]place{
 	"survey": {pipelines, 0},
 	"locate": {pipelines, 0},
 
-	"demo": {apps, 0},
+	"demo":  {apps, 0},
+	"watch": {apps, 0},
 
 	"cmd/nullseek": {command, 0},
 }
