@@ -87,7 +87,6 @@ func span(a, b time.Time) string {
 	return utc(a) + " – " + utc(b)
 }
 
-
 type imageView struct {
 	Caption string
 	Src     template.URL
@@ -110,12 +109,12 @@ type fixView struct {
 
 type pageView struct {
 	Report
-	Title        string
-	Style        template.CSS
-	BearingRows  []bearingView
-	FixRows      []fixView
-	MapImages    []imageView
-	PolarImages  []imageView
+	Title       string
+	Style       template.CSS
+	BearingRows []bearingView
+	FixRows     []fixView
+	MapImages   []imageView
+	PolarImages []imageView
 }
 
 // MaxCells is how many of a fix's most probable cells the page lists.
