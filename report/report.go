@@ -70,7 +70,9 @@ type Bearing struct {
 	// BurstsUsed is the number of bursts the bearing was fitted from (0:
 	// not recorded).
 	BurstsUsed int
-	// First and Last bound the bursts used (UTC; zero: not recorded).
+	// First and Last are the time the bearing covers (UTC): the first and
+	// last burst used, or First alone for a bearing that carries one time
+	// (a bearings file's row); zero: not recorded.
 	First, Last time.Time
 }
 

@@ -169,7 +169,7 @@ func Write(w io.Writer, r Report) error {
 func images(in []Image) ([]imageView, error) {
 	var out []imageView
 	for i, im := range in {
-		mime, err := sniff(im.Data)
+		mime, err := ImageType(im.Data)
 		if err != nil {
 			name := im.Caption
 			if name == "" {
@@ -189,10 +189,10 @@ func images(in []Image) ([]imageView, error) {
 // pngSignature opens every PNG file (ISO/IEC 15948:2004 clause 5.2).
 var pngSignature = []byte{0x89, 'P', 'N', 'G', '\r', '\n', 0x1a, '\n'}
 
-// sniff tells the image's media type: PNG by its signature, SVG by an
-// <svg element near the start (after any XML declaration, comments or
-// doctype).
-func sniff(b []byte) (string, error) {
+// ImageType tells an image's media type, "image/png" or "image/svg+xml":
+// PNG by its signature, SVG by an <svg element near the start (after any
+// XML declaration, comments or doctype). Anything else is an error.
+func ImageType(b []byte) (string, error) {
 	if bytes.HasPrefix(b, pngSignature) {
 		return "image/png", nil
 	}
