@@ -38,6 +38,14 @@ var page = template.Must(template.New("page").Funcs(template.FuncMap{
 	"utc":   utc,
 	"span":  span,
 	"join":  strings.Join,
+	"hasNext": func(rows []ScheduleRow) bool {
+		for _, r := range rows {
+			if !r.NextOn.IsZero() || finite(r.NextOnS) {
+				return true
+			}
+		}
+		return false
+	},
 	"alt": func(p *float64) string {
 		if p == nil {
 			return "—"

@@ -71,7 +71,7 @@ func runDemo(ctx context.Context, out, progress io.Writer, outDir string, writeI
 	// Every file the demo makes is checked before the work starts and
 	// staged until the end: a failure leaves the folder as it was (and
 	// removes it when the demo made it).
-	names := []string{"bearings.csv", "fixes.geojson", "map.png"}
+	names := []string{"bearings.csv", "fixes.geojson", "map.png", "report.html"}
 	for _, st := range sc.Stations {
 		names = append(names, "headings-"+st.Name+".csv")
 		for _, id := range ids {
@@ -107,6 +107,7 @@ func runDemo(ctx context.Context, out, progress io.Writer, outDir string, writeI
 
 	var lops []geo.LOP
 	var first *survey.Result
+	var runs []demoRun // for the report page
 	for si, st := range sc.Stations {
 		src, err := sim.NewSource(sc, st)
 		if err != nil {
@@ -134,6 +135,7 @@ func runDemo(ctx context.Context, out, progress io.Writer, outDir string, writeI
 			return err
 		}
 		bbs, txs := survey.Bearings(res, track, st.Antenna, bearing.FitOptions{}, survey.DefaultSiteSigmaDeg)
+		runs = append(runs, demoRun{st, res, bbs, txs})
 		if si == 0 {
 			first = res
 			fmt.Fprintf(w, "Station %s: bursts found\n", st.Name)
@@ -184,6 +186,7 @@ func runDemo(ctx context.Context, out, progress io.Writer, outDir string, writeI
 	}
 	plan, err := schedule.Build(obs, labels, schedule.Options{NominalPeriodS: sc.Beacons[0].PeriodS})
 	if err != nil {
+		plan = nil
 		fmt.Fprintf(w, "Slot schedule: %v\n\n", err)
 	} else {
 		fmt.Fprintf(w, "Slot schedule (from %s):\n", sc.Stations[0].Name)
@@ -238,7 +241,10 @@ func runDemo(ctx context.Context, out, progress io.Writer, outDir string, writeI
 	if len(res.OutputErrors) > 0 && len(res.Fixes) > 0 {
 		return res.OutputErrors[0]
 	}
-	fmt.Fprintf(w, "\nFiles in %s: bearings.csv, map.png, fixes.geojson, polar-*.png, headings-*.csv\nTry: nullseek fix %s --grid %q\n",
+	if err := stageDemoReport(&outs, outDir, sc, runs, plan, res); err != nil {
+		return err
+	}
+	fmt.Fprintf(w, "\nFiles in %s: report.html, bearings.csv, map.png, fixes.geojson, polar-*.png, headings-*.csv\nTry: nullseek fix %s --grid %q\n",
 		outDir, filepath.Join(outDir, "bearings.csv"), grid.String())
 	if err := outs.Commit(); err != nil {
 		return err

@@ -1,0 +1,480 @@
+package main
+
+import (
+	"bytes"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"path/filepath"
+	"sort"
+	"strings"
+	"time"
+
+	"github.com/spf13/cobra"
+
+	"nullseek/geo"
+	"nullseek/heading"
+	"nullseek/ident/schedule"
+	"nullseek/internal/angle"
+	"nullseek/internal/atomicfile"
+	"nullseek/locate"
+	"nullseek/report"
+	"nullseek/sdr"
+	"nullseek/sim"
+	"nullseek/survey"
+)
+
+func init() { rootCmd.AddCommand(newReportCmd()) }
+
+// reportOptions are the report command's inputs.
+type reportOptions struct {
+	out      string
+	title    string
+	fixes    string   // the lines `fix --json` printed
+	grid     string   // event grid when the fixes are computed here
+	slots    string   // the object `slots --json` printed
+	maps     []string // map pictures
+	polars   []string // glob patterns of polar plots
+	measured []string // per station: station=NAME,recording=…,antenna=…,heading=…
+}
+
+// maxReportBearings bounds the bearings the page lists one per row (a
+// fixed station logging for hours makes many); the rest are counted.
+const maxReportBearings = 1000
+
+func newReportCmd() *cobra.Command {
+	var o reportOptions
+	cmd := &cobra.Command{
+		Use:   "report --out PAGE.html BEARINGS.csv|BEARINGS.json [MORE...]",
+		Short: "Write one self-contained HTML page of a session: fixes, map, bearings, stations, slot schedule, polar plots",
+		Long: `report gathers a session's results into one HTML page that needs nothing
+else to be read or printed (pictures embedded, no script). The bearings files
+(the CSV or JSON that fix reads) give the stations and bearings. The fixes are
+the lines fix --json printed (--fixes), or are worked out here from the bearings
+as fix does (--grid as fix's). The slot schedule is the object slots --json
+printed (--slots). --measured says what a station's bearings were measured from;
+what no input says is shown as not recorded.`,
+		Args: cobra.MinimumNArgs(1),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			return runReport(cmd.OutOrStdout(), args, o)
+		},
+	}
+	f := cmd.Flags()
+	f.StringVar(&o.out, "out", "", "write the page to `FILE` (required)")
+	f.StringVar(&o.title, "title", "", "title of the page (default: "+report.DefaultTitle+")")
+	f.StringVar(&o.fixes, "fixes", "", "the fixes: a `FILE` of the lines nullseek fix --json printed (default: fix the bearings here)")
+	f.StringVar(&o.grid, "grid", "", "event grid for fixes worked out here, as fix --grid (not with --fixes)")
+	f.StringVar(&o.slots, "slots", "", "the slot schedule: a `FILE` holding what nullseek slots --json printed")
+	f.StringArrayVar(&o.maps, "map", nil, "a map picture `FILE` (.png or .svg) to show; repeat for more")
+	f.StringArrayVar(&o.polars, "polar", nil, "polar plot files to show, a `GLOB` such as 'polar-*.png'; repeat for more")
+	f.StringArrayVar(&o.measured, "measured", nil,
+		"what a station's bearings were measured from: `station=NAME,recording=FILE,antenna=TEXT,heading=TEXT` (any of the last three; repeat per station)")
+	return cmd
+}
+
+// measuredKeys are the keys of --measured after station=.
+var measuredKeys = []string{"recording", "antenna", "heading"}
+
+// parseMeasured reads one --measured value.
+func parseMeasured(s string) (report.Station, error) {
+	var st report.Station
+	seen := map[string]bool{}
+	for _, part := range strings.Split(s, ",") {
+		k, v, ok := strings.Cut(part, "=")
+		k, v = strings.TrimSpace(k), strings.TrimSpace(v)
+		if !ok || k == "" {
+			return st, fmt.Errorf("--measured %q: %q is not KEY=VALUE", s, part)
+		}
+		if seen[k] {
+			return st, fmt.Errorf("--measured %q: %s given twice", s, k)
+		}
+		seen[k] = true
+		switch k {
+		case "station":
+			st.Name = v
+		case "recording":
+			st.Recording = v
+		case "antenna":
+			st.Antenna = v
+		case "heading":
+			st.HeadingSource = v
+		default:
+			return st, fmt.Errorf("--measured %q: unknown key %q (station and %s)", s, k, strings.Join(measuredKeys, ", "))
+		}
+	}
+	if st.Name == "" {
+		return st, fmt.Errorf("--measured %q: no station=NAME", s)
+	}
+	return st, nil
+}
+
+// readImage reads a picture file for the page, checking that it is PNG or SVG.
+func readImage(flag, path string) (report.Image, error) {
+	b, err := os.ReadFile(path)
+	if err != nil {
+		return report.Image{}, fmt.Errorf("%s: %w", flag, err)
+	}
+	if _, err := report.ImageType(b); err != nil {
+		return report.Image{}, fmt.Errorf("%s %s: %w", flag, path, err)
+	}
+	return report.Image{Caption: filepath.Base(path), Data: b}, nil
+}
+
+func runReport(out io.Writer, inputs []string, o reportOptions) error {
+	if o.out == "" {
+		return errors.New("--out: give the page's file name")
+	}
+	if err := atomicfile.Check(o.out); err != nil {
+		return fmt.Errorf("--out: %w", err)
+	}
+	if o.fixes != "" && o.grid != "" {
+		return errors.New("--grid is for fixes worked out here: not with --fixes")
+	}
+	var measured []report.Station
+	for _, m := range o.measured {
+		st, err := parseMeasured(m)
+		if err != nil {
+			return err
+		}
+		measured = append(measured, st)
+	}
+	var r report.Report
+	r.Title, r.Generated = o.title, time.Now().UTC()
+	for _, p := range o.maps {
+		im, err := readImage("--map", p)
+		if err != nil {
+			return err
+		}
+		r.Maps = append(r.Maps, im)
+	}
+	for _, g := range o.polars {
+		paths, err := filepath.Glob(g)
+		if err != nil {
+			return fmt.Errorf("--polar %q: %w", g, err)
+		}
+		if len(paths) == 0 {
+			return fmt.Errorf("--polar %q: no file matches", g)
+		}
+		for _, p := range paths {
+			im, err := readImage("--polar", p)
+			if err != nil {
+				return err
+			}
+			r.Polars = append(r.Polars, im)
+		}
+	}
+	if o.slots != "" {
+		plan, err := readSlots(o.slots)
+		if err != nil {
+			return err
+		}
+		r.Schedule = report.ScheduleFromPlan(plan, filepath.Base(o.slots))
+	}
+	if err := reportBearings(&r, inputs, measured); err != nil {
+		return err
+	}
+	if o.fixes != "" {
+		if err := readFixLines(&r, o.fixes); err != nil {
+			return err
+		}
+	} else if err := fixForReport(&r, inputs, o.grid); err != nil {
+		return err
+	}
+	r.Notes = append(r.Notes, "Made by nullseek report from "+strings.Join(inputs, ", ")+".")
+	if err := atomicfile.WriteFunc(o.out, func(w io.Writer) error { return report.Write(w, r) }); err != nil {
+		return err
+	}
+	_, err := fmt.Fprintf(out, "wrote %s: %d stations, %d transmitters, %d bearings, %d fixes, %d pictures\n",
+		o.out, len(r.Stations), len(r.Transmitters), len(r.Bearings), len(r.Fixes), len(r.Maps)+len(r.Polars))
+	return err
+}
+
+func readSlots(path string) (*schedule.Plan, error) {
+	fh, err := os.Open(path)
+	if err != nil {
+		return nil, fmt.Errorf("--slots: %w", err)
+	}
+	defer fh.Close()
+	plan, err := schedule.ReadPlanJSON(fh)
+	if err != nil {
+		return nil, fmt.Errorf("--slots %s: %w", path, err)
+	}
+	return plan, nil
+}
+
+// reportBearings reads the bearings files into stations, transmitters and
+// bearing rows, and joins --measured to the stations.
+func reportBearings(r *report.Report, inputs []string, measured []report.Station) error {
+	stations := map[string]int{}
+	txs := map[string]int{}
+	listed := 0
+	for _, in := range inputs {
+		if in == "-" {
+			return errors.New("report reads its bearings files twice (rows, then the fix): give a file, not -")
+		}
+		err := func() error {
+			fh, err := os.Open(in)
+			if err != nil {
+				return fmt.Errorf("read bearings: %w", err)
+			}
+			defer fh.Close()
+			br, err := geo.NewBearingReader(fh)
+			if err != nil {
+				return fmt.Errorf("%s: %w", in, err)
+			}
+			for {
+				rec, err := br.Next()
+				if err == io.EOF {
+					break
+				}
+				if err != nil {
+					return fmt.Errorf("%s: %w", in, err)
+				}
+				if _, ok := stations[rec.Station]; !ok {
+					stations[rec.Station] = len(r.Stations)
+					r.Stations = append(r.Stations, report.Station{Name: rec.Station, Lat: rec.Lat, Lon: rec.Lon})
+				}
+				if _, ok := txs[rec.Ident]; !ok {
+					txs[rec.Ident] = len(r.Transmitters)
+					r.Transmitters = append(r.Transmitters, report.Transmitter{Ident: rec.Ident})
+				}
+				if listed == maxReportBearings {
+					continue
+				}
+				listed++
+				b := report.Bearing{Ident: rec.Ident, Station: rec.Station, BearingDeg: rec.BearingDeg,
+					SigmaDeg: rec.SigmaDeg, Reference: "true", First: rec.Time}
+				if rec.Magnetic {
+					b.Reference = "magnetic"
+					if rec.HasDeclination {
+						b.Reference = fmt.Sprintf("magnetic, declination %+.2f° (from the file)", rec.DeclinationDeg)
+					}
+				}
+				if rec.Ambiguous {
+					alt := angle.Wrap360(rec.BearingDeg + 180)
+					b.AltBearingDeg = &alt
+				}
+				r.Bearings = append(r.Bearings, b)
+			}
+			if br.Count() == 0 {
+				return fmt.Errorf("%s: no bearings", in)
+			}
+			return nil
+		}()
+		if err != nil {
+			return err
+		}
+	}
+	if listed == maxReportBearings {
+		r.Notes = append(r.Notes, fmt.Sprintf("Only the first %d bearings are listed; the fixes use them all.", maxReportBearings))
+	}
+	for _, m := range measured {
+		i, ok := stations[m.Name]
+		if !ok {
+			return fmt.Errorf("--measured: station %q has no bearing in the inputs", m.Name)
+		}
+		s := &r.Stations[i]
+		s.Recording, s.Antenna, s.HeadingSource = m.Recording, m.Antenna, m.HeadingSource
+	}
+	return nil
+}
+
+// fixLine is the part of a `fix --json` line that tells its kind.
+type fixLine struct {
+	Type  string `json:"type"`
+	Ident string `json:"ident"`
+	Error string `json:"error"`
+}
+
+// readFixLines reads the lines `fix --json` printed (geo.FixReport lines
+// and refusal lines).
+func readFixLines(r *report.Report, path string) error {
+	fh, err := os.Open(path)
+	if err != nil {
+		return fmt.Errorf("--fixes: %w", err)
+	}
+	defer fh.Close()
+	dec := json.NewDecoder(fh)
+	for n := 1; ; n++ {
+		var raw json.RawMessage
+		if err := dec.Decode(&raw); err == io.EOF {
+			if n == 1 {
+				return fmt.Errorf("--fixes %s: no fix lines", path)
+			}
+			return nil
+		} else if err != nil {
+			return fmt.Errorf("--fixes %s: entry %d: %w", path, n, err)
+		}
+		var l fixLine
+		if err := json.Unmarshal(raw, &l); err != nil {
+			return fmt.Errorf("--fixes %s: entry %d: %w", path, n, err)
+		}
+		switch l.Type {
+		case "fix":
+			var fr geo.FixReport
+			if err := json.Unmarshal(raw, &fr); err != nil {
+				return fmt.Errorf("--fixes %s: entry %d: %w", path, n, err)
+			}
+			r.Fixes = append(r.Fixes, report.FixFromReport(fr))
+		case "refusal":
+			r.Refusals = append(r.Refusals, report.Refusal{Ident: l.Ident, Reason: l.Error})
+		default:
+			return fmt.Errorf("--fixes %s: entry %d: type %q is neither fix nor refusal (not the output of fix --json?)", path, n, l.Type)
+		}
+	}
+}
+
+// fixForReport fixes the bearings as `fix` does with its defaults (and
+// --grid), and notes the declinations used for magnetic bearings.
+func fixForReport(r *report.Report, inputs []string, gridSpec string) error {
+	grid, err := loadGrid(gridSpec, "")
+	if err != nil {
+		return err
+	}
+	var srcs []locate.Source
+	for _, in := range inputs {
+		fh, err := os.Open(in)
+		if err != nil {
+			return fmt.Errorf("read bearings: %w", err)
+		}
+		defer fh.Close()
+		srcs = append(srcs, locate.Source{Name: in, R: fh})
+	}
+	res, err := locate.Run(srcs, locate.Options{Grid: grid})
+	if err != nil {
+		return err
+	}
+	addFixes(r, res)
+	for _, d := range res.Declinations {
+		for i := range r.Bearings {
+			if b := &r.Bearings[i]; b.Station == d.Station && b.Reference == "magnetic" {
+				b.Reference = fmt.Sprintf("magnetic, declination %+.2f° (%s)", d.Deg, d.Source)
+			}
+		}
+	}
+	return nil
+}
+
+// addFixes puts a fix run's fixes, refusals and notes on the page.
+func addFixes(r *report.Report, res *locate.Result) {
+	for _, f := range res.Fixes {
+		r.Fixes = append(r.Fixes, report.FixFromReport(f.Report()))
+	}
+	for _, x := range res.Refused {
+		r.Refusals = append(r.Refusals, report.Refusal{Ident: x.Ident, Reason: x.Err.Error()})
+	}
+	var notes bytes.Buffer
+	if err := res.WriteNotes(&notes, ""); err == nil {
+		for _, line := range strings.Split(strings.TrimSpace(notes.String()), "\n") {
+			if line = strings.TrimPrefix(line, "warning: "); line != "" {
+				r.Warnings = append(r.Warnings, line)
+			}
+		}
+	}
+}
+
+// demoRun is what the demo keeps of one station for its report.
+type demoRun struct {
+	st  sim.Station
+	res *survey.Result
+	bbs []survey.BurstBearing
+	txs []survey.TxBearing
+}
+
+// northName names the north a heading reference gives bearings from.
+func northName(ref heading.Ref) string {
+	if ref == heading.Magnetic {
+		return "magnetic"
+	}
+	return "true"
+}
+
+// stageDemoReport stages the demo's report.html in outs, embedding the
+// map and polar plots already staged there.
+func stageDemoReport(outs *atomicfile.Set, outDir string, sc sim.Scenario, runs []demoRun, plan *schedule.Plan, fixes *locate.Result) error {
+	r := report.Report{
+		Title:     "nullseek demo: " + sc.Place,
+		Generated: time.Now().UTC(),
+		Notes: []string{fmt.Sprintf("Scenario %q at %s (invented; call N0CALL): %d beacons on %.4f MHz, %d stations, %.0f s each.",
+			sc.Name, sc.Place, len(sc.Beacons), sc.ChannelHz/1e6, len(sc.Stations), sc.DurationS),
+			fmt.Sprintf("Bearing sigmas include a %.0f° site error (multipath a single site cannot see).", survey.DefaultSiteSigmaDeg)},
+	}
+	heard := map[string]int{}
+	withBearing := map[string]int{}
+	for _, run := range runs {
+		st, info := run.st, run.res.Info
+		recording := "simulated, not kept (demo --write-iq keeps it)"
+		if _, err := outs.ReadStaged(filepath.Join(outDir, "station-"+st.Name+".sigmf-data")); err == nil {
+			recording = "station-" + st.Name + ".sigmf-data (simulated)"
+		}
+		s := report.Station{Name: st.Name, Lat: st.Lat, Lon: st.Lon, Recording: recording,
+			Antenna:       st.AntennaName,
+			HeadingSource: fmt.Sprintf("steady turn %+.0f°/s (simulated), logged to headings-%s.csv", st.Turn.RateDegPerS, st.Name),
+			Start:         info.Start, End: recordingEnd(info), Bursts: len(run.res.Records)}
+		r.Stations = append(r.Stations, s)
+		ends := map[int]float64{}
+		for _, rec := range run.res.Records {
+			heard[rec.Ident]++
+			ends[rec.Index] = rec.EndS
+		}
+		for _, t := range run.txs {
+			if t.Err != nil {
+				continue
+			}
+			withBearing[t.Ident]++
+			c := t.Combined
+			b := report.Bearing{Ident: t.Ident, Station: st.Name, BearingDeg: c.BearingDeg, SigmaDeg: t.SigmaDeg,
+				AltBearingDeg: c.AltBearingDeg, Reference: northName(heading.True), BurstsUsed: c.BurstsUsed}
+			first, last := math.Inf(1), math.Inf(-1)
+			for _, i := range t.Bursts {
+				bb := run.bbs[i]
+				first, last = math.Min(first, bb.StartS), math.Max(last, ends[bb.Index])
+			}
+			if !info.Start.IsZero() && first <= last {
+				b.First, b.Last = info.Start.Add(seconds(first)), info.Start.Add(seconds(last))
+			}
+			r.Bearings = append(r.Bearings, b)
+			path := survey.PolarPlotPath(filepath.Join(outDir, "polar-"+st.Name+".png"), t.Ident)
+			data, err := outs.ReadStaged(path)
+			if err != nil {
+				return err
+			}
+			r.Polars = append(r.Polars, report.Image{Caption: fmt.Sprintf("%s at %s (%s antenna)", t.Ident, st.Name, st.AntennaName), Data: data})
+		}
+	}
+	for _, b := range sc.Beacons {
+		r.Transmitters = append(r.Transmitters, report.Transmitter{Ident: b.ID, Bursts: heard[b.ID],
+			Note: fmt.Sprintf("bearing at %d of %d stations", withBearing[b.ID], len(runs))})
+	}
+	if plan != nil {
+		r.Schedule = report.ScheduleFromPlan(plan, "station "+runs[0].st.Name)
+	}
+	addFixes(&r, fixes)
+	written := append([]string(nil), fixes.Written...)
+	sort.Strings(written)
+	for _, p := range written {
+		if ext := strings.ToLower(filepath.Ext(p)); ext != ".png" && ext != ".svg" {
+			continue
+		}
+		data, err := outs.ReadStaged(p)
+		if err != nil {
+			return err
+		}
+		r.Maps = append(r.Maps, report.Image{Caption: "Map: stations, lines of position, fixes with their ellipses, event grid (" + filepath.Base(p) + ")", Data: data})
+	}
+	return outs.WriteFunc(filepath.Join(outDir, "report.html"), func(w io.Writer) error { return report.Write(w, r) })
+}
+
+func seconds(s float64) time.Duration { return time.Duration(math.Round(s * float64(time.Second))) }
+
+// recordingEnd is the time of the recording's last sample (zero when the
+// start or the length is unknown).
+func recordingEnd(info sdr.Info) time.Time {
+	if info.Start.IsZero() || info.Samples < 0 || !(info.SampleRate > 0) {
+		return time.Time{}
+	}
+	return info.Start.Add(seconds(float64(info.Samples) / info.SampleRate))
+}
