@@ -268,6 +268,18 @@ func reportBearings(r *report.Report, inputs []string, measured []report.Station
 			return err
 		}
 	}
+	heardAt := map[string]map[string]bool{}
+	for _, b := range r.Bearings {
+		if heardAt[b.Ident] == nil {
+			heardAt[b.Ident] = map[string]bool{}
+		}
+		heardAt[b.Ident][b.Station] = true
+	}
+	for i := range r.Transmitters {
+		if n := len(heardAt[r.Transmitters[i].Ident]); n > 0 {
+			r.Transmitters[i].Note = fmt.Sprintf("bearings from %d station(s)", n)
+		}
+	}
 	if listed == maxReportBearings {
 		r.Notes = append(r.Notes, fmt.Sprintf("Only the first %d bearings are listed; the fixes use them all.", maxReportBearings))
 	}
