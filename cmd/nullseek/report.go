@@ -38,7 +38,14 @@ type reportOptions struct {
 	slots    string   // the object `slots --json` printed
 	maps     []string // map pictures
 	polars   []string // glob patterns of polar plots
-	measured []string // per station: station=NAME,recording=…,antenna=…,heading=…
+	measured []string // per station: station=NAME,recording=…,antenna=…,heading=…,bearing-json=…
+}
+
+// measuredStation is one --measured value: what the page shows of the
+// station, and the station's `bearing --json` output, if given.
+type measuredStation struct {
+	report.Station
+	bearingJSON string
 }
 
 // maxReportBearings bounds the bearings the page lists one per row (a
@@ -71,16 +78,16 @@ what no input says is shown as not recorded.`,
 	f.StringArrayVar(&o.maps, "map", nil, "a map picture `FILE` (.png or .svg) to show; repeat for more")
 	f.StringArrayVar(&o.polars, "polar", nil, "polar plot files to show, a `GLOB` such as 'polar-*.png'; repeat for more")
 	f.StringArrayVar(&o.measured, "measured", nil,
-		"what a station's bearings were measured from: `station=NAME,recording=FILE,antenna=TEXT,heading=TEXT` (any of the last three; repeat per station)")
+		"what a station's bearings were measured from: `station=NAME,recording=FILE,antenna=TEXT,heading=TEXT,bearing-json=FILE` (any after station; bearing-json is what bearing --json printed, for the bursts used; repeat per station)")
 	return cmd
 }
 
 // measuredKeys are the keys of --measured after station=.
-var measuredKeys = []string{"recording", "antenna", "heading"}
+var measuredKeys = []string{"recording", "antenna", "heading", "bearing-json"}
 
 // parseMeasured reads one --measured value.
-func parseMeasured(s string) (report.Station, error) {
-	var st report.Station
+func parseMeasured(s string) (measuredStation, error) {
+	var st measuredStation
 	seen := map[string]bool{}
 	for _, part := range strings.Split(s, ",") {
 		k, v, ok := strings.Cut(part, "=")
@@ -101,6 +108,8 @@ func parseMeasured(s string) (report.Station, error) {
 			st.Antenna = v
 		case "heading":
 			st.HeadingSource = v
+		case "bearing-json":
+			st.bearingJSON = v
 		default:
 			return st, fmt.Errorf("--measured %q: unknown key %q (station and %s)", s, k, strings.Join(measuredKeys, ", "))
 		}
@@ -133,7 +142,7 @@ func runReport(out io.Writer, inputs []string, o reportOptions) error {
 	if o.fixes != "" && o.grid != "" {
 		return errors.New("--grid is for fixes worked out here: not with --fixes")
 	}
-	var measured []report.Station
+	var measured []measuredStation
 	for _, m := range o.measured {
 		st, err := parseMeasured(m)
 		if err != nil {
@@ -207,7 +216,7 @@ func readSlots(path string) (*schedule.Plan, error) {
 
 // reportBearings reads the bearings files into stations, transmitters and
 // bearing rows, and joins --measured to the stations.
-func reportBearings(r *report.Report, inputs []string, measured []report.Station) error {
+func reportBearings(r *report.Report, inputs []string, measured []measuredStation) error {
 	stations := map[string]int{}
 	txs := map[string]int{}
 	listed := 0
@@ -290,6 +299,44 @@ func reportBearings(r *report.Report, inputs []string, measured []report.Station
 		}
 		s := &r.Stations[i]
 		s.Recording, s.Antenna, s.HeadingSource = m.Recording, m.Antenna, m.HeadingSource
+		if m.bearingJSON != "" {
+			if err := burstsUsed(r, m.Name, m.bearingJSON); err != nil {
+				return err
+			}
+		}
+	}
+	return nil
+}
+
+// burstsUsed fills the bursts used of station's bearings from what
+// `bearing --json` printed for it (path). A bearing there that differs
+// from the bearings file's row of the same transmitter by more than the
+// files' 0.01° means the two are not of the same run: an error.
+func burstsUsed(r *report.Report, station, path string) error {
+	fh, err := os.Open(path)
+	if err != nil {
+		return fmt.Errorf("--measured bearing-json: %w", err)
+	}
+	defer fh.Close()
+	sums, err := survey.ReadTxBearingsJSON(fh)
+	if err != nil {
+		return fmt.Errorf("--measured bearing-json %s: %w", path, err)
+	}
+	for _, s := range sums {
+		if s.BearingDeg == nil {
+			continue
+		}
+		for i := range r.Bearings {
+			b := &r.Bearings[i]
+			if b.Station != station || b.Ident != s.Ident {
+				continue
+			}
+			if d := math.Abs(angle.Wrap180(b.BearingDeg - *s.BearingDeg)); d > 0.011 {
+				return fmt.Errorf("--measured bearing-json %s: %s's bearing %.2f° is not the bearings file's %.2f° at station %q: not the same run",
+					path, s.Ident, *s.BearingDeg, b.BearingDeg, station)
+			}
+			b.BurstsUsed = s.BurstsUsed
+		}
 	}
 	return nil
 }

@@ -19,11 +19,13 @@ import (
 	"testing"
 	"time"
 
+	"nullseek/bearing"
 	"nullseek/geo"
 	"nullseek/ident/fingerprint"
 	"nullseek/ident/schedule"
 	"nullseek/report/reporttest"
 	"nullseek/sim"
+	"nullseek/survey"
 )
 
 var dataURI = regexp.MustCompile(`src="data:image/(png|svg\+xml);base64,([A-Za-z0-9+/=]*)"`)
@@ -111,6 +113,31 @@ func checkFixRows(t *testing.T, rows [][]string, want map[string]geo.FixReport) 
 		if len(f.Cells) > 0 && !strings.HasPrefix(r[12], f.Cells[0].Cell+" ") {
 			t.Errorf("%s: most probable cells %q, fix --json starts with %s", f.Ident, r[12], f.Cells[0].Cell)
 		}
+	}
+}
+
+// readBearingRows reads a bearings file as fix does.
+func readBearingRows(t *testing.T, path string) []geo.BearingRecord {
+	t.Helper()
+	fh, err := os.Open(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer fh.Close()
+	br, err := geo.NewBearingReader(fh)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var out []geo.BearingRecord
+	for {
+		rec, err := br.Next()
+		if err == io.EOF {
+			return out
+		}
+		if err != nil {
+			t.Fatal(err)
+		}
+		out = append(out, rec)
 	}
 }
 
@@ -224,14 +251,33 @@ func TestDemoReport(t *testing.T) {
 		check(t, filepath.Join(dir, "report.html"), "report-demo.png", 1+len(stations)*len(ids))
 	})
 	t.Run("command", func(t *testing.T) {
+		// what bearing --json would have printed at the first station
+		rows := readBearingRows(t, filepath.Join(dir, "bearings.csv"))
+		var bj bytes.Buffer
+		for _, l := range rows {
+			if l.Station == stations[0] {
+				json.NewEncoder(&bj).Encode(survey.TxBearing{Ident: l.Ident, SigmaDeg: l.SigmaDeg,
+					Combined: bearing.Combined{BearingDeg: l.BearingDeg, SigmaDeg: 1, BurstsUsed: 4}})
+			}
+		}
+		writeFile(t, filepath.Join(dir, "bearing-0.json"), bj.Bytes())
 		r := cliRun(t, dir, "report", "--out", "session.html", "bearings.csv", "--fixes", "fixes.json", "--slots", "slots.json",
 			"--map", "map.png", "--polar", "polar-*.png", "--title", "Report of the demo",
-			"--measured", "station="+stations[0]+",recording=station-"+stations[0]+".sigmf-data,antenna=yagi,heading=headings-"+stations[0]+".csv")
+			"--measured", "station="+stations[0]+",recording=station-"+stations[0]+".sigmf-data,antenna=yagi,heading=headings-"+stations[0]+".csv,bearing-json=bearing-0.json")
 		if r.code != 0 || r.stderr != "" || !strings.HasPrefix(r.stdout, "wrote session.html: 3 stations, 3 transmitters, 9 bearings, 3 fixes, 10 pictures") {
 			t.Fatalf("report: exit %d\nstdout %s\nstderr %s", r.code, r.stdout, r.stderr)
 		}
 		page := filepath.Join(dir, "session.html")
-		check(t, page, "report-command.png", 1+len(stations)*len(ids))
+		p := check(t, page, "report-command.png", 1+len(stations)*len(ids))
+		for _, row := range p.Bearings {
+			want := "not recorded"
+			if row[1] == stations[0] {
+				want = "4"
+			}
+			if row[6] != want {
+				t.Errorf("bearing row %q: bursts used %q, want %q", row, row[6], want)
+			}
+		}
 		b, _ := os.ReadFile(page)
 		s := html.UnescapeString(string(b))
 		for _, want := range []string{"Report of the demo", "station-" + stations[0] + ".sigmf-data", "headings-" + stations[0] + ".csv", "Worked out from slots.json"} {
@@ -244,7 +290,7 @@ func TestDemoReport(t *testing.T) {
 		if r.code != 0 {
 			t.Fatalf("report without --fixes: exit %d: %s", r.code, r.stderr)
 		}
-		p := reporttest.Load(t, filepath.Join(dir, "computed.html"))
+		p = reporttest.Load(t, filepath.Join(dir, "computed.html"))
 		checkFixRows(t, p.Fixes, wantFixes)
 	})
 }
@@ -313,6 +359,11 @@ func TestCLIReportBadInput(t *testing.T) {
 		{"--fixes not fix lines", with(map[string]string{"f.json": `{"type":"bearing"}`}, "report", "--out", "p.html", "b.csv", "--fixes", "f.json"), "--fixes f.json"},
 		{"--fixes empty", with(map[string]string{"f.json": ""}, "report", "--out", "p.html", "b.csv", "--fixes", "f.json"), "no fix lines"},
 		{"--fixes with --grid", with(map[string]string{"f.json": "{}"}, "report", "--out", "p.html", "b.csv", "--fixes", "f.json", "--grid", "origin=47,8 cell=500"), "--grid"},
+		{"--measured bearing-json missing", with(nil, "report", "--out", "p.html", "b.csv", "--measured", "station=s1,bearing-json=none.json"), "bearing-json"},
+		{"--measured bearing-json of another run", with(map[string]string{"bj.json": `{"type":"bearing","ident":"A","bearing_deg":31,"sigma_deg":2,"bursts_used":3}`},
+			"report", "--out", "p.html", "b.csv", "--measured", "station=s1,bearing-json=bj.json"), "not the same run"},
+		{"--measured bearing-json not bearing lines", with(map[string]string{"bj.json": `{"type":"fix"}`},
+			"report", "--out", "p.html", "b.csv", "--measured", "station=s1,bearing-json=bj.json"), "bj.json"},
 		{"--grid bad", with(nil, "report", "--out", "p.html", "b.csv", "--grid", "cell=-1"), "--grid"},
 	})
 }

@@ -28,6 +28,7 @@ window.addEventListener("load", () => {
     stations: texts("tr.station td.st"),
     bearingStations: texts("tr.bearing td.st"),
     fixes: [...document.querySelectorAll("tr.fix")].map(r => [...r.cells].map(c => c.textContent.trim())),
+    bearings: [...document.querySelectorAll("tr.bearing")].map(r => [...r.cells].map(c => c.textContent.trim())),
     transmitters: texts("tr.tx td.id"),
     slots: texts("tr.slot td.id"),
     captions: texts("figcaption"),
@@ -42,7 +43,8 @@ window.addEventListener("load", () => {
 // Probe is what Chromium made of a report page, as the probe script
 // reports it: each image's natural width, height and whether it loaded,
 // the number of scripts in the page itself, and the text of the cells
-// that name stations, transmitters and slots, each fix row's cells and
+// that name stations, transmitters and slots, each fix and bearing row's
+// cells and
 // the figure captions.
 type Probe struct {
 	Images          [][3]any   `json:"images"`
@@ -50,6 +52,7 @@ type Probe struct {
 	Stations        []string   `json:"stations"`
 	BearingStations []string   `json:"bearingStations"`
 	Fixes           [][]string `json:"fixes"`
+	Bearings        [][]string `json:"bearings"`
 	Transmitters    []string   `json:"transmitters"`
 	Slots           []string   `json:"slots"`
 	Captions        []string   `json:"captions"`
