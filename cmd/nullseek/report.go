@@ -465,7 +465,7 @@ func stageDemoReport(outs *atomicfile.Set, outDir string, sc sim.Scenario, runs 
 	withBearing := map[string]int{}
 	for _, run := range runs {
 		st, info := run.st, run.res.Info
-		recording := "simulated, not kept (demo --write-iq keeps it)"
+		recording := "simulated, not kept"
 		if _, err := outs.ReadStaged(filepath.Join(outDir, "station-"+st.Name+".sigmf-data")); err == nil {
 			recording = "station-" + st.Name + ".sigmf-data (simulated)"
 		}
