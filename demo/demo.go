@@ -61,7 +61,7 @@ func Run(ctx context.Context, out, progress io.Writer, outDir string, writeIQ bo
 	// Every file the demo makes is checked before the work starts and
 	// staged until the end: a failure leaves the folder as it was (and
 	// removes it when the demo made it).
-	names := []string{"bearings.csv", "fixes.geojson", "map.png"}
+	names := []string{"bearings.csv", "fixes.geojson", "map.png", "report.html"}
 	for _, st := range sc.Stations {
 		names = append(names, "headings-"+st.Name+".csv")
 		for _, id := range ids {
@@ -97,6 +97,7 @@ func Run(ctx context.Context, out, progress io.Writer, outDir string, writeIQ bo
 
 	var lops []geo.LOP
 	var first *survey.Result
+	var runs []stationRun // for the report page
 	for si, st := range sc.Stations {
 		src, err := sim.NewSource(sc, st)
 		if err != nil {
@@ -124,6 +125,7 @@ func Run(ctx context.Context, out, progress io.Writer, outDir string, writeIQ bo
 			return err
 		}
 		bbs, txs := survey.Bearings(res, track, st.Antenna, bearing.FitOptions{}, survey.DefaultSiteSigmaDeg)
+		runs = append(runs, stationRun{st, res, bbs, txs})
 		if si == 0 {
 			first = res
 			fmt.Fprintf(w, "Station %s: bursts found\n", st.Name)
@@ -174,6 +176,7 @@ func Run(ctx context.Context, out, progress io.Writer, outDir string, writeIQ bo
 	}
 	plan, err := schedule.Build(obs, labels, schedule.Options{NominalPeriodS: sc.Beacons[0].PeriodS})
 	if err != nil {
+		plan = nil
 		fmt.Fprintf(w, "Slot schedule: %v\n\n", err)
 	} else {
 		fmt.Fprintf(w, "Slot schedule (from %s):\n", sc.Stations[0].Name)
@@ -228,7 +231,10 @@ func Run(ctx context.Context, out, progress io.Writer, outDir string, writeIQ bo
 	if len(res.OutputErrors) > 0 && len(res.Fixes) > 0 {
 		return res.OutputErrors[0]
 	}
-	fmt.Fprintf(w, "\nFiles in %s: bearings.csv, map.png, fixes.geojson, polar-*.png, headings-*.csv\nTry: nullseek fix %s --grid %q\n",
+	if err := stageReport(&outs, outDir, sc, runs, plan, res); err != nil {
+		return err
+	}
+	fmt.Fprintf(w, "\nFiles in %s: report.html, bearings.csv, map.png, fixes.geojson, polar-*.png, headings-*.csv\nTry: nullseek fix %s --grid %q\n",
 		outDir, filepath.Join(outDir, "bearings.csv"), grid.String())
 	if err := outs.Commit(); err != nil {
 		return err

@@ -242,6 +242,25 @@ func (s *Set) Discard(f *File) {
 	os.Remove(f.f.Name())
 }
 
+// ReadStaged returns the content staged at path (as given to Create or
+// Write), so that a later output can embed an earlier one before the set
+// is committed. The output must be closed (WriteFunc and Write close it).
+func (s *Set) ReadStaged(path string) ([]byte, error) {
+	for _, f := range s.files {
+		if f.path != path {
+			continue
+		}
+		if !f.closed {
+			return nil, fmt.Errorf("read staged %s: still open", path)
+		}
+		if f.err != nil {
+			return nil, f.err
+		}
+		return os.ReadFile(f.f.Name())
+	}
+	return nil, fmt.Errorf("read staged %s: not staged in this set", path)
+}
+
 // Paths lists the staged outputs as given, in staging order.
 func (s *Set) Paths() []string {
 	out := make([]string, len(s.files))

@@ -237,3 +237,39 @@ func TestModeFollowsUmask(t *testing.T) {
 		t.Errorf("mode %v under umask 022, want 0644", fi.Mode().Perm())
 	}
 }
+
+// ReadStaged gives back what was staged before the commit, refuses an
+// open or unknown output, and the target stays untouched until Commit.
+func TestSetReadStaged(t *testing.T) {
+	dir := t.TempDir()
+	a, b := filepath.Join(dir, "a.png"), filepath.Join(dir, "b.html")
+	var s Set
+	defer s.Abort()
+	if err := s.Write(a, []byte("staged a")); err != nil {
+		t.Fatal(err)
+	}
+	got, err := s.ReadStaged(a)
+	if err != nil || string(got) != "staged a" {
+		t.Fatalf("ReadStaged(a) = %q, %v", got, err)
+	}
+	if _, err := os.Stat(a); !errors.Is(err, os.ErrNotExist) {
+		t.Fatalf("target exists before Commit: %v", err)
+	}
+	if _, err := s.ReadStaged(filepath.Join(dir, "other")); err == nil || !strings.Contains(err.Error(), "not staged") {
+		t.Fatalf("unknown output: %v", err)
+	}
+	f, err := s.Create(b)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := s.ReadStaged(b); err == nil || !strings.Contains(err.Error(), "still open") {
+		t.Fatalf("open output: %v", err)
+	}
+	f.Close()
+	if err := s.Commit(); err != nil {
+		t.Fatal(err)
+	}
+	if readString(t, a) != "staged a" {
+		t.Fatal("committed content differs")
+	}
+}

@@ -9,11 +9,13 @@
 package testtool
 
 import (
+	"context"
 	"fmt"
 	"io"
 	"net"
 	"os"
 	"os/exec"
+	"path/filepath"
 	"strings"
 	"testing"
 	"time"
@@ -156,4 +158,59 @@ func answersGetPos(addr string) bool {
 		got += string(buf[:n])
 	}
 	return true
+}
+
+// Chromium runs headless Chromium (Debian's package chromium) on the local
+// page file with the extra args (for example "--dump-dom", or
+// "--screenshot=PATH" with "--window-size=W,H") and returns its standard
+// output. It gets a profile of its own, no sandbox (tests run as root in
+// CI), no GPU, and a proxy on a closed loopback port with background
+// networking off, so a page that tried to load anything from the network
+// would find nothing and no traffic leaves the machine.
+func Chromium(t testing.TB, page string, args ...string) string {
+	t.Helper()
+	bin := Need(t, "chromium")
+	abs, err := filepath.Abs(page)
+	if err != nil {
+		t.Fatal(err)
+	}
+	ctx, cancel := context.WithTimeout(context.Background(), 2*time.Minute)
+	defer cancel()
+	all := append([]string{"--headless", "--no-sandbox", "--disable-gpu", "--user-data-dir=" + t.TempDir(),
+		"--no-first-run", "--disable-background-networking", "--disable-component-update",
+		"--proxy-server=http://127.0.0.1:9", "--hide-scrollbars"}, args...)
+	all = append(all, "file://"+abs)
+	cmd := exec.CommandContext(ctx, bin, all...)
+	var stderr strings.Builder
+	cmd.Stderr = &stderr
+	out, err := cmd.Output()
+	if err != nil {
+		t.Fatalf("chromium %s: %v\n%s", strings.Join(args, " "), err, lastLines(stderr.String(), 10))
+	}
+	return string(out)
+}
+
+func lastLines(s string, n int) string {
+	lines := strings.Split(strings.TrimRight(s, "\n"), "\n")
+	if len(lines) > n {
+		lines = lines[len(lines)-n:]
+	}
+	return strings.Join(lines, "\n")
+}
+
+// ArtifactDir is the folder where a test keeps what a person should be
+// able to look at afterwards (screenshots): $NULLSEEK_TEST_ARTIFACTS when
+// set, else nullseek-test-artifacts in the system's temporary folder. It is
+// made if missing; unlike t.TempDir it is not removed when the test ends.
+// Name files after the test.
+func ArtifactDir(t testing.TB) string {
+	t.Helper()
+	dir := os.Getenv("NULLSEEK_TEST_ARTIFACTS")
+	if dir == "" {
+		dir = filepath.Join(os.TempDir(), "nullseek-test-artifacts")
+	}
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		t.Fatalf("test artefacts folder: %v", err)
+	}
+	return dir
 }
