@@ -51,11 +51,11 @@ func TestNMEAEdges(t *testing.T) {
 	s, st := feed(t,
 		sentence("GNGGA,235958,5130.000,N,00007.500,W,1,07,1.0,20.0,M,47.0,M,,"), // no date yet
 		sentence("GNRMC,235959,A,5130.000,N,00007.500,W,0.0,0.0,311225,,,A"),     // RMC only: 2D
-		sentence("GNGGA,000000,5130.001,N,00007.500,W,1,07,1.0,20.0,M,,M,,"),      // next day, no separation
-		sentence("GNGGA,000001,,,,,0,00,,,M,,M,,"),                                // quality 0
-		sentence("GNRMC,000002,V,5130.002,N,00007.500,W,0.0,0.0,010126,,,N"),      // void
-		"$GNGGA,000003,5130.003,N,00007.500,W,1,07,1.0,20.0,M,,M,,*00",            // bad checksum
-		"$GNGGA,000003,5130.003,N,00007.500,W,1,07,1.0,20.0,M,,M,,",               // no checksum
+		sentence("GNGGA,000000,5130.001,N,00007.500,W,1,07,1.0,20.0,M,,M,,"),     // next day, no separation
+		sentence("GNGGA,000001,,,,,0,00,,,M,,M,,"),                               // quality 0
+		sentence("GNRMC,000002,V,5130.002,N,00007.500,W,0.0,0.0,010126,,,N"),     // void
+		"$GNGGA,000003,5130.003,N,00007.500,W,1,07,1.0,20.0,M,,M,,*00",           // bad checksum
+		"$GNGGA,000003,5130.003,N,00007.500,W,1,07,1.0,20.0,M,,M,,",              // no checksum
 		"\x00\xffnot nmea at all",
 		long,
 		"$GPGGA,"+strings.Repeat("1", 100),

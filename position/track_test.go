@@ -67,7 +67,10 @@ func TestTrackLimits(t *testing.T) {
 	if _, err := tr.At(t0); !errors.Is(err, ErrStale) {
 		t.Errorf("empty track: %v", err)
 	}
-	alt := func(f Fix, m, hdop float64) Fix { f.AltHAEM, f.HDOP, f.Mode, f.Quality = ptr(m), ptr(hdop), Mode3D, 1; return f }
+	alt := func(f Fix, m, hdop float64) Fix {
+		f.AltHAEM, f.HDOP, f.Mode, f.Quality = ptr(m), ptr(hdop), Mode3D, 1
+		return f
+	}
 	for _, f := range []Fix{
 		alt(at(50, 8, 0), 100, 1),
 		alt(at(50.001, 8, 2*time.Second), 110, 3),
