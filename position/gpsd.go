@@ -128,6 +128,7 @@ func (g *GPSD) Run(ctx context.Context) error {
 		log = slog.Default()
 	}
 	backoff := minB
+	quiet := false // a failed dial after a failed dial is not logged again
 	for {
 		got, err := g.session(ctx)
 		if ctx.Err() != nil {
@@ -140,9 +141,12 @@ func (g *GPSD) Run(ctx context.Context) error {
 		g.stats.Drops++
 		g.mu.Unlock()
 		if got {
-			backoff = minB
+			backoff, quiet = minB, false
 		}
-		log.Warn("gpsd connection lost; reconnecting", "gpsd", g.addr(), "err", err, "after", backoff)
+		if !quiet {
+			log.Warn("gpsd connection lost or refused; retrying until it answers", "gpsd", g.addr(), "err", err)
+		}
+		quiet = !got
 		select {
 		case <-ctx.Done():
 			return nil
