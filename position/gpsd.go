@@ -49,7 +49,8 @@ type GPSDStats struct {
 	Release   string
 	Devices   []string
 	LastError string
-	// Watching is the "enable" of gpsd's last WATCH reply.
+	// Watching is the "enable" of the WATCH reply on the current
+	// connection (false until it comes).
 	Watching bool
 	// First describes the first bad line, "" when none.
 	First string
@@ -170,6 +171,7 @@ func (g *GPSD) session(ctx context.Context) (got bool, err error) {
 	defer stop()
 	g.mu.Lock()
 	g.stats.Connects++
+	g.stats.Watching = false // until this gpsd's WATCH reply
 	g.mu.Unlock()
 	c.SetWriteDeadline(time.Now().Add(5 * time.Second))
 	if _, err := io.WriteString(c, gpsdWatch); err != nil {

@@ -190,25 +190,47 @@ func (s *nmeaServer) send(t *testing.T, lines []string) {
 }
 
 // startGPSD runs gpsd 3.22 in the foreground (-N), opening its device at
-// once (-n), serving port (-S) on loopback, reading src (gpsd(8)).
-func startGPSD(t *testing.T, port int, src string) *exec.Cmd {
+// once (-n), serving port (-S) on loopback, reading src (gpsd(8)). stop
+// kills it and returns once it has exited. A gpsd that cannot bind yet
+// (the port of one just killed) is started again, for up to 10 s.
+func startGPSD(t *testing.T, port int, src string) (stop func()) {
 	t.Helper()
-	cmd := exec.Command(testtool.Need(t, "gpsd"), "-N", "-n", "-S", strconv.Itoa(port), src)
+	bin := testtool.Need(t, "gpsd")
 	var out bytes.Buffer
-	cmd.Stdout, cmd.Stderr = &out, &out
-	if err := cmd.Start(); err != nil {
-		t.Fatal(err)
-	}
-	done := make(chan struct{})
-	go func() { cmd.Wait(); close(done) }()
-	t.Cleanup(func() {
-		cmd.Process.Kill()
-		<-done
-		if t.Failed() {
-			t.Logf("gpsd output:\n%s", out.String())
+	for deadline := time.Now().Add(10 * time.Second); ; {
+		out.Reset()
+		cmd := exec.Command(bin, "-N", "-n", "-S", strconv.Itoa(port), src)
+		cmd.Stdout, cmd.Stderr = &out, &out
+		if err := cmd.Start(); err != nil {
+			t.Fatal(err)
 		}
-	})
-	return cmd
+		done := make(chan struct{})
+		go func() { cmd.Wait(); close(done) }()
+		select {
+		case <-done: // gpsd -N exits at once only when it cannot start
+			if time.Now().After(deadline) {
+				t.Fatalf("gpsd did not start:\n%s", out.String())
+			}
+			time.Sleep(200 * time.Millisecond)
+			continue
+		case <-time.After(500 * time.Millisecond):
+		}
+		stopped := false
+		stop = func() {
+			if !stopped {
+				cmd.Process.Kill()
+				<-done
+				stopped = true
+			}
+		}
+		t.Cleanup(func() {
+			stop()
+			if t.Failed() {
+				t.Logf("gpsd output:\n%s", out.String())
+			}
+		})
+		return stop
+	}
 }
 
 func waitFor(t *testing.T, what string, cond func() bool) {
@@ -247,15 +269,19 @@ func TestGPSDClient(t *testing.T) {
 		}
 	}()
 
-	gpsd := startGPSD(t, port, dev)
+	stop := startGPSD(t, port, dev)
 	waitFor(t, "the client's WATCH and gpsd's device connection", func() bool { return g.Stats().Watching && src.count() >= 1 })
 	src.send(t, logs[0])
 	waitFor(t, "6 fixes from gpsd", func() bool { return g.Track.Len() >= 6 })
-	gpsd.Process.Kill()
-	waitFor(t, "the client to see gpsd go", func() bool { return g.Stats().Drops >= 1 })
+	before := g.Stats()
+	stop()
+	waitFor(t, "the client to see gpsd go", func() bool { return g.Stats().Drops > before.Drops })
 	n := src.count()
 	startGPSD(t, port, dev)
-	waitFor(t, "the client back on the new gpsd", func() bool { st := g.Stats(); return st.Connects >= 2 && st.Watching && src.count() > n })
+	waitFor(t, "the client back on the new gpsd", func() bool {
+		st := g.Stats()
+		return st.Connects > before.Connects && st.Watching && src.count() > n
+	})
 	src.send(t, logs[1])
 	waitFor(t, "12 fixes from gpsd", func() bool { return g.Track.Len() >= 12 })
 
