@@ -4,23 +4,23 @@ import (
 	"errors"
 	"fmt"
 	"nullseek/internal/angle"
+	"nullseek/internal/nmea"
 	"strconv"
-	"strings"
 )
 
 // NMEA 0183 limits (sentence length and checksum, as restated in gpsd
 // www/NMEA.adoc, ntpsec/gpsd @46977fa).
 const (
 	// MaxNMEALen is the longest sentence in bytes including '$' and CR LF.
-	MaxNMEALen = 82
+	MaxNMEALen = nmea.MaxLen
 )
 
 // Errors a caller may want to tell apart (test with errors.Is).
 var (
 	// ErrNMEAChecksum: the *hh checksum does not match the sentence.
-	ErrNMEAChecksum = errors.New("NMEA checksum mismatch")
+	ErrNMEAChecksum = nmea.ErrChecksum
 	// ErrNMEANoChecksum: the sentence has no *hh checksum.
-	ErrNMEANoChecksum = errors.New("NMEA sentence has no checksum")
+	ErrNMEANoChecksum = nmea.ErrNoChecksum
 	// ErrNMEAUnsupported: a well-formed sentence that carries no heading
 	// this package reads (anything but HDT, HDM, HDG).
 	ErrNMEAUnsupported = errors.New("NMEA sentence type carries no heading")
@@ -64,14 +64,8 @@ func (r Reading) Heading(ref Ref) (float64, bool) {
 }
 
 // NMEAChecksum returns the NMEA 0183 checksum of body, the characters
-// between '$' and '*': the 8-bit XOR of all of them.
-func NMEAChecksum(body string) byte {
-	var c byte
-	for i := 0; i < len(body); i++ {
-		c ^= body[i]
-	}
-	return c
-}
+// between '$' and '*': the 8-bit XOR of all of them (nmea.Checksum).
+func NMEAChecksum(body string) byte { return nmea.Checksum(body) }
 
 // ParseNMEA parses one NMEA 0183 heading sentence: $--HDT (true heading),
 // $--HDM (magnetic heading) or $--HDG (sensor heading, deviation,
@@ -98,42 +92,13 @@ func ParseNMEA(line string) (Reading, error) {
 
 func parseNMEA(line string, requireChecksum bool) (Reading, error) {
 	var r Reading
-	s := strings.TrimRight(line, "\r\n ")
-	if len(s)+2 > MaxNMEALen {
-		return r, fmt.Errorf("NMEA sentence is %d bytes with CR LF, longer than %d", len(s)+2, MaxNMEALen)
+	sen, err := nmea.Split(line, requireChecksum)
+	if err != nil {
+		return r, err
 	}
-	if !strings.HasPrefix(s, "$") {
-		return r, errors.New("NMEA sentence does not start with '$'")
-	}
-	for i := 0; i < len(s); i++ {
-		if s[i] < 0x20 || s[i] > 0x7e {
-			return r, fmt.Errorf("NMEA sentence has a non-printable byte 0x%02x at %d", s[i], i)
-		}
-	}
-	body := s[1:]
-	if star := strings.IndexByte(body, '*'); star >= 0 {
-		sum := body[star+1:]
-		body = body[:star]
-		if len(sum) != 2 {
-			return r, fmt.Errorf("NMEA checksum %q is not 2 hex digits", sum)
-		}
-		want, err := strconv.ParseUint(sum, 16, 8)
-		if err != nil {
-			return r, fmt.Errorf("NMEA checksum %q is not 2 hex digits", sum)
-		}
-		if got := NMEAChecksum(body); byte(want) != got {
-			return r, fmt.Errorf("%w: sentence says %02X, computed %02X", ErrNMEAChecksum, want, got)
-		}
-	} else if requireChecksum {
-		return r, ErrNMEANoChecksum
-	}
-	fields := strings.Split(body, ",")
-	addr := fields[0]
-	if len(addr) != 5 || !isAlnumUpper(addr) {
-		return r, fmt.Errorf("NMEA address %q is not a 2-character talker and 3-character type", addr)
-	}
-	r.Talker, r.Type = addr[:2], addr[2:]
-	f := fields[1:]
+	addr := sen.Talker + sen.Type
+	r.Talker, r.Type = sen.Talker, sen.Type
+	f := sen.Fields
 	need := map[string]int{"HDT": 2, "HDM": 2, "HDG": 5}[r.Type]
 	if need == 0 {
 		return r, fmt.Errorf("%w: %s", ErrNMEAUnsupported, addr)
@@ -141,7 +106,6 @@ func parseNMEA(line string, requireChecksum bool) (Reading, error) {
 	if len(f) < need {
 		return r, fmt.Errorf("NMEA %s has %d fields, want %d", r.Type, len(f), need)
 	}
-	var err error
 	switch r.Type {
 	case "HDT", "HDM":
 		unit := r.Type[2:] // "T" or "M"
@@ -175,22 +139,12 @@ func parseNMEA(line string, requireChecksum bool) (Reading, error) {
 	return r, nil
 }
 
-func isAlnumUpper(s string) bool {
-	for i := 0; i < len(s); i++ {
-		c := s[i]
-		if !(c >= 'A' && c <= 'Z' || c >= '0' && c <= '9') {
-			return false
-		}
-	}
-	return true
-}
-
 // nmeaHeading parses a heading field: a plain decimal in [0, 360].
 func nmeaHeading(s string) (float64, error) {
 	if s == "" {
 		return 0, errors.New("empty (sensor not ready)")
 	}
-	if !isDecimal(s) {
+	if !nmea.IsDecimal(s) {
 		return 0, fmt.Errorf("%q is not a decimal number", s)
 	}
 	return parseHeadingDeg(s)
@@ -205,7 +159,7 @@ func nmeaSigned(v, hemi string) (float64, bool, error) {
 	if v == "" {
 		return 0, false, fmt.Errorf("direction %q without a value", hemi)
 	}
-	if !isDecimal(v) {
+	if !nmea.IsDecimal(v) {
 		return 0, false, fmt.Errorf("%q is not a decimal number", v)
 	}
 	x, err := strconv.ParseFloat(v, 64)
@@ -219,21 +173,4 @@ func nmeaSigned(v, hemi string) (float64, bool, error) {
 		return -x, true, nil
 	}
 	return 0, false, fmt.Errorf("direction %q is not E or W", hemi)
-}
-
-// isDecimal accepts digits with at most one '.', and nothing else (no
-// sign, exponent, "NaN" or "Inf").
-func isDecimal(s string) bool {
-	dot, digits := false, 0
-	for i := 0; i < len(s); i++ {
-		switch c := s[i]; {
-		case c >= '0' && c <= '9':
-			digits++
-		case c == '.' && !dot:
-			dot = true
-		default:
-			return false
-		}
-	}
-	return digits > 0
 }

@@ -42,6 +42,7 @@ var layers = map[string]place{
 	"internal/archtest":   {foundation, 0},
 	"internal/cpuprofile": {domain, 0}, // stages its file with internal/atomicfile
 	"internal/warnlog":    {foundation, 0},
+	"internal/nmea":       {foundation, 0},
 	"dsp":                 {foundation, 0},
 
 	"sdr":     {domain, 0},
