@@ -61,6 +61,7 @@ var layers = map[string]place{
 
 	"receiver":          {stages, 0},
 	"station":           {stages, 0},
+	"position":          {pipelines, 0}, // reads the station file's position source
 	"capture":           {stages, 0},
 	"store":             {stages, 0},
 	"mapplot":           {stages, 0},
