@@ -4,14 +4,10 @@ import (
 	"context"
 	"io"
 	"math/rand/v2"
-	"os"
-	"path/filepath"
 	"testing"
 	"time"
 
 	"nullseek/sdr"
-	"nullseek/station"
-	"nullseek/store"
 )
 
 // noiseSource is a live-like stream of complex Gaussian noise at 8-bit
@@ -59,8 +55,7 @@ func (s *noiseSource) Read(dst []complex64) (int, error) {
 // iteration is 2^16 samples; cpu@2.4MS/s is the share of one core a live
 // stream at that rate takes.
 func BenchmarkWatchPerSample(b *testing.B) {
-	dir := b.TempDir()
-	toml := `name = "Bench"
+	st, db := loadStation(b, `name = "Bench"
 database = "bench.db"
 [position]
 source = "fixed"
@@ -80,20 +75,7 @@ reference = "true"
 rotator = "127.0.0.1:1"
 sweep_from_deg = 0.0
 sweep_to_deg = 360.0
-`
-	path := filepath.Join(dir, "bench.toml")
-	if err := os.WriteFile(path, []byte(toml), 0o644); err != nil {
-		b.Fatal(err)
-	}
-	st, err := station.Load(path)
-	if err != nil {
-		b.Fatal(err)
-	}
-	db, err := store.Open(st.Database, store.Options{})
-	if err != nil {
-		b.Fatal(err)
-	}
-	defer db.Close()
+`)
 	const perIter = 1 << 16
 	src := newNoiseSource(st.Receiver.SampleRateHz, int64(b.N)*perIter)
 	b.ResetTimer()

@@ -2,14 +2,11 @@ package watch
 
 import (
 	"context"
-	"os"
-	"path/filepath"
 	"runtime"
+	"strings"
 	"testing"
 
 	"nullseek/sdr"
-	"nullseek/station"
-	"nullseek/store"
 )
 
 // heapSource wraps a source and reads the live heap (after a collection)
@@ -40,41 +37,7 @@ func TestWatchMemoryBounded(t *testing.T) {
 	if testing.Short() {
 		t.Skip("half an hour of samples")
 	}
-	dir := t.TempDir()
-	toml := `name = "Mem"
-database = "mem.db"
-[position]
-source = "fixed"
-lat_lon = "45.0, 6.0"
-[antenna]
-kind = "loop"
-[receiver]
-source = "rtl_tcp://127.0.0.1:1"
-sample_rate = 240000
-centre = 144400000
-gain_db = 30
-[[channel]]
-freq = 144425000
-[heading]
-source = "rotator"
-reference = "true"
-rotator = "127.0.0.1:1"
-sweep_from_deg = 0.0
-sweep_to_deg = 360.0
-`
-	path := filepath.Join(dir, "mem.toml")
-	if err := os.WriteFile(path, []byte(toml), 0o644); err != nil {
-		t.Fatal(err)
-	}
-	st, err := station.Load(path)
-	if err != nil {
-		t.Fatal(err)
-	}
-	db, err := store.Open(st.Database, store.Options{})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer db.Close()
+	st, db := loadStation(t, strings.Replace(baseStation, `name = "Opt"`, `name = "Mem"`, 1))
 	const rate = 240000
 	src := &heapSource{noiseSource: newNoiseSource(rate, 1800*rate), marks: []int64{300 * rate, 1799 * rate}}
 	if _, err := Run(context.Background(), Options{Station: st, DB: db, Open: func(context.Context, sdr.RTLConfig) (sdr.Source, error) { return src, nil }}); err != nil {

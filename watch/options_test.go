@@ -36,7 +36,7 @@ sweep_from_deg = 0.0
 sweep_to_deg = 360.0
 `
 
-func loadStation(t *testing.T, toml string) (*station.File, *store.DB) {
+func loadStation(t testing.TB, toml string) (*station.File, *store.DB) {
 	t.Helper()
 	dir := t.TempDir()
 	path := filepath.Join(dir, "st.toml")
