@@ -48,6 +48,9 @@ func (x jsonSec) MarshalJSON() ([]byte, error) {
 // timeOrSeconds is an RFC 3339 time when the capture start is known, else the
 // seconds from the capture start.
 func timeOrSeconds(t0 time.Time, s float64) any {
+	// From the seconds as written (jsonSec, 0.1 ms), so that the time and
+	// the "…_s" field always agree and a plan read back writes the same.
+	s = math.Round(s*1e4) / 1e4
 	if at, ok := toUTC(t0, s); ok {
 		return at.Format(timeLayout)
 	}
