@@ -17,6 +17,7 @@ import (
 	"time"
 
 	"nullseek/internal/testtool"
+	"nullseek/sdr"
 	"nullseek/station"
 	"nullseek/store"
 )
@@ -223,4 +224,90 @@ wait:
 	if final["captures"] != 3 || final["headings"] <= after["headings"] {
 		t.Errorf("after the SIGTERM run the database holds %v (before: %v)", final, after)
 	}
+}
+
+// TestWatchReceiverOutage: the rtl_tcp server vanishes 8 s into the run
+// and comes back 3 s later on the same address (the recording paused
+// meanwhile): the watch reconnects by itself (sdr.ResilientRTLTCP), logs
+// the gap once and goes on storing bursts from the stream after it.
+func TestWatchReceiverOutage(t *testing.T) {
+	t.Parallel()
+	dir := t.TempDir()
+	meta := makeRecording(t, dir)
+	rot, _ := testtool.Rotctld(t)
+	src, err := sdr.Open(meta, sdr.RawParams{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer src.Close()
+	ln, err := net.Listen("tcp", "127.0.0.1:0")
+	if err != nil {
+		t.Fatal(err)
+	}
+	addr := ln.Addr().String()
+	serveUntil := func(ln net.Listener) (stop func()) {
+		ctx, cancel := context.WithCancel(context.Background())
+		done := make(chan struct{})
+		go func() {
+			defer close(done)
+			sdr.ServeRTLTCP(ctx, ln, src, sdr.ServeOptions{Paced: true, Logger: discard})
+		}()
+		return func() { cancel(); ln.Close(); <-done }
+	}
+	stop := serveUntil(ln)
+	sp := writeStation(t, dir, addr, rot)
+	st, err := station.Load(sp)
+	if err != nil {
+		t.Fatal(err)
+	}
+	db, err := store.Open(st.Database, store.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer db.Close()
+	var log syncBuffer
+	ctx, cancel := context.WithTimeout(context.Background(), 3*time.Minute)
+	defer cancel()
+	var sum *Summary
+	var runErr error
+	var wg sync.WaitGroup
+	wg.Add(1)
+	go func() {
+		defer wg.Done()
+		// Ended before the recording does: at its end the server hangs up
+		// and the watch would go on redialling.
+		sum, runErr = Run(ctx, Options{Station: st, DB: db, Log: &log, DurationS: recSeconds - 3})
+	}()
+	time.Sleep(8 * time.Second)
+	stop()
+	time.Sleep(3 * time.Second)
+	ln2, err := net.Listen("tcp", addr)
+	if err != nil {
+		t.Fatalf("listen again on %s: %v", addr, err)
+	}
+	stop2 := serveUntil(ln2)
+	defer stop2()
+	wg.Wait()
+	out := log.String()
+	t.Logf("log:\n%s", out)
+	if runErr != nil {
+		t.Fatal(runErr)
+	}
+	if n := strings.Count(out, "receiver "+addr+": gap of"); n != 1 {
+		t.Errorf("the receiver's outage was logged %d times, want once", n)
+	}
+	bursts, err := db.BurstsOfCapture(sum.Capture)
+	if err != nil {
+		t.Fatal(err)
+	}
+	late := 0
+	for _, b := range bursts {
+		if b.StartS > 8 {
+			late++
+		}
+	}
+	if late == 0 {
+		t.Errorf("no burst stored from after the outage (%d bursts in all)", len(bursts))
+	}
+	integrityCheck(t, st.Database)
 }

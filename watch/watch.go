@@ -258,7 +258,16 @@ func (w *watcher) open(ctx context.Context, cfg sdr.RTLConfig) (sdr.Source, erro
 		return w.o.Open(ctx, cfg)
 	}
 	if w.st.Receiver.RTLTCP != "" {
-		return sdr.DialRTLTCP(ctx, w.st.Receiver.RTLTCP, cfg)
+		// A server that vanishes mid-stream is redialled with backoff and
+		// the gap logged; the watch carries on (sdr.ResilientRTLTCP inserts
+		// no samples, so sample times after a gap run on from the last
+		// delivered one, and the gap says how much receiver time it lost).
+		return sdr.NewResilientRTLTCP(ctx, w.st.Receiver.RTLTCP, cfg, sdr.ResilientOptions{
+			OnGap: func(g sdr.Gap) {
+				w.logf("warning: receiver %s: gap of %.1f s (about %d samples) before sample %d: %s; carrying on",
+					w.st.Receiver.RTLTCP, g.Lost.Seconds(), g.Missing, g.Index, g.Cause)
+			},
+		})
 	}
 	src, err := sdr.OpenUSB(w.st.Receiver.USBIndex, cfg)
 	if err != nil {
