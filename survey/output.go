@@ -157,10 +157,50 @@ func listOrNone(s []string) string {
 	return strings.Join(s, ", ")
 }
 
+// summaryLine is the closing `"type":"summary"` line of scan --json.
+type summaryLine struct {
+	Type         string             `json:"type"`
+	Summary      summaryJSON        `json:"summary"`
+	Transmitters []txSummary        `json:"transmitters"`
+	Flags        []fingerprint.Flag `json:"flags"`
+	Heard        []string           `json:"heard"`
+	NotHeard     []string           `json:"not_heard"`
+}
+
+// summaryJSON is receiver.Summary rounded as the burst lines are (dB to
+// 0.01, Hz to 0.1, seconds to 0.1 ms).
+type summaryJSON struct {
+	Samples          int64   `json:"samples"`
+	DurationS        float64 `json:"duration_s"`
+	Bursts           int     `json:"bursts"`
+	ClippedSamples   int64   `json:"clipped_samples"`
+	NoiseDB          float64 `json:"noise_dbfs"`
+	NoiseBandwidthHz float64 `json:"noise_bandwidth_hz"`
+	OffsetHz         float64 `json:"offset_hz"`
+	FreqHz           float64 `json:"freq_hz,omitempty"`
+	ChannelRateHz    float64 `json:"channel_rate_hz"`
+	InBurstAtStart   bool    `json:"in_burst_at_start,omitempty"`
+}
+
+// txSummary is one transmitter of the summary line; "bursts" holds the
+// burst lines' 1-based "index" values, so the two refer to bursts alike.
+type txSummary struct {
+	Label          string  `json:"label"`
+	Ident          string  `json:"ident"`
+	IdentShare     float64 `json:"ident_share"`
+	Bursts         []int   `json:"bursts"`
+	OffsetHz       float64 `json:"offset_hz"`
+	OffsetSpreadHz float64 `json:"offset_spread_hz"`
+	ToneHz         float64 `json:"tone_hz"`
+	ToneSpreadHz   float64 `json:"tone_spread_hz"`
+	FirstS         float64 `json:"first_s"`
+}
+
 // WriteJSON writes the survey as JSON lines (`scan --json`): one burst
 // line per record (Record.MarshalJSON), then one "summary" line with the
-// summary, the transmitters, the fingerprint flags and the identifiers
-// heard and not heard (empty lists as [], never null).
+// summary, the transmitters (each naming its bursts by their "index"), the
+// fingerprint flags and the identifiers heard and not heard (empty lists
+// as [], never null). Numbers are rounded as in the burst lines.
 func (res *Result) WriteJSON(w io.Writer) error {
 	enc := json.NewEncoder(w)
 	for _, r := range res.Records {
@@ -168,15 +208,28 @@ func (res *Result) WriteJSON(w io.Writer) error {
 			return err
 		}
 	}
-	txs, flags := res.Clusters.Clusters, res.Clusters.Flags
-	if txs == nil {
-		txs = []fingerprint.Transmitter{}
-	}
+	flags := res.Clusters.Flags
 	if flags == nil {
 		flags = []fingerprint.Flag{}
 	}
-	return enc.Encode(map[string]any{"type": "summary", "summary": res.Summary, "transmitters": txs, "flags": flags,
-		"heard": orEmpty(res.Heard), "not_heard": orEmpty(res.NotHeard)})
+	s := res.Summary
+	line := summaryLine{Type: "summary", Transmitters: []txSummary{}, Flags: flags,
+		Heard: orEmpty(res.Heard), NotHeard: orEmpty(res.NotHeard),
+		Summary: summaryJSON{Samples: s.Samples, DurationS: round(s.DurationS, 4), Bursts: s.Bursts, ClippedSamples: s.ClippedSamples,
+			NoiseDB: round(s.NoiseDB, 2), NoiseBandwidthHz: round(s.NoiseBandwidthHz, 1), OffsetHz: round(s.OffsetHz, 1),
+			FreqHz: round(s.FreqHz, 1), ChannelRateHz: round(s.ChannelRateHz, 1), InBurstAtStart: s.InBurstAtStart}}
+	for _, c := range res.Clusters.Clusters {
+		t := txSummary{Label: c.Label, Ident: c.Ident, IdentShare: round(c.IdentShare, 3), Bursts: []int{},
+			OffsetHz: round(c.OffsetHz, 1), OffsetSpreadHz: round(c.OffsetSpreadHz, 1),
+			ToneHz: round(c.ToneHz, 1), ToneSpreadHz: round(c.ToneSpreadHz, 1), FirstS: round(c.FirstS, 4)}
+		for _, m := range c.Members {
+			if m >= 0 && m < len(res.Records) {
+				t.Bursts = append(t.Bursts, res.Records[m].Index)
+			}
+		}
+		line.Transmitters = append(line.Transmitters, t)
+	}
+	return enc.Encode(line)
 }
 
 func orEmpty(s []string) []string {
