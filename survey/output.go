@@ -9,6 +9,7 @@ import (
 	"time"
 
 	"nullseek/ident/fingerprint"
+	"nullseek/receiver"
 )
 
 // burstLine is the stable JSON form of a burst (`scan --json`).
@@ -160,26 +161,11 @@ func listOrNone(s []string) string {
 // summaryLine is the closing `"type":"summary"` line of scan --json.
 type summaryLine struct {
 	Type         string             `json:"type"`
-	Summary      summaryJSON        `json:"summary"`
+	Summary      receiver.Summary   `json:"summary"` // rounded as the burst lines are
 	Transmitters []txSummary        `json:"transmitters"`
 	Flags        []fingerprint.Flag `json:"flags"`
 	Heard        []string           `json:"heard"`
 	NotHeard     []string           `json:"not_heard"`
-}
-
-// summaryJSON is receiver.Summary rounded as the burst lines are (dB to
-// 0.01, Hz to 0.1, seconds to 0.1 ms).
-type summaryJSON struct {
-	Samples          int64   `json:"samples"`
-	DurationS        float64 `json:"duration_s"`
-	Bursts           int     `json:"bursts"`
-	ClippedSamples   int64   `json:"clipped_samples"`
-	NoiseDB          float64 `json:"noise_dbfs"`
-	NoiseBandwidthHz float64 `json:"noise_bandwidth_hz"`
-	OffsetHz         float64 `json:"offset_hz"`
-	FreqHz           float64 `json:"freq_hz,omitempty"`
-	ChannelRateHz    float64 `json:"channel_rate_hz"`
-	InBurstAtStart   bool    `json:"in_burst_at_start,omitempty"`
 }
 
 // txSummary is one transmitter of the summary line; "bursts" holds the
@@ -212,12 +198,13 @@ func (res *Result) WriteJSON(w io.Writer) error {
 	if flags == nil {
 		flags = []fingerprint.Flag{}
 	}
+	// The summary rounded as the burst lines are: dB to 0.01, Hz to 0.1,
+	// seconds to 0.1 ms.
 	s := res.Summary
-	line := summaryLine{Type: "summary", Transmitters: []txSummary{}, Flags: flags,
-		Heard: orEmpty(res.Heard), NotHeard: orEmpty(res.NotHeard),
-		Summary: summaryJSON{Samples: s.Samples, DurationS: round(s.DurationS, 4), Bursts: s.Bursts, ClippedSamples: s.ClippedSamples,
-			NoiseDB: round(s.NoiseDB, 2), NoiseBandwidthHz: round(s.NoiseBandwidthHz, 1), OffsetHz: round(s.OffsetHz, 1),
-			FreqHz: round(s.FreqHz, 1), ChannelRateHz: round(s.ChannelRateHz, 1), InBurstAtStart: s.InBurstAtStart}}
+	s.DurationS, s.NoiseDB, s.NoiseBandwidthHz = round(s.DurationS, 4), round(s.NoiseDB, 2), round(s.NoiseBandwidthHz, 1)
+	s.OffsetHz, s.FreqHz, s.ChannelRateHz = round(s.OffsetHz, 1), round(s.FreqHz, 1), round(s.ChannelRateHz, 1)
+	line := summaryLine{Type: "summary", Summary: s, Transmitters: []txSummary{}, Flags: flags,
+		Heard: orEmpty(res.Heard), NotHeard: orEmpty(res.NotHeard)}
 	for _, c := range res.Clusters.Clusters {
 		t := txSummary{Label: c.Label, Ident: c.Ident, IdentShare: round(c.IdentShare, 3), Bursts: []int{},
 			OffsetHz: round(c.OffsetHz, 1), OffsetSpreadHz: round(c.OffsetSpreadHz, 1),
