@@ -15,7 +15,6 @@ import (
 	"nullseek/locate"
 	"nullseek/report"
 	"nullseek/report/session"
-	"nullseek/sdr"
 	"nullseek/sim"
 	"nullseek/survey"
 )
@@ -57,7 +56,7 @@ func stageReport(outs *atomicfile.Set, outDir string, sc sim.Scenario, runs []st
 		s := report.Station{Name: st.Name, Lat: st.Lat, Lon: st.Lon, Recording: recording,
 			Antenna:       st.AntennaName,
 			HeadingSource: fmt.Sprintf("steady turn %+.0f°/s (simulated), logged to headings-%s.csv", st.Turn.RateDegPerS, st.Name),
-			Start:         info.Start, End: recordingEnd(info), Bursts: len(run.res.Records)}
+			Start:         info.Start, End: info.End(), Bursts: len(run.res.Records)}
 		r.Stations = append(r.Stations, s)
 		ends := map[int]float64{}
 		for _, rec := range run.res.Records {
@@ -113,12 +112,3 @@ func stageReport(outs *atomicfile.Set, outDir string, sc sim.Scenario, runs []st
 }
 
 func seconds(s float64) time.Duration { return time.Duration(math.Round(s * float64(time.Second))) }
-
-// recordingEnd is the time of the recording's last sample (zero when the
-// start or the length is unknown).
-func recordingEnd(info sdr.Info) time.Time {
-	if info.Start.IsZero() || info.Samples < 0 || !(info.SampleRate > 0) {
-		return time.Time{}
-	}
-	return info.Start.Add(seconds(float64(info.Samples) / info.SampleRate))
-}

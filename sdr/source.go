@@ -3,7 +3,10 @@
 // tag. It never decodes or interprets signals.
 package sdr
 
-import "time"
+import (
+	"math"
+	"time"
+)
 
 // Info describes an IQ stream.
 type Info struct {
@@ -26,6 +29,16 @@ type Info struct {
 	// integer format (cu8: 1.0, ci8: 127/128, ci16: 32767/32768). For float
 	// formats it is 1.0 (full scale by convention).
 	ClipLevel float32
+}
+
+// End is the UTC time just after the last sample (Start plus
+// Samples/SampleRate); the zero Time when the start or the length is
+// unknown.
+func (i Info) End() time.Time {
+	if i.Start.IsZero() || i.Samples < 0 || !(i.SampleRate > 0) {
+		return time.Time{}
+	}
+	return i.Start.Add(time.Duration(math.Round(float64(i.Samples) / i.SampleRate * float64(time.Second))))
 }
 
 // Source delivers complex baseband samples normalised so that integer full
