@@ -11,7 +11,6 @@ import (
 	"path/filepath"
 	"strconv"
 	"strings"
-	"sync"
 	"syscall"
 	"testing"
 	"time"
@@ -36,33 +35,17 @@ func TestWatchRotatorOutage(t *testing.T) {
 	_, portS, _ := net.SplitHostPort(rot)
 	port, _ := strconv.Atoi(portS)
 	sp := writeStation(t, dir, serve(t, meta), rot)
-
 	st, err := station.Load(sp)
 	if err != nil {
 		t.Fatal(err)
 	}
-	db, err := store.Open(st.Database, store.Options{})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer db.Close()
-	var log syncBuffer
-	ctx, cancel := context.WithTimeout(context.Background(), 3*time.Minute)
-	defer cancel()
-	var sum *Summary
-	var runErr error
-	var wg sync.WaitGroup
-	wg.Add(1)
 	t0 := time.Now()
-	go func() {
-		defer wg.Done()
-		sum, runErr = Run(ctx, Options{Station: st, DB: db, Log: &log, DurationS: recSeconds, RetryPeriod: 500 * time.Millisecond})
-	}()
+	db, log, wait := watchInBackground(t, sp, Options{DurationS: recSeconds, RetryPeriod: 500 * time.Millisecond})
 	time.Sleep(9*time.Second - time.Since(t0))
 	proc.Kill()
 	time.Sleep(16500*time.Millisecond - time.Since(t0))
 	testtool.RotctldOn(t, port)
-	wg.Wait()
+	sum, runErr := wait()
 	out := log.String()
 	t.Logf("log:\n%s", out)
 	if runErr != nil {
@@ -255,29 +238,9 @@ func TestWatchReceiverOutage(t *testing.T) {
 		return func() { cancel(); ln.Close(); <-done }
 	}
 	stop := serveUntil(ln)
-	sp := writeStation(t, dir, addr, rot)
-	st, err := station.Load(sp)
-	if err != nil {
-		t.Fatal(err)
-	}
-	db, err := store.Open(st.Database, store.Options{})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer db.Close()
-	var log syncBuffer
-	ctx, cancel := context.WithTimeout(context.Background(), 3*time.Minute)
-	defer cancel()
-	var sum *Summary
-	var runErr error
-	var wg sync.WaitGroup
-	wg.Add(1)
-	go func() {
-		defer wg.Done()
-		// Ended before the recording does: at its end the server hangs up
-		// and the watch would go on redialling.
-		sum, runErr = Run(ctx, Options{Station: st, DB: db, Log: &log, DurationS: recSeconds - 3})
-	}()
+	// Ended before the recording does: at its end the server hangs up and
+	// the watch would go on redialling.
+	db, log, wait := watchInBackground(t, writeStation(t, dir, addr, rot), Options{DurationS: recSeconds - 3})
 	time.Sleep(8 * time.Second)
 	stop()
 	time.Sleep(3 * time.Second)
@@ -287,7 +250,7 @@ func TestWatchReceiverOutage(t *testing.T) {
 	}
 	stop2 := serveUntil(ln2)
 	defer stop2()
-	wg.Wait()
+	sum, runErr := wait()
 	out := log.String()
 	t.Logf("log:\n%s", out)
 	if runErr != nil {
@@ -309,5 +272,32 @@ func TestWatchReceiverOutage(t *testing.T) {
 	if late == 0 {
 		t.Errorf("no burst stored from after the outage (%d bursts in all)", len(bursts))
 	}
-	integrityCheck(t, st.Database)
+	integrityCheck(t, db.Path())
+}
+
+// watchInBackground starts a watch of the station file at sp in the
+// background with opts (Station, DB and Log filled here); wait returns its
+// summary and error once it ends, with the log, the database still open.
+func watchInBackground(t *testing.T, sp string, opts Options) (db *store.DB, log *syncBuffer, wait func() (*Summary, error)) {
+	t.Helper()
+	st, err := station.Load(sp)
+	if err != nil {
+		t.Fatal(err)
+	}
+	db, err = store.Open(st.Database, store.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { db.Close() })
+	log = &syncBuffer{}
+	ctx, cancel := context.WithTimeout(context.Background(), 3*time.Minute)
+	opts.Station, opts.DB, opts.Log = st, db, log
+	var sum *Summary
+	var runErr error
+	done := make(chan struct{})
+	go func() {
+		defer close(done)
+		sum, runErr = Run(ctx, opts)
+	}()
+	return db, log, func() (*Summary, error) { <-done; cancel(); return sum, runErr }
 }
