@@ -12,6 +12,7 @@ import (
 	"nullseek/bearing"
 	"nullseek/geo"
 	"nullseek/heading"
+	"nullseek/ident/idmatch"
 	"nullseek/internal/atomicfile"
 	"nullseek/receiver"
 )
@@ -203,6 +204,14 @@ func Bearings(res *Result, track *heading.Track, p bearing.Pattern, opts bearing
 		bb.Est, bb.Err, bb.Points = bf.Est, bf.Err, bf.Points
 		bbs = append(bbs, bb)
 		key := txKey(r)
+		if key == idmatch.Unknown && r.Parts > 1 {
+			// A part of a burst split by fingerprint that fits no
+			// transmitter keeps its own bearing line but makes no
+			// transmitter of its own (it is not combined, plotted or
+			// written to the bearings CSV). A whole burst that fits none
+			// (a carrier that filled the recording) still does.
+			continue
+		}
 		if bb.Err == nil {
 			groups[key] = append(groups[key], len(bbs)-1)
 		} else if _, ok := groups[key]; !ok {
@@ -316,7 +325,7 @@ func txKey(r Record) string {
 	if r.Transmitter != "" {
 		return r.Transmitter
 	}
-	return "unknown"
+	return idmatch.Unknown // attributed to no transmitter (schedule.Build skips it too)
 }
 
 // jsonNum is a number for JSON that is null when not finite; nulled
