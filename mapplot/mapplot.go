@@ -35,6 +35,10 @@ type Options struct {
 	// ColorOf gives a transmitter's colour index (internal/palette) by
 	// ident, so several maps and the KML agree; nil: the order of the fixes.
 	ColorOf map[string]int
+	// Underlay is a georeferenced picture drawn under everything else
+	// (UnderlaySpec.Load); nil for none. One that covers none of the map's
+	// area is an error (ErrUnderlayOutside).
+	Underlay *Underlay
 }
 
 // Defaults are the values zero Options fields take.
@@ -155,7 +159,14 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 	p.X.Min, p.X.Max, p.Y.Min, p.Y.Max = x0, x1, y0, y1
 	p.X.Tick.Marker = kmTicks{}
 	p.Y.Tick.Marker = kmTicks{}
-	p.Add(plotter.NewGrid())
+	if u := opt.Underlay; u != nil {
+		if u.coverage(fr, x0, y0, x1, y1) == 0 {
+			return nil, fmt.Errorf("%s: %w (the map spans %.1f km around %s)", u.name, ErrUnderlayOutside, x1-x0, geo.FormatLatLon(geo.FromENU(fr.lat0, fr.lon0, cx*1e3, (y0+y1)/2*1e3)))
+		}
+		p.Add(underlayPlotter{u: u, fr: fr, x0: x0, y0: y0, x1: x1, y1: y1})
+	} else {
+		p.Add(plotter.NewGrid())
+	}
 
 	// Likelihood shading, each transmitter scaled to its own peak.
 	n := opt.ShadeCells
