@@ -96,11 +96,17 @@ func (f frame) line(pts [][2]float64) plotter.XYs {
 // returns the encoded picture. The map is a square of equal east and north
 // scale in km from the grid origin (or the first fix without a grid).
 func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, error) {
+	b, _, err := render(fixes, g, format, opt)
+	return b, err
+}
+
+// render is Render that also returns the label placer (for its costs).
+func render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, *labelPlacer, error) {
 	if len(fixes) == 0 {
-		return nil, errors.New("map: no fixes to draw")
+		return nil, nil, errors.New("map: no fixes to draw")
 	}
 	if err := opt.Validate(); err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	if opt.SizeCm == 0 {
 		opt.SizeCm = Defaults.SizeCm
@@ -161,7 +167,7 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 	p.Y.Tick.Marker = kmTicks{}
 	if u := opt.Underlay; u != nil {
 		if u.coverage(fr, x0, y0, x1, y1) == 0 {
-			return nil, fmt.Errorf("%s: %w (the map spans %.1f km around %s)", u.name, ErrUnderlayOutside, x1-x0, geo.FormatLatLon(geo.FromENU(fr.lat0, fr.lon0, cx*1e3, (y0+y1)/2*1e3)))
+			return nil, nil, fmt.Errorf("%s: %w (the map spans %.1f km around %s)", u.name, ErrUnderlayOutside, x1-x0, geo.FormatLatLon(geo.FromENU(fr.lat0, fr.lon0, cx*1e3, (y0+y1)/2*1e3)))
 		}
 		p.Add(underlayPlotter{u: u, fr: fr, x0: x0, y0: y0, x1: x1, y1: y1})
 	} else {
@@ -191,8 +197,12 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 
 	if g != nil {
 		if err := addGrid(p, fr, g); err != nil {
-			return nil, err
+			return nil, nil, err
 		}
+	}
+	lp := &labelPlacer{avoid: new([]vg.Rectangle)}
+	if g != nil {
+		lp.boxes = gridLabelXY(fr, g)
 	}
 	seen := map[string]bool{}
 	var stXY plotter.XYs
@@ -219,7 +229,7 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 				}
 				poly, err := plotter.NewPolygon(fr.line(wedge))
 				if err != nil {
-					return nil, err
+					return nil, nil, err
 				}
 				poly.Color = colWedge
 				poly.LineStyle.Width = 0
@@ -227,8 +237,9 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 			}
 			ln, err := plotter.NewLine(fr.line(b.Line(L, 24)))
 			if err != nil {
-				return nil, err
+				return nil, nil, err
 			}
+			lp.lines = append(lp.lines, ln.XYs)
 			ln.Width = vg.Points(1.2)
 			ln.Color = colUsed
 			if !b.Used {
@@ -258,7 +269,10 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 		}{{f.Ellipse, false}, {f.Ellipse1Sigma, true}} {
 			ln, err := plotter.NewLine(fr.line(geo.EllipsePolygon(f, e.el, 72)))
 			if err != nil {
-				return nil, err
+				return nil, nil, err
+			}
+			if !e.dashed {
+				lp.ellipses = append(lp.ellipses, ln.XYs)
 			}
 			ln.Color = colEllipse
 			ln.Width = vg.Points(1.6)
@@ -278,7 +292,7 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 		x, y := fr.xy(f.Lat, f.Lon)
 		sc, err := plotter.NewScatter(plotter.XYs{{X: x, Y: y}})
 		if err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 		sc.Shape = draw.CrossGlyph{}
 		sc.Color = colEllipse
@@ -292,30 +306,30 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 		if f.GridCell != "" {
 			label += "  cell " + f.GridCell
 		}
-		// The label sits right of the 95% ellipse, clear of it.
-		right := x
+		box := [4]float64{x, y, x, y}
 		for _, q := range geo.EllipsePolygon(f, f.Ellipse, 36) {
-			qx, _ := fr.xy(q[0], q[1])
-			right = math.Max(right, qx)
+			qx, qy := fr.xy(q[0], q[1])
+			box = [4]float64{math.Min(box[0], qx), math.Min(box[1], qy), math.Max(box[2], qx), math.Max(box[3], qy)}
 		}
-		if err := addLabels(p, plotter.XYs{{X: right, Y: y}}, []string{label}, colEllipse, 12, vg.Points(5), vg.Points(-4)); err != nil {
-			return nil, err
-		}
+		lp.points = append(lp.points, plotter.XY{X: x, Y: y})
+		lp.labels = append(lp.labels, mapLabel{text: label, col: colEllipse, size: vg.Points(12), at: plotter.XY{X: x, Y: y}, box: box, isFix: true})
 	}
 	if len(stXY) > 0 {
 		sc, err := plotter.NewScatter(stXY)
 		if err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 		sc.Shape = draw.TriangleGlyph{}
 		sc.Color = colStation
 		sc.Radius = vg.Points(4.5)
 		p.Add(sc)
 		p.Legend.Add("station", sc)
-		if err := addLabels(p, stXY, stNames, colStation, 10, vg.Points(6), vg.Points(-12)); err != nil {
-			return nil, err
+		for i, q := range stXY {
+			lp.points = append(lp.points, q)
+			lp.labels = append(lp.labels, mapLabel{text: stNames[i], col: colStation, size: vg.Points(10), at: q, r: sc.Radius})
 		}
 	}
+	p.Add(lp)
 	p.Add(furniture{spanKm: x1 - x0})
 	p.Title.Padding = vg.Points(8)
 	p.Legend.Top = true
@@ -327,14 +341,14 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 	side := vg.Length(opt.SizeCm) * vg.Centimeter
 	cw, err := draw.NewFormattedCanvas(side, side, format)
 	if err != nil {
-		return nil, fmt.Errorf("map: %w", err)
+		return nil, nil, fmt.Errorf("map: %w", err)
 	}
 	// The legend is drawn last, on a light box of its own, so that what
 	// lies under it stays readable and it stays readable over the map.
 	legend := p.Legend
 	p.Legend = plot.NewLegend()
-	dc := draw.New(cw)
-	p.Draw(dc)
+	// a margin round the picture: the title off the top edge
+	dc := draw.Crop(draw.New(cw), 0, -vg.Points(4), 0, -vg.Points(6))
 	da := p.DataCanvas(dc)
 	// The legend's size from gonum's Legend.Rectangle (whose Left is the
 	// mirror of Draw's in plot v0.17, and which leaves out the offsets),
@@ -347,6 +361,8 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 	left := da.Min.X + legend.XOffs
 	box := vg.Rectangle{Min: vg.Point{X: left - pad, Y: top - size.Y - legend.TextStyle.FontExtents().Descent - pad},
 		Max: vg.Point{X: left + size.X + pad, Y: top + pad}}
+	*lp.avoid = append(*lp.avoid, box, furnitureRect(da))
+	p.Draw(dc)
 	da.SetColor(color.NRGBA{R: 255, G: 255, B: 255, A: 225})
 	da.Fill(box.Path())
 	da.SetLineStyle(draw.LineStyle{Color: color.Gray{Y: 140}, Width: vg.Points(0.6)})
@@ -354,9 +370,9 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 	legend.Draw(da)
 	var buf bytes.Buffer
 	if _, err := cw.WriteTo(&buf); err != nil {
-		return nil, fmt.Errorf("map: %w", err)
+		return nil, nil, fmt.Errorf("map: %w", err)
 	}
-	return buf.Bytes(), nil
+	return buf.Bytes(), lp, nil
 }
 
 // shadeThumb is the legend's swatch for the likelihood shading.
@@ -382,6 +398,13 @@ func niceLength(spanKm float64) float64 {
 		}
 	}
 	return e
+}
+
+// furnitureRect bounds what furniture draws on the data canvas c: the bar
+// is at most a fifth of the width (niceLength), the arrow and its N above.
+func furnitureRect(c draw.Canvas) vg.Rectangle {
+	return vg.Rectangle{Min: vg.Point{X: c.Max.X - vg.Points(22) - (c.Max.X-c.Min.X)/5, Y: c.Min.Y},
+		Max: vg.Point{X: c.Max.X, Y: c.Min.Y + vg.Points(82)}}
 }
 
 func (f furniture) Plot(c draw.Canvas, p *plot.Plot) {
@@ -423,20 +446,6 @@ func (f furniture) Plot(c draw.Canvas, p *plot.Plot) {
 	c.FillText(sty, vg.Point{X: ax, Y: ay + vg.Points(24)}, "N")
 }
 
-func addLabels(p *plot.Plot, xy plotter.XYs, text []string, c color.Color, sizePt float64, dx, dy vg.Length) error {
-	lb, err := plotter.NewLabels(plotter.XYLabels{XYs: xy, Labels: text})
-	if err != nil {
-		return err
-	}
-	for i := range lb.TextStyle {
-		lb.TextStyle[i].Color = c
-		lb.TextStyle[i].Font.Size = vg.Points(sizePt)
-	}
-	lb.Offset = vg.Point{X: dx, Y: dy}
-	p.Add(lb)
-	return nil
-}
-
 // addGrid draws the cell lines and the column letters and row numbers just
 // outside the first row and first column.
 func addGrid(p *plot.Plot, fr frame, g *geo.Grid) error {
@@ -463,20 +472,14 @@ func addGrid(p *plot.Plot, fr frame, g *geo.Grid) error {
 			return err
 		}
 	}
-	var xy plotter.XYs
 	var text []string
 	for i := 0; i < g.Cols; i++ {
-		la, lo := g.GridToLatLon(float64(i)+0.5, -0.35)
-		x, y := fr.xy(la, lo)
-		xy = append(xy, plotter.XY{X: x, Y: y})
 		text = append(text, geo.ColumnLabel(g.FirstCol+i))
 	}
 	for j := 0; j < g.Rows; j++ {
-		la, lo := g.GridToLatLon(-0.35, float64(j)+0.5)
-		x, y := fr.xy(la, lo)
-		xy = append(xy, plotter.XY{X: x, Y: y})
 		text = append(text, fmt.Sprint(g.FirstRow+j))
 	}
+	xy := gridLabelXY(fr, g)
 	lb, err := plotter.NewLabels(plotter.XYLabels{XYs: xy, Labels: text})
 	if err != nil {
 		return err
@@ -489,6 +492,23 @@ func addGrid(p *plot.Plot, fr frame, g *geo.Grid) error {
 	}
 	p.Add(lb)
 	return nil
+}
+
+// gridLabelXY is where the column letters (first) and row numbers go:
+// just outside the first row and the first column.
+func gridLabelXY(fr frame, g *geo.Grid) plotter.XYs {
+	var xy plotter.XYs
+	for i := 0; i < g.Cols; i++ {
+		la, lo := g.GridToLatLon(float64(i)+0.5, -0.35)
+		x, y := fr.xy(la, lo)
+		xy = append(xy, plotter.XY{X: x, Y: y})
+	}
+	for j := 0; j < g.Rows; j++ {
+		la, lo := g.GridToLatLon(-0.35, float64(j)+0.5)
+		x, y := fr.xy(la, lo)
+		xy = append(xy, plotter.XY{X: x, Y: y})
+	}
+	return xy
 }
 
 // kmTicks marks about eight round steps (1, 2 or 5 times a power of ten).

@@ -133,3 +133,65 @@ func absDiff(a, b uint32) uint32 {
 	}
 	return b - a
 }
+
+// Names are placed clear of ellipses, station and fix marks, the grid's
+// letters, the legend, the scale bar and each other (an invented scene of
+// three transmitters seen from three stations, at two map sizes).
+func TestLabelsClear(t *testing.T) {
+	type pt struct{ lat, lon float64 }
+	stations := map[string]pt{"hill": {-27.470, 153.010}, "ford": {-27.525, 152.985}, "gate": {-27.515, 153.045}}
+	txs := map[string]pt{"TX/1": {-27.490, 153.025}, "TX/2": {-27.500, 153.000}, "TX/3": {-27.510, 153.020}}
+	var fixes []*geo.Fix
+	for _, id := range []string{"TX/1", "TX/2", "TX/3"} {
+		var lops []geo.LOP
+		for _, st := range []string{"hill", "ford", "gate"} {
+			s, x := stations[st], txs[id]
+			_, az, _ := geo.Inverse(s.lat, s.lon, x.lat, x.lon)
+			lops = append(lops, geo.LOP{Ident: id, Station: st, Lat: s.lat, Lon: s.lon, BearingDeg: az + 1.5, SigmaDeg: 3})
+		}
+		f, err := geo.SolveFix(lops, geo.FixOptions{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		fixes = append(fixes, f)
+	}
+	g, err := geo.ParseGrid("origin=-27.465,152.980 cell=500 cols=A-N rows=1-13")
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, f := range fixes {
+		if err := f.Place(g, 2); err != nil {
+			t.Fatal(err)
+		}
+	}
+	for _, size := range []float64{22, 14} {
+		_, lp, err := render(fixes, g, "png", Options{SizeCm: size})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(lp.placed) != 6 {
+			t.Fatalf("%d labels placed, want 3 fixes and 3 stations", len(lp.placed))
+		}
+		for i, b := range lp.placed {
+			name := lp.labels[i].text
+			if b.Min.X < lp.area.Min.X || b.Max.X > lp.area.Max.X || b.Min.Y < lp.area.Min.Y || b.Max.Y > lp.area.Max.Y {
+				t.Errorf("%.0f cm: %q leaves the map", size, name)
+			}
+			for _, e := range lp.ell {
+				if polyHits(e, b, true) {
+					t.Errorf("%.0f cm: %q covers an ellipse", size, name)
+				}
+			}
+			for _, k := range lp.keepClear {
+				if overlaps(b, k) {
+					t.Errorf("%.0f cm: %q covers a mark, a grid label, the legend or the scale bar", size, name)
+				}
+			}
+			for j, o := range lp.placed[:i] {
+				if overlaps(b, o) {
+					t.Errorf("%.0f cm: %q covers %q", size, name, lp.labels[j].text)
+				}
+			}
+		}
+	}
+}
