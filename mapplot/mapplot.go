@@ -190,7 +190,7 @@ func render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 		for i := 0; i < n; i++ {
 			v := shade[j*n+i]
 			a := uint8(math.Round(170 * math.Sqrt(v)))
-			img.Set(i, n-1-j, color.NRGBA{R: 255, G: 150, B: 0, A: a})
+			img.Set(i, n-1-j, palette.WithAlpha(palette.Shade, a))
 		}
 	}
 	p.Add(plotter.NewImage(img, x0, y0, x1, y1))
@@ -379,7 +379,7 @@ func render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 type shadeThumb struct{}
 
 func (shadeThumb) Thumbnail(c *draw.Canvas) {
-	c.SetColor(color.NRGBA{R: 255, G: 150, B: 0, A: 120})
+	c.SetColor(palette.WithAlpha(palette.Shade, palette.ShadeSwatchAlpha))
 	c.Fill(c.Rectangle.Path())
 }
 
@@ -485,7 +485,7 @@ func addGrid(p *plot.Plot, fr frame, g *geo.Grid) error {
 		return err
 	}
 	for i := range lb.TextStyle {
-		lb.TextStyle[i].Color = color.NRGBA{G: 100, B: 50, A: 255}
+		lb.TextStyle[i].Color = palette.GridLabel
 		lb.TextStyle[i].Font.Size = vg.Points(9)
 		lb.TextStyle[i].XAlign = draw.XCenter
 		lb.TextStyle[i].YAlign = draw.YCenter
