@@ -375,3 +375,22 @@ func TestRenderUnderlay(t *testing.T) {
 		os.WriteFile(filepath.Join(d, "underlay-check.png"), out, 0o644)
 	}
 }
+
+// BenchmarkWarp: a 22 cm map's data area at 96 dpi (about 760 pixels a
+// side) from a 1200×1200 picture.
+func BenchmarkWarp(b *testing.B) {
+	dir := b.TempDir()
+	img := image.NewNRGBA(image.Rect(0, 0, 1200, 1200))
+	var buf bytes.Buffer
+	png.Encode(&buf, img)
+	pic := filepath.Join(dir, "sheet.png")
+	os.WriteFile(pic, buf.Bytes(), 0o644)
+	u, err := UnderlaySpec{Path: pic, Ref: "sw=52.15,5.78 ne=52.30,5.98"}.Load()
+	if err != nil {
+		b.Fatal(err)
+	}
+	fr := frame{52.22, 5.87}
+	for b.Loop() {
+		u.warp(fr, -6, -6, 6, 6, 760, 760, warpStep)
+	}
+}
