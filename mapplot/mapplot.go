@@ -11,6 +11,7 @@ import (
 	"image"
 	"image/color"
 	"math"
+	"path/filepath"
 	"strconv"
 	"strings"
 
@@ -147,6 +148,9 @@ func render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 	// bearings, the two ellipses, the fix, the shading, the station and
 	// perhaps rejected bearings, 13 pt each at 10 pt type.
 	entries := len(fixes) + 6
+	if opt.Underlay != nil {
+		entries++
+	}
 	frac := math.Min(0.45, float64(entries*13+16)/(0.85*opt.SizeCm*72/2.54))
 	band := span * frac / (1 - frac)
 	x0, x1, y0, y1 := cx-span/2-band/2, cx+span/2+band/2, cy-span/2, cy+span/2+band
@@ -330,6 +334,9 @@ func render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 		}
 	}
 	p.Add(lp)
+	if opt.Underlay != nil {
+		p.Legend.Add("under it: "+filepath.Base(opt.Underlay.name), underlayThumb{opt.Underlay})
+	}
 	p.Add(furniture{spanKm: x1 - x0})
 	p.Title.Padding = vg.Points(8)
 	p.Legend.Top = true
@@ -373,6 +380,29 @@ func render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 		return nil, nil, fmt.Errorf("map: %w", err)
 	}
 	return buf.Bytes(), lp, nil
+}
+
+// underlayThumb is the legend's swatch for the underlay: its mean colour,
+// washed as drawn.
+type underlayThumb struct{ u *Underlay }
+
+func (t underlayThumb) Thumbnail(c *draw.Canvas) {
+	var sum [4]float64
+	pix := t.u.img.Pix
+	n := 0
+	for o := 0; o+3 < len(pix); o += 4 * 97 { // a sample of the pixels
+		for k := 0; k < 4; k++ {
+			sum[k] += float64(pix[o+k])
+		}
+		n++
+	}
+	k := 1 - underlayWash
+	a := sum[3] / float64(n)
+	col := color.RGBA{R: uint8(k*sum[0]/float64(n) + underlayWash*a), G: uint8(k*sum[1]/float64(n) + underlayWash*a), B: uint8(k*sum[2]/float64(n) + underlayWash*a), A: uint8(a)}
+	c.SetColor(col)
+	c.Fill(c.Rectangle.Path())
+	c.SetLineStyle(draw.LineStyle{Color: color.Gray{Y: 120}, Width: vg.Points(0.5)})
+	c.Stroke(c.Rectangle.Path())
 }
 
 // shadeThumb is the legend's swatch for the likelihood shading.

@@ -76,9 +76,10 @@ type Underlay struct {
 	toPixel func(lat, lon float64) (px, py float64)
 }
 
-// MaxUnderlayPixels bounds the picture's size (an A3 sheet scanned at
-// 600 dpi is about 70 megapixels; at 300 dpi, 17).
-const MaxUnderlayPixels = 80_000_000
+// MaxUnderlayPixels bounds the picture's size, and with it the memory it
+// takes (4 bytes a pixel, held twice while decoding): an A3 sheet scanned
+// at 400 dpi is about 31 megapixels, at 300 dpi 17.
+const MaxUnderlayPixels = 40_000_000
 
 // underlayWash is the share of white mixed into the picture.
 const underlayWash = 0.3
