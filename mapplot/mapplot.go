@@ -171,7 +171,7 @@ func render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 	p.Y.Tick.Marker = kmTicks{}
 	if u := opt.Underlay; u != nil {
 		if u.coverage(fr, x0, y0, x1, y1) == 0 {
-			return nil, nil, fmt.Errorf("%s: %w (the map spans %.1f km around %s)", u.name, ErrUnderlayOutside, x1-x0, geo.FormatLatLon(geo.FromENU(fr.lat0, fr.lon0, cx*1e3, (y0+y1)/2*1e3)))
+			return nil, nil, fmt.Errorf("underlay %s: %w (the map spans %.1f km around %s)", u.name, ErrUnderlayOutside, x1-x0, geo.FormatLatLon(geo.FromENU(fr.lat0, fr.lon0, cx*1e3, (y0+y1)/2*1e3)))
 		}
 		p.Add(underlayPlotter{u: u, fr: fr, x0: x0, y0: y0, x1: x1, y1: y1})
 	} else {

@@ -88,7 +88,7 @@ const underlayWash = 0.3
 const warpStep = 8
 
 // ErrUnderlayOutside: the underlay covers none of the map's area.
-var ErrUnderlayOutside = errors.New("the underlay picture covers none of the map's area")
+var ErrUnderlayOutside = errors.New("the picture covers none of the map's area")
 
 // Load reads and checks the picture and its georeference; nil, nil when
 // no picture is named. Errors name the file and what is wrong.
