@@ -158,6 +158,10 @@ func (lp *labelPlacer) Plot(c draw.Canvas, p *plot.Plot) {
 				{X: a.X - d - w, Y: a.Y - h/2}, {X: a.X - dd - w, Y: a.Y - dd - h}, {X: a.X - dd - w, Y: a.Y + dd},
 				{X: a.X - w/2, Y: a.Y - d - h}, {X: a.X - w/2, Y: a.Y + d},
 			}
+			// farther out, should all of those be taken
+			far := 2.5 * d
+			cands = append(cands, vg.Point{X: a.X + far, Y: a.Y - h/2}, vg.Point{X: a.X - far - w, Y: a.Y - h/2},
+				vg.Point{X: a.X - w/2, Y: a.Y + far}, vg.Point{X: a.X - w/2, Y: a.Y - far - h})
 		}
 		best, bestCost := rect{}, math.Inf(1)
 		for k, ll := range cands {

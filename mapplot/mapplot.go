@@ -368,7 +368,7 @@ func render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 	left := da.Min.X + legend.XOffs
 	box := vg.Rectangle{Min: vg.Point{X: left - pad, Y: top - size.Y - legend.TextStyle.FontExtents().Descent - pad},
 		Max: vg.Point{X: left + size.X + pad, Y: top + pad}}
-	*lp.avoid = append(*lp.avoid, box, furnitureRect(da))
+	*lp.avoid = append(append(*lp.avoid, box), furnitureRects(da, x1-x0)...)
 	p.Draw(dc)
 	da.SetColor(color.NRGBA{R: 255, G: 255, B: 255, A: 225})
 	da.Fill(box.Path())
@@ -430,11 +430,17 @@ func niceLength(spanKm float64) float64 {
 	return e
 }
 
-// furnitureRect bounds what furniture draws on the data canvas c: the bar
-// is at most a fifth of the width (niceLength), the arrow and its N above.
-func furnitureRect(c draw.Canvas) vg.Rectangle {
-	return vg.Rectangle{Min: vg.Point{X: c.Max.X - vg.Points(22) - (c.Max.X-c.Min.X)/5, Y: c.Min.Y},
-		Max: vg.Point{X: c.Max.X, Y: c.Min.Y + vg.Points(82)}}
+// furnitureRects bound what furniture draws on the data canvas c for a
+// map spanKm wide: the scale bar with its label, and the north arrow with
+// its N (the lengths of furniture.Plot).
+func furnitureRects(c draw.Canvas, spanKm float64) []vg.Rectangle {
+	px := vg.Length(niceLength(spanKm)/spanKm) * (c.Max.X - c.Min.X)
+	right, bottom := c.Max.X-vg.Points(14), c.Min.Y+vg.Points(14)
+	ax, ay := right-vg.Points(8), bottom+vg.Points(30)
+	return []vg.Rectangle{
+		{Min: vg.Point{X: right - px - vg.Points(3), Y: bottom - vg.Points(3)}, Max: vg.Point{X: right + vg.Points(3), Y: bottom + vg.Points(20)}},
+		{Min: vg.Point{X: ax - vg.Points(8), Y: ay - vg.Points(2)}, Max: vg.Point{X: ax + vg.Points(8), Y: ay + vg.Points(38)}},
+	}
 }
 
 func (f furniture) Plot(c draw.Canvas, p *plot.Plot) {

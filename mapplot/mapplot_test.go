@@ -3,8 +3,11 @@ package mapplot
 import (
 	"bytes"
 	"encoding/xml"
+	"fmt"
 	"image/png"
 	"io"
+	"os"
+	"path/filepath"
 	"testing"
 
 	"nullseek/geo"
@@ -165,33 +168,57 @@ func TestLabelsClear(t *testing.T) {
 		}
 	}
 	for _, size := range []float64{22, 14} {
-		_, lp, err := render(fixes, g, "png", Options{SizeCm: size})
+		b, lp, err := render(fixes, g, "png", Options{SizeCm: size})
 		if err != nil {
 			t.Fatal(err)
+		}
+		if d := os.Getenv("NULLSEEK_PLOT_DIR"); d != "" { // keep it to look at
+			os.WriteFile(filepath.Join(d, fmt.Sprintf("labels-%.0fcm.png", size)), b, 0o644)
 		}
 		if len(lp.placed) != 6 {
 			t.Fatalf("%d labels placed, want 3 fixes and 3 stations", len(lp.placed))
 		}
-		for i, b := range lp.placed {
-			name := lp.labels[i].text
-			if b.Min.X < lp.area.Min.X || b.Max.X > lp.area.Max.X || b.Min.Y < lp.area.Min.Y || b.Max.Y > lp.area.Max.Y {
-				t.Errorf("%.0f cm: %q leaves the map", size, name)
+		checkLabels(t, fmt.Sprintf("%.0f cm", size), lp)
+	}
+}
+
+// checkLabels fails t for each placed name that leaves the map or covers an
+// ellipse, a mark, a grid label, the legend, the scale bar or another name.
+func checkLabels(t *testing.T, what string, lp *labelPlacer) {
+	t.Helper()
+	for i, b := range lp.placed {
+		name := lp.labels[i].text
+		if b.Min.X < lp.area.Min.X || b.Max.X > lp.area.Max.X || b.Min.Y < lp.area.Min.Y || b.Max.Y > lp.area.Max.Y {
+			t.Errorf("%s: %q leaves the map", what, name)
+		}
+		for _, e := range lp.ell {
+			if polyHits(e, b, true) {
+				t.Errorf("%s: %q covers an ellipse", what, name)
 			}
-			for _, e := range lp.ell {
-				if polyHits(e, b, true) {
-					t.Errorf("%.0f cm: %q covers an ellipse", size, name)
-				}
+		}
+		for _, k := range lp.keepClear {
+			if overlaps(b, k) {
+				t.Errorf("%s: %q covers a mark, a grid label, the legend or the scale bar", what, name)
 			}
-			for _, k := range lp.keepClear {
-				if overlaps(b, k) {
-					t.Errorf("%.0f cm: %q covers a mark, a grid label, the legend or the scale bar", size, name)
-				}
-			}
-			for j, o := range lp.placed[:i] {
-				if overlaps(b, o) {
-					t.Errorf("%.0f cm: %q covers %q", size, name, lp.labels[j].text)
-				}
+		}
+		for j, o := range lp.placed[:i] {
+			if overlaps(b, o) {
+				t.Errorf("%s: %q covers %q", what, name, lp.labels[j].text)
 			}
 		}
 	}
+}
+
+// The small one-transmitter map (10 cm), where the scale bar and a station
+// compete for the lower right corner.
+func TestLabelsClearSmallMap(t *testing.T) {
+	fixes, g := testFix(t)
+	_, lp, err := render(fixes, g, "png", Options{SizeCm: 10})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(lp.placed) != 4 {
+		t.Fatalf("%d labels placed, want 1 fix and 3 stations", len(lp.placed))
+	}
+	checkLabels(t, "10 cm", lp)
 }
