@@ -36,7 +36,8 @@ type labelPlacer struct {
 	ellipses []plotter.XYs   // 95 % ellipses (km)
 	lines    []plotter.XYs   // lines of position (km)
 	points   []plotter.XY    // stations and fixes (km): marks to keep clear
-	boxes    []plotter.XY    // the grid's letters and numbers (km), about 10 pt square
+	boxes    []plotter.XY    // the grid's letters and numbers (km)
+	boxText  []string        // and what they say
 	avoid    *[]vg.Rectangle // canvas areas to keep clear (legend, scale bar), set before drawing
 	// cost is, per label, what its chosen place covers (filled in when
 	// drawn: 0 clear, ≥ 100 over an ellipse, mark, label or the legend,
@@ -48,6 +49,7 @@ type labelPlacer struct {
 	ell       [][]vg.Point
 	keepClear []rect
 	area      rect
+	grid      []rect // the grid's letters and numbers
 }
 
 type rect = vg.Rectangle
@@ -120,10 +122,16 @@ func (lp *labelPlacer) Plot(c draw.Canvas, p *plot.Plot) {
 		r := vg.Points(5)
 		hard = append(hard, rect{Min: vg.Point{X: pt.X - r, Y: pt.Y - r}, Max: vg.Point{X: pt.X + r, Y: pt.Y + r}})
 	}
-	for _, q := range lp.boxes {
+	lp.grid = nil
+	for i, q := range lp.boxes {
+		// about the glyphs' extent at 9 pt (capitals and digits)
+		gs := p.Legend.TextStyle
+		gs.Font.Size = vg.Points(9)
 		pt := tr(q)
-		r := vg.Points(5)
-		hard = append(hard, rect{Min: vg.Point{X: pt.X - r, Y: pt.Y - r}, Max: vg.Point{X: pt.X + r, Y: pt.Y + r}})
+		rx, ry := gs.Width(lp.boxText[i])/2+vg.Points(0.3), vg.Points(3.5)
+		b := rect{Min: vg.Point{X: pt.X - rx, Y: pt.Y - ry}, Max: vg.Point{X: pt.X + rx, Y: pt.Y + ry}}
+		hard = append(hard, b)
+		lp.grid = append(lp.grid, b)
 	}
 	if lp.avoid != nil {
 		hard = append(hard, *lp.avoid...)

@@ -199,14 +199,15 @@ func render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 	}
 	p.Add(plotter.NewImage(img, x0, y0, x1, y1))
 
-	if g != nil {
-		if err := addGrid(p, fr, g); err != nil {
-			return nil, nil, err
-		}
-	}
 	lp := &labelPlacer{avoid: new([]vg.Rectangle)}
 	if g != nil {
-		lp.boxes = gridLabelXY(fr, g)
+		// about how long a cell side is on the canvas (the data area is
+		// some 85 % of the picture's side)
+		cellPt := g.CellM / 1e3 / (x1 - x0) * 0.85 * opt.SizeCm / 2.54 * 72
+		if err := addGrid(p, fr, g, cellPt); err != nil {
+			return nil, nil, err
+		}
+		lp.boxes, lp.boxText = gridLabelXY(fr, g, cellPt)
 	}
 	seen := map[string]bool{}
 	var stXY plotter.XYs
@@ -484,7 +485,7 @@ func (f furniture) Plot(c draw.Canvas, p *plot.Plot) {
 
 // addGrid draws the cell lines and the column letters and row numbers just
 // outside the first row and first column.
-func addGrid(p *plot.Plot, fr frame, g *geo.Grid) error {
+func addGrid(p *plot.Plot, fr frame, g *geo.Grid, cellPt float64) error {
 	seg := func(ax, ay, bx, by float64) error {
 		la, lo := g.GridToLatLon(ax, ay)
 		lb, lob := g.GridToLatLon(bx, by)
@@ -508,14 +509,7 @@ func addGrid(p *plot.Plot, fr frame, g *geo.Grid) error {
 			return err
 		}
 	}
-	var text []string
-	for i := 0; i < g.Cols; i++ {
-		text = append(text, geo.ColumnLabel(g.FirstCol+i))
-	}
-	for j := 0; j < g.Rows; j++ {
-		text = append(text, fmt.Sprint(g.FirstRow+j))
-	}
-	xy := gridLabelXY(fr, g)
+	xy, text := gridLabelXY(fr, g, cellPt)
 	lb, err := plotter.NewLabels(plotter.XYLabels{XYs: xy, Labels: text})
 	if err != nil {
 		return err
@@ -530,21 +524,37 @@ func addGrid(p *plot.Plot, fr frame, g *geo.Grid) error {
 	return nil
 }
 
-// gridLabelXY is where the column letters (first) and row numbers go:
-// just outside the first row and the first column.
-func gridLabelXY(fr frame, g *geo.Grid) plotter.XYs {
+// gridLabelXY is where the column letters (first) and row numbers go,
+// just outside the first row and the first column, and what they say.
+// Where a cell side (cellPt points on the canvas) is too short for its
+// label, only every second, fifth or tenth column or row is labelled, the
+// first always.
+func gridLabelXY(fr frame, g *geo.Grid, cellPt float64) (plotter.XYs, []string) {
+	every := func(needPt float64) int {
+		for _, k := range []int{1, 2, 5, 10, 20, 50} {
+			if float64(k)*cellPt >= needPt {
+				return k
+			}
+		}
+		return 100
+	}
+	colW := 6.0*float64(len(geo.ColumnLabel(g.FirstCol+g.Cols-1))) + 3 // 9 pt type
+	rowW := 12.0
 	var xy plotter.XYs
-	for i := 0; i < g.Cols; i++ {
+	var text []string
+	for i, k := 0, every(colW); i < g.Cols; i += k {
 		la, lo := g.GridToLatLon(float64(i)+0.5, -0.35)
 		x, y := fr.xy(la, lo)
 		xy = append(xy, plotter.XY{X: x, Y: y})
+		text = append(text, geo.ColumnLabel(g.FirstCol+i))
 	}
-	for j := 0; j < g.Rows; j++ {
+	for j, k := 0, every(rowW); j < g.Rows; j += k {
 		la, lo := g.GridToLatLon(-0.35, float64(j)+0.5)
 		x, y := fr.xy(la, lo)
 		xy = append(xy, plotter.XY{X: x, Y: y})
+		text = append(text, fmt.Sprint(g.FirstRow+j))
 	}
-	return xy
+	return xy, text
 }
 
 // kmTicks marks about eight round steps (1, 2 or 5 times a power of ten).

@@ -207,6 +207,14 @@ func checkLabels(t *testing.T, what string, lp *labelPlacer) {
 			}
 		}
 	}
+	// grid letters and numbers: boxes of their glyphs at 9 pt
+	for i, a := range lp.grid {
+		for _, b := range lp.grid[:i] {
+			if overlaps(a, b) {
+				t.Errorf("%s: grid labels at %v and %v overlap", what, a.Min, b.Min)
+			}
+		}
+	}
 }
 
 // The small one-transmitter map (10 cm), where the scale bar and a station
