@@ -6,12 +6,15 @@ import (
 	"fmt"
 	"image/png"
 	"io"
+	"math"
 	"os"
 	"path/filepath"
 	"testing"
 
 	"nullseek/geo"
 	"nullseek/internal/palette"
+
+	"gonum.org/v1/plot/vg"
 )
 
 func testFix(t *testing.T) ([]*geo.Fix, *geo.Grid) {
@@ -207,11 +210,16 @@ func checkLabels(t *testing.T, what string, lp *labelPlacer) {
 			}
 		}
 	}
-	// grid letters and numbers: boxes of their glyphs at 9 pt
+	// grid letters and numbers (boxes of their glyphs at 9 pt): none
+	// overlap, and neighbours along a row or column keep 2 pt apart
+	gap := vg.Points(2)
 	for i, a := range lp.grid {
 		for _, b := range lp.grid[:i] {
-			if overlaps(a, b) {
-				t.Errorf("%s: grid labels at %v and %v overlap", what, a.Min, b.Min)
+			inRow := math.Abs(float64(a.Min.Y-b.Min.Y)) < 0.5
+			inCol := math.Abs(float64(a.Min.X-b.Min.X)) < 0.5
+			tooClose := (inRow && a.Min.X < b.Max.X+gap && b.Min.X < a.Max.X+gap) || (inCol && a.Min.Y < b.Max.Y+gap && b.Min.Y < a.Max.Y+gap)
+			if overlaps(a, b) || tooClose {
+				t.Errorf("%s: grid labels at %v and %v overlap or touch", what, a.Min, b.Min)
 			}
 		}
 	}
