@@ -24,6 +24,8 @@ import (
 	"strings"
 	"time"
 
+	"github.com/spf13/pflag"
+
 	"nullseek/geo"
 	"nullseek/internal/atomicfile"
 	"nullseek/mapplot"
@@ -60,8 +62,15 @@ type Options struct {
 	// cluster: the first to MapPath, the others to MapPath with -2, -3, …
 	// before the extension.
 	GeoJSONPath, KMLPath, MapPath string
-	// Map sizes the map (mapplot.Options; Title and ColorOf are set here).
+	// Map sizes the map (mapplot.Options; Title, ColorOf and Underlay are
+	// set here).
 	Map mapplot.Options
+	// Underlay names a georeferenced picture drawn under the map (fix's
+	// --underlay and --underlay-ref, AddUnderlayFlags); it is read before
+	// any bearing. A picture that covers none of the map is bad input: the
+	// run stops with nothing written. With several maps (clusters), one it
+	// misses is drawn without it, with a warning.
+	Underlay mapplot.UnderlaySpec
 	// Now is the time used for magnetic bearings without a time; zero:
 	// the clock.
 	Now time.Time
@@ -109,6 +118,9 @@ func (o Options) Validate() error {
 	}
 	if err := o.Map.Validate(); err != nil {
 		return fmt.Errorf("%w (--map-size)", err)
+	}
+	if o.Underlay.Path != "" && o.MapPath == "" {
+		return errors.New("--underlay is drawn under the map: give --map FILE too")
 	}
 	if o.MapPath != "" {
 		if _, err := mapplot.Format(o.MapPath); err != nil {
@@ -183,6 +195,9 @@ func Run(srcs []Source, o Options) (*Result, error) {
 		return nil, err
 	}
 	o = o.withDefaults()
+	if err := o.loadUnderlay(); err != nil {
+		return nil, err
+	}
 	if o.Now.IsZero() {
 		o.Now = time.Now().UTC()
 	}
@@ -265,6 +280,9 @@ func RunLOPs(lops []geo.LOP, o Options) (*Result, error) {
 		return nil, err
 	}
 	o = o.withDefaults()
+	if err := o.loadUnderlay(); err != nil {
+		return nil, err
+	}
 	idents, groups := geo.GroupByIdent(lops)
 	res := &Result{Rows: len(lops)}
 	return res, res.solve(idents, groups, o)
@@ -312,8 +330,23 @@ func (res *Result) solve(order []string, groups map[string][]geo.LOP, o Options)
 			}
 		}
 	}
-	res.writeOutputs(clusters, gridOf, o)
+	return res.writeOutputs(clusters, gridOf, o)
+}
+
+// loadUnderlay reads the underlay picture into o.Map.
+func (o *Options) loadUnderlay() error {
+	u, err := o.Underlay.Load()
+	if err != nil {
+		return err
+	}
+	o.Map.Underlay = u
 	return nil
+}
+
+// AddUnderlayFlags registers fix's underlay flags, filling o.Underlay.
+func (o *Options) AddUnderlayFlags(f *pflag.FlagSet) {
+	f.StringVar(&o.Underlay.Path, "underlay", "", "draw the PNG or JPEG `FILE` (an event's own map) under the --map, placed by --underlay-ref or by a world file beside it")
+	f.StringVar(&o.Underlay.Ref, "underlay-ref", "", "the underlay's georeference `SPEC`: \"sw=LAT,LON ne=LAT,LON\" (outer corners of a picture gridded in latitude and longitude) or \"world[=FILE] [crs=lonlat|utm:ZONE{N|S}]\" (ESRI world file; default the one beside the picture, in degrees)")
 }
 
 // clusters groups the fixes whose areas (the fix, its stations, its
@@ -387,36 +420,37 @@ func autoGrid(fixes []*geo.Fix, members []int, cells int) *geo.Grid {
 
 // writeOutputs renders each requested file, then writes each through a
 // temporary file and a rename. One that fails is reported and the rest go
-// on. Without a fix nothing is written.
-func (res *Result) writeOutputs(clusters [][]int, gridOf []*geo.Grid, o Options) {
+// on. Without a fix nothing is written. An underlay that covers none of
+// the maps is an error and nothing is written.
+func (res *Result) writeOutputs(clusters [][]int, gridOf []*geo.Grid, o Options) error {
 	if o.GeoJSONPath == "" && o.KMLPath == "" && o.MapPath == "" {
-		return
+		return nil
 	}
 	if len(res.Fixes) == 0 {
 		res.OutputErrors = append(res.OutputErrors, errors.New("no output files written: no transmitter could be fixed"))
-		return
+		return nil
 	}
-	write := func(path string, render func() ([]byte, error)) {
-		b, err := render()
-		if err == nil && o.Stage != nil {
-			err = o.Stage.Write(path, b)
-		} else if err == nil {
-			err = atomicfile.Write(path, b)
-		}
+	type rendered struct {
+		path string
+		b    []byte
+	}
+	var outs []rendered
+	render := func(path string, f func() ([]byte, error)) {
+		b, err := f()
 		if err != nil {
 			res.OutputErrors = append(res.OutputErrors, fmt.Errorf("%s not written: %w", path, err))
 			return
 		}
-		res.Written = append(res.Written, path)
+		outs = append(outs, rendered{path, b})
 	}
 	if o.GeoJSONPath != "" {
-		write(o.GeoJSONPath, func() ([]byte, error) {
+		render(o.GeoJSONPath, func() ([]byte, error) {
 			b, err := geo.GeoJSON(res.Fixes, res.Grids...)
 			return append(b, '\n'), err
 		})
 	}
 	if o.KMLPath != "" {
-		write(o.KMLPath, func() ([]byte, error) { return geo.KML(res.Fixes, res.Grids...) })
+		render(o.KMLPath, func() ([]byte, error) { return geo.KML(res.Fixes, res.Grids...) })
 	}
 	if o.MapPath != "" {
 		format, _ := mapplot.Format(o.MapPath) // checked by Validate
@@ -424,6 +458,7 @@ func (res *Result) writeOutputs(clusters [][]int, gridOf []*geo.Grid, o Options)
 		for i, f := range res.Fixes {
 			colorOf[f.Ident] = i
 		}
+		var missed []error
 		for c, members := range clusters {
 			path := o.MapPath
 			if c > 0 {
@@ -436,9 +471,36 @@ func (res *Result) writeOutputs(clusters [][]int, gridOf []*geo.Grid, o Options)
 			}
 			mo := o.Map
 			mo.ColorOf = colorOf
-			write(path, func() ([]byte, error) { return mapplot.Render(fixes, gridOf[c], format, mo) })
+			render(path, func() ([]byte, error) {
+				b, err := mapplot.Render(fixes, gridOf[c], format, mo)
+				if errors.Is(err, mapplot.ErrUnderlayOutside) {
+					missed = append(missed, err)
+					mo.Underlay = nil
+					b, err = mapplot.Render(fixes, gridOf[c], format, mo)
+					res.Warnings = append(res.Warnings, fmt.Sprintf("%s is drawn without the underlay: %v", path, missed[len(missed)-1]))
+				}
+				return b, err
+			})
+		}
+		if len(missed) == len(clusters) {
+			res.Warnings = res.Warnings[:len(res.Warnings)-len(missed)]
+			return missed[0]
 		}
 	}
+	for _, r := range outs {
+		var err error
+		if o.Stage != nil {
+			err = o.Stage.Write(r.path, r.b)
+		} else {
+			err = atomicfile.Write(r.path, r.b)
+		}
+		if err != nil {
+			res.OutputErrors = append(res.OutputErrors, fmt.Errorf("%s not written: %w", r.path, err))
+			continue
+		}
+		res.Written = append(res.Written, r.path)
+	}
+	return nil
 }
 
 // LoadGrid reads the event grid the command line gives: spec (--grid,

@@ -4,7 +4,11 @@ import (
 	"bytes"
 	"encoding/json"
 	"encoding/xml"
+	"errors"
 	"fmt"
+	"image"
+	"image/png"
+	"io"
 	"math"
 	"os"
 	"os/exec"
@@ -403,3 +407,64 @@ func TestAutoGridStable(t *testing.T) {
 }
 
 func mapOpt(size float64) (m mapplot.Options) { m.SizeCm = size; return m }
+
+// The underlay (mapplot's georeferenced picture): drawn under the map it
+// covers, left off (with a warning) a map it misses, and a run whose maps
+// it all misses stops with nothing written; a missing picture stops the
+// run before any bearing is read.
+func TestUnderlayOnTheMaps(t *testing.T) {
+	dir := t.TempDir()
+	pic := filepath.Join(dir, "sheet.png")
+	img := image.NewNRGBA(image.Rect(0, 0, 64, 48))
+	for i := range img.Pix {
+		img.Pix[i] = 200
+	}
+	var buf bytes.Buffer
+	if err := png.Encode(&buf, img); err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(pic, buf.Bytes(), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	// over N0CALL/1's region only
+	o := Options{MapPath: filepath.Join(dir, "m.png"), Underlay: mapplot.UnderlaySpec{Path: pic, Ref: "sw=46.1,7.1 ne=46.3,7.5"}}
+	res := run(t, bearingsCSV(t, farApart, 1), o)
+	if len(res.Written) != 2 || len(res.OutputErrors) != 0 {
+		t.Fatalf("written %v, errors %v", res.Written, res.OutputErrors)
+	}
+	if w := strings.Join(res.Warnings, "\n"); !strings.Contains(w, "m-2.png is drawn without the underlay") || strings.Contains(w, "m.png is drawn") {
+		t.Errorf("warnings %q", w)
+	}
+
+	// over neither: nothing written
+	out := t.TempDir()
+	o = Options{MapPath: filepath.Join(out, "m.png"), GeoJSONPath: filepath.Join(out, "f.geojson"), Underlay: mapplot.UnderlaySpec{Path: pic, Ref: "sw=10,10 ne=10.1,10.1"}}
+	_, err := Run([]Source{{Name: "in.csv", R: strings.NewReader(bearingsCSV(t, farApart[:1], 1))}}, o)
+	if !errors.Is(err, mapplot.ErrUnderlayOutside) || strings.Contains(err.Error(), "\n") {
+		t.Errorf("underlay far away: %v", err)
+	}
+	if ents, _ := os.ReadDir(out); len(ents) != 0 {
+		t.Errorf("files written although the run failed: %v", ents)
+	}
+
+	// missing picture: refused before the bearings are read
+	rd := &countingReader{r: strings.NewReader(bearingsCSV(t, farApart[:1], 1))}
+	o.Underlay.Path = filepath.Join(dir, "nope.png")
+	if _, err := Run([]Source{{Name: "in.csv", R: rd}}, o); err == nil || !strings.Contains(err.Error(), "nope.png") || rd.n != 0 {
+		t.Errorf("missing picture: %v, %d bytes of bearings read", err, rd.n)
+	}
+	if err := (Options{Underlay: mapplot.UnderlaySpec{Path: pic}}).Validate(); err == nil || !strings.Contains(err.Error(), "--map") {
+		t.Errorf("underlay without a map: %v", err)
+	}
+}
+
+type countingReader struct {
+	r io.Reader
+	n int
+}
+
+func (c *countingReader) Read(p []byte) (int, error) {
+	n, err := c.r.Read(p)
+	c.n += n
+	return n, err
+}

@@ -11,6 +11,7 @@ import (
 	"image"
 	"image/color"
 	"math"
+	"path/filepath"
 	"strconv"
 	"strings"
 
@@ -35,6 +36,10 @@ type Options struct {
 	// ColorOf gives a transmitter's colour index (internal/palette) by
 	// ident, so several maps and the KML agree; nil: the order of the fixes.
 	ColorOf map[string]int
+	// Underlay is a georeferenced picture drawn under everything else
+	// (UnderlaySpec.Load); nil for none. One that covers none of the map's
+	// area is an error (ErrUnderlayOutside).
+	Underlay *Underlay
 }
 
 // Defaults are the values zero Options fields take.
@@ -92,11 +97,17 @@ func (f frame) line(pts [][2]float64) plotter.XYs {
 // returns the encoded picture. The map is a square of equal east and north
 // scale in km from the grid origin (or the first fix without a grid).
 func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, error) {
+	b, _, err := render(fixes, g, format, opt)
+	return b, err
+}
+
+// render is Render that also returns the label placer (for its costs).
+func render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, *labelPlacer, error) {
 	if len(fixes) == 0 {
-		return nil, errors.New("map: no fixes to draw")
+		return nil, nil, errors.New("map: no fixes to draw")
 	}
 	if err := opt.Validate(); err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	if opt.SizeCm == 0 {
 		opt.SizeCm = Defaults.SizeCm
@@ -137,6 +148,9 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 	// bearings, the two ellipses, the fix, the shading, the station and
 	// perhaps rejected bearings, 13 pt each at 10 pt type.
 	entries := len(fixes) + 6
+	if opt.Underlay != nil {
+		entries++
+	}
 	frac := math.Min(0.45, float64(entries*13+16)/(0.85*opt.SizeCm*72/2.54))
 	band := span * frac / (1 - frac)
 	x0, x1, y0, y1 := cx-span/2-band/2, cx+span/2+band/2, cy-span/2, cy+span/2+band
@@ -155,7 +169,14 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 	p.X.Min, p.X.Max, p.Y.Min, p.Y.Max = x0, x1, y0, y1
 	p.X.Tick.Marker = kmTicks{}
 	p.Y.Tick.Marker = kmTicks{}
-	p.Add(plotter.NewGrid())
+	if u := opt.Underlay; u != nil {
+		if u.coverage(fr, x0, y0, x1, y1) == 0 {
+			return nil, nil, fmt.Errorf("underlay %s: %w (the map spans %.1f km around %s)", u.name, ErrUnderlayOutside, x1-x0, geo.FormatLatLon(geo.FromENU(fr.lat0, fr.lon0, cx*1e3, (y0+y1)/2*1e3)))
+		}
+		p.Add(underlayPlotter{u: u, fr: fr, x0: x0, y0: y0, x1: x1, y1: y1})
+	} else {
+		p.Add(plotter.NewGrid())
+	}
 
 	// Likelihood shading, each transmitter scaled to its own peak.
 	n := opt.ShadeCells
@@ -173,15 +194,20 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 		for i := 0; i < n; i++ {
 			v := shade[j*n+i]
 			a := uint8(math.Round(170 * math.Sqrt(v)))
-			img.Set(i, n-1-j, color.NRGBA{R: 255, G: 150, B: 0, A: a})
+			img.Set(i, n-1-j, palette.WithAlpha(palette.Shade, a))
 		}
 	}
 	p.Add(plotter.NewImage(img, x0, y0, x1, y1))
 
+	lp := &labelPlacer{avoid: new([]vg.Rectangle)}
 	if g != nil {
-		if err := addGrid(p, fr, g); err != nil {
-			return nil, err
+		// about how long a cell side is on the canvas (the data area is
+		// some 85 % of the picture's side)
+		cellPt := g.CellM / 1e3 / (x1 - x0) * 0.85 * opt.SizeCm / 2.54 * 72
+		if err := addGrid(p, fr, g, cellPt); err != nil {
+			return nil, nil, err
 		}
+		lp.boxes, lp.boxText = gridLabelXY(fr, g, cellPt)
 	}
 	seen := map[string]bool{}
 	var stXY plotter.XYs
@@ -208,7 +234,7 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 				}
 				poly, err := plotter.NewPolygon(fr.line(wedge))
 				if err != nil {
-					return nil, err
+					return nil, nil, err
 				}
 				poly.Color = colWedge
 				poly.LineStyle.Width = 0
@@ -216,8 +242,9 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 			}
 			ln, err := plotter.NewLine(fr.line(b.Line(L, 24)))
 			if err != nil {
-				return nil, err
+				return nil, nil, err
 			}
+			lp.lines = append(lp.lines, ln.XYs)
 			ln.Width = vg.Points(1.2)
 			ln.Color = colUsed
 			if !b.Used {
@@ -247,7 +274,10 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 		}{{f.Ellipse, false}, {f.Ellipse1Sigma, true}} {
 			ln, err := plotter.NewLine(fr.line(geo.EllipsePolygon(f, e.el, 72)))
 			if err != nil {
-				return nil, err
+				return nil, nil, err
+			}
+			if !e.dashed {
+				lp.ellipses = append(lp.ellipses, ln.XYs)
 			}
 			ln.Color = colEllipse
 			ln.Width = vg.Points(1.6)
@@ -267,7 +297,7 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 		x, y := fr.xy(f.Lat, f.Lon)
 		sc, err := plotter.NewScatter(plotter.XYs{{X: x, Y: y}})
 		if err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 		sc.Shape = draw.CrossGlyph{}
 		sc.Color = colEllipse
@@ -281,29 +311,32 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 		if f.GridCell != "" {
 			label += "  cell " + f.GridCell
 		}
-		// The label sits right of the 95% ellipse, clear of it.
-		right := x
+		box := [4]float64{x, y, x, y}
 		for _, q := range geo.EllipsePolygon(f, f.Ellipse, 36) {
-			qx, _ := fr.xy(q[0], q[1])
-			right = math.Max(right, qx)
+			qx, qy := fr.xy(q[0], q[1])
+			box = [4]float64{math.Min(box[0], qx), math.Min(box[1], qy), math.Max(box[2], qx), math.Max(box[3], qy)}
 		}
-		if err := addLabels(p, plotter.XYs{{X: right, Y: y}}, []string{label}, colEllipse, 12, vg.Points(5), vg.Points(-4)); err != nil {
-			return nil, err
-		}
+		lp.points = append(lp.points, plotter.XY{X: x, Y: y})
+		lp.labels = append(lp.labels, mapLabel{text: label, col: colEllipse, size: vg.Points(12), at: plotter.XY{X: x, Y: y}, box: box, isFix: true})
 	}
 	if len(stXY) > 0 {
 		sc, err := plotter.NewScatter(stXY)
 		if err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 		sc.Shape = draw.TriangleGlyph{}
 		sc.Color = colStation
 		sc.Radius = vg.Points(4.5)
 		p.Add(sc)
 		p.Legend.Add("station", sc)
-		if err := addLabels(p, stXY, stNames, colStation, 10, vg.Points(6), vg.Points(-12)); err != nil {
-			return nil, err
+		for i, q := range stXY {
+			lp.points = append(lp.points, q)
+			lp.labels = append(lp.labels, mapLabel{text: stNames[i], col: colStation, size: vg.Points(10), at: q, r: sc.Radius})
 		}
+	}
+	p.Add(lp)
+	if opt.Underlay != nil {
+		p.Legend.Add("under it: "+filepath.Base(opt.Underlay.name), underlayThumb{opt.Underlay})
 	}
 	p.Add(furniture{spanKm: x1 - x0})
 	p.Title.Padding = vg.Points(8)
@@ -316,14 +349,14 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 	side := vg.Length(opt.SizeCm) * vg.Centimeter
 	cw, err := draw.NewFormattedCanvas(side, side, format)
 	if err != nil {
-		return nil, fmt.Errorf("map: %w", err)
+		return nil, nil, fmt.Errorf("map: %w", err)
 	}
 	// The legend is drawn last, on a light box of its own, so that what
 	// lies under it stays readable and it stays readable over the map.
 	legend := p.Legend
 	p.Legend = plot.NewLegend()
-	dc := draw.New(cw)
-	p.Draw(dc)
+	// a margin round the picture: the title off the top edge
+	dc := draw.Crop(draw.New(cw), 0, -vg.Points(4), 0, -vg.Points(6))
 	da := p.DataCanvas(dc)
 	// The legend's size from gonum's Legend.Rectangle (whose Left is the
 	// mirror of Draw's in plot v0.17, and which leaves out the offsets),
@@ -336,6 +369,8 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 	left := da.Min.X + legend.XOffs
 	box := vg.Rectangle{Min: vg.Point{X: left - pad, Y: top - size.Y - legend.TextStyle.FontExtents().Descent - pad},
 		Max: vg.Point{X: left + size.X + pad, Y: top + pad}}
+	*lp.avoid = append(append(*lp.avoid, box), furnitureRects(da, x1-x0)...)
+	p.Draw(dc)
 	da.SetColor(color.NRGBA{R: 255, G: 255, B: 255, A: 225})
 	da.Fill(box.Path())
 	da.SetLineStyle(draw.LineStyle{Color: color.Gray{Y: 140}, Width: vg.Points(0.6)})
@@ -343,16 +378,39 @@ func Render(fixes []*geo.Fix, g *geo.Grid, format string, opt Options) ([]byte, 
 	legend.Draw(da)
 	var buf bytes.Buffer
 	if _, err := cw.WriteTo(&buf); err != nil {
-		return nil, fmt.Errorf("map: %w", err)
+		return nil, nil, fmt.Errorf("map: %w", err)
 	}
-	return buf.Bytes(), nil
+	return buf.Bytes(), lp, nil
+}
+
+// underlayThumb is the legend's swatch for the underlay: its mean colour,
+// washed as drawn.
+type underlayThumb struct{ u *Underlay }
+
+func (t underlayThumb) Thumbnail(c *draw.Canvas) {
+	var sum [4]float64
+	pix := t.u.img.Pix
+	n := 0
+	for o := 0; o+3 < len(pix); o += 4 * 97 { // a sample of the pixels
+		for k := 0; k < 4; k++ {
+			sum[k] += float64(pix[o+k])
+		}
+		n++
+	}
+	k := 1 - underlayWash
+	a := sum[3] / float64(n)
+	col := color.RGBA{R: uint8(k*sum[0]/float64(n) + underlayWash*a), G: uint8(k*sum[1]/float64(n) + underlayWash*a), B: uint8(k*sum[2]/float64(n) + underlayWash*a), A: uint8(a)}
+	c.SetColor(col)
+	c.Fill(c.Rectangle.Path())
+	c.SetLineStyle(draw.LineStyle{Color: color.Gray{Y: 120}, Width: vg.Points(0.5)})
+	c.Stroke(c.Rectangle.Path())
 }
 
 // shadeThumb is the legend's swatch for the likelihood shading.
 type shadeThumb struct{}
 
 func (shadeThumb) Thumbnail(c *draw.Canvas) {
-	c.SetColor(color.NRGBA{R: 255, G: 150, B: 0, A: 120})
+	c.SetColor(palette.WithAlpha(palette.Shade, palette.ShadeSwatchAlpha))
 	c.Fill(c.Rectangle.Path())
 }
 
@@ -371,6 +429,19 @@ func niceLength(spanKm float64) float64 {
 		}
 	}
 	return e
+}
+
+// furnitureRects bound what furniture draws on the data canvas c for a
+// map spanKm wide: the scale bar with its label, and the north arrow with
+// its N (the lengths of furniture.Plot).
+func furnitureRects(c draw.Canvas, spanKm float64) []vg.Rectangle {
+	px := vg.Length(niceLength(spanKm)/spanKm) * (c.Max.X - c.Min.X)
+	right, bottom := c.Max.X-vg.Points(14), c.Min.Y+vg.Points(14)
+	ax, ay := right-vg.Points(8), bottom+vg.Points(30)
+	return []vg.Rectangle{
+		{Min: vg.Point{X: right - px - vg.Points(3), Y: bottom - vg.Points(3)}, Max: vg.Point{X: right + vg.Points(3), Y: bottom + vg.Points(20)}},
+		{Min: vg.Point{X: ax - vg.Points(8), Y: ay - vg.Points(2)}, Max: vg.Point{X: ax + vg.Points(8), Y: ay + vg.Points(38)}},
+	}
 }
 
 func (f furniture) Plot(c draw.Canvas, p *plot.Plot) {
@@ -412,23 +483,9 @@ func (f furniture) Plot(c draw.Canvas, p *plot.Plot) {
 	c.FillText(sty, vg.Point{X: ax, Y: ay + vg.Points(24)}, "N")
 }
 
-func addLabels(p *plot.Plot, xy plotter.XYs, text []string, c color.Color, sizePt float64, dx, dy vg.Length) error {
-	lb, err := plotter.NewLabels(plotter.XYLabels{XYs: xy, Labels: text})
-	if err != nil {
-		return err
-	}
-	for i := range lb.TextStyle {
-		lb.TextStyle[i].Color = c
-		lb.TextStyle[i].Font.Size = vg.Points(sizePt)
-	}
-	lb.Offset = vg.Point{X: dx, Y: dy}
-	p.Add(lb)
-	return nil
-}
-
 // addGrid draws the cell lines and the column letters and row numbers just
 // outside the first row and first column.
-func addGrid(p *plot.Plot, fr frame, g *geo.Grid) error {
+func addGrid(p *plot.Plot, fr frame, g *geo.Grid, cellPt float64) error {
 	seg := func(ax, ay, bx, by float64) error {
 		la, lo := g.GridToLatLon(ax, ay)
 		lb, lob := g.GridToLatLon(bx, by)
@@ -452,32 +509,52 @@ func addGrid(p *plot.Plot, fr frame, g *geo.Grid) error {
 			return err
 		}
 	}
-	var xy plotter.XYs
-	var text []string
-	for i := 0; i < g.Cols; i++ {
-		la, lo := g.GridToLatLon(float64(i)+0.5, -0.35)
-		x, y := fr.xy(la, lo)
-		xy = append(xy, plotter.XY{X: x, Y: y})
-		text = append(text, geo.ColumnLabel(g.FirstCol+i))
-	}
-	for j := 0; j < g.Rows; j++ {
-		la, lo := g.GridToLatLon(-0.35, float64(j)+0.5)
-		x, y := fr.xy(la, lo)
-		xy = append(xy, plotter.XY{X: x, Y: y})
-		text = append(text, fmt.Sprint(g.FirstRow+j))
-	}
+	xy, text := gridLabelXY(fr, g, cellPt)
 	lb, err := plotter.NewLabels(plotter.XYLabels{XYs: xy, Labels: text})
 	if err != nil {
 		return err
 	}
 	for i := range lb.TextStyle {
-		lb.TextStyle[i].Color = color.NRGBA{G: 100, B: 50, A: 255}
+		lb.TextStyle[i].Color = palette.GridLabel
 		lb.TextStyle[i].Font.Size = vg.Points(9)
 		lb.TextStyle[i].XAlign = draw.XCenter
 		lb.TextStyle[i].YAlign = draw.YCenter
 	}
 	p.Add(lb)
 	return nil
+}
+
+// gridLabelXY is where the column letters (first) and row numbers go,
+// just outside the first row and the first column, and what they say.
+// Where a cell side (cellPt points on the canvas) is too short for its
+// label, only every second, fifth or tenth column or row is labelled, the
+// first always.
+func gridLabelXY(fr frame, g *geo.Grid, cellPt float64) (plotter.XYs, []string) {
+	every := func(needPt float64) int {
+		for _, k := range []int{1, 2, 5, 10, 20, 50} {
+			if float64(k)*cellPt >= needPt {
+				return k
+			}
+		}
+		return 100
+	}
+	colW := 6.0*float64(len(geo.ColumnLabel(g.FirstCol+g.Cols-1))) + 3 // 9 pt type
+	rowW := 12.0
+	var xy plotter.XYs
+	var text []string
+	for i, k := 0, every(colW); i < g.Cols; i += k {
+		la, lo := g.GridToLatLon(float64(i)+0.5, -0.35)
+		x, y := fr.xy(la, lo)
+		xy = append(xy, plotter.XY{X: x, Y: y})
+		text = append(text, geo.ColumnLabel(g.FirstCol+i))
+	}
+	for j, k := 0, every(rowW); j < g.Rows; j += k {
+		la, lo := g.GridToLatLon(-0.35, float64(j)+0.5)
+		x, y := fr.xy(la, lo)
+		xy = append(xy, plotter.XY{X: x, Y: y})
+		text = append(text, fmt.Sprint(g.FirstRow+j))
+	}
+	return xy, text
 }
 
 // kmTicks marks about eight round steps (1, 2 or 5 times a power of ten).

@@ -3,12 +3,18 @@ package mapplot
 import (
 	"bytes"
 	"encoding/xml"
+	"fmt"
 	"image/png"
 	"io"
+	"math"
+	"os"
+	"path/filepath"
 	"testing"
 
 	"nullseek/geo"
 	"nullseek/internal/palette"
+
+	"gonum.org/v1/plot/vg"
 )
 
 func testFix(t *testing.T) ([]*geo.Fix, *geo.Grid) {
@@ -132,4 +138,103 @@ func absDiff(a, b uint32) uint32 {
 		return a - b
 	}
 	return b - a
+}
+
+// Names are placed clear of ellipses, station and fix marks, the grid's
+// letters, the legend, the scale bar and each other (an invented scene of
+// three transmitters seen from three stations, at two map sizes).
+func TestLabelsClear(t *testing.T) {
+	type pt struct{ lat, lon float64 }
+	stations := map[string]pt{"hill": {-27.470, 153.010}, "ford": {-27.525, 152.985}, "gate": {-27.515, 153.045}}
+	txs := map[string]pt{"TX/1": {-27.490, 153.025}, "TX/2": {-27.500, 153.000}, "TX/3": {-27.510, 153.020}}
+	var fixes []*geo.Fix
+	for _, id := range []string{"TX/1", "TX/2", "TX/3"} {
+		var lops []geo.LOP
+		for _, st := range []string{"hill", "ford", "gate"} {
+			s, x := stations[st], txs[id]
+			_, az, _ := geo.Inverse(s.lat, s.lon, x.lat, x.lon)
+			lops = append(lops, geo.LOP{Ident: id, Station: st, Lat: s.lat, Lon: s.lon, BearingDeg: az + 1.5, SigmaDeg: 3})
+		}
+		f, err := geo.SolveFix(lops, geo.FixOptions{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		fixes = append(fixes, f)
+	}
+	g, err := geo.ParseGrid("origin=-27.465,152.980 cell=500 cols=A-N rows=1-13")
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, f := range fixes {
+		if err := f.Place(g, 2); err != nil {
+			t.Fatal(err)
+		}
+	}
+	for _, size := range []float64{22, 14} {
+		b, lp, err := render(fixes, g, "png", Options{SizeCm: size})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if d := os.Getenv("NULLSEEK_PLOT_DIR"); d != "" { // keep it to look at
+			os.WriteFile(filepath.Join(d, fmt.Sprintf("labels-%.0fcm.png", size)), b, 0o644)
+		}
+		if len(lp.placed) != 6 {
+			t.Fatalf("%d labels placed, want 3 fixes and 3 stations", len(lp.placed))
+		}
+		checkLabels(t, fmt.Sprintf("%.0f cm", size), lp)
+	}
+}
+
+// checkLabels fails t for each placed name that leaves the map or covers an
+// ellipse, a mark, a grid label, the legend, the scale bar or another name.
+func checkLabels(t *testing.T, what string, lp *labelPlacer) {
+	t.Helper()
+	for i, b := range lp.placed {
+		name := lp.labels[i].text
+		if b.Min.X < lp.area.Min.X || b.Max.X > lp.area.Max.X || b.Min.Y < lp.area.Min.Y || b.Max.Y > lp.area.Max.Y {
+			t.Errorf("%s: %q leaves the map", what, name)
+		}
+		for _, e := range lp.ell {
+			if polyHits(e, b, true) {
+				t.Errorf("%s: %q covers an ellipse", what, name)
+			}
+		}
+		for _, k := range lp.keepClear {
+			if overlaps(b, k) {
+				t.Errorf("%s: %q covers a mark, a grid label, the legend or the scale bar", what, name)
+			}
+		}
+		for j, o := range lp.placed[:i] {
+			if overlaps(b, o) {
+				t.Errorf("%s: %q covers %q", what, name, lp.labels[j].text)
+			}
+		}
+	}
+	// grid letters and numbers (boxes of their glyphs at 9 pt): none
+	// overlap, and neighbours along a row or column keep 2 pt apart
+	gap := vg.Points(2)
+	for i, a := range lp.grid {
+		for _, b := range lp.grid[:i] {
+			inRow := math.Abs(float64(a.Min.Y-b.Min.Y)) < 0.5
+			inCol := math.Abs(float64(a.Min.X-b.Min.X)) < 0.5
+			tooClose := (inRow && a.Min.X < b.Max.X+gap && b.Min.X < a.Max.X+gap) || (inCol && a.Min.Y < b.Max.Y+gap && b.Min.Y < a.Max.Y+gap)
+			if overlaps(a, b) || tooClose {
+				t.Errorf("%s: grid labels at %v and %v overlap or touch", what, a.Min, b.Min)
+			}
+		}
+	}
+}
+
+// The small one-transmitter map (10 cm), where the scale bar and a station
+// compete for the lower right corner.
+func TestLabelsClearSmallMap(t *testing.T) {
+	fixes, g := testFix(t)
+	_, lp, err := render(fixes, g, "png", Options{SizeCm: 10})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(lp.placed) != 4 {
+		t.Fatalf("%d labels placed, want 1 fix and 3 stations", len(lp.placed))
+	}
+	checkLabels(t, "10 cm", lp)
 }

@@ -2,10 +2,11 @@
 // the measured levels, the fitted pattern, the bearing with its ±1σ wedge and
 // an ambiguous alternative dashed. North is up and degrees run clockwise;
 // the radius is level in dB, from the top of the plot down a fixed range.
-// The legend sits in a band under the circle, the ring labels on white
-// along the direction the fitted pattern leaves most free, and the title
-// and the legend print the bearing and sigma with one formatter
-// (FormatBearing).
+// The legend sits on a light box centred in a band under the circle, the
+// ring labels on white boxes along a direction where no box meets the
+// fitted pattern, the points or the bearing lines (the data are drawn over
+// the boxes should none be clear), and the title and the legend print the
+// bearing and sigma with one formatter (FormatBearing).
 package polarplot
 
 import (
@@ -38,10 +39,10 @@ type Options struct {
 	Note string
 }
 
-// FormatBearing is the one way bearings and sigmas are printed on a plot:
-// "123.4° ± 3.2°" (1σ, 0.1° steps).
+// FormatBearing is the one way bearings and sigmas are printed on a plot,
+// in the title and in the legend: "123.4° ± 3.2° (1σ)" (0.1° steps).
 func FormatBearing(bearingDeg, sigmaDeg float64) string {
-	return fmt.Sprintf("%.1f° ± %.1f°", bearingDeg, sigmaDeg)
+	return fmt.Sprintf("%.1f° ± %.1f° (1σ)", bearingDeg, sigmaDeg)
 }
 
 var (
@@ -86,7 +87,7 @@ func Stage(set *atomicfile.Set, path string, pts []bearing.Point, est bearing.Es
 	}
 	size := o.SizeCm
 	if size == 0 {
-		size = 16
+		size = defaultSizeCm
 	}
 	wt, err := pl.WriterTo(vg.Length(size)*vg.Centimeter, vg.Length(size*plotAspect)*vg.Centimeter, ext)
 	if err != nil {
@@ -105,8 +106,12 @@ func Stage(set *atomicfile.Set, path string, pts []bearing.Point, est bearing.Es
 // for the title (data units: the circle has radius 1, its labels reach
 // 1.2); what is left under the circle holds the legend.
 const (
-	plotAspect = 1.24
-	titleBand  = 0.34
+	plotAspect    = 1.24
+	titleBand     = 0.34
+	defaultSizeCm = 16
+	// legendTop is where the legend band starts (data units): under the
+	// spoke labels, which reach 1.12 plus half a line.
+	legendTop = -1.22
 )
 
 // xy maps a bearing (degrees clockwise from north) and radius to plot
@@ -118,12 +123,25 @@ func xy(bearingDeg, r float64) plotter.XY {
 
 // Plot builds the plot without writing it; label starts the title.
 func Plot(pts []bearing.Point, est bearing.Estimate, p bearing.Pattern, label string, o Options) (*plot.Plot, error) {
+	pl, _, err := build(pts, est, p, label, o)
+	return pl, err
+}
+
+// layout is what build placed, for the tests.
+type layout struct {
+	legend    *legendBand
+	ringBoxes [][4]float64 // data units
+	fit       plotter.XYs
+}
+
+func build(pts []bearing.Point, est bearing.Estimate, p bearing.Pattern, label string, o Options) (*plot.Plot, *layout, error) {
 	if err := p.Validate(); err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	if !finite(est.BearingDeg) || !finite(est.SigmaDeg) {
-		return nil, fmt.Errorf("estimate has no bearing")
+		return nil, nil, fmt.Errorf("estimate has no bearing")
 	}
+	lay := &layout{}
 	// Level scale: top = highest of data and fit.
 	top := math.Inf(-1)
 	lo := math.Inf(1)
@@ -143,7 +161,7 @@ func Plot(pts []bearing.Point, est bearing.Estimate, p bearing.Pattern, label st
 		}
 	}
 	if !finite(top) || !finite(lo) {
-		return nil, fmt.Errorf("no finite levels to plot")
+		return nil, nil, fmt.Errorf("no finite levels to plot")
 	}
 	top = math.Ceil(top/5) * 5
 	rng := o.RangeDB
@@ -183,7 +201,7 @@ func Plot(pts []bearing.Point, est bearing.Estimate, p bearing.Pattern, label st
 		}
 		ln, err := plotter.NewLine(ring)
 		if err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 		ln.LineStyle = draw.LineStyle{Color: colGrid, Width: vg.Points(0.5)}
 		if l > 0 {
@@ -197,7 +215,7 @@ func Plot(pts []bearing.Point, est bearing.Estimate, p bearing.Pattern, label st
 	for a := 0; a < 360; a += 30 {
 		ln, err := plotter.NewLine(plotter.XYs{{}, xy(float64(a), 1)})
 		if err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 		ln.LineStyle = draw.LineStyle{Color: colGrid, Width: vg.Points(0.5)}
 		pl.Add(ln)
@@ -209,6 +227,10 @@ func Plot(pts []bearing.Point, est bearing.Estimate, p bearing.Pattern, label st
 		spokeLabels.Labels = append(spokeLabels.Labels, lab)
 	}
 
+	// The data are drawn over the ring labels' boxes (over), so that where a
+	// box cannot keep clear the curve stays whole.
+	var over, under []plot.Plotter
+
 	// ±1σ wedge.
 	sig := est.SigmaDeg
 	wedge := plotter.XYs{{}}
@@ -218,11 +240,11 @@ func Plot(pts []bearing.Point, est bearing.Estimate, p bearing.Pattern, label st
 	}
 	pg, err := plotter.NewPolygon(wedge)
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	pg.Color = colWedge
 	pg.LineStyle.Width = 0
-	pl.Add(pg)
+	over = append(over, pg)
 
 	// Measured points.
 	var mp plotter.XYs
@@ -235,57 +257,71 @@ func Plot(pts []bearing.Point, est bearing.Estimate, p bearing.Pattern, label st
 	var sc *plotter.Scatter
 	if len(mp) > 0 {
 		if sc, err = plotter.NewScatter(mp); err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 		sc.GlyphStyle = draw.GlyphStyle{Color: colPoints, Radius: vg.Points(1.1), Shape: draw.CircleGlyph{}}
-		pl.Add(sc)
+		over = append(over, sc)
 	}
 
 	// Fitted pattern.
 	fl, err := plotter.NewLine(fit)
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	fl.LineStyle = draw.LineStyle{Color: colFit, Width: vg.Points(1.2)}
-	pl.Add(fl)
+	over = append(over, fl)
 
 	// Bearing and alternate.
 	bl, err := plotter.NewLine(plotter.XYs{{}, xy(est.BearingDeg, 1.08)})
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	bl.LineStyle = draw.LineStyle{Color: colBear, Width: vg.Points(2)}
-	pl.Add(bl)
+	over = append(over, bl)
 	var al *plotter.Line
 	if est.AltBearingDeg != nil {
 		if al, err = plotter.NewLine(plotter.XYs{{}, xy(*est.AltBearingDeg, 1.08)}); err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 		al.LineStyle = draw.LineStyle{Color: colBear, Width: vg.Points(1.5), Dashes: []vg.Length{vg.Points(5), vg.Points(3)}}
-		pl.Add(al)
+		over = append(over, al)
 	}
 
-	// Ring labels on white, along the spoke direction where the fitted
-	// pattern and the points pass farthest from the rings.
-	labelAt := ringLabelBearing(fitLv, mp, ringR, rad, est)
+	// Ring labels on white boxes, all along one direction where no box
+	// meets the fitted pattern, the measured points or the bearing lines.
+	size := o.SizeCm
+	if size == 0 {
+		size = defaultSizeCm
+	}
+	ptPerUnit := size / 2.54 * 72 / 2.64 // points per data unit
+	lsty := pl.Legend.TextStyle
+	lsty.Font.Size = vg.Points(8)
+	var boxes []labelBox
+	for i := range ringR {
+		boxes = append(boxes, labelBox{w: float64(lsty.Width(ringText[i])+vg.Points(4)) / ptPerUnit, h: float64(lsty.FontExtents().Height+vg.Points(2)) / ptPerUnit})
+	}
+	labelAt := ringLabelBearing(fit, mp, ringR, boxes, est)
 	var ringLabels plotter.XYLabels
 	for i, r := range ringR {
 		c := xy(labelAt, r)
-		w, h := 0.026*float64(len(ringText[i]))+0.03, 0.075
+		w, h := boxes[i].w, boxes[i].h
 		box, err := plotter.NewPolygon(plotter.XYs{{X: c.X - w/2, Y: c.Y - h/2}, {X: c.X + w/2, Y: c.Y - h/2}, {X: c.X + w/2, Y: c.Y + h/2}, {X: c.X - w/2, Y: c.Y + h/2}})
 		if err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 		box.Color = color.White
 		box.LineStyle.Width = 0
-		pl.Add(box)
+		under = append(under, box)
+		lay.ringBoxes = append(lay.ringBoxes, boxAt(c, boxes[i]))
 		ringLabels.XYs = append(ringLabels.XYs, c)
 		ringLabels.Labels = append(ringLabels.Labels, ringText[i])
 	}
+	pl.Add(under...)
+	pl.Add(over...)
 	for _, lb := range []plotter.XYLabels{ringLabels, spokeLabels} {
 		l, err := plotter.NewLabels(lb)
 		if err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 		for i := range l.TextStyle {
 			l.TextStyle[i].Font.Size = vg.Points(8)
@@ -304,7 +340,7 @@ func Plot(pts []bearing.Point, est bearing.Estimate, p bearing.Pattern, label st
 	}
 	tlab, err := plotter.NewLabels(tl)
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	for i := range tlab.TextStyle {
 		tlab.TextStyle[i].Font.Size = vg.Points(12)
@@ -316,65 +352,134 @@ func Plot(pts []bearing.Point, est bearing.Estimate, p bearing.Pattern, label st
 	}
 	pl.Add(tlab)
 
-	// Legend in the band under the circle, left aligned.
+	// Legend centred in the band under the circle, on a light box.
+	leg := plot.NewLegend()
 	if sc != nil {
-		pl.Legend.Add(fmt.Sprintf("measured (%d readings)", len(mp)), sc)
+		leg.Add(fmt.Sprintf("measured (%d readings)", len(mp)), sc)
 	}
-	pl.Legend.Add("fitted "+p.Name, fl)
-	pl.Legend.Add("bearing "+FormatBearing(est.BearingDeg, est.SigmaDeg)+" (1σ wedge)", bl, pg)
+	leg.Add("fitted "+p.Name, fl)
+	leg.Add("bearing "+FormatBearing(est.BearingDeg, est.SigmaDeg)+", shaded ±1σ", bl, pg)
 	if al != nil {
-		pl.Legend.Add(fmt.Sprintf("the other null %.1f° (a loop cannot tell them apart)", *est.AltBearingDeg), al)
+		leg.Add(fmt.Sprintf("the other null %.1f° (a loop cannot tell them apart)", *est.AltBearingDeg), al)
 	}
-	pl.Legend.Top = false
-	pl.Legend.Left = true
-	pl.Legend.XOffs = vg.Points(10)
-	pl.Legend.YOffs = vg.Points(8)
-	pl.Legend.Padding = vg.Points(2)
-	pl.Legend.TextStyle.Font.Size = vg.Points(9)
-	return pl, nil
+	leg.TextStyle.Font.Size = vg.Points(9)
+	leg.Padding = vg.Points(2)
+	lay.legend = &legendBand{leg: leg, top: legendTop}
+	lay.fit = fit
+	pl.Add(lay.legend)
+	return pl, lay, nil
 }
 
-// ringLabelBearing picks, among the diagonal spokes, the bearing along
-// which the fitted pattern and the measured points keep farthest from the
-// ring radii (and off the bearing's own line).
-func ringLabelBearing(fitLv []float64, mp plotter.XYs, ringR []float64, rad func(float64) float64, est bearing.Estimate) float64 {
-	best, bestScore := 15.0, math.Inf(-1)
-	for a := 15.0; a < 360; a += 30 {
-		if math.Abs(math.Remainder(a-est.BearingDeg, 360)) < 20 {
-			continue
+// legendBand draws a legend centred in the band from data y = top down to
+// the foot of the picture, on a white box with a grey edge.
+type legendBand struct {
+	leg plot.Legend
+	top float64
+	box vg.Rectangle // where it was drawn (canvas units), for the tests
+	all vg.Rectangle // the canvas it was drawn on
+}
+
+func (lb *legendBand) Plot(c draw.Canvas, p *plot.Plot) {
+	_, trY := p.Transforms(&c)
+	top := trY(lb.top)
+	// gonum/plot v0.17's Legend.Rectangle mirrors Left against Draw; its
+	// size is what counts here
+	flip := lb.leg
+	flip.Left = !lb.leg.Left
+	size := flip.Rectangle(c).Size()
+	size.Y += lb.leg.TextStyle.FontExtents().Descent
+	pad := vg.Points(6)
+	cx, cy := (c.Min.X+c.Max.X)/2, (top+c.Min.Y)/2
+	box := vg.Rectangle{Min: vg.Point{X: cx - size.X/2 - pad, Y: cy - size.Y/2 - pad}, Max: vg.Point{X: cx + size.X/2 + pad, Y: cy + size.Y/2 + pad}}
+	lb.box, lb.all = box, c.Rectangle
+	c.SetColor(color.NRGBA{R: 255, G: 255, B: 255, A: 235})
+	c.Fill(box.Path())
+	c.SetLineStyle(draw.LineStyle{Color: color.Gray{Y: 150}, Width: vg.Points(0.6)})
+	c.Stroke(box.Path())
+	leg := lb.leg
+	leg.Top, leg.Left = true, true
+	leg.XOffs, leg.YOffs = 0, 0
+	inner := draw.Canvas{Canvas: c.Canvas, Rectangle: vg.Rectangle{Min: vg.Point{X: box.Min.X + pad, Y: box.Min.Y + pad}, Max: vg.Point{X: box.Max.X - pad, Y: box.Max.Y - pad}}}
+	leg.Draw(inner)
+}
+
+// labelBox is a ring label's size in data units.
+type labelBox struct{ w, h float64 }
+
+// ringLabelBearing picks the direction (5° steps) along which the ring
+// labels' boxes, centred on their rings, meet the fewest pieces of the
+// fitted pattern, measured points and bearing lines; between two spokes
+// (15°, 45°, …) when that is as clear.
+func ringLabelBearing(fit, mp plotter.XYs, ringR []float64, boxes []labelBox, est bearing.Estimate) float64 {
+	best, bestCost := 45.0, math.Inf(1)
+	for a := 0.0; a < 360; a += 5 {
+		cost := 0.0
+		if math.Mod(a, 30) != 15 {
+			cost += 0.5
 		}
-		if est.AltBearingDeg != nil && math.Abs(math.Remainder(a-*est.AltBearingDeg, 360)) < 20 {
-			continue
-		}
-		score := math.Inf(1)
-		// the curve near this bearing (±4°)
-		for d := -8; d <= 8; d++ {
-			k := (int(a*2) + d + 720) % 720
-			if !finite(fitLv[k]) {
-				continue
+		for i, r := range ringR {
+			b := boxAt(xy(a, r), boxes[i])
+			if hitsBox(fit, b) {
+				cost += 100
 			}
-			for _, r := range ringR {
-				score = math.Min(score, math.Abs(rad(fitLv[k])-r))
+			for _, d := range []float64{est.BearingDeg - est.SigmaDeg, est.BearingDeg, est.BearingDeg + est.SigmaDeg} {
+				if hitsBox(plotter.XYs{{}, xy(d, 1.08)}, b) {
+					cost += 50
+				}
 			}
-		}
-		// points near this bearing
-		var near int
-		for _, q := range mp {
-			ang := math.Atan2(q.X, q.Y) * 180 / math.Pi
-			if math.Abs(math.Remainder(ang-a, 360)) < 4 {
-				for _, r := range ringR {
-					if math.Abs(math.Hypot(q.X, q.Y)-r) < 0.05 {
-						near++
-					}
+			if est.AltBearingDeg != nil && hitsBox(plotter.XYs{{}, xy(*est.AltBearingDeg, 1.08)}, b) {
+				cost += 50
+			}
+			for _, q := range mp {
+				if q.X >= b[0] && q.X <= b[2] && q.Y >= b[1] && q.Y <= b[3] {
+					cost += 5
 				}
 			}
 		}
-		score -= 0.002 * float64(near)
-		if score > bestScore {
-			best, bestScore = a, score
+		if cost < bestCost {
+			best, bestCost = a, cost
 		}
 	}
 	return best
+}
+
+// boxAt is the box (x0, y0, x1, y1) of size b centred on c.
+func boxAt(c plotter.XY, b labelBox) [4]float64 {
+	return [4]float64{c.X - b.w/2, c.Y - b.h/2, c.X + b.w/2, c.Y + b.h/2}
+}
+
+// hitsBox reports whether the polyline passes through the box
+// (Liang–Barsky clipping of each segment).
+func hitsBox(pl plotter.XYs, b [4]float64) bool {
+	for k := 1; k < len(pl); k++ {
+		p, q := pl[k-1], pl[k]
+		t0, t1 := 0.0, 1.0
+		dx, dy := q.X-p.X, q.Y-p.Y
+		ok := true
+		for _, e := range [4][2]float64{{-dx, p.X - b[0]}, {dx, b[2] - p.X}, {-dy, p.Y - b[1]}, {dy, b[3] - p.Y}} {
+			if e[0] == 0 {
+				if e[1] < 0 {
+					ok = false
+					break
+				}
+				continue
+			}
+			t := e[1] / e[0]
+			if e[0] < 0 {
+				t0 = math.Max(t0, t)
+			} else {
+				t1 = math.Min(t1, t)
+			}
+			if t0 > t1 {
+				ok = false
+				break
+			}
+		}
+		if ok {
+			return true
+		}
+	}
+	return false
 }
 
 func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }

@@ -2,14 +2,19 @@ package polarplot
 
 import (
 	"bytes"
+	"fmt"
 	"image/png"
 	"math"
 	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"strings"
 	"testing"
 
 	"nullseek/bearing"
+
+	"gonum.org/v1/plot/vg"
+	"gonum.org/v1/plot/vg/draw"
 )
 
 // loopSweep renders an invented demo sweep: a small loop, transmitter at
@@ -90,5 +95,59 @@ func TestWrite(t *testing.T) {
 	}
 	if err := Write(filepath.Join(dir, "noext"), nil, bearing.Estimate{}, loop, ""); err == nil {
 		t.Error("no extension: no error")
+	}
+}
+
+// Layout: the ring labels' boxes meet no piece of the fitted pattern, the
+// legend's box lies inside the picture with a margin and under the spoke
+// labels, and title and legend print the same bearing string
+// (FormatBearing), for loop and Yagi sweeps from several directions.
+func TestLayout(t *testing.T) {
+	loop, err := bearing.SmallLoop(30)
+	if err != nil {
+		t.Fatal(err)
+	}
+	yagi, err := bearing.Yagi(60, 18)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, p := range []bearing.Pattern{loop, yagi} {
+		for _, truth := range []float64{0, 45, 100, 212, 300} {
+			pts := loopSweep(p, truth)
+			est, err := bearing.Fit(pts, p, bearing.FitOptions{Bootstrap: -1})
+			if err != nil {
+				t.Fatal(err)
+			}
+			pl, lay, err := build(pts, est, p, "N0CALL/1", Options{})
+			if err != nil {
+				t.Fatal(err)
+			}
+			name := fmt.Sprintf("%s at %v°", p.Name, truth)
+			for i, b := range lay.ringBoxes {
+				if hitsBox(lay.fit, b) {
+					t.Errorf("%s: ring label %d sits on the fitted pattern", name, i)
+				}
+			}
+			wt, err := pl.WriterTo(16*vg.Centimeter, 16*plotAspect*vg.Centimeter, "svg")
+			if err != nil {
+				t.Fatal(err)
+			}
+			var svg bytes.Buffer
+			if _, err := wt.WriteTo(&svg); err != nil {
+				t.Fatal(err)
+			}
+			lb, all := lay.legend.box, lay.legend.all
+			m := vg.Points(6)
+			if lb.Min.X < all.Min.X+m || lb.Max.X > all.Max.X-m || lb.Min.Y < all.Min.Y+m || lb.Max.Y > all.Max.Y-m {
+				t.Errorf("%s: legend box %v is within 6 pt of the edge of %v", name, lb, all)
+			}
+			_, trY := pl.Transforms(&draw.Canvas{Rectangle: all})
+			if lb.Max.Y > trY(-1.12-0.05) {
+				t.Errorf("%s: legend box reaches up into the spoke labels", name)
+			}
+			if n := strings.Count(svg.String(), FormatBearing(est.BearingDeg, est.SigmaDeg)); n != 2 {
+				t.Errorf("%s: %q printed %d times, want twice (title and legend)", name, FormatBearing(est.BearingDeg, est.SigmaDeg), n)
+			}
+		}
 	}
 }

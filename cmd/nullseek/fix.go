@@ -42,6 +42,7 @@ could not be made (the others are still printed and written).`,
 	f.StringVar(&fl.o.KMLPath, "kml", "", "write the same as KML to `FILE`")
 	f.StringVar(&fl.o.MapPath, "map", "", "draw a map to `FILE` (.png or .svg); far-apart clusters of transmitters get FILE-2, FILE-3, ...")
 	f.Float64Var(&fl.mapSize, "map-size", d.Map.SizeCm, "side of the map in `CM` (2..200)")
+	fl.o.AddUnderlayFlags(f)
 	f.StringVar(&fl.grid, "grid", "", `event grid, e.g. "origin=LAT,LON cell=250 rotation=0 cols=A-L rows=1-9 rowdir=down"`)
 	f.StringVar(&fl.gridFile, "grid-file", "", "event grid as a JSON `FILE` (origin_lat, origin_lon, cell_m, rotation_deg, cols, rows, row_direction)")
 	f.Float64Var(&fl.o.Fix.Probability, "probability", d.Fix.Probability, "probability of the error ellipse (0..0.9999)")

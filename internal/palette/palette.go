@@ -1,5 +1,5 @@
 // Package palette holds the colours that the map (mapplot) and the KML
-// export (geo) share, so a transmitter's bearings, the error ellipses, the
+// export (geo) share (and the map's own: grid labels, shading), so a transmitter's bearings, the error ellipses, the
 // grid and rejected bearings look the same in both. Colours are
 // non-premultiplied sRGB with alpha.
 package palette
@@ -14,6 +14,12 @@ var (
 	Ellipse  = color.NRGBA{R: 200, G: 0, B: 0, A: 255}
 	Grid     = color.NRGBA{R: 0, G: 120, B: 60, A: 170}
 	Station  = color.NRGBA{R: 0, G: 0, B: 0, A: 255}
+	// GridLabel is the ink of the grid's column letters and row numbers.
+	GridLabel = color.NRGBA{R: 0, G: 100, B: 50, A: 255}
+	// Shade is the likelihood shading's hue; its alpha grows with the
+	// likelihood (the map's legend swatch shows it at ShadeSwatchAlpha).
+	Shade            = color.NRGBA{R: 255, G: 150, B: 0, A: 255}
+	ShadeSwatchAlpha = uint8(120)
 	// Transmitters: one colour each for its bearings and wedges, in turn.
 	Transmitters = []color.NRGBA{
 		{R: 20, G: 70, B: 200, A: 255},
