@@ -51,9 +51,22 @@ var recArgs = []string{"--rate", "240000", "--seconds", fmt.Sprint(recSeconds), 
 // path.
 func makeRecording(t *testing.T, dir string) string {
 	t.Helper()
+	return makeRecordingOf(t, dir, recSeconds)
+}
+
+// makeRecordingOf is makeRecording of the given length (the same bursts,
+// 17 s on and 2 s off, go on to the end).
+func makeRecordingOf(t *testing.T, dir string, seconds float64) string {
+	t.Helper()
 	py := testtool.GNURadio(t)
 	script := filepath.Join("..", "testdata", "bearing", "make_rotating.py")
-	out, err := exec.Command(py, append([]string{script, "--out", dir}, recArgs...)...).CombinedOutput()
+	args := append([]string{script, "--out", dir}, recArgs...)
+	for i := range args {
+		if args[i] == "--seconds" {
+			args[i+1] = fmt.Sprint(seconds)
+		}
+	}
+	out, err := exec.Command(py, args...).CombinedOutput()
 	if err != nil {
 		t.Fatalf("make_rotating.py: %v\n%s", err, out)
 	}

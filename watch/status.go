@@ -61,6 +61,13 @@ func (w *watcher) statusLine(now time.Time, wall time.Duration, samples int64, c
 	case have:
 		fmt.Fprintf(&b, "  %s %.1f°", w.headingSourceShort(), deg)
 	}
+	if w.pos.moving {
+		if f, err := w.pos.src.At(now); err == nil {
+			fmt.Fprintf(&b, "  at %.5f, %.5f", f.LatDeg, f.LonDeg)
+		} else {
+			b.WriteString("  position unknown")
+		}
+	}
 	st := w.wr.Stats()
 	fmt.Fprintf(&b, "  bursts %d, bearings %d, stored %d bursts", w.bursts.Load(), w.bearings.Load(), st.Bursts)
 	return b.String()

@@ -135,6 +135,7 @@ type watcher struct {
 	capture   store.CaptureID
 	info      sdr.Info
 	hs        *liveHeadings
+	pos       *livePosition
 	wr        *store.Writer
 	idf       *ident.Identifier
 
@@ -178,8 +179,6 @@ func newWatcher(o Options) (*watcher, error) {
 	switch {
 	case len(st.Channels) != 1:
 		return nil, bad("[[channel]]", fmt.Sprintf("watch listens on one channel; the file names %d", len(st.Channels)))
-	case st.Position.Source != station.PositionFixed:
-		return nil, bad("position.source", fmt.Sprintf("watch runs a fixed station; %q is a moving one's", st.Position.Source))
 	case st.Heading.Source == station.HeadingLog:
 		return nil, bad("heading.source", `watch needs a live heading ("rotator" or "compass"); a heading log is for recordings`)
 	case st.Receiver.RTLTCP == "" && st.Receiver.USBIndex < 0 && o.Open == nil:
@@ -202,11 +201,14 @@ func newWatcher(o Options) (*watcher, error) {
 		return nil, bad("antenna", err.Error())
 	}
 	w.pattern = p
+	if w.pos, err = newLivePosition(st); err != nil {
+		return nil, err
+	}
 	bo := survey.BearingOptions{MountOffsetDeg: st.Antenna.MountOffsetDeg, MountOffsetGiven: st.Antenna.MountOffsetDeg != 0}
 	if w.mount, err = bo.MountOffset(p); err != nil {
 		return nil, bad("antenna.mount_offset_deg", err.Error())
 	}
-	if w.ref == heading.Magnetic {
+	if w.ref == heading.Magnetic && !w.pos.moving {
 		d := st.Position.DeclinationDeg
 		if d == nil {
 			v, werr := geo.Declination(st.Position.LatDeg, st.Position.LonDeg, ptrOr(st.Position.AltM, 0), w.now())
@@ -216,6 +218,8 @@ func newWatcher(o Options) (*watcher, error) {
 			d = &v
 		}
 		w.declDeg = d
+	} else if w.ref == heading.Magnetic {
+		w.declDeg = st.Position.DeclinationDeg // nil: WMM at each bearing's position
 	}
 	mode, err := morse.ParseMode(w.ch.Mode)
 	if err != nil {
@@ -278,9 +282,12 @@ func (w *watcher) open(ctx context.Context, cfg sdr.RTLConfig) (sdr.Source, erro
 
 func (w *watcher) run(ctx context.Context) (*Summary, error) {
 	st := w.st
-	stationRow := store.Station{Name: st.Name, LatDeg: &st.Position.LatDeg, LonDeg: &st.Position.LonDeg, AltM: st.Position.AltM,
-		PositionSource: store.PositionFixed, Antenna: st.Antenna.Kind, PatternFile: st.Antenna.PatternFile,
+	stationRow := store.Station{Name: st.Name, AltM: st.Position.AltM,
+		PositionSource: st.Position.Source, Antenna: st.Antenna.Kind, PatternFile: st.Antenna.PatternFile,
 		MountOffsetDeg: w.mount, DeclinationDeg: st.Position.DeclinationDeg}
+	if st.Position.HasLatLon { // a moving station's is only where it starts
+		stationRow.LatDeg, stationRow.LonDeg = &st.Position.LatDeg, &st.Position.LonDeg
+	}
 	var err error
 	if w.stationID, err = w.o.DB.PutStation(stationRow); err != nil {
 		return nil, fmt.Errorf("%s: %w", w.o.DB.Path(), err)
@@ -326,13 +333,19 @@ func (w *watcher) run(ctx context.Context) (*Summary, error) {
 	}
 	w.hs = newLiveHeadings(w.ref, w.mount, st.Heading.LagS)
 	w.channelDB.Store(math.Float64bits(math.NaN()))
-	w.logf("watching %.4f MHz from %s at %.3f MS/s for %s (ids %v); headings from %s", w.ch.FreqHz/1e6, w.info.Name, w.info.SampleRate/1e6, st.Name, w.ch.IDs, w.headingName())
+	w.logf("watching %.4f MHz from %s at %.3f MS/s for %s (ids %v); headings from %s; position from %s", w.ch.FreqHz/1e6, w.info.Name, w.info.SampleRate/1e6, st.Name, w.ch.IDs, w.headingName(), w.pos.src.Name())
 
 	var bg sync.WaitGroup
 	bgctx, stopBG := context.WithCancel(sctx)
 	defer stopBG()
-	bg.Add(3)
+	bg.Add(4)
 	go func() { defer bg.Done(); w.runHeadings(bgctx) }()
+	go func() {
+		defer bg.Done()
+		if err := w.pos.run(bgctx); err != nil {
+			w.logf("warning: %v: bearings are logged without the station's position", err)
+		}
+	}()
 	go func() { defer bg.Done(); w.handOff(bgctx) }()
 	go func() { defer bg.Done(); w.showStatus(bgctx) }()
 
@@ -567,16 +580,35 @@ func (w *watcher) bearingRow(r survey.Record, b store.Burst) (store.Bearing, str
 		return store.Bearing{}, fmt.Sprintf("the fit gave %.1f° ± %.1f°", e.BearingDeg, e.SigmaDeg)
 	}
 	br := store.Bearing{Capture: w.capture, BurstStartSample: b.StartSample, Station: w.stationID, Ident: b.Ident, Time: b.Start,
-		TrueDeg: e.BearingDeg, SigmaDeg: e.SigmaDeg, StationLatDeg: w.st.Position.LatDeg, StationLonDeg: w.st.Position.LonDeg,
-		StationAltM: w.st.Position.AltM, NullDepthDB: e.NullDepthDB, CoverageDeg: e.CoverageDeg, ResidualDB: e.ResidualDB,
+		TrueDeg: e.BearingDeg, SigmaDeg: e.SigmaDeg, NullDepthDB: e.NullDepthDB, CoverageDeg: e.CoverageDeg, ResidualDB: e.ResidualDB,
 		Points: e.Points, Warnings: e.Warnings}
+	// The line of position is fitted over the whole burst: a moving
+	// station took it, to first order, where it was at the burst's middle.
+	mid := b.Start.Add(time.Duration((b.EndS - b.StartS) / 2 * float64(time.Second)))
+	fix, placed := w.place(mid)
+	if placed {
+		br.StationLatDeg, br.StationLonDeg, br.StationAltM = fix.LatDeg, fix.LonDeg, fix.AltHAEM
+	} else {
+		br.NoPosition = true
+	}
 	alt := e.AltBearingDeg
-	if w.declDeg != nil {
+	decl := w.declDeg
+	if w.ref == heading.Magnetic && decl == nil {
+		if !placed {
+			return store.Bearing{}, "no position for the magnetic declination"
+		}
+		v, _ := geo.Declination(fix.LatDeg, fix.LonDeg, ptrOr(fix.AltHAEM, 0), mid)
+		if math.IsNaN(v) {
+			return store.Bearing{}, "no magnetic declination at the station's position"
+		}
+		decl = &v
+	}
+	if decl != nil {
 		mag := e.BearingDeg
-		br.MagneticDeg, br.DeclinationDeg = &mag, w.declDeg
-		br.TrueDeg = angle.Wrap360(mag + *w.declDeg)
+		br.MagneticDeg, br.DeclinationDeg = &mag, decl
+		br.TrueDeg = angle.Wrap360(mag + *decl)
 		if alt != nil {
-			a := angle.Wrap360(*alt + *w.declDeg)
+			a := angle.Wrap360(*alt + *decl)
 			alt = &a
 		}
 	}
