@@ -9,6 +9,7 @@ import (
 	"time"
 
 	"nullseek/position"
+	"nullseek/sdr"
 	"nullseek/station"
 )
 
@@ -54,6 +55,14 @@ func newLivePosition(st *station.File) (*livePosition, error) {
 		return nil, err
 	}
 	return &livePosition{src: s}, nil
+}
+
+// name says where the position comes from, for the watch's first line.
+func (p *livePosition) name(st *station.File) string {
+	if p.moving {
+		return p.src.Name()
+	}
+	return fmt.Sprintf("the station file (%.5f, %.5f)", st.Position.LatDeg, st.Position.LonDeg)
 }
 
 // run feeds the source until ctx ends, trimming the track as it grows.
@@ -136,4 +145,40 @@ func (w *watcher) place(t time.Time) (position.Fix, bool) {
 			p.src.Name(), t.UTC().Format("15:04:05.0"), why)
 	}
 	return f, err == nil
+}
+
+// startRecording starts the rotating SigMF recording of Options.RecordDir.
+func (w *watcher) startRecording() error {
+	every := w.o.RecordEvery
+	if every == 0 {
+		every = DefaultRecordEvery
+	}
+	prefix := strings.Map(func(r rune) rune {
+		if r >= 'a' && r <= 'z' || r >= 'A' && r <= 'Z' || r >= '0' && r <= '9' || r == '-' || r == '_' {
+			return r
+		}
+		return '-'
+	}, w.st.Name)
+	rec, err := sdr.NewRotatingSigMF(w.info, sdr.RotateOptions{Dir: w.o.RecordDir, Prefix: prefix, Every: every,
+		MaxBytes: w.o.RecordMaxBytes, Position: w.geolocation})
+	if err != nil {
+		return fmt.Errorf("--record %s: %w", w.o.RecordDir, err)
+	}
+	w.rec = rec
+	return nil
+}
+
+// geolocation is the station's position now (at the stream's latest
+// sample) as core:geolocation wants it, nil while unknown.
+func (w *watcher) geolocation() *sdr.GeoPoint {
+	t := w.info.Start.Add(time.Duration(float64(w.samples.Load()) / w.info.SampleRate * float64(time.Second)))
+	f, err := w.pos.src.At(t)
+	if err != nil {
+		return nil
+	}
+	c := []float64{f.LonDeg, f.LatDeg}
+	if f.AltHAEM != nil {
+		c = append(c, *f.AltHAEM)
+	}
+	return &sdr.GeoPoint{Type: "Point", Coordinates: c}
 }

@@ -97,7 +97,22 @@ type Options struct {
 	// receiver.DefaultConfig's); the channel always comes from the station
 	// file.
 	Receiver receiver.Config
+	// RecordDir, when set, keeps every sample received as SigMF in that
+	// directory (sdr.RotatingSigMF: pairs named after their first sample's
+	// UTC time, rolled over every RecordEvery or before RecordMaxBytes,
+	// with core:geolocation from the station's position and each receiver
+	// gap as a capture segment).
+	RecordDir string
+	// RecordEvery is the receiver time per recorded pair (0:
+	// DefaultRecordEvery); RecordMaxBytes caps a data file (0: no cap).
+	RecordEvery    time.Duration
+	RecordMaxBytes int64
 }
+
+// DefaultRecordEvery is how much receiver time one recorded SigMF pair
+// holds: 10 minutes of cu8 at 2.4 MS/s is 2.9 GB, under the 4 GiB a FAT32
+// card takes in one file.
+const DefaultRecordEvery = 10 * time.Minute
 
 // Summary is what a watch did.
 type Summary struct {
@@ -137,6 +152,7 @@ type watcher struct {
 	hs        *liveHeadings
 	pos       *livePosition
 	wr        *store.Writer
+	rec       *sdr.RotatingSigMF
 	idf       *ident.Identifier
 
 	// The scan's goroutine only.
@@ -270,6 +286,11 @@ func (w *watcher) open(ctx context.Context, cfg sdr.RTLConfig) (sdr.Source, erro
 			OnGap: func(g sdr.Gap) {
 				w.logf("warning: receiver %s: gap of %.1f s (about %d samples) before sample %d: %s; carrying on",
 					w.st.Receiver.RTLTCP, g.Lost.Seconds(), g.Missing, g.Index, g.Cause)
+				if w.rec != nil {
+					if err := w.rec.AddGap(g); err != nil {
+						w.logf("warning: --record %s: %v", w.o.RecordDir, err)
+					}
+				}
 			},
 		})
 	}
@@ -331,9 +352,15 @@ func (w *watcher) run(ctx context.Context) (*Summary, error) {
 	if w.wr, err = w.o.DB.NewWriter(wo); err != nil {
 		return nil, err
 	}
+	if w.o.RecordDir != "" {
+		if err := w.startRecording(); err != nil {
+			w.wr.Close()
+			return nil, err
+		}
+	}
 	w.hs = newLiveHeadings(w.ref, w.mount, st.Heading.LagS)
 	w.channelDB.Store(math.Float64bits(math.NaN()))
-	w.logf("watching %.4f MHz from %s at %.3f MS/s for %s (ids %v); headings from %s; position from %s", w.ch.FreqHz/1e6, w.info.Name, w.info.SampleRate/1e6, st.Name, w.ch.IDs, w.headingName(), w.pos.src.Name())
+	w.logf("watching %.4f MHz from %s at %.3f MS/s for %s (ids %v); headings from %s; position from %s", w.ch.FreqHz/1e6, w.info.Name, w.info.SampleRate/1e6, st.Name, w.ch.IDs, w.headingName(), w.pos.name(st))
 
 	var bg sync.WaitGroup
 	bgctx, stopBG := context.WithCancel(sctx)
@@ -366,6 +393,11 @@ func (w *watcher) run(ctx context.Context) (*Summary, error) {
 	cerr := w.wr.Close()
 	if w.failErr != nil && cerr == nil {
 		cerr = w.failErr
+	}
+	if w.rec != nil {
+		if err := w.rec.Close(); err != nil && serr == nil {
+			serr = fmt.Errorf("--record %s: %w", w.o.RecordDir, err)
+		}
 	}
 	sum := &Summary{Capture: w.capture, Samples: w.samples.Load(), Bursts: int(w.bursts.Load()), Bearings: int(w.bearings.Load()), Committed: w.wr.Stats()}
 	switch {
@@ -432,6 +464,11 @@ func (m *meteredSource) Read(dst []complex64) (int, error) {
 		}
 		m.w.inputDB.Store(math.Float64bits(10 * math.Log10(max(p/float64(n), 1e-12))))
 		m.w.samples.Add(int64(n))
+		if m.w.rec != nil {
+			if werr := m.w.rec.Write(dst[:n]); werr != nil {
+				return n, fmt.Errorf("--record %s: %w", m.w.o.RecordDir, werr)
+			}
+		}
 	}
 	return n, err
 }
