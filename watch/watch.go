@@ -8,6 +8,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"strings"
 	"sync"
 	"sync/atomic"
 	"time"
@@ -311,7 +312,7 @@ func (w *watcher) run(ctx context.Context) (*Summary, error) {
 	}
 	var err error
 	if w.stationID, err = w.o.DB.PutStation(stationRow); err != nil {
-		return nil, fmt.Errorf("%s: %w", w.o.DB.Path(), err)
+		return nil, w.dbErr(err)
 	}
 	for _, warn := range st.Warnings {
 		w.logf("warning: %s: %s", st.Path, warn) // AGC on, among others (station owns the wording)
@@ -343,7 +344,7 @@ func (w *watcher) run(ctx context.Context) (*Summary, error) {
 	capRow := store.Capture{Station: w.stationID, Source: w.info.Name, Format: "cu8", Start: w.info.Start, CentreHz: w.info.CenterHz,
 		SampleRateHz: w.info.SampleRate, Samples: -1, FileSHA256: hex.EncodeToString(key[:]), ChannelOffsetHz: w.ch.FreqHz - w.info.CenterHz}
 	if w.capture, err = w.o.DB.PutCapture(capRow); err != nil {
-		return nil, fmt.Errorf("%s: %w", w.o.DB.Path(), err)
+		return nil, w.dbErr(err)
 	}
 	wo := w.o.Writer
 	if wo.FlushInterval == 0 {
@@ -402,7 +403,7 @@ func (w *watcher) run(ctx context.Context) (*Summary, error) {
 	sum := &Summary{Capture: w.capture, Samples: w.samples.Load(), Bursts: int(w.bursts.Load()), Bearings: int(w.bearings.Load()), Committed: w.wr.Stats()}
 	switch {
 	case cerr != nil:
-		return sum, fmt.Errorf("%s: %w", w.o.DB.Path(), cerr)
+		return sum, w.dbErr(cerr)
 	case serr != nil && ctx.Err() == nil:
 		return sum, serr
 	}
@@ -543,7 +544,7 @@ func (w *watcher) record(r survey.Record) error {
 	}
 	b := burstRow(w.capture, r, w.info.SampleRate)
 	if err := w.wr.AddBurst(b, readings); err != nil {
-		return fmt.Errorf("%s: %w", w.o.DB.Path(), err)
+		return w.dbErr(err)
 	}
 	w.bursts.Add(1)
 	line := fmt.Sprintf("burst %s  %7.1f s  %-10s %-5s level %6.1f dBFS  SNR %5.1f dB", survey.StartTime(r.Start, r.StartS), r.EndS-r.StartS, identText(r), r.Mode, r.LevelDB, b.SNRDB)
@@ -554,7 +555,7 @@ func (w *watcher) record(r survey.Record) error {
 		line += "  no bearing: " + why
 	} else {
 		if err := w.wr.AddBearing(br); err != nil {
-			return fmt.Errorf("%s: %w", w.o.DB.Path(), err)
+			return w.dbErr(err)
 		}
 		w.bearings.Add(1)
 		line += fmt.Sprintf("  bearing %5.1f° ± %.1f° true", br.TrueDeg, br.SigmaDeg)
@@ -666,4 +667,12 @@ func (w *watcher) bearingRow(r survey.Record, b store.Burst) (store.Bearing, str
 		br.Flags |= store.FlagBurstCut
 	}
 	return br, ""
+}
+
+// dbErr names the database in a store error that does not already.
+func (w *watcher) dbErr(err error) error {
+	if strings.Contains(err.Error(), w.o.DB.Path()) {
+		return err
+	}
+	return fmt.Errorf("%s: %w", w.o.DB.Path(), err)
 }
