@@ -6,6 +6,8 @@ import (
 	"math"
 	"strings"
 	"time"
+
+	"nullseek/capture"
 )
 
 // showStatus prints the status line every StatusPeriod until ctx ends.
@@ -48,9 +50,13 @@ func (w *watcher) statusLine(now time.Time, wall time.Duration, samples int64, c
 	if cpuOK && wall > 0 {
 		fmt.Fprintf(&b, "  CPU %.2f", cpu.Seconds()/wall.Seconds())
 	}
-	fmt.Fprintf(&b, "  input %.1f dBFS", math.Float64frombits(w.inputDB.Load()))
+	fmt.Fprintf(&b, "  input %s", capture.LevelBar(math.Float64frombits(w.inputDB.Load())))
 	if ch := math.Float64frombits(w.channelDB.Load()); !math.IsNaN(ch) {
-		fmt.Fprintf(&b, "  channel %.1f dBFS (in a burst)", ch)
+		fmt.Fprintf(&b, "  channel %.1f dBFS", ch)
+		if n := math.Float64frombits(w.noiseDB.Load()); !math.IsNaN(n) && !math.IsInf(n, 0) {
+			fmt.Fprintf(&b, " SNR %.1f dB", ch-n)
+		}
+		b.WriteString(" (in a burst)")
 	} else {
 		b.WriteString("  channel quiet")
 	}

@@ -172,6 +172,7 @@ type watcher struct {
 	samples   atomic.Int64
 	inputDB   atomic.Uint64 // math.Float64bits of the last block's level
 	channelDB atomic.Uint64 // the last channel reading in a burst; NaN between
+	noiseDB   atomic.Uint64 // the noise under it (receiver.Piece.NoiseDB)
 	bursts    atomic.Int64
 	bearings  atomic.Int64
 	headingOK atomic.Bool
@@ -490,6 +491,7 @@ func (w *watcher) piece(p *receiver.Piece) error {
 		w.raw = append(w.raw, store.LevelReading{Sample: l.Sample, TimeS: l.T, LevelDBFS: l.LevelDB, Clipped: l.Clipped})
 	}
 	if n := len(level); n > 0 {
+		w.noiseDB.Store(math.Float64bits(p.NoiseDB))
 		w.channelDB.Store(math.Float64bits(level[n-1].LevelDB))
 	}
 	if !p.Last {
