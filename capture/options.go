@@ -410,6 +410,11 @@ func (o *Options) SetHeadings(ref heading.Ref, turn *heading.SteadyTurn, logPath
 	return nil
 }
 
+// DefaultRecordEvery is how much receiver time one SigMF pair of a
+// --record directory holds: 10 minutes of cu8 at 2.4 MS/s is 2.9 GB, under
+// the 4 GiB a FAT32 card takes in one file.
+const DefaultRecordEvery = 10 * time.Minute
+
 // SetStation gives a --record directory's pairs the station's position
 // (--station) as core:geolocation when has is set.
 func (o *Options) SetStation(has bool, latDeg, lonDeg float64) {

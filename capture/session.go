@@ -358,7 +358,7 @@ func (s *session) run(ctx context.Context) (res *Result, err error) {
 	if recDir != "" {
 		every := o.RecordEvery
 		if every == 0 {
-			every = 10 * time.Minute
+			every = DefaultRecordEvery
 		}
 		geo := o.Geolocation
 		ri := info

@@ -8,6 +8,7 @@ import (
 	"strings"
 	"time"
 
+	"nullseek/capture"
 	"nullseek/position"
 	"nullseek/sdr"
 	"nullseek/station"
@@ -151,7 +152,7 @@ func (w *watcher) place(t time.Time) (position.Fix, bool) {
 func (w *watcher) startRecording() error {
 	every := w.o.RecordEvery
 	if every == 0 {
-		every = DefaultRecordEvery
+		every = capture.DefaultRecordEvery
 	}
 	prefix := strings.Map(func(r rune) rune {
 		if r >= 'a' && r <= 'z' || r >= 'A' && r <= 'Z' || r >= '0' && r <= '9' || r == '-' || r == '_' {

@@ -105,15 +105,11 @@ type Options struct {
 	// gap as a capture segment).
 	RecordDir string
 	// RecordEvery is the receiver time per recorded pair (0:
-	// DefaultRecordEvery); RecordMaxBytes caps a data file (0: no cap).
+	// capture.DefaultRecordEvery); RecordMaxBytes caps a data file (0: no
+	// cap).
 	RecordEvery    time.Duration
 	RecordMaxBytes int64
 }
-
-// DefaultRecordEvery is how much receiver time one recorded SigMF pair
-// holds: 10 minutes of cu8 at 2.4 MS/s is 2.9 GB, under the 4 GiB a FAT32
-// card takes in one file.
-const DefaultRecordEvery = 10 * time.Minute
 
 // Summary is what a watch did.
 type Summary struct {

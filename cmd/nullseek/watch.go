@@ -3,6 +3,7 @@ package main
 import (
 	"github.com/spf13/cobra"
 
+	"nullseek/capture"
 	"nullseek/watch"
 )
 
@@ -22,6 +23,6 @@ func newWatchCmd() *cobra.Command {
 	f.StringVar(&o.DB, "db", "", "the SQLite database to log to (default: the station file's database)")
 	f.DurationVar(&o.Duration, "duration", 0, "stop after this much of the stream (e.g. 90s, 8h); default: until interrupted")
 	f.StringVar(&o.RecordDir, "record", "", "keep every sample received as SigMF pairs in this (existing) directory")
-	f.DurationVar(&o.RecordEvery, "record-every", watch.DefaultRecordEvery, "--record: start a new SigMF pair after this much receiver time")
+	f.DurationVar(&o.RecordEvery, "record-every", capture.DefaultRecordEvery, "--record: start a new SigMF pair after this much receiver time")
 	return cmd
 }
