@@ -309,7 +309,7 @@ func TestWatchMatchesSurvey(t *testing.T) {
 	if err != nil || len(plan) == 0 {
 		t.Errorf("no slot schedule stored after %d bursts: %v", len(bursts), err)
 	}
-	for _, want := range []string{"MS/s", "CPU", "rotator", "behind", "input [", "dBFS"} {
+	for _, want := range []string{"MS/s", "CPU", "rotator", "behind", "input [", "dBFS", "last burst"} {
 		if !strings.Contains(status, want) {
 			t.Errorf("the status lines say nothing of %q:\n%s", want, status)
 		}

@@ -59,6 +59,9 @@ func (w *watcher) statusLine(now time.Time, wall time.Duration, samples int64, c
 		b.WriteString(" (in a burst)")
 	} else {
 		b.WriteString("  channel quiet")
+		if lb := w.lastBurst.Load(); lb != nil {
+			fmt.Fprintf(&b, " (last burst %.1f dBFS, SNR %.1f dB)", lb[0], lb[1])
+		}
 	}
 	deg, have := w.hs.latest()
 	switch {

@@ -169,6 +169,7 @@ type watcher struct {
 	inputDB   atomic.Uint64 // math.Float64bits of the last block's level
 	channelDB atomic.Uint64 // the last channel reading in a burst; NaN between
 	noiseDB   atomic.Uint64 // the noise under it (receiver.Piece.NoiseDB)
+	lastBurst atomic.Pointer[[2]float64] // the last burst's level and SNR, dB
 	bursts    atomic.Int64
 	bearings  atomic.Int64
 	headingOK atomic.Bool
@@ -545,6 +546,7 @@ func (w *watcher) record(r survey.Record) error {
 		return w.dbErr(err)
 	}
 	w.bursts.Add(1)
+	w.lastBurst.Store(&[2]float64{r.LevelDB, b.SNRDB})
 	line := fmt.Sprintf("burst %s  %7.1f s  %-10s %-5s level %6.1f dBFS  SNR %5.1f dB", survey.StartTime(r.Start, r.StartS), r.EndS-r.StartS, identText(r), r.Mode, r.LevelDB, b.SNRDB)
 	if w.cutShort && r.Index == w.cur {
 		line += fmt.Sprintf("  (readings after the first %d kept out)", maxBurstReadings)
