@@ -166,9 +166,9 @@ type watcher struct {
 	stopScan context.CancelFunc
 
 	samples   atomic.Int64
-	inputDB   atomic.Uint64 // math.Float64bits of the last block's level
-	channelDB atomic.Uint64 // the last channel reading in a burst; NaN between
-	noiseDB   atomic.Uint64 // the noise under it (receiver.Piece.NoiseDB)
+	inputDB   atomic.Uint64              // math.Float64bits of the last block's level
+	channelDB atomic.Uint64              // the last channel reading in a burst; NaN between
+	noiseDB   atomic.Uint64              // the noise under it (receiver.Piece.NoiseDB)
 	lastBurst atomic.Pointer[[2]float64] // the last burst's level and SNR, dB
 	bursts    atomic.Int64
 	bearings  atomic.Int64
