@@ -21,8 +21,11 @@ fitted as usual. Without --rotator give --duration and a heading source
 (--turn for a steady hand turn, or --nmea-feed ADDR for a compass that
 sends NMEA 0183 headings, stamped as they arrive; --heading-ref picks its
 HDT or HDM sentences as for --nmea). --record FILE keeps
-FILE.sigmf-meta/.sigmf-data and the heading log FILE.csv. On a terminal a
-status line shows the level, the heading and the progress.
+FILE.sigmf-meta/.sigmf-data and the heading log FILE.csv; --record DIR (an
+existing directory) keeps SigMF pairs named by their start time there, with
+core:geolocation from --station. On a terminal a status line shows the
+level, its SNR over the band's floor, the heading and the progress; when
+standard error is not a terminal, a plain status line every 10 s.
 
 Ctrl-C (SIGINT) or SIGTERM stops the rotator, keeps what was captured (with
 --record), removes temporary files and exits with 130 or 143. A receiver
@@ -83,6 +86,9 @@ func Analyse(ctx context.Context, o Options, rerun string, analyse func(ctx cont
 
 // recordedNote says what a whole capture recorded and how to re-run it.
 func (r *Result) recordedNote(rerun string) string {
+	if len(r.Rotated) > 0 {
+		return "recorded " + strings.TrimPrefix(r.kept(), "kept ")
+	}
 	if !r.Kept {
 		return fmt.Sprintf("recorded %.1f s", r.Seconds())
 	}

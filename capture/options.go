@@ -7,9 +7,11 @@ import (
 	"net"
 	"strconv"
 	"strings"
+	"time"
 
 	"nullseek/heading"
 	"nullseek/internal/units"
+	"nullseek/sdr"
 )
 
 // Options configure Run. Each field's comment names the command-line flag
@@ -67,8 +69,14 @@ type Options struct {
 	Ref heading.Ref
 	// Record is the base path of the recording to keep (--record): BASE.
 	// sigmf-meta, BASE.sigmf-data and the heading log BASE.csv. "" records
-	// into a temporary folder that Result.Close removes.
-	Record string
+	// into a temporary folder that Result.Close removes. An existing
+	// directory keeps the capture there as rotating SigMF pairs
+	// (sdr.RotatingSigMF, a new pair every RecordEvery, 0: 10 minutes),
+	// the heading log beside the first, with Geolocation as their
+	// core:geolocation; the analysis then reads a temporary copy.
+	Record      string
+	RecordEvery time.Duration
+	Geolocation *sdr.GeoPoint
 	// Notes receives one-line messages for the user (connections, what was
 	// recorded); nil discards them.
 	Notes func(string)
@@ -382,4 +390,35 @@ func (o *Options) Parse(f Flags) error {
 		}
 	}
 	return nil
+}
+
+// SetHeadings takes the offline heading flags' choice into a live
+// capture: a steady turn models the headings; a heading log (--headings)
+// or an NMEA file (--nmea) given with a live receiver supplies them
+// instead of a live source (HeadingFile names the flag). One file at most.
+func (o *Options) SetHeadings(ref heading.Ref, turn *heading.SteadyTurn, logPath, nmeaPath string) error {
+	o.Ref, o.Turn = ref, turn
+	switch {
+	case logPath != "" && nmeaPath != "":
+		return fmt.Errorf("give one heading file: --headings or --nmea")
+	case turn != nil:
+	case logPath != "":
+		o.HeadingFile = "--headings"
+	case nmeaPath != "":
+		o.HeadingFile = "--nmea"
+	}
+	return nil
+}
+
+// DefaultRecordEvery is how much receiver time one SigMF pair of a
+// --record directory holds: 10 minutes of cu8 at 2.4 MS/s is 2.9 GB, under
+// the 4 GiB a FAT32 card takes in one file.
+const DefaultRecordEvery = 10 * time.Minute
+
+// SetStation gives a --record directory's pairs the station's position
+// (--station) as core:geolocation when has is set.
+func (o *Options) SetStation(has bool, latDeg, lonDeg float64) {
+	if has {
+		o.Geolocation = &sdr.GeoPoint{Type: "Point", Coordinates: []float64{lonDeg, latDeg}}
+	}
 }

@@ -338,10 +338,11 @@ func TestStatusFormat(t *testing.T) {
 		cells int
 		want  []string
 	}{
-		{Status{ElapsedS: 12, TotalS: 27.1, LevelDBFS: -33, Source: "rotator", HeadingDeg: 72.44, HeadingKnown: true}, 9, []string{"-33.0 dBFS", "rotator   72.4°", "12.0 s of 27.1 s"}},
-		{Status{ElapsedS: 3.25, LevelDBFS: 0, Clipping: true, Source: "compass"}, 20, []string{"0.0 dBFS", "CLIPPING", "compass     --", "3.2 s"}},
-		{Status{LevelDBFS: -120, Source: "turn", HeadingDeg: 359.96, HeadingKnown: true}, 0, []string{"-120.0 dBFS", "turn    0.0°"}},
-		{Status{LevelDBFS: math.NaN(), HeadingDeg: math.Inf(1), HeadingKnown: true, Source: "compass"}, 0, []string{"-120.0 dBFS", "compass     --"}},
+		{Status{ElapsedS: 12, TotalS: 27.1, LevelDBFS: -33, SNRDB: 21.6, SNRKnown: true, Source: "rotator", HeadingDeg: 72.44, HeadingKnown: true}, 9, []string{"-33.0 dBFS", "SNR 22 dB", "rotator  72.4°", "12.0/27.1s"}},
+		{Status{ElapsedS: 12, TotalS: 27.1, LevelDBFS: -60, SNRDB: 140, SNRKnown: true, Source: "rotator", HeadingDeg: -172.44, HeadingKnown: true}, 0, []string{"SNR 99 dB", "rotator -172.4°"}},
+		{Status{ElapsedS: 3.25, LevelDBFS: 0, Clipping: true, Source: "compass"}, 20, []string{"0.0 dBFS", "CLIPPING", "compass    --", "3.2s"}},
+		{Status{LevelDBFS: -120, Source: "turn", HeadingDeg: 359.96, HeadingKnown: true}, 0, []string{"-120.0 dBFS", "turn   0.0°"}},
+		{Status{LevelDBFS: math.NaN(), HeadingDeg: math.Inf(1), HeadingKnown: true, Source: "compass"}, 0, []string{"-120.0 dBFS", "compass    --"}},
 	}
 	for _, c := range cases {
 		line := c.s.format()
@@ -370,8 +371,52 @@ func TestStatusFormat(t *testing.T) {
 	if got := b.String(); strings.Count(got, "\r") != 3 || strings.Count(got, "\x1b[K") != 3 || !strings.HasSuffix(got, "\r\x1b[K") {
 		t.Errorf("status output %q: want each line led by CR and followed by EL, and a final erase", got)
 	}
-	// Not a terminal: no status line.
-	if NewStatusLine(nil) != nil {
-		t.Error("a status line without a terminal")
+	// Not a terminal: a plain line every Every, the first after one period.
+	if NewStatus(nil) != nil {
+		t.Error("a status display without a writer")
+	}
+	b.Reset()
+	now := time.Date(2026, 5, 1, 12, 0, 0, 0, time.UTC)
+	sink := NewStatus(&b)
+	p, ok := sink.(*PlainStatus)
+	if !ok {
+		t.Fatalf("NewStatus of a buffer is %T, want a PlainStatus", sink)
+	}
+	p.Now = func() time.Time { return now }
+	for i := 0; i < 25; i++ { // 25 s, shown 4 times a second
+		for k := 0; k < 4; k++ {
+			p.Show(cases[0].s)
+			now = now.Add(250 * time.Millisecond)
+		}
+	}
+	p.Clear()
+	lines := strings.Split(strings.TrimSuffix(b.String(), "\n"), "\n")
+	if len(lines) != 2 || strings.ContainsAny(b.String(), "\r\x1b") || !strings.HasPrefix(lines[0], "status level [") {
+		t.Errorf("plain status over 25 s: %q; want 2 lines (at 10 s and 20 s) without control characters", b.String())
+	}
+}
+
+// TestFloor: the sliding-window minimum under Status.SNRDB against a
+// brute-force minimum over the same window.
+func TestFloor(t *testing.T) {
+	var f floor
+	var ts, dbs []float64
+	for i := 0; i < 2000; i++ {
+		tm := float64(i) * 0.25
+		db := -40 + 10*math.Sin(float64(i)/37) + 3*math.Cos(float64(i)*1.7)
+		ts, dbs = append(ts, tm), append(dbs, db)
+		got, ok := f.add(tm, db)
+		want := db
+		for j := range ts {
+			if ts[j] >= tm-FloorWindowS {
+				want = min(want, dbs[j])
+			}
+		}
+		if ok != (tm >= 1) || (ok && math.Abs(got-(db-want)) > 1e-12) {
+			t.Fatalf("at %.2f s: %v %v, want %v above the floor", tm, got, ok, db-want)
+		}
+	}
+	if len(f.db) > int(FloorWindowS/0.25)+2 {
+		t.Errorf("the floor keeps %d levels for a %v s window", len(f.db), FloorWindowS)
 	}
 }

@@ -63,6 +63,9 @@ type Result struct {
 	Track *heading.Track
 	// Kept is true when the recording stays after Close (Options.Record).
 	Kept bool
+	// Rotated are the base paths of the SigMF pairs kept in the
+	// Options.Record directory, oldest first.
+	Rotated []string
 	// SweepDone is true when the rotator's sweep reached its end inside
 	// the capture.
 	SweepDone bool
@@ -98,16 +101,23 @@ func (r *Result) Close() error {
 
 // kept says in words what stays on disk.
 func (r *Result) kept() string {
+	if len(r.Rotated) > 0 {
+		return fmt.Sprintf("kept %.1f s as %d SigMF pair(s) in %s", r.Seconds(), len(r.Rotated), filepath.Dir(r.Rotated[0])) + r.logNote()
+	}
 	if !r.Kept {
 		return fmt.Sprintf("%.1f s captured, not kept (give --record FILE to keep a capture)", r.Seconds())
 	}
-	s := fmt.Sprintf("kept %.1f s in %s and %s", r.Seconds(), r.Meta, filepath.Base(r.Data))
+	return fmt.Sprintf("kept %.1f s in %s and %s", r.Seconds(), r.Meta, filepath.Base(r.Data)) + r.logNote()
+}
+
+// logNote says where the heading log of a kept capture went.
+func (r *Result) logNote() string {
 	if r.HeadingLog != "" {
-		s += " with the heading log " + r.HeadingLog
+		return " with the heading log " + r.HeadingLog
 	} else if r.needsTrack {
-		s += " (no heading log: too few headings)"
+		return " (no heading log: too few headings)"
 	}
-	return s
+	return ""
 }
 
 // ending is what was kept and where the rotator stopped, for the one line
@@ -267,7 +277,11 @@ func (s *session) run(ctx context.Context) (res *Result, err error) {
 	if s.note == nil {
 		s.note = func(string) {}
 	}
-	base, tmpDir, err := recordingBase(o.Record)
+	recDir := ""
+	if fi, err := os.Stat(o.Record); err == nil && fi.IsDir() {
+		recDir = o.Record
+	}
+	base, tmpDir, err := recordingBase(o.Record, recDir != "")
 	if err != nil {
 		return nil, err
 	}
@@ -340,6 +354,20 @@ func (s *session) run(ctx context.Context) (res *Result, err error) {
 	}
 	info.Start = info.Start.Add(-time.Duration(latS * float64(time.Second)))
 	w.SetStart(info.Start)
+	var rec *sdr.RotatingSigMF
+	if recDir != "" {
+		every := o.RecordEvery
+		if every == 0 {
+			every = DefaultRecordEvery
+		}
+		geo := o.Geolocation
+		ri := info
+		ri.CenterHz = o.tuning()
+		if rec, err = sdr.NewRotatingSigMF(ri, sdr.RotateOptions{Dir: recDir, Every: every, Position: func() *sdr.GeoPoint { return geo }}); err != nil {
+			return nil, fmt.Errorf("--record %s: %w", recDir, err)
+		}
+		w = &teeSink{sink: w, rec: rec}
+	}
 
 	var rot *heading.Rotator
 	if o.Plan != nil {
@@ -421,7 +449,7 @@ func (s *session) run(ctx context.Context) (res *Result, err error) {
 		return nil, err
 	}
 
-	res = &Result{Info: info, Stop: stop, needsTrack: o.HeadingFile == "", tmpDir: tmpDir, Kept: o.Record != ""}
+	res = &Result{Info: info, Stop: stop, needsTrack: o.HeadingFile == "", tmpDir: tmpDir, Kept: o.Record != "" && recDir == ""}
 	res.Info.Samples = got
 	res.Meta, res.Data = base+".sigmf-meta", base+".sigmf-data"
 	cut := interrupted || isFault
@@ -487,8 +515,14 @@ func (s *session) run(ctx context.Context) (res *Result, err error) {
 	if err := w.Close(); err != nil {
 		return nil, err
 	}
+	logBase := base
+	if rec != nil {
+		if res.Rotated = rec.Files(); len(res.Rotated) > 0 {
+			logBase = res.Rotated[0]
+		}
+	}
 	if o.Record != "" && tr != nil {
-		log := base + ".csv"
+		log := logBase + ".csv"
 		if err := atomicfile.WriteFunc(log, func(w io.Writer) error { return heading.WriteLog(w, tr) }); err != nil {
 			for _, p := range []string{res.Meta, res.Data} {
 				os.Remove(p)
@@ -508,8 +542,8 @@ func (s *session) run(ctx context.Context) (res *Result, err error) {
 
 // recordingBase is the base path of the recording: record without a
 // SigMF extension, or a new temporary folder's "live".
-func recordingBase(record string) (base, tmpDir string, err error) {
-	if record == "" {
+func recordingBase(record string, isDir bool) (base, tmpDir string, err error) {
+	if record == "" || isDir {
 		if tmpDir, err = os.MkdirTemp("", "nullseek-live-"); err != nil {
 			return "", "", fmt.Errorf("live capture: %w", err)
 		}
@@ -731,6 +765,7 @@ func upTo(tr *heading.Track, endS float64) *heading.Track {
 func (s *session) showStatus(ctx context.Context, rate float64, stopAt *atomic.Int64, m *meter, hs *headings, feed *CompassFeed) {
 	tick := time.NewTicker(statusPeriod)
 	defer tick.Stop()
+	var fl floor
 	for {
 		select {
 		case <-ctx.Done():
@@ -738,6 +773,7 @@ func (s *session) showStatus(ctx context.Context, rate float64, stopAt *atomic.I
 		case <-tick.C:
 		}
 		st := Status{ElapsedS: float64(m.n.Load()) / rate, LevelDBFS: m.level(), Clipping: m.clipped.Load()}
+		st.SNRDB, st.SNRKnown = fl.add(st.ElapsedS, st.LevelDBFS)
 		if n := stopAt.Load(); n != math.MaxInt64 {
 			st.TotalS = float64(n) / rate
 		}
@@ -754,4 +790,33 @@ func (s *session) showStatus(ctx context.Context, rate float64, stopAt *atomic.I
 		}
 		s.o.Status.Show(st)
 	}
+}
+
+// teeSink writes the capture to its recording and to the rotating SigMF
+// pairs of a --record directory. Abort discards the recording but keeps
+// the pairs: they hold what was received.
+type teeSink struct {
+	sink
+	rec *sdr.RotatingSigMF
+}
+
+func (t *teeSink) Write(b []complex64) error {
+	if err := t.sink.Write(b); err != nil {
+		return err
+	}
+	return t.rec.Write(b)
+}
+
+func (t *teeSink) Close() error {
+	err := t.sink.Close()
+	if rerr := t.rec.Close(); rerr != nil && err == nil {
+		err = fmt.Errorf("--record: %w", rerr)
+	}
+	return err
+}
+
+func (t *teeSink) Abort() error {
+	err := t.sink.Abort()
+	t.rec.Close()
+	return err
 }

@@ -236,14 +236,18 @@ func (db *DB) Bearings(q BearingQuery) ([]Bearing, error) {
 	for rows.Next() {
 		var g Bearing
 		var when sql.NullInt64
-		var mag, decl, alt, salt sql.NullFloat64
+		var mag, decl, alt, salt, slat, slon sql.NullFloat64
 		var warn string
 		if err := rows.Scan(&g.ID, &g.Capture, &g.BurstStartSample, &g.Station, &g.StationName, &g.Ident, &when,
-			&g.TrueDeg, &mag, &decl, &g.SigmaDeg, &alt, &g.Flags, &g.StationLatDeg, &g.StationLonDeg, &salt,
+			&g.TrueDeg, &mag, &decl, &g.SigmaDeg, &alt, &g.Flags, &slat, &slon, &salt,
 			&g.NullDepthDB, &g.CoverageDeg, &g.ResidualDB, &g.Points, &warn); err != nil {
 			return nil, db.wrap("read bearings", err)
 		}
 		g.Time, g.MagneticDeg, g.DeclinationDeg, g.AltTrueDeg, g.StationAltM = timeOf(when), ptrOf(mag), ptrOf(decl), ptrOf(alt), ptrOf(salt)
+		g.StationLatDeg, g.StationLonDeg, g.NoPosition = slat.Float64, slon.Float64, !slat.Valid
+		if g.NoPosition {
+			g.StationLatDeg, g.StationLonDeg = math.NaN(), math.NaN()
+		}
 		if warn != "" {
 			g.Warnings = strings.Split(warn, warningSep)
 		}

@@ -307,8 +307,13 @@ type Bearing struct {
 	// Flags is a set of Flag* bits.
 	Flags int
 	// StationLatDeg, StationLonDeg, StationAltM: where the station was.
+	// NoPosition says it is not known (a moving station's position
+	// source had no fix near the burst): nothing is stored for the three,
+	// and a bearing read back has NoPosition set and NaN latitude and
+	// longitude, so that it cannot be drawn from a made-up place.
 	StationLatDeg, StationLonDeg float64
 	StationAltM                  *float64
+	NoPosition                   bool
 	NullDepthDB, CoverageDeg     float64
 	ResidualDB                   float64
 	Points                       int
@@ -332,7 +337,7 @@ func (b Bearing) Validate() error {
 		return fmt.Errorf("%w: %s: time %v is outside 1970…2200", ErrBadRow, where, b.Time)
 	case b.Flags&^flagsAll != 0:
 		return fmt.Errorf("%w: %s: unknown flag bits %#x", ErrBadRow, where, b.Flags&^flagsAll)
-	case !(b.StationLatDeg >= -90 && b.StationLatDeg <= 90 && b.StationLonDeg >= -180 && b.StationLonDeg <= 180):
+	case !b.NoPosition && !(b.StationLatDeg >= -90 && b.StationLatDeg <= 90 && b.StationLonDeg >= -180 && b.StationLonDeg <= 180):
 		return fmt.Errorf("%w: %s: station position %v, %v is not a latitude and longitude", ErrBadRow, where, b.StationLatDeg, b.StationLonDeg)
 	case b.StationAltM != nil && !finite(*b.StationAltM):
 		return fmt.Errorf("%w: %s: station altitude is not finite", ErrBadRow, where)

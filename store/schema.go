@@ -14,6 +14,7 @@ type migration struct {
 var migrations = []migration{
 	{1, "stations, captures, transmitters, bursts, level readings, headings", schemaV1},
 	{2, "bearings, schedules, fixes and the indexes of the queries", schemaV2},
+	{3, "a bearing of a moving station may have no position", schemaV3},
 }
 
 // SchemaVersion is the schema version this build writes (PRAGMA
@@ -213,4 +214,46 @@ CREATE TABLE fix_lines (
 ) WITHOUT ROWID;
 
 CREATE INDEX bursts_tx_time ON bursts (transmitter_id, start_unix_ns);
+`
+
+// schemaV3: a moving station's bearing is kept when its position source
+// had no fix near the burst's time (station_lat_deg and station_lon_deg
+// both NULL) rather than stamped with a guess. SQLite cannot relax a NOT
+// NULL column in place, so the table is rebuilt the documented way
+// (SQLite documentation, ALTER TABLE, "Making Other Kinds Of Table Schema
+// Changes": create, copy, drop, rename, re-index); no table refers to
+// bearings, so its ids and every reference to bursts and stations carry
+// over unchanged.
+const schemaV3 = `
+CREATE TABLE bearings_v3 (
+	id                    INTEGER PRIMARY KEY,
+	burst_id              INTEGER NOT NULL REFERENCES bursts(id) ON DELETE CASCADE,
+	station_id            INTEGER NOT NULL REFERENCES stations(id),
+	transmitter_id        INTEGER REFERENCES transmitters(id),
+	time_unix_ns          INTEGER,
+	bearing_true_deg      REAL    NOT NULL CHECK (bearing_true_deg >= 0 AND bearing_true_deg < 360),
+	bearing_magnetic_deg  REAL CHECK (bearing_magnetic_deg >= 0 AND bearing_magnetic_deg < 360),
+	declination_deg       REAL,
+	sigma_deg             REAL    NOT NULL CHECK (sigma_deg > 0),
+	alt_bearing_true_deg  REAL CHECK (alt_bearing_true_deg >= 0 AND alt_bearing_true_deg < 360),
+	flags                 INTEGER NOT NULL DEFAULT 0,
+	-- where the station was when the bearing was taken; NULL: unknown
+	station_lat_deg       REAL CHECK (station_lat_deg BETWEEN -90 AND 90),
+	station_lon_deg       REAL CHECK (station_lon_deg BETWEEN -180 AND 180),
+	station_alt_m         REAL,
+	null_depth_db         REAL    NOT NULL DEFAULT 0,
+	coverage_deg          REAL    NOT NULL DEFAULT 0,
+	residual_db           REAL    NOT NULL DEFAULT 0,
+	points                INTEGER NOT NULL DEFAULT 0,
+	warnings              TEXT    NOT NULL DEFAULT '',
+	UNIQUE (burst_id, station_id),
+	CHECK ((station_lat_deg IS NULL) = (station_lon_deg IS NULL))
+);
+INSERT INTO bearings_v3 SELECT id, burst_id, station_id, transmitter_id, time_unix_ns, bearing_true_deg,
+	bearing_magnetic_deg, declination_deg, sigma_deg, alt_bearing_true_deg, flags, station_lat_deg,
+	station_lon_deg, station_alt_m, null_depth_db, coverage_deg, residual_db, points, warnings FROM bearings;
+DROP TABLE bearings;
+ALTER TABLE bearings_v3 RENAME TO bearings;
+CREATE INDEX bearings_station_tx_time ON bearings (station_id, transmitter_id, time_unix_ns);
+CREATE INDEX bearings_tx_time ON bearings (transmitter_id, time_unix_ns);
 `

@@ -701,9 +701,12 @@ func (it *bearingItem) write(b *batchTx) error {
 	if when == nil && startNS.Valid {
 		when = startNS.Int64
 	}
+	var lat, lon, alt any = x.StationLatDeg, x.StationLonDeg, fOrNil(x.StationAltM)
+	if x.NoPosition {
+		lat, lon, alt = nil, nil, nil
+	}
 	if err := b.exec(upsertBearing, burst, x.Station, txArg, when, x.TrueDeg, fOrNil(x.MagneticDeg),
-		fOrNil(x.DeclinationDeg), x.SigmaDeg, fOrNil(x.AltTrueDeg), x.Flags, x.StationLatDeg, x.StationLonDeg,
-		fOrNil(x.StationAltM), x.NullDepthDB, x.CoverageDeg, x.ResidualDB, x.Points,
+		fOrNil(x.DeclinationDeg), x.SigmaDeg, fOrNil(x.AltTrueDeg), x.Flags, lat, lon, alt, x.NullDepthDB, x.CoverageDeg, x.ResidualDB, x.Points,
 		strings.Join(x.Warnings, warningSep)); err != nil {
 		return err
 	}

@@ -54,7 +54,15 @@ func (s *noiseSource) Read(dst []complex64) (int, error) {
 // batching; the rotator is unreachable, so it is dialled every 2 s). One
 // iteration is 2^16 samples; cpu@2.4MS/s is the share of one core a live
 // stream at that rate takes.
-func BenchmarkWatchPerSample(b *testing.B) {
+func BenchmarkWatchPerSample(b *testing.B) { benchWatch(b, "") }
+
+// BenchmarkWatchPerSampleRecord is BenchmarkWatchPerSample keeping every
+// sample as rotating SigMF pairs (Options.RecordDir: cu8 encoding, the
+// SHA-512 of every byte, 64 KiB writes and a flush with fsync each second
+// of receiver time).
+func BenchmarkWatchPerSampleRecord(b *testing.B) { benchWatch(b, b.TempDir()) }
+
+func benchWatch(b *testing.B, recordDir string) {
 	st, db := loadStation(b, `name = "Bench"
 database = "bench.db"
 [position]
@@ -79,7 +87,8 @@ sweep_to_deg = 360.0
 	const perIter = 1 << 16
 	src := newNoiseSource(st.Receiver.SampleRateHz, int64(b.N)*perIter)
 	b.ResetTimer()
-	sum, err := Run(context.Background(), Options{Station: st, DB: db, Open: func(context.Context, sdr.RTLConfig) (sdr.Source, error) { return src, nil }})
+	sum, err := Run(context.Background(), Options{Station: st, DB: db, RecordDir: recordDir,
+		Open: func(context.Context, sdr.RTLConfig) (sdr.Source, error) { return src, nil }})
 	b.StopTimer()
 	if err != nil {
 		b.Fatal(err)

@@ -51,9 +51,22 @@ var recArgs = []string{"--rate", "240000", "--seconds", fmt.Sprint(recSeconds), 
 // path.
 func makeRecording(t *testing.T, dir string) string {
 	t.Helper()
+	return makeRecordingOf(t, dir, recSeconds)
+}
+
+// makeRecordingOf is makeRecording of the given length (the same bursts,
+// 17 s on and 2 s off, go on to the end).
+func makeRecordingOf(t *testing.T, dir string, seconds float64) string {
+	t.Helper()
 	py := testtool.GNURadio(t)
 	script := filepath.Join("..", "testdata", "bearing", "make_rotating.py")
-	out, err := exec.Command(py, append([]string{script, "--out", dir}, recArgs...)...).CombinedOutput()
+	args := append([]string{script, "--out", dir}, recArgs...)
+	for i := range args {
+		if args[i] == "--seconds" {
+			args[i+1] = fmt.Sprint(seconds)
+		}
+	}
+	out, err := exec.Command(py, args...).CombinedOutput()
 	if err != nil {
 		t.Fatalf("make_rotating.py: %v\n%s", err, out)
 	}
@@ -296,7 +309,7 @@ func TestWatchMatchesSurvey(t *testing.T) {
 	if err != nil || len(plan) == 0 {
 		t.Errorf("no slot schedule stored after %d bursts: %v", len(bursts), err)
 	}
-	for _, want := range []string{"MS/s", "CPU", "rotator", "behind"} {
+	for _, want := range []string{"MS/s", "CPU", "rotator", "behind", "input [", "dBFS", "last burst"} {
 		if !strings.Contains(status, want) {
 			t.Errorf("the status lines say nothing of %q:\n%s", want, status)
 		}

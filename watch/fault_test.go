@@ -5,6 +5,7 @@ package watch
 import (
 	"bufio"
 	"context"
+	"encoding/json"
 	"net"
 	"os"
 	"os/exec"
@@ -212,7 +213,9 @@ wait:
 // TestWatchReceiverOutage: the rtl_tcp server vanishes 8 s into the run
 // and comes back 3 s later on the same address (the recording paused
 // meanwhile): the watch reconnects by itself (sdr.ResilientRTLTCP), logs
-// the gap once and goes on storing bursts from the stream after it.
+// the gap once and goes on storing bursts from the stream after it. Its
+// recording (RecordDir) marks the gap as SigMF v1.2.5 asks: a new capture
+// segment where time jumps, and an annotation labelled "gap".
 func TestWatchReceiverOutage(t *testing.T) {
 	t.Parallel()
 	dir := t.TempDir()
@@ -240,7 +243,11 @@ func TestWatchReceiverOutage(t *testing.T) {
 	stop := serveUntil(ln)
 	// Ended before the recording does: at its end the server hangs up and
 	// the watch would go on redialling.
-	db, log, wait := watchInBackground(t, writeStation(t, dir, addr, rot), Options{DurationS: recSeconds - 3})
+	rec := filepath.Join(dir, "rec")
+	if err := os.Mkdir(rec, 0o755); err != nil {
+		t.Fatal(err)
+	}
+	db, log, wait := watchInBackground(t, writeStation(t, dir, addr, rot), Options{DurationS: recSeconds - 3, RecordDir: rec})
 	time.Sleep(8 * time.Second)
 	stop()
 	time.Sleep(3 * time.Second)
@@ -273,6 +280,30 @@ func TestWatchReceiverOutage(t *testing.T) {
 		t.Errorf("no burst stored from after the outage (%d bursts in all)", len(bursts))
 	}
 	integrityCheck(t, db.Path())
+	metas, _ := filepath.Glob(filepath.Join(rec, "*.sigmf-meta"))
+	if len(metas) != 1 {
+		t.Fatalf("recorded pairs %v, want one", metas)
+	}
+	b, err := os.ReadFile(metas[0])
+	if err != nil {
+		t.Fatal(err)
+	}
+	var got struct {
+		Captures    []map[string]any `json:"captures"`
+		Annotations []map[string]any `json:"annotations"`
+	}
+	if err := json.Unmarshal(b, &got); err != nil {
+		t.Fatal(err)
+	}
+	gaps := 0
+	for _, a := range got.Annotations {
+		if a["core:label"] == "gap" {
+			gaps++
+		}
+	}
+	if len(got.Captures) != 2 || gaps != 1 {
+		t.Errorf("the recording has %d capture segments and %d gap annotations, want 2 and 1:\n%s", len(got.Captures), gaps, b)
+	}
 }
 
 // watchInBackground starts a watch of the station file at sp in the

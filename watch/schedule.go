@@ -1,7 +1,6 @@
 package watch
 
 import (
-	"fmt"
 	"math"
 	"time"
 
@@ -55,7 +54,7 @@ func (w *watcher) schedule(r survey.Record) error {
 		return nil
 	}
 	if err := w.o.DB.PutSchedules(rows); err != nil {
-		return fmt.Errorf("%s: %w", w.o.DB.Path(), err)
+		return w.dbErr(err)
 	}
 	return nil
 }

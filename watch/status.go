@@ -6,6 +6,8 @@ import (
 	"math"
 	"strings"
 	"time"
+
+	"nullseek/capture"
 )
 
 // showStatus prints the status line every StatusPeriod until ctx ends.
@@ -48,11 +50,18 @@ func (w *watcher) statusLine(now time.Time, wall time.Duration, samples int64, c
 	if cpuOK && wall > 0 {
 		fmt.Fprintf(&b, "  CPU %.2f", cpu.Seconds()/wall.Seconds())
 	}
-	fmt.Fprintf(&b, "  input %.1f dBFS", math.Float64frombits(w.inputDB.Load()))
+	fmt.Fprintf(&b, "  input %s", capture.LevelBar(math.Float64frombits(w.inputDB.Load())))
 	if ch := math.Float64frombits(w.channelDB.Load()); !math.IsNaN(ch) {
-		fmt.Fprintf(&b, "  channel %.1f dBFS (in a burst)", ch)
+		fmt.Fprintf(&b, "  channel %.1f dBFS", ch)
+		if n := math.Float64frombits(w.noiseDB.Load()); !math.IsNaN(n) && !math.IsInf(n, 0) {
+			fmt.Fprintf(&b, " SNR %.1f dB", ch-n)
+		}
+		b.WriteString(" (in a burst)")
 	} else {
 		b.WriteString("  channel quiet")
+		if lb := w.lastBurst.Load(); lb != nil {
+			fmt.Fprintf(&b, " (last burst %.1f dBFS, SNR %.1f dB)", lb[0], lb[1])
+		}
 	}
 	deg, have := w.hs.latest()
 	switch {
@@ -60,6 +69,13 @@ func (w *watcher) statusLine(now time.Time, wall time.Duration, samples int64, c
 		fmt.Fprintf(&b, "  %s: no answer", w.headingSourceShort())
 	case have:
 		fmt.Fprintf(&b, "  %s %.1f°", w.headingSourceShort(), deg)
+	}
+	if w.pos.moving {
+		if f, err := w.pos.src.At(now); err == nil {
+			fmt.Fprintf(&b, "  at %.5f, %.5f", f.LatDeg, f.LonDeg)
+		} else {
+			b.WriteString("  position unknown")
+		}
 	}
 	st := w.wr.Stats()
 	fmt.Fprintf(&b, "  bursts %d, bearings %d, stored %d bursts", w.bursts.Load(), w.bearings.Load(), st.Bursts)

@@ -8,6 +8,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"strings"
 	"sync"
 	"sync/atomic"
 	"time"
@@ -97,6 +98,17 @@ type Options struct {
 	// receiver.DefaultConfig's); the channel always comes from the station
 	// file.
 	Receiver receiver.Config
+	// RecordDir, when set, keeps every sample received as SigMF in that
+	// directory (sdr.RotatingSigMF: pairs named after their first sample's
+	// UTC time, rolled over every RecordEvery or before RecordMaxBytes,
+	// with core:geolocation from the station's position and each receiver
+	// gap as a capture segment).
+	RecordDir string
+	// RecordEvery is the receiver time per recorded pair (0:
+	// capture.DefaultRecordEvery); RecordMaxBytes caps a data file (0: no
+	// cap).
+	RecordEvery    time.Duration
+	RecordMaxBytes int64
 }
 
 // Summary is what a watch did.
@@ -135,7 +147,9 @@ type watcher struct {
 	capture   store.CaptureID
 	info      sdr.Info
 	hs        *liveHeadings
+	pos       *livePosition
 	wr        *store.Writer
+	rec       *sdr.RotatingSigMF
 	idf       *ident.Identifier
 
 	// The scan's goroutine only.
@@ -152,8 +166,10 @@ type watcher struct {
 	stopScan context.CancelFunc
 
 	samples   atomic.Int64
-	inputDB   atomic.Uint64 // math.Float64bits of the last block's level
-	channelDB atomic.Uint64 // the last channel reading in a burst; NaN between
+	inputDB   atomic.Uint64              // math.Float64bits of the last block's level
+	channelDB atomic.Uint64              // the last channel reading in a burst; NaN between
+	noiseDB   atomic.Uint64              // the noise under it (receiver.Piece.NoiseDB)
+	lastBurst atomic.Pointer[[2]float64] // the last burst's level and SNR, dB
 	bursts    atomic.Int64
 	bearings  atomic.Int64
 	headingOK atomic.Bool
@@ -178,8 +194,6 @@ func newWatcher(o Options) (*watcher, error) {
 	switch {
 	case len(st.Channels) != 1:
 		return nil, bad("[[channel]]", fmt.Sprintf("watch listens on one channel; the file names %d", len(st.Channels)))
-	case st.Position.Source != station.PositionFixed:
-		return nil, bad("position.source", fmt.Sprintf("watch runs a fixed station; %q is a moving one's", st.Position.Source))
 	case st.Heading.Source == station.HeadingLog:
 		return nil, bad("heading.source", `watch needs a live heading ("rotator" or "compass"); a heading log is for recordings`)
 	case st.Receiver.RTLTCP == "" && st.Receiver.USBIndex < 0 && o.Open == nil:
@@ -202,11 +216,14 @@ func newWatcher(o Options) (*watcher, error) {
 		return nil, bad("antenna", err.Error())
 	}
 	w.pattern = p
+	if w.pos, err = newLivePosition(st); err != nil {
+		return nil, err
+	}
 	bo := survey.BearingOptions{MountOffsetDeg: st.Antenna.MountOffsetDeg, MountOffsetGiven: st.Antenna.MountOffsetDeg != 0}
 	if w.mount, err = bo.MountOffset(p); err != nil {
 		return nil, bad("antenna.mount_offset_deg", err.Error())
 	}
-	if w.ref == heading.Magnetic {
+	if w.ref == heading.Magnetic && !w.pos.moving {
 		d := st.Position.DeclinationDeg
 		if d == nil {
 			v, werr := geo.Declination(st.Position.LatDeg, st.Position.LonDeg, ptrOr(st.Position.AltM, 0), w.now())
@@ -216,6 +233,8 @@ func newWatcher(o Options) (*watcher, error) {
 			d = &v
 		}
 		w.declDeg = d
+	} else if w.ref == heading.Magnetic {
+		w.declDeg = st.Position.DeclinationDeg // nil: WMM at each bearing's position
 	}
 	mode, err := morse.ParseMode(w.ch.Mode)
 	if err != nil {
@@ -266,6 +285,11 @@ func (w *watcher) open(ctx context.Context, cfg sdr.RTLConfig) (sdr.Source, erro
 			OnGap: func(g sdr.Gap) {
 				w.logf("warning: receiver %s: gap of %.1f s (about %d samples) before sample %d: %s; carrying on",
 					w.st.Receiver.RTLTCP, g.Lost.Seconds(), g.Missing, g.Index, g.Cause)
+				if w.rec != nil {
+					if err := w.rec.AddGap(g); err != nil {
+						w.logf("warning: --record %s: %v", w.o.RecordDir, err)
+					}
+				}
 			},
 		})
 	}
@@ -278,12 +302,15 @@ func (w *watcher) open(ctx context.Context, cfg sdr.RTLConfig) (sdr.Source, erro
 
 func (w *watcher) run(ctx context.Context) (*Summary, error) {
 	st := w.st
-	stationRow := store.Station{Name: st.Name, LatDeg: &st.Position.LatDeg, LonDeg: &st.Position.LonDeg, AltM: st.Position.AltM,
-		PositionSource: store.PositionFixed, Antenna: st.Antenna.Kind, PatternFile: st.Antenna.PatternFile,
+	stationRow := store.Station{Name: st.Name, AltM: st.Position.AltM,
+		PositionSource: st.Position.Source, Antenna: st.Antenna.Kind, PatternFile: st.Antenna.PatternFile,
 		MountOffsetDeg: w.mount, DeclinationDeg: st.Position.DeclinationDeg}
+	if st.Position.HasLatLon { // a moving station's is only where it starts
+		stationRow.LatDeg, stationRow.LonDeg = &st.Position.LatDeg, &st.Position.LonDeg
+	}
 	var err error
 	if w.stationID, err = w.o.DB.PutStation(stationRow); err != nil {
-		return nil, fmt.Errorf("%s: %w", w.o.DB.Path(), err)
+		return nil, w.dbErr(err)
 	}
 	for _, warn := range st.Warnings {
 		w.logf("warning: %s: %s", st.Path, warn) // AGC on, among others (station owns the wording)
@@ -315,7 +342,7 @@ func (w *watcher) run(ctx context.Context) (*Summary, error) {
 	capRow := store.Capture{Station: w.stationID, Source: w.info.Name, Format: "cu8", Start: w.info.Start, CentreHz: w.info.CenterHz,
 		SampleRateHz: w.info.SampleRate, Samples: -1, FileSHA256: hex.EncodeToString(key[:]), ChannelOffsetHz: w.ch.FreqHz - w.info.CenterHz}
 	if w.capture, err = w.o.DB.PutCapture(capRow); err != nil {
-		return nil, fmt.Errorf("%s: %w", w.o.DB.Path(), err)
+		return nil, w.dbErr(err)
 	}
 	wo := w.o.Writer
 	if wo.FlushInterval == 0 {
@@ -324,15 +351,27 @@ func (w *watcher) run(ctx context.Context) (*Summary, error) {
 	if w.wr, err = w.o.DB.NewWriter(wo); err != nil {
 		return nil, err
 	}
+	if w.o.RecordDir != "" {
+		if err := w.startRecording(); err != nil {
+			w.wr.Close()
+			return nil, err
+		}
+	}
 	w.hs = newLiveHeadings(w.ref, w.mount, st.Heading.LagS)
 	w.channelDB.Store(math.Float64bits(math.NaN()))
-	w.logf("watching %.4f MHz from %s at %.3f MS/s for %s (ids %v); headings from %s", w.ch.FreqHz/1e6, w.info.Name, w.info.SampleRate/1e6, st.Name, w.ch.IDs, w.headingName())
+	w.logf("watching %.4f MHz from %s at %.3f MS/s for %s (ids %v); headings from %s; position from %s", w.ch.FreqHz/1e6, w.info.Name, w.info.SampleRate/1e6, st.Name, w.ch.IDs, w.headingName(), w.pos.name(st))
 
 	var bg sync.WaitGroup
 	bgctx, stopBG := context.WithCancel(sctx)
 	defer stopBG()
-	bg.Add(3)
+	bg.Add(4)
 	go func() { defer bg.Done(); w.runHeadings(bgctx) }()
+	go func() {
+		defer bg.Done()
+		if err := w.pos.run(bgctx); err != nil {
+			w.logf("warning: %v: bearings are logged without the station's position", err)
+		}
+	}()
 	go func() { defer bg.Done(); w.handOff(bgctx) }()
 	go func() { defer bg.Done(); w.showStatus(bgctx) }()
 
@@ -354,10 +393,15 @@ func (w *watcher) run(ctx context.Context) (*Summary, error) {
 	if w.failErr != nil && cerr == nil {
 		cerr = w.failErr
 	}
+	if w.rec != nil {
+		if err := w.rec.Close(); err != nil && serr == nil {
+			serr = fmt.Errorf("--record %s: %w", w.o.RecordDir, err)
+		}
+	}
 	sum := &Summary{Capture: w.capture, Samples: w.samples.Load(), Bursts: int(w.bursts.Load()), Bearings: int(w.bearings.Load()), Committed: w.wr.Stats()}
 	switch {
 	case cerr != nil:
-		return sum, fmt.Errorf("%s: %w", w.o.DB.Path(), cerr)
+		return sum, w.dbErr(cerr)
 	case serr != nil && ctx.Err() == nil:
 		return sum, serr
 	}
@@ -419,6 +463,11 @@ func (m *meteredSource) Read(dst []complex64) (int, error) {
 		}
 		m.w.inputDB.Store(math.Float64bits(10 * math.Log10(max(p/float64(n), 1e-12))))
 		m.w.samples.Add(int64(n))
+		if m.w.rec != nil {
+			if werr := m.w.rec.Write(dst[:n]); werr != nil {
+				return n, fmt.Errorf("--record %s: %w", m.w.o.RecordDir, werr)
+			}
+		}
 	}
 	return n, err
 }
@@ -439,6 +488,7 @@ func (w *watcher) piece(p *receiver.Piece) error {
 		w.raw = append(w.raw, store.LevelReading{Sample: l.Sample, TimeS: l.T, LevelDBFS: l.LevelDB, Clipped: l.Clipped})
 	}
 	if n := len(level); n > 0 {
+		w.noiseDB.Store(math.Float64bits(p.NoiseDB))
 		w.channelDB.Store(math.Float64bits(level[n-1].LevelDB))
 	}
 	if !p.Last {
@@ -493,9 +543,10 @@ func (w *watcher) record(r survey.Record) error {
 	}
 	b := burstRow(w.capture, r, w.info.SampleRate)
 	if err := w.wr.AddBurst(b, readings); err != nil {
-		return fmt.Errorf("%s: %w", w.o.DB.Path(), err)
+		return w.dbErr(err)
 	}
 	w.bursts.Add(1)
+	w.lastBurst.Store(&[2]float64{r.LevelDB, b.SNRDB})
 	line := fmt.Sprintf("burst %s  %7.1f s  %-10s %-5s level %6.1f dBFS  SNR %5.1f dB", survey.StartTime(r.Start, r.StartS), r.EndS-r.StartS, identText(r), r.Mode, r.LevelDB, b.SNRDB)
 	if w.cutShort && r.Index == w.cur {
 		line += fmt.Sprintf("  (readings after the first %d kept out)", maxBurstReadings)
@@ -504,7 +555,7 @@ func (w *watcher) record(r survey.Record) error {
 		line += "  no bearing: " + why
 	} else {
 		if err := w.wr.AddBearing(br); err != nil {
-			return fmt.Errorf("%s: %w", w.o.DB.Path(), err)
+			return w.dbErr(err)
 		}
 		w.bearings.Add(1)
 		line += fmt.Sprintf("  bearing %5.1f° ± %.1f° true", br.TrueDeg, br.SigmaDeg)
@@ -567,16 +618,35 @@ func (w *watcher) bearingRow(r survey.Record, b store.Burst) (store.Bearing, str
 		return store.Bearing{}, fmt.Sprintf("the fit gave %.1f° ± %.1f°", e.BearingDeg, e.SigmaDeg)
 	}
 	br := store.Bearing{Capture: w.capture, BurstStartSample: b.StartSample, Station: w.stationID, Ident: b.Ident, Time: b.Start,
-		TrueDeg: e.BearingDeg, SigmaDeg: e.SigmaDeg, StationLatDeg: w.st.Position.LatDeg, StationLonDeg: w.st.Position.LonDeg,
-		StationAltM: w.st.Position.AltM, NullDepthDB: e.NullDepthDB, CoverageDeg: e.CoverageDeg, ResidualDB: e.ResidualDB,
+		TrueDeg: e.BearingDeg, SigmaDeg: e.SigmaDeg, NullDepthDB: e.NullDepthDB, CoverageDeg: e.CoverageDeg, ResidualDB: e.ResidualDB,
 		Points: e.Points, Warnings: e.Warnings}
+	// The line of position is fitted over the whole burst: a moving
+	// station took it, to first order, where it was at the burst's middle.
+	mid := b.Start.Add(time.Duration((b.EndS - b.StartS) / 2 * float64(time.Second)))
+	fix, placed := w.place(mid)
+	if placed {
+		br.StationLatDeg, br.StationLonDeg, br.StationAltM = fix.LatDeg, fix.LonDeg, fix.AltHAEM
+	} else {
+		br.NoPosition = true
+	}
 	alt := e.AltBearingDeg
-	if w.declDeg != nil {
+	decl := w.declDeg
+	if w.ref == heading.Magnetic && decl == nil {
+		if !placed {
+			return store.Bearing{}, "no position for the magnetic declination"
+		}
+		v, _ := geo.Declination(fix.LatDeg, fix.LonDeg, ptrOr(fix.AltHAEM, 0), mid)
+		if math.IsNaN(v) {
+			return store.Bearing{}, "no magnetic declination at the station's position"
+		}
+		decl = &v
+	}
+	if decl != nil {
 		mag := e.BearingDeg
-		br.MagneticDeg, br.DeclinationDeg = &mag, w.declDeg
-		br.TrueDeg = angle.Wrap360(mag + *w.declDeg)
+		br.MagneticDeg, br.DeclinationDeg = &mag, decl
+		br.TrueDeg = angle.Wrap360(mag + *decl)
 		if alt != nil {
-			a := angle.Wrap360(*alt + *w.declDeg)
+			a := angle.Wrap360(*alt + *decl)
 			alt = &a
 		}
 	}
@@ -597,4 +667,12 @@ func (w *watcher) bearingRow(r survey.Record, b store.Burst) (store.Bearing, str
 		br.Flags |= store.FlagBurstCut
 	}
 	return br, ""
+}
+
+// dbErr names the database in a store error that does not already.
+func (w *watcher) dbErr(err error) error {
+	if strings.Contains(err.Error(), w.o.DB.Path()) {
+		return err
+	}
+	return fmt.Errorf("%s: %w", w.o.DB.Path(), err)
 }
