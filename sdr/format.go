@@ -165,6 +165,9 @@ func (f sampleFormat) encode(dst []byte, src []complex64) (sat int) {
 	if f.bigEndian {
 		bo = binary.BigEndian
 	}
+	if f.kind == 'u' && f.compBytes == 1 {
+		return encodeCU8(dst, src)
+	}
 	bps := f.bytesPerSample()
 	for i, v := range src {
 		out := dst[i*bps : (i+1)*bps]
@@ -201,6 +204,33 @@ func (f sampleFormat) encode(dst []byte, src []complex64) (sat int) {
 				q, s := quantise(float64(x)*mid+mid, 0, 1<<32-1)
 				sat += s
 				bo.PutUint32(o, uint32(q))
+			}
+		}
+	}
+	return sat
+}
+
+// encodeCU8 is encode for cu8, the format of an RTL-SDR and of every
+// --record pair, without the per-component format switch: the same codes
+// as quantise(x*127.5+127.5, 0, 255) (TestEncodeCU8MatchesQuantise). y is
+// exact in float64 (a float32 times 127.5 plus 127.5 needs at most 33
+// significant bits), so for -0.5 < y < 255.5 truncating y+0.5 rounds half
+// away from zero as math.Round does; y <= -0.5, y >= 255.5 and NaN (every
+// comparison false) saturate.
+func encodeCU8(dst []byte, src []complex64) (sat int) {
+	dst = dst[:2*len(src)]
+	for i, v := range src {
+		for c, x := range [2]float32{real(v), imag(v)} {
+			y := float64(x)*127.5 + 127.5
+			switch {
+			case y > -0.5 && y < 255.5:
+				dst[2*i+c] = byte(int(y + 0.5))
+			case y <= -0.5:
+				dst[2*i+c], sat = 0, sat+1
+			case y >= 255.5:
+				dst[2*i+c], sat = 255, sat+1
+			default: // NaN: the code nearest zero, as quantise
+				dst[2*i+c], sat = 128, sat+1
 			}
 		}
 	}

@@ -222,3 +222,51 @@ func BenchmarkReadCU8AsComplex(b *testing.B) {
 		}
 	}
 }
+
+// The cu8 fast path writes exactly the codes of the general rule
+// (quantise(x*127.5+127.5, 0, 255), NaN to the code nearest zero) for every
+// code's centre and both half-code boundaries, values beyond full scale and
+// NaN, with the same saturation count.
+func TestEncodeCU8MatchesQuantise(t *testing.T) {
+	var xs []float32
+	for code := -2; code <= 257; code++ {
+		for _, d := range []float64{-0.5, -0.25, 0, 0.25, 0.5} {
+			y := float64(code) + d
+			x := float32((y - 127.5) / 127.5)
+			xs = append(xs, x, math.Nextafter32(x, 2), math.Nextafter32(x, -2))
+		}
+	}
+	xs = append(xs, float32(math.NaN()), float32(math.Inf(1)), float32(math.Inf(-1)), 3, -3)
+	src := make([]complex64, len(xs))
+	for i, x := range xs {
+		src[i] = complex(x, -x)
+	}
+	got := make([]byte, 2*len(src))
+	sat := encodeCU8(got, src)
+	wantSat := 0
+	for i, v := range src {
+		for c, x := range [2]float32{real(v), imag(v)} {
+			q, s := quantise(float64(x)*127.5+127.5, 0, 255)
+			wantSat += s
+			if got[2*i+c] != byte(q) {
+				t.Fatalf("x=%v: cu8 fast path wrote %d, quantise %d", x, got[2*i+c], q)
+			}
+		}
+	}
+	if sat != wantSat {
+		t.Errorf("saturated %d components, quantise counts %d", sat, wantSat)
+	}
+}
+
+func BenchmarkEncodeCU8(b *testing.B) {
+	f, _ := parseFormat("cu8")
+	src := make([]complex64, 8192)
+	for i := range src {
+		src[i] = complex(float32(math.Sin(float64(i)*0.01)), float32(math.Cos(float64(i)*0.013)))
+	}
+	dst := make([]byte, 2*len(src))
+	b.SetBytes(int64(len(src)))
+	for b.Loop() {
+		f.encode(dst, src)
+	}
+}
