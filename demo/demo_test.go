@@ -23,7 +23,7 @@ func TestRunFiles(t *testing.T) {
 	}
 	dir := filepath.Join(t.TempDir(), "demo")
 	var out bytes.Buffer
-	if err := Run(context.Background(), &out, nil, dir, false); err != nil {
+	if err := Run(context.Background(), &out, nil, dir, false, ""); err != nil {
 		t.Fatal(err)
 	}
 	for _, n := range []string{"bearings.csv", "fixes.geojson", "map.png"} {
@@ -53,7 +53,7 @@ func TestRunFiles(t *testing.T) {
 	cancel()
 	gone := filepath.Join(t.TempDir(), "demo")
 	out.Reset()
-	if err := Run(ctx, &out, nil, gone, false); err == nil {
+	if err := Run(ctx, &out, nil, gone, false, ""); err == nil {
 		t.Fatal("a cancelled demo succeeded")
 	}
 	if _, err := os.Stat(gone); !os.IsNotExist(err) || out.Len() != 0 {

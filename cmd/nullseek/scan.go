@@ -6,6 +6,7 @@ import (
 
 	"github.com/spf13/cobra"
 
+	"nullseek/logbook"
 	"nullseek/receiver"
 	"nullseek/sdr"
 )
@@ -13,6 +14,7 @@ import (
 type scanOptions struct {
 	in           inputFlags
 	idf          identFlags
+	sf           stationFlags
 	asJSON, list bool
 }
 
@@ -32,6 +34,7 @@ it sees and scans the strongest.`,
 	}
 	o.in.add(cmd)
 	o.idf.add(cmd)
+	o.sf.add(cmd)
 	cmd.Flags().BoolVar(&o.asJSON, "json", false, "one JSON object per line instead of a table")
 	cmd.Flags().BoolVar(&o.list, "list", false, "only list the carriers seen in the recording")
 	return cmd
@@ -48,6 +51,9 @@ func runScan(cmd *cobra.Command, path string, o *scanOptions) error {
 	}
 	res, err := in.Run(cmd.Context(), nil)
 	if err != nil {
+		return err
+	}
+	if err := o.sf.save(cmd, logbook.Recording{Path: path, Result: res}); err != nil {
 		return err
 	}
 	out := cmd.OutOrStdout()
