@@ -11,11 +11,13 @@ import (
 	"text/tabwriter"
 	"time"
 
+	"nullseek/bearing"
 	"nullseek/geo"
 	"nullseek/ident/fingerprint"
 	"nullseek/ident/schedule"
 	"nullseek/locate"
 	"nullseek/store"
+	"nullseek/survey"
 )
 
 // Query selects what is read back: one station's and one transmitter's
@@ -243,23 +245,53 @@ func WriteScheduleTable(w io.Writer, ss []store.Schedule, at time.Time) error {
 }
 
 // FixSource is the stored bearings q selects as a bearings input of
-// locate.Run (the CSV that fix reads, geo.WriteBearingsCSV): per-burst
-// true bearings with the station's name and where it stood.
+// locate.Run (the CSV that fix reads, geo.WriteBearingsCSV). The stored
+// bearings are one per burst, with the fit's own sigma: as bearing does,
+// the bursts of one transmitter heard at one place are combined
+// (bearing.Combine) and the site error survey.DefaultSiteSigmaDeg, which
+// repeats on every burst, is added in quadrature, so each station gives
+// one line of position per transmitter, stamped with its latest burst.
+// It returns the source and the number of lines.
 func FixSource(path string, q Query) (locate.Source, int, error) {
 	bs, err := Bearings(path, q)
 	if err != nil {
 		return locate.Source{}, 0, err
 	}
-	if len(bs) == 0 {
-		return locate.Source{}, 0, fmt.Errorf("--db %s: no bearings stored%s", path, q.describe())
+	type key struct {
+		ident, station string
+		lat, lon       float64
 	}
-	recs := make([]geo.BearingRecord, 0, len(bs))
+	var order []key
+	groups := map[key][]store.Bearing{}
 	for _, b := range bs {
 		if b.Ident == "" {
 			continue // attributed to no transmitter: nothing to fix
 		}
-		recs = append(recs, geo.BearingRecord{LOP: geo.LOP{Ident: b.Ident, Station: b.StationName, Lat: b.StationLatDeg,
-			Lon: b.StationLonDeg, BearingDeg: b.TrueDeg, SigmaDeg: b.SigmaDeg, Time: b.Time, Ambiguous: b.AltTrueDeg != nil}})
+		k := key{b.Ident, b.StationName, round(b.StationLatDeg, 5), round(b.StationLonDeg, 5)}
+		if _, ok := groups[k]; !ok {
+			order = append(order, k)
+		}
+		groups[k] = append(groups[k], b)
+	}
+	var recs []geo.BearingRecord
+	for _, k := range order {
+		g := groups[k]
+		ests := make([]bearing.Estimate, len(g))
+		for i, b := range g {
+			ests[i] = bearing.Estimate{BearingDeg: b.TrueDeg, SigmaDeg: b.SigmaDeg, AltBearingDeg: b.AltTrueDeg,
+				NullDepthDB: b.NullDepthDB, CoverageDeg: b.CoverageDeg, Points: b.Points}
+		}
+		c, err := bearing.Combine(ests, bearing.CombineOptions{})
+		if err != nil {
+			continue
+		}
+		last := g[len(g)-1]
+		recs = append(recs, geo.BearingRecord{LOP: geo.LOP{Ident: k.ident, Station: k.station, Lat: last.StationLatDeg,
+			Lon: last.StationLonDeg, BearingDeg: c.BearingDeg, SigmaDeg: math.Hypot(c.SigmaDeg, survey.DefaultSiteSigmaDeg),
+			Time: last.Time, Ambiguous: c.AltBearingDeg != nil}})
+	}
+	if len(recs) == 0 {
+		return locate.Source{}, 0, fmt.Errorf("--db %s: no bearings of a known transmitter stored%s", path, q.describe())
 	}
 	var buf bytes.Buffer
 	if err := geo.WriteBearingsCSV(&buf, recs); err != nil {

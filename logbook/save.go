@@ -10,6 +10,7 @@ import (
 	"time"
 
 	"nullseek/heading"
+	"nullseek/ident/idmatch"
 	"nullseek/ident/schedule"
 	"nullseek/internal/angle"
 	"nullseek/station"
@@ -259,7 +260,12 @@ func save(db *store.DB, r Recording, sv *Saved) error {
 		if info.Start.IsZero() {
 			sv.Notes = append(sv.Notes, "schedule not stored: the recording does not say when it started")
 		} else {
-			rows := ScheduleRows(r.Plan, end)
+			var rows []store.Schedule
+			for _, s := range ScheduleRows(r.Plan, end) {
+				if idmatch.Known(s.Ident) { // a fingerprint label is this recording's own
+					rows = append(rows, s)
+				}
+			}
 			if err := db.PutSchedules(rows); err != nil {
 				return err
 			}

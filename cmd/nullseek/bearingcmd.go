@@ -15,7 +15,7 @@ type bearingOptions struct {
 	in           inputFlags
 	idf          identFlags
 	hf           headingFlags
-	sf           stationFlags
+	sf           logbook.Flags
 	lf           liveFlags
 	asJSON       bool
 	plot, lopCSV string
@@ -45,7 +45,7 @@ rather than invents a bearing when the sweep cannot support one.`,
 	cmd.Flags().BoolVar(&o.plotBursts, "plot-bursts", false, "with --plot, also one polar plot per burst (PREFIX-IDENT-burst-N.png)")
 	cmd.Flags().StringVar(&o.lopCSV, "bearings-csv", "", "write the transmitters' bearings as a CSV FILE that nullseek fix reads (needs --station)")
 	o.lf.add(cmd, &o.in, &o.idf, &o.hf) // live receiver, rotator or compass: live.go
-	o.sf.add(cmd)
+	stationFile(cmd, &o.sf)
 	return cmd
 }
 
@@ -99,7 +99,7 @@ func runBearing(cmd *cobra.Command, rec recording, o *bearingOptions) error {
 		}
 	}
 	if o.lopCSV != "" {
-		if err := survey.StageLOPs(&outs, o.lopCSV, o.sf.name(), hs.StationLat, hs.StationLon, res.Info.Start, txs); err != nil {
+		if err := survey.StageLOPs(&outs, o.lopCSV, o.sf.Name(), hs.StationLat, hs.StationLon, res.Info.Start, txs); err != nil {
 			return err
 		}
 	}
@@ -112,8 +112,8 @@ func runBearing(cmd *cobra.Command, rec recording, o *bearingOptions) error {
 	if err != nil {
 		return err
 	}
-	if err := o.sf.save(cmd, logbook.Recording{Path: rec.path, Result: res, Bearings: bbs, Track: tr,
-		Station: logbook.StationOf(o.sf.st, hs.HasStation, hs.StationLat, hs.StationLon, hs.Bearing.Antenna.Kind, mount)}); err != nil {
+	if err := o.sf.Save(cmd.ErrOrStderr(), logbook.Recording{Path: rec.path, Result: res, Bearings: bbs, Track: tr,
+		Station: o.sf.Station(hs.HasStation, hs.StationLat, hs.StationLon, hs.Bearing.Antenna.Kind, mount)}); err != nil {
 		return err
 	}
 	if err := outs.Commit(); err != nil {

@@ -16,7 +16,7 @@ type calibrateOptions struct {
 	in                           inputFlags
 	idf                          identFlags
 	hf                           headingFlags
-	sf                           stationFlags
+	sf                           logbook.Flags
 	lf                           liveFlags
 	tx, knownBearing, ident, out string
 	asJSON                       bool
@@ -58,7 +58,7 @@ plus that offset, and the saved pattern is measured relative to it.`,
 	fl.StringVar(&o.out, "out", "", "write the measured pattern here (JSON; required)")
 	fl.BoolVar(&o.asJSON, "json", false, "print the result as one JSON object")
 	o.lf.add(cmd, &o.in, &o.idf, &o.hf) // live receiver, rotator or compass: live.go
-	o.sf.add(cmd)
+	stationFile(cmd, &o.sf)
 	return cmd
 }
 
@@ -102,7 +102,7 @@ func runCalibrate(cmd *cobra.Command, rec recording, o *calibrateOptions) error 
 	}
 	total := angle.Wrap180(given + cal.NorthOffsetDeg)
 	cal.Pattern.MountOffsetDeg, cal.Pattern.MountOffsetSet = total, true
-	if err := o.sf.save(cmd, logbook.Recording{Path: rec.path, Result: res}); err != nil {
+	if err := o.sf.Save(cmd.ErrOrStderr(), logbook.Recording{Path: rec.path, Result: res}); err != nil {
 		return err
 	}
 	if err := bearing.SavePattern(o.out, cal.Pattern); err != nil {

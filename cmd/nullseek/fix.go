@@ -15,8 +15,8 @@ type fixFlags struct {
 	gridFile string
 	mapSize  float64
 	o        locate.Options
-	sf       stationFlags
-	qf       queryFlags
+	sf       logbook.Flags
+	qf       logbook.QueryFlags
 }
 
 func newFixCmd() *cobra.Command {
@@ -57,8 +57,8 @@ With --db the fixes are stored there; without bearings files the bearings stored
 	f.IntVar(&fl.o.AutoCells, "auto-cells", d.AutoCells, "about this many columns and rows in an automatic grid (4..200)")
 	f.Float64Var(&fl.o.ClusterKm, "cluster-km", d.ClusterKm, "transmitters closer than `KM` share an automatic grid and a map (0.1..1000)")
 	f.BoolVar(&fl.o.KeepDuplicates, "keep-duplicates", false, "count rows that repeat an earlier row exactly as separate bearings")
-	fl.sf.add(cmd, "db")
-	fl.qf.add(cmd)
+	fl.qf.Add(f)
+	stationFile(cmd, &fl.sf, "db")
 	return cmd
 }
 
@@ -85,24 +85,15 @@ func runFix(stdin io.Reader, out, errOut io.Writer, inputs []string, fl fixFlags
 	// Bearings from several files (one per station, say) are fixed together.
 	srcs, closeAll, err := locate.OpenFiles(inputs, stdin)
 	defer closeAll()
-	if q, qerr := fl.qf.query(); len(inputs) == 0 && err == nil {
-		srcs, err = []locate.Source{{}}, qerr
-		if err == nil {
-			srcs[0], _, err = logbook.FixSource(fl.sf.db, q)
-		}
-	}
-	if err != nil {
+	if srcs, err = fl.qf.FixSources(fl.sf.DB, srcs, err); err != nil {
 		return err
 	}
 	res, err := locate.Run(srcs, o)
 	if err != nil {
 		return err
 	}
-	if fl.sf.db != "" {
-		sv, err := logbook.SaveFixes(fl.sf.db, res)
-		if err = fl.sf.report(errOut, sv, err); err != nil {
-			return err
-		}
+	if err := fl.sf.SaveFixes(errOut, res); err != nil {
+		return err
 	}
 	if fl.json {
 		if err := res.WriteJSON(out); err != nil {

@@ -4,7 +4,6 @@ import (
 	"fmt"
 	"io"
 	"os"
-	"slices"
 	"strconv"
 	"time"
 
@@ -19,7 +18,6 @@ import (
 	"nullseek/logbook"
 	"nullseek/receiver"
 	"nullseek/sdr"
-	"nullseek/station"
 	"nullseek/survey"
 )
 
@@ -137,89 +135,15 @@ func progress(w io.Writer, info sdr.Info, label string) (func(int64), func()) {
 	return func(n int64) { _ = bar.Set64(n) }, func() { _ = bar.Finish() }
 }
 
-// stationFlags are --station-file and --db. The file's values
-// (station.File.Settings) fill the command's flags the user did not give;
-// --db (default: the file's database) takes what a command given inputs
-// found, and is read by one given none.
-type stationFlags struct {
-	path, db string
-	st       *station.File
-}
-
-// add adds the flags to cmd (after its RunE is set); only, when given,
-// limits the file's values to those flags.
-func (f *stationFlags) add(cmd *cobra.Command, only ...string) {
-	cmd.Flags().StringVar(&f.path, "station-file", "", "station file (TOML): its values fill the flags not given (channel, IDs, position, antenna, mount offset, heading, database)")
-	cmd.Flags().StringVar(&f.db, "db", "", "SQLite database: store what was found (re-runs update, never duplicate); default: the station file's")
+// stationFile adds --station-file and --db (logbook.Flags) to cmd, whose
+// RunE then applies the station file first; only as for Flags.Add.
+func stationFile(cmd *cobra.Command, f *logbook.Flags, only ...string) {
+	f.Add(cmd.Flags(), only...)
 	body := cmd.RunE
 	cmd.RunE = func(c *cobra.Command, args []string) error {
-		if f.path != "" {
-			var err error
-			if f.st, err = station.Load(f.path); err != nil {
-				return err
-			}
-			for _, s := range f.st.Settings() {
-				if fl := c.Flags().Lookup(s.Flag); fl != nil && !fl.Changed && (only == nil || slices.Contains(only, s.Flag)) {
-					if err := c.Flags().Set(s.Flag, s.Value); err != nil {
-						return fmt.Errorf("--station-file %s: --%s %s: %w", f.path, s.Flag, s.Value, err)
-					}
-				}
-			}
-		}
-		if f.db != "" && len(args) > 0 {
-			if err := logbook.Check(f.db); err != nil {
-				return err
-			}
+		if err := f.Apply(len(args)); err != nil {
+			return err
 		}
 		return body(c, args)
 	}
-}
-
-// save stores rec in --db (nothing without it), with the station file's
-// station unless rec names one, and says what it stored on stderr.
-func (f *stationFlags) save(c *cobra.Command, rec logbook.Recording) error {
-	if f.db == "" {
-		return nil
-	}
-	if rec.Station.Name == "" {
-		rec.Station = logbook.StationOf(f.st, false, 0, 0, "", 0)
-	}
-	sv, err := logbook.Save(f.db, rec)
-	return f.report(c.ErrOrStderr(), sv, err)
-}
-
-func (f *stationFlags) report(w io.Writer, sv *logbook.Saved, err error) error {
-	if err == nil {
-		for _, n := range append(sv.Notes, sv.String()) {
-			fmt.Fprintln(w, "nullseek: "+n)
-		}
-	}
-	return err
-}
-
-// name is the station file's station name, "" without one.
-func (f *stationFlags) name() string {
-	if f.st == nil {
-		return ""
-	}
-	return f.st.Name
-}
-
-// queryFlags select what is read back from a database.
-type queryFlags struct{ from, to, station, ident string }
-
-func (f *queryFlags) add(cmd *cobra.Command) {
-	fl := cmd.Flags()
-	fl.StringVar(&f.from, "from", "", "from the database: from this UTC time (RFC 3339, e.g. 2026-05-01T08:00:00Z)")
-	fl.StringVar(&f.to, "to", "", "from the database: up to this UTC time (RFC 3339)")
-	fl.StringVar(&f.station, "station-name", "", "from the database: only this station's")
-	fl.StringVar(&f.ident, "ident", "", "from the database: only this transmitter's")
-}
-
-func (f *queryFlags) query() (q logbook.Query, err error) {
-	q.Station, q.Ident = f.station, f.ident
-	if q.From, err = logbook.ParseTime("from", f.from); err == nil {
-		q.To, err = logbook.ParseTime("to", f.to)
-	}
-	return q, err
 }

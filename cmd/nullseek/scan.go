@@ -14,7 +14,7 @@ import (
 type scanOptions struct {
 	in           inputFlags
 	idf          identFlags
-	sf           stationFlags
+	sf           logbook.Flags
 	asJSON, list bool
 }
 
@@ -34,9 +34,9 @@ it sees and scans the strongest.`,
 	}
 	o.in.add(cmd)
 	o.idf.add(cmd)
-	o.sf.add(cmd)
 	cmd.Flags().BoolVar(&o.asJSON, "json", false, "one JSON object per line instead of a table")
 	cmd.Flags().BoolVar(&o.list, "list", false, "only list the carriers seen in the recording")
+	stationFile(cmd, &o.sf)
 	return cmd
 }
 
@@ -53,7 +53,7 @@ func runScan(cmd *cobra.Command, path string, o *scanOptions) error {
 	if err != nil {
 		return err
 	}
-	if err := o.sf.save(cmd, logbook.Recording{Path: path, Result: res}); err != nil {
+	if err := o.sf.Save(cmd.ErrOrStderr(), logbook.Recording{Path: path, Result: res}); err != nil {
 		return err
 	}
 	out := cmd.OutOrStdout()

@@ -14,8 +14,8 @@ import (
 type slotsOptions struct {
 	in     inputFlags
 	idf    identFlags
-	sf     stationFlags
-	qf     queryFlags
+	sf     logbook.Flags
+	qf     logbook.QueryFlags
 	asJSON bool
 	plan   schedule.Options
 }
@@ -36,11 +36,11 @@ Without RECORDING it reads the bursts stored in --db (--from, --to, --station-na
 	}
 	o.in.add(cmd)
 	o.idf.add(cmd)
-	o.sf.add(cmd)
-	o.qf.add(cmd)
 	cmd.Flags().BoolVar(&o.asJSON, "json", false, "print the plan as one JSON object")
 	cmd.Flags().Float64Var(&o.plan.NominalPeriodS, "period", o.plan.NominalPeriodS, "the programmed cycle in seconds, when known (drift is measured against it; default: the median of the transmitters)")
 	cmd.Flags().IntVar(&o.plan.NextCount, "next", o.plan.NextCount, fmt.Sprintf("how many next start times to predict per transmitter (0–%d)", schedule.MaxNextCount))
+	o.qf.Add(cmd.Flags())
+	stationFile(cmd, &o.sf)
 	return cmd
 }
 
@@ -53,32 +53,32 @@ func runSlots(cmd *cobra.Command, args []string, o *slotsOptions) error {
 	if err := o.plan.Validate(); err != nil {
 		return err
 	}
-	var plan *schedule.Plan
-	if q, err := o.qf.query(); err != nil || len(args) == 0 {
-		if err == nil {
-			plan, err = logbook.Plan(o.sf.db, q, o.plan)
-		}
-		if err != nil {
-			return err
-		}
-	} else {
-		in, err := o.in.input(cmd, args[0], &o.idf)
-		if err != nil {
-			return err
-		}
-		res, err := in.Run(cmd.Context(), nil)
-		if err != nil {
-			return err
-		}
-		if plan, err = survey.Schedule(res, o.plan); err != nil {
-			return err
-		}
-		if err := o.sf.save(cmd, logbook.Recording{Path: args[0], Result: res, Plan: plan}); err != nil {
-			return err
-		}
+	plan, err := o.qf.Plan(o.sf.DB, o.plan)
+	if len(args) > 0 {
+		plan, err = scanSlots(cmd, args[0], o)
+	}
+	if err != nil {
+		return err
 	}
 	if o.asJSON {
 		return json.NewEncoder(cmd.OutOrStdout()).Encode(plan)
 	}
 	return plan.WriteTable(cmd.OutOrStdout())
+}
+
+// scanSlots is the slot plan of the recording at path, stored in --db.
+func scanSlots(cmd *cobra.Command, path string, o *slotsOptions) (*schedule.Plan, error) {
+	in, err := o.in.input(cmd, path, &o.idf)
+	if err != nil {
+		return nil, err
+	}
+	res, err := in.Run(cmd.Context(), nil)
+	if err != nil {
+		return nil, err
+	}
+	plan, err := survey.Schedule(res, o.plan)
+	if err == nil {
+		err = o.sf.Save(cmd.ErrOrStderr(), logbook.Recording{Path: path, Result: res, Plan: plan})
+	}
+	return plan, err
 }
