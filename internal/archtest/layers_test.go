@@ -76,7 +76,7 @@ var layers = map[string]place{
 	"report/session": {apps, 1},
 	"logbook":        {apps, 1}, // the one-shot commands' rows of the store
 	"demo":           {apps, 2},
-	"watch":          {apps, 2},
+	"watch":          {apps, 2}, // imports logbook
 
 	"cmd/nullseek": {command, 0},
 }
