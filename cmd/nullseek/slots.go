@@ -53,10 +53,7 @@ func runSlots(cmd *cobra.Command, args []string, o *slotsOptions) error {
 	if err := o.plan.Validate(); err != nil {
 		return err
 	}
-	plan, err := o.qf.Plan(o.sf.DB, o.plan)
-	if len(args) > 0 {
-		plan, err = scanSlots(cmd, args[0], o)
-	}
+	plan, err := slotPlan(cmd, args, o)
 	if err != nil {
 		return err
 	}
@@ -66,8 +63,13 @@ func runSlots(cmd *cobra.Command, args []string, o *slotsOptions) error {
 	return plan.WriteTable(cmd.OutOrStdout())
 }
 
-// scanSlots is the slot plan of the recording at path, stored in --db.
-func scanSlots(cmd *cobra.Command, path string, o *slotsOptions) (*schedule.Plan, error) {
+// slotPlan is the slot plan of the recording args names (stored in --db)
+// or, without one, of the bursts stored in --db.
+func slotPlan(cmd *cobra.Command, args []string, o *slotsOptions) (*schedule.Plan, error) {
+	if len(args) == 0 {
+		return o.qf.Plan(o.sf.DB, o.plan)
+	}
+	path := args[0]
 	in, err := o.in.input(cmd, path, &o.idf)
 	if err != nil {
 		return nil, err
