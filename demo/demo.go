@@ -255,7 +255,7 @@ func Run(ctx context.Context, out, progress io.Writer, outDir string, writeIQ bo
 		if err != nil {
 			return err
 		}
-		fixes, err := logbook.SaveFixes(db, res)
+		fixes, err := logbook.SaveFixes(db, res, nil)
 		if err != nil {
 			return err
 		}

@@ -10,6 +10,7 @@ import (
 	"nullseek/ident/schedule"
 	"nullseek/locate"
 	"nullseek/station"
+	"nullseek/store"
 )
 
 // Flags are the --station-file and --db flags the commands share. The
@@ -83,12 +84,13 @@ func (f *Flags) Save(notes io.Writer, rec Recording) error {
 	return report(notes, sv, err)
 }
 
-// SaveFixes stores the fixes of res in --db (nothing without it).
-func (f *Flags) SaveFixes(notes io.Writer, res *locate.Result) error {
+// SaveFixes stores the fixes of res in --db (nothing without it), each
+// under the window of the bearings q read from the database (FixSources).
+func (f *Flags) SaveFixes(notes io.Writer, res *locate.Result, q *QueryFlags) error {
 	if f.DB == "" {
 		return nil
 	}
-	sv, err := SaveFixes(f.DB, res)
+	sv, err := SaveFixes(f.DB, res, q.spans)
 	return report(notes, sv, err)
 }
 
@@ -109,6 +111,7 @@ func report(w io.Writer, sv *Saved, err error) error {
 type QueryFlags struct {
 	from, to, station, ident, at string
 	JSON                         bool
+	spans                        map[string]store.Window // of the bearings FixSources read
 }
 
 // Add adds --from, --to, --station-name and --ident to fs.
@@ -157,7 +160,8 @@ func (q *QueryFlags) FixSources(db string, srcs []locate.Source, err error) ([]l
 	if err != nil {
 		return nil, err
 	}
-	src, _, err := FixSource(db, sel)
+	src, spans, err := FixSource(db, sel)
+	q.spans = spans
 	return []locate.Source{src}, err
 }
 

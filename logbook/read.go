@@ -251,12 +251,14 @@ func WriteScheduleTable(w io.Writer, ss []store.Schedule, at time.Time) error {
 // (bearing.Combine) and the site error survey.DefaultSiteSigmaDeg, which
 // repeats on every burst, is added in quadrature, so each station gives
 // one line of position per transmitter, stamped with its latest burst.
-// It returns the source and the number of lines.
-func FixSource(path string, q Query) (locate.Source, int, error) {
+// It returns the source and, per transmitter, the window of the bursts
+// that went in (the window a fix of them is stored under, SaveFixes).
+func FixSource(path string, q Query) (locate.Source, map[string]store.Window, error) {
 	bs, err := Bearings(path, q)
 	if err != nil {
-		return locate.Source{}, 0, err
+		return locate.Source{}, nil, err
 	}
+	spans := map[string]store.Window{}
 	type key struct {
 		ident, station string
 		lat, lon       float64
@@ -272,6 +274,14 @@ func FixSource(path string, q Query) (locate.Source, int, error) {
 			order = append(order, k)
 		}
 		groups[k] = append(groups[k], b)
+		sp := spans[b.Ident]
+		if sp.From.IsZero() || b.Time.Before(sp.From) {
+			sp.From = b.Time
+		}
+		if b.Time.After(sp.To) {
+			sp.To = b.Time
+		}
+		spans[b.Ident] = sp
 	}
 	var recs []geo.BearingRecord
 	for _, k := range order {
@@ -291,13 +301,13 @@ func FixSource(path string, q Query) (locate.Source, int, error) {
 			Time: last.Time, Ambiguous: c.AltBearingDeg != nil}})
 	}
 	if len(recs) == 0 {
-		return locate.Source{}, 0, fmt.Errorf("--db %s: no bearings of a known transmitter stored%s", path, q.describe())
+		return locate.Source{}, nil, fmt.Errorf("--db %s: no bearings of a known transmitter stored%s", path, q.describe())
 	}
 	var buf bytes.Buffer
 	if err := geo.WriteBearingsCSV(&buf, recs); err != nil {
-		return locate.Source{}, 0, err
+		return locate.Source{}, nil, err
 	}
-	return locate.Source{Name: path, R: &buf}, len(recs), nil
+	return locate.Source{Name: path, R: &buf}, spans, nil
 }
 
 // describe says what q selects, for messages.
@@ -322,11 +332,12 @@ func (q Query) describe() string {
 }
 
 // SaveFixes writes the fixes of res to the database at path: per fix, the
-// window of its bearings' times, the ellipse and the lines (their
+// window of its bearings (spans[ident] when given, as FixSource says; else
+// the times of its lines of position), the ellipse and the lines (their
 // stations written when new, never overwriting a station's own record).
 // A fix whose bearings carry no time is not stored (its window is its key),
 // which a note says.
-func SaveFixes(path string, res *locate.Result) (*Saved, error) {
+func SaveFixes(path string, res *locate.Result, spans map[string]store.Window) (*Saved, error) {
 	db, err := store.Open(path, store.Options{})
 	if err != nil {
 		return nil, fmt.Errorf("--db %s: %w", path, err)
@@ -339,6 +350,9 @@ func SaveFixes(path string, res *locate.Result) (*Saved, error) {
 	stations := map[string]store.StationID{}
 	for _, f := range res.Fixes {
 		row, ok := fixRow(f)
+		if sp, known := spans[f.Ident]; known && ok && !sp.From.IsZero() {
+			row.From, row.To = sp.From, sp.To
+		}
 		if !ok {
 			sv.Notes = append(sv.Notes, fmt.Sprintf("fix of %s not stored: its bearings carry no time", f.Ident))
 			continue

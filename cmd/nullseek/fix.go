@@ -92,7 +92,7 @@ func runFix(stdin io.Reader, out, errOut io.Writer, inputs []string, fl fixFlags
 	if err != nil {
 		return err
 	}
-	if err := fl.sf.SaveFixes(errOut, res); err != nil {
+	if err := fl.sf.SaveFixes(errOut, res, &fl.qf); err != nil {
 		return err
 	}
 	if fl.json {
