@@ -26,6 +26,10 @@ type Flags struct {
 	only []string
 }
 
+// alternatives are the flags that give the same thing as a station file's
+// setting another way: given one of them, the setting is left out.
+var alternatives = map[string][]string{"headings": {"turn", "nmea", "nmea-feed", "rotator"}, "freq": {"offset"}}
+
 // Add adds the flags to fs; only, when given, limits the station file's
 // values to those flags.
 func (f *Flags) Add(fs *pflag.FlagSet, only ...string) {
@@ -45,6 +49,9 @@ func (f *Flags) Apply(inputs int) error {
 			return err
 		}
 		for _, s := range f.File.Settings() {
+			if slices.ContainsFunc(alternatives[s.Flag], f.fs.Changed) {
+				continue // the user chose another source of the same thing
+			}
 			if fl := f.fs.Lookup(s.Flag); fl != nil && !fl.Changed && (f.only == nil || slices.Contains(f.only, s.Flag)) {
 				if err := f.fs.Set(s.Flag, s.Value); err != nil {
 					return fmt.Errorf("--station-file %s: --%s %s: %w", f.StationFile, s.Flag, s.Value, err)
