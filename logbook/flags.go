@@ -35,7 +35,7 @@ var alternatives = map[string][]string{"headings": {"turn", "nmea", "nmea-feed",
 func (f *Flags) Add(fs *pflag.FlagSet, only ...string) {
 	f.fs, f.only = fs, only
 	fs.StringVar(&f.StationFile, "station-file", "", "station file (TOML): its values fill the flags not given (channel, IDs, position, antenna, mount offset, heading, database)")
-	fs.StringVar(&f.DB, "db", "", "SQLite database: store what was found (a re-run updates, never duplicates); default: the station file's")
+	fs.StringVar(&f.DB, "db", "", "SQLite station database: a run on inputs stores what it found (a re-run updates, never duplicates), a run without reads it; default: the station file's")
 }
 
 // Apply reads the station file and fills the flags not given from it;
