@@ -294,6 +294,8 @@ func TestCLIDatabaseBadInput(t *testing.T) {
 		want string
 	}{
 		{[]string{"query", "bearings", "--db", "missing.db"}, "missing.db"},
+		{[]string{"query"}, "bearings or schedule"},
+		{[]string{"query", "fixes"}, "bearings or schedule"},
 		{[]string{"query", "bearings"}, "--db"},
 		{[]string{"query", "bearings", "--db", "x.db", "--from", "yesterday"}, "--from"},
 		{[]string{"query", "schedule", "--db", "x.db", "--at", "2025-01-01 00:00"}, "--at"},

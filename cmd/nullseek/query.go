@@ -1,13 +1,18 @@
 package main
 
 import (
+	"errors"
+
 	"github.com/spf13/cobra"
 
 	"nullseek/logbook"
 )
 
 func newQueryCmd() *cobra.Command {
-	root := &cobra.Command{Use: "query", Short: "Read a station database: bearings of a time window, the schedule as it stood at a time"}
+	root := &cobra.Command{Use: "query bearings|schedule", Short: "Read a station database: bearings of a time window, the schedule as it stood at a time",
+		RunE: func(*cobra.Command, []string) error {
+			return errors.New("query: say what to read: bearings or schedule")
+		}}
 	var bq, sq logbook.QueryFlags
 	var bf, sf logbook.Flags
 	bearings := &cobra.Command{Use: "bearings --db FILE [--from T] [--to T] [--station-name S] [--ident ID]", Args: cobra.NoArgs,
