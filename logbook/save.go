@@ -202,7 +202,7 @@ func save(db *store.DB, r Recording, sv *Saved) error {
 	sv.Rows["captures"]++
 	idents := map[string]bool{}
 	for _, rec := range res.Records {
-		if rec.Ident != "" && BurstRow(cid, rec, info.SampleRate).Ident != "" {
+		if idmatch.Known(rec.Ident) { // as BurstRow names transmitters
 			idents[rec.Ident] = true
 		}
 	}
