@@ -31,6 +31,7 @@ import (
 	"nullseek/internal/angle"
 	"nullseek/internal/atomicfile"
 	"nullseek/locate"
+	"nullseek/logbook"
 	"nullseek/receiver"
 	"nullseek/sdr"
 	"nullseek/sim"
@@ -43,8 +44,11 @@ const DefaultOutDir = "nullseek-demo"
 // Run runs the demo, writing its files to outDir and its report to out
 // once everything has worked (a failure prints no half report and leaves
 // outDir as it was); progress (nil: none) gets a line per stage while it
-// runs. With writeIQ each station's recording is kept as a SigMF pair too.
-func Run(ctx context.Context, out, progress io.Writer, outDir string, writeIQ bool) error {
+// runs. With writeIQ each station's recording is kept as a SigMF pair too;
+// with db (a path, "" for none) every station's bursts, level readings,
+// headings and bearings, the schedule and the fixes are stored there too
+// (logbook), before the files are committed.
+func Run(ctx context.Context, out, progress io.Writer, outDir string, writeIQ bool, db string) error {
 	if progress == nil {
 		progress = io.Discard
 	}
@@ -76,6 +80,11 @@ func Run(ctx context.Context, out, progress io.Writer, outDir string, writeIQ bo
 			return fmt.Errorf("--out: %w", err)
 		}
 	}
+	if db != "" {
+		if err := logbook.Check(db); err != nil {
+			return err
+		}
+	}
 	_, statErr := os.Stat(outDir)
 	if err := os.MkdirAll(outDir, 0o755); err != nil {
 		return fmt.Errorf("--out: %w", err)
@@ -98,6 +107,7 @@ func Run(ctx context.Context, out, progress io.Writer, outDir string, writeIQ bo
 	var lops []geo.LOP
 	var first *survey.Result
 	var runs []stationRun // for the report page
+	var logged []logbook.Recording
 	for si, st := range sc.Stations {
 		src, err := sim.NewSource(sc, st)
 		if err != nil {
@@ -126,6 +136,9 @@ func Run(ctx context.Context, out, progress io.Writer, outDir string, writeIQ bo
 		}
 		bbs, txs := survey.Bearings(res, track, st.Antenna, bearing.FitOptions{}, survey.DefaultSiteSigmaDeg)
 		runs = append(runs, stationRun{st, res, bbs, txs})
+		logged = append(logged, logbook.Recording{Key: logbook.KeyOf("nullseek demo", sc.Name, st.Name, sc.Start.Format(time.RFC3339Nano)),
+			Station: logbook.Station{Name: st.Name, LatDeg: st.Lat, LonDeg: st.Lon, HasPosition: true, Antenna: st.AntennaName},
+			Result:  res, Bearings: bbs, Track: track})
 		if si == 0 {
 			first = res
 			fmt.Fprintf(w, "Station %s: bursts found\n", st.Name)
@@ -236,6 +249,19 @@ func Run(ctx context.Context, out, progress io.Writer, outDir string, writeIQ bo
 	}
 	fmt.Fprintf(w, "\nFiles in %s: report.html, bearings.csv, map.png, fixes.geojson, polar-*.png, headings-*.csv\nTry: nullseek fix %s --grid %q\n",
 		outDir, filepath.Join(outDir, "bearings.csv"), grid.String())
+	if db != "" {
+		logged[0].Plan = plan
+		saved, err := logbook.Save(db, logged...)
+		if err != nil {
+			return err
+		}
+		fixes, err := logbook.SaveFixes(db, res, nil)
+		if err != nil {
+			return err
+		}
+		fmt.Fprintf(w, "Database %s: %s; fixes: %d fixes, %d lines of position (%d new rows in all)\nTry: nullseek query bearings --db %s\n",
+			db, strings.TrimPrefix(saved.String(), "stored in "+db+": "), fixes.Rows["fixes"], fixes.Rows["fix_lines"], saved.New()+fixes.New(), db)
+	}
 	if err := outs.Commit(); err != nil {
 		return err
 	}

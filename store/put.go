@@ -263,3 +263,29 @@ func (db *DB) PutFix(f Fix) (FixID, error) {
 	})
 	return id, err
 }
+
+const ensureStation = `
+INSERT INTO stations (name, lat_deg, lon_deg, position_source, antenna, pattern_file, mount_offset_deg)
+VALUES (?, ?, ?, 'fixed', '', '', 0)
+ON CONFLICT (name) DO NOTHING`
+
+// EnsureStation returns the id of the station named s.Name, writing s
+// only when no station of that name is stored yet: a station known only
+// from a bearings file (a name and a position) never overwrites what its
+// own station file said.
+func (db *DB) EnsureStation(s Station) (StationID, error) {
+	if s.PositionSource == "" {
+		s.PositionSource = PositionFixed
+	}
+	if err := s.Validate(); err != nil {
+		return 0, err
+	}
+	var id StationID
+	err := db.inTx("write station "+s.Name, func(tx *sql.Tx) error {
+		if _, err := tx.Exec(ensureStation, s.Name, fOrNil(s.LatDeg), fOrNil(s.LonDeg)); err != nil {
+			return err
+		}
+		return tx.QueryRow("SELECT id FROM stations WHERE name = ?", s.Name).Scan(&id)
+	})
+	return id, err
+}

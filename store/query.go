@@ -422,3 +422,65 @@ func (db *DB) fixLines(id FixID) ([]FixLine, error) {
 	}
 	return out, db.wrap("read fix lines", rows.Err())
 }
+
+// BurstQuery selects bursts: of one station (its captures) and one
+// transmitter when named ("" for all), started inside the window. Bursts
+// without a UTC start are never selected.
+type BurstQuery struct {
+	Station, Ident string
+	Window
+}
+
+// StationBurst is a burst with the name of the station whose capture
+// holds it ("" for a capture tied to no station).
+type StationBurst struct {
+	Burst
+	StationName string
+}
+
+// Bursts returns the bursts q selects in time order (then capture and
+// start sample): the input of a slot schedule from the database. A
+// station or transmitter that is not in the database is an error
+// wrapping ErrNotFound.
+func (db *DB) Bursts(q BurstQuery) ([]StationBurst, error) {
+	lo, hi := q.bounds()
+	where := []string{"b.start_unix_ns BETWEEN ? AND ?"}
+	args := []any{lo, hi}
+	if q.Station != "" {
+		var id int64
+		if err := db.lookup("stations", "name", q.Station, &id); err != nil {
+			return nil, err
+		}
+		where, args = append(where, "c.station_id = ?"), append(args, id)
+	}
+	if q.Ident != "" {
+		var id int64
+		if err := db.lookup("transmitters", "ident", q.Ident, &id); err != nil {
+			return nil, err
+		}
+		where, args = append(where, "b.transmitter_id = ?"), append(args, id)
+	}
+	query := strings.Replace(selectBurst, "SELECT ", "SELECT coalesce(s.name, ''), ", 1) +
+		` JOIN captures c ON c.id = b.capture_id LEFT JOIN stations s ON s.id = c.station_id
+		WHERE ` + strings.Join(where, " AND ") + " ORDER BY b.start_unix_ns, b.capture_id, b.start_sample"
+	rows, err := db.sql.Query(query, args...)
+	if err != nil {
+		return nil, db.wrap("read bursts", err)
+	}
+	defer rows.Close()
+	var out []StationBurst
+	for rows.Next() {
+		var b StationBurst
+		var start, end sql.NullInt64
+		var freq sql.NullFloat64
+		if err := rows.Scan(&b.StationName, &b.ID, &b.Capture, &b.StartSample, &b.EndSample, &b.StartS, &b.EndS, &start, &end,
+			&b.OffsetHz, &freq, &b.LevelDBFS, &b.PeakDBFS, &b.NoiseDBFS, &b.SNRDB, &b.ClippedFraction,
+			&b.CutAtStart, &b.CutAtEnd, &b.DoubleCarrier, &b.CarrierSpreadHz, &b.Mode, &b.Text, &b.Ident,
+			&b.IdentConfidence, &b.IdentMethod, &b.ToneHz, &b.WPM, &b.ReadingsPerS); err != nil {
+			return nil, db.wrap("read bursts", err)
+		}
+		b.Start, b.End, b.FreqHz = timeOf(start), timeOf(end), freq.Float64
+		out = append(out, b)
+	}
+	return out, db.wrap("read bursts", rows.Err())
+}

@@ -727,11 +727,20 @@ func NoBearing(path string, bbs []BurstBearing, txs []TxBearing) error {
 	return fmt.Errorf("%s: no bearing from any of its %d bursts: %s", path, len(bbs), strings.Join(reasons, "; "))
 }
 
+// StationLabel is how a station is named in bearings files, tables and
+// the store: its name, or its coordinates when it has none.
+func StationLabel(name string, lat, lon float64) string {
+	if name != "" {
+		return name
+	}
+	return fmt.Sprintf("%.5f %.5f", lat, lon)
+}
+
 // StageLOPs stages in set the transmitters' bearings taken at the
-// station lat, lon (degrees) as the bearings CSV at path that `fix` reads
+// station name ("": named by its coordinates) at lat, lon (degrees) as the bearings CSV at path that `fix` reads
 // (geo.WriteBearingsCSV); transmitters without a bearing are left out.
-func StageLOPs(set *atomicfile.Set, path string, lat, lon float64, start time.Time, txs []TxBearing) error {
-	st := fmt.Sprintf("%.5f %.5f", lat, lon)
+func StageLOPs(set *atomicfile.Set, path, name string, lat, lon float64, start time.Time, txs []TxBearing) error {
+	st := StationLabel(name, lat, lon)
 	var recs []geo.BearingRecord
 	for _, t := range txs {
 		if t.Err != nil {

@@ -1,12 +1,11 @@
 package watch
 
 import (
-	"math"
 	"time"
 
 	"nullseek/ident/idmatch"
 	"nullseek/ident/schedule"
-	"nullseek/store"
+	"nullseek/logbook"
 	"nullseek/survey"
 )
 
@@ -49,7 +48,7 @@ func (w *watcher) schedule(r survey.Record) error {
 	if err != nil {
 		return nil // too few usable bursts yet
 	}
-	rows := scheduleRows(plan, r.End)
+	rows := logbook.ScheduleRows(plan, r.End)
 	if len(rows) == 0 {
 		return nil
 	}
@@ -57,31 +56,4 @@ func (w *watcher) schedule(r survey.Record) error {
 		return w.dbErr(err)
 	}
 	return nil
-}
-
-// scheduleRows maps a plan to the store's rows as of asOf.
-func scheduleRows(p *schedule.Plan, asOf time.Time) []store.Schedule {
-	num := func(v float64) *float64 {
-		if math.IsNaN(v) || math.IsInf(v, 0) {
-			return nil
-		}
-		return &v
-	}
-	var rows []store.Schedule
-	for i, t := range p.Transmitters {
-		s := store.Schedule{Ident: t.ID, AsOf: asOf.UTC(), Order: i, Bursts: t.Bursts,
-			PeriodS: num(t.PeriodS), PeriodSigmaS: num(t.PeriodSigmaS), DriftPPM: num(t.DriftPPM), DriftSigmaPPM: num(t.DriftSigmaPPM),
-			OnS: num(t.OnS), CommonPeriodS: num(p.CommonPeriodS), Reason: t.Reason}
-		if s.PeriodS != nil && !(*s.PeriodS > 0) {
-			s.PeriodS = nil
-		}
-		if !p.CaptureStart.IsZero() && !math.IsNaN(t.T0S) && !math.IsInf(t.T0S, 0) {
-			s.T0 = p.CaptureStart.Add(time.Duration(t.T0S * float64(time.Second))).UTC()
-		}
-		if s.Validate() != nil {
-			continue // a row the store refuses is a schedule not worth keeping
-		}
-		rows = append(rows, s)
-	}
-	return rows
 }

@@ -20,7 +20,7 @@ import (
 	"nullseek/ident"
 	"nullseek/ident/idmatch"
 	"nullseek/ident/morse"
-	"nullseek/internal/angle"
+	"nullseek/logbook"
 	"nullseek/receiver"
 	"nullseek/sdr"
 	"nullseek/station"
@@ -48,11 +48,6 @@ const (
 
 // headingHandoff is how often polled headings are handed to the Writer.
 const headingHandoff = 200 * time.Millisecond
-
-// noCarrierSNRDB is the SNR stored for a burst whose carrier could not be
-// measured (receiver.Burst.SNRDB is −Inf): the store holds finite numbers
-// only, and −100 dB is below any carrier a receiver reports.
-const noCarrierSNRDB = -100.0
 
 // maxBurstReadings bounds the level readings kept for one burst (an hour
 // at store.DefaultReadingsPerS); a transmission longer than that keeps its
@@ -541,7 +536,7 @@ func (w *watcher) record(r survey.Record) error {
 			readings = append(readings, store.LevelReading{Sample: l.Sample, TimeS: l.T, LevelDBFS: l.LevelDB, Clipped: l.Clipped})
 		}
 	}
-	b := burstRow(w.capture, r, w.info.SampleRate)
+	b := logbook.BurstRow(w.capture, r, w.info.SampleRate)
 	if err := w.wr.AddBurst(b, readings); err != nil {
 		return w.dbErr(err)
 	}
@@ -581,57 +576,21 @@ func identText(r survey.Record) string {
 	return "?"
 }
 
-// burstRow maps a record to the store's burst row.
-func burstRow(c store.CaptureID, r survey.Record, rate float64) store.Burst {
-	snr := r.SNRDB
-	if !(snr > noCarrierSNRDB) {
-		snr = noCarrierSNRDB
-	}
-	b := store.Burst{Capture: c, StartSample: r.StartSample, EndSample: r.EndSample, StartS: r.StartS, EndS: r.EndS,
-		Start: r.Start, End: r.End, OffsetHz: r.OffsetHz, FreqHz: r.FreqHz,
-		LevelDBFS: r.LevelDB, PeakDBFS: r.PeakDB, NoiseDBFS: r.NoiseDB, SNRDB: snr, ClippedFraction: r.Clipped,
-		CutAtStart: r.CutAtStart || r.SplitStart, CutAtEnd: r.CutAtEnd || r.SplitEnd, DoubleCarrier: r.DoubleCarrier,
-		CarrierSpreadHz: r.CarrierSpreadHz, Mode: r.Mode, Text: r.Text, IdentConfidence: r.IdentConfidence,
-		IdentMethod: r.IdentMethod, ToneHz: r.ToneHz, WPM: r.WPM}
-	if idmatch.Known(r.Ident) {
-		b.Ident = r.Ident
-	}
-	if r.Parts > 0 {
-		// A part of a split burst starts at its own sample.
-		b.StartSample = r.StartSample + int64(math.Round((r.StartS-r.Burst.StartS)*rate))
-		b.EndSample = max(b.StartSample, r.StartSample+int64(math.Round((r.EndS-r.Burst.StartS)*rate)))
-	}
-	return b
-}
-
 // bearingRow maps the burst's fit to the store's bearing row, or says why
-// there is none.
+// there is none (logbook.BearingRow).
 func (w *watcher) bearingRow(r survey.Record, b store.Burst) (store.Bearing, string) {
 	if r.Fit == nil {
 		return store.Bearing{}, "not fitted"
 	}
-	if r.Fit.Err != nil {
-		return store.Bearing{}, r.Fit.Err.Error()
-	}
-	e := r.Fit.Est
-	if !(e.SigmaDeg > 0 && e.SigmaDeg <= 180) || math.IsNaN(e.BearingDeg) {
-		return store.Bearing{}, fmt.Sprintf("the fit gave %.1f° ± %.1f°", e.BearingDeg, e.SigmaDeg)
-	}
-	br := store.Bearing{Capture: w.capture, BurstStartSample: b.StartSample, Station: w.stationID, Ident: b.Ident, Time: b.Start,
-		TrueDeg: e.BearingDeg, SigmaDeg: e.SigmaDeg, NullDepthDB: e.NullDepthDB, CoverageDeg: e.CoverageDeg, ResidualDB: e.ResidualDB,
-		Points: e.Points, Warnings: e.Warnings}
 	// The line of position is fitted over the whole burst: a moving
 	// station took it, to first order, where it was at the burst's middle.
 	mid := b.Start.Add(time.Duration((b.EndS - b.StartS) / 2 * float64(time.Second)))
 	fix, placed := w.place(mid)
+	at := logbook.Fitted{Station: w.stationID, DeclinationDeg: w.declDeg, NoPosition: !placed}
 	if placed {
-		br.StationLatDeg, br.StationLonDeg, br.StationAltM = fix.LatDeg, fix.LonDeg, fix.AltHAEM
-	} else {
-		br.NoPosition = true
+		at.StationLatDeg, at.StationLonDeg, at.StationAltM = fix.LatDeg, fix.LonDeg, fix.AltHAEM
 	}
-	alt := e.AltBearingDeg
-	decl := w.declDeg
-	if w.ref == heading.Magnetic && decl == nil {
+	if w.ref == heading.Magnetic && at.DeclinationDeg == nil {
 		if !placed {
 			return store.Bearing{}, "no position for the magnetic declination"
 		}
@@ -639,34 +598,9 @@ func (w *watcher) bearingRow(r survey.Record, b store.Burst) (store.Bearing, str
 		if math.IsNaN(v) {
 			return store.Bearing{}, "no magnetic declination at the station's position"
 		}
-		decl = &v
+		at.DeclinationDeg = &v
 	}
-	if decl != nil {
-		mag := e.BearingDeg
-		br.MagneticDeg, br.DeclinationDeg = &mag, decl
-		br.TrueDeg = angle.Wrap360(mag + *decl)
-		if alt != nil {
-			a := angle.Wrap360(*alt + *decl)
-			alt = &a
-		}
-	}
-	br.TrueDeg = angle.Wrap360(br.TrueDeg)
-	if alt != nil {
-		br.AltTrueDeg, br.Flags = alt, br.Flags|store.FlagAmbiguous
-	}
-	if e.HasFlag(bearing.FlagClipping) {
-		br.Flags |= store.FlagClipped
-	}
-	if e.HasFlag(bearing.FlagPartial) {
-		br.Flags |= store.FlagLowCoverage
-	}
-	if e.BootstrapSigmaDeg > 2*e.FisherSigmaDeg && e.SigmaDeg == e.BootstrapSigmaDeg {
-		br.Flags |= store.FlagBootstrapSigma
-	}
-	if b.CutAtStart || b.CutAtEnd {
-		br.Flags |= store.FlagBurstCut
-	}
-	return br, ""
+	return logbook.BearingRow(r.Fit.Est, r.Fit.Err, b, at)
 }
 
 // dbErr names the database in a store error that does not already.

@@ -7,6 +7,7 @@ import (
 	"github.com/spf13/cobra"
 
 	"nullseek/internal/atomicfile"
+	"nullseek/logbook"
 	"nullseek/survey"
 )
 
@@ -14,6 +15,7 @@ type bearingOptions struct {
 	in           inputFlags
 	idf          identFlags
 	hf           headingFlags
+	sf           logbook.Flags
 	lf           liveFlags
 	asJSON       bool
 	plot, lopCSV string
@@ -43,6 +45,7 @@ rather than invents a bearing when the sweep cannot support one.`,
 	cmd.Flags().BoolVar(&o.plotBursts, "plot-bursts", false, "with --plot, also one polar plot per burst (PREFIX-IDENT-burst-N.png)")
 	cmd.Flags().StringVar(&o.lopCSV, "bearings-csv", "", "write the transmitters' bearings as a CSV FILE that nullseek fix reads (needs --station)")
 	o.lf.add(cmd, &o.in, &o.idf, &o.hf) // live receiver, rotator or compass: live.go
+	stationFile(cmd, &o.sf)
 	return cmd
 }
 
@@ -96,7 +99,7 @@ func runBearing(cmd *cobra.Command, rec recording, o *bearingOptions) error {
 		}
 	}
 	if o.lopCSV != "" {
-		if err := survey.StageLOPs(&outs, o.lopCSV, hs.StationLat, hs.StationLon, res.Info.Start, txs); err != nil {
+		if err := survey.StageLOPs(&outs, o.lopCSV, o.sf.Name(), hs.StationLat, hs.StationLon, res.Info.Start, txs); err != nil {
 			return err
 		}
 	}
@@ -107,6 +110,10 @@ func runBearing(cmd *cobra.Command, rec recording, o *bearingOptions) error {
 		err = survey.WriteBearingTable(&text, bbs, txs, ref)
 	}
 	if err != nil {
+		return err
+	}
+	if err := o.sf.Save(cmd.ErrOrStderr(), logbook.Recording{Path: rec.path, Result: res, Bearings: bbs, Track: tr,
+		Station: o.sf.Station(hs.HasStation, hs.StationLat, hs.StationLon, hs.Bearing.Antenna.Kind, mount)}); err != nil {
 		return err
 	}
 	if err := outs.Commit(); err != nil {

@@ -8,6 +8,7 @@ import (
 
 	"nullseek/bearing"
 	"nullseek/internal/angle"
+	"nullseek/logbook"
 	"nullseek/survey"
 )
 
@@ -15,6 +16,7 @@ type calibrateOptions struct {
 	in                           inputFlags
 	idf                          identFlags
 	hf                           headingFlags
+	sf                           logbook.Flags
 	lf                           liveFlags
 	tx, knownBearing, ident, out string
 	asJSON                       bool
@@ -56,6 +58,7 @@ plus that offset, and the saved pattern is measured relative to it.`,
 	fl.StringVar(&o.out, "out", "", "write the measured pattern here (JSON; required)")
 	fl.BoolVar(&o.asJSON, "json", false, "print the result as one JSON object")
 	o.lf.add(cmd, &o.in, &o.idf, &o.hf) // live receiver, rotator or compass: live.go
+	stationFile(cmd, &o.sf)
 	return cmd
 }
 
@@ -99,6 +102,9 @@ func runCalibrate(cmd *cobra.Command, rec recording, o *calibrateOptions) error 
 	}
 	total := angle.Wrap180(given + cal.NorthOffsetDeg)
 	cal.Pattern.MountOffsetDeg, cal.Pattern.MountOffsetSet = total, true
+	if err := o.sf.Save(cmd.ErrOrStderr(), logbook.Recording{Path: rec.path, Result: res}); err != nil {
+		return err
+	}
 	if err := bearing.SavePattern(o.out, cal.Pattern); err != nil {
 		return err
 	}

@@ -11,6 +11,7 @@ import (
 type demoOptions struct {
 	outDir  string
 	writeIQ bool
+	db      string
 }
 
 func newDemoCmd() *cobra.Command {
@@ -29,6 +30,7 @@ comparing every result with the scene's truth. Files go to --out.`,
 	}
 	cmd.Flags().StringVar(&o.outDir, "out", demo.DefaultOutDir, "directory for the demo's files (bearings CSV, map, GeoJSON, polar plots, heading logs)")
 	cmd.Flags().BoolVar(&o.writeIQ, "write-iq", false, "also write each station's recording as a SigMF pair (about 35 MB each)")
+	cmd.Flags().StringVar(&o.db, "db", "", "also store every station's bursts, levels, headings and bearings, the schedule and the fixes in this SQLite database")
 	return cmd
 }
 
@@ -39,5 +41,5 @@ func runDemo(cmd *cobra.Command, o *demoOptions) error {
 	if tty := terminal(cmd.ErrOrStderr()); tty != nil {
 		progress = tty
 	}
-	return demo.Run(cmd.Context(), cmd.OutOrStdout(), progress, o.outDir, o.writeIQ)
+	return demo.Run(cmd.Context(), cmd.OutOrStdout(), progress, o.outDir, o.writeIQ, o.db)
 }

@@ -6,6 +6,7 @@ import (
 	"github.com/spf13/cobra"
 
 	"nullseek/locate"
+	"nullseek/logbook"
 )
 
 type fixFlags struct {
@@ -14,13 +15,15 @@ type fixFlags struct {
 	gridFile string
 	mapSize  float64
 	o        locate.Options
+	sf       logbook.Flags
+	qf       logbook.QueryFlags
 }
 
 func newFixCmd() *cobra.Command {
 	var fl fixFlags
 	d := locate.Defaults
 	cmd := &cobra.Command{
-		Use:   "fix BEARINGS.csv|BEARINGS.json|- [MORE...]",
+		Use:   "fix BEARINGS.csv|BEARINGS.json|- [MORE...] | --db FILE",
 		Short: "Locate transmitters from bearings taken at two or more stations",
 		Long: `Reads bearings (CSV with header ident,station,lat,lon,bearing_deg,sigma_deg,reference[,time][,declination_deg][,ambiguous],
 or the same keys as JSON) and prints, per ident, the most likely position, its error ellipse (semi-axes and full axes),
@@ -29,8 +32,10 @@ bearings are turned to true with WMM2025 at the station and time unless a declin
 are printed. Rows that repeat an earlier row exactly are reported and counted once. Without --grid or --grid-file an
 automatic north-up grid, anchored on round coordinates, covers each cluster of nearby transmitters.
 Exit status is 1 for bad input (nothing is written), and also when a transmitter could not be fixed or an output file
-could not be made (the others are still printed and written).`,
-		Args: cobra.MinimumNArgs(1),
+could not be made (the others are still printed and written).
+With --db the fixes are stored there; without bearings files the bearings stored in --db are fixed (--from, --to,
+--station-name, --ident select them).`,
+		Args: cobra.ArbitraryArgs,
 		RunE: func(cmd *cobra.Command, args []string) error {
 			fl.o.DeclinationSet = cmd.Flags().Changed("declination")
 			return runFix(cmd.InOrStdin(), cmd.OutOrStdout(), cmd.ErrOrStderr(), args, fl)
@@ -52,6 +57,8 @@ could not be made (the others are still printed and written).`,
 	f.IntVar(&fl.o.AutoCells, "auto-cells", d.AutoCells, "about this many columns and rows in an automatic grid (4..200)")
 	f.Float64Var(&fl.o.ClusterKm, "cluster-km", d.ClusterKm, "transmitters closer than `KM` share an automatic grid and a map (0.1..1000)")
 	f.BoolVar(&fl.o.KeepDuplicates, "keep-duplicates", false, "count rows that repeat an earlier row exactly as separate bearings")
+	fl.qf.Add(f)
+	stationFile(cmd, &fl.sf, "db")
 	return cmd
 }
 
@@ -78,11 +85,14 @@ func runFix(stdin io.Reader, out, errOut io.Writer, inputs []string, fl fixFlags
 	// Bearings from several files (one per station, say) are fixed together.
 	srcs, closeAll, err := locate.OpenFiles(inputs, stdin)
 	defer closeAll()
-	if err != nil {
+	if srcs, err = fl.qf.FixSources(fl.sf.DB, srcs, err); err != nil {
 		return err
 	}
 	res, err := locate.Run(srcs, o)
 	if err != nil {
+		return err
+	}
+	if err := fl.sf.SaveFixes(errOut, res, &fl.qf); err != nil {
 		return err
 	}
 	if fl.json {

@@ -15,6 +15,7 @@ import (
 	"nullseek/ident"
 	"nullseek/ident/idmatch"
 	"nullseek/ident/morse"
+	"nullseek/logbook"
 	"nullseek/receiver"
 	"nullseek/sdr"
 	"nullseek/survey"
@@ -132,4 +133,17 @@ func progress(w io.Writer, info sdr.Info, label string) (func(int64), func()) {
 		progressbar.OptionClearOnFinish(),
 	)
 	return func(n int64) { _ = bar.Set64(n) }, func() { _ = bar.Finish() }
+}
+
+// stationFile adds --station-file and --db (logbook.Flags) to cmd, whose
+// RunE then applies the station file first; only as for Flags.Add.
+func stationFile(cmd *cobra.Command, f *logbook.Flags, only ...string) {
+	f.Add(cmd.Flags(), only...)
+	body := cmd.RunE
+	cmd.RunE = func(c *cobra.Command, args []string) error {
+		if err := f.Apply(len(args)); err != nil {
+			return err
+		}
+		return body(c, args)
+	}
 }

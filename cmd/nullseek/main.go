@@ -62,7 +62,7 @@ func newRootCmd() *cobra.Command {
 	root.SetVersionTemplate("{{.Version}}\n")
 	root.PersistentFlags().StringVar(&profile, "cpuprofile", "", "write a CPU profile to this file (for developers)")
 	_ = root.PersistentFlags().MarkHidden("cpuprofile")
-	root.AddCommand(newScanCmd(), newSlotsCmd(), newBearingCmd(), newCalibrateCmd(), newFixCmd(), newDemoCmd(), newReplayCmd(), newWatchCmd(), newReportCmd())
+	root.AddCommand(newScanCmd(), newSlotsCmd(), newBearingCmd(), newCalibrateCmd(), newFixCmd(), newDemoCmd(), newReplayCmd(), newWatchCmd(), newReportCmd(), newQueryCmd())
 	for _, c := range root.Commands() {
 		body := c.RunE
 		c.RunE = func(c *cobra.Command, args []string) error {

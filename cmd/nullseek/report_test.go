@@ -176,7 +176,7 @@ func writeSlotsJSON(t *testing.T, path string, ids []string, start time.Time) {
 func TestDemoReport(t *testing.T) {
 	dir := t.TempDir()
 	var out bytes.Buffer
-	if err := demo.Run(context.Background(), &out, io.Discard, dir, false); err != nil {
+	if err := demo.Run(context.Background(), &out, io.Discard, dir, false, ""); err != nil {
 		t.Fatal(err)
 	}
 	sc, err := sim.Demo()

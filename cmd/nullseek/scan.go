@@ -6,6 +6,7 @@ import (
 
 	"github.com/spf13/cobra"
 
+	"nullseek/logbook"
 	"nullseek/receiver"
 	"nullseek/sdr"
 )
@@ -13,6 +14,7 @@ import (
 type scanOptions struct {
 	in           inputFlags
 	idf          identFlags
+	sf           logbook.Flags
 	asJSON, list bool
 }
 
@@ -34,6 +36,7 @@ it sees and scans the strongest.`,
 	o.idf.add(cmd)
 	cmd.Flags().BoolVar(&o.asJSON, "json", false, "one JSON object per line instead of a table")
 	cmd.Flags().BoolVar(&o.list, "list", false, "only list the carriers seen in the recording")
+	stationFile(cmd, &o.sf)
 	return cmd
 }
 
@@ -48,6 +51,9 @@ func runScan(cmd *cobra.Command, path string, o *scanOptions) error {
 	}
 	res, err := in.Run(cmd.Context(), nil)
 	if err != nil {
+		return err
+	}
+	if err := o.sf.Save(cmd.ErrOrStderr(), logbook.Recording{Path: path, Result: res}); err != nil {
 		return err
 	}
 	out := cmd.OutOrStdout()

@@ -74,8 +74,9 @@ var layers = map[string]place{
 	"locate": {pipelines, 0},
 
 	"report/session": {apps, 1},
+	"logbook":        {apps, 1}, // the one-shot commands' rows of the store
 	"demo":           {apps, 2},
-	"watch":          {apps, 2},
+	"watch":          {apps, 2}, // imports logbook
 
 	"cmd/nullseek": {command, 0},
 }
