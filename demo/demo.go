@@ -96,6 +96,7 @@ func Run(ctx context.Context, out, progress io.Writer, outDir string, writeIQ bo
 		sc.Name, sc.Place, len(sc.Beacons), sc.ChannelHz/1e6, len(sc.Stations), sc.DurationS, sc.Start.Format(time.RFC3339))
 
 	var lops []geo.LOP
+	var recs []geo.BearingRecord
 	var first *survey.Result
 	var runs []stationRun // for the report page
 	for si, st := range sc.Stations {
@@ -156,9 +157,12 @@ func Run(ctx context.Context, out, progress io.Writer, outDir string, writeIQ bo
 			}
 			fmt.Fprintf(w, "  %-10s %8.1f° %6.1f° %8.1f° %+5.1f° %6d%s\n", tb.Ident, c.BearingDeg, tb.SigmaDeg,
 				truth, angle.Wrap180(c.BearingDeg-truth), c.BurstsUsed, alt)
-			lop := geo.LOP{Ident: tb.Ident, Station: st.Name, Lat: st.Lat, Lon: st.Lon,
-				BearingDeg: c.BearingDeg, SigmaDeg: tb.SigmaDeg, Time: sc.Start, Ambiguous: c.AltBearingDeg != nil}
-			lops = append(lops, lop)
+			// the record the bearings CSV and bearing --json carry (the
+			// time of the first burst used, not the capture start)
+			if rec, ok := tb.Record(survey.Site{Station: st.Name, Lat: st.Lat, Lon: st.Lon, HasPosition: true}); ok {
+				recs = append(recs, rec)
+				lops = append(lops, rec.LOP)
+			}
 		}
 		// one polar plot per transmitter, from its combined bearing
 		note := survey.ReferenceNote(st.Antenna, heading.True, 0) + " (station " + st.Name + ")"
@@ -188,10 +192,6 @@ func Run(ctx context.Context, out, progress io.Writer, outDir string, writeIQ bo
 	}
 
 	// Fixes.
-	recs := make([]geo.BearingRecord, len(lops))
-	for i, l := range lops {
-		recs[i] = geo.BearingRecord{LOP: l}
-	}
 	if err := outs.WriteFunc(filepath.Join(outDir, "bearings.csv"), func(w io.Writer) error { return geo.WriteBearingsCSV(w, recs) }); err != nil {
 		return err
 	}

@@ -96,13 +96,13 @@ func runBearing(cmd *cobra.Command, rec recording, o *bearingOptions) error {
 		}
 	}
 	if o.lopCSV != "" {
-		if err := survey.StageLOPs(&outs, o.lopCSV, hs.StationLat, hs.StationLon, res.Info.Start, txs); err != nil {
+		if err := survey.StageLOPs(&outs, o.lopCSV, hs.Site(), txs); err != nil {
 			return err
 		}
 	}
 	var text bytes.Buffer
 	if o.asJSON {
-		err = survey.WriteBearingsJSON(&text, bbs, txs)
+		err = survey.WriteBearingsJSON(&text, bbs, txs, hs.Site())
 	} else {
 		err = survey.WriteBearingTable(&text, bbs, txs, ref)
 	}
