@@ -55,9 +55,9 @@ type BurstBearing struct {
 	StartS      float64
 	// Start is the burst's start in UTC, zero when the recording does not
 	// say when it began.
-	Start time.Time
-	Est         bearing.Estimate
-	Points      []bearing.Point
+	Start  time.Time
+	Est    bearing.Estimate
+	Points []bearing.Point
 	// Err says why no bearing was fitted (the fit refuses rather than
 	// inventing one); Est is then empty.
 	Err error
@@ -516,18 +516,18 @@ type txBearingLine struct {
 	Time           string         `json:"time,omitempty"`
 	Ambiguous      bool           `json:"ambiguous"`
 	Error          string         `json:"error,omitempty"`
-	BearingDeg    *float64       `json:"bearing_deg"`
-	SigmaDeg      *float64       `json:"sigma_deg"`
-	FitSigmaDeg   *float64       `json:"fit_sigma_deg,omitempty"`
-	SiteSigmaDeg  *float64       `json:"site_sigma_deg,omitempty"`
-	AltBearingDeg *float64       `json:"alt_bearing_deg"`
-	NullDepthDB   *float64       `json:"null_depth_db,omitempty"`
-	CoverageDeg   *float64       `json:"coverage_deg,omitempty"`
-	BurstsUsed    int            `json:"bursts_used"`
-	PValue        *float64       `json:"p_value,omitempty"`
-	Excluded      []excludedJSON `json:"excluded,omitempty"`
-	Flags         []string       `json:"flags,omitempty"`
-	Warnings      []string       `json:"warnings,omitempty"`
+	BearingDeg     *float64       `json:"bearing_deg"`
+	SigmaDeg       *float64       `json:"sigma_deg"`
+	FitSigmaDeg    *float64       `json:"fit_sigma_deg,omitempty"`
+	SiteSigmaDeg   *float64       `json:"site_sigma_deg,omitempty"`
+	AltBearingDeg  *float64       `json:"alt_bearing_deg"`
+	NullDepthDB    *float64       `json:"null_depth_db,omitempty"`
+	CoverageDeg    *float64       `json:"coverage_deg,omitempty"`
+	BurstsUsed     int            `json:"bursts_used"`
+	PValue         *float64       `json:"p_value,omitempty"`
+	Excluded       []excludedJSON `json:"excluded,omitempty"`
+	Flags          []string       `json:"flags,omitempty"`
+	Warnings       []string       `json:"warnings,omitempty"`
 }
 
 // MarshalJSON writes a `"type":"bearing"` line. A value that is not finite
