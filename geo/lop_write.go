@@ -28,6 +28,25 @@ const (
 	HeightDecimals   = 1
 )
 
+// SigmaText is how the bearings files write a sigma in degrees: to
+// 0.01° from 1° up, and to three significant figures below, so that a
+// small sigma never reads as 0 (which fix would refuse).
+func SigmaText(v float64) string {
+	if math.Abs(v) >= 1 {
+		return strconv.FormatFloat(v, 'f', AngleDecimals, 64)
+	}
+	return strconv.FormatFloat(v, 'g', 3, 64)
+}
+
+// RoundSigma rounds a sigma as SigmaText writes it.
+func RoundSigma(v float64) float64 {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return v
+	}
+	r, _ := strconv.ParseFloat(SigmaText(v), 64)
+	return r
+}
+
 // RoundTo rounds v to the given number of decimals exactly as the CSV
 // writes it (the float nearest the decimal text), so that a JSON number
 // and a CSV cell of the same value read back as the same float. Non-finite
@@ -41,7 +60,8 @@ func RoundTo(v float64, decimals int) float64 {
 }
 
 // WriteBearingsCSV writes records in the CSV form ReadBearingsCSV reads:
-// lat/lon to 1e-6° (about 0.1 m), bearing and sigma to 0.01°, reference
+// lat/lon to 1e-6° (about 0.1 m), bearing to 0.01°, sigma as SigmaText,
+// reference
 // "true" or "magnetic", time in RFC 3339 UTC to the millisecond (empty
 // when unknown), declination_deg only when the record carries its own,
 // ambiguous true/false, alt_bearing_deg and alt_m only when known.
@@ -77,7 +97,7 @@ func WriteBearingsCSV(w io.Writer, recs []BearingRecord) error {
 			altM = f(r.AltM, HeightDecimals)
 		}
 		if err := cw.Write([]string{r.Ident, r.Station, f(r.Lat, PositionDecimals), f(r.Lon, PositionDecimals),
-			f(r.BearingDeg, AngleDecimals), f(r.SigmaDeg, AngleDecimals), ref, when, decl, strconv.FormatBool(r.Ambiguous), alt, altM}); err != nil {
+			f(r.BearingDeg, AngleDecimals), SigmaText(r.SigmaDeg), ref, when, decl, strconv.FormatBool(r.Ambiguous), alt, altM}); err != nil {
 			return err
 		}
 	}

@@ -124,7 +124,7 @@ func (t TxBearing) Record(site Site) (geo.BearingRecord, bool) {
 	}
 	p, a := geo.PositionDecimals, geo.AngleDecimals
 	r := geo.BearingRecord{LOP: geo.LOP{Ident: t.Ident, Station: site.Name(), Lat: geo.RoundTo(site.Lat, p), Lon: geo.RoundTo(site.Lon, p),
-		BearingDeg: geo.RoundTo(t.Combined.BearingDeg, a), SigmaDeg: geo.RoundTo(t.SigmaDeg, a), Time: t.Time.Round(time.Millisecond),
+		BearingDeg: geo.RoundTo(t.Combined.BearingDeg, a), SigmaDeg: geo.RoundSigma(t.SigmaDeg), Time: t.Time.Round(time.Millisecond),
 		Ambiguous: t.Combined.AltBearingDeg != nil}}
 	if site.DeclinationDeg != nil {
 		r.DeclinationDeg, r.HasDeclination = geo.RoundTo(*site.DeclinationDeg, a), true
@@ -402,6 +402,17 @@ func (j *jsonNums) num(name string, v float64, digits int) *float64 {
 	return &r
 }
 
+// sigma is num for a sigma in degrees, rounded as the bearings files
+// round one (geo.RoundSigma: never to 0).
+func (j *jsonNums) sigma(name string, v float64) *float64 {
+	if !finite(v) {
+		j.nulled = append(j.nulled, name)
+		return nil
+	}
+	r := geo.RoundSigma(v)
+	return &r
+}
+
 func (j *jsonNums) opt(name string, p *float64, digits int) *float64 {
 	if p == nil {
 		return nil
@@ -468,15 +479,15 @@ func (b BurstBearing) MarshalJSON() ([]byte, error) {
 		e := b.Est
 		l.BurstsUsed = 1
 		l.BearingDeg = j.num("bearing_deg", e.BearingDeg, 2)
-		l.SigmaDeg = j.num("sigma_deg", e.SigmaDeg, 2)
+		l.SigmaDeg = j.sigma("sigma_deg", e.SigmaDeg)
 		l.AltBearingDeg = j.opt("alt_bearing_deg", e.AltBearingDeg, 2)
 		l.NullDepthDB = j.num("null_depth_db", e.NullDepthDB, 1)
 		l.CoverageDeg = j.num("coverage_deg", e.CoverageDeg, 1)
 		l.Covered = bearing.FormatArcs(e.Arcs)
 		l.ResidualDB = j.num("residual_db", e.ResidualDB, 2)
-		l.FisherSigmaDeg = j.num("fisher_sigma_deg", e.FisherSigmaDeg, 2)
-		l.ModelSigmaDeg = j.num("model_sigma_deg", e.ModelSigmaDeg, 2)
-		l.BootstrapSigmaDeg = j.num("bootstrap_sigma_deg", e.BootstrapSigmaDeg, 2)
+		l.FisherSigmaDeg = j.sigma("fisher_sigma_deg", e.FisherSigmaDeg)
+		l.ModelSigmaDeg = j.sigma("model_sigma_deg", e.ModelSigmaDeg)
+		l.BootstrapSigmaDeg = j.sigma("bootstrap_sigma_deg", e.BootstrapSigmaDeg)
 		l.FadingDB = j.num("fading_db", e.FadingDB, 2)
 		l.Points = e.Points
 		u := e.Usage
@@ -552,9 +563,9 @@ func (t TxBearing) MarshalJSON() ([]byte, error) {
 	} else {
 		c := t.Combined
 		l.BearingDeg = j.num("bearing_deg", c.BearingDeg, 2)
-		l.SigmaDeg = j.num("sigma_deg", t.SigmaDeg, 2)
-		l.FitSigmaDeg = j.num("fit_sigma_deg", c.SigmaDeg, 2)
-		l.SiteSigmaDeg = j.num("site_sigma_deg", t.SiteSigmaDeg, 2)
+		l.SigmaDeg = j.sigma("sigma_deg", t.SigmaDeg)
+		l.FitSigmaDeg = j.sigma("fit_sigma_deg", c.SigmaDeg)
+		l.SiteSigmaDeg = j.sigma("site_sigma_deg", t.SiteSigmaDeg)
 		l.AltBearingDeg = j.opt("alt_bearing_deg", c.AltBearingDeg, 2)
 		l.Ambiguous = c.AltBearingDeg != nil
 		l.NullDepthDB = j.num("null_depth_db", t.NullDepthDB, 1)
