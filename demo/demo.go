@@ -40,6 +40,17 @@ import (
 // DefaultOutDir is the folder the demo's files go to unless told.
 const DefaultOutDir = "nullseek-demo"
 
+// IQRateHz is the sample rate of the recordings the demo keeps (cu8),
+// one an RTL2832 supports (sdr.RTLMinRateLow…sdr.RTLMaxRateLow), so that
+// `nullseek replay` can serve them over rtl_tcp. The demo's own analysis
+// renders the scene at the scenario's lower rate; the kept recordings are
+// the same scene rendered at this one.
+const IQRateHz = 240000
+
+// IDsFile is the list of the demo's identifiers it writes (one a line,
+// the form --ids @FILE reads).
+const IDsFile = "ids.txt"
+
 // Run runs the demo, writing its files to outDir and its report to out
 // once everything has worked (a failure prints no half report and leaves
 // outDir as it was); progress (nil: none) gets a line per stage while it
@@ -61,7 +72,7 @@ func Run(ctx context.Context, out, progress io.Writer, outDir string, writeIQ bo
 	// Every file the demo makes is checked before the work starts and
 	// staged until the end: a failure leaves the folder as it was (and
 	// removes it when the demo made it).
-	names := []string{"bearings.csv", "fixes.geojson", "map.png", "report.html"}
+	names := []string{"bearings.csv", "fixes.geojson", "map.png", "report.html", IDsFile}
 	for _, st := range sc.Stations {
 		names = append(names, "headings-"+st.Name+".csv")
 		for _, id := range ids {
@@ -90,6 +101,12 @@ func Run(ctx context.Context, out, progress io.Writer, outDir string, writeIQ bo
 				os.Remove(outDir) // only if still empty
 			}
 		}()
+	}
+	if err := outs.WriteFunc(filepath.Join(outDir, IDsFile), func(w io.Writer) error {
+		_, err := io.WriteString(w, strings.Join(ids, "\n")+"\n")
+		return err
+	}); err != nil {
+		return err
 	}
 	fmt.Fprintf(w, "Bearing sigmas include a %.0f° site error (multipath a single site cannot see).\n", survey.DefaultSiteSigmaDeg)
 	fmt.Fprintf(w, "Scenario %q at %s (invented): %d beacons on %.4f MHz, %d stations, %.0f s each, starting %s\n\n",
@@ -234,8 +251,12 @@ func Run(ctx context.Context, out, progress io.Writer, outDir string, writeIQ bo
 	if err := stageReport(&outs, outDir, sc, runs, plan, res); err != nil {
 		return err
 	}
-	fmt.Fprintf(w, "\nFiles in %s: report.html, bearings.csv, map.png, fixes.geojson, polar-*.png, headings-*.csv\nTry: nullseek fix %s --grid %q\n",
-		outDir, filepath.Join(outDir, "bearings.csv"), grid.String())
+	kept := ""
+	if writeIQ {
+		kept = fmt.Sprintf(", station-*.sigmf-meta/-data (cu8, %.0f kS/s)", IQRateHz/1e3)
+	}
+	fmt.Fprintf(w, "\nFiles in %s: report.html, bearings.csv, map.png, fixes.geojson, polar-*.png, headings-*.csv, %s%s\nTry: nullseek fix %s --grid %q\n",
+		outDir, IDsFile, kept, filepath.Join(outDir, "bearings.csv"), grid.String())
 	if err := outs.Commit(); err != nil {
 		return err
 	}
@@ -258,9 +279,11 @@ func drifts(sc sim.Scenario) string {
 	return strings.Join(parts, ", ")
 }
 
-// StageStationIQ renders station st's recording of scenario sc into outs
-// as the SigMF pair DIR/station-NAME.sigmf-meta/.sigmf-data.
+// StageStationIQ renders station st's recording of scenario sc at
+// IQRateHz into outs as the SigMF pair DIR/station-NAME.sigmf-meta/.sigmf-data
+// (cu8).
 func StageStationIQ(outs *atomicfile.Set, sc sim.Scenario, st sim.Station, dir string) error {
+	sc.SampleRate = IQRateHz
 	src, err := sim.NewSource(sc, st)
 	if err != nil {
 		return err
