@@ -451,7 +451,7 @@ type burstBearingLine struct {
 	Error             string     `json:"error,omitempty"`
 	BearingDeg        *float64   `json:"bearing_deg"`
 	SigmaDeg          *float64   `json:"sigma_deg"`
-	AltBearingDeg     *float64   `json:"alt_bearing_deg"`
+	AltBearingDeg     *float64   `json:"alt_bearing_deg,omitempty"`
 	NullDepthDB       *float64   `json:"null_depth_db,omitempty"`
 	CoverageDeg       *float64   `json:"coverage_deg,omitempty"`
 	Covered           string     `json:"covered,omitempty"`
@@ -531,7 +531,7 @@ type txBearingLine struct {
 	SigmaDeg       *float64       `json:"sigma_deg"`
 	FitSigmaDeg    *float64       `json:"fit_sigma_deg,omitempty"`
 	SiteSigmaDeg   *float64       `json:"site_sigma_deg,omitempty"`
-	AltBearingDeg  *float64       `json:"alt_bearing_deg"`
+	AltBearingDeg  *float64       `json:"alt_bearing_deg,omitempty"`
 	NullDepthDB    *float64       `json:"null_depth_db,omitempty"`
 	CoverageDeg    *float64       `json:"coverage_deg,omitempty"`
 	BurstsUsed     int            `json:"bursts_used"`
