@@ -113,11 +113,21 @@ func (s Site) Name() string {
 	return fmt.Sprintf("%.5f %.5f", s.Lat, s.Lon)
 }
 
+// bearingTime is a bearing's time as the bearings files write it: to the
+// millisecond (rounded, as TxBearing.Record rounds it), "" when unknown.
+func bearingTime(t time.Time) string {
+	if t.IsZero() {
+		return ""
+	}
+	return t.UTC().Round(time.Millisecond).Format(geo.BearingTimeLayout)
+}
+
 // Record is the transmitter's bearing taken at site as a bearings-file
-// record (rounded as the bearings files are, geo.RoundTo), false when it
-// has no bearing or the site no position. The bearing lines of `bearing
-// --json` and the bearings CSV are both made from it, so that both give
-// fix the same numbers.
+// record (rounded as the bearings files are: geo.RoundTo, geo.RoundSigma,
+// the time to the millisecond), false when it has no bearing or the site
+// no position. The bearings CSV is written from it, and the bearing line
+// of `bearing --json` rounds the same numbers the same way, so that both
+// give fix the same bearings (TestBearingLineMatchesRecord).
 func (t TxBearing) Record(site Site) (geo.BearingRecord, bool) {
 	if t.Err != nil || !site.HasPosition || !finite(t.Combined.BearingDeg) || !finite(t.SigmaDeg) {
 		return geo.BearingRecord{}, false
@@ -548,7 +558,7 @@ type txBearingLine struct {
 func (t TxBearing) MarshalJSON() ([]byte, error) {
 	var j jsonNums
 	l := txBearingLine{Type: "bearing", Ident: t.Ident, Transmitter: t.Transmitter, Reference: heading.True.String(),
-		Time: rfc3339(t.Time)}
+		Time: bearingTime(t.Time)}
 	if s := t.Site; s != nil {
 		if s.HasPosition {
 			a := geo.RoundTo(s.Lat, geo.PositionDecimals)
