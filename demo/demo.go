@@ -41,6 +41,17 @@ import (
 // DefaultOutDir is the folder the demo's files go to unless told.
 const DefaultOutDir = "nullseek-demo"
 
+// IQRateHz is the sample rate of the recordings the demo keeps (cu8),
+// one an RTL2832 supports (sdr.RTLMinRateLow…sdr.RTLMaxRateLow), so that
+// `nullseek replay` can serve them over rtl_tcp. The demo's own analysis
+// renders the scene at the scenario's lower rate; the kept recordings are
+// the same scene rendered at this one.
+const IQRateHz = 240000
+
+// IDsFile is the list of the demo's identifiers it writes (one a line,
+// the form --ids @FILE reads).
+const IDsFile = "ids.txt"
+
 // Run runs the demo, writing its files to outDir and its report to out
 // once everything has worked (a failure prints no half report and leaves
 // outDir as it was); progress (nil: none) gets a line per stage while it
@@ -65,7 +76,7 @@ func Run(ctx context.Context, out, progress io.Writer, outDir string, writeIQ bo
 	// Every file the demo makes is checked before the work starts and
 	// staged until the end: a failure leaves the folder as it was (and
 	// removes it when the demo made it).
-	names := []string{"bearings.csv", "fixes.geojson", "map.png", "report.html"}
+	names := []string{"bearings.csv", "fixes.geojson", "map.png", "report.html", IDsFile}
 	for _, st := range sc.Stations {
 		names = append(names, "headings-"+st.Name+".csv")
 		for _, id := range ids {
@@ -100,11 +111,18 @@ func Run(ctx context.Context, out, progress io.Writer, outDir string, writeIQ bo
 			}
 		}()
 	}
+	if err := outs.WriteFunc(filepath.Join(outDir, IDsFile), func(w io.Writer) error {
+		_, err := io.WriteString(w, strings.Join(ids, "\n")+"\n")
+		return err
+	}); err != nil {
+		return err
+	}
 	fmt.Fprintf(w, "Bearing sigmas include a %.0f° site error (multipath a single site cannot see).\n", survey.DefaultSiteSigmaDeg)
 	fmt.Fprintf(w, "Scenario %q at %s (invented): %d beacons on %.4f MHz, %d stations, %.0f s each, starting %s\n\n",
 		sc.Name, sc.Place, len(sc.Beacons), sc.ChannelHz/1e6, len(sc.Stations), sc.DurationS, sc.Start.Format(time.RFC3339))
 
 	var lops []geo.LOP
+	var recs []geo.BearingRecord
 	var first *survey.Result
 	var runs []stationRun // for the report page
 	var logged []logbook.Recording
@@ -169,9 +187,12 @@ func Run(ctx context.Context, out, progress io.Writer, outDir string, writeIQ bo
 			}
 			fmt.Fprintf(w, "  %-10s %8.1f° %6.1f° %8.1f° %+5.1f° %6d%s\n", tb.Ident, c.BearingDeg, tb.SigmaDeg,
 				truth, angle.Wrap180(c.BearingDeg-truth), c.BurstsUsed, alt)
-			lop := geo.LOP{Ident: tb.Ident, Station: st.Name, Lat: st.Lat, Lon: st.Lon,
-				BearingDeg: c.BearingDeg, SigmaDeg: tb.SigmaDeg, Time: sc.Start, Ambiguous: c.AltBearingDeg != nil}
-			lops = append(lops, lop)
+			// the record the bearings CSV and bearing --json carry (the
+			// time of the first burst used, not the capture start)
+			if rec, ok := tb.Record(survey.Site{Station: st.Name, Lat: st.Lat, Lon: st.Lon, HasPosition: true}); ok {
+				recs = append(recs, rec)
+				lops = append(lops, rec.LOP)
+			}
 		}
 		// one polar plot per transmitter, from its combined bearing
 		note := survey.ReferenceNote(st.Antenna, heading.True, 0) + " (station " + st.Name + ")"
@@ -201,10 +222,6 @@ func Run(ctx context.Context, out, progress io.Writer, outDir string, writeIQ bo
 	}
 
 	// Fixes.
-	recs := make([]geo.BearingRecord, len(lops))
-	for i, l := range lops {
-		recs[i] = geo.BearingRecord{LOP: l}
-	}
 	if err := outs.WriteFunc(filepath.Join(outDir, "bearings.csv"), func(w io.Writer) error { return geo.WriteBearingsCSV(w, recs) }); err != nil {
 		return err
 	}
@@ -247,8 +264,12 @@ func Run(ctx context.Context, out, progress io.Writer, outDir string, writeIQ bo
 	if err := stageReport(&outs, outDir, sc, runs, plan, res); err != nil {
 		return err
 	}
-	fmt.Fprintf(w, "\nFiles in %s: report.html, bearings.csv, map.png, fixes.geojson, polar-*.png, headings-*.csv\nTry: nullseek fix %s --grid %q\n",
-		outDir, filepath.Join(outDir, "bearings.csv"), grid.String())
+	kept := ""
+	if writeIQ {
+		kept = fmt.Sprintf(", station-*.sigmf-meta/-data (cu8, %.0f kS/s)", IQRateHz/1e3)
+	}
+	fmt.Fprintf(w, "\nFiles in %s: report.html, bearings.csv, map.png, fixes.geojson, polar-*.png, headings-*.csv, %s%s\nTry: nullseek fix %s --grid %q\n",
+		outDir, IDsFile, kept, filepath.Join(outDir, "bearings.csv"), grid.String())
 	if db != "" {
 		logged[0].Plan = plan
 		saved, err := logbook.Save(db, logged...)
@@ -284,9 +305,11 @@ func drifts(sc sim.Scenario) string {
 	return strings.Join(parts, ", ")
 }
 
-// StageStationIQ renders station st's recording of scenario sc into outs
-// as the SigMF pair DIR/station-NAME.sigmf-meta/.sigmf-data.
+// StageStationIQ renders station st's recording of scenario sc at
+// IQRateHz into outs as the SigMF pair DIR/station-NAME.sigmf-meta/.sigmf-data
+// (cu8).
 func StageStationIQ(outs *atomicfile.Set, sc sim.Scenario, st sim.Station, dir string) error {
+	sc.SampleRate = IQRateHz
 	src, err := sim.NewSource(sc, st)
 	if err != nil {
 		return err

@@ -2,6 +2,7 @@ package geo
 
 import (
 	"bufio"
+	"bytes"
 	"encoding/csv"
 	"encoding/json"
 	"errors"
@@ -18,13 +19,25 @@ import (
 // BearingRecord is one bearing as read from a file, before magnetic bearings
 // are turned into true ones. LOP.BearingDeg holds the bearing as written:
 // true when Magnetic is false, magnetic otherwise. When HasDeclination is set
-// the record carries its own declination (degrees, east positive) which wins
-// over any model value.
+// the record carries its own declination (degrees, east positive): for a
+// magnetic bearing the one that turns it true (it wins over any model
+// value); for a true bearing the one that already turned the magnetic
+// headings it was measured with (kept for the record, never applied
+// again).
 type BearingRecord struct {
 	LOP
 	Magnetic       bool
 	DeclinationDeg float64
 	HasDeclination bool
+	// AltM is the station's height in metres above the WGS84 ellipsoid
+	// when HasAltM (the fix is on the ellipsoid and does not use it).
+	AltM    float64
+	HasAltM bool
+	// AltBearingDeg is the other bearing that fits the measurement as
+	// well (a loop's two nulls: the reciprocal) when HasAltBearing; a
+	// record with one is Ambiguous.
+	AltBearingDeg float64
+	HasAltBearing bool
 }
 
 // InputError names the place of a bad value: Row is the 1-based CSV row (the
@@ -49,8 +62,12 @@ func (e *InputError) Unwrap() error { return e.Err }
 // Column names of the bearing CSV. The first seven are required.
 var (
 	requiredColumns = []string{"ident", "station", "lat", "lon", "bearing_deg", "sigma_deg", "reference"}
-	optionalColumns = []string{"time", "declination_deg", "ambiguous"}
+	optionalColumns = []string{"time", "declination_deg", "ambiguous", "alt_bearing_deg", "alt_m"}
 )
+
+// AltBearingToleranceDeg is how far an alt_bearing_deg may be from the
+// reciprocal of its bearing (both are written to 0.01°).
+const AltBearingToleranceDeg = 0.5
 
 // StationToleranceM is how far apart two rows naming the same station may
 // place it before the input is refused as conflicting.
@@ -65,9 +82,11 @@ type BearingReader struct {
 	// CSV
 	cr  *csv.Reader
 	col map[string]int
-	// JSON
+	// JSON (lines: the JSON lines of `bearing --json`, one typed object
+	// a line)
 	dec   *json.Decoder
 	entry int
+	lines bool
 	// both
 	count    int
 	stations map[string]stationSeen
@@ -81,13 +100,19 @@ type stationSeen struct {
 // Count is the number of records returned so far.
 func (br *BearingReader) Count() int { return br.count }
 
-// Unit is "row" for CSV input and "entry" for JSON.
+// Unit is "row" for CSV input, "entry" for a JSON array and "line" for
+// JSON lines.
 func (br *BearingReader) Unit() string { return br.unit }
 
 // NewBearingReader sniffs the format (JSON when the first byte that is not
 // white space is '[' or '{', else CSV) and reads the CSV header or the
 // opening of the JSON array. The formats are those of ReadBearingsCSV and
-// ReadBearingsJSON.
+// ReadBearingsJSON, and the JSON lines `nullseek bearing --json` prints
+// (an object whose first key is "type"): its "bearing" lines (one per
+// transmitter, with the same keys as the CSV columns) are read, its
+// "burst_bearing" lines (the bursts those combine) and the "bearing"
+// lines of a transmitter that got no bearing are skipped, and a line of
+// any other type is an error.
 func NewBearingReader(r io.Reader) (*BearingReader, error) {
 	bf := bufio.NewReaderSize(r, 64<<10)
 	for {
@@ -103,6 +128,12 @@ func NewBearingReader(r io.Reader) (*BearingReader, error) {
 		}
 		_ = bf.UnreadByte()
 		br := &BearingReader{stations: map[string]stationSeen{}}
+		if c == '{' && typedFirst(bf) {
+			br.unit, br.lines = "line", true
+			br.dec = json.NewDecoder(bf)
+			br.dec.UseNumber()
+			return br, nil
+		}
 		if c == '[' || c == '{' {
 			br.unit = "entry"
 			return br, br.openJSON(bf)
@@ -220,7 +251,60 @@ func (br *BearingReader) nextCSV() (BearingRecord, error) {
 	return parseRecord("row", row, get)
 }
 
+// typedFirst reports whether the JSON object at the start of bf has "type"
+// as its first key (the JSON lines of `bearing --json`), looking at most
+// 4 KiB ahead without consuming anything.
+func typedFirst(bf *bufio.Reader) bool {
+	peek, _ := bf.Peek(4096)
+	dec := json.NewDecoder(bytes.NewReader(peek))
+	if tok, err := dec.Token(); err != nil || tok != json.Delim('{') {
+		return false
+	}
+	k, err := dec.Token()
+	return err == nil && k == "type"
+}
+
+// lineType is what nextLine needs of a line to know what to do with it.
+type lineType struct {
+	Type       string          `json:"type"`
+	BearingDeg json.RawMessage `json:"bearing_deg"`
+}
+
+func (br *BearingReader) nextLine() (BearingRecord, error) {
+	for {
+		var raw json.RawMessage
+		if err := br.dec.Decode(&raw); err == io.EOF {
+			return BearingRecord{}, io.EOF
+		} else if err != nil {
+			return BearingRecord{}, &InputError{Unit: "line", Row: br.entry + 1, Err: fmt.Errorf("not a JSON object: %v", err)}
+		}
+		br.entry++
+		var lt lineType
+		if err := json.Unmarshal(raw, &lt); err != nil {
+			return BearingRecord{}, &InputError{Unit: "line", Row: br.entry, Err: fmt.Errorf("not a JSON object: %v", err)}
+		}
+		switch {
+		case lt.Type == "burst_bearing":
+			continue // the bursts the "bearing" line combines
+		case lt.Type != "bearing":
+			return BearingRecord{}, &InputError{Unit: "line", Row: br.entry, Field: "type",
+				Err: fmt.Errorf("%q: fix reads the \"bearing\" lines of bearing --json (or a CSV, or a JSON array of bearings)", lt.Type)}
+		case len(lt.BearingDeg) == 0 || string(lt.BearingDeg) == "null":
+			continue // a transmitter that got no bearing here (its "error" says why)
+		}
+		rec, err := br.decodeEntry(raw, "line", br.entry)
+		var ie *InputError
+		if errors.As(err, &ie) && (ie.Field == "lat" || ie.Field == "lon" || ie.Field == "station") && ie.Err.Error() == "missing" {
+			ie.Err = errors.New("missing: run bearing with --station LAT,LON so that its lines say where they were taken")
+		}
+		return rec, err
+	}
+}
+
 func (br *BearingReader) nextJSON() (BearingRecord, error) {
+	if br.lines {
+		return br.nextLine()
+	}
 	if !br.dec.More() {
 		if _, err := br.dec.Token(); err != nil {
 			return BearingRecord{}, fmt.Errorf("bearings JSON: %w", err)
@@ -228,10 +312,19 @@ func (br *BearingReader) nextJSON() (BearingRecord, error) {
 		return BearingRecord{}, io.EOF
 	}
 	br.entry++
-	n := br.entry
+	var raw json.RawMessage
+	if err := br.dec.Decode(&raw); err != nil {
+		return BearingRecord{}, &InputError{Unit: "entry", Row: br.entry, Err: fmt.Errorf("not a JSON object: %v", err)}
+	}
+	return br.decodeEntry(raw, "entry", br.entry)
+}
+
+// decodeEntry reads one JSON object of bearing keys (those of the CSV
+// columns, any case); unit and n name it in errors.
+func (br *BearingReader) decodeEntry(data json.RawMessage, unit string, n int) (BearingRecord, error) {
 	var it map[string]json.RawMessage
-	if err := br.dec.Decode(&it); err != nil {
-		return BearingRecord{}, &InputError{Unit: "entry", Row: n, Err: fmt.Errorf("not a JSON object: %v", err)}
+	if err := json.Unmarshal(data, &it); err != nil {
+		return BearingRecord{}, &InputError{Unit: unit, Row: n, Err: fmt.Errorf("not a JSON object: %v", err)}
 	}
 	lower := make(map[string]json.RawMessage, len(it))
 	for k, v := range it {
@@ -256,16 +349,16 @@ func (br *BearingReader) nextJSON() (BearingRecord, error) {
 			return strconv.FormatBool(b), true
 		}
 		if bad == nil {
-			bad = &InputError{Unit: "entry", Row: n, Field: name, Err: fmt.Errorf("%s is neither a number, a boolean nor a string", raw)}
+			bad = &InputError{Unit: unit, Row: n, Field: name, Err: fmt.Errorf("%s is neither a number, a boolean nor a string", raw)}
 		}
 		return string(raw), true
 	}
 	for _, name := range requiredColumns {
 		if _, ok := lower[name]; !ok {
-			return BearingRecord{}, &InputError{Unit: "entry", Row: n, Field: name, Err: errors.New("missing")}
+			return BearingRecord{}, &InputError{Unit: unit, Row: n, Field: name, Err: errors.New("missing")}
 		}
 	}
-	rec, err := parseRecord("entry", n, get)
+	rec, err := parseRecord(unit, n, get)
 	if bad != nil {
 		return BearingRecord{}, bad
 	}
@@ -293,11 +386,14 @@ func (br *BearingReader) checkStation(r BearingRecord) error {
 // ReadBearingsCSV reads bearings from CSV with a header row naming at least
 // the columns ident, station, lat, lon, bearing_deg, sigma_deg, reference
 // (in any order; names are case-insensitive); time (RFC 3339),
-// declination_deg (degrees, east positive) and ambiguous (true/false) are
-// optional, other columns are ignored. Lines starting with '#' are
-// comments. lat/lon are decimal degrees (WGS84), bearing_deg any finite
-// number of degrees (normalised to [0,360)), sigma_deg the 1-sigma in
-// degrees (0 < sigma < 90), reference "true" or "magnetic". The first bad
+// declination_deg (degrees, east positive), ambiguous (true/false),
+// alt_bearing_deg (the alternate bearing; only the reciprocal, and it
+// makes the row ambiguous) and alt_m (the station's height above the
+// WGS84 ellipsoid, -500…9000) are optional, other columns are ignored.
+// Lines starting with '#' are comments. lat/lon are decimal degrees
+// (WGS84), bearing_deg any finite number of degrees (normalised to
+// [0,360)), sigma_deg the 1-sigma in degrees (0 < sigma < 90), reference
+// "true" or "magnetic" (angle.ParseNorth, in any case). The first bad
 // value stops reading with an *InputError naming the row and field. It
 // holds every record in memory; NewBearingReader reads one at a time.
 func ReadBearingsCSV(r io.Reader) ([]BearingRecord, error) {
@@ -400,13 +496,11 @@ func parseRecord(unit string, row int, get func(string) (string, bool)) (Bearing
 		return fail("sigma_deg", "%v must be less than 90 degrees", rec.SigmaDeg)
 	}
 	ref, _ := get("reference")
-	switch strings.ToLower(ref) {
-	case "true", "t":
-	case "magnetic", "mag", "m":
-		rec.Magnetic = true
-	default:
-		return fail("reference", "%q: write true or magnetic", ref)
+	north, err := angle.ParseNorth(ref)
+	if err != nil {
+		return fail("reference", "%v", err)
 	}
+	rec.Magnetic = north == angle.MagneticNorth
 	if s, ok := get("time"); ok && s != "" {
 		t, err := time.Parse(time.RFC3339, s)
 		if err != nil {
@@ -424,6 +518,7 @@ func parseRecord(unit string, row int, get func(string) (string, bool)) (Bearing
 		}
 		rec.DeclinationDeg, rec.HasDeclination = v, true
 	}
+	ambiguousSaid := false
 	if s, ok := get("ambiguous"); ok && s != "" {
 		switch strings.ToLower(s) {
 		case "true", "yes", "1":
@@ -432,6 +527,33 @@ func parseRecord(unit string, row int, get func(string) (string, bool)) (Bearing
 		default:
 			return fail("ambiguous", "%q: write true when the bearing's reciprocal fits as well (a loop's two nulls), else false", s)
 		}
+		ambiguousSaid = true
+	}
+	if s, ok := get("alt_bearing_deg"); ok && s != "" {
+		v, err := num("alt_bearing_deg")
+		if err != nil {
+			return rec, err
+		}
+		v = angle.Wrap360(v)
+		// The fix knows one ambiguity, the reciprocal (a loop's two
+		// nulls); another alternate cannot be honoured, so it is refused.
+		if d := math.Abs(angle.Diff(rec.BearingDeg+180, v)); d > AltBearingToleranceDeg {
+			return fail("alt_bearing_deg", "%v is %.2f° from the reciprocal of bearing_deg %v: fix takes only the reciprocal as the alternate", v, d, rec.BearingDeg)
+		}
+		if ambiguousSaid && !rec.Ambiguous {
+			return fail("alt_bearing_deg", "given while ambiguous is false: an alternate bearing makes the bearing ambiguous")
+		}
+		rec.AltBearingDeg, rec.HasAltBearing, rec.Ambiguous = v, true, true
+	}
+	if s, ok := get("alt_m"); ok && s != "" {
+		v, err := num("alt_m")
+		if err != nil {
+			return rec, err
+		}
+		if !(v > -500 && v < 9000) {
+			return fail("alt_m", "%v m is outside -500…9000 (metres above the WGS84 ellipsoid)", v)
+		}
+		rec.AltM, rec.HasAltM = v, true
 	}
 	return rec, nil
 }

@@ -6,46 +6,27 @@ import (
 	"math"
 	"nullseek/internal/angle"
 	"sort"
-	"strings"
 )
 
-// Ref names the north a heading is measured from.
-type Ref int
+// Ref names the north a heading is measured from. It is angle.North, so
+// that headings and the bearings files share one word and one parser.
+type Ref = angle.North
 
 const (
 	// True: degrees clockwise from geographic (true) north. The zero value,
 	// matching the project convention that bearings are true unless a name
 	// says otherwise.
-	True Ref = iota
+	True = angle.TrueNorth
 	// Magnetic: degrees clockwise from magnetic north; convert with
 	// Track.ToTrue and the declination (east positive) at the station.
-	Magnetic
+	Magnetic = angle.MagneticNorth
 )
 
-// String returns "true" or "magnetic".
-func (r Ref) String() string {
-	switch r {
-	case True:
-		return "true"
-	case Magnetic:
-		return "magnetic"
-	}
-	return fmt.Sprintf("Ref(%d)", int(r))
-}
-
 // ParseRef reads a heading reference as people write it in flags and
-// station files: "true" or "magnetic", in any case, and nothing else (no
-// abbreviations: a typo must not pick a north). It is the one parser of
-// the word; callers add the flag or key to the error.
-func ParseRef(s string) (Ref, error) {
-	switch {
-	case strings.EqualFold(s, "true"):
-		return True, nil
-	case strings.EqualFold(s, "magnetic"):
-		return Magnetic, nil
-	}
-	return True, fmt.Errorf("%q: want true or magnetic", s)
-}
+// station files: "true" or "magnetic", in any case, and nothing else. It
+// is angle.ParseNorth, the one parser of the word; callers add the flag
+// or key to the error.
+func ParseRef(s string) (Ref, error) { return angle.ParseNorth(s) }
 
 // Sample is one heading observation.
 type Sample struct {

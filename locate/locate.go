@@ -248,7 +248,7 @@ func Run(srcs []Source, o Options) (*Result, error) {
 		}
 		if br.Count() == 0 {
 			what := "no bearing rows after the header"
-			if br.Unit() == "entry" {
+			if br.Unit() != "row" {
 				what = "no bearing entries"
 			}
 			return nil, fmt.Errorf("%s: %s: nothing to fix", src.Name, what)

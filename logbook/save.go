@@ -39,7 +39,7 @@ type Station struct {
 // nil) name, altitude and declination, with the position, antenna and
 // mount offset the command used (its flags, which the file filled unless
 // given). Without a file, a position names the station by its
-// coordinates (survey.StationLabel).
+// coordinates (survey.Site.Name).
 func StationOf(f *station.File, hasPos bool, lat, lon float64, antenna string, mountOffsetDeg float64) Station {
 	s := Station{LatDeg: lat, LonDeg: lon, HasPosition: hasPos, Antenna: antenna, MountOffsetDeg: mountOffsetDeg}
 	if strings.HasSuffix(strings.ToLower(antenna), ".json") {
@@ -51,7 +51,7 @@ func StationOf(f *station.File, hasPos bool, lat, lon float64, antenna string, m
 			s.LatDeg, s.LonDeg, s.HasPosition = f.Position.LatDeg, f.Position.LonDeg, true
 		}
 	} else if hasPos {
-		s.Name = survey.StationLabel("", lat, lon)
+		s.Name = survey.Site{Lat: lat, Lon: lon}.Name()
 	}
 	return s
 }

@@ -53,8 +53,11 @@ type BurstBearing struct {
 	Ident       string
 	Transmitter string
 	StartS      float64
-	Est         bearing.Estimate
-	Points      []bearing.Point
+	// Start is the burst's start in UTC, zero when the recording does not
+	// say when it began.
+	Start  time.Time
+	Est    bearing.Estimate
+	Points []bearing.Point
 	// Err says why no bearing was fitted (the fit refuses rather than
 	// inventing one); Est is then empty.
 	Err error
@@ -78,6 +81,71 @@ type TxBearing struct {
 	// Flags are the used bursts' flags, each once.
 	Flags []bearing.Flag
 	Err   error
+	// Time is the UTC start of the first burst used, zero when the
+	// recording does not say when it began.
+	Time time.Time
+	// Site, when set, is where the bearing was taken: its JSON line then
+	// carries what fix needs (WriteBearingsJSON sets it).
+	Site *Site
+}
+
+// Site is where a run's bearings were taken and which north they are
+// from. The bearings are true; DeclinationDeg, when set, is the
+// declination (degrees, east positive) that turned the magnetic headings
+// they were measured with into true ones.
+type Site struct {
+	// Station names the station; "" names it by its position.
+	Station string
+	// Lat, Lon (degrees, WGS84) are known when HasPosition; AltM (metres
+	// above the WGS84 ellipsoid) is nil when not known.
+	Lat, Lon    float64
+	HasPosition bool
+	AltM        *float64
+	// DeclinationDeg is nil when the headings were true.
+	DeclinationDeg *float64
+}
+
+// Name is the station's name: Station, or its position to 1e-5°.
+func (s Site) Name() string {
+	if s.Station != "" {
+		return s.Station
+	}
+	return fmt.Sprintf("%.5f %.5f", s.Lat, s.Lon)
+}
+
+// bearingTime is a bearing's time as the bearings files write it: to the
+// millisecond (rounded, as TxBearing.Record rounds it), "" when unknown.
+func bearingTime(t time.Time) string {
+	if t.IsZero() {
+		return ""
+	}
+	return t.UTC().Round(time.Millisecond).Format(geo.BearingTimeLayout)
+}
+
+// Record is the transmitter's bearing taken at site as a bearings-file
+// record (rounded as the bearings files are: geo.RoundTo, geo.RoundSigma,
+// the time to the millisecond), false when it has no bearing or the site
+// no position. The bearings CSV is written from it, and the bearing line
+// of `bearing --json` rounds the same numbers the same way, so that both
+// give fix the same bearings (TestBearingLineMatchesRecord).
+func (t TxBearing) Record(site Site) (geo.BearingRecord, bool) {
+	if t.Err != nil || !site.HasPosition || !finite(t.Combined.BearingDeg) || !finite(t.SigmaDeg) {
+		return geo.BearingRecord{}, false
+	}
+	p, a := geo.PositionDecimals, geo.AngleDecimals
+	r := geo.BearingRecord{LOP: geo.LOP{Ident: t.Ident, Station: site.Name(), Lat: geo.RoundTo(site.Lat, p), Lon: geo.RoundTo(site.Lon, p),
+		BearingDeg: geo.RoundTo(t.Combined.BearingDeg, a), SigmaDeg: geo.RoundSigma(t.SigmaDeg), Time: t.Time.Round(time.Millisecond),
+		Ambiguous: t.Combined.AltBearingDeg != nil}}
+	if site.DeclinationDeg != nil {
+		r.DeclinationDeg, r.HasDeclination = geo.RoundTo(*site.DeclinationDeg, a), true
+	}
+	if site.AltM != nil {
+		r.AltM, r.HasAltM = geo.RoundTo(*site.AltM, geo.HeightDecimals), true
+	}
+	if alt := t.Combined.AltBearingDeg; alt != nil && finite(*alt) {
+		r.AltBearingDeg, r.HasAltBearing = geo.RoundTo(*alt, a), true
+	}
+	return r, true
 }
 
 // DefaultSiteSigmaDeg is the site error assumed for a VHF bearing from a
@@ -184,7 +252,7 @@ func Bearings(res *Result, track *heading.Track, p bearing.Pattern, opts bearing
 	var bbs []BurstBearing
 	groups := map[string][]int{}
 	for _, r := range res.Records {
-		bb := BurstBearing{Index: r.Index, Ident: r.Ident, Transmitter: r.Transmitter, StartS: r.StartS}
+		bb := BurstBearing{Index: r.Index, Ident: r.Ident, Transmitter: r.Transmitter, StartS: r.StartS, Start: r.Start}
 		bf := r.Fit
 		if bf == nil {
 			switch {
@@ -250,6 +318,9 @@ func Bearings(res *Result, track *heading.Track, p bearing.Pattern, opts bearing
 		}
 		for _, u := range tb.Combined.Used {
 			tb.Bursts = append(tb.Bursts, idx[u])
+			if st := bbs[idx[u]].Start; !st.IsZero() && (tb.Time.IsZero() || st.Before(tb.Time)) {
+				tb.Time = st
+			}
 			e := bbs[idx[u]].Est
 			tb.NullDepthDB = math.Max(tb.NullDepthDB, e.NullDepthDB)
 			tb.CoverageDeg = math.Max(tb.CoverageDeg, e.CoverageDeg)
@@ -341,6 +412,17 @@ func (j *jsonNums) num(name string, v float64, digits int) *float64 {
 	return &r
 }
 
+// sigma is num for a sigma in degrees, rounded as the bearings files
+// round one (geo.RoundSigma: never to 0).
+func (j *jsonNums) sigma(name string, v float64) *float64 {
+	if !finite(v) {
+		j.nulled = append(j.nulled, name)
+		return nil
+	}
+	r := geo.RoundSigma(v)
+	return &r
+}
+
 func (j *jsonNums) opt(name string, p *float64, digits int) *float64 {
 	if p == nil {
 		return nil
@@ -374,11 +456,12 @@ type burstBearingLine struct {
 	Ident             string     `json:"ident"`
 	Transmitter       string     `json:"transmitter"`
 	StartS            *float64   `json:"start_s"`
+	Start             string     `json:"start,omitempty"`
 	BurstsUsed        int        `json:"bursts_used"`
 	Error             string     `json:"error,omitempty"`
 	BearingDeg        *float64   `json:"bearing_deg"`
 	SigmaDeg          *float64   `json:"sigma_deg"`
-	AltBearingDeg     *float64   `json:"alt_bearing_deg"`
+	AltBearingDeg     *float64   `json:"alt_bearing_deg,omitempty"`
 	NullDepthDB       *float64   `json:"null_depth_db,omitempty"`
 	CoverageDeg       *float64   `json:"coverage_deg,omitempty"`
 	Covered           string     `json:"covered,omitempty"`
@@ -399,22 +482,22 @@ type burstBearingLine struct {
 func (b BurstBearing) MarshalJSON() ([]byte, error) {
 	var j jsonNums
 	l := burstBearingLine{Type: "burst_bearing", Index: b.Index, Ident: b.Ident, Transmitter: b.Transmitter,
-		StartS: j.num("start_s", b.StartS, 3)}
+		StartS: j.num("start_s", b.StartS, 4), Start: rfc3339(b.Start)}
 	if b.Err != nil {
 		l.Error = b.Err.Error()
 	} else {
 		e := b.Est
 		l.BurstsUsed = 1
 		l.BearingDeg = j.num("bearing_deg", e.BearingDeg, 2)
-		l.SigmaDeg = j.num("sigma_deg", e.SigmaDeg, 2)
+		l.SigmaDeg = j.sigma("sigma_deg", e.SigmaDeg)
 		l.AltBearingDeg = j.opt("alt_bearing_deg", e.AltBearingDeg, 2)
 		l.NullDepthDB = j.num("null_depth_db", e.NullDepthDB, 1)
 		l.CoverageDeg = j.num("coverage_deg", e.CoverageDeg, 1)
 		l.Covered = bearing.FormatArcs(e.Arcs)
 		l.ResidualDB = j.num("residual_db", e.ResidualDB, 2)
-		l.FisherSigmaDeg = j.num("fisher_sigma_deg", e.FisherSigmaDeg, 2)
-		l.ModelSigmaDeg = j.num("model_sigma_deg", e.ModelSigmaDeg, 2)
-		l.BootstrapSigmaDeg = j.num("bootstrap_sigma_deg", e.BootstrapSigmaDeg, 2)
+		l.FisherSigmaDeg = j.sigma("fisher_sigma_deg", e.FisherSigmaDeg)
+		l.ModelSigmaDeg = j.sigma("model_sigma_deg", e.ModelSigmaDeg)
+		l.BootstrapSigmaDeg = j.sigma("bootstrap_sigma_deg", e.BootstrapSigmaDeg)
 		l.FadingDB = j.num("fading_db", e.FadingDB, 2)
 		l.Points = e.Points
 		u := e.Usage
@@ -439,40 +522,62 @@ type excludedJSON struct {
 	Reason     string   `json:"reason"`
 }
 
-// txBearingLine is a `"type":"bearing"` line.
+// txBearingLine is a `"type":"bearing"` line. The keys fix reads are
+// those of the bearings CSV's columns (geo.BearingsCSVHeader).
 type txBearingLine struct {
-	Type          string         `json:"type"`
-	Ident         string         `json:"ident"`
-	Transmitter   string         `json:"transmitter"`
-	Error         string         `json:"error,omitempty"`
-	BearingDeg    *float64       `json:"bearing_deg"`
-	SigmaDeg      *float64       `json:"sigma_deg"`
-	FitSigmaDeg   *float64       `json:"fit_sigma_deg,omitempty"`
-	SiteSigmaDeg  *float64       `json:"site_sigma_deg,omitempty"`
-	AltBearingDeg *float64       `json:"alt_bearing_deg"`
-	NullDepthDB   *float64       `json:"null_depth_db,omitempty"`
-	CoverageDeg   *float64       `json:"coverage_deg,omitempty"`
-	BurstsUsed    int            `json:"bursts_used"`
-	PValue        *float64       `json:"p_value,omitempty"`
-	Excluded      []excludedJSON `json:"excluded,omitempty"`
-	Flags         []string       `json:"flags,omitempty"`
-	Warnings      []string       `json:"warnings,omitempty"`
+	Type           string         `json:"type"`
+	Ident          string         `json:"ident"`
+	Transmitter    string         `json:"transmitter"`
+	Station        string         `json:"station,omitempty"`
+	Lat            *float64       `json:"lat,omitempty"`
+	Lon            *float64       `json:"lon,omitempty"`
+	AltM           *float64       `json:"alt_m,omitempty"`
+	Reference      string         `json:"reference"`
+	DeclinationDeg *float64       `json:"declination_deg,omitempty"`
+	Time           string         `json:"time,omitempty"`
+	Ambiguous      bool           `json:"ambiguous"`
+	Error          string         `json:"error,omitempty"`
+	BearingDeg     *float64       `json:"bearing_deg"`
+	SigmaDeg       *float64       `json:"sigma_deg"`
+	FitSigmaDeg    *float64       `json:"fit_sigma_deg,omitempty"`
+	SiteSigmaDeg   *float64       `json:"site_sigma_deg,omitempty"`
+	AltBearingDeg  *float64       `json:"alt_bearing_deg,omitempty"`
+	NullDepthDB    *float64       `json:"null_depth_db,omitempty"`
+	CoverageDeg    *float64       `json:"coverage_deg,omitempty"`
+	BurstsUsed     int            `json:"bursts_used"`
+	PValue         *float64       `json:"p_value,omitempty"`
+	Excluded       []excludedJSON `json:"excluded,omitempty"`
+	Flags          []string       `json:"flags,omitempty"`
+	Warnings       []string       `json:"warnings,omitempty"`
 }
 
 // MarshalJSON writes a `"type":"bearing"` line. A value that is not finite
-// is written as null and named in a warning.
+// is written as null and named in a warning. With a Site the line carries
+// the station, its position, the declination used and the time as the
+// bearings CSV does (TxBearing.Record), so that fix reads it.
 func (t TxBearing) MarshalJSON() ([]byte, error) {
 	var j jsonNums
-	l := txBearingLine{Type: "bearing", Ident: t.Ident, Transmitter: t.Transmitter}
+	l := txBearingLine{Type: "bearing", Ident: t.Ident, Transmitter: t.Transmitter, Reference: heading.True.String(),
+		Time: bearingTime(t.Time)}
+	if s := t.Site; s != nil {
+		if s.HasPosition {
+			a := geo.RoundTo(s.Lat, geo.PositionDecimals)
+			o := geo.RoundTo(s.Lon, geo.PositionDecimals)
+			l.Station, l.Lat, l.Lon = s.Name(), &a, &o
+			l.AltM = j.opt("alt_m", s.AltM, geo.HeightDecimals)
+		}
+		l.DeclinationDeg = j.opt("declination_deg", s.DeclinationDeg, geo.AngleDecimals)
+	}
 	if t.Err != nil {
 		l.Error = t.Err.Error()
 	} else {
 		c := t.Combined
 		l.BearingDeg = j.num("bearing_deg", c.BearingDeg, 2)
-		l.SigmaDeg = j.num("sigma_deg", t.SigmaDeg, 2)
-		l.FitSigmaDeg = j.num("fit_sigma_deg", c.SigmaDeg, 2)
-		l.SiteSigmaDeg = j.num("site_sigma_deg", t.SiteSigmaDeg, 2)
+		l.SigmaDeg = j.sigma("sigma_deg", t.SigmaDeg)
+		l.FitSigmaDeg = j.sigma("fit_sigma_deg", c.SigmaDeg)
+		l.SiteSigmaDeg = j.sigma("site_sigma_deg", t.SiteSigmaDeg)
 		l.AltBearingDeg = j.opt("alt_bearing_deg", c.AltBearingDeg, 2)
+		l.Ambiguous = c.AltBearingDeg != nil
 		l.NullDepthDB = j.num("null_depth_db", t.NullDepthDB, 1)
 		l.CoverageDeg = j.num("coverage_deg", t.CoverageDeg, 1)
 		l.BurstsUsed = c.BurstsUsed
@@ -687,8 +792,10 @@ func (o BearingOptions) MountOffset(p bearing.Pattern) (float64, error) {
 }
 
 // WriteBearingsJSON writes one JSON line per burst, then one per
-// transmitter (BurstBearing.MarshalJSON, TxBearing.MarshalJSON).
-func WriteBearingsJSON(w io.Writer, bbs []BurstBearing, txs []TxBearing) error {
+// transmitter (BurstBearing.MarshalJSON, TxBearing.MarshalJSON) taken at
+// site: the lines `bearing --json` prints, whose "bearing" lines fix
+// reads. It is the one writer of that format.
+func WriteBearingsJSON(w io.Writer, bbs []BurstBearing, txs []TxBearing, site Site) error {
 	enc := json.NewEncoder(w)
 	for _, b := range bbs {
 		if err := enc.Encode(b); err != nil {
@@ -696,6 +803,7 @@ func WriteBearingsJSON(w io.Writer, bbs []BurstBearing, txs []TxBearing) error {
 		}
 	}
 	for _, t := range txs {
+		t.Site = &site
 		if err := enc.Encode(t); err != nil {
 			return err
 		}
@@ -727,27 +835,26 @@ func NoBearing(path string, bbs []BurstBearing, txs []TxBearing) error {
 	return fmt.Errorf("%s: no bearing from any of its %d bursts: %s", path, len(bbs), strings.Join(reasons, "; "))
 }
 
-// StationLabel is how a station is named in bearings files, tables and
-// the store: its name, or its coordinates when it has none.
-func StationLabel(name string, lat, lon float64) string {
-	if name != "" {
-		return name
-	}
-	return fmt.Sprintf("%.5f %.5f", lat, lon)
-}
-
-// StageLOPs stages in set the transmitters' bearings taken at the
-// station name ("": named by its coordinates) at lat, lon (degrees) as the bearings CSV at path that `fix` reads
-// (geo.WriteBearingsCSV); transmitters without a bearing are left out.
-func StageLOPs(set *atomicfile.Set, path, name string, lat, lon float64, start time.Time, txs []TxBearing) error {
-	st := StationLabel(name, lat, lon)
+// Records are the transmitters' bearings taken at site as bearings-file
+// records (TxBearing.Record); transmitters without a bearing are left out.
+func Records(site Site, txs []TxBearing) []geo.BearingRecord {
 	var recs []geo.BearingRecord
 	for _, t := range txs {
-		if t.Err != nil {
-			continue
+		if r, ok := t.Record(site); ok {
+			recs = append(recs, r)
 		}
-		recs = append(recs, geo.BearingRecord{LOP: geo.LOP{Ident: t.Ident, Station: st, Lat: lat, Lon: lon,
-			BearingDeg: t.Combined.BearingDeg, SigmaDeg: t.SigmaDeg, Time: start, Ambiguous: t.Combined.AltBearingDeg != nil}})
 	}
+	return recs
+}
+
+// StageLOPs stages in set the transmitters' bearings taken at site (which
+// must have a position) as the bearings CSV at path that `fix` reads
+// (Records, geo.WriteBearingsCSV); transmitters without a bearing are left
+// out.
+func StageLOPs(set *atomicfile.Set, path string, site Site, txs []TxBearing) error {
+	if !site.HasPosition {
+		return fmt.Errorf("the bearings CSV needs the station's position: --station LAT,LON")
+	}
+	recs := Records(site, txs)
 	return set.WriteFunc(path, func(w io.Writer) error { return geo.WriteBearingsCSV(w, recs) })
 }

@@ -8,6 +8,7 @@ import (
 	"strings"
 	"time"
 
+	"nullseek/geo"
 	"nullseek/ident/fingerprint"
 	"nullseek/receiver"
 )
@@ -45,10 +46,9 @@ type burstLine struct {
 	Warnings        []string `json:"warnings,omitempty"`
 }
 
-func round(v float64, digits int) float64 {
-	p := math.Pow(10, float64(digits))
-	return math.Round(v*p) / p
-}
+// round rounds v to digits decimals as the CSV writes them
+// (geo.RoundTo), so that a JSON number and a CSV cell agree.
+func round(v float64, digits int) float64 { return geo.RoundTo(v, digits) }
 
 func rfc3339(t time.Time) string {
 	if t.IsZero() {

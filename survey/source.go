@@ -185,6 +185,11 @@ type HeadingSource struct {
 	// (--station).
 	StationLat, StationLon float64
 	HasStation             bool
+	// StationName names the station in the bearing lines and the bearings
+	// CSV ("" : named by its position); StationAltM is its height above
+	// the WGS84 ellipsoid, nil when not known.
+	StationName string
+	StationAltM *float64
 	// EstimateLag estimates the heading/level lag from sweeps that turn
 	// both ways and removes it (--estimate-lag).
 	EstimateLag bool
@@ -193,6 +198,20 @@ type HeadingSource struct {
 	// Logger receives the summary of skipped NMEA lines; slog.Default
 	// when nil.
 	Logger *slog.Logger
+
+	// declUsed is the declination Track applied to magnetic headings.
+	declUsed *float64
+}
+
+// Site is where the bearings were taken and the declination that turned
+// magnetic headings into true ones (set once Track or Survey has run): what
+// the bearing lines and the bearings CSV carry besides the bearings.
+func (h *HeadingSource) Site() Site {
+	st := Site{Station: h.StationName, DeclinationDeg: h.declUsed}
+	if h.HasStation {
+		st.Lat, st.Lon, st.HasPosition, st.AltM = h.StationLat, h.StationLon, true, h.StationAltM
+	}
+	return st
 }
 
 // Validate checks every option that can be checked before a recording is
@@ -295,6 +314,7 @@ func (h *HeadingSource) Track(info sdr.Info, notes func(string)) (*heading.Track
 			return nil, err
 		}
 		tr = tr.ToTrue(decl)
+		h.declUsed = &decl
 	}
 	return tr.WithOffset(mount).WithLag(h.Bearing.LagS), nil
 }

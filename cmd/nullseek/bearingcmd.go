@@ -91,6 +91,9 @@ func runBearing(cmd *cobra.Command, rec recording, o *bearingOptions) error {
 	}
 	mount, _ := hs.Bearing.MountOffset(pat) // checked by hs.Pattern
 	ref := survey.ReferenceNote(pat, tr.Ref, mount)
+	if f := o.sf.File; f != nil {
+		hs.StationName, hs.StationAltM = f.Name, f.Position.AltM
+	}
 	var outs atomicfile.Set
 	defer outs.Abort()
 	if o.plot != "" {
@@ -99,13 +102,13 @@ func runBearing(cmd *cobra.Command, rec recording, o *bearingOptions) error {
 		}
 	}
 	if o.lopCSV != "" {
-		if err := survey.StageLOPs(&outs, o.lopCSV, o.sf.Name(), hs.StationLat, hs.StationLon, res.Info.Start, txs); err != nil {
+		if err := survey.StageLOPs(&outs, o.lopCSV, hs.Site(), txs); err != nil {
 			return err
 		}
 	}
 	var text bytes.Buffer
 	if o.asJSON {
-		err = survey.WriteBearingsJSON(&text, bbs, txs)
+		err = survey.WriteBearingsJSON(&text, bbs, txs, hs.Site())
 	} else {
 		err = survey.WriteBearingTable(&text, bbs, txs, ref)
 	}

@@ -28,24 +28,11 @@ var (
 	}{{"ridge-a", 52.24, 5.86, "11"}, {"ridge-b", 52.18, 5.83, "12"}}
 )
 
-// geodInverse runs GeodSolve -i (GeographicLib) from 1 to 2 and returns
-// the forward azimuth at 1 (degrees true) and the distance in metres.
-func geodInverse(t *testing.T, lat1, lon1, lat2, lon2 float64) (azi, distM float64) {
+// geodInverse1 is geodInverse (GeodSolve -i) for one pair of points.
+func geodInverse1(t *testing.T, lat1, lon1, lat2, lon2 float64) (azi, distM float64) {
 	t.Helper()
-	bin := testtool.Need(t, "GeodSolve")
-	cmd := exec.Command(bin, "-i")
-	cmd.Stdin = strings.NewReader(fmt.Sprintf("%.9f %.9f %.9f %.9f\n", lat1, lon1, lat2, lon2))
-	out, err := cmd.Output()
-	if err != nil {
-		t.Fatalf("GeodSolve -i: %v", err)
-	}
-	f := strings.Fields(string(out))
-	if len(f) != 3 {
-		t.Fatalf("GeodSolve -i: %q", out)
-	}
-	azi, _ = strconv.ParseFloat(f[0], 64)
-	distM, _ = strconv.ParseFloat(f[2], 64)
-	return angle.Wrap360(azi), distM
+	a, d := geodInverse(t, [][4]float64{{lat1, lon1, lat2, lon2}})
+	return a[0], d[0]
 }
 
 // sqliteCount is `SELECT count(*) FROM table` through the sqlite3 CLI.
@@ -132,7 +119,7 @@ func dbLines(t *testing.T, out string) []map[string]any {
 func TestCLIDatabaseRoundTrip(t *testing.T) {
 	dir := t.TempDir()
 	for _, st := range dbStations {
-		azi, _ := geodInverse(t, st.lat, st.lon, dbTx[0], dbTx[1])
+		azi, _ := geodInverse1(t, st.lat, st.lon, dbTx[0], dbTx[1])
 		makeRotating(t, filepath.Join(dir, st.name), "--rate", "96000", "--seconds", "62", "--bursts", "10:9", "--first-on", "1",
 			"--keyed", "18", "--pattern", "yagi", "--sweep", "backforth", "--arc", "120", "--turn-rate", "12",
 			"--start-heading", strconv.FormatFloat(angle.Wrap360(azi-60), 'f', 3, 64), "--bearing", strconv.FormatFloat(azi, 'f', 3, 64),
@@ -210,7 +197,7 @@ log = "%s/rotating_loop_heading.csv"
 		var want float64
 		for _, st := range dbStations {
 			if st.name == name {
-				want, _ = geodInverse(t, st.lat, st.lon, dbTx[0], dbTx[1])
+				want, _ = geodInverse1(t, st.lat, st.lon, dbTx[0], dbTx[1])
 			}
 		}
 		got, _ := l["bearing_true_deg"].(float64)
@@ -240,7 +227,7 @@ log = "%s/rotating_loop_heading.csv"
 		}
 		lat, _ := l["lat"].(float64)
 		lon, _ := l["lon"].(float64)
-		_, d := geodInverse(t, lat, lon, dbTx[0], dbTx[1])
+		_, d := geodInverse1(t, lat, lon, dbTx[0], dbTx[1])
 		if d > 300 {
 			t.Errorf("fix from the database %.5f, %.5f is %.0f m from the beacon", lat, lon, d)
 		}

@@ -1,6 +1,7 @@
 package main
 
 import (
+	"fmt"
 	"io"
 
 	"github.com/spf13/cobra"
@@ -29,7 +30,7 @@ comparing every result with the scene's truth. Files go to --out.`,
 		RunE: func(cmd *cobra.Command, _ []string) error { return runDemo(cmd, &o) },
 	}
 	cmd.Flags().StringVar(&o.outDir, "out", demo.DefaultOutDir, "directory for the demo's files (bearings CSV, map, GeoJSON, polar plots, heading logs)")
-	cmd.Flags().BoolVar(&o.writeIQ, "write-iq", false, "also write each station's recording as a SigMF pair (about 35 MB each)")
+	cmd.Flags().BoolVar(&o.writeIQ, "write-iq", false, fmt.Sprintf("also write each station's recording as a SigMF pair, cu8 at %d S/s (a rate rtl_tcp accepts; about 86 MB each)", demo.IQRateHz))
 	cmd.Flags().StringVar(&o.db, "db", "", "also store every station's bursts, levels, headings and bearings, the schedule and the fixes in this SQLite database")
 	return cmd
 }
