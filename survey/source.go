@@ -96,37 +96,23 @@ func (in *Input) Run(ctx context.Context, plan *BearingPlan) (*Result, error) {
 }
 
 // InputFlags describe a recording and its channel as the command line
-// gives them: the raw-file flags --rate, --format, --center and --start
-// (needed for a raw file; a SigMF or WAV file carries its own), the
-// channel as --freq or --offset (units.ParseHz), and the receiver's
-// numeric flags in Receiver (defaults: receiver.DefaultConfig).
+// gives them: the raw-file flags (sdr.RawFlags; needed for a raw file, a
+// SigMF or WAV file carries its own), the channel as --freq or --offset
+// (units.ParseHz), and the receiver's numeric flags in Receiver
+// (defaults: receiver.DefaultConfig).
 type InputFlags struct {
-	Rate, Format, Center, Start, Freq, Offset string
-	Receiver                                  receiver.Config
+	sdr.RawFlags
+	Freq, Offset string
+	Receiver     receiver.Config
 	// ChannelRateGiven and MergeGapGiven say --channel-rate and
 	// --merge-gap were given (else 0 refused, and the keying mode's own
 	// merge gap).
 	ChannelRateGiven, MergeGapGiven bool
 }
 
-// Raw is the description of a raw recording the flags give.
-func (f *InputFlags) Raw() (p sdr.RawParams, err error) {
-	if p.SampleRate, err = units.HzFlag("rate", f.Rate); err != nil {
-		return p, err
-	}
-	if p.CenterHz, err = units.HzFlag("center", f.Center); err != nil {
-		return p, err
-	}
-	p.Format = f.Format
-	if f.Start != "" {
-		t, err := time.Parse(time.RFC3339Nano, f.Start)
-		if err != nil {
-			return p, fmt.Errorf("--start %q is not an RFC 3339 time (example 2026-05-01T10:00:00Z)", f.Start)
-		}
-		p.Start = t.UTC()
-	}
-	return p, nil
-}
+// Raw is the description of a raw recording the flags give
+// (sdr.RawFlags.Params).
+func (f *InputFlags) Raw() (sdr.RawParams, error) { return f.RawFlags.Params() }
 
 // Config is the checked receiver configuration; haveChannel is false when
 // neither --freq nor --offset was given.
