@@ -171,8 +171,8 @@ type HeadingSource struct {
 	// (--station).
 	StationLat, StationLon float64
 	HasStation             bool
-	// EstimateLag estimates the heading/level lag from sweeps that turn
-	// both ways and removes it (--estimate-lag).
+	// EstimateLag estimates how late the heading log is from sweeps that
+	// turn both ways and applies it (--estimate-lag).
 	EstimateLag bool
 	// Bearing holds the antenna, fit, site error, mount offset and lag.
 	Bearing BearingOptions
@@ -316,7 +316,7 @@ func (h *HeadingSource) DeclinationAt(t time.Time, notes func(string)) (float64,
 
 // Survey surveys the recording in and joins it with the heading source:
 // it returns the survey, the track on the recording's clock (with the lag
-// estimated and removed when EstimateLag asks for it) and the pattern.
+// estimated and applied when EstimateLag asks for it) and the pattern.
 // The heading source is read before the long scan, so that a bad log
 // costs no time. With fitDuringScan (and no lag to estimate first) the
 // bearings are fitted while the scan goes on (Options.Bearing), so that a
@@ -360,9 +360,9 @@ func (h *HeadingSource) Survey(ctx context.Context, in *Input, fitDuringScan boo
 		if err != nil {
 			return nil, nil, pat, err
 		}
-		// lag is what is left on top of --lag; take it off.
-		notes(fmt.Sprintf("level lags heading by %.3f ± %.3f s: removed (give --lag %.3f in later fits)", lag, sig, tr.LagS-lag))
-		tr = tr.WithLag(tr.LagS - lag)
+		// lag is what is left on top of --lag; add it.
+		notes(fmt.Sprintf("heading log late by %+.3f ± %.3f s (negative: early): applied (give --lag %.3f in later fits)", lag, sig, tr.LagS+lag))
+		tr = tr.WithLag(tr.LagS + lag)
 	}
 	return res, tr, pat, nil
 }
