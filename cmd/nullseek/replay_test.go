@@ -9,31 +9,12 @@ import (
 	"path/filepath"
 	"regexp"
 	"strings"
-	"sync"
 	"testing"
 	"time"
 
 	"nullseek/internal/testtool"
 	"nullseek/sdr"
 )
-
-// syncBuf is a writer safe for the command and the test at once.
-type syncBuf struct {
-	mu sync.Mutex
-	b  bytes.Buffer
-}
-
-func (s *syncBuf) Write(p []byte) (int, error) {
-	s.mu.Lock()
-	defer s.mu.Unlock()
-	return s.b.Write(p)
-}
-
-func (s *syncBuf) String() string {
-	s.mu.Lock()
-	defer s.mu.Unlock()
-	return s.b.String()
-}
 
 // runReplayCmd runs the replay command in-process with args.
 func runReplayCmd(ctx context.Context, errOut io.Writer, args ...string) error {
@@ -57,7 +38,7 @@ func TestReplayCommandRoundTrip(t *testing.T) {
 		t.Fatalf("sox: %v\n%s", err, out)
 	}
 	want, _ := os.ReadFile(p)
-	var errOut syncBuf
+	var errOut testtool.SyncBuffer
 	done := make(chan error, 1)
 	go func() {
 		done <- runReplayCmd(context.Background(), &errOut, p, "--rate", "250k", "--format", "cu8", "--center", "433.92M", "--speed", "0", "--listen", "127.0.0.1:0")
