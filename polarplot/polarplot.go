@@ -23,6 +23,7 @@ import (
 	"gonum.org/v1/plot/vg/draw"
 
 	"nullseek/bearing"
+	"nullseek/internal/angle"
 )
 
 // Options tunes Plot. The zero value gives the defaults.
@@ -340,10 +341,10 @@ func Plot(pts []bearing.Point, est bearing.Estimate, p bearing.Pattern, label st
 func ringLabelBearing(fitLv []float64, mp plotter.XYs, ringR []float64, rad func(float64) float64, est bearing.Estimate) float64 {
 	best, bestScore := 15.0, math.Inf(-1)
 	for a := 15.0; a < 360; a += 30 {
-		if math.Abs(math.Remainder(a-est.BearingDeg, 360)) < 20 {
+		if math.Abs(angle.Diff(est.BearingDeg, a)) < 20 {
 			continue
 		}
-		if est.AltBearingDeg != nil && math.Abs(math.Remainder(a-*est.AltBearingDeg, 360)) < 20 {
+		if est.AltBearingDeg != nil && math.Abs(angle.Diff(*est.AltBearingDeg, a)) < 20 {
 			continue
 		}
 		score := math.Inf(1)
@@ -361,7 +362,7 @@ func ringLabelBearing(fitLv []float64, mp plotter.XYs, ringR []float64, rad func
 		var near int
 		for _, q := range mp {
 			ang := math.Atan2(q.X, q.Y) * 180 / math.Pi
-			if math.Abs(math.Remainder(ang-a, 360)) < 4 {
+			if math.Abs(angle.Diff(a, ang)) < 4 {
 				for _, r := range ringR {
 					if math.Abs(math.Hypot(q.X, q.Y)-r) < 0.05 {
 						near++

@@ -3,7 +3,6 @@ package survey
 import (
 	"fmt"
 	"math"
-	"os/exec"
 	"path/filepath"
 	"strconv"
 	"strings"
@@ -77,13 +76,8 @@ func TestKnownBearing(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		cmd := exec.Command(bin, "-i", "-p", "9")
-		cmd.Stdin = strings.NewReader(fmt.Sprintf("%v %v %v %v\n", st[0], st[1], tx[0], tx[1]))
-		out, err := cmd.Output()
-		if err != nil {
-			t.Fatalf("GeodSolve: %v", err)
-		}
-		az, err := strconv.ParseFloat(strings.Fields(string(out))[0], 64)
+		out := testtool.Run(t, fmt.Sprintf("%v %v %v %v\n", st[0], st[1], tx[0], tx[1]), bin, "-i", "-p", "9")
+		az, err := strconv.ParseFloat(strings.Fields(out)[0], 64)
 		if err != nil {
 			t.Fatal(err)
 		}
