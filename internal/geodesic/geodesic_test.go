@@ -8,7 +8,6 @@ import (
 	"nullseek/internal/angle"
 	"nullseek/internal/testtool"
 	"os"
-	"os/exec"
 	"path/filepath"
 	"strconv"
 	"strings"
@@ -72,7 +71,7 @@ func TestInverseGeodSolve(t *testing.T) {
 	if len(rows) < 500 {
 		t.Fatalf("only %d reference rows", len(rows))
 	}
-	if _, err := exec.LookPath("GeodSolve"); err == nil {
+	if testtool.Have(t, "GeodSolve") {
 		in := make([]string, len(fields))
 		for i, f := range fields {
 			in[i] = strings.Join(f[:4], " ")
@@ -124,7 +123,7 @@ func TestDirectGeodSolve(t *testing.T) {
 	if len(rows) < 300 {
 		t.Fatalf("only %d reference rows", len(rows))
 	}
-	if _, err := exec.LookPath("GeodSolve"); err == nil {
+	if testtool.Have(t, "GeodSolve") {
 		in := make([]string, len(fields))
 		for i, f := range fields {
 			in[i] = strings.Join(f[:4], " ")
