@@ -9,6 +9,7 @@ import (
 	"io"
 	"math"
 	"nullseek/internal/angle"
+	"nullseek/internal/units"
 	"sort"
 	"strconv"
 	"strings"
@@ -400,13 +401,11 @@ func parseRecord(unit string, row int, get func(string) (string, bool)) (Bearing
 		return fail("sigma_deg", "%v must be less than 90 degrees", rec.SigmaDeg)
 	}
 	ref, _ := get("reference")
-	switch strings.ToLower(ref) {
-	case "true", "t":
-	case "magnetic", "mag", "m":
-		rec.Magnetic = true
-	default:
+	mag, err := units.ParseNorth(ref)
+	if err != nil {
 		return fail("reference", "%q: write true or magnetic", ref)
 	}
+	rec.Magnetic = mag
 	if s, ok := get("time"); ok && s != "" {
 		t, err := time.Parse(time.RFC3339, s)
 		if err != nil {

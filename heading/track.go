@@ -5,8 +5,8 @@ import (
 	"fmt"
 	"math"
 	"nullseek/internal/angle"
+	"nullseek/internal/units"
 	"sort"
-	"strings"
 )
 
 // Ref names the north a heading is measured from.
@@ -35,16 +35,14 @@ func (r Ref) String() string {
 
 // ParseRef reads a heading reference as people write it in flags and
 // station files: "true" or "magnetic", in any case, and nothing else (no
-// abbreviations: a typo must not pick a north). It is the one parser of
-// the word; callers add the flag or key to the error.
+// abbreviations: a typo must not pick a north): units.ParseNorth, the one
+// parser of the word. Callers add the flag or key to the error.
 func ParseRef(s string) (Ref, error) {
-	switch {
-	case strings.EqualFold(s, "true"):
-		return True, nil
-	case strings.EqualFold(s, "magnetic"):
-		return Magnetic, nil
+	mag, err := units.ParseNorth(s)
+	if mag {
+		return Magnetic, err
 	}
-	return True, fmt.Errorf("%q: want true or magnetic", s)
+	return True, err
 }
 
 // Sample is one heading observation.

@@ -258,3 +258,19 @@ var decimalPattern = regexp.MustCompile(`^(?:[0-9]+\.?[0-9]*|\.[0-9]+)$`)
 // validNumber accepts plain unsigned decimals only (strconv would take
 // "inf", "1e5", "0x10").
 func validNumber(f string) bool { return decimalPattern.MatchString(f) }
+
+// ParseNorth reads the word naming the north a direction is measured
+// from, as people write it in flags, station files and the bearings CSV:
+// "true" or "magnetic", in any case, and nothing else (no abbreviations:
+// a typo must not pick a north). It is the one parser of the word
+// (heading.ParseRef and geo's bearings reader use it); callers add the
+// flag, key or column to the error.
+func ParseNorth(s string) (magnetic bool, err error) {
+	switch {
+	case strings.EqualFold(s, "true"):
+		return false, nil
+	case strings.EqualFold(s, "magnetic"):
+		return true, nil
+	}
+	return false, fmt.Errorf("%q: want true or magnetic", s)
+}

@@ -163,3 +163,21 @@ func TestHzFlag(t *testing.T) {
 		t.Errorf("HzFlag(offset, NaN): %v, want an error naming --offset", err)
 	}
 }
+
+// TestParseNorth: "true" and "magnetic" in any case, nothing else — no
+// abbreviation, no word that merely starts like one.
+func TestParseNorth(t *testing.T) {
+	for _, c := range []struct {
+		s        string
+		magnetic bool
+	}{{"true", false}, {"TRUE", false}, {"magnetic", true}, {"Magnetic", true}} {
+		if mag, err := ParseNorth(c.s); err != nil || mag != c.magnetic {
+			t.Errorf("ParseNorth(%q) = %v, %v; want %v", c.s, mag, err, c.magnetic)
+		}
+	}
+	for _, s := range []string{"", "t", "m", "mag", "magnet", "north", " true", "grid"} {
+		if _, err := ParseNorth(s); err == nil || !strings.Contains(err.Error(), "want true or magnetic") {
+			t.Errorf("ParseNorth(%q): %v, want a refusal", s, err)
+		}
+	}
+}
