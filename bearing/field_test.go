@@ -61,6 +61,14 @@ type fieldTrial struct {
 // heading log through heading.ReadLog and Track.At, as survey.Points does.
 func makeLevels(t testing.TB, cond string, trials int, seed int) (fieldTruth, []fieldTrial) {
 	t.Helper()
+	tr, join := makeLevelsLog(t, cond, trials, seed)
+	return tr, join(0)
+}
+
+// makeLevelsLog is makeLevels that returns the join itself: join(lagS)
+// reads the heading log as lagS seconds late (heading.Track.WithLag).
+func makeLevelsLog(t testing.TB, cond string, trials int, seed int) (fieldTruth, func(lagS float64) []fieldTrial) {
+	t.Helper()
 	py := testtool.GNURadio(t)
 	dir := t.TempDir()
 	script := filepath.Join("..", "testdata", "bearing", "make_levels.py")
@@ -105,6 +113,12 @@ func makeLevels(t testing.TB, cond string, trials int, seed int) (fieldTruth, []
 		"yagi": mustPattern(Yagi(tr.Settings.Beamwidth, tr.Settings.FrontBack)),
 		"body": mustPattern(BodyShield(tr.Settings.BodyDepth)),
 	}
+	return tr, func(lagS float64) []fieldTrial { return joinLevels(tr, vals, track.WithLag(lagS), pats) }
+}
+
+// joinLevels joins the readings vals (make_levels.py's levels.f32) with
+// the heading track, trial by trial.
+func joinLevels(tr fieldTruth, vals []float32, track *heading.Track, pats map[string]Pattern) []fieldTrial {
 	var out []fieldTrial
 	for _, x := range tr.Trials {
 		ft := fieldTrial{pattern: pats[x.Pattern], kind: x.Pattern, truth: x.BearingDeg}
@@ -119,7 +133,7 @@ func makeLevels(t testing.TB, cond string, trials int, seed int) (fieldTruth, []
 		}
 		out = append(out, ft)
 	}
-	return tr, out
+	return out
 }
 
 // fieldStats summarises a condition's trials: answered, of those flagged,
@@ -353,9 +367,11 @@ func TestFieldConditions(t *testing.T) {
 // TestFieldMagneticAndLate: heading logs that are magnetic, or late, from
 // the same GNU Radio generator. A magnetic log converted with its
 // declination (heading.Track.ToTrue) gives the true bearing; a log 0.4 s
-// late on a back-and-forth sweep is found by EstimateLag (the sign is
-// bearing's: the headings late means the levels early, lag −0.4 s) and,
-// removed, gives the bearing.
+// late on a back-and-forth sweep is found by EstimateLag as +0.4 s (the
+// module's convention, package heading: positive when the log is late)
+// and, applied to the track the readings are joined with
+// (heading.Track.WithLag, as survey does), gives the bearing: the
+// estimator and the applier agree.
 func TestFieldMagneticAndLate(t *testing.T) {
 	tr, trials := makeLevels(t, "magnetic", 9, 2)
 	st := summarise(trials, fieldFit)
@@ -380,7 +396,8 @@ func TestFieldMagneticAndLate(t *testing.T) {
 		}
 	}
 
-	tr, trials = makeLevels(t, "backforth-late", 6, 3)
+	tr, join := makeLevelsLog(t, "backforth-late", 6, 3)
+	trials = join(0)
 	floor := 0.0
 	for i, ft := range trials {
 		lag, sig, err := EstimateLag(ft.pts, ft.pattern, LagOptions{Fit: FitOptions{NoiseFloorDB: &floor}})
@@ -388,8 +405,8 @@ func TestFieldMagneticAndLate(t *testing.T) {
 			t.Errorf("trial %d (%s): %v", i, ft.kind, err)
 			continue
 		}
-		want := -tr.Settings.Lag
-		est, err := fieldFit(fieldTrial{pattern: ft.pattern, truth: ft.truth, pts: ShiftLag(ft.pts, lag)})
+		want := tr.Settings.Lag // make_levels.py: the log is late by "lag" s
+		est, err := fieldFit(join(lag)[i])
 		if err != nil {
 			t.Errorf("trial %d after removing the lag: %v", i, err)
 			continue

@@ -4,14 +4,18 @@ import (
 	"errors"
 	"math"
 	"math/rand/v2"
+	"nullseek/heading"
 	"nullseek/internal/angle"
 	"path/filepath"
+	"sort"
 	"testing"
 )
 
 // backAndForth simulates a clockwise turn from 0° to 360° and back at
 // rateDegS, readings every dt seconds; each level belongs to the heading at
-// T − lagS (levels late by lagS), the stamped heading is the one at T.
+// T − lagS (levels late by lagS), the stamped heading is the one at T: a
+// heading log early by lagS, i.e. late by −lagS in the module's convention
+// (package heading).
 func backAndForth(seed uint64, p Pattern, truth, snrDB, rateDegS, lagS float64) []Point {
 	rng := rand.New(rand.NewPCG(seed, 9))
 	period := 2 * 360 / rateDegS
@@ -37,6 +41,33 @@ func backAndForth(seed uint64, p Pattern, truth, snrDB, rateDegS, lagS float64) 
 	return pts
 }
 
+// relogged joins points again with their own headings taken as a heading
+// log lagS seconds late (heading.Track.WithLag and At: the one place the
+// lag is applied); a point the lagged log does not cover is left out.
+func relogged(t testing.TB, points []Point, lagS float64) []Point {
+	t.Helper()
+	pts := append([]Point(nil), points...)
+	sort.SliceStable(pts, func(i, j int) bool { return pts[i].T < pts[j].T })
+	tr := &heading.Track{MaxGapS: -1}
+	for _, p := range pts {
+		if n := len(tr.Samples); n == 0 || p.T > tr.Samples[n-1].T {
+			tr.Samples = append(tr.Samples, heading.Sample{T: p.T, Deg: angle.Wrap360(p.HeadingDeg)})
+		}
+	}
+	if err := tr.Validate(); err != nil {
+		t.Fatal(err)
+	}
+	tr = tr.WithLag(lagS)
+	out := pts[:0]
+	for _, p := range pts {
+		if h, ok := tr.At(p.T); ok {
+			p.HeadingDeg = h
+			out = append(out, p)
+		}
+	}
+	return out
+}
+
 func TestEstimateLag(t *testing.T) {
 	loop := mustPattern(SmallLoop(30))
 	yagi := mustPattern(Yagi(60, 18))
@@ -59,18 +90,22 @@ func TestEstimateLag(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			t.Logf("lag %.4f ± %.4f s (injected %.2f)", lag, sig, c.lagS)
-			if math.Abs(lag-c.lagS) > 4*sig+0.002 || sig > 0.02 {
-				t.Errorf("lag %.4f ± %.4f s, injected %.3f", lag, sig, c.lagS)
+			// Levels late by c.lagS are a log late by −c.lagS (the sign is
+			// the convention's: package heading).
+			want := -c.lagS
+			t.Logf("log lag %.4f ± %.4f s (injected %.2f)", lag, sig, want)
+			if math.Abs(lag-want) > 4*sig+0.002 || sig > 0.02 {
+				t.Errorf("lag %.4f ± %.4f s, injected %.3f", lag, sig, want)
 			}
-			// Removing the lag brings the bearing back to the truth.
-			fixed := ShiftLag(pts, lag)
+			// Applying the lag through the heading track brings the
+			// bearing back to the truth.
+			fixed := relogged(t, pts, lag)
 			est, err := Fit(fixed, c.p, FitOptions{NoiseFloorDB: &floor, Bootstrap: -1})
 			if err != nil {
 				t.Fatal(err)
 			}
 			if e := circErr(est.BearingDeg, 237, c.p.Symmetry); math.Abs(e) > 4*est.SigmaDeg+c.rate*sig*4 {
-				t.Errorf("after ShiftLag: bearing %.3f ± %.3f, truth 237", est.BearingDeg, est.SigmaDeg)
+				t.Errorf("after applying the lag: bearing %.3f ± %.3f, truth 237", est.BearingDeg, est.SigmaDeg)
 			}
 		})
 	}

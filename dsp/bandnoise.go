@@ -141,9 +141,6 @@ func NewBandNoise(rate float64, nfft int, gain func(fHz float64) float64, minGai
 // Frames returns the number of frames analysed.
 func (e *BandNoise) Frames() int { return e.frames }
 
-// FrameS returns the span of one FFT frame in seconds.
-func (e *BandNoise) FrameS() float64 { return float64(e.nfft) / e.rate }
-
 // Add feeds channel samples.
 func (e *BandNoise) Add(x []complex64) {
 	for len(x) > 0 {
@@ -237,9 +234,9 @@ func (e *BandNoise) Density() (n0, relSD float64, ok bool) {
 	return e.dens, math.Sqrt(hannBinCorrelation / (e.framesAveraged() * float64(e.free))), true
 }
 
-// FreeBins returns how many usable bins the latest estimate found free of
+// freeBins returns how many usable bins the latest estimate found free of
 // signal, and how many bins are usable.
-func (e *BandNoise) FreeBins() (free, usable int) { return e.free, len(e.bins) }
+func (e *BandNoise) freeBins() (free, usable int) { return e.free, len(e.bins) }
 
 // Reset forgets all frames.
 func (e *BandNoise) Reset() {

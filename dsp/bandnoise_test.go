@@ -170,7 +170,7 @@ func TestBandNoiseUnderCarrier(t *testing.T) {
 		if !ok {
 			t.Fatalf("%s: no estimate", c.name)
 		}
-		free, usable := bn.FreeBins()
+		free, usable := bn.freeBins()
 		t.Logf("%s: density %+.3f dB from the truth (±%.2f %% est.), %d of %d bins free", c.name, 10*math.Log10(got/n0), 100*sd, free, usable)
 		if e := math.Abs(10 * math.Log10(got/n0)); e > 0.15 {
 			t.Errorf("%s: density off by %.2f dB", c.name, e)

@@ -59,10 +59,8 @@ func BenchmarkFrontEndCU8(b *testing.B) {
 		b.Fatal(err)
 	}
 	fm := &FMDiscriminator{Gain: float32(48e3 / (2 * math.Pi * 2500))}
-	pm := NewPowerMeter(48)
-	chOut := make([]complex64, 0, ch.MaxOut(block))
+	chOut := make([]complex64, 0, ch.maxOut(block))
 	fmOut := make([]float32, 0, block)
-	pmOut := make([]float32, 0, block)
 	clipped := 0
 	b.SetBytes(2 * block)
 	b.ReportAllocs()
@@ -73,7 +71,6 @@ func BenchmarkFrontEndCU8(b *testing.B) {
 		clipped += CountClippedCU8(src)
 		chOut = ch.ProcessCU8(chOut, src)
 		fmOut = fm.Process(fmOut, chOut)
-		pmOut = pm.Process(pmOut, chOut)
 	}
 	reportRate(b, float64(b.N)*block, c0)
 	_ = clipped
@@ -83,7 +80,7 @@ func BenchmarkChannelizerCU8(b *testing.B) {
 	const block = 16384
 	in := benchCU8(block)
 	ch, _ := NewChannelizer(2.4e6, 100e3, 48e3, 8e3, 12e3)
-	out := make([]complex64, 0, ch.MaxOut(block))
+	out := make([]complex64, 0, ch.maxOut(block))
 	b.SetBytes(2 * block)
 	b.ReportAllocs()
 	b.ResetTimer()
@@ -96,9 +93,9 @@ func BenchmarkChannelizerCU8(b *testing.B) {
 
 func BenchmarkChannelizerComplex(b *testing.B) {
 	const block = 16384
-	in := CU8ToComplex(nil, benchCU8(block))
+	in := cu8ToComplex(nil, benchCU8(block))
 	ch, _ := NewChannelizer(2.4e6, 100e3, 48e3, 8e3, 12e3)
-	out := make([]complex64, 0, ch.MaxOut(block))
+	out := make([]complex64, 0, ch.maxOut(block))
 	b.SetBytes(8 * block)
 	b.ReportAllocs()
 	b.ResetTimer()

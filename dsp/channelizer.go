@@ -280,8 +280,8 @@ func (c *Channelizer) Decimation() int { return c.dec }
 // delay is the same at every frequency.
 func (c *Channelizer) DelayIn() float64 { return c.delayIn }
 
-// Stages returns the plan: one entry per stage, first stage first.
-func (c *Channelizer) Stages() []ChannelStage {
+// stageList returns the plan: one entry per stage, first stage first.
+func (c *Channelizer) stageList() []ChannelStage {
 	var out []ChannelStage
 	rate := c.inRate
 	for _, s := range c.stages {
@@ -291,10 +291,10 @@ func (c *Channelizer) Stages() []ChannelStage {
 	return out
 }
 
-// MaxOut returns the largest number of output samples a call with n input
+// maxOut returns the largest number of output samples a call with n input
 // samples can return; a dst of that capacity makes Process and ProcessCU8
 // allocation-free.
-func (c *Channelizer) MaxOut(n int) int { return n/c.dec + 1 }
+func (c *Channelizer) maxOut(n int) int { return n/c.dec + 1 }
 
 // Process translates and decimates the complex samples src and returns
 // append(dst[:0], outputs...). State carries over between calls, so a

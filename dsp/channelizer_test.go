@@ -31,7 +31,7 @@ func TestChannelizerPlan(t *testing.T) {
 			t.Errorf("%g/%g: output rate %g below target", c.inRate, c.target, ch.OutRate())
 		}
 		prod := 1
-		for _, s := range ch.Stages() {
+		for _, s := range ch.stageList() {
 			prod *= s.Decimation
 		}
 		if prod != c.wantDec {
@@ -222,7 +222,7 @@ func TestChannelizerCU8MatchesFloatAndStreams(t *testing.T) {
 	for i := range b {
 		b[i] = byte(rng.IntN(256))
 	}
-	x := CU8ToComplex(nil, b)
+	x := cu8ToComplex(nil, b)
 	for _, offset := range []float64{-417e3, 123456.7} {
 		ref, _ := NewChannelizer(2.4e6, offset, 48e3, 8e3, 12e3)
 		want := ref.Process(nil, x)
@@ -269,16 +269,13 @@ func TestChannelizerCU8MatchesFloatAndStreams(t *testing.T) {
 func TestChannelizerNoAllocs(t *testing.T) {
 	ch, _ := NewChannelizer(2.4e6, 100e3, 48e3, 8e3, 12e3)
 	in := benchCU8(16384)
-	x := CU8ToComplex(nil, in)
-	out := make([]complex64, 0, ch.MaxOut(16384))
+	x := cu8ToComplex(nil, in)
+	out := make([]complex64, 0, ch.maxOut(16384))
 	fm := &FMDiscriminator{Gain: 1}
-	pm := NewPowerMeter(48)
 	fo := make([]float32, 0, 400)
-	po := make([]float32, 0, 400)
 	allocs := testing.AllocsPerRun(20, func() {
 		out = ch.ProcessCU8(out, in)
 		fo = fm.Process(fo, out)
-		po = pm.Process(po, out)
 	})
 	if allocs != 0 {
 		t.Errorf("cu8 front end allocates %.1f times per block", allocs)

@@ -15,28 +15,6 @@ var cu8Value = func() (t [256]float32) {
 	return
 }()
 
-// CU8ToComplex converts interleaved unsigned 8-bit I,Q bytes (RTL-SDR "cu8")
-// to complex samples, each component mapped as (b − 127.5)/127.5. It returns
-// append(dst[:0], ...) with len(src)/2 samples; a trailing odd byte is
-// ignored.
-func CU8ToComplex(dst []complex64, src []byte) []complex64 {
-	n := len(src) / 2
-	dst = growComplex(dst, n)
-	for i := range dst {
-		p := (*[2]byte)(src[2*i:])
-		dst[i] = complex(cu8Value[p[0]], cu8Value[p[1]])
-	}
-	return dst
-}
-
-// growComplex returns dst[:n], reallocating only when cap(dst) < n.
-func growComplex(dst []complex64, n int) []complex64 {
-	if cap(dst) < n {
-		return make([]complex64, n)
-	}
-	return dst[:n]
-}
-
 func growFloat32(dst []float32, n int) []float32 {
 	if cap(dst) < n {
 		return make([]float32, n)

@@ -19,7 +19,7 @@ func TestCU8ToComplex(t *testing.T) {
 		{64, 191, (64 - 127.5) / 127.5, (191 - 127.5) / 127.5},
 	}
 	for _, c := range cases {
-		got := CU8ToComplex(nil, []byte{c.i, c.q, 7}) // odd trailing byte ignored
+		got := cu8ToComplex(nil, []byte{c.i, c.q, 7}) // odd trailing byte ignored
 		if len(got) != 1 {
 			t.Fatalf("len = %d", len(got))
 		}
@@ -28,7 +28,7 @@ func TestCU8ToComplex(t *testing.T) {
 		}
 	}
 	// 127.5 is the zero: the two nearest codes are symmetric about it.
-	z := CU8ToComplex(nil, []byte{127, 128})
+	z := cu8ToComplex(nil, []byte{127, 128})
 	if real(z[0])+imag(z[0]) != 0 {
 		t.Errorf("127 and 128 not symmetric about 0: %v", z[0])
 	}
@@ -58,7 +58,7 @@ func TestCountClipped(t *testing.T) {
 		if got := CountClippedCU8(b); got != want {
 			t.Fatalf("CountClippedCU8 = %d, want %d (n=%d)", got, want, n)
 		}
-		x := CU8ToComplex(nil, b)
+		x := cu8ToComplex(nil, b)
 		if got := CountClipped(x, 1); got != want {
 			t.Fatalf("CountClipped(level 1) = %d, want %d", got, want)
 		}
@@ -67,4 +67,26 @@ func TestCountClipped(t *testing.T) {
 	if got := CountClipped(x, 0.95); got != 2 {
 		t.Errorf("CountClipped = %d, want 2", got)
 	}
+}
+
+// cu8ToComplex converts interleaved unsigned 8-bit I,Q bytes (RTL-SDR "cu8")
+// to complex samples, each component mapped as (b − 127.5)/127.5. It returns
+// append(dst[:0], ...) with len(src)/2 samples; a trailing odd byte is
+// ignored.
+func cu8ToComplex(dst []complex64, src []byte) []complex64 {
+	n := len(src) / 2
+	dst = growComplex(dst, n)
+	for i := range dst {
+		p := (*[2]byte)(src[2*i:])
+		dst[i] = complex(cu8Value[p[0]], cu8Value[p[1]])
+	}
+	return dst
+}
+
+// growComplex returns dst[:n], reallocating only when cap(dst) < n.
+func growComplex(dst []complex64, n int) []complex64 {
+	if cap(dst) < n {
+		return make([]complex64, n)
+	}
+	return dst[:n]
 }

@@ -3,10 +3,11 @@
 // It holds FIR design (Kaiser window, scipy.signal semantics), the front-end
 // channelizer (frequency translation plus multi-stage polyphase decimation,
 // with an entry for raw RTL-SDR bytes, ProcessCU8), the FM
-// discriminator and AM envelope, the power meter, the channel noise
-// estimator (BandNoise: the density beside the occupied bins), tone
-// detectors (Goertzel and a sliding tone meter) and FFT helpers built on
-// gonum.org/v1/gonum/dsp/fourier.
+// discriminator and AM envelope, clip counting and dBFS, the channel noise
+// estimator (BandNoise: the density beside the occupied bins), the
+// Welch-averaged spectrum (SpectrumAverager) and carrier search, with FFTs
+// from gonum.org/v1/gonum/dsp/fourier. Every exported function has a
+// caller outside the package's tests.
 //
 // Conventions used throughout:
 //   - Complex baseband samples are complex64 with full scale defined as a

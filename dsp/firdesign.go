@@ -2,7 +2,6 @@ package dsp
 
 import (
 	"math"
-	"math/cmplx"
 )
 
 // KaiserBeta returns the Kaiser window shape parameter β for a filter with
@@ -108,28 +107,4 @@ func FirwinLowpass(numtaps int, cutoff, beta float64) []float64 {
 		h[i] /= s
 	}
 	return h
-}
-
-// FreqZ evaluates the frequency response H(e^{jω}) = Σ taps[k]·e^{−jωk} of a
-// real FIR at the angular frequencies w (radians per sample), like
-// scipy.signal.freqz(taps, worN=w).
-func FreqZ(taps []float64, w []float64) []complex128 {
-	out := make([]complex128, len(w))
-	for i, om := range w {
-		var acc complex128
-		for k, t := range taps {
-			acc += complex(t, 0) * cmplx.Exp(complex(0, -om*float64(k)))
-		}
-		out[i] = acc
-	}
-	return out
-}
-
-// freqzComplex is FreqZ for complex taps.
-func freqzComplex(taps []complex128, om float64) complex128 {
-	var acc complex128
-	for k, t := range taps {
-		acc += t * cmplx.Exp(complex(0, -om*float64(k)))
-	}
-	return acc
 }

@@ -104,24 +104,6 @@ func (s *SpectrumAverager) Result(dst []float64) []float64 {
 	return dst
 }
 
-// AverageSpectrum is the one-shot form of SpectrumAverager: the averaged
-// Hann-window power spectrum of x in dBFS per bin, centred order (see
-// SpectrumAverager.Result). If x is shorter than nfft it is zero-padded
-// (the level of a tone then drops by the padding). nfft < 2 gives nil.
-func AverageSpectrum(x []complex64, nfft int) []float64 {
-	s, err := NewSpectrumAverager(nfft)
-	if err != nil {
-		return nil
-	}
-	if len(x) < nfft {
-		s.Add(x)
-		s.Add(make([]complex64, nfft-len(x)))
-	} else {
-		s.Add(x)
-	}
-	return s.Result(nil)
-}
-
 // Carrier is a spectral peak found by FindCarriers.
 type Carrier struct {
 	OffsetHz float64 // peak frequency relative to the spectrum centre, interpolated between bins

@@ -44,6 +44,9 @@ func TestReadBearingsCSVErrors(t *testing.T) {
 		{"sigma zero", row("T,B,1,2,30,0,true,"), `row 3, field "sigma_deg"`},
 		{"sigma negative", row("T,B,1,2,30,-1,true,"), `row 3, field "sigma_deg"`},
 		{"bad reference", row("T,B,1,2,30,2,grid,"), `row 3, field "reference"`},
+		// units.ParseNorth: the whole word only; an abbreviation must not pick a north
+		{"abbreviated magnetic", row("T,B,1,2,30,2,m,"), `row 3, field "reference"`},
+		{"abbreviated true", row("T,B,1,2,30,2,t,"), `row 3, field "reference"`},
 		{"bad time", row("T,B,1,2,30,2,true,yesterday"), `row 3, field "time"`},
 		{"empty ident", row(",B,1,2,30,2,true,"), `row 3, field "ident"`},
 		{"missing column", "ident,station,lat,lon,bearing_deg,reference\nT,A,1,2,3,true\n", `row 1, field "sigma_deg": missing column`},

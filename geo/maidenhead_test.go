@@ -172,12 +172,12 @@ func TestMaidenheadHamlib(t *testing.T) {
 
 func runHamlib(t *testing.T, rotctl string, cmds []string) string {
 	t.Helper()
-	return runToolRaw(t, strings.Join(cmds, "\n")+"\n", rotctl, "-m", "1", "-")
+	return testtool.Run(t, strings.Join(cmds, "\n")+"\n", rotctl, "-m", "1", "-")
 }
 
 func parseF(t *testing.T, s string) float64 {
 	t.Helper()
-	v := parseFloats(t, s)
+	v := testtool.ParseFloats(t, s)
 	if len(v) != 1 {
 		t.Fatalf("parse %q", s)
 	}

@@ -10,4 +10,13 @@
 // normalised to [0, 360); times are seconds from the capture start (the
 // sample-count clock of package sdr), converted from UTC with the capture's
 // start time where a source delivers wall-clock stamps.
+//
+// Lag convention (the one the whole module uses): a lag is how late the
+// heading log is, in seconds. lag > 0 means the log is late: the heading
+// at capture time t is the log's value at t + lag, and a sample stamped T
+// describes the antenna at capture time T − lag. Track.LagS holds it,
+// two Track helpers apply it (logTime, captureTime: At, Span, Gaps,
+// Coverage and Sweeps go through them), bearing.EstimateLag
+// measures it with the same sign, and --lag and the station file's
+// heading.lag_s give it.
 package heading

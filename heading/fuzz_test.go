@@ -4,27 +4,11 @@ import (
 	"bytes"
 	"context"
 	"errors"
-	"io"
+	"nullseek/internal/testtool"
 	"strings"
 	"testing"
 	"time"
 )
-
-// chunkReader hands out its bytes in reads of at most n bytes.
-type chunkReader struct {
-	b []byte
-	n int
-}
-
-func (c *chunkReader) Read(p []byte) (int, error) {
-	if len(c.b) == 0 {
-		return 0, io.EOF
-	}
-	k := min(len(p), c.n, len(c.b))
-	copy(p, c.b[:k])
-	c.b = c.b[k:]
-	return k, nil
-}
 
 // FuzzNMEAStream: any bytes from a live NMEA 0183 source, arriving in
 // reads of any size: no panic; every reading handed to the callback is a
@@ -47,7 +31,7 @@ func FuzzNMEAStream(f *testing.F) {
 	// input's length).
 	f.Fuzz(func(t *testing.T, data []byte, chunk, pad uint16, noChecksum bool) {
 		data = append(bytes.Repeat([]byte{'x'}, int(pad)%20000), data...)
-		s := newLineStream("fuzz", &chunkReader{b: data, n: int(chunk)%600 + 1}, func(time.Time) error { return nil }, func() error { return nil })
+		s := newLineStream("fuzz", testtool.ChunkReader(data, int(chunk)%600+1), func(time.Time) error { return nil }, func() error { return nil })
 		s.Logger = discardLogger
 		s.AllowMissingChecksum = noChecksum
 		calls := 0

@@ -4,39 +4,17 @@ package heading
 
 import (
 	"context"
-	"os"
-	"strconv"
-	"syscall"
+	"nullseek/internal/testtool"
 	"testing"
 	"time"
-	"unsafe"
 )
 
-// openPTY opens a pseudo-terminal pair through /dev/ptmx (Linux
-// devpts(4)): the master end to write to and the slave's path for the
-// serial reader.
-func openPTY(t *testing.T) (*os.File, string) {
-	t.Helper()
-	m, err := os.OpenFile("/dev/ptmx", os.O_RDWR|syscall.O_NOCTTY, 0)
+func TestNMEASerialPTY(t *testing.T) {
+	m, slave, err := testtool.OpenPTY()
 	if err != nil {
-		t.Skipf("no pseudo-terminals here: %v", err)
-	}
-	var unlock int32
-	if _, _, e := syscall.Syscall(syscall.SYS_IOCTL, m.Fd(), syscall.TIOCSPTLCK, uintptr(unsafe.Pointer(&unlock))); e != 0 {
-		m.Close()
-		t.Skipf("unlock pty: %v", e)
-	}
-	var n uint32
-	if _, _, e := syscall.Syscall(syscall.SYS_IOCTL, m.Fd(), syscall.TIOCGPTN, uintptr(unsafe.Pointer(&n))); e != 0 {
-		m.Close()
-		t.Skipf("pty number: %v", e)
+		testtool.Unavailable(t, "a pseudo-terminal", err)
 	}
 	t.Cleanup(func() { m.Close() })
-	return m, "/dev/pts/" + strconv.Itoa(int(n))
-}
-
-func TestNMEASerialPTY(t *testing.T) {
-	m, slave := openPTY(t)
 	s, err := OpenNMEASerial(slave, 4800)
 	if err != nil {
 		t.Fatal(err)

@@ -70,10 +70,10 @@ type Track struct {
 	// sensor's reference direction to the antenna's reference direction
 	// (the main lobe or the null): At adds it to the interpolated heading.
 	MountOffsetDeg float64
-	// LagS is how many seconds the heading timestamps lag the level
-	// timeline: a sample stamped T describes the antenna at capture time
-	// T − LagS, so At(t) reads the samples at t + LagS. Positive for a
-	// compass that reports late.
+	// LagS is how late the heading log is, in seconds (the package's lag
+	// convention): a sample stamped T describes the antenna at capture
+	// time T − LagS, so At(t) reads the samples at t + LagS (logTime and
+	// captureTime apply it). Positive for a compass that reports late.
 	LagS float64
 	// MaxGapS is the longest interval between samples, in seconds, across
 	// which At interpolates; 0 means DefaultMaxGapS, a negative value means
@@ -209,7 +209,7 @@ func (t *Track) rawAt(ts float64) (deg float64, i int, ok bool) {
 // (MaxGapS, default DefaultMaxGapS), and for NaN tS. Exactly on a sample it
 // returns that sample whatever the gaps beside it.
 func (t *Track) At(tS float64) (deg float64, ok bool) {
-	d, _, ok := t.rawAt(tS + t.LagS)
+	d, _, ok := t.rawAt(t.logTime(tS))
 	if !ok {
 		return 0, false
 	}
@@ -223,7 +223,7 @@ func (t *Track) Span() (start, end float64) {
 	if len(t.Samples) == 0 {
 		return 0, 0
 	}
-	return t.Samples[0].T - t.LagS, t.Samples[len(t.Samples)-1].T - t.LagS
+	return t.captureTime(t.Samples[0].T), t.captureTime(t.Samples[len(t.Samples)-1].T)
 }
 
 // Gaps lists the holes between consecutive samples longer than maxGapS
@@ -236,7 +236,7 @@ func (t *Track) Gaps(maxGapS float64) []Gap {
 	var gaps []Gap
 	for i := 1; i < len(t.Samples); i++ {
 		if t.Samples[i].T-t.Samples[i-1].T > lim {
-			gaps = append(gaps, Gap{StartS: t.Samples[i-1].T - t.LagS, EndS: t.Samples[i].T - t.LagS})
+			gaps = append(gaps, Gap{StartS: t.captureTime(t.Samples[i-1].T), EndS: t.captureTime(t.Samples[i].T)})
 		}
 	}
 	return gaps
@@ -251,7 +251,7 @@ func (t *Track) Coverage(start, end float64) float64 {
 	if !(end > start) || len(t.Samples) < 2 {
 		return 0
 	}
-	s, e := start+t.LagS, end+t.LagS
+	s, e := t.logTime(start), t.logTime(end)
 	var arcs [][2]float64 // [lo, hi) on [0, 360)
 	addArc := func(a, delta float64) {
 		lo := a
@@ -324,8 +324,8 @@ func (t *Track) Sweeps() []Sweep {
 	var dir Direction
 	emit := func(from, to int) {
 		out = append(out, Sweep{
-			StartS:   t.Samples[from].T - t.LagS,
-			EndS:     t.Samples[to].T - t.LagS,
+			StartS:   t.captureTime(t.Samples[from].T),
+			EndS:     t.captureTime(t.Samples[to].T),
 			Dir:      dir,
 			StartDeg: angle.Wrap360(t.Samples[from].Deg + t.MountOffsetDeg),
 			EndDeg:   angle.Wrap360(t.Samples[to].Deg + t.MountOffsetDeg),
@@ -396,8 +396,19 @@ func (t *Track) ToTrue(declDeg float64) *Track {
 	return &c
 }
 
+// logTime is the log time whose sample describes the antenna at capture
+// time tS: tS + LagS. With captureTime, its inverse, it is the one place
+// the lag convention is applied.
+func (t *Track) logTime(tS float64) float64 { return tS + t.LagS }
+
+// captureTime is the capture time a sample stamped logT describes:
+// logT − LagS.
+func (t *Track) captureTime(logT float64) float64 { return logT - t.LagS }
+
 // WithLag returns a copy of the track with LagS set to lagS seconds
-// (replacing, not adding to, the current lag). It shares Samples, so it is
+// (replacing, not adding to, the current lag; the package's lag
+// convention: positive when the log is late, as bearing.EstimateLag
+// measures it). It shares Samples, so it is
 // cheap enough to call once per candidate lag in a search.
 func (t *Track) WithLag(lagS float64) *Track {
 	c := *t

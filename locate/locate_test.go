@@ -11,7 +11,6 @@ import (
 	"io"
 	"math"
 	"os"
-	"os/exec"
 	"path/filepath"
 	"strconv"
 	"strings"
@@ -47,13 +46,7 @@ func geodAzimuths(t *testing.T, txs []tx) [][]float64 {
 			fmt.Fprintf(&in, "%.9f %.9f %.9f %.9f\n", s.lat, s.lon, x.lat, x.lon)
 		}
 	}
-	cmd := exec.Command(prog, "-i", "-p", "9")
-	cmd.Stdin = strings.NewReader(in.String())
-	out, err := cmd.Output()
-	if err != nil {
-		t.Fatalf("GeodSolve: %v", err)
-	}
-	lines := strings.Split(strings.TrimSpace(string(out)), "\n")
+	lines := strings.Split(strings.TrimSpace(testtool.Run(t, in.String(), prog, "-i", "-p", "9")), "\n")
 	var az [][]float64
 	k := 0
 	for _, x := range txs {

@@ -3,28 +3,12 @@ package position
 import (
 	"bytes"
 	"context"
-	"io"
 	"strings"
 	"testing"
 
 	"nullseek/internal/nmea"
+	"nullseek/internal/testtool"
 )
-
-// chunkReader hands out its bytes in reads of at most n bytes.
-type chunkReader struct {
-	b []byte
-	n int
-}
-
-func (c *chunkReader) Read(p []byte) (int, error) {
-	if len(c.b) == 0 {
-		return 0, io.EOF
-	}
-	k := min(len(p), c.n, len(c.b))
-	copy(p, c.b[:k])
-	c.b = c.b[k:]
-	return k, nil
-}
 
 // FuzzNMEAFeed: any bytes from an NMEA source in reads of any size: no
 // panic; every line is counted once (NMEAStats' partition); every fix is
@@ -43,7 +27,7 @@ func FuzzNMEAFeed(f *testing.F) {
 		f.Add([]byte(s), uint8(7))
 	}
 	f.Fuzz(func(t *testing.T, data []byte, chunk uint8) {
-		s := NewNMEA("fuzz", &chunkReader{b: data, n: int(chunk)%97 + 1})
+		s := NewNMEA("fuzz", testtool.ChunkReader(data, int(chunk)%97+1))
 		if err := s.Run(context.Background()); err != nil {
 			t.Fatal(err)
 		}

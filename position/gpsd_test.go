@@ -65,17 +65,6 @@ func freePort(t *testing.T) int {
 	return l.Addr().(*net.TCPAddr).Port
 }
 
-// tpvLine is the part of a gpsd TPV report compared here.
-type tpvLine struct {
-	Class  string   `json:"class"`
-	Mode   int      `json:"mode"`
-	Time   string   `json:"time"`
-	Lat    *float64 `json:"lat"`
-	Lon    *float64 `json:"lon"`
-	AltHAE *float64 `json:"altHAE"`
-	AltMSL *float64 `json:"altMSL"`
-}
-
 // TestNMEAAgainstGpsfake: gpsd 3.22 (Debian gpsd) decodes the log as
 // gpsfake replays it (gpsfake(1): -1 once, -p print gpsd's JSON, -c
 // seconds between sentences, -P port); every TPV with mode 2/3 and a time
@@ -115,7 +104,7 @@ func TestNMEAAgainstGpsfake(t *testing.T) {
 	}
 	seen := map[time.Time]bool{}
 	for _, l := range strings.Split(string(out), "\n") {
-		var r tpvLine
+		var r tpv // the client's own decoding of gpsd(8) TPV JSON
 		if !strings.HasPrefix(l, `{"class":"TPV"`) || json.Unmarshal([]byte(l), &r) != nil || r.Time == "" || r.Mode < 2 {
 			continue
 		}

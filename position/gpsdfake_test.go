@@ -82,14 +82,7 @@ func TestGPSDReports(t *testing.T) {
 	}
 	waitFor(t, "3 fixes", func() bool { return g.Track.Len() == 3 })
 	cancel()
-	select {
-	case err := <-done:
-		if err != nil {
-			t.Fatal(err)
-		}
-	case <-time.After(5 * time.Second):
-		t.Fatal("Run did not end after cancel while connected")
-	}
+	endsWithin(t, done, 5*time.Second, "Run did not end after cancel while connected")
 	st := g.Stats()
 	want := GPSDStats{Connects: 1, TPV: 7, Fixes: 3, NoFix: 3, OutOfOrder: 1, Other: 1, Bad: 3, Release: "3.22",
 		Devices: []string{"/dev/ttyACM0"}, LastError: "unrecognized request", Watching: true}

@@ -99,15 +99,22 @@ func TestNMEACancel(t *testing.T) {
 	go func() { done <- s.Run(ctx) }()
 	b.Write([]byte(dePriestGGA + "\r\n" + dePriestRMC + "\r\n"))
 	cancel()
+	endsWithin(t, done, 5*time.Second, "Run did not return after cancel")
+	if st := s.Stats(); st.Fixes != 1 {
+		t.Errorf("stats %+v", st)
+	}
+}
+
+// endsWithin waits for done: a Run's error fails the test, and so does no
+// end within d (msg says what should have ended it).
+func endsWithin(t *testing.T, done <-chan error, d time.Duration, msg string) {
+	t.Helper()
 	select {
 	case err := <-done:
 		if err != nil {
 			t.Fatal(err)
 		}
-	case <-time.After(5 * time.Second):
-		t.Fatal("Run did not return after cancel")
-	}
-	if st := s.Stats(); st.Fixes != 1 {
-		t.Errorf("stats %+v", st)
+	case <-time.After(d):
+		t.Fatal(msg)
 	}
 }

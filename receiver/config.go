@@ -37,7 +37,7 @@ type Config struct {
 	// (default 0.1 s; raise it for a turning antenna whose nulls drop the
 	// level into the noise). The marks of keyed Morse are joined without
 	// it (see JoinWaitS).
-	MergeGapS float64
+	MergeGapS float64 // KeyedMergeGapS for keyed carrier (survey)
 	// JoinWaitS is how long after a burst ends the detector waits for more
 	// before it decides: bursts whose on and off times follow Morse timing
 	// (keyed carrier, or a carrier keyed by the marks of an MCW
@@ -62,6 +62,12 @@ type Config struct {
 	// read through their pieces.
 	MaxKeepS float64
 }
+
+// KeyedMergeGapS is the merge gap of a keyed-carrier (A1A) scan when none
+// is given: the word gaps of keyed carrier at 5 WPM stay inside one burst
+// (a word gap is 7 dots, ITU-R M.1677-1 part 2, from memory; a dot is
+// 1.2/WPM s, PARIS timing, common practice: 1.68 s at 5 WPM).
+const KeyedMergeGapS = 2.5
 
 // DefaultConfig holds the receiver's defaults: the one place they live
 // (flags and Defaults read them from here).

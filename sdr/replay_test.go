@@ -10,7 +10,6 @@ import (
 	osexec "os/exec"
 	"path/filepath"
 	"strings"
-	"sync"
 	"testing"
 	"time"
 
@@ -43,22 +42,7 @@ func openRawCU8(path string, rate, center float64) func() (Source, error) {
 }
 
 // logBuf collects a logger's lines.
-type logBuf struct {
-	mu sync.Mutex
-	b  bytes.Buffer
-}
-
-func (l *logBuf) Write(p []byte) (int, error) {
-	l.mu.Lock()
-	defer l.mu.Unlock()
-	return l.b.Write(p)
-}
-
-func (l *logBuf) String() string {
-	l.mu.Lock()
-	defer l.mu.Unlock()
-	return l.b.String()
-}
+type logBuf struct{ testtool.SyncBuffer }
 
 func (l *logBuf) logger() *slog.Logger { return slog.New(slog.NewTextHandler(l, nil)) }
 

@@ -2,8 +2,8 @@ package sdr
 
 import (
 	"encoding/json"
+	"nullseek/internal/testtool"
 	"os"
-	"os/exec"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -291,8 +291,8 @@ func TestWriterRoundTrip(t *testing.T) {
 				len(m.Annotations) != 2 || m.Annotations[0].Label != "a" || *m.Annotations[0].SampleCount != 100 {
 				t.Errorf("meta %+v", m)
 			}
-			if sum, err := exec.LookPath("sha512sum"); err == nil {
-				out := run(t, sum, base+".sigmf-data")
+			if testtool.Have(t, "sha512sum") {
+				out := run(t, "sha512sum", base+".sigmf-data")
 				if !strings.HasPrefix(string(out), m.Global.SHA512) {
 					t.Errorf("core:sha512 %s != sha512sum %s", m.Global.SHA512, out)
 				}

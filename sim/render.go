@@ -8,6 +8,7 @@ import (
 	"nullseek/ident/morse"
 
 	"nullseek/bearing"
+	"nullseek/internal/angle"
 	"nullseek/sdr"
 )
 
@@ -202,10 +203,7 @@ func (bs *beaconState) sample(t float64, s *Source, rate float64) (complex128, b
 // GainDB is the pattern's gain at offAxisDeg clockwise from boresight, linearly
 // interpolated between its 1° steps.
 func GainDB(p bearing.Pattern, offAxisDeg float64) float64 {
-	x := math.Mod(offAxisDeg, 360)
-	if x < 0 {
-		x += 360
-	}
+	x := angle.Wrap360(offAxisDeg)
 	i := int(x)
 	f := x - float64(i)
 	n := len(p.GainDB)

@@ -154,7 +154,8 @@ type Heading struct {
 	Compass string
 	// Log is a heading log file.
 	Log string
-	// LagS is how many seconds the heading stamps lag the samples.
+	// LagS is how late the heading stamps are, in seconds (heading.Track.LagS:
+	// positive when the heading source reports late).
 	LagS float64
 }
 

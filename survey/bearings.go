@@ -599,10 +599,11 @@ func (t TxBearing) MarshalJSON() ([]byte, error) {
 	return json.Marshal(l)
 }
 
-// EstimateLag estimates the lag between level and heading from the
-// transmitter with the most readings (bearing.EstimateLag: sweeps must turn
-// both ways). The sign is bearing's: positive means the level readings are
-// late; remove it with track.WithLag(track.LagS − lagS). Bursts whose
+// EstimateLag estimates how late the heading log still is, on top of
+// track.LagS, from the transmitter with the most readings
+// (bearing.EstimateLag: sweeps must turn both ways). The sign is the
+// module's (package heading): positive means the log is late; apply it
+// with track.WithLag(track.LagS + lagS). Bursts whose
 // level track was not kept (a transmission past the receiver's cap) are
 // left out.
 func EstimateLag(res *Result, track *heading.Track, p bearing.Pattern, opts bearing.FitOptions) (lagS, sigmaS float64, err error) {
@@ -736,8 +737,8 @@ type BearingOptions struct {
 	// MountOffsetGiven says it was given (a pattern file may carry one).
 	MountOffsetDeg   float64
 	MountOffsetGiven bool
-	// LagS: the heading timestamps lag the level by this many seconds
-	// (--lag; within ±60 s: a heading source later than a minute has no
+	// LagS is how late the heading log is, in seconds (heading.Track.LagS;
+	// --lag; within ±60 s: a heading source later than a minute has no
 	// business being used).
 	LagS float64
 	// WindowS is the span of one window of a long transmission (0:

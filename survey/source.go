@@ -96,37 +96,23 @@ func (in *Input) Run(ctx context.Context, plan *BearingPlan) (*Result, error) {
 }
 
 // InputFlags describe a recording and its channel as the command line
-// gives them: the raw-file flags --rate, --format, --center and --start
-// (needed for a raw file; a SigMF or WAV file carries its own), the
-// channel as --freq or --offset (units.ParseHz), and the receiver's
-// numeric flags in Receiver (defaults: receiver.DefaultConfig).
+// gives them: the raw-file flags (sdr.RawFlags; needed for a raw file, a
+// SigMF or WAV file carries its own), the channel as --freq or --offset
+// (units.ParseHz), and the receiver's numeric flags in Receiver
+// (defaults: receiver.DefaultConfig).
 type InputFlags struct {
-	Rate, Format, Center, Start, Freq, Offset string
-	Receiver                                  receiver.Config
+	sdr.RawFlags
+	Freq, Offset string
+	Receiver     receiver.Config
 	// ChannelRateGiven and MergeGapGiven say --channel-rate and
 	// --merge-gap were given (else 0 refused, and the keying mode's own
 	// merge gap).
 	ChannelRateGiven, MergeGapGiven bool
 }
 
-// Raw is the description of a raw recording the flags give.
-func (f *InputFlags) Raw() (p sdr.RawParams, err error) {
-	if p.SampleRate, err = units.HzFlag("rate", f.Rate); err != nil {
-		return p, err
-	}
-	if p.CenterHz, err = units.HzFlag("center", f.Center); err != nil {
-		return p, err
-	}
-	p.Format = f.Format
-	if f.Start != "" {
-		t, err := time.Parse(time.RFC3339Nano, f.Start)
-		if err != nil {
-			return p, fmt.Errorf("--start %q is not an RFC 3339 time (example 2026-05-01T10:00:00Z)", f.Start)
-		}
-		p.Start = t.UTC()
-	}
-	return p, nil
-}
+// Raw is the description of a raw recording the flags give
+// (sdr.RawFlags.Params).
+func (f *InputFlags) Raw() (sdr.RawParams, error) { return f.RawFlags.Params() }
 
 // Config is the checked receiver configuration; haveChannel is false when
 // neither --freq nor --offset was given.
@@ -190,8 +176,8 @@ type HeadingSource struct {
 	// the WGS84 ellipsoid, nil when not known.
 	StationName string
 	StationAltM *float64
-	// EstimateLag estimates the heading/level lag from sweeps that turn
-	// both ways and removes it (--estimate-lag).
+	// EstimateLag estimates how late the heading log is from sweeps that
+	// turn both ways and applies it (--estimate-lag).
 	EstimateLag bool
 	// Bearing holds the antenna, fit, site error, mount offset and lag.
 	Bearing BearingOptions
@@ -350,7 +336,7 @@ func (h *HeadingSource) DeclinationAt(t time.Time, notes func(string)) (float64,
 
 // Survey surveys the recording in and joins it with the heading source:
 // it returns the survey, the track on the recording's clock (with the lag
-// estimated and removed when EstimateLag asks for it) and the pattern.
+// estimated and applied when EstimateLag asks for it) and the pattern.
 // The heading source is read before the long scan, so that a bad log
 // costs no time. With fitDuringScan (and no lag to estimate first) the
 // bearings are fitted while the scan goes on (Options.Bearing), so that a
@@ -394,9 +380,9 @@ func (h *HeadingSource) Survey(ctx context.Context, in *Input, fitDuringScan boo
 		if err != nil {
 			return nil, nil, pat, err
 		}
-		// lag is what is left on top of --lag; take it off.
-		notes(fmt.Sprintf("level lags heading by %.3f ± %.3f s: removed (give --lag %.3f in later fits)", lag, sig, tr.LagS-lag))
-		tr = tr.WithLag(tr.LagS - lag)
+		// lag is what is left on top of --lag; add it.
+		notes(fmt.Sprintf("heading log late by %+.3f ± %.3f s (negative: early): applied (give --lag %.3f in later fits)", lag, sig, tr.LagS+lag))
+		tr = tr.WithLag(tr.LagS + lag)
 	}
 	return res, tr, pat, nil
 }

@@ -148,7 +148,7 @@ func stream(ctx context.Context, src sdr.Source, opts Options, idf *ident.Identi
 	rc := opts.Receiver
 	rc.KeepAudio = !opts.NoIdent
 	if opts.Ident.Mode == morse.ModeCW && rc.MergeGapS == 0 {
-		rc.MergeGapS = 2.5 // word gaps of keyed carrier at 5 WPM stay inside one burst
+		rc.MergeGapS = receiver.KeyedMergeGapS
 	}
 	sc, err := receiver.NewScanner(info, rc)
 	if err != nil {

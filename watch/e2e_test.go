@@ -1,7 +1,6 @@
 package watch
 
 import (
-	"bytes"
 	"context"
 	"fmt"
 	"math"
@@ -10,7 +9,6 @@ import (
 	"os/exec"
 	"path/filepath"
 	"strings"
-	"sync"
 	"testing"
 	"time"
 
@@ -135,22 +133,7 @@ sweep_to_deg = 120.0
 }
 
 // syncBuffer is a bytes.Buffer safe for the watch's writers.
-type syncBuffer struct {
-	mu sync.Mutex
-	b  bytes.Buffer
-}
-
-func (s *syncBuffer) Write(p []byte) (int, error) {
-	s.mu.Lock()
-	defer s.mu.Unlock()
-	return s.b.Write(p)
-}
-
-func (s *syncBuffer) String() string {
-	s.mu.Lock()
-	defer s.mu.Unlock()
-	return s.b.String()
-}
+type syncBuffer = testtool.SyncBuffer
 
 // integrityCheck asks the sqlite3 command-line shell (SQLite 3, an outside
 // reader of the file) for PRAGMA integrity_check; a sound database

@@ -71,7 +71,7 @@ func makeRotating(t *testing.T, dir string, args ...string) {
 //
 //   - a magnetic heading log (declination −5°, east positive), 0.3 s late,
 //     on a back-and-forth sweep, with --estimate-lag: the lag is found and
-//     removed and the bearing is the truth (it used to end in "estimate
+//     applied and the bearing is the truth (it used to end in "estimate
 //     lag: no bursts");
 //   - a heading source along the loop's plane: --antenna loop-plane gives
 //     the truth with no arithmetic, --antenna loop is 90° off, and the
@@ -90,8 +90,9 @@ func TestCLIBearingField(t *testing.T) {
 	if r.code != 0 {
 		t.Fatalf("magnetic log with --estimate-lag: exit %d\n%s", r.code, r.stderr)
 	}
-	if !strings.Contains(r.stderr, "level lags heading by -0.3") {
-		t.Errorf("no lag of -0.3 s found (the log is 0.3 s late): %s", r.stderr)
+	// The sign is the module's (package heading): positive when the log is late.
+	if !strings.Contains(r.stderr, "heading log late by +0.3") {
+		t.Errorf("no lag of +0.3 s found (the log is 0.3 s late): %s", r.stderr)
 	}
 	b := txBearing(t, r.stdout)
 	if e := loopErr(b, 140); e > 0.5 {

@@ -8,7 +8,6 @@ import (
 	"nullseek/internal/atomicfile"
 	"nullseek/internal/testtool"
 	"os"
-	"os/exec"
 	"path/filepath"
 	"strconv"
 	"strings"
@@ -71,13 +70,8 @@ func calBeacon(id string, lat, lon, firstS, onS, tone float64) sim.Beacon {
 func geodAzimuth(t *testing.T, lat1, lon1, lat2, lon2 float64) float64 {
 	t.Helper()
 	bin := testtool.Need(t, "GeodSolve")
-	cmd := exec.Command(bin, "-i", "-p", "9")
-	cmd.Stdin = strings.NewReader(fmt.Sprintf("%.10f %.10f %.10f %.10f\n", lat1, lon1, lat2, lon2))
-	out, err := cmd.Output()
-	if err != nil {
-		t.Fatalf("GeodSolve: %v", err)
-	}
-	f := strings.Fields(string(out))
+	out := testtool.Run(t, fmt.Sprintf("%.10f %.10f %.10f %.10f\n", lat1, lon1, lat2, lon2), bin, "-i", "-p", "9")
+	f := strings.Fields(out)
 	if len(f) != 3 {
 		t.Fatalf("GeodSolve output %q", out)
 	}

@@ -3,12 +3,12 @@
 package main
 
 import (
+	"nullseek/internal/testtool"
 	"os"
 	"strconv"
 	"syscall"
 	"testing"
 	"time"
-	"unsafe"
 )
 
 // startPTYCompass is a compass on a serial line: a pseudo-terminal pair
@@ -17,19 +17,9 @@ import (
 // --nmea-feed address at baud (a pty ignores the rate).
 func startPTYCompass(t *testing.T, period time.Duration, baud int, line func(now time.Time) string) (string, error) {
 	t.Helper()
-	m, err := os.OpenFile("/dev/ptmx", os.O_RDWR|syscall.O_NOCTTY, 0)
+	m, slave, err := testtool.OpenPTY()
 	if err != nil {
 		return "", err
-	}
-	var unlock int32
-	if _, _, e := syscall.Syscall(syscall.SYS_IOCTL, m.Fd(), syscall.TIOCSPTLCK, uintptr(unsafe.Pointer(&unlock))); e != 0 {
-		m.Close()
-		return "", e
-	}
-	var n uint32
-	if _, _, e := syscall.Syscall(syscall.SYS_IOCTL, m.Fd(), syscall.TIOCGPTN, uintptr(unsafe.Pointer(&n))); e != 0 {
-		m.Close()
-		return "", e
 	}
 	done := make(chan struct{})
 	stopped := make(chan struct{})
@@ -49,27 +39,17 @@ func startPTYCompass(t *testing.T, period time.Duration, baud int, line func(now
 		}
 	}()
 	t.Cleanup(func() { close(done); <-stopped; m.Close() })
-	return "serial:/dev/pts/" + strconv.Itoa(int(n)) + "@" + strconv.Itoa(baud), nil
+	return "serial:" + slave + "@" + strconv.Itoa(baud), nil
 }
 
-// openPTY opens a pseudo-terminal pair: the master end and the slave end
-// as a file a child process can write to.
+// openPTY opens a pseudo-terminal pair (testtool.OpenPTY): the master end
+// and the slave end as a file a child process can write to.
 func openPTY() (master, slave *os.File, err error) {
-	m, err := os.OpenFile("/dev/ptmx", os.O_RDWR|syscall.O_NOCTTY, 0)
+	m, p, err := testtool.OpenPTY()
 	if err != nil {
 		return nil, nil, err
 	}
-	var unlock int32
-	if _, _, e := syscall.Syscall(syscall.SYS_IOCTL, m.Fd(), syscall.TIOCSPTLCK, uintptr(unsafe.Pointer(&unlock))); e != 0 {
-		m.Close()
-		return nil, nil, e
-	}
-	var n uint32
-	if _, _, e := syscall.Syscall(syscall.SYS_IOCTL, m.Fd(), syscall.TIOCGPTN, uintptr(unsafe.Pointer(&n))); e != 0 {
-		m.Close()
-		return nil, nil, e
-	}
-	s, err := os.OpenFile("/dev/pts/"+strconv.Itoa(int(n)), os.O_RDWR|syscall.O_NOCTTY, 0)
+	s, err := os.OpenFile(p, os.O_RDWR|syscall.O_NOCTTY, 0)
 	if err != nil {
 		m.Close()
 		return nil, nil, err

@@ -3,6 +3,7 @@ package main
 import (
 	"bytes"
 	"context"
+	"errors"
 	"fmt"
 	"io"
 	"log/slog"
@@ -21,6 +22,7 @@ import (
 
 	"nullseek/bearing"
 	"nullseek/internal/angle"
+	"nullseek/internal/testtool"
 	"nullseek/sdr"
 )
 
@@ -266,6 +268,9 @@ func TestLiveBearingCompass(t *testing.T) {
 	for i, tc := range cases {
 		t.Run(tc.name, func(t *testing.T) {
 			if skipWhy[i] != "" {
+				if tc.serial && !tc.skip {
+					testtool.Unavailable(t, "a pseudo-terminal", errors.New(skipWhy[i]))
+				}
 				t.Skip(skipWhy[i])
 			}
 			sr := runs[i]
@@ -436,7 +441,7 @@ func TestLiveCompassFailures(t *testing.T) {
 		t.Run(tc.name, func(t *testing.T) {
 			rs := res[i]
 			if rs.feed == "" {
-				t.Skip("no pseudo-terminal for a serial compass")
+				testtool.Unavailable(t, "a pseudo-terminal for a serial compass", errors.New("startPTYCompass failed"))
 			}
 			t.Logf("after %v: %s", rs.took.Round(time.Millisecond), rs.r.stderr)
 			dev, _, _ := strings.Cut(strings.TrimPrefix(rs.feed, "serial:"), "@")

@@ -341,10 +341,7 @@ func TestLiveStatusLine(t *testing.T) {
 		"--freq", "145.5M", "--center", "145.45M", "--rate", "250k", "--no-ident"}
 	master, slave, err := openPTY()
 	if err != nil {
-		if testtool.Required() {
-			t.Fatalf("no pseudo-terminal: %v", err)
-		}
-		t.Skipf("no pseudo-terminal: %v", err)
+		testtool.Unavailable(t, "a pseudo-terminal", err)
 	}
 	defer master.Close()
 	cmd := exec.Command(os.Args[0], append([]string{"-test.run=^TestNullseekHelperProcess$", "--"}, args...)...)

@@ -1,11 +1,6 @@
 package main
 
 import (
-	"context"
-	"errors"
-	"fmt"
-	"io"
-	"math"
 	"os"
 	"os/signal"
 	"syscall"
@@ -14,22 +9,10 @@ import (
 
 	"nullseek/internal/warnlog"
 	"nullseek/sdr"
-	"nullseek/survey"
 )
 
-// replayOptions are the replay command's flags.
-type replayOptions struct {
-	listen      string
-	allowRemote bool
-	speed       float64
-	loop        bool
-	// in describes a raw recording, as for the other commands
-	// (survey.InputFlags.Raw parses it).
-	in survey.InputFlags
-}
-
 func newReplayCmd() *cobra.Command {
-	var o replayOptions
+	o := sdr.DefaultReplayRequest()
 	cmd := &cobra.Command{
 		Use:   "replay RECORDING",
 		Short: "Serve a recording over rtl_tcp, as if it were a live receiver",
@@ -46,63 +29,18 @@ The command ends at the end of the recording (without --loop) or on Ctrl-C.`,
 		RunE: func(cmd *cobra.Command, args []string) error {
 			ctx, stop := signal.NotifyContext(cmd.Context(), os.Interrupt, syscall.SIGTERM)
 			defer stop()
-			return runReplay(ctx, cmd.ErrOrStderr(), args[0], o)
+			o.Path, o.Logger = args[0], warnlog.NewProgress(cmd.ErrOrStderr(), "nullseek")
+			return sdr.Replay(ctx, o)
 		},
 	}
 	f := cmd.Flags()
-	f.StringVar(&o.listen, "listen", sdr.DefaultReplayAddr, "serve on `HOST:PORT` (loopback unless --allow-remote)")
-	f.BoolVar(&o.allowRemote, "allow-remote", false, "allow a --listen address other clients on the network can reach")
-	f.Float64Var(&o.speed, "speed", 1, "pace: 1 real time, 2 twice as fast, 0 as fast as the client reads")
-	f.BoolVar(&o.loop, "loop", false, "start the recording again at its end, until stopped")
-	f.StringVar(&o.in.Rate, "rate", "", "sample rate of a raw recording, S/s (k/M suffixes allowed)")
-	f.StringVar(&o.in.Format, "format", "", "sample format of a raw recording: cu8, ci8, ci16_le, cf32_le")
-	f.StringVar(&o.in.Center, "center", "", "centre frequency of a raw recording, Hz (k/M/G suffixes allowed)")
-	f.StringVar(&o.in.Start, "start", "", "UTC time of a raw recording's first sample (RFC 3339)")
+	f.StringVar(&o.Listen, "listen", o.Listen, "serve on `HOST:PORT` (loopback unless --allow-remote)")
+	f.BoolVar(&o.AllowRemote, "allow-remote", o.AllowRemote, "allow a --listen address other clients on the network can reach")
+	f.Float64Var(&o.Speed, "speed", o.Speed, "pace: 1 real time, 2 twice as fast, 0 as fast as the client reads")
+	f.BoolVar(&o.Loop, "loop", o.Loop, "start the recording again at its end, until stopped")
+	f.StringVar(&o.Raw.Rate, "rate", "", "sample rate of a raw recording, S/s (k/M suffixes allowed)")
+	f.StringVar(&o.Raw.Format, "format", "", "sample format of a raw recording: cu8, ci8, ci16_le, cf32_le")
+	f.StringVar(&o.Raw.Center, "center", "", "centre frequency of a raw recording, Hz (k/M/G suffixes allowed)")
+	f.StringVar(&o.Raw.Start, "start", "", "UTC time of a raw recording's first sample (RFC 3339)")
 	return cmd
-}
-
-// runReplay serves path until it ends, ctx is cancelled or it fails;
-// progress and refused commands go to errOut.
-func runReplay(ctx context.Context, errOut io.Writer, path string, o replayOptions) error {
-	if math.IsNaN(o.speed) || math.IsInf(o.speed, 0) || o.speed < 0 {
-		return fmt.Errorf("--speed %v: give 0 (as fast as the client reads) or a positive factor (1 = real time)", o.speed)
-	}
-	raw, err := o.in.Raw()
-	if err != nil {
-		return err
-	}
-	open := func() (sdr.Source, error) { return sdr.Open(path, raw) }
-	src, err := open() // checked before listening: a bad file is one line, no server
-	if err != nil {
-		return err
-	}
-	info := src.Info()
-	src.Close()
-	ln, err := sdr.ListenReplay(o.listen, o.allowRemote)
-	if err != nil {
-		if errors.Is(err, sdr.ErrNotLoopback) {
-			return fmt.Errorf("--listen: %w with --allow-remote", err)
-		}
-		return fmt.Errorf("--listen: %w", err)
-	}
-	pace := "as fast as the client reads"
-	if o.speed > 0 {
-		pace = fmt.Sprintf("%g× real time", o.speed)
-	}
-	centre := "unknown centre"
-	if info.CenterHz > 0 {
-		centre = fmt.Sprintf("centre %.0f Hz", info.CenterHz)
-	}
-	if o.loop {
-		pace += ", looping"
-	}
-	fmt.Fprintf(errOut, "nullseek: replaying %s (%.0f S/s %s, %s) on rtl_tcp %s, %s\n",
-		path, info.SampleRate, info.Format, centre, ln.Addr(), pace)
-	log := warnlog.NewProgress(errOut, "nullseek")
-	err = sdr.ServeReplay(ctx, ln, open, sdr.ReplayOptions{Speed: o.speed, Loop: o.loop, Logger: log})
-	if errors.Is(err, context.Canceled) {
-		fmt.Fprintln(errOut, "nullseek: replay stopped")
-		return nil
-	}
-	return err
 }

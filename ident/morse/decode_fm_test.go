@@ -3,7 +3,6 @@ package morse
 import (
 	"fmt"
 	"os"
-	"os/exec"
 	"path/filepath"
 	"sort"
 	"strings"
@@ -106,7 +105,7 @@ func checkCER(t *testing.T, rows []cerRow) {
 func TestFMFreeDecodeCER(t *testing.T) {
 	dir := filepath.Join(identtest.MorseDir, "fm")
 	sox, mm := "", ""
-	if _, err := exec.LookPath("multimon-ng"); err == nil || os.Getenv("NULLSEEK_REQUIRE_TOOLS") == "1" {
+	if testtool.Have(t, "multimon-ng") {
 		mm = testtool.Need(t, "multimon-ng")
 		sox = testtool.Need(t, "sox")
 	} else {

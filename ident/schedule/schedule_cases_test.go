@@ -166,79 +166,59 @@ func TestScheduleSingleBurstTransmitter(t *testing.T) {
 // period_sigma_s, on_s, gap_s, drift_ppm, next_on, collisions[].a/b/at/at_s),
 // RFC 3339 times when the capture start is known, seconds otherwise.
 func TestScheduleJSONShape(t *testing.T) {
-	start := time.Date(2025, 5, 17, 9, 0, 0, 0, time.UTC)
-	rng := rand.New(rand.NewPCG(1, 99))
-	c := slotSimCases[2]
-	for _, withStart := range []bool{true, false} {
-		t.Run(fmt.Sprintf("start_known_%v", withStart), func(t *testing.T) {
-			c.start = time.Time{}
-			if withStart {
-				c.start = start
+	eachStart(t, rand.New(rand.NewPCG(1, 99)), func(t *testing.T, start time.Time, plan *Plan, b []byte) {
+		var doc struct {
+			Type         string                    `json:"type"`
+			Order        []string                  `json:"order"`
+			TxList       []map[string]any          `json:"transmitters"`
+			Transmitters map[string]map[string]any `json:"-"`
+			Collisions   []map[string]any          `json:"collisions"`
+			Overlaps     []any                     `json:"overlaps"`
+			DriftRef     string                    `json:"drift_reference"`
+		}
+		if err := json.Unmarshal(b, &doc); err != nil {
+			t.Fatal(err)
+		}
+		doc.Transmitters = txByIdent(doc.TxList)
+		if doc.Type != "schedule" {
+			t.Errorf(`"type" %q, want "schedule" (every JSON line nullseek writes says its type)`, doc.Type)
+		}
+		for i, tx := range doc.TxList {
+			if tx["ident"] != plan.Order[i] {
+				t.Errorf("transmitters[%d] is %v, want %s: the list follows the cycle order", i, tx["ident"], plan.Order[i])
 			}
-			obs, endS := slotSimulate(c, rng)
-			opts := DefaultOptions()
-			opts.NominalPeriodS, opts.CaptureEndS = 300, endS
-			plan, err := Build(obs, nil, opts)
-			if err != nil {
-				t.Fatal(err)
-			}
-			b, err := json.Marshal(plan)
-			if err != nil {
-				t.Fatal(err)
-			}
-			var doc struct {
-				Type         string                    `json:"type"`
-				Order        []string                  `json:"order"`
-				TxList       []map[string]any          `json:"transmitters"`
-				Transmitters map[string]map[string]any `json:"-"`
-				Collisions   []map[string]any          `json:"collisions"`
-				Overlaps     []any                     `json:"overlaps"`
-				DriftRef     string                    `json:"drift_reference"`
-			}
-			if err := json.Unmarshal(b, &doc); err != nil {
-				t.Fatal(err)
-			}
-			doc.Transmitters = txByIdent(doc.TxList)
-			if doc.Type != "schedule" {
-				t.Errorf(`"type" %q, want "schedule" (every JSON line nullseek writes says its type)`, doc.Type)
-			}
-			for i, tx := range doc.TxList {
-				if tx["ident"] != plan.Order[i] {
-					t.Errorf("transmitters[%d] is %v, want %s: the list follows the cycle order", i, tx["ident"], plan.Order[i])
+		}
+		if !slices.Equal(doc.Order, plan.Order) || len(doc.Transmitters) != 5 || doc.DriftRef != "nominal 300 s" || doc.Overlaps == nil {
+			t.Fatalf("document %s", b)
+		}
+		for id, tx := range doc.Transmitters {
+			for _, k := range []string{"period_s", "period_sigma_s", "on_s", "gap_s", "drift_ppm"} {
+				if _, ok := tx[k].(float64); !ok {
+					t.Errorf("%s.%s = %v, want a number", id, k, tx[k])
 				}
 			}
-			if !slices.Equal(doc.Order, plan.Order) || len(doc.Transmitters) != 5 || doc.DriftRef != "nominal 300 s" || doc.Overlaps == nil {
-				t.Fatalf("document %s", b)
+			next, _ := tx["next_on"].([]any)
+			if len(next) != 3 {
+				t.Fatalf("%s.next_on = %v", id, tx["next_on"])
 			}
-			for id, tx := range doc.Transmitters {
-				for _, k := range []string{"period_s", "period_sigma_s", "on_s", "gap_s", "drift_ppm"} {
-					if _, ok := tx[k].(float64); !ok {
-						t.Errorf("%s.%s = %v, want a number", id, k, tx[k])
-					}
-				}
-				next, _ := tx["next_on"].([]any)
-				if len(next) != 3 {
-					t.Fatalf("%s.next_on = %v", id, tx["next_on"])
-				}
-				for n, v := range next {
-					want := plan.Transmitter(id).NextOnS[n]
-					slotCheckWhen(t, v, withStart, start, want)
-				}
+			for n, v := range next {
+				want := plan.Transmitter(id).NextOnS[n]
+				slotCheckWhen(t, v, !start.IsZero(), start, want)
 			}
-			if len(doc.Collisions) == 0 {
-				t.Fatal("no collisions in the document")
+		}
+		if len(doc.Collisions) == 0 {
+			t.Fatal("no collisions in the document")
+		}
+		for _, col := range doc.Collisions {
+			a, _ := col["a"].(string)
+			bb, _ := col["b"].(string)
+			atS, ok := col["at_s"].(float64)
+			if a == "" || bb == "" || !ok {
+				t.Fatalf("collision %v", col)
 			}
-			for _, col := range doc.Collisions {
-				a, _ := col["a"].(string)
-				bb, _ := col["b"].(string)
-				atS, ok := col["at_s"].(float64)
-				if a == "" || bb == "" || !ok {
-					t.Fatalf("collision %v", col)
-				}
-				slotCheckWhen(t, col["at"], withStart, start, atS)
-			}
-		})
-	}
+			slotCheckWhen(t, col["at"], !start.IsZero(), start, atS)
+		}
+	})
 }
 
 func slotCheckWhen(t *testing.T, v any, withStart bool, start time.Time, wantS float64) {
@@ -263,17 +243,45 @@ func slotCheckWhen(t *testing.T, v any, withStart bool, start time.Time, wantS f
 	}
 }
 
-func TestScheduleWriteTable(t *testing.T) {
-	rng := rand.New(rand.NewPCG(2, 99))
+// simPlan builds the plan of the third simulated case (slotSimCases[2],
+// nominal period 300 s) with the capture start given (zero: unknown) and
+// extra observations added.
+func simPlan(t testing.TB, rng *rand.Rand, start time.Time, extra ...fingerprint.Observation) *Plan {
+	t.Helper()
 	c := slotSimCases[2]
+	c.start = start
 	obs, endS := slotSimulate(c, rng)
-	obs = append(obs, fingerprint.Observation{Index: 999, StartS: 200, EndS: 210, Ident: "N0CALL/9"})
 	opts := DefaultOptions()
 	opts.NominalPeriodS, opts.CaptureEndS = 300, endS
-	plan, err := Build(obs, nil, opts)
+	plan, err := Build(append(obs, extra...), nil, opts)
 	if err != nil {
 		t.Fatal(err)
 	}
+	return plan
+}
+
+// eachStart runs f on simPlan's plan and its JSON in two subtests: with
+// the capture start known (2025-05-17 09:00 UTC) and unknown.
+func eachStart(t *testing.T, rng *rand.Rand, f func(t *testing.T, start time.Time, plan *Plan, js []byte)) {
+	for _, withStart := range []bool{true, false} {
+		t.Run(fmt.Sprintf("start_known_%v", withStart), func(t *testing.T) {
+			var start time.Time
+			if withStart {
+				start = time.Date(2025, 5, 17, 9, 0, 0, 0, time.UTC)
+			}
+			plan := simPlan(t, rng, start)
+			js, err := json.Marshal(plan)
+			if err != nil {
+				t.Fatal(err)
+			}
+			f(t, start, plan, js)
+		})
+	}
+}
+
+func TestScheduleWriteTable(t *testing.T) {
+	rng := rand.New(rand.NewPCG(2, 99))
+	plan := simPlan(t, rng, time.Time{}, fingerprint.Observation{Index: 999, StartS: 200, EndS: 210, Ident: "N0CALL/9"})
 	var buf bytes.Buffer
 	if err := plan.WriteTable(&buf); err != nil {
 		t.Fatal(err)

@@ -3,7 +3,6 @@ package schedule
 import (
 	"bytes"
 	"encoding/json"
-	"fmt"
 	"math/rand/v2"
 	"strings"
 	"testing"
@@ -14,55 +13,35 @@ import (
 // plan read back yields the same bytes (null for NaN included), and the
 // UTC times are the builder's, with and without a known capture start.
 func TestReadPlanJSONRoundTrip(t *testing.T) {
-	start := time.Date(2025, 5, 17, 9, 0, 0, 0, time.UTC)
-	rng := rand.New(rand.NewPCG(7, 11))
-	for _, withStart := range []bool{true, false} {
-		t.Run(fmt.Sprintf("start_known_%v", withStart), func(t *testing.T) {
-			c := slotSimCases[2]
-			c.start = time.Time{}
-			if withStart {
-				c.start = start
+	eachStart(t, rand.New(rand.NewPCG(7, 11)), func(t *testing.T, _ time.Time, plan *Plan, want []byte) {
+		back, err := ReadPlanJSON(bytes.NewReader(want))
+		if err != nil {
+			t.Fatal(err)
+		}
+		got, err := json.Marshal(back)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !bytes.Equal(got, want) {
+			t.Fatalf("round trip differs:\n got %s\nwant %s", got, want)
+		}
+		for i, tx := range plan.Transmitters {
+			b := back.Transmitters[i]
+			if len(b.NextOn) != len(tx.NextOn) {
+				t.Fatalf("%s: %d next-on times, want %d", tx.ID, len(b.NextOn), len(tx.NextOn))
 			}
-			obs, endS := slotSimulate(c, rng)
-			opts := DefaultOptions()
-			opts.NominalPeriodS, opts.CaptureEndS = 300, endS
-			plan, err := Build(obs, nil, opts)
-			if err != nil {
-				t.Fatal(err)
-			}
-			want, err := json.Marshal(plan)
-			if err != nil {
-				t.Fatal(err)
-			}
-			back, err := ReadPlanJSON(bytes.NewReader(want))
-			if err != nil {
-				t.Fatal(err)
-			}
-			got, err := json.Marshal(back)
-			if err != nil {
-				t.Fatal(err)
-			}
-			if !bytes.Equal(got, want) {
-				t.Fatalf("round trip differs:\n got %s\nwant %s", got, want)
-			}
-			for i, tx := range plan.Transmitters {
-				b := back.Transmitters[i]
-				if len(b.NextOn) != len(tx.NextOn) {
-					t.Fatalf("%s: %d next-on times, want %d", tx.ID, len(b.NextOn), len(tx.NextOn))
-				}
-				for k := range tx.NextOn {
-					if d := b.NextOn[k].Sub(tx.NextOn[k]); d > 50*time.Microsecond || d < -50*time.Microsecond { // written to 0.1 ms
-						t.Errorf("%s next_on[%d] = %v, want %v", tx.ID, k, b.NextOn[k], tx.NextOn[k])
-					}
+			for k := range tx.NextOn {
+				if d := b.NextOn[k].Sub(tx.NextOn[k]); d > 50*time.Microsecond || d < -50*time.Microsecond { // written to 0.1 ms
+					t.Errorf("%s next_on[%d] = %v, want %v", tx.ID, k, b.NextOn[k], tx.NextOn[k])
 				}
 			}
-			for i, c := range plan.Collisions {
-				if d := back.Collisions[i].At.Sub(c.At); d > 50*time.Microsecond || d < -50*time.Microsecond {
-					t.Errorf("collision %d at %v, want %v", i, back.Collisions[i].At, c.At)
-				}
+		}
+		for i, c := range plan.Collisions {
+			if d := back.Collisions[i].At.Sub(c.At); d > 50*time.Microsecond || d < -50*time.Microsecond {
+				t.Errorf("collision %d at %v, want %v", i, back.Collisions[i].At, c.At)
 			}
-		})
-	}
+		}
+	})
 }
 
 // Input that is not a plan gets one error saying what is wrong.

@@ -2,14 +2,12 @@ package geodesic
 
 import (
 	"bufio"
-	"bytes"
 	"fmt"
 	"math"
 	"math/rand"
 	"nullseek/internal/angle"
 	"nullseek/internal/testtool"
 	"os"
-	"os/exec"
 	"path/filepath"
 	"strconv"
 	"strings"
@@ -52,38 +50,16 @@ func readRows(t *testing.T, path string) (fields [][]string, nums [][]float64) {
 // runTool feeds lines to a program and returns its output lines, one per input.
 func runTool(t *testing.T, in []string, prog string, args ...string) []string {
 	t.Helper()
-	cmd := exec.Command(prog, args...)
-	cmd.Stdin = strings.NewReader(strings.Join(in, "\n") + "\n")
-	var out, stderr bytes.Buffer
-	cmd.Stdout, cmd.Stderr = &out, &stderr
-	if err := cmd.Run(); err != nil {
-		t.Fatalf("%s %v: %v (%s)", prog, args, err, stderr.String())
-	}
-	lines := strings.Split(strings.TrimRight(out.String(), "\n"), "\n")
+	out := testtool.Run(t, strings.Join(in, "\n")+"\n", prog, args...)
+	lines := strings.Split(strings.TrimRight(out, "\n"), "\n")
 	if len(lines) != len(in) {
 		t.Fatalf("%s: %d output lines for %d inputs", prog, len(lines), len(in))
 	}
 	return lines
 }
 
-func parseFloats(t *testing.T, s string) []float64 {
-	t.Helper()
-	var r []float64
-	for _, f := range strings.Fields(s) {
-		v, err := strconv.ParseFloat(f, 64)
-		if err != nil {
-			t.Fatalf("parse %q: %v", s, err)
-		}
-		r = append(r, v)
-	}
-	return r
-}
-
-// angErr is |a − b| in degrees modulo 360.
-func angErr(a, b float64) float64 {
-	d := math.Abs(math.Remainder(a-b, 360))
-	return d
-}
+// angErr is |a − b| in degrees round the circle (internal/angle).
+func angErr(a, b float64) float64 { return math.Abs(angle.Diff(a, b)) }
 
 // TestInverseGeodSolve compares Inverse with GeographicLib's GeodSolve 2.1.2
 // ("GeodSolve -i -p 9", Debian geographiclib-tools) on the 550 pairs of
@@ -95,14 +71,14 @@ func TestInverseGeodSolve(t *testing.T) {
 	if len(rows) < 500 {
 		t.Fatalf("only %d reference rows", len(rows))
 	}
-	if _, err := exec.LookPath("GeodSolve"); err == nil {
+	if testtool.Have(t, "GeodSolve") {
 		in := make([]string, len(fields))
 		for i, f := range fields {
 			in[i] = strings.Join(f[:4], " ")
 		}
 		out := runTool(t, in, "GeodSolve", "-i", "-p", "9")
 		for i, o := range out {
-			v := parseFloats(t, o)
+			v := testtool.ParseFloats(t, o)
 			if len(v) != 3 {
 				t.Fatalf("GeodSolve line %d: %q", i, o)
 			}
@@ -147,14 +123,14 @@ func TestDirectGeodSolve(t *testing.T) {
 	if len(rows) < 300 {
 		t.Fatalf("only %d reference rows", len(rows))
 	}
-	if _, err := exec.LookPath("GeodSolve"); err == nil {
+	if testtool.Have(t, "GeodSolve") {
 		in := make([]string, len(fields))
 		for i, f := range fields {
 			in[i] = strings.Join(f[:4], " ")
 		}
 		out := runTool(t, in, "GeodSolve", "-p", "9")
 		for i, o := range out {
-			v := parseFloats(t, o)
+			v := testtool.ParseFloats(t, o)
 			if len(v) != 3 {
 				t.Fatalf("GeodSolve line %d: %q", i, o)
 			}
@@ -398,7 +374,7 @@ func TestGeodPROJ(t *testing.T) {
 	// Flinders Peak → Buninyong, compared on GRS80 separately below.
 	out := runTool(t, in, geod, "+ellps=WGS84", "-I", "-f", "%.10f", "-F", "%.6f")
 	for i, o := range out {
-		v := parseFloats(t, o)
+		v := testtool.ParseFloats(t, o)
 		r := pick[i]
 		s12, azi1, azi2 := Inverse(r[0], r[1], r[2], r[3])
 		if s12 == 0 {
@@ -414,7 +390,7 @@ func TestGeodPROJ(t *testing.T) {
 	// [V] PROJ 9.1.1: geod +ellps=GRS80 -I -f "%.8f" -F "%.4f" on Flinders→Buninyong.
 	out = runTool(t, []string{"-37.950922305555556 144.42486788888889 -37.652821138888889 143.92649552777778"},
 		geod, "+ellps=GRS80", "-I", "-f", "%.8f", "-F", "%.4f")
-	v := parseFloats(t, out[0])
+	v := testtool.ParseFloats(t, out[0])
 	s12, azi1, azi2 := GRS80.Inverse(-37.950922305555556, 144.42486788888889, -37.652821138888889, 143.92649552777778)
 	if math.Abs(s12-v[2]) > 1e-4 || angErr(azi1, v[0]) > 1e-8 || angErr(angle.Wrap360(azi2+180), v[1]) > 1e-8 {
 		t.Errorf("GRS80 Flinders→Buninyong: got %.8f %.8f %.4f, geod %q", azi1, angle.Wrap360(azi2+180), s12, out[0])
@@ -469,7 +445,7 @@ func TestENUProjAeqd(t *testing.T) {
 		out := runTool(t, []string{fmt.Sprintf("%.12f %.12f", lon, lat)}, proj,
 			"+proj=aeqd", fmt.Sprintf("+lat_0=%.12f", lat0), fmt.Sprintf("+lon_0=%.12f", lon0),
 			"+ellps=WGS84", "-f", "%.6f")
-		v := parseFloats(t, out[0])
+		v := testtool.ParseFloats(t, out[0])
 		e, n := ENU(lat0, lon0, lat, lon)
 		if math.Abs(e-v[0]) > 2e-6 || math.Abs(n-v[1]) > 2e-6 {
 			t.Errorf("ENU(%g,%g → %g,%g) = (%.6f, %.6f), proj aeqd %q", lat0, lon0, lat, lon, e, n, out[0])
