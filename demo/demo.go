@@ -208,7 +208,9 @@ func Run(ctx context.Context, out, progress io.Writer, outDir string, writeIQ bo
 	for _, r := range first.Records {
 		labels = append(labels, r.Ident)
 	}
-	plan, err := schedule.Build(obs, labels, schedule.Options{NominalPeriodS: sc.Beacons[0].PeriodS})
+	so := schedule.DefaultOptions()
+	so.NominalPeriodS, so.CaptureEndS = sc.Beacons[0].PeriodS, sc.DurationS
+	plan, err := schedule.Build(obs, labels, so)
 	if err != nil {
 		plan = nil
 		fmt.Fprintf(w, "Slot schedule: %v\n\n", err)

@@ -203,6 +203,10 @@ func (p *Plan) MarshalJSON() ([]byte, error) {
 	return json.Marshal(out)
 }
 
+// fmtNextSigma is a next start's 1σ in seconds as both of the table's
+// places print it.
+func fmtNextSigma(s float64) string { return fmtNum(s, "%.3f") }
+
 // WriteTable writes the plan for people: the cycle order, one row per
 // transmitter, then forecast collisions, overlaps seen and notes.
 func (p *Plan) WriteTable(w io.Writer) error {
@@ -217,16 +221,16 @@ func (p *Plan) WriteTable(w io.Writer) error {
 	}
 	fmt.Fprintln(ew)
 	tw := tabwriter.NewWriter(ew, 0, 0, 2, ' ', tabwriter.AlignRight)
-	fmt.Fprintln(tw, "transmitter\tbursts\tperiod s\t± s\ton s\tgap s\tdrift ppm\t± ppm\tnext on\t± s\t")
+	fmt.Fprintln(tw, "transmitter\tbursts\tperiod s\t± s\ton s\tgap s\tdrift ppm\t± ppm\tnext on (UTC)\t± s\t")
 	for _, t := range p.Transmitters {
 		next, nsig := "-", "-"
 		if len(t.NextOnS) > 0 {
 			if len(t.NextOn) > 0 && !t.NextOn[0].IsZero() {
-				next = t.NextOn[0].Format("15:04:05.0")
+				next = t.NextOn[0].UTC().Format("15:04:05.0")
 			} else {
 				next = fmt.Sprintf("+%.1f", t.NextOnS[0])
 			}
-			nsig = fmt.Sprintf("%.3f", t.NextOnSigmaS[0])
+			nsig = fmtNextSigma(t.NextOnSigmaS[0])
 		}
 		fmt.Fprintf(tw, "%s\t%d\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t\n", t.ID, t.Bursts,
 			fmtNum(t.PeriodS, "%.4f"), fmtNum(t.PeriodSigmaS, "%.4f"), fmtNum(t.OnS, "%.1f"),
@@ -243,7 +247,7 @@ func (p *Plan) WriteTable(w io.Writer) error {
 		more = more || len(t.NextOnS) > 1
 	}
 	if more {
-		fmt.Fprintln(ew, "\nnext on (± 1σ):")
+		fmt.Fprintln(ew, "\nnext on (UTC, or s from the capture start; ± 1σ in s):")
 		for _, t := range p.Transmitters {
 			if len(t.NextOnS) == 0 {
 				continue
@@ -252,9 +256,9 @@ func (p *Plan) WriteTable(w io.Writer) error {
 			for i, s := range t.NextOnS {
 				when := fmt.Sprintf("+%.1f s", s)
 				if i < len(t.NextOn) && !t.NextOn[i].IsZero() {
-					when = t.NextOn[i].Format("15:04:05.0")
+					when = t.NextOn[i].UTC().Format("15:04:05.0")
 				}
-				at = append(at, fmt.Sprintf("%s ± %.2f", when, t.NextOnSigmaS[i]))
+				at = append(at, fmt.Sprintf("%s ± %s", when, fmtNextSigma(t.NextOnSigmaS[i])))
 			}
 			fmt.Fprintf(ew, "  %s: %s\n", t.ID, strings.Join(at, ", "))
 		}
