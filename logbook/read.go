@@ -57,7 +57,7 @@ func openRead(path string) (*store.DB, error) {
 	}
 	db, err := store.Open(path, store.Options{ReadOnly: true})
 	if err != nil {
-		return nil, fmt.Errorf("--db %s: %w", path, err)
+		return nil, fmt.Errorf("--db: %w", err) // the store names the file
 	}
 	return db, nil
 }

@@ -6,6 +6,7 @@ import (
 	"database/sql/driver"
 	"errors"
 	"fmt"
+	"io/fs"
 	"math"
 	"net/url"
 	"os"
@@ -130,6 +131,9 @@ func open(path string, opts Options, steps []migration) (*DB, error) {
 		// SQLite would create an empty file for mode=ro on some paths;
 		// a read-only open of nothing is a mistake worth saying.
 		if _, err := os.Stat(path); err != nil {
+			if errors.Is(err, fs.ErrNotExist) {
+				return nil, fmt.Errorf("store: %s: no such database (nothing to read)", path)
+			}
 			return nil, fmt.Errorf("store: %s: %w", path, err)
 		}
 	}
