@@ -85,8 +85,14 @@ func (r Record) MarshalJSON() ([]byte, error) {
 // WriteTable prints the records as a table for people.
 func (res *Result) WriteTable(w io.Writer) error {
 	tw := &errWriter{w: w}
+	// a start is UTC when the recording says when it began, else seconds
+	// from the capture start (StartTime)
+	start := "start s"
+	if !res.Info.Start.IsZero() {
+		start = "start UTC"
+	}
 	fmt.Fprintf(tw, "%-4s %-12s %7s %10s %8s %6s %5s %-12s %5s %-4s %s\n",
-		"#", "start", "len s", "offset Hz", "dBFS", "SNR", "tone", "ident", "conf", "tx", "text")
+		"#", start, "len s", "offset Hz", "dBFS", "SNR dB", "tone", "ident", "conf", "tx", "text")
 	for _, r := range res.Records {
 		text := r.Text
 		if len(text) > 40 {
