@@ -8,6 +8,7 @@ import (
 	"math"
 	"sort"
 	"strings"
+	"unicode/utf8"
 
 	"nullseek/geo"
 )
@@ -106,13 +107,14 @@ func writeFix(w io.Writer, f *geo.Fix, nameGrid bool) {
 	if f.HasCockedHat {
 		fmt.Fprintf(w, "  cocked hat  %.0f m across\n", f.CockedHatM)
 	}
+	sw := stationWidth(f.Bearings)
 	if len(f.Bearings) <= maxBearingLines {
-		fmt.Fprintf(w, "  %-12s %8s %6s %9s %9s  %s\n", "station", "bearing", "sigma", "residual", "range", "status")
+		fmt.Fprintf(w, "  %-*s %14s %6s %9s %9s  %s\n", sw, "station", "bearing (true)", "sigma", "residual", "range", "status")
 		for _, b := range f.Bearings {
-			writeBearing(w, b)
+			writeBearing(w, b, sw)
 		}
 	} else {
-		writeStations(w, f)
+		writeStations(w, f, sw)
 	}
 	for _, wn := range f.Warnings {
 		fmt.Fprintf(w, "  warning: %s\n", wn)
@@ -120,17 +122,27 @@ func writeFix(w io.Writer, f *geo.Fix, nameGrid bool) {
 	fmt.Fprintln(w)
 }
 
-func writeBearing(w io.Writer, b geo.BearingUse) {
+// stationWidth is the station column's width: the longest name (a
+// station named by its coordinates is 17 characters), at least 12.
+func stationWidth(bs []geo.BearingUse) int {
+	n := 12
+	for _, b := range bs {
+		n = max(n, utf8.RuneCountInString(b.Station))
+	}
+	return n
+}
+
+func writeBearing(w io.Writer, b geo.BearingUse, sw int) {
 	status := "used"
 	if !b.Used {
 		status = "REJECTED: " + b.Reason
 	}
-	fmt.Fprintf(w, "  %-12s %7.1f° %5.1f° %8.1f° %7.2fkm  %s\n", b.Station, b.BearingDeg, b.SigmaDeg, b.ResidualDeg, b.DistM/1e3, status)
+	fmt.Fprintf(w, "  %-*s %13.1f° %5.1f° %8.1f° %7.2fkm  %s\n", sw, b.Station, b.BearingDeg, b.SigmaDeg, b.ResidualDeg, b.DistM/1e3, status)
 }
 
 // writeStations prints one line per station (bearings, used, weighted mean
 // residual, range) and the rejected bearings.
-func writeStations(w io.Writer, f *geo.Fix) {
+func writeStations(w io.Writer, f *geo.Fix, sw int) {
 	type acc struct {
 		n, used  int
 		sw, swr  float64
@@ -159,14 +171,14 @@ func writeStations(w io.Writer, f *geo.Fix) {
 		}
 	}
 	sort.SliceStable(names, func(i, j int) bool { return m[names[i]].firstIdx < m[names[j]].firstIdx })
-	fmt.Fprintf(w, "  %-12s %8s %6s %14s %9s\n", "station", "bearings", "used", "mean residual", "range")
+	fmt.Fprintf(w, "  %-*s %8s %6s %14s %9s\n", sw, "station", "bearings", "used", "mean residual", "range")
 	for _, n := range names {
 		a := m[n]
 		mr := "-"
 		if a.sw > 0 {
 			mr = fmt.Sprintf("%.2f°", a.swr/a.sw)
 		}
-		fmt.Fprintf(w, "  %-12s %8d %6d %14s %7.2fkm\n", n, a.n, a.used, mr, a.distM/1e3)
+		fmt.Fprintf(w, "  %-*s %8d %6d %14s %7.2fkm\n", sw, n, a.n, a.used, mr, a.distM/1e3)
 	}
 	if len(rejected) > 0 {
 		fmt.Fprintf(w, "  %d rejected:\n", len(rejected))
@@ -175,7 +187,7 @@ func writeStations(w io.Writer, f *geo.Fix) {
 				fmt.Fprintf(w, "  … and %d more (see --json)\n", len(rejected)-i)
 				break
 			}
-			writeBearing(w, b)
+			writeBearing(w, b, sw)
 		}
 	}
 }
