@@ -3,7 +3,6 @@ package geo
 import (
 	"fmt"
 	"math"
-	"time"
 )
 
 // Place fills the fix's Maidenhead locator (8 characters), its event-grid
@@ -156,7 +155,7 @@ func (f *Fix) Report() FixReport {
 		br := BearingReport{Station: b.Station, Lat: b.Lat, Lon: b.Lon, BearingDeg: round(b.BearingDeg, 3),
 			SigmaDeg: b.SigmaDeg, ResidualDeg: round(b.ResidualDeg, 3), DistM: round(b.DistM, 1), Row: b.Row, Reason: b.Reason}
 		if !b.Time.IsZero() {
-			br.Time = b.Time.UTC().Format(time.RFC3339)
+			br.Time = b.Time.UTC().Format(BearingTimeLayout) // as the bearings files write it
 		}
 		if b.Used {
 			r.Used = append(r.Used, br)
