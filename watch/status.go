@@ -54,6 +54,10 @@ func (w *watcher) statusLine(now time.Time, wall time.Duration, samples int64, c
 	fmt.Fprintf(&b, "  input %s", capture.LevelBar(math.Float64frombits(w.inputDB.Load())))
 	for _, l := range w.chans {
 		fmt.Fprintf(&b, "  %s ", l.name())
+		if len(w.chans) > 1 {
+			n := l.bursts.Load()
+			fmt.Fprintf(&b, "(%d burst%s) ", n, map[bool]string{true: "", false: "s"}[n == 1])
+		}
 		if ch := math.Float64frombits(l.channelDB.Load()); !math.IsNaN(ch) {
 			fmt.Fprintf(&b, "%.1f dBFS", ch)
 			if n := math.Float64frombits(l.noiseDB.Load()); !math.IsNaN(n) && !math.IsInf(n, 0) {
@@ -65,9 +69,6 @@ func (w *watcher) statusLine(now time.Time, wall time.Duration, samples int64, c
 			if lb := l.lastBurst.Load(); lb != nil {
 				fmt.Fprintf(&b, " (last burst %.1f dBFS, SNR %.1f dB)", lb[0], lb[1])
 			}
-		}
-		if len(w.chans) > 1 {
-			fmt.Fprintf(&b, " %d bursts", l.bursts.Load())
 		}
 	}
 	deg, have := w.hs.latest()
