@@ -597,8 +597,15 @@ func (v *validator) channels(r *raw, f *File) {
 				v.fail(key+".freq", "%s Hz is also channel %d", num(hz), j)
 			}
 			seen[hz] = i + 1
-			if rx := f.Receiver; rx.CentreHz > 0 && rx.SampleRateHz > 0 && math.Abs(hz-rx.CentreHz) >= rx.SampleRateHz/2 {
-				v.fail(key+".freq", "%s Hz is outside the band received around receiver.centre: %s ± %s Hz", num(hz), num(rx.CentreHz), num(rx.SampleRateHz/2))
+			if rx := f.Receiver; rx.CentreHz > 0 && rx.SampleRateHz > 0 && math.Abs(hz-rx.CentreHz)+ChannelHalfWidthHz > rx.SampleRateHz/2 {
+				v.fail(key+".freq", "%s Hz is outside the band received around receiver.centre: the channel (± %s Hz) must lie inside %s ± %s Hz",
+					num(hz), num(ChannelHalfWidthHz), num(rx.CentreHz), num(rx.SampleRateHz/2))
+			}
+			for j, o := range f.Channels {
+				if o.FreqHz > 0 && math.Abs(hz-o.FreqHz) < 2*ChannelHalfWidthHz && hz != o.FreqHz {
+					v.fail(key+".freq", "%s Hz overlaps channel %d (%s Hz): a channel is %s Hz wide, so channels must be at least that far apart",
+						num(hz), j+1, num(o.FreqHz), num(2*ChannelHalfWidthHz))
+				}
 			}
 			c.FreqHz = hz
 		}
@@ -622,7 +629,19 @@ func (v *validator) channels(r *raw, f *File) {
 		c.IDs = append([]string(nil), rc.IDs...)
 		f.Channels = append(f.Channels, c)
 	}
+	if n := len(r.Channel); n > 1 && f.Receiver.CentreHz == 0 {
+		v.fail("receiver.centre", "missing: a station file with %d channels gives the tuning frequency that puts them all in the band received (each ± %s Hz inside centre ± sample_rate/2)",
+			n, num(ChannelHalfWidthHz))
+	}
 }
+
+// ChannelHalfWidthHz is how far either side of its frequency a channel
+// reaches: the stopband edge of the receiver's channel filter
+// (receiver.DefaultConfig.StopHz, which a watch test holds equal to this;
+// station sits beside receiver in the layering and cannot import it). A
+// channel must lie whole inside the band the receiver passes, and two
+// channels at least twice this apart.
+const ChannelHalfWidthHz = 12000.0
 
 func (v *validator) heading(r *raw, f *File) {
 	h := &f.Heading

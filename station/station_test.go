@@ -54,7 +54,7 @@ func TestExampleFiles(t *testing.T) {
 	}
 	if w.Position.Source != PositionGPSD || w.Position.HasLatLon || w.Position.GPSD != "127.0.0.1:2947" ||
 		w.Antenna.MountOffsetDeg != -90 || w.Receiver.USBIndex != 0 || w.Receiver.SampleRateHz != 1024000 || w.Receiver.PPM != -12 ||
-		len(w.Channels) != 2 || w.Channels[0].FreqHz != 144525000 || w.Channels[1].FreqHz != 145.6e6 || w.Channels[1].Mode != "cw" ||
+		len(w.Channels) != 2 || w.Channels[0].FreqHz != 144525000 || w.Channels[1].FreqHz != 145e6 || w.Receiver.CentreHz != 144.8e6 || w.Channels[1].Mode != "cw" ||
 		w.Heading.Compass != "udp://:10110" || w.Heading.Reference != "magnetic" || w.Heading.LagS != 0.25 ||
 		w.Database != filepath.Join(dir, "../hunt/hunt.db") {
 		t.Errorf("walker: %+v", w)
@@ -218,6 +218,10 @@ func TestErrors(t *testing.T) {
 		{"furlongs", []string{`freq = "144.525MHz"`, `freq = "5 furlongs"`}, "furlongs", "channel[1].freq", "unknown unit"},
 		{"freq bool", []string{`freq = "144.525MHz"`, `freq = true`}, "freq = true", "channel[1].freq", "want a frequency"},
 		{"outside band", []string{`freq = "144.525MHz"`, `freq = "146.0MHz"`}, `"146.0MHz"`, "channel[1].freq", "outside the band"},
+		{"band edge", []string{`freq = "144.525MHz"`, `freq = "145.590MHz"`}, `"145.590MHz"`, "channel[1].freq", "must lie inside 144400000 ± 1200000 Hz"},
+		{"two, no centre", []string{`centre = "144.4MHz"`, "", `mode = "auto"`, "mode = \"auto\"\n[[channel]]\nfreq = \"144.6MHz\""}, "[receiver]", "receiver.centre", "a station file with 2 channels"},
+		{"second outside", []string{`mode = "auto"`, "mode = \"auto\"\n[[channel]]\nfreq = \"145.7MHz\""}, `"145.7MHz"`, "channel[2].freq", "outside the band received"},
+		{"overlap", []string{`mode = "auto"`, "mode = \"auto\"\n[[channel]]\nfreq = \"144.540MHz\""}, `"144.540MHz"`, "channel[2].freq", "overlaps channel 1 (144525000 Hz)"},
 		{"dup channel", []string{`mode = "auto"`, "mode = \"auto\"\n[[channel]]\nfreq = 144525000"}, "freq = 144525000", "channel[2].freq", "also channel 1"},
 		{"mode", []string{`mode = "auto"`, `mode = "ssb"`}, `"ssb"`, "channel[1].mode", "want auto, fm, am or cw"},
 		{"dup id", []string{`"N0CALL/3"]`, `"n0call/1"]`}, "ids =", "channel[1].ids", "listed twice"},
@@ -321,4 +325,32 @@ func FuzzParse(f *testing.F) {
 			}
 		}
 	})
+}
+
+// TestChannelsInOneBand: channels 25 kHz apart (a common 2 m channel
+// spacing, common practice) and channels near either edge of the band
+// received are taken; the band's edge and the spacing follow
+// ChannelHalfWidthHz exactly (2 × 12 kHz apart is enough, one hertz less
+// is not).
+func TestChannelsInOneBand(t *testing.T) {
+	add := func(freqs ...string) string {
+		s := `mode = "auto"`
+		for _, f := range freqs {
+			s += "\n[[channel]]\nfreq = \"" + f + "\""
+		}
+		return s
+	}
+	f, err := Parse(mutate(t, `mode = "auto"`, add("144.550MHz", "145.588MHz", "143.212MHz")), "kestrel.toml")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(f.Channels) != 4 || f.Channels[1].FreqHz != 144.55e6 || f.Channels[2].FreqHz != 145.588e6 || f.Channels[3].FreqHz != 143.212e6 {
+		t.Errorf("channels: %+v", f.Channels)
+	}
+	if _, err := Parse(mutate(t, `mode = "auto"`, add("144.549MHz")), "kestrel.toml"); err != nil {
+		t.Errorf("24 kHz apart: %v", err)
+	}
+	if _, err := Parse(mutate(t, `mode = "auto"`, add("144548999")), "kestrel.toml"); err == nil || !strings.Contains(err.Error(), "overlaps channel 1") {
+		t.Errorf("one hertz closer than 24 kHz: %v", err)
+	}
 }

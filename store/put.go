@@ -178,13 +178,13 @@ func transmitterID(tx *sql.Tx, ident string) (TransmitterID, error) {
 
 const upsertSchedule = `
 INSERT INTO schedules (transmitter_id, as_of_unix_ns, order_index, bursts, period_s, period_sigma_s,
-	drift_ppm, drift_sigma_ppm, t0_unix_ns, on_s, common_period_s, reason)
-VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)
+	drift_ppm, drift_sigma_ppm, t0_unix_ns, on_s, common_period_s, reason, channel_hz)
+VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)
 ON CONFLICT (transmitter_id, as_of_unix_ns) DO UPDATE SET
 	order_index = excluded.order_index, bursts = excluded.bursts, period_s = excluded.period_s,
 	period_sigma_s = excluded.period_sigma_s, drift_ppm = excluded.drift_ppm,
 	drift_sigma_ppm = excluded.drift_sigma_ppm, t0_unix_ns = excluded.t0_unix_ns, on_s = excluded.on_s,
-	common_period_s = excluded.common_period_s, reason = excluded.reason`
+	common_period_s = excluded.common_period_s, reason = excluded.reason, channel_hz = excluded.channel_hz`
 
 // PutSchedules writes a slot plan — one Schedule per transmitter, usually
 // with one AsOf — in one transaction.
@@ -202,7 +202,7 @@ func (db *DB) PutSchedules(plan []Schedule) error {
 			}
 			if _, err := tx.Exec(upsertSchedule, tid, s.AsOf.UnixNano(), s.Order, s.Bursts, fOrNil(s.PeriodS),
 				fOrNil(s.PeriodSigmaS), fOrNil(s.DriftPPM), fOrNil(s.DriftSigmaPPM), nsOrNil(s.T0),
-				fOrNil(s.OnS), fOrNil(s.CommonPeriodS), s.Reason); err != nil {
+				fOrNil(s.OnS), fOrNil(s.CommonPeriodS), s.Reason, zeroNil(s.ChannelHz)); err != nil {
 				return err
 			}
 		}

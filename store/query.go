@@ -339,7 +339,7 @@ func (db *DB) FixInput(ident string, w Window) ([]StationBearings, error) {
 // identifier. A transmitter first scheduled after t is absent.
 func (db *DB) ScheduleAt(t time.Time) ([]Schedule, error) {
 	rows, err := db.sql.Query(`SELECT t.ident, s.as_of_unix_ns, s.order_index, s.bursts, s.period_s,
-		s.period_sigma_s, s.drift_ppm, s.drift_sigma_ppm, s.t0_unix_ns, s.on_s, s.common_period_s, s.reason
+		s.period_sigma_s, s.drift_ppm, s.drift_sigma_ppm, s.t0_unix_ns, s.on_s, s.common_period_s, s.reason, s.channel_hz
 		FROM schedules s JOIN transmitters t ON t.id = s.transmitter_id
 		WHERE s.as_of_unix_ns = (SELECT max(s2.as_of_unix_ns) FROM schedules s2
 			WHERE s2.transmitter_id = s.transmitter_id AND s2.as_of_unix_ns <= ?)
@@ -353,11 +353,11 @@ func (db *DB) ScheduleAt(t time.Time) ([]Schedule, error) {
 		var s Schedule
 		var asOf int64
 		var t0 sql.NullInt64
-		var p, ps, d, ds, on, cp sql.NullFloat64
-		if err := rows.Scan(&s.Ident, &asOf, &s.Order, &s.Bursts, &p, &ps, &d, &ds, &t0, &on, &cp, &s.Reason); err != nil {
+		var p, ps, d, ds, on, cp, ch sql.NullFloat64
+		if err := rows.Scan(&s.Ident, &asOf, &s.Order, &s.Bursts, &p, &ps, &d, &ds, &t0, &on, &cp, &s.Reason, &ch); err != nil {
 			return nil, db.wrap("read schedule", err)
 		}
-		s.AsOf, s.T0 = time.Unix(0, asOf).UTC(), timeOf(t0)
+		s.AsOf, s.T0, s.ChannelHz = time.Unix(0, asOf).UTC(), timeOf(t0), ch.Float64
 		s.PeriodS, s.PeriodSigmaS, s.DriftPPM, s.DriftSigmaPPM, s.OnS, s.CommonPeriodS = ptrOf(p), ptrOf(ps), ptrOf(d), ptrOf(ds), ptrOf(on), ptrOf(cp)
 		out = append(out, s)
 	}

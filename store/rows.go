@@ -369,6 +369,9 @@ type Schedule struct {
 	OnS           *float64
 	CommonPeriodS *float64
 	Reason        string
+	// ChannelHz is the RF frequency of the channel the schedule was fitted
+	// on; 0 when unknown (stored as NULL).
+	ChannelHz float64
 }
 
 // Validate checks the schedule's fields.
@@ -387,6 +390,8 @@ func (s Schedule) Validate() error {
 		return fmt.Errorf("%w: schedule of %q: negative order or burst count", ErrBadRow, s.Ident)
 	case s.PeriodS != nil && !(*s.PeriodS > 0):
 		return fmt.Errorf("%w: schedule of %q: period %v s must be positive", ErrBadRow, s.Ident, *s.PeriodS)
+	case !finite(s.ChannelHz) || s.ChannelHz < 0:
+		return fmt.Errorf("%w: schedule of %q: channel %v Hz is not a frequency (0: unknown)", ErrBadRow, s.Ident, s.ChannelHz)
 	}
 	return nil
 }

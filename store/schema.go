@@ -15,6 +15,7 @@ var migrations = []migration{
 	{1, "stations, captures, transmitters, bursts, level readings, headings", schemaV1},
 	{2, "bearings, schedules, fixes and the indexes of the queries", schemaV2},
 	{3, "a bearing of a moving station may have no position", schemaV3},
+	{4, "a schedule row names its channel", schemaV4},
 }
 
 // SchemaVersion is the schema version this build writes (PRAGMA
@@ -256,4 +257,13 @@ DROP TABLE bearings;
 ALTER TABLE bearings_v3 RENAME TO bearings;
 CREATE INDEX bearings_station_tx_time ON bearings (station_id, transmitter_id, time_unix_ns);
 CREATE INDEX bearings_tx_time ON bearings (transmitter_id, time_unix_ns);
+`
+
+// schemaV4: a watch listening on several channels of one receiver fits a
+// slot schedule per channel, so a schedule row says which channel (RF
+// frequency, Hz) it was fitted on; NULL for rows written before, or when
+// the channel is unknown. A nullable column without a default is added in
+// place (SQLite documentation, ALTER TABLE, "ALTER TABLE ADD COLUMN").
+const schemaV4 = `
+ALTER TABLE schedules ADD COLUMN channel_hz REAL CHECK (channel_hz > 0);
 `

@@ -2,6 +2,7 @@ package watch
 
 import (
 	"context"
+	"fmt"
 	"io"
 	"math/rand/v2"
 	"testing"
@@ -54,15 +55,30 @@ func (s *noiseSource) Read(dst []complex64) (int, error) {
 // batching; the rotator is unreachable, so it is dialled every 2 s). One
 // iteration is 2^16 samples; cpu@2.4MS/s is the share of one core a live
 // stream at that rate takes.
-func BenchmarkWatchPerSample(b *testing.B) { benchWatch(b, "") }
+func BenchmarkWatchPerSample(b *testing.B) { benchWatch(b, "", 1) }
+
+// BenchmarkWatchPerSample3Channels is BenchmarkWatchPerSample listening on
+// three channels of the one stream (three scans fed by the fan-out, each
+// in its own goroutine). As the scans run on several cores at once, the
+// wall time understates the work: cpu-ns/sample is the process's CPU time
+// (getrusage) per input sample, cpu-cores@2.4MS/s the share of one core
+// that takes at 2.4 MS/s, and per-channel the third of it.
+func BenchmarkWatchPerSample3Channels(b *testing.B) { benchWatch(b, "", 3) }
 
 // BenchmarkWatchPerSampleRecord is BenchmarkWatchPerSample keeping every
 // sample as rotating SigMF pairs (Options.RecordDir: cu8 encoding, the
 // SHA-512 of every byte, 64 KiB writes and a flush with fsync each second
 // of receiver time).
-func BenchmarkWatchPerSampleRecord(b *testing.B) { benchWatch(b, b.TempDir()) }
+func BenchmarkWatchPerSampleRecord(b *testing.B) { benchWatch(b, b.TempDir(), 1) }
 
-func benchWatch(b *testing.B, recordDir string) {
+func benchWatch(b *testing.B, recordDir string, channels int) {
+	more, centre := "", ""
+	if channels > 1 {
+		centre = "centre = \"144.0MHz\"\n"
+		for i := 2; i <= channels; i++ {
+			more += fmt.Sprintf("[[channel]]\nfreq = \"%.3fMHz\"\nids = [\"N0CALL/%d\"]\n", 144.525-0.3*float64(i), i+1)
+		}
+	}
 	st, db := loadStation(b, `name = "Bench"
 database = "bench.db"
 [position]
@@ -74,10 +90,10 @@ kind = "yagi"
 source = "rtl_tcp://127.0.0.1:1"
 sample_rate = "2.4M"
 gain_db = 30
-[[channel]]
+`+centre+`[[channel]]
 freq = "144.525MHz"
 ids = ["N0CALL/1", "N0CALL/2"]
-[heading]
+`+more+`[heading]
 source = "rotator"
 reference = "true"
 rotator = "127.0.0.1:1"
@@ -86,6 +102,7 @@ sweep_to_deg = 360.0
 `)
 	const perIter = 1 << 16
 	src := newNoiseSource(st.Receiver.SampleRateHz, int64(b.N)*perIter)
+	cpu0, cpuOK := processCPU()
 	b.ResetTimer()
 	sum, err := Run(context.Background(), Options{Station: st, DB: db, RecordDir: recordDir,
 		Open: func(context.Context, sdr.RTLConfig) (sdr.Source, error) { return src, nil }})
@@ -99,4 +116,10 @@ sweep_to_deg = 360.0
 	ns := float64(b.Elapsed().Nanoseconds()) / float64(sum.Samples)
 	b.ReportMetric(ns, "ns/sample")
 	b.ReportMetric(ns*2.4e6/1e9, "cpu@2.4MS/s")
+	if cpu1, ok := processCPU(); ok && cpuOK {
+		cns := float64((cpu1 - cpu0).Nanoseconds()) / float64(sum.Samples)
+		b.ReportMetric(cns, "cpu-ns/sample")
+		b.ReportMetric(cns*2.4e6/1e9, "cpu-cores@2.4MS/s")
+		b.ReportMetric(cns*2.4e6/1e9/float64(channels), "per-channel")
+	}
 }

@@ -8,7 +8,11 @@
 // NMEA 0183 compass) and keeps nothing that grows with the run: the
 // receiver's memory is bounded (package receiver), headings are kept for a
 // few minutes (KeepHeadingsS), and the slot schedule is refitted on the
-// last MaxScheduleBursts bursts.
+// last MaxScheduleBursts bursts. Every [[channel]] of the station file is
+// listened to at once from the one receiver stream: each has its own scan,
+// expected identifiers, capture row and slot schedule, while the heading
+// source, rotator, position and store Writer are shared (see listener and
+// fanOut).
 //
 // Conventions: times are seconds from the stream's sample 0 (the
 // sample-count clock of package sdr) whose UTC time is the receiver's

@@ -53,12 +53,13 @@ func makeRecording(t *testing.T, dir string) string {
 }
 
 // makeRecordingOf is makeRecording of the given length (the same bursts,
-// 17 s on and 2 s off, go on to the end).
-func makeRecordingOf(t *testing.T, dir string, seconds float64) string {
+// 17 s on and 2 s off, go on to the end); extra arguments follow recArgs
+// (argparse keeps the last of a repeated option, so they override).
+func makeRecordingOf(t *testing.T, dir string, seconds float64, extra ...string) string {
 	t.Helper()
 	py := testtool.GNURadio(t)
 	script := filepath.Join("..", "testdata", "bearing", "make_rotating.py")
-	args := append([]string{script, "--out", dir}, recArgs...)
+	args := append(append([]string{script, "--out", dir}, recArgs...), extra...)
 	for i := range args {
 		if args[i] == "--seconds" {
 			args[i+1] = fmt.Sprint(seconds)
@@ -97,6 +98,12 @@ func serve(t *testing.T, meta string) string {
 // rotator, with its database beside it.
 func writeStation(t *testing.T, dir, rtl, rot string) string {
 	t.Helper()
+	return writeStationWith(t, dir, rtl, rot, fmt.Sprintf("[[channel]]\nfreq = %d\nmode = \"auto\"\nids = [\"N0CALL\"]\n", int64(recChannel)))
+}
+
+// writeStationWith is writeStation with the given [[channel]] tables.
+func writeStationWith(t *testing.T, dir, rtl, rot, channels string) string {
+	t.Helper()
 	toml := fmt.Sprintf(`name = "Test Ridge"
 database = "watch.db"
 
@@ -113,18 +120,14 @@ sample_rate = 240000
 centre = %d
 gain_db = 30
 
-[[channel]]
-freq = %d
-mode = "auto"
-ids = ["N0CALL"]
-
+%s
 [heading]
 source = "rotator"
 reference = "true"
 rotator = "%s"
 sweep_from_deg = 0.0
 sweep_to_deg = 120.0
-`, rtl, int64(recCentre), int64(recChannel), rot)
+`, rtl, int64(recCentre), channels, rot)
 	path := filepath.Join(dir, "station.toml")
 	if err := os.WriteFile(path, []byte(toml), 0o644); err != nil {
 		t.Fatal(err)

@@ -23,13 +23,12 @@ type liveHeadings struct {
 	pending []store.HeadingSample
 	lastDeg float64
 	have    bool
-	// snap is the track the current piece's readings are joined with
-	// (refresh), so a piece sees one consistent set of headings.
-	snap heading.Track
+	mount   float64
+	lagS    float64
 }
 
 func newLiveHeadings(ref heading.Ref, mountOffsetDeg, lagS float64) *liveHeadings {
-	return &liveHeadings{ref: ref, snap: heading.Track{Ref: ref, MountOffsetDeg: mountOffsetDeg, LagS: lagS}}
+	return &liveHeadings{ref: ref, mount: mountOffsetDeg, lagS: lagS}
 }
 
 // add records one sensor heading at tS seconds of the stream's clock; one
@@ -70,14 +69,13 @@ func (h *liveHeadings) latest() (float64, bool) {
 	return h.lastDeg, h.have
 }
 
-// refresh copies the headings kept into the snapshot the next readings are
-// joined with.
-func (h *liveHeadings) refresh() {
+// refresh copies the headings kept into snap, the track a channel's next
+// readings are joined with (so a piece sees one consistent set of
+// headings; each channel's scan keeps its own snap and reads it with
+// heading.Track.At).
+func (h *liveHeadings) refresh(snap *heading.Track) {
 	h.mu.Lock()
 	defer h.mu.Unlock()
-	h.snap.Samples = append(h.snap.Samples[:0], h.samples...)
+	snap.Ref, snap.MountOffsetDeg, snap.LagS = h.ref, h.mount, h.lagS
+	snap.Samples = append(snap.Samples[:0], h.samples...)
 }
-
-// at is the antenna heading at tS (heading.Track.At on the snapshot).
-// Only the scan's goroutine calls refresh and at.
-func (h *liveHeadings) at(tS float64) (float64, bool) { return h.snap.At(tS) }

@@ -6,6 +6,7 @@ import (
 	"strings"
 	"testing"
 
+	"nullseek/heading"
 	"nullseek/sdr"
 )
 
@@ -66,13 +67,14 @@ func TestLiveHeadingsBounded(t *testing.T) {
 	if n, max := len(h.samples), int(KeepHeadingsS*10*4/3)+2; n > max {
 		t.Errorf("%d headings kept, want at most %d", n, max)
 	}
-	h.refresh()
+	var snap heading.Track
+	h.refresh(&snap)
 	// 3599.55 s lies between the samples of 3599.5 s (359.5°) and 3599.6 s
 	// (359.6°): halfway is 359.55°.
-	if d, ok := h.at(3599.55); !ok || d < 359.54 || d > 359.56 {
+	if d, ok := snap.At(3599.55); !ok || d < 359.54 || d > 359.56 {
 		t.Errorf("at(3599.55) = %v, %v; want 359.55°", d, ok)
 	}
-	if _, ok := h.at(3599.9 - KeepHeadingsS - 60); ok {
+	if _, ok := snap.At(3599.9 - KeepHeadingsS - 60); ok {
 		t.Error("a heading older than KeepHeadingsS is still known")
 	}
 }

@@ -64,7 +64,6 @@ func loadStation(t testing.TB, toml string) (*station.File, *store.DB) {
 // project's bad-input rule), and the database is left untouched.
 func TestWatchRefuses(t *testing.T) {
 	for _, c := range []struct{ name, from, to, want string }{
-		{"two channels", "[heading]", "[[channel]]\nfreq = 144450000\n[heading]", "[[channel]]"},
 		{"a heading log", "source = \"rotator\"\nreference = \"true\"\nrotator = \"127.0.0.1:1\"\nsweep_from_deg = 0.0\nsweep_to_deg = 360.0\n", "source = \"log\"\nreference = \"true\"\nlog = \"h.csv\"\n", "heading.source"},
 		{"an NMEA position over UDP", `source = "fixed"` + "\nlat_lon = \"45.0, 6.0\"", `source = "nmea"` + "\nnmea = \"udp://:10110\"", "position.nmea"},
 	} {

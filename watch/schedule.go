@@ -9,25 +9,27 @@ import (
 	"nullseek/survey"
 )
 
-// schedule adds the burst to the latest MaxScheduleBursts, names their
-// transmitters (ident's naming, by identifier and fingerprint) and refits
-// the slot schedule, stored as of the burst's end. Fewer than three bursts
+// schedule adds the burst to the channel's latest MaxScheduleBursts, names
+// their transmitters (ident's naming, by identifier and fingerprint) and
+// refits the channel's slot schedule, stored as of the burst's end with
+// the channel's frequency. Fewer than three bursts
 // make no schedule yet (schedule.Build's minimum).
-func (w *watcher) schedule(r survey.Record) error {
+func (l *listener) schedule(r survey.Record) error {
+	w := l.w
 	r.Level, r.Fit = nil, nil // keep the record small
-	if len(w.obs) == MaxScheduleBursts {
-		w.obs = append(w.obs[:0], w.obs[1:]...)
+	if len(l.obs) == MaxScheduleBursts {
+		l.obs = append(l.obs[:0], l.obs[1:]...)
 	}
-	w.obs = append(w.obs, r)
-	if len(w.obs) < 3 || r.End.IsZero() {
+	l.obs = append(l.obs, r)
+	if len(l.obs) < 3 || r.End.IsZero() {
 		return nil
 	}
-	words := make([][]idmatch.Word, len(w.obs))
-	for i, o := range w.obs {
+	words := make([][]idmatch.Word, len(l.obs))
+	for i, o := range l.obs {
 		words[i] = o.Words
 	}
-	obs := survey.Observations(w.obs)
-	nm, err := w.idf.Name(obs, words)
+	obs := survey.Observations(l.obs)
+	nm, err := l.idf.Name(obs, words)
 	if err != nil {
 		w.logf("warning: no slot schedule after burst %s: %v", r.Start.UTC().Format(time.TimeOnly), err)
 		return nil
@@ -43,7 +45,7 @@ func (w *watcher) schedule(r survey.Record) error {
 	}
 	opts := schedule.DefaultOptions()
 	opts.NextCount = 0
-	opts.CaptureStart, opts.CaptureEndS, opts.ListedIDs = w.info.Start, r.EndS, w.ch.IDs
+	opts.CaptureStart, opts.CaptureEndS, opts.ListedIDs = w.info.Start, r.EndS, l.ch.IDs
 	plan, err := schedule.Build(obs, labels, opts)
 	if err != nil {
 		return nil // too few usable bursts yet
@@ -51,6 +53,9 @@ func (w *watcher) schedule(r survey.Record) error {
 	rows := logbook.ScheduleRows(plan, r.End)
 	if len(rows) == 0 {
 		return nil
+	}
+	for i := range rows {
+		rows[i].ChannelHz = l.ch.FreqHz
 	}
 	if err := w.o.DB.PutSchedules(rows); err != nil {
 		return w.dbErr(err)

@@ -14,6 +14,7 @@ import (
 	"nullseek/heading"
 	"nullseek/internal/angle"
 	"nullseek/station"
+	"nullseek/store"
 )
 
 var discard = slog.New(slog.NewTextHandler(io.Discard, nil))
@@ -155,6 +156,21 @@ func (w *watcher) runCompass(ctx context.Context, up func()) error {
 	}
 }
 
+// storeHeadings hands headings to the Writer under every channel's
+// capture (the rotator turns one antenna for all of them, and a channel's
+// capture reads back with its own heading track).
+func (w *watcher) storeHeadings(hs []store.HeadingSample) error {
+	if len(hs) == 0 {
+		return nil
+	}
+	for _, l := range w.chans {
+		if err := w.wr.AddHeadings(l.capture, w.ref.String(), hs); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
 // handOff hands the polled headings to the store's Writer every
 // headingHandoff.
 func (w *watcher) handOff(ctx context.Context) {
@@ -166,11 +182,9 @@ func (w *watcher) handOff(ctx context.Context) {
 			return
 		case <-tick.C:
 		}
-		if hs := w.hs.take(); len(hs) > 0 {
-			if err := w.wr.AddHeadings(w.capture, w.ref.String(), hs); err != nil {
-				w.fail(err) // the Writer has stopped: nothing more can be kept
-				return
-			}
+		if err := w.storeHeadings(w.hs.take()); err != nil {
+			w.fail(err) // the Writer has stopped: nothing more can be kept
+			return
 		}
 	}
 }

@@ -37,7 +37,8 @@ func (w *watcher) showStatus(ctx context.Context) {
 // period, how far the stream is behind the wall clock (samples late or
 // dropped on the way: a live stream that falls behind loses samples at the
 // server), the process's CPU time over wall time (1 = one core busy), the
-// channel's level in the current burst, the heading and the rows stored.
+// level of each channel (named by its frequency) in its current burst or
+// its last one, the heading and the rows stored.
 func (w *watcher) statusLine(now time.Time, wall time.Duration, samples int64, cpu time.Duration, cpuOK bool) string {
 	var b strings.Builder
 	fmt.Fprintf(&b, "status %s", now.UTC().Format(time.TimeOnly))
@@ -51,16 +52,23 @@ func (w *watcher) statusLine(now time.Time, wall time.Duration, samples int64, c
 		fmt.Fprintf(&b, "  CPU %.2f", cpu.Seconds()/wall.Seconds())
 	}
 	fmt.Fprintf(&b, "  input %s", capture.LevelBar(math.Float64frombits(w.inputDB.Load())))
-	if ch := math.Float64frombits(w.channelDB.Load()); !math.IsNaN(ch) {
-		fmt.Fprintf(&b, "  channel %.1f dBFS", ch)
-		if n := math.Float64frombits(w.noiseDB.Load()); !math.IsNaN(n) && !math.IsInf(n, 0) {
-			fmt.Fprintf(&b, " SNR %.1f dB", ch-n)
+	for _, l := range w.chans {
+		fmt.Fprintf(&b, "  %s ", l.name())
+		if len(w.chans) > 1 {
+			n := l.bursts.Load()
+			fmt.Fprintf(&b, "(%d burst%s) ", n, map[bool]string{true: "", false: "s"}[n == 1])
 		}
-		b.WriteString(" (in a burst)")
-	} else {
-		b.WriteString("  channel quiet")
-		if lb := w.lastBurst.Load(); lb != nil {
-			fmt.Fprintf(&b, " (last burst %.1f dBFS, SNR %.1f dB)", lb[0], lb[1])
+		if ch := math.Float64frombits(l.channelDB.Load()); !math.IsNaN(ch) {
+			fmt.Fprintf(&b, "%.1f dBFS", ch)
+			if n := math.Float64frombits(l.noiseDB.Load()); !math.IsNaN(n) && !math.IsInf(n, 0) {
+				fmt.Fprintf(&b, " SNR %.1f dB", ch-n)
+			}
+			b.WriteString(" (in a burst)")
+		} else {
+			b.WriteString("quiet")
+			if lb := l.lastBurst.Load(); lb != nil {
+				fmt.Fprintf(&b, " (last burst %.1f dBFS, SNR %.1f dB)", lb[0], lb[1])
+			}
 		}
 	}
 	deg, have := w.hs.latest()

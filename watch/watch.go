@@ -17,10 +17,7 @@ import (
 	"nullseek/capture"
 	"nullseek/geo"
 	"nullseek/heading"
-	"nullseek/ident"
-	"nullseek/ident/idmatch"
-	"nullseek/ident/morse"
-	"nullseek/logbook"
+
 	"nullseek/receiver"
 	"nullseek/sdr"
 	"nullseek/station"
@@ -108,7 +105,10 @@ type Options struct {
 
 // Summary is what a watch did.
 type Summary struct {
+	// Capture is the first channel's capture row; Captures every
+	// channel's, in the station file's order.
 	Capture  store.CaptureID
+	Captures []store.CaptureID
 	Samples  int64
 	Bursts   int
 	Bearings int
@@ -130,7 +130,7 @@ func Run(ctx context.Context, o Options) (*Summary, error) {
 type watcher struct {
 	o       Options
 	st      *station.File
-	ch      station.Channel
+	chans   []*listener // one per [[channel]]
 	ref     heading.Ref
 	pattern bearing.Pattern
 	mount   float64
@@ -139,21 +139,11 @@ type watcher struct {
 	logMu   sync.Mutex
 
 	stationID store.StationID
-	capture   store.CaptureID
 	info      sdr.Info
 	hs        *liveHeadings
 	pos       *livePosition
 	wr        *store.Writer
 	rec       *sdr.RotatingSigMF
-	idf       *ident.Identifier
-
-	// The scan's goroutine only.
-	cur      int // the burst whose readings are gathered
-	readings []store.LevelReading
-	raw      []store.LevelReading
-	lastT    float64
-	cutShort bool
-	obs      []survey.Record // the latest bursts, for the schedule
 
 	// fail ends the watch with err (the first one given wins).
 	failOnce sync.Once
@@ -161,10 +151,7 @@ type watcher struct {
 	stopScan context.CancelFunc
 
 	samples   atomic.Int64
-	inputDB   atomic.Uint64              // math.Float64bits of the last block's level
-	channelDB atomic.Uint64              // the last channel reading in a burst; NaN between
-	noiseDB   atomic.Uint64              // the noise under it (receiver.Piece.NoiseDB)
-	lastBurst atomic.Pointer[[2]float64] // the last burst's level and SNR, dB
+	inputDB   atomic.Uint64 // math.Float64bits of the last block's level
 	bursts    atomic.Int64
 	bearings  atomic.Int64
 	headingOK atomic.Bool
@@ -175,7 +162,7 @@ func newWatcher(o Options) (*watcher, error) {
 	if st == nil || o.DB == nil {
 		return nil, errors.New("watch: no station file or no database")
 	}
-	w := &watcher{o: o, st: st, now: o.Now, cur: -1}
+	w := &watcher{o: o, st: st, now: o.Now}
 	if w.now == nil {
 		w.now = time.Now
 	}
@@ -187,8 +174,8 @@ func newWatcher(o Options) (*watcher, error) {
 	}
 	bad := func(key, msg string) error { return fmt.Errorf("%s: %s: %s", st.Path, key, msg) }
 	switch {
-	case len(st.Channels) != 1:
-		return nil, bad("[[channel]]", fmt.Sprintf("watch listens on one channel; the file names %d", len(st.Channels)))
+	case len(st.Channels) == 0:
+		return nil, bad("[[channel]]", "no channel to listen on")
 	case st.Heading.Source == station.HeadingLog:
 		return nil, bad("heading.source", `watch needs a live heading ("rotator" or "compass"); a heading log is for recordings`)
 	case st.Receiver.RTLTCP == "" && st.Receiver.USBIndex < 0 && o.Open == nil:
@@ -196,7 +183,6 @@ func newWatcher(o Options) (*watcher, error) {
 	case o.DurationS < 0 || o.DurationS > capture.MaxDurationS || math.IsNaN(o.DurationS):
 		return nil, fmt.Errorf("--duration %v s: want 0 (no limit) to %.0f s", o.DurationS, capture.MaxDurationS)
 	}
-	w.ch = st.Channels[0]
 	w.ref = heading.True
 	if st.Heading.Reference == store.RefMagnetic {
 		w.ref = heading.Magnetic
@@ -231,14 +217,12 @@ func newWatcher(o Options) (*watcher, error) {
 	} else if w.ref == heading.Magnetic {
 		w.declDeg = st.Position.DeclinationDeg // nil: WMM at each bearing's position
 	}
-	mode, err := morse.ParseMode(w.ch.Mode)
-	if err != nil {
-		return nil, bad("channel.mode", err.Error())
-	}
-	idOpts := ident.DefaultOptions()
-	idOpts.Mode, idOpts.IDs = mode, w.ch.IDs
-	if w.idf, err = ident.New(idOpts); err != nil {
-		return nil, bad("channel.ids", err.Error())
+	for i, ch := range st.Channels {
+		l, err := newListener(w, i, ch)
+		if err != nil {
+			return nil, err
+		}
+		w.chans = append(w.chans, l)
 	}
 	return w, nil
 }
@@ -261,8 +245,8 @@ func (w *watcher) logf(format string, args ...any) {
 func (w *watcher) config() sdr.RTLConfig {
 	r := w.st.Receiver
 	centre := r.CentreHz
-	if centre == 0 {
-		centre = capture.TuningHz(w.ch.FreqHz, r.SampleRateHz)
+	if centre == 0 { // one channel: station.Load asks several for receiver.centre
+		centre = capture.TuningHz(w.chans[0].ch.FreqHz, r.SampleRateHz)
 	}
 	return sdr.RTLConfig{CenterHz: centre, SampleRate: r.SampleRateHz, GainDB: r.GainDB, AutoGain: r.AGC, PPM: r.PPM}
 }
@@ -333,11 +317,15 @@ func (w *watcher) run(ctx context.Context) (*Summary, error) {
 	if w.info.CenterHz == 0 {
 		w.info.CenterHz = cfg.CenterHz
 	}
+	// One capture row per channel: the same stream (one key) with the
+	// channel's offset, the store's natural key of a capture.
 	key := sha256.Sum256([]byte(st.Name + "\x00" + w.info.Name + "\x00" + w.info.Start.UTC().Format(time.RFC3339Nano)))
-	capRow := store.Capture{Station: w.stationID, Source: w.info.Name, Format: "cu8", Start: w.info.Start, CentreHz: w.info.CenterHz,
-		SampleRateHz: w.info.SampleRate, Samples: -1, FileSHA256: hex.EncodeToString(key[:]), ChannelOffsetHz: w.ch.FreqHz - w.info.CenterHz}
-	if w.capture, err = w.o.DB.PutCapture(capRow); err != nil {
-		return nil, w.dbErr(err)
+	for _, l := range w.chans {
+		capRow := store.Capture{Station: w.stationID, Source: w.info.Name, Format: "cu8", Start: w.info.Start, CentreHz: w.info.CenterHz,
+			SampleRateHz: w.info.SampleRate, Samples: -1, FileSHA256: hex.EncodeToString(key[:]), ChannelOffsetHz: l.ch.FreqHz - w.info.CenterHz}
+		if l.capture, err = w.o.DB.PutCapture(capRow); err != nil {
+			return nil, w.dbErr(err)
+		}
 	}
 	wo := w.o.Writer
 	if wo.FlushInterval == 0 {
@@ -353,8 +341,11 @@ func (w *watcher) run(ctx context.Context) (*Summary, error) {
 		}
 	}
 	w.hs = newLiveHeadings(w.ref, w.mount, st.Heading.LagS)
-	w.channelDB.Store(math.Float64bits(math.NaN()))
-	w.logf("watching %.4f MHz from %s at %.3f MS/s for %s (ids %v); headings from %s; position from %s", w.ch.FreqHz/1e6, w.info.Name, w.info.SampleRate/1e6, st.Name, w.ch.IDs, w.headingName(), w.pos.name(st))
+	chs := make([]string, len(w.chans))
+	for i, l := range w.chans {
+		chs[i] = fmt.Sprintf("%s (ids %v)", l.name(), l.ch.IDs)
+	}
+	w.logf("watching %s from %s at %.3f MS/s for %s; headings from %s; position from %s", strings.Join(chs, ", "), w.info.Name, w.info.SampleRate/1e6, st.Name, w.headingName(), w.pos.name(st))
 
 	var bg sync.WaitGroup
 	bgctx, stopBG := context.WithCancel(sctx)
@@ -374,14 +365,10 @@ func (w *watcher) run(ctx context.Context) (*Summary, error) {
 	if w.o.DurationS > 0 {
 		in.limit = int64(math.Ceil(w.o.DurationS * w.info.SampleRate))
 	}
-	sopts := survey.Options{Receiver: w.o.Receiver, Ident: w.idf.Options(),
-		Bearing: &survey.BearingPlan{Pattern: w.pattern, Fit: bearing.DefaultFit, Headings: w.hs.at}}
-	sopts.Receiver.FreqHz = w.ch.FreqHz
-	sopts.Receiver.OffsetHz = 0
-	_, serr := survey.Stream(sctx, in, sopts, survey.StreamHandler{Piece: w.piece, Record: w.record})
+	serr := w.scan(sctx, in)
 	stopBG()
 	bg.Wait()
-	if err := w.wr.AddHeadings(w.capture, w.ref.String(), w.hs.take()); err != nil && serr == nil {
+	if err := w.storeHeadings(w.hs.take()); err != nil && serr == nil {
 		serr = err
 	}
 	cerr := w.wr.Close()
@@ -393,7 +380,10 @@ func (w *watcher) run(ctx context.Context) (*Summary, error) {
 			serr = fmt.Errorf("--record %s: %w", w.o.RecordDir, err)
 		}
 	}
-	sum := &Summary{Capture: w.capture, Samples: w.samples.Load(), Bursts: int(w.bursts.Load()), Bearings: int(w.bearings.Load()), Committed: w.wr.Stats()}
+	sum := &Summary{Capture: w.chans[0].capture, Samples: w.samples.Load(), Bursts: int(w.bursts.Load()), Bearings: int(w.bearings.Load()), Committed: w.wr.Stats()}
+	for _, l := range w.chans {
+		sum.Captures = append(sum.Captures, l.capture)
+	}
 	switch {
 	case cerr != nil:
 		return sum, w.dbErr(cerr)
@@ -402,6 +392,40 @@ func (w *watcher) run(ctx context.Context) (*Summary, error) {
 	}
 	w.logf("watch ended after %.1f s of samples: %d bursts, %d bearings, %d rows stored", float64(sum.Samples)/w.info.SampleRate, sum.Bursts, sum.Bearings, sum.Committed.Rows())
 	return sum, nil
+}
+
+// scan runs every channel's scan on the stream: one channel reads it
+// directly, several read it through a fanOut, each in its own goroutine.
+// The first scan to fail stops the others; its error is the one returned.
+func (w *watcher) scan(ctx context.Context, in sdr.Source) error {
+	if len(w.chans) == 1 {
+		l := w.chans[0]
+		_, err := survey.Stream(ctx, in, l.options(), survey.StreamHandler{Piece: l.piece, Record: l.record})
+		return err
+	}
+	ctx, cancel := context.WithCancel(ctx)
+	defer cancel()
+	f := newFanOut(in, len(w.chans))
+	errs := make([]error, len(w.chans))
+	var wg sync.WaitGroup
+	var once sync.Once
+	first := -1
+	for i, l := range w.chans {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			_, errs[i] = survey.Stream(ctx, f.taps[i], l.options(), survey.StreamHandler{Piece: l.piece, Record: l.record})
+			if errs[i] != nil {
+				once.Do(func() { first = i; cancel() })
+			}
+		}()
+	}
+	f.run(ctx)
+	wg.Wait()
+	if first < 0 {
+		return nil
+	}
+	return errs[first]
 }
 
 // fail ends the watch with err.
@@ -465,142 +489,6 @@ func (m *meteredSource) Read(dst []complex64) (int, error) {
 		}
 	}
 	return n, err
-}
-
-// piece gathers the burst's readings (every piece's new ones, thinned as
-// they come) and gives the bearing fit the latest headings.
-func (w *watcher) piece(p *receiver.Piece) error {
-	w.hs.refresh()
-	if p.Burst != w.cur {
-		w.cur, w.readings, w.raw, w.lastT, w.cutShort = p.Burst, w.readings[:0], w.raw[:0], math.Inf(-1), false
-	}
-	_, _, level := p.Between(p.OnS, p.OffS)
-	for _, l := range level {
-		if l.T <= w.lastT {
-			continue // the overlap with the previous piece
-		}
-		w.lastT = l.T
-		w.raw = append(w.raw, store.LevelReading{Sample: l.Sample, TimeS: l.T, LevelDBFS: l.LevelDB, Clipped: l.Clipped})
-	}
-	if n := len(level); n > 0 {
-		w.noiseDB.Store(math.Float64bits(p.NoiseDB))
-		w.channelDB.Store(math.Float64bits(level[n-1].LevelDB))
-	}
-	if !p.Last {
-		w.thin(false)
-	}
-	return nil
-}
-
-// thin moves the raw readings of complete thinning windows (all of them
-// when final) into the burst's stored readings (store.ThinLevels: windows
-// aligned on sample 0, so thinning piece by piece gives the rows thinning
-// the whole would).
-func (w *watcher) thin(final bool) {
-	if len(w.raw) == 0 {
-		return
-	}
-	win := int64(math.Round(w.info.SampleRate / store.DefaultReadingsPerS))
-	cut := len(w.raw)
-	if !final && win > 1 {
-		edge := w.raw[len(w.raw)-1].Sample / win * win
-		for cut > 0 && w.raw[cut-1].Sample >= edge {
-			cut--
-		}
-	}
-	th, err := store.ThinLevels(w.raw[:cut], w.info.SampleRate, store.DefaultReadingsPerS)
-	if err == nil {
-		room := maxBurstReadings - len(w.readings)
-		if len(th) > room {
-			th, w.cutShort = th[:max(room, 0)], true
-		}
-		w.readings = append(w.readings, th...)
-	}
-	w.raw = append(w.raw[:0], w.raw[cut:]...)
-}
-
-// record stores one burst (and its bearing), prints its line and refits
-// the slot schedule.
-func (w *watcher) record(r survey.Record) error {
-	w.channelDB.Store(math.Float64bits(math.NaN()))
-	var readings []store.LevelReading
-	if r.Index == w.cur {
-		w.thin(true)
-		for _, l := range w.readings {
-			if l.TimeS >= r.StartS && l.TimeS <= r.EndS {
-				readings = append(readings, l)
-			}
-		}
-	} else {
-		for _, l := range r.Level {
-			readings = append(readings, store.LevelReading{Sample: l.Sample, TimeS: l.T, LevelDBFS: l.LevelDB, Clipped: l.Clipped})
-		}
-	}
-	b := logbook.BurstRow(w.capture, r, w.info.SampleRate)
-	if err := w.wr.AddBurst(b, readings); err != nil {
-		return w.dbErr(err)
-	}
-	w.bursts.Add(1)
-	w.lastBurst.Store(&[2]float64{r.LevelDB, b.SNRDB})
-	line := fmt.Sprintf("burst %s  %7.1f s  %-10s %-5s level %6.1f dBFS  SNR %5.1f dB", survey.StartTime(r.Start, r.StartS), r.EndS-r.StartS, identText(r), r.Mode, r.LevelDB, b.SNRDB)
-	if w.cutShort && r.Index == w.cur {
-		line += fmt.Sprintf("  (readings after the first %d kept out)", maxBurstReadings)
-	}
-	if br, why := w.bearingRow(r, b); why != "" {
-		line += "  no bearing: " + why
-	} else {
-		if err := w.wr.AddBearing(br); err != nil {
-			return w.dbErr(err)
-		}
-		w.bearings.Add(1)
-		line += fmt.Sprintf("  bearing %5.1f° ± %.1f° true", br.TrueDeg, br.SigmaDeg)
-		if br.AltTrueDeg != nil {
-			line += fmt.Sprintf(" (or %.1f°)", *br.AltTrueDeg)
-		}
-	}
-	w.logf("%s", line)
-	if r.Part == 0 || r.Part == r.Parts {
-		w.cur = -1
-	}
-	return w.schedule(r)
-}
-
-// identText is the burst's identifier for its line.
-func identText(r survey.Record) string {
-	if idmatch.Known(r.Ident) {
-		return fmt.Sprintf("%s %.2f", r.Ident, r.IdentConfidence)
-	}
-	if r.Text != "" {
-		return fmt.Sprintf("? %q", r.Text)
-	}
-	return "?"
-}
-
-// bearingRow maps the burst's fit to the store's bearing row, or says why
-// there is none (logbook.BearingRow).
-func (w *watcher) bearingRow(r survey.Record, b store.Burst) (store.Bearing, string) {
-	if r.Fit == nil {
-		return store.Bearing{}, "not fitted"
-	}
-	// The line of position is fitted over the whole burst: a moving
-	// station took it, to first order, where it was at the burst's middle.
-	mid := b.Start.Add(time.Duration((b.EndS - b.StartS) / 2 * float64(time.Second)))
-	fix, placed := w.place(mid)
-	at := logbook.Fitted{Station: w.stationID, DeclinationDeg: w.declDeg, NoPosition: !placed}
-	if placed {
-		at.StationLatDeg, at.StationLonDeg, at.StationAltM = fix.LatDeg, fix.LonDeg, fix.AltHAEM
-	}
-	if w.ref == heading.Magnetic && at.DeclinationDeg == nil {
-		if !placed {
-			return store.Bearing{}, "no position for the magnetic declination"
-		}
-		v, _ := geo.Declination(fix.LatDeg, fix.LonDeg, ptrOr(fix.AltHAEM, 0), mid)
-		if math.IsNaN(v) {
-			return store.Bearing{}, "no magnetic declination at the station's position"
-		}
-		at.DeclinationDeg = &v
-	}
-	return logbook.BearingRow(r.Fit.Est, r.Fit.Err, b, at)
 }
 
 // dbErr names the database in a store error that does not already.

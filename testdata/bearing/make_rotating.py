@@ -98,12 +98,21 @@ def burst_gate(t, a):
     return gate, since
 
 
-def morse_key(t, wpm):
-    """On/off keying of "N0CALL" repeated with a word gap, ITU-R M.1677-1
-    Annex 1 §2 timing (dot = 1.2/wpm s), from t = 0.5 s."""
-    code = {"N": "-.", "0": "-----", "C": "-.-.", "A": ".-", "L": ".-.."}
+# ITU-R M.1677-1 Annex 1 §1.1.1–1.1.3 (letters, figures and the fraction bar; docs/REFERENCES.md).
+MORSE = {
+    "A": ".-", "B": "-...", "C": "-.-.", "D": "-..", "E": ".", "F": "..-.", "G": "--.", "H": "....", "I": "..",
+    "J": ".---", "K": "-.-", "L": ".-..", "M": "--", "N": "-.", "O": "---", "P": ".--.", "Q": "--.-", "R": ".-.",
+    "S": "...", "T": "-", "U": "..-", "V": "...-", "W": ".--", "X": "-..-", "Y": "-.--", "Z": "--..",
+    "0": "-----", "1": ".----", "2": "..---", "3": "...--", "4": "....-", "5": ".....", "6": "-....",
+    "7": "--...", "8": "---..", "9": "----.", "/": "-..-.",
+}
+
+
+def morse_key(t, wpm, w="N0CALL"):
+    """On/off keying of w (default "N0CALL") repeated with a word gap,
+    ITU-R M.1677-1 Annex 1 §2 timing (dot = 1.2/wpm s), from t = 0.5 s."""
+    code = MORSE
     units = []
-    w = "N0CALL"
     for i, ch in enumerate(w):
         for j, el in enumerate(code[ch]):
             units += [1] * (3 if el == "-" else 1)
@@ -156,10 +165,25 @@ class Rotating(gr.top_block):
                 gate, since = burst_gate(t, a)
                 e = e * gate
                 if a.keyed:
-                    e = e * morse_key(since, a.keyed)
+                    e = e * morse_key(since, a.keyed, a.id)
             elif a.keyed:
-                e = e * morse_key(t, a.keyed)
+                e = e * morse_key(t, a.keyed, a.id)
             amp = (a.peak * e).astype(np.complex64)
+        amp2 = None
+        if a.second:
+            # --second: another beacon at its own offset and bearing, keyed
+            # with its own identifier in bursts of the same ON:OFF from its
+            # own first start, heard through the same turning antenna.
+            off2, brg2, id2, first2 = second_args(a)
+            e2 = field(a.pattern, brg2 - heading, a)
+            if a.bursts:
+                b2 = argparse.Namespace(**vars(a))
+                b2.first_on = first2
+                gate2, since2 = burst_gate(t, b2)
+                e2 = e2 * gate2
+                if a.keyed:
+                    e2 = e2 * morse_key(since2, a.keyed, id2)
+            amp2 = (a.peak * e2).astype(np.complex64)
 
         # Noise: total complex power σ² over fs; in 12.5 kHz it is σ²·12500/fs.
         snr = 10.0 ** (a.snr / 10.0)
@@ -184,6 +208,15 @@ class Rotating(gr.top_block):
         self.connect(gain, (shape, 1))
         self.connect(shape, (add, 0))
         self.connect(noise, (add, 1))
+        if amp2 is not None:
+            lo2 = analog.sig_source_c(fs, analog.GR_COS_WAVE, second_args(a)[0], 1.0, 0)
+            mix2 = blocks.multiply_cc()
+            shape2 = blocks.multiply_cc()
+            self.connect(fm if a.tone > 0 else one, (mix2, 0))
+            self.connect(lo2, (mix2, 1))
+            self.connect(mix2, (shape2, 0))
+            self.connect(blocks.vector_source_c(amp2, False), (shape2, 1))
+            self.connect(shape2, (add, 2))
         self.connect(add, head)
         path = os.path.join(a.out, STEM + ".sigmf-data")
         if a.datatype == "cu8":
@@ -204,6 +237,12 @@ class Rotating(gr.top_block):
             sink = blocks.file_sink(gr.sizeof_short, path, False)
             self.connect(head, to_s16, sink)
         sink.set_unbuffered(False)
+
+
+def second_args(a):
+    """--second OFFSET:BEARING:ID:FIRST_ON as (Hz, degrees, text, s)."""
+    off, brg, ident, first = a.second.split(":")
+    return float(off), float(brg), ident, float(first)
 
 
 def main():
@@ -242,6 +281,8 @@ def main():
     p.add_argument("--log-hz", dest="log_hz", type=float, default=10.0, help="heading log rate")
     p.add_argument("--log-lag", dest="log_lag", type=float, default=0.0, help="the heading log is this many seconds late")
     p.add_argument("--log-noise", dest="log_noise", type=float, default=0.0, help="heading log noise, degrees RMS")
+    p.add_argument("--id", default="N0CALL", help="with --keyed: the identifier keyed (letters, figures, /)")
+    p.add_argument("--second", default="", help="OFFSET:BEARING:ID:FIRST_ON: a second beacon (Hz from centre, true degrees, its keyed identifier, its first burst's start s)")
     p.add_argument("--declination", type=float, default=None, help="write the heading log magnetic with this declination (east positive)")
     a = p.parse_args()
     os.makedirs(a.out, exist_ok=True)
@@ -306,6 +347,10 @@ def main():
                                "reflection_db": a.reflection_db, "reflection_offset_deg": a.reflection_offset,
                                "reflection_phase_rad": a.reflection_phase, "keyed_wpm": a.keyed, "bursts": a.bursts, "first_on_s": a.first_on, "full_scale": a.full_scale,
                                "log_hz": a.log_hz, "log_lag_s": a.log_lag, "log_noise_deg": a.log_noise, "declination_deg": a.declination}
+    if a.second:
+        off2, brg2, id2, first2 = second_args(a)
+        truth["identifier"] = a.id
+        truth["second"] = {"carrier_offset_hz": off2, "bearing_deg": brg2, "identifier": id2, "first_on_s": first2}
     with open(os.path.join(a.out, STEM + "_truth.json"), "w") as f:
         json.dump(truth, f, indent=1)
         f.write("\n")

@@ -1,0 +1,220 @@
+package watch
+
+import (
+	"fmt"
+	"math"
+	"sync/atomic"
+	"time"
+
+	"nullseek/bearing"
+	"nullseek/geo"
+	"nullseek/heading"
+	"nullseek/ident"
+	"nullseek/ident/idmatch"
+	"nullseek/ident/morse"
+	"nullseek/logbook"
+	"nullseek/receiver"
+	"nullseek/station"
+	"nullseek/store"
+	"nullseek/survey"
+)
+
+// listener is one channel of the station file: its own scan (channel
+// filter, burst detector, identification and bearing fit, run by
+// survey.Stream on the shared stream), its expected identifiers, its own
+// capture row (the stream's, with the channel's offset: the store keys a
+// capture by stream and channel) and its own slot schedule. The heading
+// source, rotator, position and store Writer are the watcher's, shared by
+// every channel.
+type listener struct {
+	w   *watcher
+	ch  station.Channel
+	idf *ident.Identifier
+	// capture is the channel's capture row.
+	capture store.CaptureID
+	// view is the headings the current piece's readings are joined with.
+	view heading.Track
+
+	// The channel's scan goroutine only.
+	cur      int // the burst whose readings are gathered
+	readings []store.LevelReading
+	raw      []store.LevelReading
+	lastT    float64
+	cutShort bool
+	obs      []survey.Record // the latest bursts, for the schedule
+
+	channelDB atomic.Uint64              // the last channel reading in a burst; NaN between
+	noiseDB   atomic.Uint64              // the noise under it (receiver.Piece.NoiseDB)
+	lastBurst atomic.Pointer[[2]float64] // the last burst's level and SNR, dB
+	bursts    atomic.Int64
+	bearings  atomic.Int64
+}
+
+func newListener(w *watcher, n int, ch station.Channel) (*listener, error) {
+	key := fmt.Sprintf("channel[%d]", n+1)
+	mode, err := morse.ParseMode(ch.Mode)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %s.mode: %v", w.st.Path, key, err)
+	}
+	idOpts := ident.DefaultOptions()
+	idOpts.Mode, idOpts.IDs = mode, ch.IDs
+	l := &listener{w: w, ch: ch, cur: -1}
+	if l.idf, err = ident.New(idOpts); err != nil {
+		return nil, fmt.Errorf("%s: %s.ids: %v", w.st.Path, key, err)
+	}
+	l.channelDB.Store(math.Float64bits(math.NaN()))
+	return l, nil
+}
+
+// name is how lines name the channel.
+func (l *listener) name() string { return fmt.Sprintf("%.4f MHz", l.ch.FreqHz/1e6) }
+
+// options is the channel's scan.
+func (l *listener) options() survey.Options {
+	w := l.w
+	o := survey.Options{Receiver: w.o.Receiver, Ident: l.idf.Options(),
+		Bearing: &survey.BearingPlan{Pattern: w.pattern, Fit: bearing.DefaultFit, Headings: l.view.At}}
+	o.Receiver.FreqHz = l.ch.FreqHz
+	o.Receiver.OffsetHz = 0
+	return o
+}
+
+// piece gathers the burst's readings (every piece's new ones, thinned as
+// they come) and gives the bearing fit the latest headings.
+func (l *listener) piece(p *receiver.Piece) error {
+	l.w.hs.refresh(&l.view)
+	if p.Burst != l.cur {
+		l.cur, l.readings, l.raw, l.lastT, l.cutShort = p.Burst, l.readings[:0], l.raw[:0], math.Inf(-1), false
+	}
+	_, _, level := p.Between(p.OnS, p.OffS)
+	for _, lv := range level {
+		if lv.T <= l.lastT {
+			continue // the overlap with the previous piece
+		}
+		l.lastT = lv.T
+		l.raw = append(l.raw, store.LevelReading{Sample: lv.Sample, TimeS: lv.T, LevelDBFS: lv.LevelDB, Clipped: lv.Clipped})
+	}
+	if n := len(level); n > 0 {
+		l.noiseDB.Store(math.Float64bits(p.NoiseDB))
+		l.channelDB.Store(math.Float64bits(level[n-1].LevelDB))
+	}
+	if !p.Last {
+		l.thin(false)
+	}
+	return nil
+}
+
+// thin moves the raw readings of complete thinning windows (all of them
+// when final) into the burst's stored readings (store.ThinLevels: windows
+// aligned on sample 0, so thinning piece by piece gives the rows thinning
+// the whole would).
+func (l *listener) thin(final bool) {
+	if len(l.raw) == 0 {
+		return
+	}
+	win := int64(math.Round(l.w.info.SampleRate / store.DefaultReadingsPerS))
+	cut := len(l.raw)
+	if !final && win > 1 {
+		edge := l.raw[len(l.raw)-1].Sample / win * win
+		for cut > 0 && l.raw[cut-1].Sample >= edge {
+			cut--
+		}
+	}
+	th, err := store.ThinLevels(l.raw[:cut], l.w.info.SampleRate, store.DefaultReadingsPerS)
+	if err == nil {
+		room := maxBurstReadings - len(l.readings)
+		if len(th) > room {
+			th, l.cutShort = th[:max(room, 0)], true
+		}
+		l.readings = append(l.readings, th...)
+	}
+	l.raw = append(l.raw[:0], l.raw[cut:]...)
+}
+
+// record stores one burst (and its bearing) under the channel's capture,
+// prints its line and refits the channel's slot schedule.
+func (l *listener) record(r survey.Record) error {
+	w := l.w
+	l.channelDB.Store(math.Float64bits(math.NaN()))
+	var readings []store.LevelReading
+	if r.Index == l.cur {
+		l.thin(true)
+		for _, lv := range l.readings {
+			if lv.TimeS >= r.StartS && lv.TimeS <= r.EndS {
+				readings = append(readings, lv)
+			}
+		}
+	} else {
+		for _, lv := range r.Level {
+			readings = append(readings, store.LevelReading{Sample: lv.Sample, TimeS: lv.T, LevelDBFS: lv.LevelDB, Clipped: lv.Clipped})
+		}
+	}
+	b := logbook.BurstRow(l.capture, r, w.info.SampleRate)
+	if err := w.wr.AddBurst(b, readings); err != nil {
+		return w.dbErr(err)
+	}
+	l.bursts.Add(1)
+	w.bursts.Add(1)
+	l.lastBurst.Store(&[2]float64{r.LevelDB, b.SNRDB})
+	line := fmt.Sprintf("burst %s  %s  %7.1f s  %-10s %-5s level %6.1f dBFS  SNR %5.1f dB", survey.StartTime(r.Start, r.StartS), l.name(), r.EndS-r.StartS, identText(r), r.Mode, r.LevelDB, b.SNRDB)
+	if l.cutShort && r.Index == l.cur {
+		line += fmt.Sprintf("  (readings after the first %d kept out)", maxBurstReadings)
+	}
+	if br, why := l.bearingRow(r, b); why != "" {
+		line += "  no bearing: " + why
+	} else {
+		if err := w.wr.AddBearing(br); err != nil {
+			return w.dbErr(err)
+		}
+		l.bearings.Add(1)
+		w.bearings.Add(1)
+		line += fmt.Sprintf("  bearing %5.1f° ± %.1f° true", br.TrueDeg, br.SigmaDeg)
+		if br.AltTrueDeg != nil {
+			line += fmt.Sprintf(" (or %.1f°)", *br.AltTrueDeg)
+		}
+	}
+	w.logf("%s", line)
+	if r.Part == 0 || r.Part == r.Parts {
+		l.cur = -1
+	}
+	return l.schedule(r)
+}
+
+// identText is the burst's identifier for its line.
+func identText(r survey.Record) string {
+	if idmatch.Known(r.Ident) {
+		return fmt.Sprintf("%s %.2f", r.Ident, r.IdentConfidence)
+	}
+	if r.Text != "" {
+		return fmt.Sprintf("? %q", r.Text)
+	}
+	return "?"
+}
+
+// bearingRow maps the burst's fit to the store's bearing row, or says why
+// there is none (logbook.BearingRow).
+func (l *listener) bearingRow(r survey.Record, b store.Burst) (store.Bearing, string) {
+	w := l.w
+	if r.Fit == nil {
+		return store.Bearing{}, "not fitted"
+	}
+	// The line of position is fitted over the whole burst: a moving
+	// station took it, to first order, where it was at the burst's middle.
+	mid := b.Start.Add(time.Duration((b.EndS - b.StartS) / 2 * float64(time.Second)))
+	fix, placed := w.place(mid)
+	at := logbook.Fitted{Station: w.stationID, DeclinationDeg: w.declDeg, NoPosition: !placed}
+	if placed {
+		at.StationLatDeg, at.StationLonDeg, at.StationAltM = fix.LatDeg, fix.LonDeg, fix.AltHAEM
+	}
+	if w.ref == heading.Magnetic && at.DeclinationDeg == nil {
+		if !placed {
+			return store.Bearing{}, "no position for the magnetic declination"
+		}
+		v, _ := geo.Declination(fix.LatDeg, fix.LonDeg, ptrOr(fix.AltHAEM, 0), mid)
+		if math.IsNaN(v) {
+			return store.Bearing{}, "no magnetic declination at the station's position"
+		}
+		at.DeclinationDeg = &v
+	}
+	return logbook.BearingRow(r.Fit.Est, r.Fit.Err, b, at)
+}
