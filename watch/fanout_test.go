@@ -95,3 +95,17 @@ func TestFanOutStopsWithContext(t *testing.T) {
 		t.Errorf("the reading tap ended with %v, want context.Canceled", err)
 	}
 }
+
+// A fingerprint label names one transmitter per channel: on a station of
+// several channels, T1 of one channel and T1 of another are stored as two
+// transmitters (the store keys transmitters by name); on one channel the
+// label stays as the scan printed it.
+func TestChannelLabel(t *testing.T) {
+	if got := channelLabel("T1", 144.825e6, 1); got != "T1" {
+		t.Errorf("one channel: %q, want T1", got)
+	}
+	a, b := channelLabel("T1", 144.825e6, 2), channelLabel("T1", 144.760e6, 2)
+	if a == b || a != "T1@144.8250MHz" || b != "T1@144.7600MHz" {
+		t.Errorf("two channels: %q and %q, want T1@144.8250MHz and T1@144.7600MHz", a, b)
+	}
+}

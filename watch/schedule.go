@@ -1,6 +1,7 @@
 package watch
 
 import (
+	"fmt"
 	"time"
 
 	"nullseek/ident/idmatch"
@@ -40,7 +41,7 @@ func (l *listener) schedule(r survey.Record) error {
 		case idmatch.Known(a.Ident):
 			labels[i] = a.Ident
 		case a.Transmitter != "":
-			labels[i] = a.Transmitter
+			labels[i] = channelLabel(a.Transmitter, l.ch.FreqHz, len(w.chans))
 		}
 	}
 	opts := schedule.DefaultOptions()
@@ -61,4 +62,16 @@ func (l *listener) schedule(r survey.Record) error {
 		return w.dbErr(err)
 	}
 	return nil
+}
+
+// channelLabel is how a transmitter known only by its fingerprint label
+// (T1, …) is stored when the station listens on channels channels: the
+// label alone on one channel; with its channel's frequency on several,
+// since the store keys transmitters by name and T1 of one channel is not
+// T1 of another.
+func channelLabel(label string, freqHz float64, channels int) string {
+	if channels <= 1 {
+		return label
+	}
+	return fmt.Sprintf("%s@%.4fMHz", label, freqHz/1e6)
 }
