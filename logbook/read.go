@@ -112,21 +112,23 @@ func ptrRound(p *float64, digits int) *float64 {
 // bearingLine is one bearing as a JSON line (type "bearing"); times are
 // RFC 3339 UTC.
 type bearingLine struct {
-	Type           string   `json:"type"`
-	TimeUTC        string   `json:"time_utc"`
+	Type           string   `json:"type"` // "stored_bearing": one burst's bearing read back
+	Time           string   `json:"time"`
 	Station        string   `json:"station"`
+	Lat            *float64 `json:"lat,omitempty"` // absent: a moving station's position was not known
+	Lon            *float64 `json:"lon,omitempty"`
+	AltM           *float64 `json:"alt_m,omitempty"`
 	Ident          string   `json:"ident"`
-	BearingTrueDeg float64  `json:"bearing_true_deg"`
+	Reference      string   `json:"reference"` // always "true": the store keeps true bearings
+	BearingDeg     float64  `json:"bearing_deg"`
 	SigmaDeg       float64  `json:"sigma_deg"`
-	AltTrueDeg     *float64 `json:"alt_bearing_true_deg,omitempty"`
-	MagneticDeg    *float64 `json:"bearing_magnetic_deg,omitempty"`
+	AltBearingDeg  *float64 `json:"alt_bearing_deg,omitempty"`
+	MagneticDeg    *float64 `json:"magnetic_bearing_deg,omitempty"`
 	DeclinationDeg *float64 `json:"declination_deg,omitempty"`
-	StationLatDeg  float64  `json:"station_lat_deg"`
-	StationLonDeg  float64  `json:"station_lon_deg"`
 	NullDepthDB    float64  `json:"null_depth_db"`
 	CoverageDeg    float64  `json:"coverage_deg"`
 	Points         int      `json:"points"`
-	Flags          []string `json:"flags,omitempty"`
+	Flags          []string `json:"flags"`
 }
 
 // flagNames are the store's bearing flags in words, by bit.
@@ -157,11 +159,18 @@ func identOr(s string) string {
 func WriteBearingsJSON(w io.Writer, bs []store.Bearing) error {
 	enc := json.NewEncoder(w)
 	for _, b := range bs {
-		if err := enc.Encode(bearingLine{Type: "bearing", TimeUTC: rfc3339(b.Time), Station: b.StationName, Ident: identOr(b.Ident),
-			BearingTrueDeg: round(b.TrueDeg, 1), SigmaDeg: round(b.SigmaDeg, 1), AltTrueDeg: ptrRound(b.AltTrueDeg, 1),
-			MagneticDeg: ptrRound(b.MagneticDeg, 1), DeclinationDeg: ptrRound(b.DeclinationDeg, 2),
-			StationLatDeg: round(b.StationLatDeg, 6), StationLonDeg: round(b.StationLonDeg, 6),
-			NullDepthDB: round(b.NullDepthDB, 1), CoverageDeg: round(b.CoverageDeg, 0), Points: b.Points, Flags: flagWords(b.Flags)}); err != nil {
+		l := bearingLine{Type: "stored_bearing", Time: rfc3339(b.Time), Station: b.StationName, Ident: identOr(b.Ident),
+			Reference: "true", BearingDeg: round(b.TrueDeg, 2), SigmaDeg: geo.RoundSigma(b.SigmaDeg), AltBearingDeg: ptrRound(b.AltTrueDeg, 2),
+			MagneticDeg: ptrRound(b.MagneticDeg, 2), DeclinationDeg: ptrRound(b.DeclinationDeg, 2),
+			NullDepthDB: round(b.NullDepthDB, 1), CoverageDeg: round(b.CoverageDeg, 1), Points: b.Points, Flags: flagWords(b.Flags)}
+		if l.Flags == nil {
+			l.Flags = []string{}
+		}
+		if !b.NoPosition {
+			lat, lon := round(b.StationLatDeg, 6), round(b.StationLonDeg, 6)
+			l.Lat, l.Lon, l.AltM = &lat, &lon, ptrRound(b.StationAltM, 1)
+		}
+		if err := enc.Encode(l); err != nil {
 			return err
 		}
 	}
@@ -192,18 +201,19 @@ func WriteBearingsTable(w io.Writer, bs []store.Bearing) error {
 }
 
 // scheduleLine is one transmitter's stored schedule as a JSON line (type
-// "schedule").
+// "stored_schedule"; slots' "schedule" object is a whole plan).
 type scheduleLine struct {
 	Type          string   `json:"type"`
-	AsOfUTC       string   `json:"as_of_utc"`
+	AsOf          string   `json:"as_of"`
 	Ident         string   `json:"ident"`
-	Order         int      `json:"order"`
+	Order         int      `json:"order"` // 1-based place in the cycle
+	ChannelHz     *float64 `json:"channel_hz,omitempty"`
 	Bursts        int      `json:"bursts"`
 	PeriodS       *float64 `json:"period_s"`
 	PeriodSigmaS  *float64 `json:"period_sigma_s"`
 	DriftPPM      *float64 `json:"drift_ppm"`
 	DriftSigmaPPM *float64 `json:"drift_sigma_ppm"`
-	T0UTC         string   `json:"t0_utc,omitempty"`
+	FirstStart    string   `json:"first_start,omitempty"`
 	OnS           *float64 `json:"on_s"`
 	CommonPeriodS *float64 `json:"common_period_s"`
 	Reason        string   `json:"reason,omitempty"`
@@ -213,10 +223,15 @@ type scheduleLine struct {
 func WriteScheduleJSON(w io.Writer, ss []store.Schedule) error {
 	enc := json.NewEncoder(w)
 	for _, s := range ss {
-		if err := enc.Encode(scheduleLine{Type: "schedule", AsOfUTC: rfc3339(s.AsOf), Ident: s.Ident, Order: s.Order, Bursts: s.Bursts,
-			PeriodS: ptrRound(s.PeriodS, 3), PeriodSigmaS: ptrRound(s.PeriodSigmaS, 4), DriftPPM: ptrRound(s.DriftPPM, 1),
-			DriftSigmaPPM: ptrRound(s.DriftSigmaPPM, 1), T0UTC: rfc3339(s.T0), OnS: ptrRound(s.OnS, 2),
-			CommonPeriodS: ptrRound(s.CommonPeriodS, 3), Reason: s.Reason}); err != nil {
+		l := scheduleLine{Type: "stored_schedule", AsOf: rfc3339(s.AsOf), Ident: s.Ident, Order: s.Order + 1, Bursts: s.Bursts,
+			PeriodS: ptrRound(s.PeriodS, 4), PeriodSigmaS: ptrRound(s.PeriodSigmaS, 4), DriftPPM: ptrRound(s.DriftPPM, 1),
+			DriftSigmaPPM: ptrRound(s.DriftSigmaPPM, 1), FirstStart: rfc3339(s.T0), OnS: ptrRound(s.OnS, 2),
+			CommonPeriodS: ptrRound(s.CommonPeriodS, 4), Reason: s.Reason}
+		if s.ChannelHz > 0 {
+			f := round(s.ChannelHz, 1)
+			l.ChannelHz = &f
+		}
+		if err := enc.Encode(l); err != nil {
 			return err
 		}
 	}

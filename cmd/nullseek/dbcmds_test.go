@@ -200,12 +200,15 @@ log = "%s/rotating_loop_heading.csv"
 				want, _ = geodInverse1(t, st.lat, st.lon, dbTx[0], dbTx[1])
 			}
 		}
-		got, _ := l["bearing_true_deg"].(float64)
+		got, _ := l["bearing_deg"].(float64)
 		if e := angle.Wrap180(got - want); e > 2 || e < -2 {
 			t.Errorf("stored bearing at %s: %.1f°, GeodSolve azimuth %.2f° (error %.1f°)", name, got, want, e)
 		}
-		if ts, _ := l["time_utc"].(string); !strings.HasPrefix(ts, "2025-01-01T00:") || !strings.HasSuffix(ts, "Z") {
+		if ts, _ := l["time"].(string); !strings.HasPrefix(ts, "2025-01-01T00:") || !strings.HasSuffix(ts, "Z") {
 			t.Errorf("bearing time %q: want UTC RFC 3339 on the recording's clock", ts)
+		}
+		if ty, _ := l["type"].(string); ty != "stored_bearing" || l["reference"] != "true" || l["lat"] == nil {
+			t.Errorf("stored bearing line: type %v, reference %v, lat %v; want stored_bearing, true and the station's latitude", l["type"], l["reference"], l["lat"])
 		}
 		seen[name]++
 	}
@@ -264,7 +267,7 @@ log = "%s/rotating_loop_heading.csv"
 	}
 	r = run("query", "schedule", "--db", db, "--at", "2025-01-01T01:00:00Z", "--json")
 	ls := dbLines(t, r.stdout)
-	if len(ls) != 1 || ls[0]["type"] != "schedule" || ls[0]["ident"] != "N0CALL" {
+	if len(ls) != 1 || ls[0]["type"] != "stored_schedule" || ls[0]["order"] != 1.0 || ls[0]["ident"] != "N0CALL" {
 		t.Fatalf("schedule after the recordings: %s", r.stdout)
 	}
 	if p, _ := ls[0]["period_s"].(float64); p < 18.95 || p > 19.05 {
