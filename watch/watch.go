@@ -345,7 +345,7 @@ func (w *watcher) run(ctx context.Context) (*Summary, error) {
 	for i, l := range w.chans {
 		chs[i] = fmt.Sprintf("%s (ids %v)", l.name(), l.ch.IDs)
 	}
-	w.logf("watching %s from %s at %.3f MS/s for %s; headings from %s; position from %s", strings.Join(chs, ", "), w.info.Name, w.info.SampleRate/1e6, st.Name, w.headingName(), w.pos.name(st))
+	w.logf("watching %s from %s at %.3f MS/s for %s; headings from %s; position from %s; times UTC", strings.Join(chs, ", "), w.info.Name, w.info.SampleRate/1e6, st.Name, w.headingName(), w.pos.name(st))
 
 	var bg sync.WaitGroup
 	bgctx, stopBG := context.WithCancel(sctx)
