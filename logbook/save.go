@@ -3,8 +3,11 @@ package logbook
 import (
 	"crypto/sha256"
 	"encoding/hex"
+	"errors"
 	"fmt"
+	"io/fs"
 	"math"
+	"os"
 	"sort"
 	"strings"
 	"time"
@@ -112,13 +115,32 @@ func (s Saved) String() string {
 }
 
 // Check opens (creating or migrating) the database at path and closes it:
-// a bad --db is found before a long scan.
+// a bad --db is found before a long scan. A database Check had to create
+// is removed again (with SQLite's -wal, -shm and -journal files it made):
+// the file is made by the Save that has something to store, so a run
+// that fails leaves nothing behind.
 func Check(path string) error {
+	var made []string
+	for _, p := range []string{path, path + "-wal", path + "-shm", path + "-journal"} {
+		if _, err := os.Lstat(p); errors.Is(err, fs.ErrNotExist) {
+			made = append(made, p)
+		}
+	}
 	db, err := store.Open(path, store.Options{})
+	if err == nil {
+		err = db.Close()
+	}
+	if len(made) > 0 && made[0] == path {
+		for _, p := range made {
+			if rerr := os.Remove(p); rerr != nil && !errors.Is(rerr, fs.ErrNotExist) && err == nil {
+				err = rerr
+			}
+		}
+	}
 	if err != nil {
 		return fmt.Errorf("--db %s: %w", path, err)
 	}
-	return db.Close()
+	return nil
 }
 
 // dataPath is the file whose bytes are a recording's IQ data.

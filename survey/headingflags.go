@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"log/slog"
 
+	"github.com/spf13/pflag"
+
 	"nullseek/bearing"
 	"nullseek/capture"
 	"nullseek/heading"
@@ -30,6 +32,8 @@ type HeadingFlags struct {
 	// DeclinationSet and MountOffsetGiven say --declination and
 	// --mount-offset were given.
 	DeclinationSet, MountOffsetGiven bool
+
+	fs *pflag.FlagSet // the flag set Add added the flags to
 }
 
 // DefaultHeadingFlags is the flags' defaults: true north and

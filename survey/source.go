@@ -15,6 +15,8 @@ import (
 	"nullseek/internal/units"
 	"nullseek/receiver"
 	"nullseek/sdr"
+
+	"github.com/spf13/pflag"
 )
 
 // Input is a recording to survey and how: the file, the raw-file
@@ -108,6 +110,8 @@ type InputFlags struct {
 	// --merge-gap were given (else 0 refused, and the keying mode's own
 	// merge gap).
 	ChannelRateGiven, MergeGapGiven bool
+
+	fs *pflag.FlagSet // the flag set Add added the flags to
 }
 
 // Raw is the description of a raw recording the flags give
@@ -117,6 +121,9 @@ func (f *InputFlags) Raw() (sdr.RawParams, error) { return f.RawFlags.Params() }
 // Config is the checked receiver configuration; haveChannel is false when
 // neither --freq nor --offset was given.
 func (f *InputFlags) Config() (cfg receiver.Config, haveChannel bool, err error) {
+	if f.fs != nil {
+		f.ChannelRateGiven, f.MergeGapGiven = f.fs.Changed("channel-rate"), f.fs.Changed("merge-gap")
+	}
 	// Only the flagged fields: the others stay zero, which means their
 	// defaults (receiver.Config).
 	r := f.Receiver
@@ -131,8 +138,10 @@ func (f *InputFlags) Config() (cfg receiver.Config, haveChannel bool, err error)
 	if f.Freq != "" && f.Offset != "" {
 		return cfg, false, fmt.Errorf("give --freq or --offset, not both")
 	}
-	if f.ChannelRateGiven && cfg.ChannelRateHz == 0 {
-		return cfg, false, fmt.Errorf("--channel-rate 0: give a positive value") // 0 would silently mean the default
+	if f.ChannelRateGiven {
+		if err := units.NonZeroFlag("channel-rate", cfg.ChannelRateHz); err != nil {
+			return cfg, false, err // 0 would silently mean the default
+		}
 	}
 	if !f.MergeGapGiven {
 		cfg.MergeGapS = 0 // the default for the keying mode (longer for keyed carrier)

@@ -1,25 +1,16 @@
 package main
 
 import (
-	"encoding/json"
-	"fmt"
-
 	"github.com/spf13/cobra"
 
-	"nullseek/bearing"
-	"nullseek/internal/angle"
 	"nullseek/logbook"
 	"nullseek/survey"
 )
 
 type calibrateOptions struct {
-	in                           inputFlags
-	idf                          identFlags
-	hf                           headingFlags
-	sf                           logbook.Flags
-	lf                           liveFlags
-	tx, knownBearing, ident, out string
-	asJSON                       bool
+	survey.CalibrateJob
+	sf logbook.Flags
+	lf liveFlags
 }
 
 func newCalibrateCmd() *cobra.Command {
@@ -45,71 +36,19 @@ here and no --mount-offset:
 The antenna's reference direction is then the heading source's reading
 plus that offset, and the saved pattern is measured relative to it.`,
 		Args: cobra.ExactArgs(1),
-		RunE: o.lf.run(func(cmd *cobra.Command, rec recording) error { return runCalibrate(cmd, rec, &o) }),
+		RunE: o.lf.run(func(cmd *cobra.Command) error {
+			o.Keep = o.sf.Keep(cmd.ErrOrStderr())
+			return o.Run(cmd.Context(), cmd.OutOrStdout(), cmd.ErrOrStderr())
+		}),
 	}
-	o.in.add(cmd)
-	o.idf.add(cmd)
-	o.hf.add(cmd)
-	o.in.turning()
+	addJobFlags(cmd, &o.Job, true)
 	fl := cmd.Flags()
-	fl.StringVar(&o.tx, "tx", "", "the calibration transmitter's position LAT,LON in degrees (needs --station)")
-	fl.StringVar(&o.knownBearing, "known-bearing", "", "the calibration transmitter's bearing from the station, degrees true (instead of --tx and --station)")
-	fl.StringVar(&o.ident, "ident", "", "the calibration transmitter's identifier (or fingerprint label) when several were heard")
-	fl.StringVar(&o.out, "out", "", "write the measured pattern here (JSON; required)")
-	fl.BoolVar(&o.asJSON, "json", false, "print the result as one JSON object")
-	o.lf.add(cmd, &o.in, &o.idf, &o.hf) // live receiver, rotator or compass: live.go
+	fl.StringVar(&o.Tx, "tx", "", "the calibration transmitter's position LAT,LON in degrees (needs --station)")
+	fl.StringVar(&o.KnownBearing, "known-bearing", "", "the calibration transmitter's bearing from the station, degrees true (instead of --tx and --station)")
+	fl.StringVar(&o.TxIdent, "ident", "", "the calibration transmitter's identifier (or fingerprint label) when several were heard")
+	fl.StringVar(&o.Out, "out", "", "write the measured pattern here (JSON; required)")
+	fl.BoolVar(&o.JSON, "json", false, "print the result as one JSON object")
+	o.lf.add(cmd, &o.Job) // live receiver, rotator or compass: live.go
 	stationFile(cmd, &o.sf)
 	return cmd
-}
-
-func runCalibrate(cmd *cobra.Command, rec recording, o *calibrateOptions) error {
-	hs, err := o.hf.source(rec.track)
-	if err != nil {
-		return err
-	}
-	known, how, err := survey.KnownBearing{Bearing: o.knownBearing, Tx: o.tx, Station: o.hf.station,
-		HasStation: hs.HasStation, StationLat: hs.StationLat, StationLon: hs.StationLon}.Degrees()
-	if err != nil {
-		return err
-	}
-	if o.out == "" {
-		return fmt.Errorf("calibrate needs --out FILE.json for the measured pattern")
-	}
-	nominal, err := hs.Pattern()
-	if err != nil {
-		return err
-	}
-	given, err := hs.Bearing.MountOffset(nominal)
-	if err != nil {
-		return err
-	}
-	in, err := o.in.input(cmd, rec.path, &o.idf)
-	if err != nil {
-		return err
-	}
-	res, tr, _, err := hs.Survey(cmd.Context(), in, false)
-	if err != nil {
-		return err
-	}
-	when := "undated"
-	if !res.Info.Start.IsZero() {
-		when = res.Info.Start.UTC().Format("2006-01-02")
-	}
-	cal, err := survey.Calibrate(res, tr, nominal, known, survey.CalibrationOptions{
-		Ident: o.ident, Fit: hs.Bearing.Fit, Name: fmt.Sprintf("calibrated %s, nominal %s", when, nominal.Name)})
-	if err != nil {
-		return err
-	}
-	total := angle.Wrap180(given + cal.NorthOffsetDeg)
-	cal.Pattern.MountOffsetDeg, cal.Pattern.MountOffsetSet = total, true
-	if err := o.sf.Save(cmd.ErrOrStderr(), logbook.Recording{Path: rec.path, Result: res}); err != nil {
-		return err
-	}
-	if err := bearing.SavePattern(o.out, cal.Pattern); err != nil {
-		return err
-	}
-	if o.asJSON {
-		return json.NewEncoder(cmd.OutOrStdout()).Encode(cal.Line(total, given, how, o.out))
-	}
-	return cal.WriteReport(cmd.OutOrStdout(), nominal.Name, total, given, how, o.out)
 }

@@ -293,6 +293,12 @@ func TestCLIDatabaseBadInput(t *testing.T) {
 		{[]string{"slots", "--db", "missing.db"}, "missing.db"},
 		{[]string{"scan", abs(t, stepsMeta), "--offset", stepsOffset, "--db", filepath.Join(dir, "no", "dir", "x.db")}, "--db"},
 		{[]string{"scan", abs(t, stepsMeta), "--station-file", "nope.toml"}, "nope.toml"},
+		// A good --db with a run that fails after it was checked: the
+		// database is not created (the check removes what it made).
+		{[]string{"scan", "missing.sigmf-meta", "--db", "fresh.db"}, "missing.sigmf-meta"},
+		{[]string{"scan", abs(t, stepsMeta), "--offset", "NaN", "--db", "fresh.db"}, "--offset"},
+		{[]string{"slots", abs(t, stepsMeta), "--offset", stepsOffset, "--ids", "@nope.txt", "--db", "fresh.db"}, "--ids"},
+		{[]string{"fix", "missing.csv", "--db", "fresh.db"}, "missing.csv"},
 	} {
 		r := cliRun(t, dir, c.args...)
 		lines := strings.Split(strings.TrimSpace(r.stderr), "\n")

@@ -7,6 +7,7 @@ import (
 	"github.com/spf13/cobra"
 
 	"nullseek/demo"
+	"nullseek/internal/progress"
 )
 
 type demoOptions struct {
@@ -38,9 +39,9 @@ comparing every result with the scene's truth. Files go to --out.`,
 // runDemo prints the demo's report; its progress lines go to stderr when
 // that is a terminal.
 func runDemo(cmd *cobra.Command, o *demoOptions) error {
-	var progress io.Writer = io.Discard
-	if tty := terminal(cmd.ErrOrStderr()); tty != nil {
-		progress = tty
+	var prog io.Writer = io.Discard
+	if tty := progress.Terminal(cmd.ErrOrStderr()); tty != nil {
+		prog = tty
 	}
-	return demo.Run(cmd.Context(), cmd.OutOrStdout(), progress, o.outDir, o.writeIQ, o.db)
+	return demo.Run(cmd.Context(), cmd.OutOrStdout(), prog, o.outDir, o.writeIQ, o.db)
 }

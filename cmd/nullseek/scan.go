@@ -1,21 +1,15 @@
 package main
 
 import (
-	"fmt"
-	"time"
-
 	"github.com/spf13/cobra"
 
 	"nullseek/logbook"
-	"nullseek/receiver"
-	"nullseek/sdr"
+	"nullseek/survey"
 )
 
 type scanOptions struct {
-	in           inputFlags
-	idf          identFlags
-	sf           logbook.Flags
-	asJSON, list bool
+	survey.ScanJob
+	sf logbook.Flags
 }
 
 func newScanCmd() *cobra.Command {
@@ -30,60 +24,14 @@ floor, SNR, clipping, the decoded Morse text, the identifier and the
 transmitter it belongs to. Without --freq or --offset it lists the carriers
 it sees and scans the strongest.`,
 		Args: cobra.ExactArgs(1),
-		RunE: func(cmd *cobra.Command, args []string) error { return runScan(cmd, args[0], &o) },
+		RunE: func(cmd *cobra.Command, args []string) error {
+			o.Path, o.Keep = args[0], o.sf.Keep(cmd.ErrOrStderr())
+			return o.Run(cmd.Context(), cmd.OutOrStdout(), cmd.ErrOrStderr())
+		},
 	}
-	o.in.add(cmd)
-	o.idf.add(cmd)
-	cmd.Flags().BoolVar(&o.asJSON, "json", false, "one JSON object per line instead of a table")
-	cmd.Flags().BoolVar(&o.list, "list", false, "only list the carriers seen in the recording")
+	addJobFlags(cmd, &o.Job, false)
+	cmd.Flags().BoolVar(&o.JSON, "json", false, "one JSON object per line instead of a table")
+	cmd.Flags().BoolVar(&o.List, "list", false, "only list the carriers seen in the recording")
 	stationFile(cmd, &o.sf)
 	return cmd
-}
-
-func runScan(cmd *cobra.Command, path string, o *scanOptions) error {
-	if o.list {
-		return listCarriers(cmd, path, o)
-	}
-	t0 := time.Now()
-	in, err := o.in.input(cmd, path, &o.idf)
-	if err != nil {
-		return err
-	}
-	res, err := in.Run(cmd.Context(), nil)
-	if err != nil {
-		return err
-	}
-	if err := o.sf.Save(cmd.ErrOrStderr(), logbook.Recording{Path: path, Result: res}); err != nil {
-		return err
-	}
-	out := cmd.OutOrStdout()
-	if !o.asJSON {
-		if err := res.WriteTable(out); err != nil {
-			return err
-		}
-		_, err := fmt.Fprintln(out, res.SummaryLine(time.Since(t0)))
-		return err
-	}
-	return res.WriteJSON(out)
-}
-
-// listCarriers prints the carriers seen in a recording.
-func listCarriers(cmd *cobra.Command, path string, o *scanOptions) error {
-	raw, err := o.in.Raw()
-	if err != nil {
-		return err
-	}
-	src, err := sdr.Open(path, raw)
-	if err != nil {
-		return err
-	}
-	defer src.Close()
-	cs, err := receiver.FindCarriers(src, receiver.CarrierSearch{})
-	if err != nil {
-		return err
-	}
-	if o.asJSON {
-		return receiver.WriteCarriersJSON(cmd.OutOrStdout(), cs, src.Info())
-	}
-	return receiver.WriteCarriers(cmd.OutOrStdout(), cs, src.Info())
 }

@@ -36,6 +36,7 @@ var layers = map[string]place{
 	"internal/atomicfile": {foundation, 0},
 	"internal/geodesic":   {foundation, 0},
 	"internal/palette":    {foundation, 0},
+	"internal/progress":   {foundation, 0},
 	"internal/rtlsdr":     {foundation, 0},
 	"internal/testtool":   {foundation, 0},
 	"internal/units":      {foundation, 0},

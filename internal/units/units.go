@@ -72,6 +72,15 @@ func HzFlag(name, s string) (float64, error) {
 	return v, nil
 }
 
+// NonZeroFlag refuses 0 as the value v of the command-line flag --name,
+// for flags whose 0 would silently mean "the default".
+func NonZeroFlag(name string, v float64) error {
+	if v == 0 {
+		return fmt.Errorf("--%s 0: give a positive value", name)
+	}
+	return nil
+}
+
 // Axis says which coordinate a value is.
 type axis int
 

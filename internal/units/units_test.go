@@ -163,3 +163,16 @@ func TestHzFlag(t *testing.T) {
 		t.Errorf("HzFlag(offset, NaN): %v, want an error naming --offset", err)
 	}
 }
+
+// NonZeroFlag: 0 refused with the flag's name; any other value, negative
+// included (its own range check is the owner's), passes.
+func TestNonZeroFlag(t *testing.T) {
+	if err := NonZeroFlag("period", 0); err == nil || err.Error() != "--period 0: give a positive value" {
+		t.Errorf("NonZeroFlag(period, 0) = %v", err)
+	}
+	for _, v := range []float64{1e-9, 1, -1} {
+		if err := NonZeroFlag("period", v); err != nil {
+			t.Errorf("NonZeroFlag(period, %g) = %v", v, err)
+		}
+	}
+}
