@@ -14,27 +14,8 @@ import (
 
 	"nullseek/heading"
 	"nullseek/internal/angle"
+	"nullseek/internal/testtool"
 )
-
-// nmeaLine frames body as an NMEA 0183 sentence: '$', body, '*', the XOR
-// of the body's bytes in two hex digits, CR LF (NMEA 0183 checksum).
-func nmeaLine(body string) string {
-	var c byte
-	for i := 0; i < len(body); i++ {
-		c ^= body[i]
-	}
-	return fmt.Sprintf("$%s*%02X\r\n", body, c)
-}
-
-func TestNMEALineChecksum(t *testing.T) {
-	// NMEA 0183: $GPHDT,274.07,T*03 (checksum verified against gpsd
-	// 3.22) and $SDHDG,234.6,,,1.3,E*34 (gpsd driver_nmea0183.c processHDG).
-	for _, want := range []string{"$GPHDT,274.07,T*03\r\n", "$SDHDG,234.6,,,1.3,E*34\r\n"} {
-		if got := nmeaLine(want[1:strings.IndexByte(want, '*')]); got != want {
-			t.Errorf("nmeaLine = %q, want %q", got, want)
-		}
-	}
-}
 
 // serveNMEA accepts one TCP client at a time and runs script on it until
 // script returns (then the connection is closed) or the test ends.
@@ -101,11 +82,11 @@ func TestCompassFeedCapture(t *testing.T) {
 			case k == 7:
 				s = "$HCHDT,123.4,T*00\r\n" // bad checksum
 			case k%5 == 0:
-				s = nmeaLine("GPGGA,120000.00,5000.000,N,00800.000,E,1,08,1.0,100.0,M,47.0,M,,")
+				s = testtool.NMEASentence("GPGGA,120000.00,5000.000,N,00800.000,E,1,08,1.0,100.0,M,47.0,M,,")
 			case k%7 == 0:
-				s = nmeaLine(fmt.Sprintf("HCHDM,%.2f,M", angle.Wrap360(trueAt(now)-3)))
+				s = testtool.NMEASentence(fmt.Sprintf("HCHDM,%.2f,M", angle.Wrap360(trueAt(now)-3)))
 			default:
-				s = nmeaLine(fmt.Sprintf("HCHDT,%.2f,T", trueAt(now)))
+				s = testtool.NMEASentence(fmt.Sprintf("HCHDT,%.2f,T", trueAt(now)))
 			}
 			_, err := io.WriteString(w, s)
 			return err
@@ -165,19 +146,19 @@ func TestCompassFeedFailures(t *testing.T) {
 	}{
 		{"garbage only", func(ctx context.Context, w io.Writer) {
 			every(ctx, 100*time.Millisecond, 0, func(time.Time) error {
-				_, err := io.WriteString(w, "$HCHDT,10.0,T*11\r\n"+nmeaLine("GPRMC,120000,A,5000.0,N,00800.0,E,0.0,0.0,010126,,"))
+				_, err := io.WriteString(w, "$HCHDT,10.0,T*11\r\n"+testtool.NMEASentence("GPRMC,120000,A,5000.0,N,00800.0,E,0.0,0.0,010126,,"))
 				return err
 			})
 		}, []string{"no valid heading", "bad checksum", "other sentence types"}, nil},
 		{"magnetic only", func(ctx context.Context, w io.Writer) {
 			every(ctx, 100*time.Millisecond, 0, func(time.Time) error {
-				_, err := io.WriteString(w, nmeaLine("HCHDM,200.0,M"))
+				_, err := io.WriteString(w, testtool.NMEASentence("HCHDM,200.0,M"))
 				return err
 			})
 		}, []string{"no true heading", "HCHDM"}, ErrCompassReference},
 		{"hangs up", func(ctx context.Context, w io.Writer) {
 			every(ctx, 100*time.Millisecond, 800*time.Millisecond, func(time.Time) error {
-				_, err := io.WriteString(w, nmeaLine("HCHDT,10.0,T"))
+				_, err := io.WriteString(w, testtool.NMEASentence("HCHDT,10.0,T"))
 				return err
 			})
 		}, []string{"closed the connection"}, nil},
@@ -185,9 +166,9 @@ func TestCompassFeedFailures(t *testing.T) {
 		{"stops sending headings", func(ctx context.Context, w io.Writer) {
 			t0 := time.Now()
 			every(ctx, 100*time.Millisecond, 0, func(now time.Time) error {
-				s := nmeaLine("HCHDT,10.0,T")
+				s := testtool.NMEASentence("HCHDT,10.0,T")
 				if now.Sub(t0) > 600*time.Millisecond {
-					s = nmeaLine("GPGGA,120000.00,5000.000,N,00800.000,E,1,08,1.0,100.0,M,47.0,M,,")
+					s = testtool.NMEASentence("GPGGA,120000.00,5000.000,N,00800.000,E,1,08,1.0,100.0,M,47.0,M,,")
 				}
 				_, err := io.WriteString(w, s)
 				return err
@@ -238,7 +219,7 @@ func TestCompassFeedKeepLastAndOnHeading(t *testing.T) {
 				<-ctx.Done()
 				return ctx.Err()
 			}
-			_, err := io.WriteString(w, nmeaLine(fmt.Sprintf("GPHDT,%.1f,T", float64(i))))
+			_, err := io.WriteString(w, testtool.NMEASentence(fmt.Sprintf("GPHDT,%.1f,T", float64(i))))
 			i++
 			return err
 		})

@@ -54,7 +54,7 @@ func TestLongTurnsCombined(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	rows := identtest.TSVRows(t, filepath.Join(dir, "turns.tsv"))
+	rows := testtool.TSVRows(t, filepath.Join(dir, "turns.tsv"))
 	if len(rows) != 2 {
 		t.Fatalf("%d turns, want 2", len(rows))
 	}

@@ -132,7 +132,7 @@ func TestE2EBeaconsCutAndColliding(t *testing.T) {
 			}
 			res, plan := run(name, ids)
 			label := name + map[bool]string{true: " with list", false: " without list"}[ids != nil]
-			turns := readTSV(t, filepath.Join(dir, name+".tsv"))
+			turns := testtool.TSVRows(t, filepath.Join(dir, name+".tsv"))
 			// Every turn is found and named right; every record is someone's.
 			for _, tr := range turns {
 				s, e := atof(t, tr["start_s"]), atof(t, tr["end_s"])

@@ -31,7 +31,7 @@ func TestE2EKeyedAuto(t *testing.T) {
 		t.Fatalf("make_field.py: %v\n%s", err, out)
 	}
 	chars, errs := 0, 0
-	for _, r := range readTSV(t, filepath.Join(dir, "keyed.tsv")) {
+	for _, r := range testtool.TSVRows(t, filepath.Join(dir, "keyed.tsv")) {
 		src, err := sdr.Open(filepath.Join(dir, r["file"]+".cu8"), sdr.RawParams{SampleRate: morseRate, Format: "cu8"})
 		if err != nil {
 			t.Fatal(err)
@@ -41,7 +41,7 @@ func TestE2EKeyedAuto(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		ref := cerRunes(r["text"])
+		ref := testtool.CERText(r["text"])
 		chars += len(ref)
 		if len(res.Records) != 1 {
 			errs += len(ref)
@@ -49,7 +49,7 @@ func TestE2EKeyedAuto(t *testing.T) {
 			continue
 		}
 		rec := res.Records[0]
-		e := min(len(ref), editDistance(cerRunes(rec.Text), ref))
+		e := min(len(ref), testtool.EditDistance(testtool.CERText(rec.Text), ref))
 		errs += e
 		if rec.Mode != "cw" || e > 0 {
 			t.Logf("%s: mode %s, read %q, sent %q", r["file"], rec.Mode, rec.Text, r["text"])

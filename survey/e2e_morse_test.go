@@ -109,7 +109,7 @@ func surveyCU8(t *testing.T, path string, ids []string, rc receiver.Config) *Res
 func TestE2EMorseCommittedIQ(t *testing.T) {
 	dir := filepath.Join(testdataDir, "morse", "fm")
 	var n int
-	for _, row := range readTSV(t, filepath.Join(dir, "manifest.tsv")) {
+	for _, row := range testtool.TSVRows(t, filepath.Join(dir, "manifest.tsv")) {
 		if row["kind"] != "iq" {
 			continue
 		}
@@ -143,7 +143,7 @@ func TestE2EMorseCommittedIQ(t *testing.T) {
 				if math.Abs(r.ToneHz-800) > 20 {
 					t.Errorf("tone %.1f Hz, want 800 Hz", r.ToneHz)
 				}
-				d := editDistance(cerRunes(r.Text), cerRunes(want))
+				d := testtool.EditDistance(testtool.CERText(r.Text), testtool.CERText(want))
 				t.Logf("CNR %g dB, ids=%v: text %q (ref %q, %d errors), ident %s (%.2f, %s), SNR %.1f dB",
 					cnr, ids != nil, r.Text, want, d, r.Ident, r.IdentConfidence, r.IdentMethod, r.SNRDB)
 				if cnr >= 12 && d != 0 {
@@ -170,7 +170,7 @@ type truthBurst struct {
 
 func readBurstTruth(t *testing.T, path string) []truthBurst {
 	var out []truthBurst
-	for _, r := range readTSV(t, path) {
+	for _, r := range testtool.TSVRows(t, path) {
 		s, err1 := strconv.ParseFloat(r["start_s"], 64)
 		e, err2 := strconv.ParseFloat(r["end_s"], 64)
 		if err1 != nil || err2 != nil {
@@ -197,7 +197,7 @@ func scoreMorse(t *testing.T, res *Result, truth []truthBurst) morseScore {
 	sc.bursts = len(truth)
 	used := make([]bool, len(res.Records))
 	for _, tb := range truth {
-		ref := cerRunes(tb.text)
+		ref := testtool.CERText(tb.text)
 		sc.chars += len(ref)
 		best, bestOv := -1, 0.0
 		for i, r := range res.Records {
@@ -215,7 +215,7 @@ func scoreMorse(t *testing.T, res *Result, truth []truthBurst) morseScore {
 		sc.found++
 		r := res.Records[best]
 		sc.maxEdgeErrS = math.Max(sc.maxEdgeErrS, math.Max(math.Abs(r.StartS-tb.startS), math.Abs(r.EndS-tb.endS)))
-		d := editDistance(cerRunes(r.Text), ref)
+		d := testtool.EditDistance(testtool.CERText(r.Text), ref)
 		sc.errs += d
 		want := strings.Fields(tb.text)[0]
 		if r.Ident == want {
@@ -228,7 +228,7 @@ func scoreMorse(t *testing.T, res *Result, truth []truthBurst) morseScore {
 	for i, u := range used {
 		if !u {
 			sc.extra++
-			sc.errs += len(cerRunes(res.Records[i].Text)) // a false burst's text is all insertions
+			sc.errs += len(testtool.CERText(res.Records[i].Text)) // a false burst's text is all insertions
 			t.Logf("extra burst %.2f–%.2f s text %q", res.Records[i].StartS, res.Records[i].EndS, res.Records[i].Text)
 		}
 	}

@@ -26,27 +26,6 @@ import (
 	"nullseek/sdr"
 )
 
-// nmeaSentence frames body as an NMEA 0183 sentence: '$', body, '*', the
-// 8-bit XOR of the body's characters as two hex digits, CR LF
-// (NMEA 0183 sentence framing and checksum, as gpsd 3.22 drivers/driver_nmea0183.c checks it).
-func nmeaSentence(body string) string {
-	var c byte
-	for i := 0; i < len(body); i++ {
-		c ^= body[i]
-	}
-	return fmt.Sprintf("$%s*%02X\r\n", body, c)
-}
-
-func TestNMEASentenceChecksum(t *testing.T) {
-	// NMEA 0183 HDT: $GPHDT,274.07,T*03 ([V] with gpsd 3.22) and the HDM
-	// example $APHDM,218.634,M*39 from gpsd's NMEA notes.
-	for _, want := range []string{"$GPHDT,274.07,T*03\r\n", "$APHDM,218.634,M*39\r\n"} {
-		if got := nmeaSentence(want[1:strings.IndexByte(want, '*')]); got != want {
-			t.Errorf("nmeaSentence = %q, want %q", got, want)
-		}
-	}
-}
-
 // turnClock is a hand turn at a steady rate: the heading, clockwise from
 // true north, is startDeg + rateDegS·(t − t0) on the wall clock. The test
 // receiver and the test compass both read it, so they agree on where the
@@ -218,15 +197,15 @@ func TestLiveBearingCompass(t *testing.T) {
 		serial   bool // over a serial line (a pty) instead of TCP
 		udp      bool // in UDP datagrams instead of TCP
 	}{
-		{"HDT", func(d float64) string { return nmeaSentence(fmt.Sprintf("HCHDT,%.1f,T", d)) }, 0, nil, false, false, false},
+		{"HDT", func(d float64) string { return testtool.NMEASentence(fmt.Sprintf("HCHDT,%.1f,T", d)) }, 0, nil, false, false, false},
 		{"HDM with --declination", func(d float64) string {
-			return nmeaSentence(fmt.Sprintf("HCHDM,%.1f,M", angle.Wrap360(d-declGiven)))
+			return testtool.NMEASentence(fmt.Sprintf("HCHDM,%.1f,M", angle.Wrap360(d-declGiven)))
 		}, declGiven, []string{"--heading-ref", "magnetic", "--declination", strconv.FormatFloat(declGiven, 'f', -1, 64)}, false, false, false},
 		{"HDG with WMM2025 at --station", func(d float64) string {
-			return nmeaSentence(fmt.Sprintf("HCHDG,%.1f,,,,", angle.Wrap360(d-wmmDecl)))
+			return testtool.NMEASentence(fmt.Sprintf("HCHDG,%.1f,,,,", angle.Wrap360(d-wmmDecl)))
 		}, wmmDecl, []string{"--heading-ref", "magnetic", "--station", "-80,-120"}, !wmmOK, false, false},
-		{"HDT over a serial line", func(d float64) string { return nmeaSentence(fmt.Sprintf("HEHDT,%.1f,T", d)) }, 0, nil, false, true, false},
-		{"HDT over UDP", func(d float64) string { return nmeaSentence(fmt.Sprintf("HCHDT,%.1f,T", d)) }, 0, nil, false, false, true},
+		{"HDT over a serial line", func(d float64) string { return testtool.NMEASentence(fmt.Sprintf("HEHDT,%.1f,T", d)) }, 0, nil, false, true, false},
+		{"HDT over UDP", func(d float64) string { return testtool.NMEASentence(fmt.Sprintf("HCHDT,%.1f,T", d)) }, 0, nil, false, false, true},
 	}
 	// The captures run side by side (they mostly wait on the clock), each
 	// with its own receiver, compass and turn.
@@ -374,7 +353,7 @@ func TestLiveCompassFailures(t *testing.T) {
 		ln.Close()
 		return a
 	}
-	hdt := func(time.Time) string { return nmeaSentence("HCHDT,123.4,T") }
+	hdt := func(time.Time) string { return testtool.NMEASentence("HCHDT,123.4,T") }
 	cases := []struct {
 		name   string
 		feed   func(t *testing.T) string
@@ -385,11 +364,11 @@ func TestLiveCompassFailures(t *testing.T) {
 		{"garbled", func(t *testing.T) string {
 			return serveCompass(t, sendEvery(100*time.Millisecond, 0, func(time.Time) string {
 				// A corrupted HDT (checksum 11, not 18) and an RMC.
-				return "$HCHDT,10.0,T*11\r\n" + nmeaSentence("GPRMC,120000,A,5000.0,N,00800.0,E,0.0,0.0,010126,,")
+				return "$HCHDT,10.0,T*11\r\n" + testtool.NMEASentence("GPRMC,120000,A,5000.0,N,00800.0,E,0.0,0.0,010126,,")
 			}))
 		}, []string{"no valid heading sentence", "bad checksum", "other sentence types"}, 12 * time.Second},
 		{"magnetic compass, true asked", func(t *testing.T) string {
-			return serveCompass(t, sendEvery(100*time.Millisecond, 0, func(time.Time) string { return nmeaSentence("HCHDM,200.0,M") }))
+			return serveCompass(t, sendEvery(100*time.Millisecond, 0, func(time.Time) string { return testtool.NMEASentence("HCHDM,200.0,M") }))
 		}, []string{"only HCHDM", "--heading-ref magnetic"}, 12 * time.Second},
 		{"hangs up", func(t *testing.T) string {
 			return serveCompass(t, sendEvery(100*time.Millisecond, 3*time.Second, hdt))
@@ -397,7 +376,7 @@ func TestLiveCompassFailures(t *testing.T) {
 		{"no such serial port", func(t *testing.T) string { return "serial:" + filepath.Join(t.TempDir(), "ttyNONE") }, []string{"serial", "ttyNONE"}, 3 * time.Second},
 		{"serial line without headings", func(t *testing.T) string {
 			feed, err := startPTYCompass(t, 100*time.Millisecond, 4800, func(time.Time) string {
-				return nmeaSentence("GPGGA,120000.00,5000.000,N,00800.000,E,1,08,1.0,100.0,M,47.0,M,,")
+				return testtool.NMEASentence("GPGGA,120000.00,5000.000,N,00800.000,E,1,08,1.0,100.0,M,47.0,M,,")
 			})
 			if err != nil {
 				return "" // skipped below

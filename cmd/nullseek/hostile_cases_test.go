@@ -7,6 +7,7 @@ import (
 	"bytes"
 	"encoding/binary"
 	"fmt"
+	"nullseek/internal/testtool"
 	"os"
 	"path/filepath"
 	"strings"
@@ -471,12 +472,5 @@ func hostileCases(t *testing.T) []hostileCase {
 	}
 }
 
-// nmeaLine is one NMEA 0183 sentence with its checksum (the XOR of the
-// characters between '$' and '*', NMEA 0183 framing; common practice), led by a time.
-func nmeaLine(ts, body string) string {
-	var cs byte
-	for i := 0; i < len(body); i++ {
-		cs ^= body[i]
-	}
-	return fmt.Sprintf("%s $%s*%02X\r\n", ts, body, cs)
-}
+// nmeaLine is one NMEA 0183 sentence led by a time.
+func nmeaLine(ts, body string) string { return ts + " " + testtool.NMEASentence(body) }

@@ -3,6 +3,7 @@ package main
 import (
 	"fmt"
 	"math"
+	"nullseek/internal/testtool"
 	"os"
 	"path/filepath"
 	"strings"
@@ -10,18 +11,13 @@ import (
 )
 
 // bareNMEA writes n bare HDT sentences (no time stamps), the heading
-// turning 18° per sentence, with checksums per NMEA 0183 (XOR of the
-// characters between '$' and '*').
+// turning 18° per sentence, framed by testtool.NMEASentence.
 func bareNMEA(t *testing.T, path string, n int) {
 	t.Helper()
 	var b strings.Builder
 	for k := 0; k < n; k++ {
 		body := fmt.Sprintf("HCHDT,%.1f,T", math.Mod(18*float64(k), 360))
-		var cs byte
-		for i := 0; i < len(body); i++ {
-			cs ^= body[i]
-		}
-		fmt.Fprintf(&b, "$%s*%02X\r\n", body, cs)
+		b.WriteString(testtool.NMEASentence(body))
 	}
 	writeFile(t, path, []byte(b.String()))
 }

@@ -3,6 +3,7 @@ package main
 import (
 	"fmt"
 	"math"
+	"nullseek/internal/testtool"
 	"os/exec"
 	"path/filepath"
 	"regexp"
@@ -61,7 +62,7 @@ func TestWarningStyle(t *testing.T) {
 	var b strings.Builder
 	for k := 0; k <= 60; k++ {
 		ts := 0.05 * float64(k)
-		fmt.Fprintf(&b, "%.2f %s\r\n", ts, nmeaSentence(fmt.Sprintf("HCHDT,%.1f,T", math.Mod(120*ts, 360))))
+		fmt.Fprintf(&b, "%.2f %s\r\n", ts, testtool.NMEASentence(fmt.Sprintf("HCHDT,%.1f,T", math.Mod(120*ts, 360))))
 		if k == 10 || k == 20 {
 			b.WriteString("hello, not a sentence\r\n")
 		}

@@ -28,7 +28,7 @@ func loadMC(t *testing.T, m *Matcher, dir string) []mcBurst {
 	wavs := map[string][]float32{}
 	var rate float64
 	var out []mcBurst
-	for _, r := range identtest.TSVRows(t, filepath.Join(dir, "mc.tsv")) {
+	for _, r := range testtool.TSVRows(t, filepath.Join(dir, "mc.tsv")) {
 		a, ok := wavs[r["file"]]
 		if !ok {
 			a, rate = identtest.MustReadWAV(t, filepath.Join(dir, r["file"]))

@@ -167,7 +167,7 @@ func idAccuracy(t *testing.T, dir string) (right, total int, methods map[string]
 		t.Fatal(err)
 	}
 	methods = map[string]int{}
-	for _, r := range identtest.TSVRows(t, filepath.Join(dir, "manifest.tsv")) {
+	for _, r := range testtool.TSVRows(t, filepath.Join(dir, "manifest.tsv")) {
 		if r["kind"] != "id" {
 			continue
 		}

@@ -68,7 +68,7 @@ func loadTplFixtures(t testing.TB) []tplFixture {
 	t.Helper()
 	dir := filepath.Join(identtest.MorseDir, "ids")
 	var fs []tplFixture
-	for _, r := range identtest.TSVRows(t, filepath.Join(dir, "ids.tsv")) {
+	for _, r := range testtool.TSVRows(t, filepath.Join(dir, "ids.tsv")) {
 		a, rate, err := identtest.ReadWAV(filepath.Join(dir, r["file"]))
 		if err != nil {
 			t.Fatal(err)
@@ -100,12 +100,12 @@ func runTplTrials(t testing.TB, m *Matcher, fs []tplFixture, snrs []float64, rep
 	var out []tplTrial
 	run := func(tr tplTrial, a []float32, rate float64, ref string) {
 		d, err := morse.DecodeTone(a, rate, morse.DecodeOptions{})
-		tr.refLen = len(identtest.CERText(ref))
+		tr.refLen = len(testtool.CERText(ref))
 		if err != nil {
 			tr.errs = tr.refLen
 			d = morse.Decoded{}
 		} else if ref != "" {
-			tr.errs = min(tr.refLen, identtest.EditDistance(identtest.CERText(d.Text), identtest.CERText(ref)))
+			tr.errs = min(tr.refLen, testtool.EditDistance(testtool.CERText(d.Text), testtool.CERText(ref)))
 		}
 		env, er, _, err := morse.ToneEnvelope(a, rate, morse.DecodeOptions{})
 		if err != nil {
@@ -397,7 +397,7 @@ func TestTemplateFixturesRegenerate(t *testing.T) {
 	if out, err := cmd.CombinedOutput(); err != nil {
 		t.Fatalf("make_ids.sh: %v\n%s", err, out)
 	}
-	for _, r := range identtest.TSVRows(t, filepath.Join(dir, "ids.tsv")) {
+	for _, r := range testtool.TSVRows(t, filepath.Join(dir, "ids.tsv")) {
 		fresh, err1 := os.ReadFile(filepath.Join(dir, r["file"]))
 		kept, err2 := os.ReadFile(filepath.Join(identtest.MorseDir, "ids", r["file"]))
 		if err1 != nil || err2 != nil || !bytes.Equal(fresh, kept) {

@@ -26,7 +26,7 @@ type cerRow struct {
 // cerTable decodes every "cer" file of a manifest with our decoder (and
 // multimon-ng when given) and sums edit distances per CNR.
 func cerTable(t *testing.T, dir string, sox, mm string) []cerRow {
-	rows := identtest.TSVRows(t, filepath.Join(dir, "manifest.tsv"))
+	rows := testtool.TSVRows(t, filepath.Join(dir, "manifest.tsv"))
 	by := map[float64]*cerRow{}
 	for _, r := range rows {
 		if r["kind"] != "cer" {
@@ -43,7 +43,7 @@ func cerTable(t *testing.T, dir string, sox, mm string) []cerRow {
 		if err != nil {
 			t.Fatal(err)
 		}
-		ref := identtest.CERText(r["text"])
+		ref := testtool.CERText(r["text"])
 		row.refLen += len(ref)
 		got := ""
 		if d, err := DecodeTone(a, rate, DecodeOptions{Mode: ModeFM}); err == nil {
@@ -51,9 +51,9 @@ func cerTable(t *testing.T, dir string, sox, mm string) []cerRow {
 		} else {
 			t.Logf("%s: %v", r["file"], err)
 		}
-		row.us += identtest.EditDistance(identtest.CERText(got), ref)
+		row.us += testtool.EditDistance(testtool.CERText(got), ref)
 		if mm != "" {
-			row.peer += identtest.EditDistance(identtest.CERText(identtest.Multimon(t, sox, mm, path)), ref)
+			row.peer += testtool.EditDistance(testtool.CERText(identtest.Multimon(t, sox, mm, path)), ref)
 			row.peerRan = true
 		}
 		if testing.Verbose() && got != strings.ToUpper(r["text"]) {
@@ -148,7 +148,7 @@ func TestFMIQCompanions(t *testing.T) {
 func BenchmarkErrorRateVsCNR(b *testing.B) {
 	var audio [][]float32
 	var rate float64
-	for _, r := range identtest.TSVRows(b, filepath.Join(identtest.MorseDir, "fm", "manifest.tsv")) {
+	for _, r := range testtool.TSVRows(b, filepath.Join(identtest.MorseDir, "fm", "manifest.tsv")) {
 		if r["kind"] == "cer" {
 			a, fs, err := identtest.ReadWAV(filepath.Join(identtest.MorseDir, "fm", r["file"]))
 			if err != nil {

@@ -5,6 +5,7 @@ import (
 	"math"
 	"math/rand/v2"
 	"nullseek/ident/internal/identtest"
+	"nullseek/internal/testtool"
 	"path/filepath"
 	"regexp"
 	"strings"
@@ -17,7 +18,7 @@ var ebookCmd = regexp.MustCompile(`\|[a-zA-Z]\d+\s*`)
 // testdata/morse/make_clean.sh) exactly, and reads back the speed, the
 // Farnsworth speed and the pitch ebook2cw was given.
 func TestDecodeCleanEbook2cw(t *testing.T) {
-	rows := identtest.TSVRows(t, filepath.Join(identtest.MorseDir, "clean.tsv"))
+	rows := testtool.TSVRows(t, filepath.Join(identtest.MorseDir, "clean.tsv"))
 	if len(rows) < 10 {
 		t.Fatalf("only %d clean fixtures", len(rows))
 	}

@@ -39,7 +39,7 @@ func TestKeyedCarrierCER(t *testing.T) {
 	}
 	type row struct{ chars, ours, peer, picked, cases int }
 	rows := map[key]*row{}
-	for _, r := range identtest.TSVRows(t, filepath.Join(dir, "keyed.tsv")) {
+	for _, r := range testtool.TSVRows(t, filepath.Join(dir, "keyed.tsv")) {
 		k := key{r["mode"], identtest.Atof(t, r["cnr_db"])}
 		if rows[k] == nil {
 			rows[k] = &row{}
@@ -57,9 +57,9 @@ func TestKeyedCarrierCER(t *testing.T) {
 		mode := DetectMode(fm, nil, rate, power, 200)
 		peer := identtest.Multimon(t, sox, mm, base+".wav")
 		rw.cases++
-		rw.chars += len(identtest.CERText(ref))
-		rw.ours += identtest.CERErrors(got, ref)
-		rw.peer += identtest.CERErrors(peer, ref)
+		rw.chars += len(testtool.CERText(ref))
+		rw.ours += testtool.CERErrors(got, ref)
+		rw.peer += testtool.CERErrors(peer, ref)
 		if mode == ModeCW {
 			rw.picked++
 		}

@@ -66,7 +66,7 @@ func TestLongTurnsDecode(t *testing.T) {
 	var keys []string
 	for _, set := range sets {
 		dir := identtest.RunField(t, py, set.args...)
-		for _, r := range identtest.TSVRows(t, filepath.Join(dir, "turns.tsv")) {
+		for _, r := range testtool.TSVRows(t, filepath.Join(dir, "turns.tsv")) {
 			cnr := identtest.Atof(t, r["cnr_db"])
 			key := fmt.Sprintf("%-12s %4.0f", set.name, cnr)
 			if rows[key] == nil {
@@ -84,9 +84,9 @@ func TestLongTurnsDecode(t *testing.T) {
 			id := r["id"]
 			spans := turnCopies(t, r["copy_s"])
 			ref := strings.TrimSpace(strings.Repeat(id+" ", len(spans)))
-			rw.chars += len(identtest.CERText(ref))
-			rw.ours += identtest.CERErrors(d.Text, ref)
-			rw.peer += identtest.CERErrors(identtest.Multimon(t, sox, mm, path), ref)
+			rw.chars += len(testtool.CERText(ref))
+			rw.ours += testtool.CERErrors(d.Text, ref)
+			rw.peer += testtool.CERErrors(identtest.Multimon(t, sox, mm, path), ref)
 			for _, sp := range spans {
 				rw.copies++
 				if got := copyText(d, sp); got == id {

@@ -1,11 +1,10 @@
 // Package identtest holds the helpers the ident packages' tests share:
 // reading the committed WAV fixtures and their manifests, the character
-// error rate, and running the outside peer decoder (multimon-ng). Only
+// error rate (testtool's), and running the outside peer decoder (multimon-ng). Only
 // tests import it.
 package identtest
 
 import (
-	"bufio"
 	"bytes"
 	"encoding/binary"
 	"fmt"
@@ -96,37 +95,6 @@ func MustReadWAV(t testing.TB, path string) ([]float32, float64) {
 	return a, rate
 }
 
-// TSVRows reads a tab-separated fixture manifest with a header line.
-func TSVRows(t testing.TB, path string) []map[string]string {
-	t.Helper()
-	f, err := os.Open(path)
-	if err != nil {
-		t.Fatalf("fixture manifest: %v", err)
-	}
-	defer f.Close()
-	sc := bufio.NewScanner(f)
-	var head []string
-	var rows []map[string]string
-	for sc.Scan() {
-		cols := strings.Split(sc.Text(), "\t")
-		if head == nil {
-			head = cols
-			continue
-		}
-		r := map[string]string{}
-		for i, h := range head {
-			if i < len(cols) {
-				r[h] = cols[i]
-			}
-		}
-		rows = append(rows, r)
-	}
-	if err := sc.Err(); err != nil {
-		t.Fatalf("%s: %v", path, err)
-	}
-	return rows
-}
-
 // Atof parses a manifest number or fails the test.
 func Atof(t testing.TB, s string) float64 {
 	t.Helper()
@@ -135,44 +103,6 @@ func Atof(t testing.TB, s string) float64 {
 		t.Fatalf("manifest number %q: %v", s, err)
 	}
 	return v
-}
-
-// CERText prepares text for the character error rate: upper case, white
-// space removed (word-gap errors are not counted; every decoder is
-// compared the same way).
-func CERText(s string) []rune {
-	return []rune(strings.Join(strings.Fields(strings.ToUpper(s)), ""))
-}
-
-// EditDistance is the Levenshtein distance between rune slices
-// (insertions, deletions and substitutions all cost 1), the usual
-// numerator of a character error rate (common practice).
-func EditDistance(a, b []rune) int {
-	prev := make([]int, len(b)+1)
-	cur := make([]int, len(b)+1)
-	for j := range prev {
-		prev[j] = j
-	}
-	for i := 1; i <= len(a); i++ {
-		cur[0] = i
-		for j := 1; j <= len(b); j++ {
-			s := prev[j-1]
-			if a[i-1] != b[j-1] {
-				s++
-			}
-			cur[j] = min(s, prev[j]+1, cur[j-1]+1)
-		}
-		prev, cur = cur, prev
-	}
-	return prev[len(b)]
-}
-
-// CERErrors is the edit distance between two texts after CERText, capped
-// at the reference length (a decoder that adds garbage loses at most every
-// character).
-func CERErrors(got, ref string) int {
-	r := CERText(ref)
-	return min(len(r), EditDistance(CERText(got), r))
 }
 
 // Multimon decodes a WAV with multimon-ng's MORSE_CW decoder (Debian
