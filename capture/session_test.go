@@ -3,13 +3,11 @@ package capture
 import (
 	"bytes"
 	"context"
-	"encoding/json"
 	"errors"
 	"fmt"
 	"io"
 	"math"
 	"os"
-	"os/exec"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -123,24 +121,7 @@ func checkRecording(t *testing.T, base string) int64 {
 	if !bytes.Equal(data, pacedCodes(info.Samples)) {
 		t.Errorf("the recorded samples are not the first %d the source sent", info.Samples)
 	}
-	// The key is read as the spec names it, not through our reader.
-	mb, err := os.ReadFile(base + ".sigmf-meta")
-	if err != nil {
-		t.Fatal(err)
-	}
-	var meta struct {
-		Global map[string]any `json:"global"`
-	}
-	if err := json.Unmarshal(mb, &meta); err != nil {
-		t.Fatal(err)
-	}
-	out, err := exec.Command(testtool.Need(t, "sha512sum"), base+".sigmf-data").Output()
-	if err != nil {
-		t.Fatal(err)
-	}
-	if sum, _, _ := strings.Cut(string(out), " "); sum != meta.Global["core:sha512"] {
-		t.Errorf("core:sha512 %v, sha512sum says %s", meta.Global["core:sha512"], sum)
-	}
+	testtool.CheckSigMFHash(t, base)
 	return info.Samples
 }
 

@@ -76,22 +76,8 @@ func readTruth(t *testing.T, path string) fieldTruth {
 // scanField scans a cu8 fixture tuned to its channel.
 func scanField(t *testing.T, path string, tr fieldTruth, cfg Config) ([]*Burst, Summary) {
 	t.Helper()
-	src, err := sdr.Open(path, sdr.RawParams{SampleRate: tr.Rate, Format: "cu8"})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer src.Close()
 	cfg.OffsetHz = tr.TuneHz
-	sc, err := NewScanner(src.Info(), cfg)
-	if err != nil {
-		t.Fatal(err)
-	}
-	var got []*Burst
-	sum, err := sc.Run(context.Background(), src, func(b *Burst) error { got = append(got, b); return nil }, nil)
-	if err != nil {
-		t.Fatal(err)
-	}
-	return got, sum
+	return scanWith(t, path, sdr.RawParams{SampleRate: tr.Rate, Format: "cu8"}, cfg)
 }
 
 // TestContinuousCarrier: a carrier that is on for the whole recording (FM

@@ -24,7 +24,14 @@ type truthFile struct {
 
 func scanFile(t *testing.T, path string, cfg Config) ([]*Burst, Summary) {
 	t.Helper()
-	src, err := sdr.Open(path, sdr.RawParams{})
+	return scanWith(t, path, sdr.RawParams{}, cfg)
+}
+
+// scanWith opens path with p (the zero value for a self-describing file)
+// and returns every burst the scanner reports with its summary.
+func scanWith(t *testing.T, path string, p sdr.RawParams, cfg Config) ([]*Burst, Summary) {
+	t.Helper()
+	src, err := sdr.Open(path, p)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -41,16 +41,6 @@ func pyMeta(t *testing.T, path string) (global map[string]any, captures, annotat
 	return
 }
 
-// sha512sum is coreutils' digest of a file.
-func sha512sum(t *testing.T, path string) string {
-	t.Helper()
-	out, err := osexec.Command(testtool.Need(t, "sha512sum"), path).Output()
-	if err != nil {
-		t.Fatal(err)
-	}
-	return strings.Fields(string(out))[0]
-}
-
 // Rolling over by size: 10000-byte cu8 files hold 5000 samples each; 23000
 // samples written in uneven pieces make 4 full pairs and one of 6000
 // bytes, named after the UTC time of their first sample, each with
@@ -97,7 +87,7 @@ func TestRotatingSigMFBySize(t *testing.T) {
 			t.Errorf("%s: %d bytes, want %d", base, st.Size(), want)
 		}
 		g, caps, _ := pyMeta(t, base+".sigmf-meta")
-		if g["core:sha512"] != sha512sum(t, base+".sigmf-data") {
+		if g["core:sha512"] != testtool.SHA512Sum(t, base+".sigmf-data") {
 			t.Errorf("%s: core:sha512 %v differs from sha512sum", base, g["core:sha512"])
 		}
 		geo, _ := g["core:geolocation"].(map[string]any)

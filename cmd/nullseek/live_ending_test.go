@@ -5,7 +5,6 @@ package main
 import (
 	"bytes"
 	"context"
-	"encoding/json"
 	"math"
 	"os"
 	"os/exec"
@@ -66,23 +65,7 @@ func keptRecording(t *testing.T, base string, sent []byte) (time.Time, float64) 
 	if len(data) > len(sent) || !bytes.Equal(data, sent[:len(data)]) {
 		t.Errorf("the %d bytes kept are not the first bytes the receiver sent (%d sent)", len(data), len(sent))
 	}
-	mb, err := os.ReadFile(base + ".sigmf-meta")
-	if err != nil {
-		t.Fatal(err)
-	}
-	var meta struct {
-		Global map[string]any `json:"global"`
-	}
-	if err := json.Unmarshal(mb, &meta); err != nil {
-		t.Fatal(err)
-	}
-	out, err := exec.Command(testtool.Need(t, "sha512sum"), base+".sigmf-data").Output()
-	if err != nil {
-		t.Fatal(err)
-	}
-	if sum, _, _ := strings.Cut(string(out), " "); sum != meta.Global["core:sha512"] {
-		t.Errorf("core:sha512 %v; sha512sum of the data: %s", meta.Global["core:sha512"], sum)
-	}
+	testtool.CheckSigMFHash(t, base)
 	return info.Start, float64(info.Samples) / info.SampleRate
 }
 

@@ -10,6 +10,7 @@ package testtool
 
 import (
 	"context"
+	"encoding/json"
 	"fmt"
 	"io"
 	"net"
@@ -213,4 +214,40 @@ func ArtifactDir(t testing.TB) string {
 		t.Fatalf("test artefacts folder: %v", err)
 	}
 	return dir
+}
+
+// SHA512Sum is coreutils sha512sum's digest of the file at path, in hex:
+// the outside check of a SigMF core:sha512.
+func SHA512Sum(t testing.TB, path string) string {
+	t.Helper()
+	out, err := exec.Command(Need(t, "sha512sum"), path).Output()
+	if err != nil {
+		t.Fatalf("sha512sum %s: %v", path, err)
+	}
+	f := strings.Fields(string(out))
+	if len(f) == 0 {
+		t.Fatalf("sha512sum %s: no output", path)
+	}
+	return f[0]
+}
+
+// CheckSigMFHash fails the test unless base.sigmf-meta's global
+// core:sha512 (SigMF 1.2.0, global object) is sha512sum's digest of
+// base.sigmf-data. The key is read as the specification names it, not
+// through nullseek's reader.
+func CheckSigMFHash(t testing.TB, base string) {
+	t.Helper()
+	mb, err := os.ReadFile(base + ".sigmf-meta")
+	if err != nil {
+		t.Fatal(err)
+	}
+	var meta struct {
+		Global map[string]any `json:"global"`
+	}
+	if err := json.Unmarshal(mb, &meta); err != nil {
+		t.Fatalf("%s.sigmf-meta: %v", base, err)
+	}
+	if sum := SHA512Sum(t, base+".sigmf-data"); meta.Global["core:sha512"] != sum {
+		t.Errorf("%s: core:sha512 %v, sha512sum of the data says %s", base, meta.Global["core:sha512"], sum)
+	}
 }
