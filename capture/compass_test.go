@@ -21,25 +21,7 @@ import (
 // script returns (then the connection is closed) or the test ends.
 func serveNMEA(t *testing.T, script func(ctx context.Context, w io.Writer)) string {
 	t.Helper()
-	ln, err := net.Listen("tcp", "127.0.0.1:0")
-	if err != nil {
-		t.Fatal(err)
-	}
-	ctx, cancel := context.WithCancel(context.Background())
-	t.Cleanup(func() { cancel(); ln.Close() })
-	go func() {
-		for {
-			c, err := ln.Accept()
-			if err != nil {
-				return
-			}
-			go func() {
-				defer c.Close()
-				script(ctx, c)
-			}()
-		}
-	}()
-	return "tcp://" + ln.Addr().String()
+	return "tcp://" + testtool.ServeTCP(t, func(ctx context.Context, c net.Conn) { script(ctx, c) })
 }
 
 // every calls fn every period until ctx ends, fn fails or limit passes

@@ -44,25 +44,7 @@ func (c turnClock) unwrapped(tm time.Time) float64 {
 // the connection closes when script returns.
 func serveCompass(t *testing.T, script func(ctx context.Context, w io.Writer)) string {
 	t.Helper()
-	ln, err := net.Listen("tcp", "127.0.0.1:0")
-	if err != nil {
-		t.Fatal(err)
-	}
-	ctx, cancel := context.WithCancel(context.Background())
-	t.Cleanup(func() { cancel(); ln.Close() })
-	go func() {
-		for {
-			c, err := ln.Accept()
-			if err != nil {
-				return
-			}
-			go func() {
-				defer c.Close()
-				script(ctx, c)
-			}()
-		}
-	}()
-	return "tcp://" + ln.Addr().String()
+	return "tcp://" + testtool.ServeTCP(t, func(ctx context.Context, c net.Conn) { script(ctx, c) })
 }
 
 // sendEvery writes line(now) every period until ctx ends, a write fails or

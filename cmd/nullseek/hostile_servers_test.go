@@ -9,6 +9,7 @@ import (
 	"io"
 	"math/rand"
 	"net"
+	"nullseek/internal/testtool"
 	"testing"
 	"time"
 )
@@ -35,36 +36,20 @@ import (
 // "RPRT n" (Hamlib rotctld(1), 4.5).
 func fakeServer(t *testing.T, role, kind string) string {
 	t.Helper()
-	ln, err := net.Listen("tcp", "127.0.0.1:0")
-	if err != nil {
-		t.Fatal(err)
-	}
-	addr := ln.Addr().String()
 	if kind == "refused" {
+		ln, err := net.Listen("tcp", "127.0.0.1:0")
+		if err != nil {
+			t.Fatal(err)
+		}
+		addr := ln.Addr().String()
 		ln.Close()
 		return addr
 	}
-	ctx, cancel := context.WithCancel(context.Background())
-	t.Cleanup(func() { cancel(); ln.Close() })
 	serve := fakeScript(role, kind)
 	if serve == nil {
 		t.Fatalf("no fake %s server of kind %q", role, kind)
 	}
-	go func() {
-		for {
-			c, err := ln.Accept()
-			if err != nil {
-				return
-			}
-			go func() {
-				defer c.Close()
-				stop := context.AfterFunc(ctx, func() { c.Close() })
-				defer stop()
-				serve(ctx, c)
-			}()
-		}
-	}()
-	return addr
+	return testtool.ServeTCP(t, serve)
 }
 
 // drain reads and discards what the client sends.

@@ -2,7 +2,9 @@ package testtool
 
 import (
 	"bytes"
+	"context"
 	"io"
+	"net"
 	"os/exec"
 	"strconv"
 	"strings"
@@ -78,4 +80,33 @@ func Run(t testing.TB, stdin, prog string, args ...string) string {
 		t.Fatalf("%s %v: %v (%s)", prog, args, err, stderr.String())
 	}
 	return out.String()
+}
+
+// ServeTCP listens on a free loopback port and runs handle for every
+// client in its own goroutine; the connection is closed when handle
+// returns or the test ends (ctx is cancelled then too). It returns the
+// "host:port" address.
+func ServeTCP(t testing.TB, handle func(ctx context.Context, c net.Conn)) string {
+	t.Helper()
+	ln, err := net.Listen("tcp", "127.0.0.1:0")
+	if err != nil {
+		t.Fatal(err)
+	}
+	ctx, cancel := context.WithCancel(context.Background())
+	t.Cleanup(func() { cancel(); ln.Close() })
+	go func() {
+		for {
+			c, err := ln.Accept()
+			if err != nil {
+				return
+			}
+			go func() {
+				defer c.Close()
+				stop := context.AfterFunc(ctx, func() { c.Close() })
+				defer stop()
+				handle(ctx, c)
+			}()
+		}
+	}()
+	return ln.Addr().String()
 }

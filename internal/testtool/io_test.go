@@ -1,10 +1,14 @@
 package testtool
 
 import (
+	"context"
+	"io"
+	"net"
 	"strings"
 	"sync"
 	"testing"
 	"testing/iotest"
+	"time"
 )
 
 // ChunkReader is a well-behaved io.Reader by the standard library's own
@@ -47,5 +51,21 @@ func TestParseFloats(t *testing.T) {
 	got := ParseFloats(t, " 45.123456789 -7.5\t1e3\n")
 	if len(got) != 3 || got[0] != 45.123456789 || got[1] != -7.5 || got[2] != 1000 {
 		t.Errorf("ParseFloats = %v", got)
+	}
+}
+
+func TestServeTCP(t *testing.T) {
+	addr := ServeTCP(t, func(ctx context.Context, c net.Conn) { io.WriteString(c, "hello\n") })
+	for i := 0; i < 2; i++ { // every client is served, and closed after
+		c, err := net.Dial("tcp", addr)
+		if err != nil {
+			t.Fatal(err)
+		}
+		c.SetDeadline(time.Now().Add(5 * time.Second))
+		b, err := io.ReadAll(c)
+		c.Close()
+		if err != nil || string(b) != "hello\n" {
+			t.Errorf("client %d read %q, %v", i, b, err)
+		}
 	}
 }
