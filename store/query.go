@@ -14,7 +14,7 @@ var ErrNotFound = errors.New("not in the database")
 
 // Tables lists the store's tables in schema order.
 var Tables = []string{"stations", "captures", "transmitters", "bursts", "level_readings", "headings",
-	"bearings", "schedules", "fixes", "fix_lines"}
+	"bearings", "schedules", "fixes", "fix_lines", "open_readings"}
 
 // Counts returns the number of rows of every table in Tables.
 func (db *DB) Counts() (map[string]int64, error) {

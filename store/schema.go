@@ -16,6 +16,7 @@ var migrations = []migration{
 	{2, "bearings, schedules, fixes and the indexes of the queries", schemaV2},
 	{3, "a bearing of a moving station may have no position", schemaV3},
 	{4, "a schedule row names its channel", schemaV4},
+	{5, "level readings of a transmission still on the air", schemaV5},
 }
 
 // SchemaVersion is the schema version this build writes (PRAGMA
@@ -266,4 +267,23 @@ CREATE INDEX bearings_tx_time ON bearings (transmitter_id, time_unix_ns);
 // place (SQLite documentation, ALTER TABLE, "ALTER TABLE ADD COLUMN").
 const schemaV4 = `
 ALTER TABLE schedules ADD COLUMN channel_hz REAL CHECK (channel_hz > 0);
+`
+
+// schemaV5: the level readings of a transmission that has not ended yet
+// (a carrier that stays on for hours), written as they are measured so
+// that a long transmission is neither held in memory nor lost when the
+// process dies; when its burst is written they move to level_readings
+// (Writer.AddBurstFromOpen), and a run that died leaves them here for
+// DB.RecoverOpen. noise_dbfs is the noise the reading's piece was measured
+// against. Keyed like level_readings, by capture instead of burst.
+const schemaV5 = `
+CREATE TABLE open_readings (
+	capture_id  INTEGER NOT NULL REFERENCES captures(id) ON DELETE CASCADE,
+	sample      INTEGER NOT NULL,
+	t_s         REAL    NOT NULL,
+	level_dbfs  REAL    NOT NULL,
+	noise_dbfs  REAL    NOT NULL,
+	clipped     INTEGER NOT NULL DEFAULT 0,
+	PRIMARY KEY (capture_id, sample)
+) WITHOUT ROWID;
 `

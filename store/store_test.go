@@ -151,7 +151,7 @@ func TestRerunIdempotent(t *testing.T) {
 	}
 	// 10 bursts of 2000 readings at 200/s thinned to 40/s: 400 each.
 	want := map[string]int64{"stations": 1, "captures": 1, "transmitters": 2, "bursts": 10,
-		"level_readings": 10 * 400, "headings": 6000, "bearings": 10, "schedules": 2, "fixes": 1, "fix_lines": 1}
+		"level_readings": 10 * 400, "headings": 6000, "bearings": 10, "schedules": 2, "fixes": 1, "fix_lines": 1, "open_readings": 0}
 	if !reflect.DeepEqual(second, want) {
 		t.Errorf("counts %v, want %v", second, want)
 	}

@@ -272,7 +272,10 @@ func (w *Writer) add(it item) error {
 	if err := w.stoppedErr(); err != nil {
 		return err
 	}
-	if bi, ok := it.(*burstItem); ok {
+	switch bi := it.(type) {
+	case *burstItem:
+		w.bursts[burstKey{bi.b.Capture, bi.b.StartSample}] = struct{}{}
+	case *fromOpenItem:
 		w.bursts[burstKey{bi.b.Capture, bi.b.StartSample}] = struct{}{}
 	}
 	w.pend = append(w.pend, it)
@@ -567,39 +570,9 @@ var readingSQL = struct {
 }{m: map[int]string{}}
 
 func (it *burstItem) write(b *batchTx) error {
-	x := it.b
-	row, err := b.queryRow(findBurst, x.Capture, x.StartSample)
+	id, err := b.upsertBurst(it.b)
 	if err != nil {
 		return err
-	}
-	var old int64
-	existed := true
-	if err := row.Scan(&old); errors.Is(err, sql.ErrNoRows) {
-		existed = false
-	} else if err != nil {
-		return err
-	}
-	tid, err := b.transmitter(x.Ident)
-	if err != nil {
-		return err
-	}
-	row, err = b.queryRow(upsertBurst, x.Capture, x.StartSample, x.EndSample, x.StartS, x.EndS,
-		nsOrNil(x.Start), nsOrNil(x.End), x.OffsetHz, zeroNil(x.FreqHz), x.LevelDBFS, x.PeakDBFS, x.NoiseDBFS,
-		x.SNRDB, x.ClippedFraction, b2i(x.CutAtStart), b2i(x.CutAtEnd), b2i(x.DoubleCarrier), x.CarrierSpreadHz,
-		x.Mode, x.Text, tid, x.IdentConfidence, x.IdentMethod, x.ToneHz, x.WPM, x.ReadingsPerS)
-	if err != nil {
-		return err
-	}
-	var id int64
-	if err := row.Scan(&id); err != nil {
-		return err
-	}
-	if existed {
-		// A re-run replaces the burst's readings as a whole, so a different
-		// thinning rate cannot leave old readings beside the new ones.
-		if err := b.exec("DELETE FROM level_readings WHERE burst_id = ?", id); err != nil {
-			return err
-		}
 	}
 	// Many rows per statement: one call into SQLite per chunk instead of
 	// per reading is what takes the insert rate past 100 000 a second.
@@ -623,6 +596,45 @@ func (it *burstItem) write(b *batchTx) error {
 	b.kinds[0]++
 	b.kinds[1] += int64(len(it.readings))
 	return nil
+}
+
+// upsertBurst writes a burst's row by its natural key and returns its id.
+// When the row existed its readings are deleted: a re-run replaces the
+// burst's readings as a whole, so a different thinning rate cannot leave
+// old readings beside the new ones.
+func (b *batchTx) upsertBurst(x Burst) (int64, error) {
+	row, err := b.queryRow(findBurst, x.Capture, x.StartSample)
+	if err != nil {
+		return 0, err
+	}
+	var old int64
+	existed := true
+	if err := row.Scan(&old); errors.Is(err, sql.ErrNoRows) {
+		existed = false
+	} else if err != nil {
+		return 0, err
+	}
+	tid, err := b.transmitter(x.Ident)
+	if err != nil {
+		return 0, err
+	}
+	row, err = b.queryRow(upsertBurst, x.Capture, x.StartSample, x.EndSample, x.StartS, x.EndS,
+		nsOrNil(x.Start), nsOrNil(x.End), x.OffsetHz, zeroNil(x.FreqHz), x.LevelDBFS, x.PeakDBFS, x.NoiseDBFS,
+		x.SNRDB, x.ClippedFraction, b2i(x.CutAtStart), b2i(x.CutAtEnd), b2i(x.DoubleCarrier), x.CarrierSpreadHz,
+		x.Mode, x.Text, tid, x.IdentConfidence, x.IdentMethod, x.ToneHz, x.WPM, x.ReadingsPerS)
+	if err != nil {
+		return 0, err
+	}
+	var id int64
+	if err := row.Scan(&id); err != nil {
+		return 0, err
+	}
+	if existed {
+		if err := b.exec("DELETE FROM level_readings WHERE burst_id = ?", id); err != nil {
+			return 0, err
+		}
+	}
+	return id, nil
 }
 
 type headingItem struct {

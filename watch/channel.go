@@ -36,11 +36,11 @@ type listener struct {
 	view heading.Track
 
 	// The channel's scan goroutine only.
-	cur      int // the burst whose readings are gathered
-	readings []store.LevelReading
-	raw      []store.LevelReading
+	cur      int                  // the burst whose readings are gathered
+	readings []store.LevelReading // thinned, not yet handed to the store
+	raw      []store.LevelReading // not yet thinned (an incomplete window)
 	lastT    float64
-	cutShort bool
+	noise    float64         // the noise under the latest piece, dBFS
 	obs      []survey.Record // the latest bursts, for the schedule
 
 	channelDB atomic.Uint64              // the last channel reading in a burst; NaN between
@@ -84,8 +84,9 @@ func (l *listener) options() survey.Options {
 func (l *listener) piece(p *receiver.Piece) error {
 	l.w.hs.refresh(&l.view)
 	if p.Burst != l.cur {
-		l.cur, l.readings, l.raw, l.lastT, l.cutShort = p.Burst, l.readings[:0], l.raw[:0], math.Inf(-1), false
+		l.cur, l.readings, l.raw, l.lastT = p.Burst, l.readings[:0], l.raw[:0], math.Inf(-1)
 	}
+	l.noise = p.NoiseDB
 	_, _, level := p.Between(p.OnS, p.OffS)
 	for _, lv := range level {
 		if lv.T <= l.lastT {
@@ -100,7 +101,27 @@ func (l *listener) piece(p *receiver.Piece) error {
 	}
 	if !p.Last {
 		l.thin(false)
+		return l.flushOpen()
 	}
+	return nil
+}
+
+// flushOpen hands the burst's thinned readings to the store as open
+// readings (store.Writer.AddOpenReadings): a transmission that lasts
+// hours is not held in memory, and a run that dies loses only what the
+// store had not committed (about a second).
+func (l *listener) flushOpen() error {
+	if len(l.readings) == 0 {
+		return nil
+	}
+	noise := l.noise
+	if math.IsNaN(noise) || math.IsInf(noise, 0) {
+		noise = logbook.NoCarrierSNRDB
+	}
+	if err := l.w.wr.AddOpenReadings(l.capture, noise, l.readings); err != nil {
+		return l.w.dbErr(err)
+	}
+	l.readings = l.readings[:0]
 	return nil
 }
 
@@ -120,12 +141,7 @@ func (l *listener) thin(final bool) {
 			cut--
 		}
 	}
-	th, err := store.ThinLevels(l.raw[:cut], l.w.info.SampleRate, store.DefaultReadingsPerS)
-	if err == nil {
-		room := maxBurstReadings - len(l.readings)
-		if len(th) > room {
-			th, l.cutShort = th[:max(room, 0)], true
-		}
+	if th, err := store.ThinLevels(l.raw[:cut], l.w.info.SampleRate, store.DefaultReadingsPerS); err == nil {
 		l.readings = append(l.readings, th...)
 	}
 	l.raw = append(l.raw[:0], l.raw[cut:]...)
@@ -136,30 +152,34 @@ func (l *listener) thin(final bool) {
 func (l *listener) record(r survey.Record) error {
 	w := l.w
 	l.channelDB.Store(math.Float64bits(math.NaN()))
-	var readings []store.LevelReading
+	b := logbook.BurstRow(l.capture, r, w.info.SampleRate)
 	if r.Index == l.cur {
+		// The burst's readings are in the store's open readings; the last
+		// part of a burst releases all that are left of it.
 		l.thin(true)
-		for _, lv := range l.readings {
-			if lv.TimeS >= r.StartS && lv.TimeS <= r.EndS {
-				readings = append(readings, lv)
-			}
+		if err := l.flushOpen(); err != nil {
+			return err
+		}
+		release := b.EndSample
+		if r.Parts == 0 || r.Part == r.Parts {
+			release = math.MaxInt64
+		}
+		if err := w.wr.AddBurstFromOpen(b, release); err != nil {
+			return w.dbErr(err)
 		}
 	} else {
+		var readings []store.LevelReading
 		for _, lv := range r.Level {
 			readings = append(readings, store.LevelReading{Sample: lv.Sample, TimeS: lv.T, LevelDBFS: lv.LevelDB, Clipped: lv.Clipped})
 		}
-	}
-	b := logbook.BurstRow(l.capture, r, w.info.SampleRate)
-	if err := w.wr.AddBurst(b, readings); err != nil {
-		return w.dbErr(err)
+		if err := w.wr.AddBurst(b, readings); err != nil {
+			return w.dbErr(err)
+		}
 	}
 	l.bursts.Add(1)
 	w.bursts.Add(1)
 	l.lastBurst.Store(&[2]float64{r.LevelDB, b.SNRDB})
 	line := fmt.Sprintf("burst %s  %s  %7.1f s  %-10s %-5s level %6.1f dBFS  SNR %5.1f dB", survey.StartTime(r.Start, r.StartS), l.name(), r.EndS-r.StartS, identText(r), r.Mode, r.LevelDB, b.SNRDB)
-	if l.cutShort && r.Index == l.cur {
-		line += fmt.Sprintf("  (readings after the first %d kept out)", maxBurstReadings)
-	}
 	if br, why := l.bearingRow(r, b); why != "" {
 		line += "  no bearing: " + why
 	} else {

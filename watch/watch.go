@@ -46,11 +46,6 @@ const (
 // headingHandoff is how often polled headings are handed to the Writer.
 const headingHandoff = 200 * time.Millisecond
 
-// maxBurstReadings bounds the level readings kept for one burst (an hour
-// at store.DefaultReadingsPerS); a transmission longer than that keeps its
-// first hour of readings and says so.
-const maxBurstReadings = 3600 * int(store.DefaultReadingsPerS)
-
 // SourceFactory opens the receiver. The watch calls it once; a factory
 // that reconnects (an rtl_tcp client that dials again when the server
 // goes away) slots in here without changing the watch, as long as its
@@ -326,6 +321,13 @@ func (w *watcher) run(ctx context.Context) (*Summary, error) {
 		if l.capture, err = w.o.DB.PutCapture(capRow); err != nil {
 			return nil, w.dbErr(err)
 		}
+	}
+	// Readings of a transmission a run that died was still hearing
+	// become a burst cut at its end before this run adds its own.
+	if n, err := w.o.DB.RecoverOpen(); err != nil {
+		return nil, w.dbErr(err)
+	} else if n > 0 {
+		w.logf("%d transmission(s) still on the air when an earlier run stopped: stored as bursts cut at their end", n)
 	}
 	wo := w.o.Writer
 	if wo.FlushInterval == 0 {
