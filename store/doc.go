@@ -11,7 +11,10 @@
 // each in one transaction; a database written by a newer nullseek is
 // refused. High-volume rows (bursts, level readings, headings, bearings)
 // go through a Writer that commits in batches at least once a second, so a
-// crash loses at most the last second. Every row has a natural key and is
+// crash loses at most the last second; the readings of a transmission
+// still on the air are written as they come (open readings, see
+// Writer.AddOpenReadings), so a long carrier is held neither in memory nor
+// at risk. Every row has a natural key and is
 // written with an UPSERT, so re-running the same recording changes rows in
 // place instead of adding new ones.
 //

@@ -5,6 +5,7 @@ import (
 	"math"
 	"math/cmplx"
 	"runtime"
+	"strings"
 	"testing"
 
 	"nullseek/sdr"
@@ -67,29 +68,8 @@ func (s *carrierMix) Read(dst []complex64) (int, error) {
 // with transmission length.
 func BenchmarkWatchMemoryHour(b *testing.B) {
 	const rate = 240000
-	toml := `name = "Hour"
-database = "hour.db"
-[position]
-source = "fixed"
-lat_lon = "45.0, 6.0"
-[antenna]
-kind = "loop"
-[receiver]
-source = "rtl_tcp://127.0.0.1:1"
-sample_rate = 240000
-centre = 144400000
-gain_db = 30
-[[channel]]
-freq = 144425000
-[[channel]]
-freq = 144375000
-[heading]
-source = "rotator"
-reference = "true"
-rotator = "127.0.0.1:1"
-sweep_from_deg = 0.0
-sweep_to_deg = 360.0
-`
+	toml := strings.Replace(strings.Replace(baseStation, `name = "Opt"`, `name = "Hour"`, 1),
+		"freq = 144425000\n", "freq = 144425000\n[[channel]]\nfreq = 144375000\n", 1)
 	for i := 0; i < b.N; i++ {
 		b.StopTimer()
 		st, db := loadStation(b, toml)
