@@ -4,6 +4,7 @@ import (
 	"database/sql"
 	"fmt"
 	"math"
+	"strings"
 	"time"
 )
 
@@ -103,13 +104,8 @@ func upsertOpen(n int) string {
 	if q, ok := readingSQL.m[key]; ok {
 		return q
 	}
-	q := "INSERT INTO open_readings (capture_id, sample, t_s, level_dbfs, noise_dbfs, clipped) VALUES "
-	for i := 0; i < n; i++ {
-		if i > 0 {
-			q += ", "
-		}
-		q += "(?, ?, ?, ?, ?, ?)"
-	}
+	q := "INSERT INTO open_readings (capture_id, sample, t_s, level_dbfs, noise_dbfs, clipped) VALUES " +
+		strings.TrimSuffix(strings.Repeat("(?, ?, ?, ?, ?, ?), ", n), ", ")
 	q += ` ON CONFLICT (capture_id, sample) DO UPDATE SET
 	t_s = excluded.t_s, level_dbfs = excluded.level_dbfs, noise_dbfs = excluded.noise_dbfs, clipped = excluded.clipped`
 	readingSQL.m[key] = q
@@ -210,6 +206,9 @@ FROM open_readings o JOIN captures c ON c.id = o.capture_id ORDER BY o.capture_i
 		return 0, db.wrap("recover open readings", err)
 	}
 	rows.Close()
+	// The same burst upsert as a Writer's batch (an unidentified burst
+	// needs no transmitter row, so no Writer is involved).
+	b := &batchTx{tx: tx, stmts: map[string]*sql.Stmt{}, newTx: map[string]TransmitterID{}}
 	for _, a := range found {
 		x := &a.b
 		x.LevelDBFS = 10 * math.Log10(a.pow/float64(a.n))
@@ -223,17 +222,14 @@ FROM open_readings o JOIN captures c ON c.id = o.capture_id ORDER BY o.capture_i
 		if err := x.Validate(); err != nil {
 			return 0, fmt.Errorf("recover the open readings of capture %d: %w", x.Capture, err)
 		}
-		var id int64
-		err := tx.QueryRow(upsertBurst, x.Capture, x.StartSample, x.EndSample, x.StartS, x.EndS,
-			nsOrNil(x.Start), nsOrNil(x.End), x.OffsetHz, zeroNil(x.FreqHz), x.LevelDBFS, x.PeakDBFS, x.NoiseDBFS,
-			x.SNRDB, 0.0, 0, 1, 0, 0.0, "", "", nil, 0.0, "", 0.0, 0.0, 0.0).Scan(&id)
+		id, err := b.upsertBurst(*x)
 		if err != nil {
 			return 0, db.wrap("recover open readings", err)
 		}
-		if _, err := tx.Exec(moveOpen, id, x.Capture, x.StartSample, x.EndSample); err != nil {
+		if err := b.exec(moveOpen, id, x.Capture, x.StartSample, x.EndSample); err != nil {
 			return 0, db.wrap("recover open readings", err)
 		}
-		if _, err := tx.Exec(setReadingRate, id, id); err != nil {
+		if err := b.exec(setReadingRate, id, id); err != nil {
 			return 0, db.wrap("recover open readings", err)
 		}
 		if _, err := tx.Exec("DELETE FROM open_readings WHERE capture_id = ?", x.Capture); err != nil {
