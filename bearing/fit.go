@@ -318,7 +318,7 @@ func Fit(points []Point, p Pattern, opts FitOptions) (Estimate, error) {
 	}
 	cov, gaps := coverage(pts, o.MaxGapDeg)
 	if cov < o.MinCoverageDeg {
-		return Estimate{}, fmt.Errorf("fit bearing: %w: %.0f° covered (%s), need %.0f°; turn the antenna further", ErrCoverage, cov, FormatArcs(arcs(gaps)), o.MinCoverageDeg)
+		return Estimate{}, fmt.Errorf("fit bearing: %w: %.1f° covered (%s), need %.0f°; turn the antenna further", ErrCoverage, cov, FormatArcs(arcs(gaps)), o.MinCoverageDeg)
 	}
 	cells := makeCells(pts, o.BinDeg, thermal, floorDB)
 	var clear []Point
