@@ -10,10 +10,12 @@ import (
 
 // A transmission that has not ended yet — a carrier that stays on for
 // hours — keeps its level readings in open_readings (schema step 5) as
-// they are measured, instead of in the memory of the process that will
+// they are handed over, instead of in the memory of the process that will
 // write its burst: memory stays flat with transmission length, and a
-// process killed in the middle of it loses only the last uncommitted
-// batch (about a second), as it does for everything else.
+// process killed in the middle of it loses only what it had not yet
+// handed over (the watch hands readings over piece by piece, every 12 s
+// at the receiver's defaults) and the last uncommitted batch (about a
+// second), as it does for everything else.
 //
 // The life of an open transmission's readings:
 //   - AddOpenReadings queues them as they come, already thinned;

@@ -270,7 +270,7 @@ ALTER TABLE schedules ADD COLUMN channel_hz REAL CHECK (channel_hz > 0);
 `
 
 // schemaV5: the level readings of a transmission that has not ended yet
-// (a carrier that stays on for hours), written as they are measured so
+// (a carrier that stays on for hours), written as they are handed over so
 // that a long transmission is neither held in memory nor lost when the
 // process dies; when its burst is written they move to level_readings
 // (Writer.AddBurstFromOpen), and a run that died leaves them here for
