@@ -161,6 +161,31 @@ type Handler struct {
 	// Progress is called with the number of input samples consumed so
 	// far, after every block.
 	Progress func(samples int64)
+	// Channel is called after every block with the channel's state at its
+	// end (see ChannelState): what a live display shows between pieces,
+	// which come only every PieceS − PieceOverlapS seconds.
+	Channel func(ChannelState)
+}
+
+// ChannelState is the channel as the detector stands after a block.
+type ChannelState struct {
+	// Samples is the input samples consumed so far (as Progress's).
+	Samples int64
+	// Open says the detector holds an unfinished burst: it has opened one
+	// and not yet handed it over (Handler.Burst comes once the carrier has
+	// stayed off long enough to rule out more of a keyed transmission).
+	// Carrier says the carrier is up now: a segment of that burst is open
+	// (it closes MergeGapS after the carrier goes). Between a keyed
+	// transmission's elements, and after its end until the burst is
+	// handed over, Open holds without Carrier.
+	Open, Carrier bool
+	// LevelDB is the mean channel power of the newest reading and NoiseDB
+	// the noise power a reading carries, dBFS (as Burst.LevelDB and
+	// Burst.NoiseDB), and SNRDB the newest reading's carrier-to-noise
+	// ratio as Burst.SNRDB defines it (−Inf when the reading is not above
+	// the noise). All three are NaN until the noise estimate is ready (the
+	// first warmFrames spectrum frames).
+	LevelDB, NoiseDB, SNRDB float64
 }
 
 // Between returns the parts of the piece's audio and level track between

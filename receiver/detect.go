@@ -138,6 +138,7 @@ const warmFrames = 8
 // demodulated audio (nil when audio is not kept).
 func (s *Scanner) detect(r reading, fm, am []float32) {
 	s.pushPower(r.p)
+	s.lastP = r.p
 	if !s.noiseReady {
 		s.pre.push(r, fm, am)
 		return
@@ -155,6 +156,25 @@ func (s *Scanner) detect(r reading, fm, am []float32) {
 		return
 	}
 	s.groupReading(r, fm, am)
+}
+
+// snrDB is the carrier-to-noise ratio of a mean channel power over the
+// noise it carries (both linear), in SNRBandwidthHz (Burst.SNRDB); −Inf
+// when no carrier is measurable (outputs print it as null).
+func (s *Scanner) snrDB(mean, noise float64) float64 {
+	if !(mean > noise) {
+		return math.Inf(-1)
+	}
+	return 10 * math.Log10((mean-noise)/noise*s.enbw/SNRBandwidthHz)
+}
+
+// channelState is the detector's state after total input samples.
+func (s *Scanner) channelState(total int64) ChannelState {
+	st := ChannelState{Samples: total, Open: s.open, Carrier: s.open && s.g.curOpen, LevelDB: math.NaN(), NoiseDB: math.NaN(), SNRDB: math.NaN()}
+	if s.noiseReady {
+		st.LevelDB, st.NoiseDB, st.SNRDB = dsp.DBFS(s.lastP), dsp.DBFS(s.noiseLin), s.snrDB(s.lastP, s.noiseLin)
+	}
+	return st
 }
 
 // startNoise is called once the noise estimate is ready: the readings held
@@ -809,11 +829,7 @@ func (s *Scanner) forceBurst(c segment, index int, keyed bool, unitS float64, ow
 		Keyed:           keyed,
 		KeyUnitS:        unitS,
 	}
-	if mean > noise {
-		bu.SNRDB = 10 * math.Log10((mean-noise)/noise*s.enbw/SNRBandwidthHz)
-	} else {
-		bu.SNRDB = math.Inf(-1) // no carrier measurable; outputs print it as null
-	}
+	bu.SNRDB = s.snrDB(mean, noise)
 	if s.info.CenterHz != 0 {
 		bu.FreqHz = s.info.CenterHz + bu.OffsetHz
 	}

@@ -68,6 +68,7 @@ type Scanner struct {
 	noiseLag1  float64 // a reading's lag-1 sum of noise alone, per unit of its noise power
 	noiseLin   float64 // noise power of one reading, linear
 	noiseReady bool
+	lastP      float64 // the newest reading's power, linear
 	cf         cfarDesign
 	pw         []float64 // the last len(pw) readings' powers (ring)
 	wsum       []float64 // their sums over each detection window
@@ -235,6 +236,9 @@ func (s *Scanner) Scan(ctx context.Context, src sdr.Source, h Handler) (Summary,
 			total += int64(whole)
 			if h.Progress != nil {
 				h.Progress(total)
+			}
+			if h.Channel != nil {
+				h.Channel(s.channelState(total))
 			}
 		}
 		// keep the part of a reading that is not yet whole

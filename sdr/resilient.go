@@ -128,6 +128,10 @@ type ResilientOptions struct {
 	// OnGap, if set, is called for each gap as it is found, from the
 	// goroutine calling Read.
 	OnGap func(Gap)
+	// OnLost, if set, is called when the receiver is lost, before the
+	// first reconnection attempt, from the goroutine calling Read; the
+	// GapReconnect gap handed to OnGap says it is back.
+	OnLost func(cause error)
 	// Logger receives reconnection attempts; nil = slog.Default().
 	Logger *slog.Logger
 }
@@ -269,6 +273,9 @@ func (r *resilient) reconnect(cause error) error {
 	r.cur.Close()
 	r.mu.Unlock()
 	r.log.Warn("receiver lost, reconnecting", "source", r.name, "after_samples", r.pos, "cause", cause.Error())
+	if r.opts.OnLost != nil {
+		r.opts.OnLost(cause)
+	}
 	t0 := time.Now()
 	for k := 0; ; k++ {
 		d := r.opts.Backoff.Delay(k, rand.Float64())

@@ -154,10 +154,12 @@ func TestResilientReconnect(t *testing.T) {
 		srv.send(c2, k, k+int64(rate)) // a second more at most
 	}()
 	var gaps []Gap
+	var lost []string // OnLost's causes, and "gap" where OnGap came
 	cfg := RTLConfig{SampleRate: rate, CenterHz: 145.5e6, GainDB: 19.7, PPM: -3, AGC: true, NoDataTimeout: time.Second}
 	src, err := NewResilientRTLTCP(context.Background(), addr, cfg, ResilientOptions{
 		Backoff: Backoff{Min: 20 * time.Millisecond, Max: 100 * time.Millisecond},
-		OnGap:   func(g Gap) { gaps = append(gaps, g) },
+		OnGap:   func(g Gap) { gaps = append(gaps, g); lost = append(lost, "gap") },
+		OnLost:  func(cause error) { lost = append(lost, cause.Error()) },
 	})
 	if err != nil {
 		t.Fatal(err)
@@ -171,6 +173,9 @@ func TestResilientReconnect(t *testing.T) {
 	checkSeq(t, "after the fault", after, k)
 	if len(gaps) != 1 || src.Reconnects() != 1 {
 		t.Fatalf("gaps %+v, reconnects %d: want one gap", gaps, src.Reconnects())
+	}
+	if len(lost) != 2 || lost[0] == "gap" || lost[1] != "gap" {
+		t.Errorf("OnLost and OnGap came as %q: want the loss (with its cause), then the gap", lost)
 	}
 	g := gaps[0]
 	want := k - first

@@ -129,6 +129,9 @@ type StreamHandler struct {
 	Piece func(*receiver.Piece) error
 	// Progress gets the input samples consumed.
 	Progress func(int64)
+	// Channel gets the channel's state after every block
+	// (receiver.Handler.Channel).
+	Channel func(receiver.ChannelState)
 }
 
 // Stream surveys src and hands each record over as its burst ends,
@@ -162,7 +165,7 @@ func stream(ctx context.Context, src sdr.Source, opts Options, idf *ident.Identi
 	// transmission of any length is read with bounded memory) and names it
 	// when its closing burst arrives.
 	var tr *ident.Transmission
-	h := receiver.Handler{Progress: sh.Progress}
+	h := receiver.Handler{Progress: sh.Progress, Channel: sh.Channel}
 	var fit *bearingScan
 	if opts.Bearing != nil {
 		if fit, err = newBearingScan(*opts.Bearing); err != nil {

@@ -3,6 +3,7 @@ package watch
 import (
 	"fmt"
 	"math"
+	"strings"
 	"sync/atomic"
 	"time"
 
@@ -43,8 +44,9 @@ type listener struct {
 	noise    float64         // the noise under the latest piece, dBFS
 	obs      []survey.Record // the latest bursts, for the schedule
 
-	channelDB atomic.Uint64              // the last channel reading in a burst; NaN between
-	noiseDB   atomic.Uint64              // the noise under it (receiver.Piece.NoiseDB)
+	open      atomic.Bool                // a burst is open (receiver.ChannelState.Open)
+	channelDB atomic.Uint64              // the newest reading while the carrier is up, dBFS; NaN otherwise
+	snrDB     atomic.Uint64              // its SNR (receiver.ChannelState.SNRDB)
 	lastBurst atomic.Pointer[[2]float64] // the last burst's level and SNR, dB
 	bursts    atomic.Int64
 	bearings  atomic.Int64
@@ -95,10 +97,6 @@ func (l *listener) piece(p *receiver.Piece) error {
 		l.lastT = lv.T
 		l.raw = append(l.raw, store.LevelReading{Sample: lv.Sample, TimeS: lv.T, LevelDBFS: lv.LevelDB, Clipped: lv.Clipped})
 	}
-	if n := len(level); n > 0 {
-		l.noiseDB.Store(math.Float64bits(p.NoiseDB))
-		l.channelDB.Store(math.Float64bits(level[n-1].LevelDB))
-	}
 	if !p.Last {
 		l.thin(false)
 		return l.flushOpen()
@@ -106,10 +104,25 @@ func (l *listener) piece(p *receiver.Piece) error {
 	return nil
 }
 
+// channel follows the detector after every block, for the status line: a
+// burst is shown while it is on, not only when a piece of it arrives
+// (every 20 s at the receiver's default).
+func (l *listener) channel(st receiver.ChannelState) {
+	lv, snr := math.NaN(), math.NaN()
+	if st.Carrier {
+		lv, snr = st.LevelDB, st.SNRDB
+	}
+	l.open.Store(st.Open)
+	l.channelDB.Store(math.Float64bits(lv))
+	l.snrDB.Store(math.Float64bits(snr))
+}
+
 // flushOpen hands the burst's thinned readings to the store as open
-// readings (store.Writer.AddOpenReadings): a transmission that lasts
-// hours is not held in memory, and a run that dies loses only what the
-// store had not committed (about a second).
+// readings (store.Writer.AddOpenReadings) piece by piece: a transmission
+// that lasts hours is not held in memory, and a run that dies loses the
+// readings since the last piece (pieces come every PieceS − PieceOverlapS,
+// 12 s at the receiver's defaults) and what the store had not committed
+// (about a second).
 func (l *listener) flushOpen() error {
 	if len(l.readings) == 0 {
 		return nil
@@ -151,7 +164,6 @@ func (l *listener) thin(final bool) {
 // prints its line and refits the channel's slot schedule.
 func (l *listener) record(r survey.Record) error {
 	w := l.w
-	l.channelDB.Store(math.Float64bits(math.NaN()))
 	b := logbook.BurstRow(l.capture, r, w.info.SampleRate)
 	if r.Index == l.cur {
 		// The burst's readings are in the store's open readings; the last
@@ -191,6 +203,13 @@ func (l *listener) record(r survey.Record) error {
 		line += fmt.Sprintf("  bearing %5.1f° ± %.1f° true", br.TrueDeg, br.SigmaDeg)
 		if br.AltTrueDeg != nil {
 			line += fmt.Sprintf(" (or %.1f°)", *br.AltTrueDeg)
+		}
+		if fs := r.Fit.Est.Flags; len(fs) > 0 {
+			names := make([]string, len(fs))
+			for i, f := range fs {
+				names[i] = string(f)
+			}
+			line += ", flags: " + strings.Join(names, ", ")
 		}
 	}
 	w.logf("%s", line)

@@ -23,7 +23,7 @@ bearings and the slot schedule go into the station's SQLite database, committed 
 A moving station (position.source gpsd, or nmea over tcp://) stamps each bearing with where it was at the
 middle of its burst; while its position source has no fix within 5 s, bearings are stored without a position.
 One line per burst goes to standard output, a status line every 10 s to standard error (input level, the
-channel's level and SNR in a burst, the heading, the position). A heading source that fails does not stop the
+channel's level and SNR while a burst is on, the heading, the position). A heading source that fails does not stop the
 watch: bursts are logged without bearings until it answers again. --record DIR keeps every sample received as
 SigMF pairs (cu8, core:geolocation) in DIR, a new pair every --record-every. A full or write-protected
 database stops the watch with one error; what was committed stays.`

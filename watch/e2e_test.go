@@ -8,6 +8,7 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"regexp"
 	"strings"
 	"testing"
 	"time"
@@ -300,7 +301,15 @@ func TestWatchMatchesSurvey(t *testing.T) {
 			t.Errorf("the status lines say nothing of %q:\n%s", want, status)
 		}
 	}
+	// While a burst is on (34 s of the 40), the status lines say so with
+	// the channel's level and SNR, not only once a piece has come.
+	if n := len(statusOn.FindAllString(status, -1)); n < 5 {
+		t.Errorf("%d status lines show the channel on, want most of the %d:\n%s", n, strings.Count(status, "status "), status)
+	}
 }
+
+// statusOn is a channel shown on in a status line.
+var statusOn = regexp.MustCompile(`MHz on -?\d+\.\d dBFS SNR \d+\.\d dB`)
 
 func boolInt(b bool) int {
 	if b {

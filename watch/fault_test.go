@@ -247,7 +247,9 @@ func TestWatchReceiverOutage(t *testing.T) {
 	if err := os.Mkdir(rec, 0o755); err != nil {
 		t.Fatal(err)
 	}
-	db, log, wait := watchInBackground(t, writeStation(t, dir, addr, rot), Options{DurationS: recSeconds - 3, RecordDir: rec})
+	status := &syncBuffer{}
+	db, log, wait := watchInBackground(t, writeStation(t, dir, addr, rot), Options{DurationS: recSeconds - 3, RecordDir: rec,
+		Status: status, StatusPeriod: time.Second})
 	time.Sleep(8 * time.Second)
 	stop()
 	time.Sleep(3 * time.Second)
@@ -265,6 +267,25 @@ func TestWatchReceiverOutage(t *testing.T) {
 	}
 	if n := strings.Count(out, "receiver "+addr+": gap of"); n != 1 {
 		t.Errorf("the receiver's outage was logged %d times, want once", n)
+	}
+	// The status lines say the receiver is lost while it is (3 s and the
+	// redial's backoff, a status line a second), and show the channel
+	// again once it is back.
+	lines := strings.Split(strings.TrimSpace(status.String()), "\n")
+	lostLines, backAfter := 0, 0
+	for _, l := range lines {
+		switch {
+		case strings.Contains(l, "receiver lost at "):
+			lostLines++
+			if strings.Contains(l, " MHz ") {
+				t.Errorf("a receiver-lost status line shows the channel's stale state: %s", l)
+			}
+		case lostLines > 0 && strings.Contains(l, "input ["):
+			backAfter++
+		}
+	}
+	if lostLines < 2 || backAfter < 5 {
+		t.Errorf("%d status lines say the receiver is lost, %d show the input after it; want 2 or more, 5 or more:\n%s", lostLines, backAfter, status)
 	}
 	bursts, err := db.BurstsOfCapture(sum.Capture)
 	if err != nil {

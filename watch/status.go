@@ -37,8 +37,12 @@ func (w *watcher) showStatus(ctx context.Context) {
 // period, how far the stream is behind the wall clock (samples late or
 // dropped on the way: a live stream that falls behind loses samples at the
 // server), the process's CPU time over wall time (1 = one core busy), the
-// level of each channel (named by its frequency) in its current burst or
-// its last one, the heading and the rows stored.
+// input level and the state of each channel (or, while the receiver is
+// lost and being redialled, when it was lost) (named by its frequency): on, with the newest
+// reading's level and SNR while the carrier is up, "carrier down" between
+// a keyed burst's elements and until the burst is handed over, quiet with
+// its last burst's level and SNR otherwise; the heading and the rows
+// stored.
 func (w *watcher) statusLine(now time.Time, wall time.Duration, samples int64, cpu time.Duration, cpuOK bool) string {
 	var b strings.Builder
 	fmt.Fprintf(&b, "status %s", now.UTC().Format(time.TimeOnly))
@@ -51,43 +55,61 @@ func (w *watcher) statusLine(now time.Time, wall time.Duration, samples int64, c
 	if cpuOK && wall > 0 {
 		fmt.Fprintf(&b, "  CPU %.2f", cpu.Seconds()/wall.Seconds())
 	}
-	fmt.Fprintf(&b, "  input %s", capture.LevelBar(math.Float64frombits(w.inputDB.Load())))
+	if lost := w.lostAt.Load(); lost != 0 {
+		// The channels' last states are stale: say what is wrong instead.
+		at := time.Unix(0, lost)
+		fmt.Fprintf(&b, "  receiver lost at %s (%.0f s ago), reconnecting", at.UTC().Format(time.TimeOnly), now.Sub(at).Seconds())
+	} else {
+		w.channelStatus(&b)
+	}
+	w.headingStatus(&b, now)
+	st := w.wr.Stats()
+	fmt.Fprintf(&b, "  bursts %d, bearings %d, stored %d bursts", w.bursts.Load(), w.bearings.Load(), st.Bursts)
+	return b.String()
+}
+
+// channelStatus is the status line's input level and channel states.
+func (w *watcher) channelStatus(b *strings.Builder) {
+	fmt.Fprintf(b, "  input %s", capture.LevelBar(math.Float64frombits(w.inputDB.Load())))
 	for _, l := range w.chans {
-		fmt.Fprintf(&b, "  %s ", l.name())
+		fmt.Fprintf(b, "  %s ", l.name())
 		if len(w.chans) > 1 {
 			n := l.bursts.Load()
-			fmt.Fprintf(&b, "(%d burst%s) ", n, map[bool]string{true: "", false: "s"}[n == 1])
+			fmt.Fprintf(b, "(%d burst%s) ", n, map[bool]string{true: "", false: "s"}[n == 1])
 		}
 		if ch := math.Float64frombits(l.channelDB.Load()); !math.IsNaN(ch) {
-			fmt.Fprintf(&b, "%.1f dBFS", ch)
-			if n := math.Float64frombits(l.noiseDB.Load()); !math.IsNaN(n) && !math.IsInf(n, 0) {
-				fmt.Fprintf(&b, " SNR %.1f dB", ch-n)
+			fmt.Fprintf(b, "on %.1f dBFS", ch)
+			if snr := math.Float64frombits(l.snrDB.Load()); !math.IsNaN(snr) && !math.IsInf(snr, 0) {
+				fmt.Fprintf(b, " SNR %.1f dB", snr)
 			}
-			b.WriteString(" (in a burst)")
+		} else if l.open.Load() {
+			b.WriteString("on, carrier down")
 		} else {
 			b.WriteString("quiet")
 			if lb := l.lastBurst.Load(); lb != nil {
-				fmt.Fprintf(&b, " (last burst %.1f dBFS, SNR %.1f dB)", lb[0], lb[1])
+				fmt.Fprintf(b, " (last burst %.1f dBFS, SNR %.1f dB)", lb[0], lb[1])
 			}
 		}
 	}
+}
+
+// headingStatus is the status line's heading and, for a moving station,
+// position.
+func (w *watcher) headingStatus(b *strings.Builder, now time.Time) {
 	deg, have := w.hs.latest()
 	switch {
 	case !w.headingOK.Load():
-		fmt.Fprintf(&b, "  %s: no answer", w.headingSourceShort())
+		fmt.Fprintf(b, "  %s: no answer", w.headingSourceShort())
 	case have:
-		fmt.Fprintf(&b, "  %s %.1f°", w.headingSourceShort(), deg)
+		fmt.Fprintf(b, "  %s %.1f°", w.headingSourceShort(), deg)
 	}
 	if w.pos.moving {
 		if f, err := w.pos.src.At(now); err == nil {
-			fmt.Fprintf(&b, "  at %.5f, %.5f", f.LatDeg, f.LonDeg)
+			fmt.Fprintf(b, "  at %.5f, %.5f", f.LatDeg, f.LonDeg)
 		} else {
 			b.WriteString("  position unknown")
 		}
 	}
-	st := w.wr.Stats()
-	fmt.Fprintf(&b, "  bursts %d, bearings %d, stored %d bursts", w.bursts.Load(), w.bearings.Load(), st.Bursts)
-	return b.String()
 }
 
 func (w *watcher) headingSourceShort() string {

@@ -147,6 +147,7 @@ type watcher struct {
 
 	samples   atomic.Int64
 	inputDB   atomic.Uint64 // math.Float64bits of the last block's level
+	lostAt    atomic.Int64  // when the receiver was lost (Unix ns); 0 while it delivers
 	bursts    atomic.Int64
 	bearings  atomic.Int64
 	headingOK atomic.Bool
@@ -256,7 +257,11 @@ func (w *watcher) open(ctx context.Context, cfg sdr.RTLConfig) (sdr.Source, erro
 		// no samples, so sample times after a gap run on from the last
 		// delivered one, and the gap says how much receiver time it lost).
 		return sdr.NewResilientRTLTCP(ctx, w.st.Receiver.RTLTCP, cfg, sdr.ResilientOptions{
+			OnLost: func(error) { w.lostAt.Store(w.now().UnixNano()) },
 			OnGap: func(g sdr.Gap) {
+				if g.Kind == sdr.GapReconnect {
+					w.lostAt.Store(0)
+				}
 				w.logf("warning: receiver %s: gap of %.1f s (about %d samples) before sample %d: %s; carrying on",
 					w.st.Receiver.RTLTCP, g.Lost.Seconds(), g.Missing, g.Index, g.Cause)
 				if w.rec != nil {
@@ -402,7 +407,7 @@ func (w *watcher) run(ctx context.Context) (*Summary, error) {
 func (w *watcher) scan(ctx context.Context, in sdr.Source) error {
 	if len(w.chans) == 1 {
 		l := w.chans[0]
-		_, err := survey.Stream(ctx, in, l.options(), survey.StreamHandler{Piece: l.piece, Record: l.record})
+		_, err := survey.Stream(ctx, in, l.options(), survey.StreamHandler{Piece: l.piece, Record: l.record, Channel: l.channel})
 		return err
 	}
 	ctx, cancel := context.WithCancel(ctx)
@@ -416,7 +421,7 @@ func (w *watcher) scan(ctx context.Context, in sdr.Source) error {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			_, errs[i] = survey.Stream(ctx, f.taps[i], l.options(), survey.StreamHandler{Piece: l.piece, Record: l.record})
+			_, errs[i] = survey.Stream(ctx, f.taps[i], l.options(), survey.StreamHandler{Piece: l.piece, Record: l.record, Channel: l.channel})
 			if errs[i] != nil {
 				once.Do(func() { first = i; cancel() })
 			}
