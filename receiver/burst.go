@@ -161,10 +161,20 @@ type Handler struct {
 	// Progress is called with the number of input samples consumed so
 	// far, after every block.
 	Progress func(samples int64)
-	// Channel is called after every block with the channel's state at its
-	// end (see ChannelState): what a live display shows between pieces,
+	// Reading is called with every reading the detector keeps for an open
+	// burst, in time order, as it is taken: before the piece and the Burst
+	// that hold it. A reading may also come twice (a reading that ended a
+	// group may open the next), and the readings of an open group run from
+	// its pre-roll to the quiet that closed it: the Burst's StartSample and
+	// EndSample say which are its own. A logger that must not lose a long
+	// transmission's level track keeps them from here, not from pieces,
 	// which come only every PieceS − PieceOverlapS seconds.
-	Channel func(ChannelState)
+	Reading func(LevelSample) error
+	// Channel is called after every block with the channel's state at its
+	// end (see ChannelState): what a live display shows between pieces.
+	// Every Burst of a group that has ended was handed over before the
+	// first state that says it is no longer Open.
+	Channel func(ChannelState) error
 }
 
 // ChannelState is the channel as the detector stands after a block.

@@ -3,6 +3,7 @@ package receiver
 import (
 	"context"
 	"encoding/json"
+	"errors"
 	"math"
 	"os"
 	"path/filepath"
@@ -42,7 +43,7 @@ func TestChannelStateFollowsTheCarrier(t *testing.T) {
 	var states []ChannelState
 	if _, err := sc.Scan(context.Background(), src, Handler{
 		Burst:   func(b *Burst) error { bursts = append(bursts, b); return nil },
-		Channel: func(st ChannelState) { states = append(states, st) },
+		Channel: func(st ChannelState) error { states = append(states, st); return nil },
 	}); err != nil {
 		t.Fatal(err)
 	}
@@ -81,5 +82,71 @@ func TestChannelStateFollowsTheCarrier(t *testing.T) {
 	}
 	if inside < 20 || between < 3 || before < 4 {
 		t.Errorf("states checked: %d inside bursts, %d between, %d before the first; too few", inside, between, before)
+	}
+}
+
+// TestReadingsComeBeforeTheirBurst: on the same GNU Radio recording, every
+// reading of each burst's level track (its start edge to its end edge) has
+// been handed to Handler.Reading, with the same level, before the Burst
+// arrives, in time order; and an error from Reading or Channel stops the
+// scan with that error.
+func TestReadingsComeBeforeTheirBurst(t *testing.T) {
+	base := filepath.Join("..", "testdata", "bursts", "steps96k")
+	raw, err := os.ReadFile(base + ".truth.json")
+	if err != nil {
+		t.Fatal(err)
+	}
+	var tr truthFile
+	if err := json.Unmarshal(raw, &tr); err != nil {
+		t.Fatal(err)
+	}
+	scan := func(h Handler) error {
+		src, err := sdr.Open(base+".sigmf-meta", sdr.RawParams{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer src.Close()
+		sc, err := NewScanner(src.Info(), Config{FreqHz: tr.CenterHz + tr.OffsetHz + 150})
+		if err != nil {
+			t.Fatal(err)
+		}
+		_, err = sc.Scan(context.Background(), src, h)
+		return err
+	}
+	seen := map[int64]float64{}
+	last := math.Inf(-1)
+	bursts := 0
+	err = scan(Handler{
+		Reading: func(lv LevelSample) error {
+			if lv.T < last {
+				t.Errorf("reading at %.4f s after one at %.4f s", lv.T, last)
+			}
+			last = lv.T
+			seen[lv.Sample] = lv.LevelDB
+			return nil
+		},
+		Burst: func(b *Burst) error {
+			bursts++
+			if len(b.Level) < 50 {
+				t.Errorf("burst %d keeps %d readings", b.Index, len(b.Level))
+			}
+			for _, lv := range b.Level {
+				if got, ok := seen[lv.Sample]; !ok || got != lv.LevelDB {
+					t.Errorf("burst %d: its reading at %.4f s (%.2f dBFS) was not handed over before it (seen %v, %.2f)", b.Index, lv.T, lv.LevelDB, ok, got)
+					return nil
+				}
+			}
+			return nil
+		},
+	})
+	if err != nil || bursts != len(tr.Bursts) {
+		t.Fatalf("scan: %v, %d bursts (want %d)", err, bursts, len(tr.Bursts))
+	}
+	stop := errors.New("the store is full")
+	if err := scan(Handler{Reading: func(LevelSample) error { return stop }}); !errors.Is(err, stop) {
+		t.Errorf("Reading's error: the scan returned %v", err)
+	}
+	if err := scan(Handler{Channel: func(ChannelState) error { return stop }}); !errors.Is(err, stop) {
+		t.Errorf("Channel's error: the scan returned %v", err)
 	}
 }

@@ -286,6 +286,9 @@ func (s *Scanner) startSegment(r reading, sc int, preStart int64) {
 // store puts one reading of the open group into the kept track and the
 // piece buffer (emitting a piece when it is full).
 func (s *Scanner) store(r reading, fm, am []float32) {
+	if s.h.Reading != nil && s.err == nil {
+		s.err = s.h.Reading(s.levelSample(r))
+	}
 	audio := s.cfg.KeepAudio
 	if len(s.keep.rd) < s.keepN {
 		s.keep.add(r, fm, am, audio, s.keepN)

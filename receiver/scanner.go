@@ -238,7 +238,9 @@ func (s *Scanner) Scan(ctx context.Context, src sdr.Source, h Handler) (Summary,
 				h.Progress(total)
 			}
 			if h.Channel != nil {
-				h.Channel(s.channelState(total))
+				if err := h.Channel(s.channelState(total)); err != nil {
+					return s.summary, err
+				}
 			}
 		}
 		// keep the part of a reading that is not yet whole

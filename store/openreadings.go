@@ -13,16 +13,17 @@ import (
 // they are handed over, instead of in the memory of the process that will
 // write its burst: memory stays flat with transmission length, and a
 // process killed in the middle of it loses only what it had not yet
-// handed over (the watch hands readings over piece by piece, every 12 s
-// at the receiver's defaults) and the last uncommitted batch (about a
-// second), as it does for everything else.
+// handed over (the watch hands readings over after every block the
+// receiver reads) and the last uncommitted batch (about a second), as it
+// does for everything else.
 //
 // The life of an open transmission's readings:
 //   - AddOpenReadings queues them as they come, already thinned;
 //   - AddBurstFromOpen writes the burst when it has ended, moves the open
 //     readings inside it to level_readings and drops every open reading
-//     of the capture up to a sample (the burst's end, or for the first of
-//     the parts of a split burst, the part's end);
+//     of the capture up to a sample (the burst's end);
+//   - DropOpenReadings drops what is left once the transmission's bursts
+//     are all written (its pre-roll, the quiet that closed it);
 //   - RecoverOpen, run before a new session, turns what a process that
 //     died left in open_readings into one burst per capture, cut at its
 //     end and unidentified.
@@ -51,18 +52,39 @@ func (w *Writer) AddOpenReadings(capture CaptureID, noiseDBFS float64, readings 
 }
 
 // AddBurstFromOpen queues a burst whose readings are the capture's open
-// readings with StartSample ≤ sample ≤ EndSample, and then drops every open
-// reading of the capture at or before releaseThrough (a sample index).
-// Like AddBurst, writing a burst that is already stored replaces it and
-// its readings.
-func (w *Writer) AddBurstFromOpen(b Burst, releaseThrough int64) error {
+// readings with from ≤ sample ≤ through (a caller that thins in windows
+// passes the bounds of the windows wholly inside the burst, so that no
+// reading averaged across its edges is kept; StartSample and EndSample
+// for all of it), and then drops every open reading of the capture at or
+// before releaseThrough (a sample index). Like AddBurst, writing a burst
+// that is already stored replaces it and its readings.
+func (w *Writer) AddBurstFromOpen(b Burst, from, through, releaseThrough int64) error {
 	if err := b.Validate(); err != nil {
 		return err
 	}
 	if _, err := w.sampleRate(b.Capture); err != nil {
 		return err
 	}
-	return w.add(&fromOpenItem{b: b, release: releaseThrough})
+	return w.add(&fromOpenItem{b: b, from: from, through: through, release: releaseThrough})
+}
+
+// DropOpenReadings queues the deletion of every open reading of the
+// capture: what is left of a transmission after its bursts were written
+// (the pre-roll and the quiet that closed it) or of one that turned out to
+// be no burst.
+func (w *Writer) DropOpenReadings(capture CaptureID) error {
+	if _, err := w.sampleRate(capture); err != nil {
+		return err
+	}
+	return w.add(&dropOpenItem{capture: capture})
+}
+
+type dropOpenItem struct{ capture CaptureID }
+
+func (it *dropOpenItem) rows() int { return 0 }
+
+func (it *dropOpenItem) write(b *batchTx) error {
+	return b.exec("DELETE FROM open_readings WHERE capture_id = ?", it.capture)
 }
 
 type openItem struct {
@@ -115,8 +137,8 @@ func upsertOpen(n int) string {
 }
 
 type fromOpenItem struct {
-	b       Burst
-	release int64
+	b                      Burst
+	from, through, release int64
 }
 
 func (it *fromOpenItem) rows() int { return 1 }
@@ -141,7 +163,7 @@ func (it *fromOpenItem) write(b *batchTx) error {
 	if err != nil {
 		return err
 	}
-	if err := b.exec(moveOpen, id, x.Capture, x.StartSample, x.EndSample); err != nil {
+	if err := b.exec(moveOpen, id, x.Capture, it.from, it.through); err != nil {
 		return err
 	}
 	if err := b.exec(setReadingRate, id, id); err != nil {

@@ -1,6 +1,7 @@
 package store
 
 import (
+	"fmt"
 	"math"
 	"path/filepath"
 	"testing"
@@ -49,7 +50,7 @@ func TestOpenReadingsMoveToBurst(t *testing.T) {
 	b.StartS, b.EndS = 101, 125
 	b.StartSample, b.EndSample = int64(101*2.4e6), int64(125*2.4e6)
 	b.Start, b.End = t0.Add(101e9), t0.Add(125e9)
-	if err := w.AddBurstFromOpen(b, int64(126*2.4e6)); err != nil {
+	if err := w.AddBurstFromOpen(b, b.StartSample, b.EndSample, int64(126*2.4e6)); err != nil {
 		t.Fatal(err)
 	}
 	if err := w.AddBearing(Bearing{Capture: c, BurstStartSample: b.StartSample, Station: 1, TrueDeg: 10, SigmaDeg: 3,
@@ -66,6 +67,50 @@ func TestOpenReadingsMoveToBurst(t *testing.T) {
 	// Open readings after 126 s stay: 126.025 … 129.975 s, 159 of them.
 	if got := sqliteCLI(t, path, "SELECT count(*), min(t_s) FROM open_readings"); got != "159|126.025" {
 		t.Errorf("sqlite3: open readings left %q, want 159|126.025", got)
+	}
+	mustIntegrity(t, path)
+}
+
+// TestOpenReadingsMoveBounds: the readings moved are those between the
+// bounds given, not the burst's edges (a caller passes the windows wholly
+// inside the burst); DropOpenReadings then leaves none of the capture's,
+// and another capture's stay.
+func TestOpenReadingsMoveBounds(t *testing.T) {
+	db, path := newDB(t)
+	_, c := scene(t, db, "Bounds", 45, 6, 1)
+	_, c2 := scene(t, db, "Other", 45.1, 6, 2)
+	w, err := db.NewWriter(WriterOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := w.AddOpenReadings(c, -70, openTrack(100, 400)); err != nil { // 100 … 109.975 s
+		t.Fatal(err)
+	}
+	if err := w.AddOpenReadings(c2, -70, openTrack(0, 10)); err != nil {
+		t.Fatal(err)
+	}
+	b, _ := burstAt(c, 0, "N0CALL/1")
+	b.StartS, b.EndS = 101, 105
+	b.StartSample, b.EndSample = int64(101*2.4e6), int64(105*2.4e6)
+	b.Start, b.End = t0.Add(101e9), t0.Add(105e9)
+	// Moved: 101.025 … 104.975 s (the edge readings are left out), 159.
+	if err := w.AddBurstFromOpen(b, int64(101.01*2.4e6), int64(104.99*2.4e6), b.EndSample); err != nil {
+		t.Fatal(err)
+	}
+	if err := w.DropOpenReadings(c); err != nil {
+		t.Fatal(err)
+	}
+	if err := w.Close(); err != nil {
+		t.Fatal(err)
+	}
+	if got := sqliteCLI(t, path, "SELECT count(*), min(t_s), max(t_s) FROM level_readings"); got != "159|101.025|104.975" {
+		t.Errorf("sqlite3: the burst's readings %q, want 159|101.025|104.975", got)
+	}
+	if got := sqliteCLI(t, path, fmt.Sprintf("SELECT count(*) FROM open_readings WHERE capture_id = %d", c)); got != "0" {
+		t.Errorf("sqlite3: %s open readings of the capture left after DropOpenReadings", got)
+	}
+	if got := sqliteCLI(t, path, fmt.Sprintf("SELECT count(*) FROM open_readings WHERE capture_id = %d", c2)); got != "10" {
+		t.Errorf("sqlite3: %s open readings of the other capture, want its 10", got)
 	}
 	mustIntegrity(t, path)
 }

@@ -129,9 +129,11 @@ type StreamHandler struct {
 	Piece func(*receiver.Piece) error
 	// Progress gets the input samples consumed.
 	Progress func(int64)
-	// Channel gets the channel's state after every block
-	// (receiver.Handler.Channel).
-	Channel func(receiver.ChannelState)
+	// Reading gets every reading kept for an open burst as it is taken,
+	// and Channel the channel's state after every block
+	// (receiver.Handler.Reading and Channel).
+	Reading func(receiver.LevelSample) error
+	Channel func(receiver.ChannelState) error
 }
 
 // Stream surveys src and hands each record over as its burst ends,
@@ -165,7 +167,7 @@ func stream(ctx context.Context, src sdr.Source, opts Options, idf *ident.Identi
 	// transmission of any length is read with bounded memory) and names it
 	// when its closing burst arrives.
 	var tr *ident.Transmission
-	h := receiver.Handler{Progress: sh.Progress, Channel: sh.Channel}
+	h := receiver.Handler{Progress: sh.Progress, Reading: sh.Reading, Channel: sh.Channel}
 	var fit *bearingScan
 	if opts.Bearing != nil {
 		if fit, err = newBearingScan(*opts.Bearing); err != nil {

@@ -37,11 +37,11 @@ type listener struct {
 	view heading.Track
 
 	// The channel's scan goroutine only.
-	cur      int                  // the burst whose readings are gathered
 	readings []store.LevelReading // thinned, not yet handed to the store
 	raw      []store.LevelReading // not yet thinned (an incomplete window)
 	lastT    float64
-	noise    float64         // the noise under the latest piece, dBFS
+	noise    float64         // the noise readings carry, dBFS (receiver.ChannelState.NoiseDB)
+	held     bool            // readings came since the open readings were last dropped
 	obs      []survey.Record // the latest bursts, for the schedule
 
 	open      atomic.Bool                // a burst is open (receiver.ChannelState.Open)
@@ -60,7 +60,7 @@ func newListener(w *watcher, n int, ch station.Channel) (*listener, error) {
 	}
 	idOpts := ident.DefaultOptions()
 	idOpts.Mode, idOpts.IDs = mode, ch.IDs
-	l := &listener{w: w, ch: ch, cur: -1}
+	l := &listener{w: w, ch: ch, lastT: math.Inf(-1), noise: math.NaN()}
 	if l.idf, err = ident.New(idOpts); err != nil {
 		return nil, fmt.Errorf("%s: %s.ids: %v", w.st.Path, key, err)
 	}
@@ -81,33 +81,32 @@ func (l *listener) options() survey.Options {
 	return o
 }
 
-// piece gathers the burst's readings (every piece's new ones, thinned as
-// they come) and gives the bearing fit the latest headings.
-func (l *listener) piece(p *receiver.Piece) error {
+// piece gives the bearing fit the latest headings.
+func (l *listener) piece(*receiver.Piece) error {
 	l.w.hs.refresh(&l.view)
-	if p.Burst != l.cur {
-		l.cur, l.readings, l.raw, l.lastT = p.Burst, l.readings[:0], l.raw[:0], math.Inf(-1)
-	}
-	l.noise = p.NoiseDB
-	_, _, level := p.Between(p.OnS, p.OffS)
-	for _, lv := range level {
-		if lv.T <= l.lastT {
-			continue // the overlap with the previous piece
-		}
-		l.lastT = lv.T
-		l.raw = append(l.raw, store.LevelReading{Sample: lv.Sample, TimeS: lv.T, LevelDBFS: lv.LevelDB, Clipped: lv.Clipped})
-	}
-	if !p.Last {
-		l.thin(false)
-		return l.flushOpen()
-	}
 	return nil
 }
 
-// channel follows the detector after every block, for the status line: a
-// burst is shown while it is on, not only when a piece of it arrives
-// (every 20 s at the receiver's default).
-func (l *listener) channel(st receiver.ChannelState) {
+// reading keeps one reading of an open burst (receiver.Handler.Reading):
+// every reading the detector keeps goes to the store within about a
+// second (channel), so a run that dies in a transmission that lasts hours
+// loses no more of its level track than that.
+func (l *listener) reading(lv receiver.LevelSample) error {
+	if lv.T <= l.lastT {
+		return nil // a reading that ended one group and opens the next
+	}
+	l.lastT, l.held = lv.T, true
+	l.raw = append(l.raw, store.LevelReading{Sample: lv.Sample, TimeS: lv.T, LevelDBFS: lv.LevelDB, Clipped: lv.Clipped})
+	return nil
+}
+
+// channel follows the detector after every block: the status line's
+// state (a burst is shown while it is on, not only when a piece of it
+// arrives), and the open burst's readings, thinned and handed to the
+// store; once the detector holds no burst, whatever of the last one was
+// not inside a burst (its pre-roll, the quiet that closed it, or all of a
+// group that made no burst) is dropped.
+func (l *listener) channel(st receiver.ChannelState) error {
 	lv, snr := math.NaN(), math.NaN()
 	if st.Carrier {
 		lv, snr = st.LevelDB, st.SNRDB
@@ -115,14 +114,27 @@ func (l *listener) channel(st receiver.ChannelState) {
 	l.open.Store(st.Open)
 	l.channelDB.Store(math.Float64bits(lv))
 	l.snrDB.Store(math.Float64bits(snr))
+	if !math.IsNaN(st.NoiseDB) {
+		l.noise = st.NoiseDB
+	}
+	if st.Open {
+		l.thin(false)
+		return l.flushOpen()
+	}
+	if l.held {
+		l.held = false
+		l.raw, l.readings = l.raw[:0], l.readings[:0]
+		if err := l.w.wr.DropOpenReadings(l.capture); err != nil {
+			return l.w.dbErr(err)
+		}
+	}
+	return nil
 }
 
-// flushOpen hands the burst's thinned readings to the store as open
-// readings (store.Writer.AddOpenReadings) piece by piece: a transmission
-// that lasts hours is not held in memory, and a run that dies loses the
-// readings since the last piece (pieces come every PieceS − PieceOverlapS,
-// 12 s at the receiver's defaults) and what the store had not committed
-// (about a second).
+// flushOpen hands the thinned readings to the store as open readings
+// (store.Writer.AddOpenReadings): a transmission that lasts hours is not
+// held in memory, and a run that dies loses the readings of the last
+// block and what the store had not committed (about a second).
 func (l *listener) flushOpen() error {
 	if len(l.readings) == 0 {
 		return nil
@@ -146,7 +158,7 @@ func (l *listener) thin(final bool) {
 	if len(l.raw) == 0 {
 		return
 	}
-	win := int64(math.Round(l.w.info.SampleRate / store.DefaultReadingsPerS))
+	win := l.thinWindow()
 	cut := len(l.raw)
 	if !final && win > 1 {
 		edge := l.raw[len(l.raw)-1].Sample / win * win
@@ -160,33 +172,29 @@ func (l *listener) thin(final bool) {
 	l.raw = append(l.raw[:0], l.raw[cut:]...)
 }
 
+// thinWindow is the thinning window in samples (store.ThinLevels's), at
+// least 1.
+func (l *listener) thinWindow() int64 {
+	return max(1, int64(math.Round(l.w.info.SampleRate/store.DefaultReadingsPerS)))
+}
+
 // record stores one burst (and its bearing) under the channel's capture,
 // prints its line and refits the channel's slot schedule.
 func (l *listener) record(r survey.Record) error {
 	w := l.w
 	b := logbook.BurstRow(l.capture, r, w.info.SampleRate)
-	if r.Index == l.cur {
-		// The burst's readings are in the store's open readings; the last
-		// part of a burst releases all that are left of it.
-		l.thin(true)
-		if err := l.flushOpen(); err != nil {
-			return err
-		}
-		release := b.EndSample
-		if r.Parts == 0 || r.Part == r.Parts {
-			release = math.MaxInt64
-		}
-		if err := w.wr.AddBurstFromOpen(b, release); err != nil {
-			return w.dbErr(err)
-		}
-	} else {
-		var readings []store.LevelReading
-		for _, lv := range r.Level {
-			readings = append(readings, store.LevelReading{Sample: lv.Sample, TimeS: lv.T, LevelDBFS: lv.LevelDB, Clipped: lv.Clipped})
-		}
-		if err := w.wr.AddBurst(b, readings); err != nil {
-			return w.dbErr(err)
-		}
+	// The burst's readings are in the store's open readings: those of the
+	// thinning windows wholly inside it move under it (a window across an
+	// edge averages the carrier with the noise beside it).
+	l.thin(true)
+	if err := l.flushOpen(); err != nil {
+		return err
+	}
+	win := l.thinWindow()
+	from := (b.StartSample + win - 1) / win * win
+	through := (b.EndSample+1)/win*win - 1
+	if err := w.wr.AddBurstFromOpen(b, from, through, b.EndSample); err != nil {
+		return w.dbErr(err)
 	}
 	l.bursts.Add(1)
 	w.bursts.Add(1)
@@ -213,9 +221,6 @@ func (l *listener) record(r survey.Record) error {
 		}
 	}
 	w.logf("%s", line)
-	if r.Part == 0 || r.Part == r.Parts {
-		l.cur = -1
-	}
 	return l.schedule(r)
 }
 

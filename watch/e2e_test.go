@@ -260,6 +260,30 @@ func TestWatchMatchesSurvey(t *testing.T) {
 		if want := (b.EndS - b.StartS) * store.DefaultReadingsPerS; float64(len(rd)) < 0.8*want || float64(len(rd)) > want+2 {
 			t.Errorf("burst %d (%.1f s): %d level readings stored, want about %.0f", i, b.EndS-b.StartS, len(rd), want)
 		}
+		// The stored readings, handed to the store block by block while
+		// the burst was on, are survey's level track of the burst thinned
+		// (store.ThinLevels) at the same samples.
+		var raw []store.LevelReading
+		for _, lv := range r.Level {
+			raw = append(raw, store.LevelReading{Sample: lv.Sample, TimeS: lv.T, LevelDBFS: lv.LevelDB, Clipped: lv.Clipped})
+		}
+		thin, err := store.ThinLevels(raw, 240000, store.DefaultReadingsPerS)
+		if err != nil {
+			t.Fatal(err)
+		}
+		at := map[int64]float64{}
+		for _, x := range thin {
+			at[x.Sample] = x.LevelDBFS
+		}
+		same := 0
+		for _, x := range rd {
+			if lv, ok := at[x.Sample]; ok && math.Abs(lv-x.LevelDBFS) < 0.01 {
+				same++
+			}
+		}
+		if same < len(rd)-2 {
+			t.Errorf("burst %d: %d of %d stored readings equal survey's thinned track at their sample", i, same, len(rd))
+		}
 		if d := math.Abs(b.StartS - r.StartS); d > 0.05 {
 			t.Errorf("burst %d starts at %.3f s in the watch, %.3f s in survey", i, b.StartS, r.StartS)
 		}

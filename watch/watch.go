@@ -378,6 +378,16 @@ func (w *watcher) run(ctx context.Context) (*Summary, error) {
 	if err := w.storeHeadings(w.hs.take()); err != nil && serr == nil {
 		serr = err
 	}
+	if serr == nil || ctx.Err() != nil {
+		// The scans ended as asked and wrote a burst still on the air as
+		// cut at the end: open readings left are none of a burst's. After a
+		// fault they stay, for the next watch's RecoverOpen.
+		for _, l := range w.chans {
+			if err := w.wr.DropOpenReadings(l.capture); err != nil && serr == nil {
+				serr = err
+			}
+		}
+	}
 	cerr := w.wr.Close()
 	if w.failErr != nil && cerr == nil {
 		cerr = w.failErr
@@ -407,7 +417,7 @@ func (w *watcher) run(ctx context.Context) (*Summary, error) {
 func (w *watcher) scan(ctx context.Context, in sdr.Source) error {
 	if len(w.chans) == 1 {
 		l := w.chans[0]
-		_, err := survey.Stream(ctx, in, l.options(), survey.StreamHandler{Piece: l.piece, Record: l.record, Channel: l.channel})
+		_, err := survey.Stream(ctx, in, l.options(), survey.StreamHandler{Piece: l.piece, Record: l.record, Reading: l.reading, Channel: l.channel})
 		return err
 	}
 	ctx, cancel := context.WithCancel(ctx)
@@ -421,7 +431,7 @@ func (w *watcher) scan(ctx context.Context, in sdr.Source) error {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			_, errs[i] = survey.Stream(ctx, f.taps[i], l.options(), survey.StreamHandler{Piece: l.piece, Record: l.record, Channel: l.channel})
+			_, errs[i] = survey.Stream(ctx, f.taps[i], l.options(), survey.StreamHandler{Piece: l.piece, Record: l.record, Reading: l.reading, Channel: l.channel})
 			if errs[i] != nil {
 				once.Do(func() { first = i; cancel() })
 			}
