@@ -2,10 +2,8 @@ package receiver
 
 import (
 	"context"
-	"encoding/json"
 	"errors"
 	"math"
-	"os"
 	"path/filepath"
 	"testing"
 
@@ -21,14 +19,7 @@ import (
 // line agree), down between bursts, and nothing open before the first.
 func TestChannelStateFollowsTheCarrier(t *testing.T) {
 	base := filepath.Join("..", "testdata", "bursts", "steps96k")
-	raw, err := os.ReadFile(base + ".truth.json")
-	if err != nil {
-		t.Fatal(err)
-	}
-	var tr truthFile
-	if err := json.Unmarshal(raw, &tr); err != nil {
-		t.Fatal(err)
-	}
+	tr := readBurstTruth(t, base)
 	src, err := sdr.Open(base+".sigmf-meta", sdr.RawParams{})
 	if err != nil {
 		t.Fatal(err)
@@ -92,14 +83,7 @@ func TestChannelStateFollowsTheCarrier(t *testing.T) {
 // scan with that error.
 func TestReadingsComeBeforeTheirBurst(t *testing.T) {
 	base := filepath.Join("..", "testdata", "bursts", "steps96k")
-	raw, err := os.ReadFile(base + ".truth.json")
-	if err != nil {
-		t.Fatal(err)
-	}
-	var tr truthFile
-	if err := json.Unmarshal(raw, &tr); err != nil {
-		t.Fatal(err)
-	}
+	tr := readBurstTruth(t, base)
 	scan := func(h Handler) error {
 		src, err := sdr.Open(base+".sigmf-meta", sdr.RawParams{})
 		if err != nil {
@@ -116,7 +100,7 @@ func TestReadingsComeBeforeTheirBurst(t *testing.T) {
 	seen := map[int64]float64{}
 	last := math.Inf(-1)
 	bursts := 0
-	err = scan(Handler{
+	err := scan(Handler{
 		Reading: func(lv LevelSample) error {
 			if lv.T < last {
 				t.Errorf("reading at %.4f s after one at %.4f s", lv.T, last)

@@ -6,7 +6,6 @@ import (
 	"io"
 	"math"
 	"math/rand/v2"
-	"os"
 	"os/exec"
 	"path/filepath"
 	"sort"
@@ -61,16 +60,7 @@ func makeField(t *testing.T, args ...string) string {
 }
 
 func readTruth(t *testing.T, path string) fieldTruth {
-	t.Helper()
-	raw, err := os.ReadFile(path)
-	if err != nil {
-		t.Fatal(err)
-	}
-	var tr fieldTruth
-	if err := json.Unmarshal(raw, &tr); err != nil {
-		t.Fatal(err)
-	}
-	return tr
+	return testtool.ReadJSON[fieldTruth](t, path)
 }
 
 // scanField scans a cu8 fixture tuned to its channel.

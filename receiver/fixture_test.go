@@ -2,12 +2,11 @@ package receiver
 
 import (
 	"context"
-	"encoding/json"
 	"math"
-	"os"
 	"path/filepath"
 	"testing"
 
+	"nullseek/internal/testtool"
 	"nullseek/sdr"
 )
 
@@ -29,6 +28,12 @@ func scanFile(t *testing.T, path string, cfg Config) ([]*Burst, Summary) {
 
 // scanWith opens path with p (the zero value for a self-describing file)
 // and returns every burst the scanner reports with its summary.
+// readBurstTruth reads the truth make_bursts.py wrote beside recording
+// base (a path without extension).
+func readBurstTruth(t *testing.T, base string) truthFile {
+	return testtool.ReadJSON[truthFile](t, base+".truth.json")
+}
+
 func scanWith(t *testing.T, path string, p sdr.RawParams, cfg Config) ([]*Burst, Summary) {
 	t.Helper()
 	src, err := sdr.Open(path, p)
@@ -58,14 +63,7 @@ func TestGNURadioBurstFixtures(t *testing.T) {
 	for _, name := range []string{"steps96k", "neg240k"} {
 		t.Run(name, func(t *testing.T) {
 			base := filepath.Join("..", "testdata", "bursts", name)
-			raw, err := os.ReadFile(base + ".truth.json")
-			if err != nil {
-				t.Fatal(err)
-			}
-			var tr truthFile
-			if err := json.Unmarshal(raw, &tr); err != nil {
-				t.Fatal(err)
-			}
+			tr := readBurstTruth(t, base)
 			// Tune with the absolute frequency, as a user would.
 			got, sum := scanFile(t, base+".sigmf-meta", Config{FreqHz: tr.CenterHz + tr.OffsetHz + 150})
 			if len(got) != len(tr.Bursts) {

@@ -3,8 +3,10 @@ package testtool
 import (
 	"bytes"
 	"context"
+	"encoding/json"
 	"io"
 	"net"
+	"os"
 	"os/exec"
 	"strconv"
 	"strings"
@@ -109,4 +111,19 @@ func ServeTCP(t testing.TB, handle func(ctx context.Context, c net.Conn)) string
 		}
 	}()
 	return ln.Addr().String()
+}
+
+// ReadJSON decodes the JSON file at path into a T, failing the test when
+// it cannot be read or decoded.
+func ReadJSON[T any](t testing.TB, path string) T {
+	t.Helper()
+	var v T
+	raw, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := json.Unmarshal(raw, &v); err != nil {
+		t.Fatalf("%s: %v", path, err)
+	}
+	return v
 }
