@@ -96,10 +96,12 @@ func buildNullseek(t *testing.T, dir string) string {
 }
 
 // TestWatchKill9: a `nullseek watch` process killed with SIGKILL (no
-// clean-up at all) 1.5 s after it printed its first burst leaves a
-// database that sqlite3 finds sound and that holds that burst and the
-// headings up to the last commit; a second watch on the same database
-// opens it, adds its own capture to the same station and ends cleanly.
+// clean-up at all) 5 s after it printed its first burst, in the middle of
+// the next, leaves a database that sqlite3 finds sound and that holds that
+// burst, the next one's readings so far and the headings up to the last
+// commit; a second watch on the same database recovers the cut burst
+// (and says so), adds its own capture to the same station and ends
+// cleanly.
 func TestWatchKill9(t *testing.T) {
 	t.Parallel()
 	dir := t.TempDir()
@@ -144,7 +146,9 @@ wait:
 			t.Fatalf("no burst line in 60 s:\n%s", strings.Join(seen, "\n"))
 		}
 	}
-	time.Sleep(1500 * time.Millisecond) // the Writer commits at least every second
+	// Into the next burst (17 s on, 2 s off, keyed from 0.5 s in), with a
+	// commit since: the Writer commits at least every second.
+	time.Sleep(5 * time.Second)
 	if err := cmd.Process.Signal(os.Kill); err != nil {
 		t.Fatal(err)
 	}
@@ -181,6 +185,18 @@ wait:
 	}
 	if after["captures"] != 2 || after["stations"] != 1 || after["headings"] <= counts["headings"] || after["bursts"] < counts["bursts"] {
 		t.Errorf("the second run left %v (before: %v); want a second capture of the same station, more headings, the bursts kept", after, counts)
+	}
+	// The kill came seconds into the next burst: its readings were in
+	// open_readings (40 a second); the second run says it recovered them
+	// as a burst, and ends cleanly with none left.
+	if counts["open_readings"] < 40 {
+		t.Errorf("the kill 5 s after a burst line left %d open readings of the next burst; want its readings so far", counts["open_readings"])
+	}
+	if !strings.Contains(string(out), "a transmission was still on the air when an earlier run stopped") {
+		t.Errorf("the kill left %d open readings; the second run did not say it recovered them:\n%s", counts["open_readings"], out)
+	}
+	if after["open_readings"] != 0 || after["bursts"] < counts["bursts"]+1 {
+		t.Errorf("after the second run: %d open readings, %d bursts (before: %d); want none left and the recovered burst stored", after["open_readings"], after["bursts"], counts["bursts"])
 	}
 
 	// SIGTERM (as a service manager stops it) ends a third run cleanly:

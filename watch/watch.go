@@ -332,7 +332,11 @@ func (w *watcher) run(ctx context.Context) (*Summary, error) {
 	if n, err := w.o.DB.RecoverOpen(); err != nil {
 		return nil, w.dbErr(err)
 	} else if n > 0 {
-		w.logf("%d transmission(s) still on the air when an earlier run stopped: stored as bursts cut at their end", n)
+		if n == 1 {
+			w.logf("a transmission was still on the air when an earlier run stopped: stored as a burst cut at its end")
+		} else {
+			w.logf("%d transmissions were still on the air when an earlier run stopped: stored as bursts cut at their end", n)
+		}
 	}
 	wo := w.o.Writer
 	if wo.FlushInterval == 0 {
