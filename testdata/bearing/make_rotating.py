@@ -289,14 +289,19 @@ def main():
 
     Rotating(a).run()
 
+    # How the description names the antenna (--pattern).
+    ANTENNA_WORDS = {"loop": "small loop", "loop-plane": "small loop (plane-wave pattern)", "yagi": "Yagi",
+                     "body": "body-shielded receiver"}
+
     meta = {
         "global": {
             "core:datatype": a.datatype,
             "core:sample_rate": a.rate,
             "core:version": "1.2.0",
             "core:author": "nullseek testdata (GNU Radio %s)" % gr.version(),
-            "core:description": "invented fixture: NBFM %g Hz tone at %+g Hz, small loop turning %g deg/s, bearing %g deg"
-            % (a.tone, a.offset, a.turn_rate, a.bearing),
+            "core:description": "invented fixture: NBFM %g Hz tone at %+g Hz, %s %s %g deg/s, bearing %g deg"
+            % (a.tone, a.offset, ANTENNA_WORDS[a.pattern],
+               "turning" if a.sweep == "turn" else "sweeping %g deg back and forth at" % a.arc, a.turn_rate, a.bearing),
             "core:recorder": "testdata/bearing/make_rotating.py",
         },
         "captures": [{"core:sample_start": 0, "core:frequency": 144800000.0, "core:datetime": "2025-01-01T00:00:00.000Z"}],
