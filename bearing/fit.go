@@ -101,6 +101,19 @@ func (o FitOptions) Validate() error {
 // comes with a sentence in Estimate.Warnings.
 type Flag string
 
+// FlagNames returns the flags as strings, in order (nil for none), as the
+// outputs list them.
+func FlagNames(fs []Flag) []string {
+	if len(fs) == 0 {
+		return nil
+	}
+	names := make([]string, len(fs))
+	for i, f := range fs {
+		names[i] = string(f)
+	}
+	return names
+}
+
 const (
 	// FlagPartial: the sweep covered the pattern's feature but not the
 	// whole circle.

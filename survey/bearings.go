@@ -503,9 +503,7 @@ func (b BurstBearing) MarshalJSON() ([]byte, error) {
 		u := e.Usage
 		l.Readings = &usageJSON{u.Readings, u.Used, u.Clipped, u.KeyUp, u.BelowNoise, u.Outliers, u.Unfitted}
 		l.Mode = e.Mode.String()
-		for _, f := range e.Flags {
-			l.Flags = append(l.Flags, string(f))
-		}
+		l.Flags = bearing.FlagNames(e.Flags)
 		l.Warnings = append(l.Warnings, e.Warnings...)
 		if l.BearingDeg == nil || l.SigmaDeg == nil {
 			l.BurstsUsed = 0
@@ -585,9 +583,7 @@ func (t TxBearing) MarshalJSON() ([]byte, error) {
 		for _, e := range c.Excluded {
 			l.Excluded = append(l.Excluded, excludedJSON{j.num("excluded.bearing_deg", e.BearingDeg, 2), e.Reason})
 		}
-		for _, f := range t.Flags {
-			l.Flags = append(l.Flags, string(f))
-		}
+		l.Flags = bearing.FlagNames(t.Flags)
 		l.Warnings = append(l.Warnings, c.Warnings...)
 		if l.BearingDeg == nil || l.SigmaDeg == nil {
 			l.BurstsUsed = 0
@@ -690,11 +686,7 @@ func WriteBearingTable(w io.Writer, bbs []BurstBearing, txs []TxBearing, refNote
 		}
 		var notes []string
 		if len(t.Flags) > 0 {
-			var fs []string
-			for _, f := range t.Flags {
-				fs = append(fs, string(f))
-			}
-			notes = append(notes, "flags: "+strings.Join(fs, ", "))
+			notes = append(notes, "flags: "+strings.Join(bearing.FlagNames(t.Flags), ", "))
 		}
 		notes = append(notes, c.Warnings...)
 		for _, x := range c.Excluded {
