@@ -19,6 +19,25 @@ import (
 // day would take about 640 MB unthinned and 130 MB thinned.
 const DefaultReadingsPerS = 40.0
 
+// ThinWindow is ThinLevels's window W in capture samples:
+// round(sampleRateHz/perS), at least 1 (perS ≤ 0 means
+// DefaultReadingsPerS).
+func ThinWindow(sampleRateHz, perS float64) int64 {
+	if perS <= 0 {
+		perS = DefaultReadingsPerS
+	}
+	return max(1, int64(math.Round(sampleRateHz/perS)))
+}
+
+// WholeWindows bounds the ThinLevels windows that lie wholly inside
+// [start, end] (capture samples): thinned readings with from ≤ Sample ≤
+// through are those of the windows that averaged nothing from outside it.
+// from > through when no window fits.
+func WholeWindows(start, end int64, sampleRateHz, perS float64) (from, through int64) {
+	w := ThinWindow(sampleRateHz, perS)
+	return (start + w - 1) / w * w, (end+1)/w*w - 1
+}
+
 // ThinLevels reduces readings to at most perS a second, as a slower power
 // meter would have read them: readings are grouped into windows of
 // W = round(sampleRateHz/perS) capture samples aligned on sample 0 (window
@@ -52,7 +71,7 @@ func ThinLevels(in []LevelReading, sampleRateHz, perS float64) ([]LevelReading, 
 			return nil, fmt.Errorf("%w: level reading %d (sample %d) is not after sample %d", ErrBadRow, i, r.Sample, in[i-1].Sample)
 		}
 	}
-	w := int64(math.Round(sampleRateHz / perS))
+	w := ThinWindow(sampleRateHz, perS)
 	if w <= 1 || len(in) == 0 {
 		return in, nil
 	}

@@ -108,3 +108,28 @@ func TestThinLevelsEdges(t *testing.T) {
 		}
 	}
 }
+
+// TestWholeWindows: at 240 kS/s and 40 readings a second the windows are
+// 6000 samples (k·6000 … k·6000+5999); the bounds keep exactly the
+// windows inside [start, end], and a thinned track cut to them holds no
+// window that reached outside.
+func TestWholeWindows(t *testing.T) {
+	for _, c := range []struct{ start, end, from, through int64 }{
+		{6000, 23999, 6000, 23999},
+		{6001, 23999, 12000, 23999},
+		{6000, 23998, 6000, 17999},
+		{5999, 12000, 6000, 11999},
+		{6001, 11999, 12000, 11999}, // no whole window
+	} {
+		from, through := WholeWindows(c.start, c.end, 240000, 40)
+		if from != c.from || through != c.through {
+			t.Errorf("WholeWindows(%d, %d) = %d, %d; want %d, %d", c.start, c.end, from, through, c.from, c.through)
+		}
+	}
+	if w := ThinWindow(240000, 0); w != 6000 {
+		t.Errorf("ThinWindow at the default rate = %d, want 6000", w)
+	}
+	if w := ThinWindow(100, 400); w != 1 {
+		t.Errorf("ThinWindow above the sample rate = %d, want 1", w)
+	}
+}
