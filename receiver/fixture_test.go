@@ -26,14 +26,14 @@ func scanFile(t *testing.T, path string, cfg Config) ([]*Burst, Summary) {
 	return scanWith(t, path, sdr.RawParams{}, cfg)
 }
 
-// scanWith opens path with p (the zero value for a self-describing file)
-// and returns every burst the scanner reports with its summary.
 // readBurstTruth reads the truth make_bursts.py wrote beside recording
 // base (a path without extension).
 func readBurstTruth(t *testing.T, base string) truthFile {
 	return testtool.ReadJSON[truthFile](t, base+".truth.json")
 }
 
+// scanWith opens path with p (the zero value for a self-describing file)
+// and returns every burst the scanner reports with its summary.
 func scanWith(t *testing.T, path string, p sdr.RawParams, cfg Config) ([]*Burst, Summary) {
 	t.Helper()
 	src, err := sdr.Open(path, p)

@@ -81,6 +81,11 @@ func (l *listener) options() survey.Options {
 	return o
 }
 
+// handler is what the channel's survey.Stream hands its findings to.
+func (l *listener) handler() survey.StreamHandler {
+	return survey.StreamHandler{Piece: l.piece, Record: l.record, Reading: l.reading, Channel: l.channel}
+}
+
 // piece gives the bearing fit the latest headings.
 func (l *listener) piece(*receiver.Piece) error {
 	l.w.hs.refresh(&l.view)
@@ -158,7 +163,7 @@ func (l *listener) thin(final bool) {
 	if len(l.raw) == 0 {
 		return
 	}
-	win := l.thinWindow()
+	win := store.ThinWindow(l.w.info.SampleRate, store.DefaultReadingsPerS)
 	cut := len(l.raw)
 	if !final && win > 1 {
 		edge := l.raw[len(l.raw)-1].Sample / win * win
@@ -170,12 +175,6 @@ func (l *listener) thin(final bool) {
 		l.readings = append(l.readings, th...)
 	}
 	l.raw = append(l.raw[:0], l.raw[cut:]...)
-}
-
-// thinWindow is the thinning window in samples (store.ThinLevels's), at
-// least 1.
-func (l *listener) thinWindow() int64 {
-	return max(1, int64(math.Round(l.w.info.SampleRate/store.DefaultReadingsPerS)))
 }
 
 // record stores one burst (and its bearing) under the channel's capture,
@@ -190,9 +189,7 @@ func (l *listener) record(r survey.Record) error {
 	if err := l.flushOpen(); err != nil {
 		return err
 	}
-	win := l.thinWindow()
-	from := (b.StartSample + win - 1) / win * win
-	through := (b.EndSample+1)/win*win - 1
+	from, through := store.WholeWindows(b.StartSample, b.EndSample, w.info.SampleRate, store.DefaultReadingsPerS)
 	if err := w.wr.AddBurstFromOpen(b, from, through, b.EndSample); err != nil {
 		return w.dbErr(err)
 	}
@@ -213,11 +210,7 @@ func (l *listener) record(r survey.Record) error {
 			line += fmt.Sprintf(" (or %.1f°)", *br.AltTrueDeg)
 		}
 		if fs := r.Fit.Est.Flags; len(fs) > 0 {
-			names := make([]string, len(fs))
-			for i, f := range fs {
-				names[i] = string(f)
-			}
-			line += ", flags: " + strings.Join(names, ", ")
+			line += ", flags: " + strings.Join(bearing.FlagNames(fs), ", ")
 		}
 	}
 	w.logf("%s", line)

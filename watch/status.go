@@ -37,12 +37,9 @@ func (w *watcher) showStatus(ctx context.Context) {
 // period, how far the stream is behind the wall clock (samples late or
 // dropped on the way: a live stream that falls behind loses samples at the
 // server), the process's CPU time over wall time (1 = one core busy), the
-// input level and the state of each channel (or, while the receiver is
-// lost and being redialled, when it was lost) (named by its frequency): on, with the newest
-// reading's level and SNR while the carrier is up, "carrier down" between
-// a keyed burst's elements and until the burst is handed over, quiet with
-// its last burst's level and SNR otherwise; the heading and the rows
-// stored.
+// input level and each channel's state (channelStatus) — or, while the
+// receiver is lost and being redialled, when it was lost — then the
+// heading and the rows stored.
 func (w *watcher) statusLine(now time.Time, wall time.Duration, samples int64, cpu time.Duration, cpuOK bool) string {
 	var b strings.Builder
 	fmt.Fprintf(&b, "status %s", now.UTC().Format(time.TimeOnly))
@@ -68,7 +65,11 @@ func (w *watcher) statusLine(now time.Time, wall time.Duration, samples int64, c
 	return b.String()
 }
 
-// channelStatus is the status line's input level and channel states.
+// channelStatus is the status line's input level and channel states, each
+// channel named by its frequency: on, with the newest reading's level and
+// SNR, while the carrier is up; "on, carrier down" between a keyed burst's
+// elements and until the burst is handed over; quiet, with the last
+// burst's level and SNR, otherwise.
 func (w *watcher) channelStatus(b *strings.Builder) {
 	fmt.Fprintf(b, "  input %s", capture.LevelBar(math.Float64frombits(w.inputDB.Load())))
 	for _, l := range w.chans {

@@ -421,7 +421,7 @@ func (w *watcher) run(ctx context.Context) (*Summary, error) {
 func (w *watcher) scan(ctx context.Context, in sdr.Source) error {
 	if len(w.chans) == 1 {
 		l := w.chans[0]
-		_, err := survey.Stream(ctx, in, l.options(), survey.StreamHandler{Piece: l.piece, Record: l.record, Reading: l.reading, Channel: l.channel})
+		_, err := survey.Stream(ctx, in, l.options(), l.handler())
 		return err
 	}
 	ctx, cancel := context.WithCancel(ctx)
@@ -435,7 +435,7 @@ func (w *watcher) scan(ctx context.Context, in sdr.Source) error {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			_, errs[i] = survey.Stream(ctx, f.taps[i], l.options(), survey.StreamHandler{Piece: l.piece, Record: l.record, Reading: l.reading, Channel: l.channel})
+			_, errs[i] = survey.Stream(ctx, f.taps[i], l.options(), l.handler())
 			if errs[i] != nil {
 				once.Do(func() { first = i; cancel() })
 			}
