@@ -78,13 +78,18 @@ func (e *HamlibError) Error() string {
 }
 
 // parseRPRT reads a "RPRT n" line; ok is false if the line is not one.
+// rotctld writes it as "RPRT %d" (Hamlib 4.5.4 rotctl_parse.c, from
+// memory): one space, then the code in plain decimal. Anything else after
+// "RPRT" ("RPRT-01", "RPRT  1", "RPRT +0") is a malformed reply, not a
+// code read generously.
 func parseRPRT(line string) (code int, ok bool, err error) {
 	rest, found := strings.CutPrefix(strings.TrimSpace(line), "RPRT")
 	if !found {
 		return 0, false, nil
 	}
-	code, err = strconv.Atoi(strings.TrimSpace(rest))
-	if err != nil {
+	field, spaced := strings.CutPrefix(rest, " ")
+	code, err = strconv.Atoi(field)
+	if !spaced || err != nil || strconv.Itoa(code) != field {
 		return 0, true, fmt.Errorf("malformed reply %q", line)
 	}
 	return code, true, nil

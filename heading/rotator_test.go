@@ -286,6 +286,9 @@ func TestParseRotctldReplies(t *testing.T) {
 		{"RPRT -1\n", true, -1, false, 0, true},
 		{"RPRT -22\n", true, -22, false, 0, true},
 		{"RPRT x\n", true, 0, true, 0, true},
+		{"RPRT-01\n", true, 0, true, 0, true}, // found by FuzzRotctldReply: not "RPRT %d"
+		{"RPRT -01\n", true, 0, true, 0, true},
+		{"RPRT\t0\n", true, 0, true, 0, true},
 		{"5.43\n", false, 0, false, 5.43, false},
 		{"90.000000\n", false, 0, false, 90, false},
 		{"-180.00\n", false, 0, false, -180, false},
